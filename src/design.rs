@@ -1,0 +1,951 @@
+//! A validated design: the three input files read, references resolved, and
+//! every invariant the model relies on checked, each failure pointing at the
+//! field that breaks it.
+//!
+//! **Invariant:** a [`Design`] that exists satisfies every check below, so
+//! the model never meets a zero inductance, a plateau below the threshold or
+//! an ambient above T_j max.
+
+use crate::bundled::{self, Kind};
+use crate::diagnostic::InputError;
+use crate::load::{Origin, SourceFile};
+use crate::spec::*;
+use crate::units::{format_quantity, Dimension};
+
+/// The engineer's drive with its board and switch, all checked.
+#[derive(Debug, Clone)]
+pub struct Design {
+    pub spec: DesignSpec,
+    pub board: BoardSpec,
+    pub switch: SwitchSpec,
+    /// The files read, in the order design, board, switch (when separate).
+    pub sources: Vec<SourceFile>,
+    /// Back-EMF at the operating speed.
+    pub back_emf_v: f64,
+    /// Back-EMF constant in V·s/rad, whichever way the motor was described.
+    pub k_e_v_s_per_rad: f64,
+    /// Hottest junction allowed by the design's constraint.
+    pub t_j_limit_c: f64,
+}
+
+/// Load and check a design and everything it references.
+pub fn load_design(origin: Origin) -> Result<Design, InputError> {
+    let design_src = SourceFile::read(origin)?;
+    let file: DesignFile = design_src.parse()?;
+    let spec = file.design;
+    let board_origin = design_src
+        .origin
+        .resolve(&spec.board, Kind::Board)
+        .map_err(|m| design_src.error("design.board", m))?;
+    let board_src = SourceFile::read(board_origin).map_err(|e| {
+        // A missing board is the design's fault: point at the reference.
+        if e.position.is_none() {
+            design_src.error("design.board", format!("{}: {}", e.file, e.message))
+        } else {
+            e
+        }
+    })?;
+    let board_file: BoardFile = board_src.parse()?;
+    let board = board_file.board;
+
+    let mut sources = vec![design_src, board_src];
+    let switch = match &board.stage.switch {
+        SwitchRef::Inline(s) => {
+            check_switch(s, &sources[1], "board.stage.switch")?;
+            (**s).clone()
+        }
+        SwitchRef::Path(reference) => {
+            let (s, src) = load_switch_from(&sources[1], reference, "board.stage.switch")?;
+            sources.push(src);
+            s
+        }
+    };
+    check_board(&board, &switch, &sources[1])?;
+    let derived = check_design(&spec, &board, &switch, &sources[0])?;
+    Ok(Design {
+        spec,
+        board,
+        switch,
+        sources,
+        back_emf_v: derived.0,
+        k_e_v_s_per_rad: derived.1,
+        t_j_limit_c: derived.2,
+    })
+}
+
+/// Load and check a switch file named by `reference` inside `from`.
+fn load_switch_from(
+    from: &SourceFile,
+    reference: &str,
+    field: &str,
+) -> Result<(SwitchSpec, SourceFile), InputError> {
+    let origin = from
+        .origin
+        .resolve(reference, Kind::Switch)
+        .map_err(|m| from.error(field, m))?;
+    let src = SourceFile::read(origin).map_err(|e| {
+        if e.position.is_none() {
+            from.error(field, format!("{}: {}", e.file, e.message))
+        } else {
+            e
+        }
+    })?;
+    let file: SwitchFile = src.parse()?;
+    check_switch(&file.switch, &src, "switch")?;
+    Ok((file.switch, src))
+}
+
+/// Load and check a switch file on its own (for comparing switches).
+pub fn load_switch(origin: Origin) -> Result<(SwitchSpec, SourceFile), InputError> {
+    let src = SourceFile::read(origin)?;
+    let file: SwitchFile = src.parse()?;
+    check_switch(&file.switch, &src, "switch")?;
+    Ok((file.switch, src))
+}
+
+/// Resolve a command-line switch argument: a path, or `bundled:NAME`.
+pub fn switch_origin(arg: &str) -> Result<Origin, InputError> {
+    match arg.strip_prefix("bundled:") {
+        Some(name) => bundled::find(name, Kind::Switch)
+            .map(|p| Origin::Bundled(p.to_string()))
+            .ok_or_else(|| InputError::file(arg, format!("no bundled switch named \"{name}\""))),
+        None => Ok(Origin::Disk(arg.into())),
+    }
+}
+
+fn fmt(v: f64, dim: Dimension) -> String {
+    format_quantity(v, dim, 3)
+}
+
+/// Field checks within one file; paths are `prefix.field`.
+struct Check<'a> {
+    src: &'a SourceFile,
+    prefix: &'a str,
+}
+
+impl Check<'_> {
+    fn path(&self, field: &str) -> String {
+        if self.prefix.is_empty() {
+            field.to_string()
+        } else {
+            format!("{}.{field}", self.prefix)
+        }
+    }
+
+    fn fail(&self, field: &str, message: impl Into<String>) -> InputError {
+        self.src.error(&self.path(field), message)
+    }
+
+    /// `lo < v ≤ hi` (or `lo ≤ v` when `zero_ok`), with a message in units.
+    fn within(
+        &self,
+        field: &str,
+        v: f64,
+        lo: f64,
+        hi: f64,
+        dim: Dimension,
+    ) -> Result<(), InputError> {
+        if !v.is_finite() {
+            return Err(self.fail(field, "expected a finite value"));
+        }
+        if v <= lo || v > hi {
+            return Err(self.fail(
+                field,
+                format!(
+                    "{} is out of range; expected above {} and at most {}",
+                    fmt(v, dim),
+                    fmt(lo, dim),
+                    fmt(hi, dim)
+                ),
+            ));
+        }
+        Ok(())
+    }
+
+    /// `0 ≤ v ≤ hi`.
+    fn non_negative(&self, field: &str, v: f64, hi: f64, dim: Dimension) -> Result<(), InputError> {
+        if !v.is_finite() || v < 0.0 || v > hi {
+            return Err(self.fail(
+                field,
+                format!(
+                    "{} is out of range; expected 0 to {}",
+                    fmt(v, dim),
+                    fmt(hi, dim)
+                ),
+            ));
+        }
+        Ok(())
+    }
+
+    /// min ≤ typ ≤ max for a datasheet spread.
+    fn spread<D: Dim>(&self, field: &str, s: &Spread<D>) -> Result<(), InputError> {
+        let dim = D::DIM;
+        if let Some(min) = s.min {
+            if min.si > s.typ.si {
+                return Err(self.fail(
+                    &format!("{field}.min"),
+                    format!(
+                        "min {} is above typ {}; expected min ≤ typ",
+                        fmt(min.si, dim),
+                        fmt(s.typ.si, dim)
+                    ),
+                ));
+            }
+        }
+        if let Some(max) = s.max {
+            if max.si < s.typ.si {
+                return Err(self.fail(
+                    &format!("{field}.max"),
+                    format!(
+                        "max {} is below typ {}; expected max ≥ typ",
+                        fmt(max.si, dim),
+                        fmt(s.typ.si, dim)
+                    ),
+                ));
+            }
+        }
+        Ok(())
+    }
+}
+
+const V: Dimension = Dimension::Voltage;
+const A: Dimension = Dimension::Current;
+const OHM: Dimension = Dimension::Resistance;
+const F: Dimension = Dimension::Capacitance;
+const C: Dimension = Dimension::Charge;
+const S: Dimension = Dimension::Time;
+const HZ: Dimension = Dimension::Frequency;
+const DEG: Dimension = Dimension::Temperature;
+const KW: Dimension = Dimension::ThermalResistance;
+
+/// Every check on one switch's datasheet values.
+pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<(), InputError> {
+    let c = Check { src, prefix };
+    if s.name.trim().is_empty() {
+        return Err(c.fail("name", "expected a name for the switch"));
+    }
+    c.within("v_dss", s.v_dss.si, 0.0, 2000.0, V)?;
+    c.within("i_d", s.i_d.si, 0.0, 2000.0, A)?;
+    c.within("r_ds_on.typ", s.r_ds_on.typ.si, 0.0, 10.0, OHM)?;
+    if let Some(max) = s.r_ds_on.max {
+        c.within("r_ds_on.max", max.si, 0.0, 10.0, OHM)?;
+        if max.si < s.r_ds_on.typ.si {
+            return Err(c.fail("r_ds_on.max", "max is below typ; expected max ≥ typ"));
+        }
+    }
+    c.within("r_ds_on.at_v_gs", s.r_ds_on.at_v_gs.si, 0.0, 30.0, V)?;
+    match &s.r_ds_on_vs_temperature {
+        Some(RdsOnTemperatureSpec::Points(points)) => {
+            if points.len() < 2 {
+                return Err(c.fail(
+                    "r_ds_on_vs_temperature.points",
+                    "expected at least two [temperature, factor] points",
+                ));
+            }
+            for (i, (t, k)) in points.iter().enumerate() {
+                let f = format!("r_ds_on_vs_temperature.points[{i}]");
+                c.within(&format!("{f}[0]"), t.si, -100.0, 300.0, DEG)?;
+                if !(k.is_finite() && *k > 0.1 && *k < 10.0) {
+                    return Err(c.fail(&format!("{f}[1]"), format!("factor {k} is out of range; expected a factor relative to 25 °C between 0.1 and 10")));
+                }
+                if i > 0 && t.si <= points[i - 1].0.si {
+                    return Err(c.fail(
+                        &format!("{f}[0]"),
+                        "temperatures must increase from point to point",
+                    ));
+                }
+            }
+        }
+        Some(RdsOnTemperatureSpec::Coefficient(k)) => {
+            c.within(
+                "r_ds_on_vs_temperature.coefficient",
+                k.si,
+                0.0,
+                0.03,
+                Dimension::TemperatureCoefficient,
+            )?;
+        }
+        None => {}
+    }
+    c.spread("v_th", &s.v_th)?;
+    c.within("v_th.typ", s.v_th.typ.si, 0.0, 15.0, V)?;
+    if let Some(g) = s.g_fs {
+        c.within("g_fs", g.si, 0.0, 10_000.0, Dimension::Conductance)?;
+    }
+    if let Some(vp) = s.v_plateau {
+        c.within("v_plateau", vp.si, 0.0, 20.0, V)?;
+        if vp.si <= s.v_th.typ.si {
+            return Err(c.fail(
+                "v_plateau",
+                format!(
+                    "plateau {} is not above V_th typ {}; expected V_plateau > V_th",
+                    fmt(vp.si, V),
+                    fmt(s.v_th.typ.si, V)
+                ),
+            ));
+        }
+    }
+    if s.g_fs.is_none() && s.v_plateau.is_none() {
+        return Err(c.fail(
+            "g_fs",
+            "missing; give g_fs or v_plateau so the Miller plateau can be found",
+        ));
+    }
+    c.within("q_g.typ", s.q_g.typ.si, 0.0, 1e-5, C)?;
+    if let Some(max) = s.q_g.max {
+        if max.si < s.q_g.typ.si {
+            return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
+        }
+    }
+    c.within("q_g.at_v_gs", s.q_g.at_v_gs.si, 0.0, 30.0, V)?;
+    c.spread("q_gs", &s.q_gs)?;
+    c.spread("q_gd", &s.q_gd)?;
+    c.within("q_gs", s.q_gs.typ.si, 0.0, 1e-5, C)?;
+    c.within("q_gd", s.q_gd.typ.si, 0.0, 1e-5, C)?;
+    let q_g = s.q_g.typ.si;
+    if s.q_gd.typ.si > q_g {
+        return Err(c.fail(
+            "q_gd",
+            format!(
+                "{} is larger than q_g ({}); expected q_gd < q_g",
+                fmt(s.q_gd.typ.si, C),
+                fmt(q_g, C)
+            ),
+        ));
+    }
+    if s.q_gs.typ.si > q_g {
+        return Err(c.fail(
+            "q_gs",
+            format!(
+                "{} is larger than q_g ({}); expected q_gs < q_g",
+                fmt(s.q_gs.typ.si, C),
+                fmt(q_g, C)
+            ),
+        ));
+    }
+    if s.q_gs.typ.si + s.q_gd.typ.si > q_g {
+        return Err(c.fail(
+            "q_gd",
+            format!(
+                "q_gs + q_gd ({}) exceeds q_g ({}); expected q_gs + q_gd ≤ q_g",
+                fmt(s.q_gs.typ.si + s.q_gd.typ.si, C),
+                fmt(q_g, C)
+            ),
+        ));
+    }
+    if let Some(qth) = s.q_g_th {
+        c.within("q_g_th", qth.si, 0.0, 1e-5, C)?;
+        if qth.si >= s.q_gs.typ.si {
+            return Err(c.fail(
+                "q_g_th",
+                format!(
+                    "{} is not below q_gs ({}); expected q_g_th < q_gs",
+                    fmt(qth.si, C),
+                    fmt(s.q_gs.typ.si, C)
+                ),
+            ));
+        }
+    }
+    let cap = &s.capacitance;
+    c.within("capacitance.at_v_ds", cap.at_v_ds.si, 0.0, s.v_dss.si, V)?;
+    c.within("capacitance.c_iss", cap.c_iss.si, 0.0, 1e-6, F)?;
+    c.within("capacitance.c_oss", cap.c_oss.si, 0.0, 1e-6, F)?;
+    c.within("capacitance.c_rss", cap.c_rss.si, 0.0, 1e-6, F)?;
+    if cap.c_rss.si >= cap.c_iss.si {
+        return Err(c.fail(
+            "capacitance.c_rss",
+            format!(
+                "{} is not below c_iss ({}); expected c_rss < c_iss",
+                fmt(cap.c_rss.si, F),
+                fmt(cap.c_iss.si, F)
+            ),
+        ));
+    }
+    for (i, (v, cr)) in cap.c_rss_curve.iter().enumerate() {
+        let f = format!("capacitance.c_rss_curve[{i}]");
+        c.within(&format!("{f}[0]"), v.si, 0.0, s.v_dss.si, V)?;
+        c.within(&format!("{f}[1]"), cr.si, 0.0, 1e-6, F)?;
+        if i > 0 && v.si <= cap.c_rss_curve[i - 1].0.si {
+            return Err(c.fail(
+                &format!("{f}[0]"),
+                "drain voltages must increase from point to point",
+            ));
+        }
+    }
+    if let Some(q) = s.q_oss {
+        c.within("q_oss", q.si, 0.0, 1e-5, C)?;
+    }
+    if let Some(e) = &s.e_oss {
+        c.within("e_oss.value", e.value.si, 0.0, 1e-3, Dimension::Energy)?;
+        c.within("e_oss.at_v_ds", e.at_v_ds.si, 0.0, s.v_dss.si, V)?;
+    }
+    c.spread("r_g_int", &s.r_g_int)?;
+    c.non_negative("r_g_int.typ", s.r_g_int.typ.si, 100.0, OHM)?;
+    c.within("body_diode.v_sd", s.body_diode.v_sd.si, 0.0, 5.0, V)?;
+    c.spread("body_diode.q_rr", &s.body_diode.q_rr)?;
+    c.non_negative("body_diode.q_rr", s.body_diode.q_rr.typ.si, 1e-4, C)?;
+    c.non_negative("body_diode.t_rr", s.body_diode.t_rr.si, 1e-4, S)?;
+    c.within("v_gs_max", s.v_gs_max.si, 0.0, 50.0, V)?;
+    if s.v_th.typ.si >= s.v_gs_max.si {
+        return Err(c.fail(
+            "v_th.typ",
+            "V_th is not below v_gs_max; expected V_th < V_GS max",
+        ));
+    }
+    c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?;
+    c.within("r_th_jc", s.r_th_jc.si, 0.0, 100.0, KW)?;
+    c.within("r_th_ja", s.r_th_ja.si, 0.0, 1000.0, KW)?;
+    if s.r_th_jc.si >= s.r_th_ja.si {
+        return Err(c.fail(
+            "r_th_jc",
+            format!(
+                "{} is not below r_th_ja ({}); expected r_th_jc < r_th_ja",
+                fmt(s.r_th_jc.si, KW),
+                fmt(s.r_th_ja.si, KW)
+            ),
+        ));
+    }
+    if let Some(z) = s.v_ztc {
+        c.within("v_ztc", z.si, 0.0, s.v_gs_max.si, V)?;
+    }
+    Ok(())
+}
+
+/// Every check on a board, given the switch it carries.
+pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(), InputError> {
+    let c = Check {
+        src,
+        prefix: "board",
+    };
+    if b.name.trim().is_empty() {
+        return Err(c.fail("name", "expected a name for the board"));
+    }
+    let t = &b.timer;
+    c.within("timer.clock", t.clock.si, 1e3, 10e9, HZ)?;
+    if !(8..=32).contains(&t.counter_bits) {
+        return Err(c.fail(
+            "timer.counter_bits",
+            format!("{} is out of range; expected 8 to 32", t.counter_bits),
+        ));
+    }
+    match &t.prescaler {
+        PrescalerSpec::Linear { min, max } => {
+            if *min < 1 {
+                return Err(c.fail(
+                    "timer.prescaler.linear.min",
+                    "expected a divider of at least 1",
+                ));
+            }
+            if max < min {
+                return Err(c.fail(
+                    "timer.prescaler.linear.max",
+                    format!("{max} is below min {min}; expected max ≥ min"),
+                ));
+            }
+            if *max > 1 << 32 {
+                return Err(c.fail(
+                    "timer.prescaler.linear.max",
+                    format!("{max} is out of range; expected at most 4294967296"),
+                ));
+            }
+        }
+        PrescalerSpec::Ratios(r) => {
+            if r.is_empty() {
+                return Err(c.fail("timer.prescaler.ratios", "expected at least one ratio"));
+            }
+            for (i, v) in r.iter().enumerate() {
+                if *v < 1 || *v > 1 << 32 {
+                    return Err(c.fail(
+                        &format!("timer.prescaler.ratios[{i}]"),
+                        format!("{v} is out of range; expected 1 to 4294967296"),
+                    ));
+                }
+                if r[..i].contains(v) {
+                    return Err(c.fail(
+                        &format!("timer.prescaler.ratios[{i}]"),
+                        format!("ratio {v} is listed twice"),
+                    ));
+                }
+            }
+        }
+    }
+    if t.alignments.is_empty() {
+        return Err(c.fail(
+            "timer.alignments",
+            "expected at least one of `edge`, `centre`",
+        ));
+    }
+    for (i, a) in t.alignments.iter().enumerate() {
+        if t.alignments[..i].contains(a) {
+            return Err(c.fail(&format!("timer.alignments[{i}]"), "listed twice"));
+        }
+    }
+    match &t.dead_time {
+        DeadTimeSpec::None => {}
+        DeadTimeSpec::Linear {
+            clock_divider,
+            max_ticks,
+        } => {
+            if *clock_divider < 1 {
+                return Err(c.fail(
+                    "timer.dead_time.linear.clock_divider",
+                    "expected a divider of at least 1",
+                ));
+            }
+            if *max_ticks < 1 {
+                return Err(c.fail(
+                    "timer.dead_time.linear.max_ticks",
+                    "expected at least 1 tick",
+                ));
+            }
+        }
+        DeadTimeSpec::Segmented {
+            clock_divider,
+            segments,
+        } => {
+            if *clock_divider < 1 {
+                return Err(c.fail(
+                    "timer.dead_time.segmented.clock_divider",
+                    "expected a divider of at least 1",
+                ));
+            }
+            if segments.is_empty() {
+                return Err(c.fail(
+                    "timer.dead_time.segmented.segments",
+                    "expected at least one segment",
+                ));
+            }
+            for (i, s) in segments.iter().enumerate() {
+                let f = format!("timer.dead_time.segmented.segments[{i}]");
+                if s.count < 1 {
+                    return Err(c.fail(
+                        &format!("{f}.count"),
+                        "expected at least 1 code in a segment",
+                    ));
+                }
+                if s.step < 1 {
+                    return Err(c.fail(
+                        &format!("{f}.step"),
+                        "expected a tick multiplier of at least 1",
+                    ));
+                }
+                let end = u64::from(s.first_code) + u64::from(s.count);
+                for (j, o) in segments[..i].iter().enumerate() {
+                    let o_end = u64::from(o.first_code) + u64::from(o.count);
+                    if u64::from(s.first_code) < o_end && u64::from(o.first_code) < end {
+                        return Err(c.fail(
+                            &format!("{f}.first_code"),
+                            format!(
+                                "codes overlap segment {j}; expected each code in one segment only"
+                            ),
+                        ));
+                    }
+                }
+            }
+        }
+    }
+    if let Some(p) = t.min_pulse {
+        c.non_negative("timer.min_pulse", p.si, 1e-3, S)?;
+    }
+
+    let st = &b.stage;
+    match st.topology {
+        TopologySpec::ThreePhase => {
+            return Err(c.fail("stage.topology", "`three-phase` is reserved and not supported yet; expected `low-side`, `half-bridge` or `h-bridge`"));
+        }
+        TopologySpec::HBridge if st.modulation.is_none() => {
+            return Err(c.fail(
+                "stage.modulation",
+                "missing; an h-bridge needs `bipolar` or `unipolar`",
+            ));
+        }
+        TopologySpec::LowSide | TopologySpec::HalfBridge if st.modulation.is_some() => {
+            return Err(c.fail(
+                "stage.modulation",
+                "only an h-bridge has a modulation; remove it",
+            ));
+        }
+        _ => {}
+    }
+    if st.topology != TopologySpec::LowSide && st.freewheel_diode.is_some() {
+        return Err(c.fail("stage.freewheel_diode", "a bridge freewheels through its own switches; a freewheel diode belongs to `low-side` only"));
+    }
+    if let Some(d) = &st.freewheel_diode {
+        c.within("stage.freewheel_diode.v_f", d.v_f.si, 0.0, 5.0, V)?;
+        if let Some(r) = d.r_d {
+            c.non_negative("stage.freewheel_diode.r_d", r.si, 10.0, OHM)?;
+        }
+        c.non_negative("stage.freewheel_diode.q_rr", d.q_rr.si, 1e-4, C)?;
+        c.non_negative("stage.freewheel_diode.t_rr", d.t_rr.si, 1e-4, S)?;
+        c.within("stage.freewheel_diode.i_f", d.i_f.si, 0.0, 2000.0, A)?;
+        c.within("stage.freewheel_diode.v_rrm", d.v_rrm.si, 0.0, 5000.0, V)?;
+    }
+
+    let g = &b.gate_driver;
+    c.within("gate_driver.supply", g.supply.si, 0.0, 50.0, V)?;
+    if g.supply.si <= sw.v_th.typ.si {
+        return Err(c.fail(
+            "gate_driver.supply",
+            format!(
+                "{} does not exceed the switch's V_th typ {}; expected a drive voltage above the threshold",
+                fmt(g.supply.si, V),
+                fmt(sw.v_th.typ.si, V)
+            ),
+        ));
+    }
+    if g.supply.si > sw.v_gs_max.si {
+        return Err(c.fail(
+            "gate_driver.supply",
+            format!(
+                "{} exceeds the switch's V_GS max {}; expected a drive voltage within the gate rating",
+                fmt(g.supply.si, V),
+                fmt(sw.v_gs_max.si, V)
+            ),
+        ));
+    }
+    for (field, e) in [
+        ("gate_driver.source", &g.source),
+        ("gate_driver.sink", &g.sink),
+    ] {
+        if e.is_first() {
+            c.non_negative(field, e.si, 10_000.0, OHM)?;
+        } else {
+            c.within(field, e.si, 0.0, 100.0, A)?;
+        }
+    }
+    c.non_negative("gate_driver.r_gate_on", g.r_gate_on.si, 10_000.0, OHM)?;
+    c.non_negative("gate_driver.r_gate_off", g.r_gate_off.si, 10_000.0, OHM)?;
+    c.non_negative(
+        "gate_driver.propagation_delay",
+        g.propagation_delay.si,
+        1e-4,
+        S,
+    )?;
+    c.non_negative("gate_driver.delay_mismatch", g.delay_mismatch.si, 1e-4, S)?;
+    match (&g.high_side, st.topology) {
+        (Some(_), TopologySpec::LowSide) => {
+            return Err(c.fail(
+                "gate_driver.high_side",
+                "a low-side stage has no high-side switch; remove it",
+            ));
+        }
+        (None, TopologySpec::HalfBridge | TopologySpec::HBridge) => {
+            return Err(c.fail(
+                "gate_driver.high_side",
+                "missing; a bridge needs `bootstrap: {...}` or `isolated`",
+            ));
+        }
+        (
+            Some(HighSideSupplySpec::Bootstrap {
+                capacitor,
+                refresh_time,
+                load_current,
+            }),
+            _,
+        ) => {
+            c.within(
+                "gate_driver.high_side.bootstrap.capacitor",
+                capacitor.si,
+                0.0,
+                1e-3,
+                F,
+            )?;
+            c.within(
+                "gate_driver.high_side.bootstrap.refresh_time",
+                refresh_time.si,
+                0.0,
+                1e-3,
+                S,
+            )?;
+            c.non_negative(
+                "gate_driver.high_side.bootstrap.load_current",
+                load_current.si,
+                1.0,
+                A,
+            )?;
+        }
+        _ => {}
+    }
+
+    let th = &b.thermal;
+    match (th.r_th_ja, th.r_th_sa) {
+        (Some(ja), None) => {
+            c.within("thermal.r_th_ja", ja.si, 0.0, 1000.0, KW)?;
+            if th.r_th_cs.is_some() {
+                return Err(c.fail(
+                    "thermal.r_th_cs",
+                    "give either r_th_ja, or r_th_cs with r_th_sa, not both",
+                ));
+            }
+        }
+        (None, Some(sa)) => {
+            c.within("thermal.r_th_sa", sa.si, 0.0, 1000.0, KW)?;
+            if let Some(cs) = th.r_th_cs {
+                c.non_negative("thermal.r_th_cs", cs.si, 100.0, KW)?;
+            }
+        }
+        (Some(_), Some(_)) => {
+            return Err(c.fail(
+                "thermal.r_th_sa",
+                "give either r_th_ja, or r_th_cs with r_th_sa, not both",
+            ));
+        }
+        (None, None) => {
+            return Err(c.fail(
+                "thermal",
+                "expected r_th_ja (junction to ambient as mounted), or r_th_sa with r_th_cs",
+            ));
+        }
+    }
+    for (i, (r, tau)) in th.foster.iter().enumerate() {
+        c.within(&format!("thermal.foster[{i}][0]"), r.si, 0.0, 1000.0, KW)?;
+        c.within(&format!("thermal.foster[{i}][1]"), tau.si, 0.0, 1e5, S)?;
+    }
+    Ok(())
+}
+
+/// Checks on the design file; returns (back-EMF at the operating speed,
+/// k_e in V·s/rad, junction limit in °C).
+fn check_design(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    sw: &SwitchSpec,
+    src: &SourceFile,
+) -> Result<(f64, f64, f64), InputError> {
+    let c = Check {
+        src,
+        prefix: "design",
+    };
+    if d.name.trim().is_empty() {
+        return Err(c.fail("name", "expected a name for the design"));
+    }
+    if !d
+        .name
+        .chars()
+        .all(|ch| ch.is_ascii_alphanumeric() || ch == '-' || ch == '_')
+        || !d.name.starts_with(|ch: char| ch.is_ascii_alphabetic())
+    {
+        return Err(c.fail("name", format!("\"{}\" cannot name the generated files; expected letters, digits, '-' or '_', starting with a letter", d.name)));
+    }
+    let s = &d.supply;
+    c.within("supply.nominal", s.nominal.si, 0.0, 2000.0, V)?;
+    c.within("supply.min", s.min.si, 0.0, 2000.0, V)?;
+    c.within("supply.max", s.max.si, 0.0, 2000.0, V)?;
+    if s.max.si < s.nominal.si {
+        return Err(c.fail(
+            "supply.max",
+            format!(
+                "{} is below nominal {}; expected min ≤ nominal ≤ max",
+                fmt(s.max.si, V),
+                fmt(s.nominal.si, V)
+            ),
+        ));
+    }
+    if s.min.si > s.nominal.si {
+        return Err(c.fail(
+            "supply.min",
+            format!(
+                "{} is above nominal {}; expected min ≤ nominal ≤ max",
+                fmt(s.min.si, V),
+                fmt(s.nominal.si, V)
+            ),
+        ));
+    }
+    let m = &d.motor;
+    c.within("motor.resistance", m.resistance.si, 0.0, 1000.0, OHM)?;
+    c.within(
+        "motor.inductance",
+        m.inductance.si,
+        0.0,
+        10.0,
+        Dimension::Inductance,
+    )?;
+    c.within("motor.rated_current", m.rated_current.si, 0.0, 2000.0, A)?;
+    c.non_negative(
+        "motor.operating_speed",
+        m.operating_speed.si,
+        1e5,
+        Dimension::AngularSpeed,
+    )?;
+    let k_e = match (m.back_emf_constant, m.rated_voltage, m.no_load_speed) {
+        (Some(k), None, None) => {
+            c.within(
+                "motor.back_emf_constant",
+                k.si,
+                0.0,
+                100.0,
+                Dimension::BackEmfConstant,
+            )?;
+            k.si
+        }
+        (None, Some(v), Some(w)) => {
+            c.within("motor.rated_voltage", v.si, 0.0, 2000.0, V)?;
+            c.within(
+                "motor.no_load_speed",
+                w.si,
+                0.0,
+                1e5,
+                Dimension::AngularSpeed,
+            )?;
+            // Unloaded, the back-EMF nearly equals the rated voltage (common practice).
+            v.si / w.si
+        }
+        (Some(_), _, _) => {
+            return Err(c.fail(
+                "motor.back_emf_constant",
+                "give either back_emf_constant, or rated_voltage with no_load_speed, not both",
+            ));
+        }
+        (None, Some(_), None) => {
+            return Err(c.fail(
+                "motor.no_load_speed",
+                "missing; rated_voltage needs no_load_speed",
+            ));
+        }
+        (None, None, Some(_)) => {
+            return Err(c.fail(
+                "motor.rated_voltage",
+                "missing; no_load_speed needs rated_voltage",
+            ));
+        }
+        (None, None, None) => {
+            return Err(c.fail(
+                "motor.back_emf_constant",
+                "missing; give back_emf_constant, or rated_voltage with no_load_speed",
+            ));
+        }
+    };
+    let emf = k_e * m.operating_speed.si;
+    let v_needed = emf + m.rated_current.si * m.resistance.si;
+    if v_needed >= s.min.si {
+        return Err(c.fail(
+            "motor.operating_speed",
+            format!(
+                "the motor needs {} (back-EMF {} + I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
+                fmt(v_needed, V),
+                fmt(emf, V),
+                fmt(m.rated_current.si * m.resistance.si, V),
+                fmt(s.min.si, V)
+            ),
+        ));
+    }
+    let a = &d.ambient;
+    c.within("ambient.min", a.min.si, -100.0, 200.0, DEG)?;
+    c.within("ambient.max", a.max.si, -100.0, 200.0, DEG)?;
+    if a.max.si < a.min.si {
+        return Err(c.fail("ambient.max", "max is below min; expected min ≤ max"));
+    }
+    if a.max.si >= sw.t_j_max.si {
+        return Err(c.fail(
+            "ambient.max",
+            format!("{} is not below the switch's T_j max {}; expected an ambient the switch can work in", fmt(a.max.si, DEG), fmt(sw.t_j_max.si, DEG)),
+        ));
+    }
+    let k = &d.constraints;
+    match &k.audible {
+        AudibleSpec::InaudibleAbove(f) => {
+            c.within("constraints.audible.inaudible_above", f.si, 1e3, 30e3, HZ)?
+        }
+        AudibleSpec::Avoid(bands) => {
+            if bands.is_empty() {
+                return Err(c.fail(
+                    "constraints.audible.avoid",
+                    "expected at least one [low, high] band",
+                ));
+            }
+            for (i, (lo, hi)) in bands.iter().enumerate() {
+                let f = format!("constraints.audible.avoid[{i}]");
+                c.within(&format!("{f}[0]"), lo.si, 0.0, 1e6, HZ)?;
+                c.within(&format!("{f}[1]"), hi.si, 0.0, 1e6, HZ)?;
+                if hi.si <= lo.si {
+                    return Err(c.fail(
+                        &format!("{f}[1]"),
+                        "the band's upper edge is not above its lower edge",
+                    ));
+                }
+            }
+        }
+        AudibleSpec::Inaudible | AudibleSpec::Allowed => {}
+    }
+    if let Some(r) = k.max_ripple {
+        if r.is_first() {
+            c.within("constraints.max_ripple", r.si, 0.0, 2000.0, A)?;
+        } else {
+            c.within("constraints.max_ripple", r.si, 0.0, 2.0, Dimension::Ratio)?;
+        }
+    }
+    let t_j_limit = match &k.junction {
+        None => sw.t_j_max.si,
+        Some(JunctionLimitSpec::Max(t)) => {
+            c.within("constraints.junction.max", t.si, -100.0, sw.t_j_max.si, DEG).map_err(|_| {
+                c.fail(
+                    "constraints.junction.max",
+                    format!("{} is out of range; expected above the ambient max {} and at most the switch's T_j max {}", fmt(t.si, DEG), fmt(a.max.si, DEG), fmt(sw.t_j_max.si, DEG)),
+                )
+            })?;
+            t.si
+        }
+        Some(JunctionLimitSpec::Margin(dt)) => {
+            c.non_negative(
+                "constraints.junction.margin",
+                dt.si,
+                200.0,
+                Dimension::TemperatureDifference,
+            )?;
+            sw.t_j_max.si - dt.si
+        }
+    };
+    if t_j_limit <= a.max.si {
+        return Err(c.fail(
+            "constraints.junction",
+            format!("the junction limit {} is not above the ambient max {}; no loss at all would meet it", fmt(t_j_limit, DEG), fmt(a.max.si, DEG)),
+        ));
+    }
+    if let Some(bits) = k.min_resolution_bits {
+        if !(bits.is_finite() && (1.0..=32.0).contains(&bits)) {
+            return Err(c.fail(
+                "constraints.min_resolution_bits",
+                format!("{bits} is out of range; expected 1 to 32 bits"),
+            ));
+        }
+        if bits > f64::from(b.timer.counter_bits) {
+            return Err(c.fail(
+                "constraints.min_resolution_bits",
+                format!(
+                    "{bits} bits exceeds the timer's {}-bit counter; expected at most {}",
+                    b.timer.counter_bits, b.timer.counter_bits
+                ),
+            ));
+        }
+    }
+    if let Some(band) = &k.frequency {
+        if let Some(lo) = band.min {
+            c.within("constraints.frequency.min", lo.si, 0.0, 10e6, HZ)?;
+        }
+        if let Some(hi) = band.max {
+            c.within("constraints.frequency.max", hi.si, 0.0, 10e6, HZ)?;
+            if hi.si >= b.timer.clock.si {
+                return Err(c.fail(
+                    "constraints.frequency.max",
+                    "not below the timer clock; expected a PWM frequency the timer can make",
+                ));
+            }
+        }
+        if let (Some(lo), Some(hi)) = (band.min, band.max) {
+            if hi.si <= lo.si {
+                return Err(c.fail(
+                    "constraints.frequency.max",
+                    format!(
+                        "{} is not above min {}; expected min < max",
+                        fmt(hi.si, HZ),
+                        fmt(lo.si, HZ)
+                    ),
+                ));
+            }
+        }
+    }
+    if let Some(t) = k.stall_time {
+        c.within("constraints.stall_time", t.si, 0.0, 3600.0, S)?;
+    }
+    Ok((emf, k_e, t_j_limit))
+}

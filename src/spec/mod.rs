@@ -1,0 +1,461 @@
+//! The input files as written: the only layer that deserialises.
+//!
+//! Three file kinds, each with one top-level key naming its kind:
+//! `switch:` (one MOSFET's datasheet values), `board:` (MCU timer, power
+//! stage, gate driver, thermal path) and `design:` (the engineer's drive: the
+//! board it uses, supply, motor, ambient, constraints, objective). Every
+//! struct denies unknown fields; every dimensioned value is a [`Q`] or
+//! [`Spread`] text with its unit. Cross-field checks live in
+//! [`crate::design`], not here.
+
+pub mod quantity;
+
+use serde::Deserialize;
+
+pub use quantity::{
+    Ampere, Celsius, Coulomb, Dim, Either2, Farad, Henry, Hertz, Joule, Kelvin, KelvinPerWatt, Ohm,
+    PerKelvin, RadPerSecond, Ratio, Second, Siemens, Spread, Volt, VoltSecondPerRad, Q,
+};
+
+// ---------------------------------------------------------------- switch file
+
+/// A switch file: `switch: { ... }`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SwitchFile {
+    pub switch: SwitchSpec,
+}
+
+/// One N-channel MOSFET as its datasheet describes it.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SwitchSpec {
+    pub name: String,
+    /// Drain-source breakdown voltage.
+    pub v_dss: Q<Volt>,
+    /// Continuous drain current at a case temperature of 25 °C.
+    pub i_d: Q<Ampere>,
+    pub r_ds_on: RdsOnSpec,
+    /// How R_ds(on) grows with junction temperature.
+    pub r_ds_on_vs_temperature: Option<RdsOnTemperatureSpec>,
+    /// Gate threshold voltage.
+    pub v_th: Spread<Volt>,
+    /// Forward transconductance (needed unless `v_plateau` is given).
+    pub g_fs: Option<Q<Siemens>>,
+    /// Miller plateau voltage read off the gate-charge curve.
+    pub v_plateau: Option<Q<Volt>>,
+    pub q_g: GateChargeSpec,
+    pub q_gs: Spread<Coulomb>,
+    pub q_gd: Spread<Coulomb>,
+    /// Gate charge up to the threshold voltage (optional).
+    pub q_g_th: Option<Q<Coulomb>>,
+    pub capacitance: CapacitanceSpec,
+    /// Output charge (optional; used before C_oss for the output-capacitance loss).
+    pub q_oss: Option<Q<Coulomb>>,
+    /// Energy stored in C_oss at `e_oss_at_v_ds` (optional, preferred when given).
+    pub e_oss: Option<EossSpec>,
+    /// Internal gate resistance.
+    pub r_g_int: Spread<Ohm>,
+    pub body_diode: BodyDiodeSpec,
+    pub v_gs_max: Q<Volt>,
+    pub t_j_max: Q<Celsius>,
+    /// Junction-to-case thermal resistance.
+    pub r_th_jc: Q<KelvinPerWatt>,
+    /// Junction-to-ambient thermal resistance on the datasheet's test board.
+    pub r_th_ja: Q<KelvinPerWatt>,
+    /// Gate voltage of the zero-temperature-coefficient point (optional).
+    pub v_ztc: Option<Q<Volt>>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RdsOnSpec {
+    pub typ: Q<Ohm>,
+    pub max: Option<Q<Ohm>>,
+    /// Gate-source voltage at which the values hold.
+    pub at_v_gs: Q<Volt>,
+}
+
+/// Normalised R_ds(on) curve points `[temperature, factor]` (1.0 at 25 °C),
+/// or a per-kelvin coefficient.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum RdsOnTemperatureSpec {
+    Points(Vec<(Q<Celsius>, f64)>),
+    Coefficient(Q<PerKelvin>),
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GateChargeSpec {
+    pub typ: Q<Coulomb>,
+    pub max: Option<Q<Coulomb>>,
+    /// Gate-source voltage the total gate charge is given at.
+    pub at_v_gs: Q<Volt>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CapacitanceSpec {
+    /// Drain-source voltage the three capacitances are given at.
+    pub at_v_ds: Q<Volt>,
+    pub c_iss: Q<Farad>,
+    pub c_oss: Q<Farad>,
+    pub c_rss: Q<Farad>,
+    /// C_rss at other drain voltages `[v_ds, c_rss]`, for the two-point C_gd.
+    #[serde(default)]
+    pub c_rss_curve: Vec<(Q<Volt>, Q<Farad>)>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EossSpec {
+    pub value: Q<Joule>,
+    pub at_v_ds: Q<Volt>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BodyDiodeSpec {
+    /// Forward voltage.
+    pub v_sd: Q<Volt>,
+    /// Reverse-recovery charge.
+    pub q_rr: Spread<Coulomb>,
+    /// Reverse-recovery time.
+    pub t_rr: Q<Second>,
+}
+
+// ----------------------------------------------------------------- board file
+
+/// A board file: `board: { ... }`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BoardFile {
+    pub board: BoardSpec,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BoardSpec {
+    pub name: String,
+    pub timer: TimerSpec,
+    pub stage: StageSpec,
+    pub gate_driver: GateDriverSpec,
+    pub thermal: ThermalSpec,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TimerSpec {
+    /// Timer input clock (before the prescaler).
+    pub clock: Q<Hertz>,
+    /// Width of the counter in bits.
+    pub counter_bits: u32,
+    pub prescaler: PrescalerSpec,
+    /// Counting modes the timer offers.
+    pub alignments: Vec<AlignmentSpec>,
+    pub dead_time: DeadTimeSpec,
+    /// Shortest on or off pulse the output stage tolerates.
+    pub min_pulse: Option<Q<Second>>,
+    /// Whether the MCU has a floating-point unit (emitted code may use `float`).
+    #[serde(default)]
+    pub fpu: bool,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum PrescalerSpec {
+    /// Any divider from `min` to `max`; the register holds divider − 1.
+    Linear { min: u64, max: u64 },
+    /// A fixed list of ratios; the register holds the index in the list.
+    Ratios(Vec<u64>),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AlignmentSpec {
+    Edge,
+    Centre,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum DeadTimeSpec {
+    /// No dead-time generator: complementary outputs need external delay.
+    None,
+    /// Dead time = ticks / (clock / clock_divider), ticks 0..=max_ticks.
+    Linear { clock_divider: u64, max_ticks: u64 },
+    /// A register code split into segments with their own tick multipliers.
+    Segmented {
+        clock_divider: u64,
+        segments: Vec<DeadTimeSegmentSpec>,
+    },
+}
+
+/// Codes `first_code .. first_code + count` give
+/// `(base + code − first_code) · step` dead-time ticks.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DeadTimeSegmentSpec {
+    pub first_code: u32,
+    pub count: u32,
+    pub base: u64,
+    pub step: u64,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum TopologySpec {
+    LowSide,
+    HalfBridge,
+    HBridge,
+    ThreePhase,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ModulationSpec {
+    Bipolar,
+    Unipolar,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StageSpec {
+    pub topology: TopologySpec,
+    /// H-bridge switching scheme (required for `h-bridge`).
+    pub modulation: Option<ModulationSpec>,
+    /// A switch file path relative to this board file, `bundled:NAME`, or the
+    /// switch written inline.
+    pub switch: SwitchRef,
+    /// The freewheel diode across the motor (`low-side` only).
+    pub freewheel_diode: Option<DiodeSpec>,
+}
+
+#[derive(Debug, Clone)]
+pub enum SwitchRef {
+    Path(String),
+    Inline(Box<SwitchSpec>),
+}
+
+impl<'de> Deserialize<'de> for SwitchRef {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<SwitchRef, D::Error> {
+        use serde::de::{self, MapAccess, Visitor};
+        struct RefVisitor;
+        impl<'de> Visitor<'de> for RefVisitor {
+            type Value = SwitchRef;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a switch file path, `bundled:NAME`, or the switch's fields")
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<SwitchRef, E> {
+                Ok(SwitchRef::Path(v.to_string()))
+            }
+            fn visit_map<A: MapAccess<'de>>(self, map: A) -> Result<SwitchRef, A::Error> {
+                SwitchSpec::deserialize(de::value::MapAccessDeserializer::new(map))
+                    .map(|s| SwitchRef::Inline(Box::new(s)))
+            }
+        }
+        d.deserialize_any(RefVisitor)
+    }
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DiodeSpec {
+    pub v_f: Q<Volt>,
+    /// Slope resistance above the knee (optional).
+    pub r_d: Option<Q<Ohm>>,
+    pub q_rr: Q<Coulomb>,
+    pub t_rr: Q<Second>,
+    pub i_f: Q<Ampere>,
+    pub v_rrm: Q<Volt>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GateDriverSpec {
+    /// Gate drive voltage.
+    pub supply: Q<Volt>,
+    /// Turn-on output stage: a resistance or a peak current.
+    pub source: Either2<Ohm, Ampere>,
+    /// Turn-off output stage: a resistance or a peak current.
+    pub sink: Either2<Ohm, Ampere>,
+    /// External gate resistor in the turn-on path.
+    pub r_gate_on: Q<Ohm>,
+    /// External gate resistor in the turn-off path.
+    pub r_gate_off: Q<Ohm>,
+    pub propagation_delay: Q<Second>,
+    /// Worst difference between the delays of two channels.
+    pub delay_mismatch: Q<Second>,
+    /// How the high-side gate is supplied (bridges only).
+    pub high_side: Option<HighSideSupplySpec>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum HighSideSupplySpec {
+    Bootstrap {
+        capacitor: Q<Farad>,
+        /// Low-side on-time the bootstrap capacitor needs each period.
+        refresh_time: Q<Second>,
+        /// Leakage and quiescent current drawn from the capacitor.
+        load_current: Q<Ampere>,
+    },
+    Isolated,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ThermalSpec {
+    /// Junction-to-ambient for each switch as mounted (overrides the chain).
+    pub r_th_ja: Option<Q<KelvinPerWatt>>,
+    /// Case-to-sink (interface) resistance, with `r_th_sa`.
+    pub r_th_cs: Option<Q<KelvinPerWatt>>,
+    /// Sink-to-ambient resistance seen by each switch.
+    pub r_th_sa: Option<Q<KelvinPerWatt>>,
+    /// Transient model `[R, tau]` pairs (Foster), junction to ambient.
+    #[serde(default)]
+    pub foster: Vec<(Q<KelvinPerWatt>, Q<Second>)>,
+}
+
+// ---------------------------------------------------------------- design file
+
+/// A design file: `design: { ... }`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DesignFile {
+    pub design: DesignSpec,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DesignSpec {
+    pub name: String,
+    /// A board file path relative to this file, or `bundled:NAME`.
+    pub board: String,
+    pub supply: SupplySpec,
+    pub motor: MotorSpec,
+    pub ambient: AmbientSpec,
+    pub constraints: ConstraintsSpec,
+    #[serde(default)]
+    pub objective: ObjectiveSpec,
+    #[serde(default)]
+    pub outputs: OutputsSpec,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SupplySpec {
+    pub nominal: Q<Volt>,
+    pub min: Q<Volt>,
+    pub max: Q<Volt>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum MotorKind {
+    BrushedDc,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MotorSpec {
+    pub kind: MotorKind,
+    /// Winding (terminal) resistance.
+    pub resistance: Q<Ohm>,
+    /// Winding inductance.
+    pub inductance: Q<Henry>,
+    /// Back-EMF constant; or give `rated_voltage` with `no_load_speed`.
+    pub back_emf_constant: Option<Q<VoltSecondPerRad>>,
+    pub rated_voltage: Option<Q<Volt>>,
+    pub no_load_speed: Option<Q<RadPerSecond>>,
+    /// Continuous current at the rated load.
+    pub rated_current: Q<Ampere>,
+    /// Speed at the rated load.
+    pub operating_speed: Q<RadPerSecond>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AmbientSpec {
+    pub min: Q<Celsius>,
+    pub max: Q<Celsius>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ConstraintsSpec {
+    #[serde(default)]
+    pub audible: AudibleSpec,
+    /// Largest motor-current ripple, peak to peak: in amperes or % of rated.
+    pub max_ripple: Option<Either2<Ampere, Ratio>>,
+    pub junction: Option<JunctionLimitSpec>,
+    pub min_resolution_bits: Option<f64>,
+    pub frequency: Option<FrequencyBandSpec>,
+    /// Length of a stall at start-up the stage must survive.
+    pub stall_time: Option<Q<Second>>,
+}
+
+#[derive(Debug, Clone, Deserialize, Default)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum AudibleSpec {
+    /// No significant ripple line below the hearing limit (default 20 kHz).
+    #[default]
+    Inaudible,
+    /// Same with an explicit hearing limit.
+    InaudibleAbove(Q<Hertz>),
+    /// Audible lines allowed; reported only.
+    Allowed,
+    /// Audible lines allowed except in these `[low, high]` bands.
+    Avoid(Vec<(Q<Hertz>, Q<Hertz>)>),
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum JunctionLimitSpec {
+    /// Hottest junction allowed.
+    Max(Q<Celsius>),
+    /// Distance to keep below the switch's T_j max.
+    Margin(Q<Kelvin>),
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FrequencyBandSpec {
+    pub min: Option<Q<Hertz>>,
+    pub max: Option<Q<Hertz>>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum ObjectiveSpec {
+    /// Least total loss: switches, diodes, gate drive and ripple copper loss.
+    #[default]
+    LeastLoss,
+    /// Highest frequency whose loss stays within 10 % of the least.
+    Quietest,
+    /// Largest thermal margin.
+    CoolestJunction,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputsSpec {
+    #[serde(default = "yes")]
+    pub c: bool,
+    #[serde(default = "yes")]
+    pub rust: bool,
+}
+
+fn yes() -> bool {
+    true
+}
+
+impl Default for OutputsSpec {
+    fn default() -> Self {
+        OutputsSpec {
+            c: true,
+            rust: true,
+        }
+    }
+}
