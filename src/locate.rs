@@ -68,6 +68,9 @@ enum Frame {
     Mapping {
         path: String,
         pending_key: Option<String>,
+        /// No key seen yet: the first key's position becomes the mapping's
+        /// (the parser's mapping-start mark lies after the first key).
+        first: bool,
     },
     Sequence {
         path: String,
@@ -97,10 +100,18 @@ impl Walker {
                 *next_index += 1;
                 Some(p)
             }
-            Some(Frame::Mapping { path, pending_key }) => match pending_key.take() {
+            Some(Frame::Mapping {
+                path,
+                pending_key,
+                first,
+            }) => match pending_key.take() {
                 Some(key) => Some(join(path, &key)),
                 None => {
                     // This node is a key.
+                    if *first {
+                        *first = false;
+                        self.values.insert(path.clone(), pos);
+                    }
                     let key = key_text.unwrap_or("?").to_string();
                     self.keys.insert(join(path, &key), pos);
                     *pending_key = Some(key);
@@ -142,12 +153,14 @@ impl MarkedEventReceiver for Walker {
                     self.stack.push(Frame::Mapping {
                         path,
                         pending_key: None,
+                        first: true,
                     });
                 } else {
                     // A complex key: give it an opaque name and skip its insides.
                     self.stack.push(Frame::Mapping {
                         path: "?".into(),
                         pending_key: None,
+                        first: true,
                     });
                 }
             }
