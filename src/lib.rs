@@ -12,6 +12,8 @@ pub mod design;
 pub mod diagnostic;
 pub mod load;
 pub mod locate;
+pub mod physics;
 pub mod spec;
 pub mod summary;
+pub mod timer;
 pub mod units;
