@@ -11,7 +11,7 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 use crate::bundled::{self, Kind};
-use crate::design::{load_design, Design};
+use crate::design::{Design, load_design};
 use crate::diagnostic::InputError;
 use crate::load::{Origin, SourceFile};
 use crate::spec::{BoardFile, DesignFile, SwitchFile};

@@ -10,7 +10,7 @@ use crate::bundled::{self, Kind};
 use crate::diagnostic::InputError;
 use crate::load::{Origin, SourceFile};
 use crate::spec::*;
-use crate::units::{format_quantity, Dimension};
+use crate::units::{Dimension, format_quantity};
 
 /// The engineer's drive with its board and switch, all checked.
 #[derive(Debug, Clone)]
@@ -180,29 +180,29 @@ impl Check<'_> {
     /// min ≤ typ ≤ max for a datasheet spread.
     fn spread<D: Dim>(&self, field: &str, s: &Spread<D>) -> Result<(), InputError> {
         let dim = D::DIM;
-        if let Some(min) = s.min {
-            if min.si > s.typ.si {
-                return Err(self.fail(
-                    &format!("{field}.min"),
-                    format!(
-                        "min {} is above typ {}; expected min ≤ typ",
-                        fmt(min.si, dim),
-                        fmt(s.typ.si, dim)
-                    ),
-                ));
-            }
+        if let Some(min) = s.min
+            && min.si > s.typ.si
+        {
+            return Err(self.fail(
+                &format!("{field}.min"),
+                format!(
+                    "min {} is above typ {}; expected min ≤ typ",
+                    fmt(min.si, dim),
+                    fmt(s.typ.si, dim)
+                ),
+            ));
         }
-        if let Some(max) = s.max {
-            if max.si < s.typ.si {
-                return Err(self.fail(
-                    &format!("{field}.max"),
-                    format!(
-                        "max {} is below typ {}; expected max ≥ typ",
-                        fmt(max.si, dim),
-                        fmt(s.typ.si, dim)
-                    ),
-                ));
-            }
+        if let Some(max) = s.max
+            && max.si < s.typ.si
+        {
+            return Err(self.fail(
+                &format!("{field}.max"),
+                format!(
+                    "max {} is below typ {}; expected max ≥ typ",
+                    fmt(max.si, dim),
+                    fmt(s.typ.si, dim)
+                ),
+            ));
         }
         Ok(())
     }
@@ -292,10 +292,10 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
         ));
     }
     c.within("q_g.typ", s.q_g.typ.si, 0.0, 1e-5, C)?;
-    if let Some(max) = s.q_g.max {
-        if max.si < s.q_g.typ.si {
-            return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
-        }
+    if let Some(max) = s.q_g.max
+        && max.si < s.q_g.typ.si
+    {
+        return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
     }
     c.within("q_g.at_v_gs", s.q_g.at_v_gs.si, 0.0, 30.0, V)?;
     c.spread("q_gs", &s.q_gs)?;
@@ -931,17 +931,17 @@ fn check_design(
                 ));
             }
         }
-        if let (Some(lo), Some(hi)) = (band.min, band.max) {
-            if hi.si <= lo.si {
-                return Err(c.fail(
-                    "constraints.frequency.max",
-                    format!(
-                        "{} is not above min {}; expected min < max",
-                        fmt(hi.si, HZ),
-                        fmt(lo.si, HZ)
-                    ),
-                ));
-            }
+        if let (Some(lo), Some(hi)) = (band.min, band.max)
+            && hi.si <= lo.si
+        {
+            return Err(c.fail(
+                "constraints.frequency.max",
+                format!(
+                    "{} is not above min {}; expected min < max",
+                    fmt(hi.si, HZ),
+                    fmt(lo.si, HZ)
+                ),
+            ));
         }
     }
     if let Some(t) = k.stall_time {

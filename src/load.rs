@@ -9,7 +9,7 @@ use std::path::{Component, Path, PathBuf};
 use serde::de::DeserializeOwned;
 
 use crate::bundled;
-use crate::diagnostic::{did_you_mean, InputError};
+use crate::diagnostic::{InputError, did_you_mean};
 use crate::locate::{Locator, Position};
 
 /// Where a file comes from.
@@ -185,10 +185,11 @@ fn split_yaml_message(raw: &str) -> (String, String) {
             .unwrap_or(0);
         msg = format!("{}{}", &msg[..at], &rest[end..]);
     }
-    if let Some((head, tail)) = msg.split_once(": ") {
-        if !head.is_empty() && !head.contains([' ', '`', '"']) {
-            return (head.to_string(), tail.to_string());
-        }
+    if let Some((head, tail)) = msg.split_once(": ")
+        && !head.is_empty()
+        && !head.contains([' ', '`', '"'])
+    {
+        return (head.to_string(), tail.to_string());
     }
     (String::new(), msg)
 }
@@ -203,30 +204,30 @@ fn refine(path: &str, message: &str) -> (String, String) {
             format!("{path}.{key}")
         }
     };
-    if let Some(rest) = message.strip_prefix("unknown field `") {
-        if let Some((key, expected)) = rest.split_once('`') {
-            let choices = backticked(expected);
-            let hint = match did_you_mean(key, &choices) {
-                Some(s) => format!("unknown field; did you mean `{s}`?"),
-                None => format!("unknown field; expected one of {}", list(&choices)),
-            };
-            return (join(key), hint);
-        }
+    if let Some(rest) = message.strip_prefix("unknown field `")
+        && let Some((key, expected)) = rest.split_once('`')
+    {
+        let choices = backticked(expected);
+        let hint = match did_you_mean(key, &choices) {
+            Some(s) => format!("unknown field; did you mean `{s}`?"),
+            None => format!("unknown field; expected one of {}", list(&choices)),
+        };
+        return (join(key), hint);
     }
-    if let Some(rest) = message.strip_prefix("unknown variant `") {
-        if let Some((word, expected)) = rest.split_once('`') {
-            let choices = backticked(expected);
-            let hint = match did_you_mean(word, &choices) {
-                Some(s) => format!("unknown value `{word}`; did you mean `{s}`?"),
-                None => format!("unknown value `{word}`; expected one of {}", list(&choices)),
-            };
-            return (path.to_string(), hint);
-        }
+    if let Some(rest) = message.strip_prefix("unknown variant `")
+        && let Some((word, expected)) = rest.split_once('`')
+    {
+        let choices = backticked(expected);
+        let hint = match did_you_mean(word, &choices) {
+            Some(s) => format!("unknown value `{word}`; did you mean `{s}`?"),
+            None => format!("unknown value `{word}`; expected one of {}", list(&choices)),
+        };
+        return (path.to_string(), hint);
     }
-    if let Some(rest) = message.strip_prefix("missing field `") {
-        if let Some((key, _)) = rest.split_once('`') {
-            return (join(key), "missing; this field is required".to_string());
-        }
+    if let Some(rest) = message.strip_prefix("missing field `")
+        && let Some((key, _)) = rest.split_once('`')
+    {
+        return (join(key), "missing; this field is required".to_string());
     }
     (path.to_string(), message.to_string())
 }

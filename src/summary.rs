@@ -2,7 +2,7 @@
 
 use crate::design::Design;
 use crate::spec::*;
-use crate::units::{format_quantity, Dimension};
+use crate::units::{Dimension, format_quantity};
 
 fn q(v: f64, d: Dimension) -> String {
     format_quantity(v, d, 3)

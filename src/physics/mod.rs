@@ -1,8 +1,12 @@
 //! The power-stage and motor physics, pure: no I/O, no printing.
 //!
-//! Owns: the motor current waveform under PWM ([`ripple`]) and its audible
-//! spectrum ([`acoustics`]); the switching, loss, thermal, dead-time,
-//! bootstrap and rating models follow in their own files.
+//! Owns, a model per file: the gate-charge switching transitions
+//! ([`switching`]), the loss terms of each device ([`losses`]), junction
+//! temperature with runaway detection and transient impedance ([`thermal`]),
+//! dead-time need ([`deadtime`]), bootstrap sizing ([`bootstrap`]), rating
+//! findings ([`ratings`]), the motor current waveform under PWM ([`ripple`])
+//! and its audible spectrum ([`acoustics`]). Inputs are the plain SI structs
+//! of [`params`]; load currents arrive precomputed from [`ripple`].
 //!
 //! Units are SI throughout (V, A, s, Hz, F, C, J, W, Ω, K/W); temperatures
 //! are °C. Every formula carries its published source beside it;
@@ -10,4 +14,11 @@
 //! `common practice` a trade figure without a published source.
 
 pub mod acoustics;
+pub mod bootstrap;
+pub mod deadtime;
+pub mod losses;
+pub mod params;
+pub mod ratings;
 pub mod ripple;
+pub mod switching;
+pub mod thermal;

@@ -14,7 +14,7 @@ use serde::Deserialize;
 
 pub use quantity::{
     Ampere, Celsius, Coulomb, Dim, Either2, Farad, Henry, Hertz, Joule, Kelvin, KelvinPerWatt, Ohm,
-    PerKelvin, RadPerSecond, Ratio, Second, Siemens, Spread, Volt, VoltSecondPerRad, Q,
+    PerKelvin, Q, RadPerSecond, Ratio, Second, Siemens, Spread, Volt, VoltSecondPerRad,
 };
 
 // ---------------------------------------------------------------- switch file

@@ -5,10 +5,10 @@
 use std::fmt;
 use std::marker::PhantomData;
 
-use serde::de::{self, Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
+use serde::de::{self, Deserializer, MapAccess, Visitor};
 
-use crate::units::{parse_any, parse_quantity, Dimension};
+use crate::units::{Dimension, parse_any, parse_quantity};
 
 /// A dimension known at compile time.
 pub trait Dim: Copy + Clone + fmt::Debug + PartialEq + 'static {

@@ -1,0 +1,151 @@
+//! Dead time of a complementary leg.
+//!
+//! Owns: the minimum dead time from switching times (Infineon AN2007-04, *How to
+//! calculate and minimize the dead time requirement for IGBTs*, 2007; from
+//! memory), the output-voltage error it causes and the duty range it leaves.
+//! Rounding up to the timer's encodable dead time belongs to the timer module.
+
+use super::params::{GateDrive, Topology};
+use super::switching::Transitions;
+
+/// Safety margin on the dead-time need (AN2007-04 uses 1.2; from memory).
+pub const DEFAULT_DEAD_TIME_MARGIN: f64 = 1.2;
+
+/// Inputs of the dead-time need; worst-case datasheet or model values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DeadTimeInputs {
+    /// Longest turn-off delay.
+    pub t_d_off_max_s: f64,
+    /// Longest fall time (until the device stops conducting).
+    pub t_f_max_s: f64,
+    /// Shortest turn-on delay.
+    pub t_d_on_min_s: f64,
+    /// Driver propagation-delay mismatch.
+    pub mismatch_s: f64,
+    /// Multiplicative margin (default [`DEFAULT_DEAD_TIME_MARGIN`]).
+    pub margin: f64,
+}
+
+impl DeadTimeInputs {
+    /// Inputs with the default margin of 1.2.
+    pub fn new(t_d_off_max_s: f64, t_f_max_s: f64, t_d_on_min_s: f64, mismatch_s: f64) -> Self {
+        Self {
+            t_d_off_max_s,
+            t_f_max_s,
+            t_d_on_min_s,
+            mismatch_s,
+            margin: DEFAULT_DEAD_TIME_MARGIN,
+        }
+    }
+
+    /// Inputs from the gate-charge model: turn-off ends after t_d(off) + t_rv +
+    /// t_fi (voltage rises, then current falls), turn-on conduction starts after
+    /// t_d(on). These are typical model values, not maxima (own mapping, no
+    /// published source): widen them or the margin for part spread.
+    pub fn from_transitions(tr: &Transitions, drive: &GateDrive) -> Self {
+        Self::new(
+            tr.t_d_off_s,
+            tr.t_rv_s + tr.t_fi_s,
+            tr.t_d_on_s,
+            drive.mismatch_s,
+        )
+    }
+}
+
+/// Minimum dead time
+/// t_need = (t_d(off),max + t_f,max − t_d(on),min + mismatch)·margin, floored at 0
+/// (AN2007-04; from memory). `None` if any input is not finite or the margin is
+/// below 1.
+pub fn dead_time_need_s(inp: &DeadTimeInputs) -> Option<f64> {
+    let vals = [
+        inp.t_d_off_max_s,
+        inp.t_f_max_s,
+        inp.t_d_on_min_s,
+        inp.mismatch_s,
+        inp.margin,
+    ];
+    if vals.iter().any(|v| !v.is_finite()) || inp.margin < 1.0 {
+        return None;
+    }
+    let raw = inp.t_d_off_max_s + inp.t_f_max_s - inp.t_d_on_min_s + inp.mismatch_s;
+    Some((raw * inp.margin).max(0.0))
+}
+
+/// Average output-voltage error from dead time, opposing the current:
+/// t_dead·f·V per leg, 2·t_dead·f·V across an H-bridge (Mohan, Undeland,
+/// Robbins, *Power Electronics*, 3rd ed., 2003, §8-7; from memory). A single
+/// low-side switch has no dead time: 0.
+pub fn dead_time_voltage_error_v(
+    topology: Topology,
+    t_dead_s: f64,
+    f_sw_hz: f64,
+    v_bus_v: f64,
+) -> f64 {
+    let legs = match topology {
+        Topology::LowSide => 0.0,
+        Topology::HalfBridge => 1.0,
+        Topology::HBridge(_) => 2.0,
+    };
+    legs * t_dead_s * f_sw_hz * v_bus_v
+}
+
+/// Duty range left by the dead time of a complementary leg: each switch loses
+/// t_dead per period, so a commanded duty below t_dead·f gives no high-side
+/// pulse and above 1 − t_dead·f no low-side pulse (common practice). Returns
+/// `(d_min, d_max)`, or `None` when 2·t_dead·f ≥ 1 or inputs are invalid.
+pub fn duty_limits(t_dead_s: f64, f_sw_hz: f64) -> Option<(f64, f64)> {
+    let x = t_dead_s * f_sw_hz;
+    (x.is_finite() && x >= 0.0 && 2.0 * x < 1.0).then_some((x, 1.0 - x))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::params::HBridgeModulation;
+    use crate::physics::params::fixtures::{example_drive, example_switch};
+    use crate::physics::switching::transitions;
+
+    /// The AN2007-04 form by hand: (400 + 200 − 100 + 50) ns × 1.2 = 660 ns.
+    #[test]
+    fn need_by_hand() {
+        let inp = DeadTimeInputs::new(400e-9, 200e-9, 100e-9, 50e-9);
+        assert!((dead_time_need_s(&inp).unwrap() - 660e-9).abs() < 1e-18);
+        // A turn-on delay longer than turn-off: floored at zero.
+        let inp = DeadTimeInputs::new(10e-9, 10e-9, 100e-9, 0.0);
+        assert_eq!(dead_time_need_s(&inp), Some(0.0));
+        let mut bad = DeadTimeInputs::new(1e-9, 1e-9, 0.0, 0.0);
+        bad.margin = 0.9;
+        assert_eq!(dead_time_need_s(&bad), None);
+    }
+
+    /// From the gate-charge model the need equals the hand sum of its times.
+    #[test]
+    fn need_from_model() {
+        let tr = transitions(&example_switch(), &example_drive(), 24.0, 10.0, 10.0, 5e-3).unwrap();
+        let inp = DeadTimeInputs::from_transitions(&tr, &example_drive());
+        let hand = (tr.t_d_off_s + tr.t_rv_s + tr.t_fi_s - tr.t_d_on_s + 10e-9) * 1.2;
+        assert!((dead_time_need_s(&inp).unwrap() - hand).abs() < 1e-18);
+    }
+
+    /// Voltage error: 500 ns at 20 kHz on 24 V is 0.24 V per leg, 0.48 V across
+    /// an H-bridge (Mohan §8-7 form, by hand); duty limits 0.01..0.99.
+    #[test]
+    fn voltage_error_and_duty_limits() {
+        let e = dead_time_voltage_error_v(Topology::HalfBridge, 500e-9, 20e3, 24.0);
+        assert!((e - 0.24).abs() < 1e-12);
+        let e2 = dead_time_voltage_error_v(
+            Topology::HBridge(HBridgeModulation::Unipolar),
+            500e-9,
+            20e3,
+            24.0,
+        );
+        assert!((e2 - 0.48).abs() < 1e-12);
+        assert_eq!(
+            dead_time_voltage_error_v(Topology::LowSide, 500e-9, 20e3, 24.0),
+            0.0
+        );
+        let (lo, hi) = duty_limits(500e-9, 20e3).unwrap();
+        assert!((lo - 0.01).abs() < 1e-15 && (hi - 0.99).abs() < 1e-15);
+        assert_eq!(duty_limits(30e-6, 20e3), None);
+    }
+}

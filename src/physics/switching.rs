@@ -1,0 +1,514 @@
+//! Hard-switching transitions of a MOSFET by the gate-charge method.
+//!
+//! Owns: the plateau voltage, the gate currents on the plateau, the current and
+//! voltage transition times, the RC delays, the turn-on/turn-off energies of one
+//! hard-switched edge pair, the two-point C_gd refinement and the scaling of the
+//! total gate charge to the actual drive voltage.
+//!
+//! Sources: Graovac, Pürschel, Kiep, *MOSFET Power Losses Calculation Using the
+//! Data-Sheet Parameters*, 2006 (Graovac 2006 below); Balogh, *Fundamentals of
+//! MOSFET and IGBT Gate Driver Circuits*, SLUA618 (Balogh below); *Power MOSFET
+//! Basics: Understanding Gate Charge and Using it to Assess Switching
+//! Performance*, AN608A, 2016 (AN608A below).
+//!
+//! A weak driver (a microcontroller pin of a few mA to 25 mA) is not an error
+//! here: it gives long edges and large energies; `ratings` raises the warning.
+
+use super::params::{GateDrive, SwitchModel};
+
+/// Why a transition could not be computed.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SwitchingError {
+    /// Neither a datasheet plateau nor a transconductance was given.
+    NoPlateau,
+    /// A parameter is not finite or outside its physical range.
+    InvalidParameter {
+        /// Field name.
+        name: &'static str,
+        /// Offending value.
+        value: f64,
+    },
+    /// The drive voltage does not exceed the plateau: the switch never fully
+    /// enhances at this current.
+    DriveBelowPlateau {
+        /// Drive voltage.
+        v_drive_v: f64,
+        /// Plateau voltage at the switched current.
+        v_plateau_v: f64,
+    },
+}
+
+/// All times, gate currents and energies of one hard turn-on and one hard
+/// turn-off at the given bus voltage and switched currents.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Transitions {
+    /// Bus voltage swung by the edges.
+    pub v_bus_v: f64,
+    /// Current switched at turn-on (magnitude).
+    pub i_on_a: f64,
+    /// Current switched at turn-off (magnitude).
+    pub i_off_a: f64,
+    /// Plateau voltage at turn-on.
+    pub v_plateau_on_v: f64,
+    /// Plateau voltage at turn-off.
+    pub v_plateau_off_v: f64,
+    /// Gate current on the plateau at turn-on.
+    pub i_g_on_a: f64,
+    /// Gate current on the plateau at turn-off.
+    pub i_g_off_a: f64,
+    /// Charge from threshold to plateau, Q_gs2.
+    pub q_gs2_c: f64,
+    /// Miller charge moved at turn-on (Q_gd or the two-point estimate).
+    pub q_gd_on_c: f64,
+    /// Miller charge moved at turn-off.
+    pub q_gd_off_c: f64,
+    /// Turn-on delay (gate from 0 to V_th).
+    pub t_d_on_s: f64,
+    /// Current rise time.
+    pub t_ri_s: f64,
+    /// Voltage fall time.
+    pub t_fv_s: f64,
+    /// Turn-off delay (gate from V_drv down to the plateau).
+    pub t_d_off_s: f64,
+    /// Voltage rise time.
+    pub t_rv_s: f64,
+    /// Current fall time (charge form).
+    pub t_fi_s: f64,
+    /// Current fall time by RC discharge from plateau to threshold (informative).
+    pub t_fi_rc_s: f64,
+    /// Turn-on energy, without reverse recovery (kept as its own loss line).
+    pub e_on_j: f64,
+    /// Turn-off energy.
+    pub e_off_j: f64,
+}
+
+impl Transitions {
+    /// P_sw = (E_on + E_off)·f (Graovac 2006).
+    pub fn switching_power_w(&self, f_sw_hz: f64) -> f64 {
+        (self.e_on_j + self.e_off_j) * f_sw_hz
+    }
+}
+
+fn finite_non_negative(name: &'static str, value: f64) -> Result<f64, SwitchingError> {
+    if value.is_finite() && value >= 0.0 {
+        Ok(value)
+    } else {
+        Err(SwitchingError::InvalidParameter { name, value })
+    }
+}
+
+fn finite_positive(name: &'static str, value: f64) -> Result<f64, SwitchingError> {
+    if value.is_finite() && value > 0.0 {
+        Ok(value)
+    } else {
+        Err(SwitchingError::InvalidParameter { name, value })
+    }
+}
+
+/// Plateau voltage at drain current `i_a`.
+///
+/// The datasheet plateau is preferred when given; otherwise
+/// V_plt ≈ V_th + I/g_fs (AN608A). Errors when neither is available.
+pub fn plateau_voltage_v(sw: &SwitchModel, i_a: f64) -> Result<f64, SwitchingError> {
+    if let Some(v) = sw.v_plateau_v {
+        return finite_positive("v_plateau_v", v);
+    }
+    let g_fs = sw.g_fs_s.ok_or(SwitchingError::NoPlateau)?;
+    let g_fs = finite_positive("g_fs_s", g_fs)?;
+    let v_th = finite_positive("v_th_v", sw.v_th_v)?;
+    let i = finite_non_negative("i_a", i_a.abs())?;
+    Ok(v_th + i / g_fs)
+}
+
+/// Gate currents on the plateau (Graovac 2006; Balogh):
+/// I_g,on = (V_drv − V_plt)/(R_src + R_g,ext,on + R_g,int),
+/// I_g,off = V_plt/(R_snk + R_g,ext,off + R_g,int).
+///
+/// Returns `(i_g_on_a, i_g_off_a)`.
+pub fn gate_currents_a(
+    drive: &GateDrive,
+    r_g_int_ohm: f64,
+    v_plateau_on_v: f64,
+    v_plateau_off_v: f64,
+) -> Result<(f64, f64), SwitchingError> {
+    let r_on = turn_on_resistance_ohm(drive, r_g_int_ohm)?;
+    let r_off = turn_off_resistance_ohm(drive, r_g_int_ohm)?;
+    if drive.v_drive_v <= v_plateau_on_v {
+        return Err(SwitchingError::DriveBelowPlateau {
+            v_drive_v: drive.v_drive_v,
+            v_plateau_v: v_plateau_on_v,
+        });
+    }
+    Ok((
+        (drive.v_drive_v - v_plateau_on_v) / r_on,
+        v_plateau_off_v / r_off,
+    ))
+}
+
+/// Total gate-loop resistance at turn-on, R_src + R_g,ext,on + R_g,int.
+pub fn turn_on_resistance_ohm(drive: &GateDrive, r_g_int_ohm: f64) -> Result<f64, SwitchingError> {
+    let r = finite_non_negative("r_source_ohm", drive.r_source_ohm)?
+        + finite_non_negative("r_ext_on_ohm", drive.r_ext_on_ohm)?
+        + finite_non_negative("r_g_int_ohm", r_g_int_ohm)?;
+    finite_positive("turn-on gate resistance", r)
+}
+
+/// Total gate-loop resistance at turn-off, R_snk + R_g,ext,off + R_g,int.
+pub fn turn_off_resistance_ohm(drive: &GateDrive, r_g_int_ohm: f64) -> Result<f64, SwitchingError> {
+    let r = finite_non_negative("r_sink_ohm", drive.r_sink_ohm)?
+        + finite_non_negative("r_ext_off_ohm", drive.r_ext_off_ohm)?
+        + finite_non_negative("r_g_int_ohm", r_g_int_ohm)?;
+    finite_positive("turn-off gate resistance", r)
+}
+
+/// Charge from threshold to plateau, Q_gs2 = Q_gs − Q_g(th) (Graovac 2006).
+///
+/// Assumption when Q_g(th) is not given (own derivation, no published source):
+/// V_GS rises linearly with gate charge below the plateau (constant C_gs + C_gd),
+/// so Q_g(th) = Q_gs·V_th/V_plt and Q_gs2 = Q_gs·(V_plt − V_th)/V_plt, with V_plt
+/// the datasheet plateau when given, else `v_plateau_ref_v`.
+pub fn q_gs2_c(sw: &SwitchModel, v_plateau_ref_v: f64) -> Result<f64, SwitchingError> {
+    let q_gs = finite_non_negative("q_gs_c", sw.q_gs_c)?;
+    let q_g_th = match sw.q_g_th_c {
+        Some(q) => finite_non_negative("q_g_th_c", q)?,
+        None => {
+            let v_plt = finite_positive("v_plateau_v", sw.v_plateau_v.unwrap_or(v_plateau_ref_v))?;
+            q_gs * (sw.v_th_v / v_plt).clamp(0.0, 1.0)
+        }
+    };
+    if q_g_th > q_gs {
+        return Err(SwitchingError::InvalidParameter {
+            name: "q_g_th_c",
+            value: q_g_th,
+        });
+    }
+    Ok(q_gs - q_g_th)
+}
+
+/// C_gd (= C_rss) at `v_ds_v`.
+///
+/// From the `c_rss_curve` when it has data: interpolated log-log (a depletion
+/// capacitance is close to a power law in V_DS, so log-log interpolation is exact
+/// for C ∝ V^−n; own choice), clamped to the end points outside the curve (no
+/// extrapolation). Without a curve: the single datasheet value `c_rss_f`.
+pub fn c_gd_f(sw: &SwitchModel, v_ds_v: f64) -> f64 {
+    let mut pts: Vec<(f64, f64)> = sw
+        .c_rss_curve
+        .iter()
+        .copied()
+        .filter(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
+        .collect();
+    if pts.is_empty() {
+        return sw.c_rss_f;
+    }
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let (first, last) = (pts[0], pts[pts.len() - 1]);
+    if v_ds_v <= first.0 {
+        return first.1;
+    }
+    if v_ds_v >= last.0 {
+        return last.1;
+    }
+    for w in pts.windows(2) {
+        let ((v0, c0), (v1, c1)) = (w[0], w[1]);
+        if v_ds_v >= v0 && v_ds_v <= v1 {
+            if v1 <= v0 {
+                return c0;
+            }
+            let x = (v_ds_v.ln() - v0.ln()) / (v1.ln() - v0.ln());
+            return (c0.ln() + x * (c1.ln() - c0.ln())).exp();
+        }
+    }
+    last.1
+}
+
+/// Miller charge moved while V_DS swings between the bus and R_ds(on)·I.
+///
+/// With a C_rss curve: the two-point refinement of Graovac 2006, t_fv = (t_fv1 +
+/// t_fv2)/2 with C_gd at V (upper part of the swing) and at R_ds(on)·I (lower
+/// part), i.e. Q_gd,eff = (V − R_ds(on)·I)·(C_gd(V) + C_gd(R_ds(on)·I))/2.
+/// Without a curve: the datasheet Q_gd as given (not rescaled to the bus; the
+/// datasheet test voltage is usually above a motor bus, so this is conservative).
+pub fn miller_charge_c(sw: &SwitchModel, v_bus_v: f64, i_a: f64, r_ds_on_ohm: f64) -> f64 {
+    if sw.c_rss_curve.is_empty() {
+        return sw.q_gd_c;
+    }
+    let v_low = (r_ds_on_ohm * i_a.abs()).clamp(0.0, v_bus_v);
+    let c_avg = 0.5 * (c_gd_f(sw, v_bus_v) + c_gd_f(sw, v_low.max(f64::MIN_POSITIVE)));
+    (v_bus_v - v_low) * c_avg
+}
+
+/// Time to move charge `q_c` at constant gate current `i_g_a`: t = Q/I_g
+/// (Graovac 2006; Balogh). `None` for a non-positive current.
+pub fn charge_time_s(q_c: f64, i_g_a: f64) -> Option<f64> {
+    (i_g_a > 0.0 && i_g_a.is_finite() && q_c.is_finite()).then(|| q_c / i_g_a)
+}
+
+/// Energy of one linear V–I crossover: E = ½·V·I·(t_a + t_b) (Graovac 2006).
+pub fn crossover_energy_j(v_v: f64, i_a: f64, t_a_s: f64, t_b_s: f64) -> f64 {
+    0.5 * v_v * i_a.abs() * (t_a_s + t_b_s)
+}
+
+/// RC charging time of C_iss from `v_from` towards `v_target` until `v_to`:
+/// t = τ·ln((v_target − v_from)/(v_target − v_to)), τ = R·C_iss (Balogh; the
+/// turn-off forms t_d(off) = τ·ln(V_drv/V_plt) and t_fi = τ·ln(V_plt/V_th) are
+/// from memory). Zero when the ratio is not above 1.
+pub fn rc_time_s(tau_s: f64, v_from: f64, v_target: f64, v_to: f64) -> f64 {
+    let den = v_target - v_to;
+    let num = v_target - v_from;
+    if den.abs() <= f64::MIN_POSITIVE || num / den <= 1.0 {
+        return 0.0;
+    }
+    tau_s * (num / den).ln()
+}
+
+/// One hard turn-on at `i_on_a` and one hard turn-off at `i_off_a` against
+/// `v_bus_v` (inductive clamped load). `r_ds_on_ohm` is the on-resistance in use
+/// (hot), needed for the two-point C_gd refinement. Currents are magnitudes; the
+/// caller decides which device hard-switches (see `losses`).
+pub fn transitions(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    r_ds_on_ohm: f64,
+) -> Result<Transitions, SwitchingError> {
+    let v = finite_non_negative("v_bus_v", v_bus_v)?;
+    let i_on = finite_non_negative("i_on_a", i_on_a.abs())?;
+    let i_off = finite_non_negative("i_off_a", i_off_a.abs())?;
+    let v_th = finite_positive("v_th_v", sw.v_th_v)?;
+    let c_iss = finite_non_negative("c_iss_f", sw.c_iss_f)?;
+    finite_positive("v_drive_v", drive.v_drive_v)?;
+
+    let v_plt_on = plateau_voltage_v(sw, i_on)?;
+    let v_plt_off = plateau_voltage_v(sw, i_off)?;
+    let (i_g_on, i_g_off) = gate_currents_a(drive, sw.r_g_int_ohm, v_plt_on, v_plt_off)?;
+    let q_gs2 = q_gs2_c(sw, v_plt_on)?;
+    let q_gd_on = miller_charge_c(sw, v, i_on, r_ds_on_ohm);
+    let q_gd_off = miller_charge_c(sw, v, i_off, r_ds_on_ohm);
+
+    let bad_current = SwitchingError::InvalidParameter {
+        name: "gate current",
+        value: i_g_off,
+    };
+    let t_ri = charge_time_s(q_gs2, i_g_on).ok_or(bad_current.clone())?;
+    let t_fv = charge_time_s(q_gd_on, i_g_on).ok_or(bad_current.clone())?;
+    let t_rv = charge_time_s(q_gd_off, i_g_off).ok_or(bad_current.clone())?;
+    let t_fi = charge_time_s(q_gs2, i_g_off).ok_or(bad_current)?;
+
+    let tau_on = turn_on_resistance_ohm(drive, sw.r_g_int_ohm)? * c_iss;
+    let tau_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)? * c_iss;
+    let v_drv = drive.v_drive_v;
+    // t_d(on) = τ·ln(V_drv/(V_drv − V_th)) (Balogh).
+    let t_d_on = rc_time_s(tau_on, 0.0, v_drv, v_th);
+    // t_d(off) = τ·ln(V_drv/V_plt) (from memory): discharge towards 0 V.
+    let t_d_off = rc_time_s(tau_off, v_drv, 0.0, v_plt_off);
+    // t_fi(RC) = τ·ln(V_plt/V_th) (from memory).
+    let t_fi_rc = rc_time_s(tau_off, v_plt_off, 0.0, v_th.min(v_plt_off));
+
+    Ok(Transitions {
+        v_bus_v: v,
+        i_on_a: i_on,
+        i_off_a: i_off,
+        v_plateau_on_v: v_plt_on,
+        v_plateau_off_v: v_plt_off,
+        i_g_on_a: i_g_on,
+        i_g_off_a: i_g_off,
+        q_gs2_c: q_gs2,
+        q_gd_on_c: q_gd_on,
+        q_gd_off_c: q_gd_off,
+        t_d_on_s: t_d_on,
+        t_ri_s: t_ri,
+        t_fv_s: t_fv,
+        t_d_off_s: t_d_off,
+        t_rv_s: t_rv,
+        t_fi_s: t_fi,
+        t_fi_rc_s: t_fi_rc,
+        e_on_j: crossover_energy_j(v, i_on, t_ri, t_fv),
+        e_off_j: crossover_energy_j(v, i_off, t_rv, t_fi),
+    })
+}
+
+/// Total gate charge at the actual drive voltage.
+///
+/// Piecewise-linear gate-charge curve (AN608A describes the three segments; the
+/// linear extension above the plateau is from memory):
+/// Q_g(V_drv) = (Q_gs + Q_gd) + (Q_g − Q_gs − Q_gd)·(V_drv − V_plt)/(V_spec − V_plt)
+/// for V_drv above the plateau. Falls back to the proportional form Q_g·V_drv/V_spec when the data do
+/// not allow the segment form (plateau at or above V_spec, or V_drv at or below
+/// the plateau).
+pub fn total_gate_charge_c(sw: &SwitchModel, v_drive_v: f64, v_plateau_v: f64) -> f64 {
+    let q_sw = sw.q_gs_c + sw.q_gd_c;
+    let v_spec = sw.q_g_at_v_gs_v;
+    let v_plt = sw.v_plateau_v.unwrap_or(v_plateau_v);
+    let segment_ok =
+        v_spec > v_plt && v_drive_v > v_plt && sw.q_g_c >= q_sw && v_plt.is_finite() && v_plt > 0.0;
+    if segment_ok {
+        q_sw + (sw.q_g_c - q_sw) * (v_drive_v - v_plt) / (v_spec - v_plt)
+    } else if v_spec > 0.0 {
+        sw.q_g_c * v_drive_v / v_spec
+    } else {
+        sw.q_g_c
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::params::fixtures::{Lcg, example_drive, example_switch};
+
+    fn rel(a: f64, b: f64) -> f64 {
+        ((a - b) / b).abs()
+    }
+
+    /// Brief §1 computed regression case (regression value, computed from the
+    /// formulas, not an external check): Q_gs2 = 3.0 − 1.75 = 1.25 nC, Q_gd 12 nC.
+    #[test]
+    fn regression_case_brief_section_1() {
+        let sw = example_switch();
+        let tr = transitions(&sw, &example_drive(), 24.0, 10.0, 10.0, 5e-3).unwrap();
+        assert!((tr.v_plateau_on_v - 3.5).abs() < 1e-12);
+        assert!((tr.t_ri_s * 1e9 - 1.154).abs() < 5e-4);
+        assert!((tr.t_fv_s * 1e9 - 11.077).abs() < 5e-4);
+        assert!((tr.t_rv_s * 1e9 - 17.143).abs() < 5e-4);
+        assert!((tr.t_fi_s * 1e9 - 1.786).abs() < 5e-4);
+        assert!((tr.e_on_j * 1e6 - 1.468).abs() < 5e-4);
+        assert!((tr.e_off_j * 1e6 - 2.271).abs() < 5e-4);
+        assert!((tr.switching_power_w(20e3) * 1e3 - 74.78).abs() < 5e-3);
+    }
+
+    /// Closed-form check of the gate currents: (10 − 3.5)/6 and 3.5/5.
+    #[test]
+    fn gate_currents_closed_form() {
+        let (on, off) = gate_currents_a(&example_drive(), 1.0, 3.5, 3.5).unwrap();
+        assert!(rel(on, 6.5 / 6.0) < 1e-12);
+        assert!(rel(off, 0.7) < 1e-12);
+    }
+
+    /// Practitioner figure (common practice, no published source): 63 nC moved at
+    /// 360 mA takes about 175 ns.
+    #[test]
+    fn gate_charge_time_common_practice() {
+        let t = charge_time_s(63e-9, 0.360).unwrap();
+        assert!((t * 1e9 - 175.0).abs() < 0.5);
+        assert!(charge_time_s(63e-9, 0.0).is_none());
+    }
+
+    /// Practitioner figure (common practice, no published source): a 347 ns total
+    /// transition at 10 kHz, 12 V, 5.25 A adds about 0.109 W by ½·V·I·(t_r+t_f)·f.
+    #[test]
+    fn crossover_loss_common_practice() {
+        let p = crossover_energy_j(12.0, 5.25, 200e-9, 147e-9) * 10e3;
+        assert!((p - 0.109).abs() < 0.0005);
+    }
+
+    /// A plateau from the datasheet overrides V_th + I/g_fs; neither → error.
+    #[test]
+    fn plateau_preference_and_error() {
+        let mut sw = example_switch();
+        sw.v_plateau_v = Some(4.2);
+        assert_eq!(plateau_voltage_v(&sw, 10.0).unwrap(), 4.2);
+        sw.v_plateau_v = None;
+        sw.g_fs_s = None;
+        assert_eq!(plateau_voltage_v(&sw, 10.0), Err(SwitchingError::NoPlateau));
+    }
+
+    /// Q_g(th) assumption: linear V_GS(Q) below the plateau gives
+    /// Q_gs2 = Q_gs·(V_plt − V_th)/V_plt (closed form of the stated assumption).
+    #[test]
+    fn q_gs2_assumption_without_q_g_th() {
+        let mut sw = example_switch();
+        sw.q_g_th_c = None;
+        let q = q_gs2_c(&sw, 4.0).unwrap();
+        assert!(rel(q, 3.0e-9 * (4.0 - 3.0) / 4.0) < 1e-12);
+    }
+
+    /// Two-point C_gd: for a curve C = k·V^−½ the log-log interpolation is exact,
+    /// so Q_gd,eff must equal (V − R·I)·(C(V) + C(R·I))/2 evaluated in closed form.
+    #[test]
+    fn graovac_two_point_against_power_law_closed_form() {
+        let k = 300e-12; // F·V^½
+        let c = |v: f64| k / v.sqrt();
+        let mut sw = example_switch();
+        sw.c_rss_curve = [0.1, 0.3, 1.0, 3.0, 10.0, 30.0, 60.0]
+            .iter()
+            .map(|&v| (v, c(v)))
+            .collect();
+        let (v, i, r) = (24.0, 10.0, 0.02);
+        let expect = (v - r * i) * 0.5 * (c(v) + c(r * i));
+        assert!(rel(miller_charge_c(&sw, v, i, r), expect) < 1e-9);
+        // Flat curve: reduces to (V − R·I)·C.
+        sw.c_rss_curve = vec![(1.0, 50e-12), (50.0, 50e-12)];
+        assert!(rel(miller_charge_c(&sw, v, i, r), (v - r * i) * 50e-12) < 1e-12);
+    }
+
+    /// Weak driver (25 mA pin at 3.3 V, 132 Ω): still computed, edges long.
+    /// t_fv must equal Q_gd/I_g with I_g = (3.3 − V_plt)/(132 + R_int) (closed form).
+    #[test]
+    fn weak_driver_gives_long_edges() {
+        let mut sw = example_switch();
+        sw.v_th_v = 1.5;
+        let drive = GateDrive {
+            v_drive_v: 3.3,
+            r_source_ohm: 132.0,
+            r_sink_ohm: 132.0,
+            r_ext_on_ohm: 0.0,
+            r_ext_off_ohm: 0.0,
+            prop_delay_s: 0.0,
+            mismatch_s: 0.0,
+        };
+        let tr = transitions(&sw, &drive, 12.0, 2.0, 2.0, 0.01).unwrap();
+        let i_g = (3.3 - (1.5 + 2.0 / 20.0)) / 133.0;
+        assert!(rel(tr.t_fv_s, 12e-9 / i_g) < 1e-12);
+        assert!(tr.t_fv_s > 500e-9);
+        // Drive at or below the plateau is an error, not a number.
+        let tr = transitions(&sw, &drive, 12.0, 40.0, 40.0, 0.01);
+        assert!(matches!(tr, Err(SwitchingError::DriveBelowPlateau { .. })));
+    }
+
+    /// RC delays against their closed forms (Balogh; turn-off forms from memory).
+    #[test]
+    fn rc_delays_closed_form() {
+        let sw = example_switch();
+        let tr = transitions(&sw, &example_drive(), 24.0, 10.0, 10.0, 5e-3).unwrap();
+        let tau_on = 6.0 * 2e-9;
+        let tau_off = 5.0 * 2e-9;
+        assert!(rel(tr.t_d_on_s, tau_on * (10.0_f64 / 7.0).ln()) < 1e-12);
+        assert!(rel(tr.t_d_off_s, tau_off * (10.0_f64 / 3.5).ln()) < 1e-12);
+        assert!(rel(tr.t_fi_rc_s, tau_off * (3.5_f64 / 3.0).ln()) < 1e-12);
+    }
+
+    /// Gate charge scaling: at the specification voltage it returns Q_g exactly,
+    /// at the plateau end Q_gs + Q_gd (the segment end points).
+    #[test]
+    fn gate_charge_scaling_end_points() {
+        let sw = example_switch();
+        assert!(rel(total_gate_charge_c(&sw, 10.0, 3.5), 30e-9) < 1e-12);
+        let q = total_gate_charge_c(&sw, 3.5 + 1e-12, 3.5);
+        assert!(rel(q, 15e-9) < 1e-9);
+    }
+
+    /// Property (seeded loop): switching loss rises with frequency, and E_on,
+    /// E_off rise with current, for random devices and drives.
+    #[test]
+    fn property_switching_loss_monotone() {
+        let mut rng = Lcg(7);
+        for _ in 0..200 {
+            let mut sw = example_switch();
+            sw.q_gd_c = rng.uniform(1e-9, 50e-9);
+            sw.g_fs_s = Some(rng.uniform(5.0, 100.0));
+            let mut drive = example_drive();
+            drive.r_ext_on_ohm = rng.uniform(0.0, 50.0);
+            drive.r_ext_off_ohm = rng.uniform(0.0, 50.0);
+            let v = rng.uniform(5.0, 48.0);
+            let i = rng.uniform(0.5, 20.0);
+            let f1 = rng.uniform(1e3, 50e3);
+            let f2 = f1 * rng.uniform(1.01, 4.0);
+            let a = transitions(&sw, &drive, v, i, i, 0.01).unwrap();
+            assert!(a.switching_power_w(f2) > a.switching_power_w(f1));
+            let b = transitions(&sw, &drive, v, 1.5 * i, 1.5 * i, 0.01).unwrap();
+            assert!(b.e_on_j > a.e_on_j && b.e_off_j > a.e_off_j);
+        }
+    }
+}

@@ -1,0 +1,511 @@
+//! Temperature side of the power stage.
+//!
+//! Owns: R_ds(on)(T_j); the junction-temperature fixed point T = T_a + R_th·P(T)
+//! with runaway detection; its closed form for a linear on-resistance (the test
+//! oracle); the Foster transient thermal impedance and single-pulse rise; and the
+//! per-device iteration of a whole stage (`stage_junction_temperatures`).
+
+use super::losses::{DeviceRole, StageError, stage_losses};
+use super::params::{
+    DiodeModel, GateDrive, LoadCurrent, OperatingPoint, RdsOnTemperature, SwitchModel, ThermalPath,
+    Topology,
+};
+
+/// 0 °C in kelvin.
+pub const ZERO_CELSIUS_K: f64 = 273.15;
+
+/// On-resistance factor relative to 25 °C at junction temperature `t_j_c`.
+///
+/// - `Curve`: linear interpolation between the datasheet points; above the last
+///   point the last segment is extrapolated linearly (hot side matters for
+///   losses), below the first point the first factor is held (conservative).
+///   An empty curve gives 1; a single point gives its factor everywhere.
+/// - `CoefficientPerK(α)`: (1 + α)^(T − 25) (Graovac, Pürschel, Kiep, *MOSFET
+///   Power Losses Calculation Using the Data-Sheet Parameters*, 2006, where α is
+///   given in %/K and the form is (1 + α/100)^(T − 25)).
+/// - `PowerLaw`: (T_K/298.15)^2.3 (from memory; exponent not checked in a source).
+///
+/// The result is never below 1e-3 (guards an extrapolated curve).
+pub fn r_ds_on_factor(model: &RdsOnTemperature, t_j_c: f64) -> f64 {
+    let factor = match model {
+        RdsOnTemperature::Curve(points) => curve_factor(points, t_j_c),
+        RdsOnTemperature::CoefficientPerK(alpha) => (1.0 + alpha).powf(t_j_c - 25.0),
+        RdsOnTemperature::PowerLaw => ((t_j_c + ZERO_CELSIUS_K) / 298.15).max(0.0).powf(2.3),
+    };
+    if factor.is_finite() {
+        factor.max(1e-3)
+    } else {
+        f64::MAX
+    }
+}
+
+fn curve_factor(points: &[(f64, f64)], t_c: f64) -> f64 {
+    let mut pts: Vec<(f64, f64)> = points
+        .iter()
+        .copied()
+        .filter(|&(t, k)| t.is_finite() && k.is_finite())
+        .collect();
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    match pts.len() {
+        0 => 1.0,
+        1 => pts[0].1,
+        n => {
+            if t_c <= pts[0].0 {
+                return pts[0].1;
+            }
+            // Segment containing t_c, or the last one for extrapolation.
+            let idx = pts.windows(2).position(|w| t_c <= w[1].0).unwrap_or(n - 2);
+            let ((t0, k0), (t1, k1)) = (pts[idx], pts[idx + 1]);
+            if t1 - t0 <= 0.0 {
+                return k1;
+            }
+            k0 + (k1 - k0) * (t_c - t0) / (t1 - t0)
+        }
+    }
+}
+
+/// On-resistance of `sw` at junction temperature `t_j_c`: R25·factor(T).
+pub fn r_ds_on_ohm(sw: &SwitchModel, t_j_c: f64) -> f64 {
+    sw.r_ds_on_25_ohm * r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
+}
+
+/// Why no junction temperature is returned.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RunawayReason {
+    /// R_th·dP/dT ≥ 1 where the iteration stood: heating outruns cooling.
+    LoopGainAtLeastOne {
+        /// Temperature where the gain was evaluated.
+        t_c: f64,
+        /// R_th·dP/dT there.
+        loop_gain: f64,
+    },
+    /// The iteration passed T_j,max before settling.
+    NoFixedPointBelowTjMax {
+        /// The limit used.
+        t_j_max_c: f64,
+    },
+    /// The power model returned a non-finite value.
+    NonFinitePower {
+        /// Temperature where it happened.
+        t_c: f64,
+    },
+    /// Ambient, R_th or T_j,max not finite, or R_th negative.
+    InvalidInput,
+}
+
+/// Result of the steady-state junction-temperature solution.
+#[derive(Debug, Clone, PartialEq)]
+pub enum JunctionTemperature {
+    /// A stable fixed point below T_j,max.
+    Settled {
+        /// Junction temperature.
+        t_j_c: f64,
+        /// Device power at that temperature.
+        p_w: f64,
+        /// R_th·dP/dT at the fixed point (< 1).
+        loop_gain: f64,
+    },
+    /// No usable temperature: thermal runaway or no fixed point.
+    Runaway {
+        /// Why.
+        reason: RunawayReason,
+    },
+}
+
+impl JunctionTemperature {
+    /// The settled temperature, if any.
+    pub fn t_j_c(&self) -> Option<f64> {
+        match self {
+            Self::Settled { t_j_c, .. } => Some(*t_j_c),
+            Self::Runaway { .. } => None,
+        }
+    }
+}
+
+const FIXED_POINT_MAX_ITER: usize = 200_000;
+const FIXED_POINT_TOL_K: f64 = 1e-10;
+const GAIN_STEP_K: f64 = 1e-3;
+
+/// Loop gain R_th·dP/dT at `t_c` by a central difference of ±1 mK.
+pub fn loop_gain<F: Fn(f64) -> f64>(r_th_k_per_w: f64, power_w: &F, t_c: f64) -> f64 {
+    let d = power_w(t_c + GAIN_STEP_K) - power_w(t_c - GAIN_STEP_K);
+    r_th_k_per_w * d / (2.0 * GAIN_STEP_K)
+}
+
+/// Steady junction temperature: the fixed point T = T_a + R_th·P(T) (JEDEC
+/// JESD51 series for R_th(j-a); the fixed-point statement is brief §4).
+///
+/// Iterates T ← T_a + R_th·P(T) from T_a, which for a power rising with
+/// temperature climbs monotonically to the lowest fixed point. Runaway is
+/// reported, never a number, when the iterate passes `t_j_max_c` (reason: loop
+/// gain ≥ 1 if R_th·dP/dT there is ≥ 1, else no fixed point below T_j,max), when
+/// it does not settle (gain ≈ 1), or when the settled point has gain ≥ 1.
+pub fn junction_temperature<F: Fn(f64) -> f64>(
+    t_ambient_c: f64,
+    r_th_k_per_w: f64,
+    t_j_max_c: f64,
+    power_w: F,
+) -> JunctionTemperature {
+    let runaway = |reason| JunctionTemperature::Runaway { reason };
+    let inputs_ok = t_ambient_c.is_finite()
+        && r_th_k_per_w.is_finite()
+        && r_th_k_per_w >= 0.0
+        && t_j_max_c.is_finite();
+    if !inputs_ok {
+        return runaway(RunawayReason::InvalidInput);
+    }
+    let mut t = t_ambient_c;
+    for _ in 0..FIXED_POINT_MAX_ITER {
+        let p = power_w(t);
+        if !p.is_finite() {
+            return runaway(RunawayReason::NonFinitePower { t_c: t });
+        }
+        let t_next = t_ambient_c + r_th_k_per_w * p;
+        if t_next > t_j_max_c {
+            let gain = loop_gain(r_th_k_per_w, &power_w, t_j_max_c);
+            return runaway(if gain >= 1.0 {
+                RunawayReason::LoopGainAtLeastOne {
+                    t_c: t_j_max_c,
+                    loop_gain: gain,
+                }
+            } else {
+                RunawayReason::NoFixedPointBelowTjMax { t_j_max_c }
+            });
+        }
+        let settled = (t_next - t).abs() <= FIXED_POINT_TOL_K * t.abs().max(1.0);
+        t = t_next;
+        if settled {
+            let gain = loop_gain(r_th_k_per_w, &power_w, t);
+            if !gain.is_finite() || gain >= 1.0 {
+                return runaway(RunawayReason::LoopGainAtLeastOne {
+                    t_c: t,
+                    loop_gain: gain,
+                });
+            }
+            return JunctionTemperature::Settled {
+                t_j_c: t,
+                p_w: power_w(t),
+                loop_gain: gain,
+            };
+        }
+    }
+    let gain = loop_gain(r_th_k_per_w, &power_w, t);
+    runaway(RunawayReason::LoopGainAtLeastOne {
+        t_c: t,
+        loop_gain: gain,
+    })
+}
+
+/// Closed form for P(T) = P0 + P1·(1 + a·(T − 25)) (a linear on-resistance
+/// coefficient; P0 temperature-independent, P1 the resistive loss at 25 °C):
+/// T = [T_a + R·(P0 + P1·(1 − 25·a))]/(1 − R·P1·a), derived algebraically from
+/// T = T_a + R·P(T). `None` when R·P1·a ≥ 1 (runaway) or inputs are not finite.
+pub fn junction_temperature_linear_closed_form(
+    t_ambient_c: f64,
+    r_th_k_per_w: f64,
+    p_fixed_w: f64,
+    p_resistive_25_w: f64,
+    alpha_per_k: f64,
+) -> Option<f64> {
+    let gain = r_th_k_per_w * p_resistive_25_w * alpha_per_k;
+    if gain >= 1.0 || !gain.is_finite() {
+        return None;
+    }
+    let num =
+        t_ambient_c + r_th_k_per_w * (p_fixed_w + p_resistive_25_w * (1.0 - 25.0 * alpha_per_k));
+    let t = num / (1.0 - gain);
+    t.is_finite().then_some(t)
+}
+
+/// Transient thermal impedance of a Foster network,
+/// Z_th(t) = Σ R_i·(1 − e^(−t/τ_i)) (Infineon AN2008-03, *Thermal equivalent
+/// circuit models*, 2008; from memory). With no Foster pairs it falls back to the
+/// steady-state R_th(j-a) for every t > 0 (conservative: no thermal mass). Pairs
+/// with τ ≤ 0 count as instantaneous (their full R). Z(t ≤ 0) = 0 and Z(NaN) = 0.
+/// For t → ∞ Z tends to ΣR_i, which equals R_th(j-a) only if the network
+/// describes the whole path to ambient.
+pub fn z_th_k_per_w(path: &ThermalPath, t_s: f64) -> f64 {
+    if t_s.is_nan() || t_s <= 0.0 {
+        return 0.0;
+    }
+    if path.foster.is_empty() {
+        return path.r_th_ja_k_per_w;
+    }
+    path.foster
+        .iter()
+        .map(|&(r, tau)| {
+            if tau > 0.0 {
+                r * (1.0 - (-t_s / tau).exp())
+            } else {
+                r
+            }
+        })
+        .sum()
+}
+
+/// Temperature rise at the end of a single rectangular power pulse of `p_w`
+/// lasting `t_s` (stall, start-up): ΔT = P·Z_th(t) (AN2008-03, from memory). With
+/// no Foster pairs this is the steady-state rise P·R_th(j-a).
+pub fn single_pulse_rise_k(path: &ThermalPath, p_w: f64, t_s: f64) -> f64 {
+    p_w * z_th_k_per_w(path, t_s)
+}
+
+/// Steady junction temperature of one device of a stage.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DeviceTemperature {
+    /// Which device.
+    pub role: DeviceRole,
+    /// Its fixed-point result.
+    pub result: JunctionTemperature,
+}
+
+/// Junction temperature of every device of a stage, each through its own
+/// thermal path (`thermal_for(role)`), each with its own T_j.
+///
+/// The devices are taken as thermally independent (separate paths to ambient),
+/// so each is a one-dimensional fixed point on its own loss P_i(T_i). The
+/// freewheel diode uses the switch's T_j,max (the diode model has none).
+pub fn stage_junction_temperatures(
+    topology: Topology,
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    diode: Option<&DiodeModel>,
+    op: &OperatingPoint,
+    load: &LoadCurrent,
+    thermal_for: impl Fn(DeviceRole) -> ThermalPath,
+) -> Result<Vec<DeviceTemperature>, StageError> {
+    let at_ambient = stage_losses(topology, sw, drive, diode, op, load, &|_| op.t_ambient_c)?;
+    let out = at_ambient
+        .devices
+        .iter()
+        .map(|dev| {
+            let role = dev.role;
+            let power = |t: f64| {
+                stage_losses(topology, sw, drive, diode, op, load, &|_| t)
+                    .ok()
+                    .and_then(|s| s.device(role).map(|d| d.total_w))
+                    .unwrap_or(f64::NAN)
+            };
+            let path = thermal_for(role);
+            DeviceTemperature {
+                role,
+                result: junction_temperature(
+                    op.t_ambient_c,
+                    path.r_th_ja_k_per_w,
+                    sw.t_j_max_c,
+                    power,
+                ),
+            }
+        })
+        .collect();
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::physics::params::fixtures::{Lcg, example_drive, example_switch, triangular_load};
+
+    /// Brief §4 computed regression case (regression value, computed from the
+    /// formula, not an external check): I_rms² 60.45 A², R25 5 mΩ, linear
+    /// α 0.005/K, P_sw 74.78 mW, T_a 40 °C, R_th 40 K/W → 57.017 °C, 0.4254 W.
+    #[test]
+    fn regression_case_brief_section_4() {
+        let p = |t: f64| 0.07478 + 60.45 * 5e-3 * (1.0 + 0.005 * (t - 25.0));
+        let res = junction_temperature(40.0, 40.0, 175.0, p);
+        let JunctionTemperature::Settled {
+            t_j_c,
+            p_w,
+            loop_gain,
+        } = res
+        else {
+            panic!("expected settled, got {res:?}");
+        };
+        assert!((t_j_c - 57.017).abs() < 5e-4);
+        assert!((p_w - 0.4254).abs() < 5e-5);
+        assert!((loop_gain - 40.0 * 60.45 * 5e-3 * 0.005).abs() < 1e-9);
+    }
+
+    /// Iteration against the algebraic closed form, within 1e-6 K, for the
+    /// regression case and a seeded set of random cases.
+    #[test]
+    fn closed_form_matches_iteration() {
+        let mut rng = Lcg(11);
+        let mut cases = vec![(40.0, 40.0, 0.07478, 60.45 * 5e-3, 0.005)];
+        for _ in 0..300 {
+            let (t_a, r) = (rng.uniform(-20.0, 80.0), rng.uniform(1.0, 80.0));
+            let (p0, p1, a) = (
+                rng.uniform(0.0, 1.0),
+                rng.uniform(0.0, 2.0),
+                rng.uniform(0.0, 0.008),
+            );
+            cases.push((t_a, r, p0, p1, a));
+        }
+        let mut checked = 0;
+        for (t_a, r, p0, p1, a) in cases {
+            let closed = junction_temperature_linear_closed_form(t_a, r, p0, p1, a);
+            let p = |t: f64| p0 + p1 * (1.0 + a * (t - 25.0));
+            let iter = junction_temperature(t_a, r, 1000.0, p);
+            match (closed, iter.t_j_c()) {
+                (Some(c), Some(i)) => {
+                    assert!((c - i).abs() < 1e-6, "closed {c} iter {i}");
+                    checked += 1;
+                }
+                (None, None) => {}
+                (c, i) => {
+                    // Disagreement is only acceptable beyond the 1000 °C cap.
+                    assert!(
+                        c.is_some_and(|c| c > 1000.0 - 1e-6) && i.is_none(),
+                        "{c:?} {i:?}"
+                    );
+                }
+            }
+        }
+        assert!(checked > 100);
+    }
+
+    /// Practitioner figure (common practice, no published source): 0.64 W through
+    /// 62 K/W from a 50 °C ambient gives about 90 °C.
+    #[test]
+    fn constant_power_common_practice() {
+        let t = junction_temperature(50.0, 62.0, 150.0, |_| 0.64)
+            .t_j_c()
+            .unwrap();
+        assert!((t - 90.0).abs() < 0.5);
+        assert!((t - 89.68).abs() < 1e-9);
+    }
+
+    /// Loop gain R·P1·a = 40·10·0.005 = 2 ≥ 1 → Runaway, never a number; and a
+    /// stable but too-hot case → no fixed point below T_j,max.
+    #[test]
+    fn runaway_detection() {
+        let p = |t: f64| 10.0 * (1.0 + 0.005 * (t - 25.0));
+        let res = junction_temperature(25.0, 40.0, 175.0, p);
+        assert!(matches!(
+            res,
+            JunctionTemperature::Runaway {
+                reason: RunawayReason::LoopGainAtLeastOne { .. }
+            }
+        ));
+        assert!(junction_temperature_linear_closed_form(25.0, 40.0, 0.0, 10.0, 0.005).is_none());
+        let res = junction_temperature(25.0, 40.0, 175.0, |_| 5.0);
+        assert_eq!(
+            res,
+            JunctionTemperature::Runaway {
+                reason: RunawayReason::NoFixedPointBelowTjMax { t_j_max_c: 175.0 }
+            }
+        );
+        let res = junction_temperature(25.0, 40.0, 175.0, |_| f64::NAN);
+        assert!(matches!(
+            res,
+            JunctionTemperature::Runaway {
+                reason: RunawayReason::NonFinitePower { .. }
+            }
+        ));
+    }
+
+    /// Property (seeded loop): T_j rises with ambient and with R_th.
+    #[test]
+    fn property_tj_monotone() {
+        let mut rng = Lcg(3);
+        for _ in 0..300 {
+            let (p0, p1, a) = (
+                rng.uniform(0.0, 0.5),
+                rng.uniform(0.0, 0.5),
+                rng.uniform(0.0, 0.006),
+            );
+            let p = |t: f64| p0 + p1 * (1.0 + a * (t - 25.0));
+            let (t_a, r) = (rng.uniform(0.0, 60.0), rng.uniform(5.0, 60.0));
+            let base = junction_temperature(t_a, r, 1e4, p).t_j_c().unwrap();
+            let hotter = junction_temperature(t_a + 5.0, r, 1e4, p).t_j_c().unwrap();
+            let worse = junction_temperature(t_a, r * 1.2, 1e4, p).t_j_c().unwrap();
+            assert!(hotter > base && worse > base);
+        }
+    }
+
+    /// On-resistance models against hand values: Graovac exponential form, the
+    /// curve (interpolation, hot-side extrapolation, cold-side hold), the power
+    /// law (1 at 25 °C).
+    #[test]
+    fn r_ds_on_models() {
+        let k = r_ds_on_factor(&RdsOnTemperature::CoefficientPerK(0.005), 125.0);
+        assert!((k - 1.005_f64.powi(100)).abs() < 1e-12);
+        let curve = RdsOnTemperature::Curve(vec![(125.0, 1.7), (25.0, 1.0), (75.0, 1.3)]);
+        assert!((r_ds_on_factor(&curve, 50.0) - 1.15).abs() < 1e-12);
+        assert!((r_ds_on_factor(&curve, 100.0) - 1.5).abs() < 1e-12);
+        assert!((r_ds_on_factor(&curve, 150.0) - 1.9).abs() < 1e-12);
+        assert!((r_ds_on_factor(&curve, -40.0) - 1.0).abs() < 1e-12);
+        assert!((r_ds_on_factor(&RdsOnTemperature::PowerLaw, 25.0) - 1.0).abs() < 1e-12);
+        // Power law (from memory) against its own closed form at 125 °C.
+        let pl = r_ds_on_factor(&RdsOnTemperature::PowerLaw, 125.0);
+        assert!((pl - (398.15_f64 / 298.15).powf(2.3)).abs() < 1e-12);
+    }
+
+    /// Foster network against an independent numerical integration of its
+    /// parallel-RC branches (dT_i/dt = (P − T_i/R_i)/C_i, C_i = τ_i/R_i, RK4).
+    #[test]
+    fn foster_against_numerical_integration() {
+        let path = ThermalPath {
+            r_th_ja_k_per_w: 50.0,
+            foster: vec![(0.5, 1e-3), (2.0, 0.05), (10.0, 2.0), (37.5, 60.0)],
+        };
+        let (p, t_end, n) = (3.0, 5.0, 200_000usize);
+        let h = t_end / n as f64;
+        let mut temps = vec![0.0; path.foster.len()];
+        for _ in 0..n {
+            for (ti, &(r, tau)) in temps.iter_mut().zip(&path.foster) {
+                let c = tau / r;
+                let f = |x: f64| (p - x / r) / c;
+                let k1 = f(*ti);
+                let k2 = f(*ti + 0.5 * h * k1);
+                let k3 = f(*ti + 0.5 * h * k2);
+                let k4 = f(*ti + h * k3);
+                *ti += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+            }
+        }
+        let numeric: f64 = temps.iter().sum();
+        assert!((single_pulse_rise_k(&path, p, t_end) - numeric).abs() < 1e-6);
+        // Long pulse tends to ΣR_i = 50 K/W.
+        assert!((z_th_k_per_w(&path, 1e5) - 50.0).abs() < 1e-9);
+        // No Foster data: steady-state fallback.
+        let bare = ThermalPath {
+            r_th_ja_k_per_w: 62.0,
+            foster: Vec::new(),
+        };
+        assert_eq!(single_pulse_rise_k(&bare, 2.0, 1e-3), 124.0);
+    }
+
+    /// Whole-stage iteration: every device settles, and each device's T_j
+    /// satisfies T = T_a + R_th·P(T) with its own reported power.
+    #[test]
+    fn stage_iteration_self_consistent() {
+        let op = OperatingPoint {
+            v_bus_v: 24.0,
+            duty: 0.6,
+            f_sw_hz: 20e3,
+            t_dead_s: 200e-9,
+            t_ambient_c: 40.0,
+        };
+        let load = triangular_load(8.0, 2.0);
+        let res = stage_junction_temperatures(
+            Topology::HalfBridge,
+            &example_switch(),
+            &example_drive(),
+            None,
+            &op,
+            &load,
+            |_| ThermalPath {
+                r_th_ja_k_per_w: 40.0,
+                foster: Vec::new(),
+            },
+        )
+        .unwrap();
+        assert_eq!(res.len(), 2);
+        for d in res {
+            let JunctionTemperature::Settled { t_j_c, p_w, .. } = d.result else {
+                panic!("{d:?}");
+            };
+            assert!((t_j_c - (40.0 + 40.0 * p_w)).abs() < 1e-6);
+        }
+    }
+}
