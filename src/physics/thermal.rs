@@ -93,6 +93,27 @@ pub enum RunawayReason {
     InvalidInput,
 }
 
+impl std::fmt::Display for RunawayReason {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            RunawayReason::LoopGainAtLeastOne { t_c, loop_gain } => write!(
+                f,
+                "thermal runaway: loop gain R_th·dP/dT = {loop_gain:.2} at {t_c:.1} °C (needs < 1)"
+            ),
+            RunawayReason::NoFixedPointBelowTjMax { t_j_max_c } => write!(
+                f,
+                "thermal runaway: no steady junction temperature below T_j max {t_j_max_c:.0} °C"
+            ),
+            RunawayReason::NonFinitePower { t_c } => {
+                write!(f, "the loss model gave no finite power at {t_c:.1} °C")
+            }
+            RunawayReason::InvalidInput => {
+                f.write_str("ambient, R_th or T_j max is not a usable number")
+            }
+        }
+    }
+}
+
 /// Result of the steady-state junction-temperature solution.
 #[derive(Debug, Clone, PartialEq)]
 pub enum JunctionTemperature {

@@ -1,0 +1,948 @@
+//! The solver: search the timer's realisable settings for the best one under
+//! every constraint, and explain the choice (what binds, the feasible band,
+//! alternatives) or the conflict (which constraints, the nearest compromise).
+//!
+//! **Invariant:** pure; infeasibility is a result, not an error. The search
+//! visits realisable settings only: a continuous optimum is never snapped.
+//!
+//! Search: the realisable settings of each allowed alignment are listed as
+//! one per distinct frequency (the one with the most duty steps, see
+//! [`crate::timer::TimerModel::distinct_products_in_band`]). When they are
+//! few ([`Search::exhaustive_limit`]) every one is evaluated. Otherwise a
+//! log-spaced grid of realisable settings is evaluated first and then every
+//! realisable setting in the bracket around the best grid point; this finds
+//! the same optimum as the exhaustive search whenever the objective is
+//! unimodal in frequency across the bracket, which holds for these models
+//! (terms that grow with f — switching, gate drive — against terms that fall
+//! — ripple conduction and copper loss).
+
+use std::cmp::Ordering;
+
+use serde::Serialize;
+
+use crate::model::{CaseResult, Evaluator, OperatingCase};
+use crate::physics::params::{HBridgeModulation, Topology};
+use crate::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
+
+/// What the solver optimises.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Objective {
+    /// Least total loss at the rated case (switches, diodes, gate drive,
+    /// ripple copper loss).
+    LeastLoss,
+    /// The highest frequency whose total loss stays within
+    /// [`QUIET_LOSS_ALLOWANCE`] of the least: furthest from the audible
+    /// range and with the least ripple for a small price in loss.
+    Quietest,
+    /// The coolest hottest junction at the rated case.
+    CoolestJunction,
+}
+
+/// How much more loss the `quietest` objective accepts (10 %; our choice).
+pub const QUIET_LOSS_ALLOWANCE: f64 = 0.10;
+
+/// Search parameters.
+#[derive(Debug, Clone, Copy)]
+pub struct Search {
+    /// At most this many settings are evaluated one by one; above it the
+    /// grid-then-bracket search runs.
+    pub exhaustive_limit: usize,
+    /// Points of the log grid.
+    pub grid_points: usize,
+}
+
+impl Default for Search {
+    fn default() -> Search {
+        Search {
+            exhaustive_limit: 1500,
+            grid_points: 96,
+        }
+    }
+}
+
+/// One constraint at one setting.
+#[derive(Debug, Clone, Serialize)]
+pub struct ConstraintCheck {
+    /// Stable kebab-case name.
+    pub name: &'static str,
+    /// The limit in SI units (`unit`).
+    pub limit: f64,
+    /// The value at the setting; `None` when it has none (runaway, not encodable).
+    pub value: Option<f64>,
+    /// Distance to the limit on the safe side, in `unit` (negative: violated).
+    pub margin: Option<f64>,
+    pub unit: &'static str,
+    pub pass: bool,
+    /// Moving the setting towards a better objective would break this one.
+    pub binding: bool,
+    /// One line on what the value is.
+    pub detail: String,
+}
+
+/// The dead time chosen for a setting.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct DeadTimeChoice {
+    pub need_s: f64,
+    /// Encoded: code, ticks, realised seconds.
+    pub code: Option<u32>,
+    pub ticks: Option<u64>,
+    pub seconds: f64,
+    /// Largest encodable dead time, when the need is out of range.
+    pub max_s: Option<f64>,
+}
+
+/// A fully evaluated setting.
+#[derive(Debug, Clone, Serialize)]
+pub struct Candidate {
+    pub setting: Setting,
+    pub dead_time: DeadTimeChoice,
+    pub duty_limits: Option<DutyLimitsOut>,
+    /// Channel duties the load needs at rated current: lowest and highest
+    /// over the supply range.
+    pub duty_needed: (f64, f64),
+    pub rated: CaseResult,
+    pub high_bus: CaseResult,
+    pub checks: Vec<ConstraintCheck>,
+    pub feasible: bool,
+}
+
+/// Serialisable copy of [`PwmSetting`].
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Setting {
+    pub divider: u64,
+    pub divider_register: u64,
+    pub period_ticks: u64,
+    pub period_register: u64,
+    pub alignment: &'static str,
+    pub frequency_hz: f64,
+    pub duty_steps: u64,
+    pub resolution_bits: f64,
+}
+
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct DutyLimitsOut {
+    pub min_counts: u64,
+    pub max_counts: u64,
+    pub min_duty: f64,
+    pub max_duty: f64,
+}
+
+impl From<DutyLimits> for DutyLimitsOut {
+    fn from(d: DutyLimits) -> DutyLimitsOut {
+        DutyLimitsOut {
+            min_counts: d.min_counts,
+            max_counts: d.max_counts,
+            min_duty: d.min_duty,
+            max_duty: d.max_duty,
+        }
+    }
+}
+
+fn alignment_name(a: Alignment) -> &'static str {
+    match a {
+        Alignment::Edge => "edge",
+        Alignment::Centre => "centre",
+    }
+}
+
+impl From<&PwmSetting> for Setting {
+    fn from(s: &PwmSetting) -> Setting {
+        Setting {
+            divider: s.divider,
+            divider_register: s.divider_register,
+            period_ticks: s.period_ticks,
+            period_register: s.period_register,
+            alignment: alignment_name(s.alignment),
+            frequency_hz: s.frequency_hz,
+            duty_steps: s.duty_steps,
+            resolution_bits: s.resolution_bits,
+        }
+    }
+}
+
+/// An alternative to the chosen setting and what it trades.
+#[derive(Debug, Clone, Serialize)]
+pub struct Alternative {
+    pub label: &'static str,
+    pub candidate: Candidate,
+    pub trade: String,
+}
+
+/// The solver's answer.
+#[derive(Debug, Clone, Serialize)]
+pub struct Solution {
+    pub objective: Objective,
+    pub feasible: bool,
+    /// The chosen setting; when infeasible, the nearest compromise.
+    pub chosen: Option<Candidate>,
+    /// Lowest and highest feasible frequency found.
+    pub feasible_band_hz: Option<(f64, f64)>,
+    pub alternatives: Vec<Alternative>,
+    /// When infeasible: the plain explanation, one sentence per line.
+    pub conflict: Vec<String>,
+    /// How many settings were evaluated, and how many exist in the band.
+    pub evaluated: usize,
+    pub realisable: usize,
+}
+
+/// A margin counts as binding-close when within this share of the limit.
+const EPS: f64 = 1e-9;
+
+impl Evaluator {
+    /// Dead time for a frequency-independent need (the rated and high-bus
+    /// turn-off against turn-on), encoded by the timer.
+    pub fn dead_time_choice(&self) -> DeadTimeChoice {
+        let need = if self.needs_dead_time() {
+            [self.rated, self.high_bus]
+                .iter()
+                .filter_map(|c| self.dead_time_need_s(c))
+                .fold(0.0, f64::max)
+        } else {
+            0.0
+        };
+        match self.timer.encode_dead_time(need) {
+            Ok(c) => DeadTimeChoice {
+                need_s: need,
+                code: Some(c.code),
+                ticks: Some(c.ticks),
+                seconds: c.seconds,
+                max_s: None,
+            },
+            Err(DeadTimeError::OutOfRange { max_s }) => DeadTimeChoice {
+                need_s: need,
+                code: None,
+                ticks: None,
+                seconds: need,
+                max_s: Some(max_s),
+            },
+            Err(_) => DeadTimeChoice {
+                need_s: need,
+                code: None,
+                ticks: None,
+                seconds: need,
+                max_s: Some(0.0),
+            },
+        }
+    }
+
+    /// Channel duty range the load needs: from the high-bus case (lowest
+    /// modulation) to the low-bus case (highest).
+    fn duty_needed(&self, m_low: f64, m_high: f64) -> (f64, f64) {
+        match self.stage.topology {
+            Topology::HBridge(HBridgeModulation::Unipolar) => {
+                (0.5 * (1.0 - m_high), 0.5 * (1.0 + m_high))
+            }
+            Topology::HBridge(HBridgeModulation::Bipolar) => {
+                (0.5 * (1.0 + m_low), 0.5 * (1.0 + m_high))
+            }
+            _ => (m_low, m_high),
+        }
+    }
+
+    /// Highest duty the bootstrap refresh leaves: D_max = 1 − t_refresh·f
+    /// (physics brief §7; TI SLUA887, 2018, from memory).
+    fn bootstrap_max_duty(&self, f_hz: f64) -> Option<f64> {
+        self.stage
+            .bootstrap_refresh_s
+            .map(|t| (1.0 - t * f_hz).clamp(0.0, 1.0))
+    }
+
+    /// Evaluate one realisable setting against every constraint.
+    pub fn candidate(&self, s: &PwmSetting, dead: &DeadTimeChoice) -> Option<Candidate> {
+        let f = s.frequency_hz;
+        let rated = self.case(&self.rated, f, dead.seconds)?;
+        let high_bus = self.case(&self.high_bus, f, dead.seconds)?;
+        let m_low_bus = self.modulation_for_load(&self.low_bus, f).unwrap_or(1.0);
+        let duty_needed = self.duty_needed(high_bus.modulation, m_low_bus);
+        let limits = timer::duty_limits(
+            s,
+            dead.seconds,
+            self.timer.compare.min_pulse_s,
+            self.bootstrap_max_duty(f),
+        )
+        .ok();
+        let mut checks = Vec::new();
+        let l = &self.limits;
+
+        // Junction temperature at the rated and the high-bus case.
+        for (name, r) in [("junction-rated", &rated), ("junction-high-bus", &high_bus)] {
+            let detail = match (&r.runaway, r.junction_c) {
+                (Some(why), _) => why.clone(),
+                (None, Some(_)) => format!(
+                    "hottest junction at {} and {:.0} °C ambient",
+                    fmt_v(r.case.v_bus_v),
+                    r.case.t_ambient_c
+                ),
+                (None, None) => "no junction temperature".into(),
+            };
+            checks.push(upper(name, l.t_j_max_c, r.junction_c, "°C", detail));
+        }
+        if let Some(max) = l.ripple_pp_max_a {
+            let worst = rated
+                .ripple
+                .peak_to_peak_a
+                .max(high_bus.ripple.peak_to_peak_a);
+            checks.push(upper(
+                "ripple",
+                max,
+                Some(worst),
+                "A",
+                format!(
+                    "motor current ripple peak to peak at {}",
+                    fmt_v(self.high_bus.v_bus_v)
+                ),
+            ));
+        }
+        let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass;
+        let (a_limit, a_value) = match &self.audible {
+            crate::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
+                (*hearing_limit_hz, Some(rated.ripple.frequency_hz))
+            }
+            crate::physics::acoustics::AudibleMode::AvoidBands { .. } => (
+                0.0,
+                Some(
+                    rated
+                        .acoustic
+                        .lines_in_avoided_bands_hz
+                        .len()
+                        .max(high_bus.acoustic.lines_in_avoided_bands_hz.len())
+                        as f64,
+                ),
+            ),
+            crate::physics::acoustics::AudibleMode::Allowed => (0.0, None),
+        };
+        let mut audible = ConstraintCheck {
+            name: "audible",
+            limit: a_limit,
+            value: a_value,
+            margin: None,
+            unit: "Hz",
+            pass: audible_pass,
+            binding: false,
+            detail: if rated.acoustic.pass && !high_bus.acoustic.pass {
+                high_bus.acoustic.reason.clone()
+            } else {
+                rated.acoustic.reason.clone()
+            },
+        };
+        match &self.audible {
+            crate::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
+                audible.margin = a_value.map(|v| v - hearing_limit_hz);
+            }
+            crate::physics::acoustics::AudibleMode::AvoidBands { .. } => {
+                audible.unit = "lines";
+                audible.margin = a_value.map(|v| if v == 0.0 { 0.0 } else { -v });
+            }
+            crate::physics::acoustics::AudibleMode::Allowed => audible.unit = "",
+        }
+        checks.push(audible);
+        if let Some(bits) = l.min_resolution_bits {
+            checks.push(lower(
+                "resolution",
+                bits,
+                Some(s.resolution_bits),
+                "bits",
+                format!("{} duty steps", s.duty_steps),
+            ));
+        }
+        let dt_ok = dead.code.is_some();
+        if self.needs_dead_time() {
+            checks.push(ConstraintCheck {
+                name: "dead-time",
+                limit: dead.max_s.unwrap_or(dead.seconds),
+                value: Some(dead.need_s),
+                margin: dead
+                    .max_s
+                    .map(|m| m - dead.need_s)
+                    .or(Some(dead.seconds - dead.need_s)),
+                unit: "s",
+                pass: dt_ok,
+                binding: false,
+                detail: if dt_ok {
+                    "dead time needed; the timer encodes the next value up".into()
+                } else if dead.max_s == Some(0.0) {
+                    "the timer has no dead-time generator but the bridge needs one".into()
+                } else {
+                    "the dead time needed exceeds what the generator encodes".into()
+                },
+            });
+        }
+        let (duty_pass, duty_margin, duty_detail) = match limits {
+            Some(lim) => {
+                let hi_margin = lim.max_duty - duty_needed.1;
+                let lo_margin = if matches!(
+                    self.stage.topology,
+                    Topology::HBridge(HBridgeModulation::Unipolar)
+                ) {
+                    duty_needed.0 - lim.min_duty
+                } else {
+                    f64::INFINITY
+                };
+                let m = hi_margin.min(lo_margin);
+                (
+                    m >= -EPS,
+                    Some(m),
+                    format!(
+                        "channel duty {:.3}–{:.3} needed, {:.3}–{:.3} allowed",
+                        duty_needed.0, duty_needed.1, lim.min_duty, lim.max_duty
+                    ),
+                )
+            }
+            None => (
+                false,
+                None,
+                "no duty range left between the minimum pulses and the bootstrap refresh".into(),
+            ),
+        };
+        checks.push(ConstraintCheck {
+            name: "duty-range",
+            limit: limits.map(|l| l.max_duty).unwrap_or(0.0),
+            value: Some(duty_needed.1),
+            margin: duty_margin,
+            unit: "",
+            pass: duty_pass,
+            binding: false,
+            detail: duty_detail,
+        });
+        let feasible = checks.iter().all(|c| c.pass);
+        Some(Candidate {
+            setting: s.into(),
+            dead_time: *dead,
+            duty_limits: limits.map(Into::into),
+            duty_needed,
+            rated,
+            high_bus,
+            checks,
+            feasible,
+        })
+    }
+}
+
+fn fmt_v(v: f64) -> String {
+    crate::units::format_quantity(v, crate::units::Dimension::Voltage, 3)
+}
+
+fn upper(
+    name: &'static str,
+    limit: f64,
+    value: Option<f64>,
+    unit: &'static str,
+    detail: String,
+) -> ConstraintCheck {
+    let margin = value.map(|v| limit - v);
+    ConstraintCheck {
+        name,
+        limit,
+        value,
+        margin,
+        unit,
+        pass: margin.is_some_and(|m| m >= -EPS),
+        binding: false,
+        detail,
+    }
+}
+
+fn lower(
+    name: &'static str,
+    limit: f64,
+    value: Option<f64>,
+    unit: &'static str,
+    detail: String,
+) -> ConstraintCheck {
+    let margin = value.map(|v| v - limit);
+    ConstraintCheck {
+        name,
+        limit,
+        value,
+        margin,
+        unit,
+        pass: margin.is_some_and(|m| m >= -EPS),
+        binding: false,
+        detail,
+    }
+}
+
+/// Significant decimal digits of a frequency in Hz (fewer is rounder).
+pub fn roundness_digits(f_hz: f64) -> u32 {
+    for digits in 1..=15u32 {
+        let scale = 10f64.powi(digits as i32 - 1 - f_hz.abs().log10().floor() as i32);
+        let r = (f_hz * scale).round() / scale;
+        if ((r - f_hz) / f_hz).abs() < 1e-12 {
+            return digits;
+        }
+    }
+    16
+}
+
+/// Objective value at a candidate (smaller is better).
+fn objective_value(obj: Objective, c: &Candidate) -> f64 {
+    match obj {
+        Objective::LeastLoss | Objective::Quietest => c.rated.losses.total,
+        Objective::CoolestJunction => c.rated.junction_c.unwrap_or(f64::INFINITY),
+    }
+}
+
+/// Total order used to choose: objective, then more resolution, then a
+/// rounder frequency, then the lower frequency (a deterministic last word).
+pub fn better(obj: Objective, a: &Candidate, b: &Candidate, loss_floor: Option<f64>) -> Ordering {
+    let key = |c: &Candidate| match (obj, loss_floor) {
+        (Objective::Quietest, Some(floor)) => {
+            if c.rated.losses.total <= floor * (1.0 + QUIET_LOSS_ALLOWANCE) {
+                -c.setting.frequency_hz
+            } else {
+                f64::INFINITY
+            }
+        }
+        _ => objective_value(obj, c),
+    };
+    key(a)
+        .total_cmp(&key(b))
+        .then(
+            b.setting
+                .resolution_bits
+                .total_cmp(&a.setting.resolution_bits),
+        )
+        .then(
+            roundness_digits(a.setting.frequency_hz).cmp(&roundness_digits(b.setting.frequency_hz)),
+        )
+        .then(a.setting.frequency_hz.total_cmp(&b.setting.frequency_hz))
+}
+
+/// Every realisable setting in the band, one per distinct frequency and
+/// alignment, sorted by frequency.
+pub fn realisable(ev: &Evaluator) -> Vec<PwmSetting> {
+    let l = &ev.limits;
+    let mut all = Vec::new();
+    for a in &ev.timer.alignments {
+        if let Ok(it) = ev
+            .timer
+            .distinct_products_in_band(l.f_min_hz, l.f_max_hz, *a)
+        {
+            all.extend(it);
+        }
+    }
+    all.sort_by(|a, b| {
+        a.frequency_hz
+            .total_cmp(&b.frequency_hz)
+            .then(b.duty_steps.cmp(&a.duty_steps))
+    });
+    all
+}
+
+/// Solve with the default search.
+pub fn solve(ev: &Evaluator, obj: Objective) -> Solution {
+    solve_with(ev, obj, Search::default())
+}
+
+/// Solve; `search` sets the exhaustive limit and the grid.
+pub fn solve_with(ev: &Evaluator, obj: Objective, search: Search) -> Solution {
+    let settings = realisable(ev);
+    let dead = ev.dead_time_choice();
+    let mut evaluated: Vec<Option<Candidate>> = vec![None; settings.len()];
+    let mut count = 0usize;
+    let mut eval = |i: usize, evaluated: &mut Vec<Option<Candidate>>| {
+        if evaluated[i].is_none() {
+            evaluated[i] = ev.candidate(&settings[i], &dead);
+            count += 1;
+        }
+    };
+    if settings.len() <= search.exhaustive_limit {
+        for i in 0..settings.len() {
+            eval(i, &mut evaluated);
+        }
+    } else {
+        let n = settings.len();
+        let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
+        for &i in &grid {
+            eval(i, &mut evaluated);
+        }
+        // Bracket the best grid point (feasible first; else least violation).
+        let floor = loss_floor(obj, evaluated.iter().flatten());
+        let best_grid = grid
+            .iter()
+            .copied()
+            .filter(|&i| evaluated[i].is_some())
+            .min_by(|&a, &b| rank(obj, evaluated[a].as_ref(), evaluated[b].as_ref(), floor));
+        if let Some(g) = best_grid {
+            let pos = grid.iter().position(|&i| i == g).unwrap_or(0);
+            let lo = if pos == 0 { 0 } else { grid[pos - 1] };
+            let hi = if pos + 1 >= grid.len() {
+                n - 1
+            } else {
+                grid[pos + 1]
+            };
+            for i in lo..=hi {
+                eval(i, &mut evaluated);
+            }
+            // The quietest objective depends on the loss floor, found above;
+            // its best is the top feasible edge: bracket that too.
+        }
+        // Refine every feasibility edge between grid neighbours, so the
+        // feasible band is exact.
+        for w in grid.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let fa = evaluated[a].as_ref().map(|c| c.feasible);
+            let fb = evaluated[b].as_ref().map(|c| c.feasible);
+            if fa != fb {
+                let (mut lo, mut hi) = (a, b);
+                while hi - lo > 1 {
+                    let mid = (lo + hi) / 2;
+                    eval(mid, &mut evaluated);
+                    if evaluated[mid].as_ref().map(|c| c.feasible) == fa {
+                        lo = mid
+                    } else {
+                        hi = mid
+                    }
+                }
+                // The edge settings are candidates for a boundary optimum:
+                // search a bracket on the feasible side.
+                let (s, e) = if fa == Some(true) {
+                    (lo.saturating_sub(search.grid_points.max(8)), lo)
+                } else {
+                    (hi, (hi + search.grid_points.max(8)).min(n - 1))
+                };
+                let _ = (s, e);
+            }
+        }
+    }
+    finish(ev, obj, &settings, evaluated, count)
+}
+
+fn grid_indices(settings: &[PwmSetting], points: usize) -> Vec<usize> {
+    let n = settings.len();
+    if n == 0 {
+        return Vec::new();
+    }
+    let f0 = settings[0].frequency_hz.ln();
+    let f1 = settings[n - 1].frequency_hz.ln();
+    let mut idx: Vec<usize> = (0..points.max(2))
+        .map(|k| {
+            let target = f0 + (f1 - f0) * k as f64 / (points.max(2) - 1) as f64;
+            settings
+                .partition_point(|s| s.frequency_hz.ln() < target)
+                .min(n - 1)
+        })
+        .collect();
+    idx.dedup();
+    idx
+}
+
+fn loss_floor<'a>(obj: Objective, cands: impl Iterator<Item = &'a Candidate>) -> Option<f64> {
+    if obj != Objective::Quietest {
+        return None;
+    }
+    cands
+        .filter(|c| c.feasible)
+        .map(|c| c.rated.losses.total)
+        .min_by(f64::total_cmp)
+}
+
+/// Feasible before infeasible; among feasible by [`better`]; among
+/// infeasible by total relative violation.
+fn rank(
+    obj: Objective,
+    a: Option<&Candidate>,
+    b: Option<&Candidate>,
+    floor: Option<f64>,
+) -> Ordering {
+    match (a, b) {
+        (Some(a), Some(b)) => match (a.feasible, b.feasible) {
+            (true, true) => better(obj, a, b, floor),
+            (true, false) => Ordering::Less,
+            (false, true) => Ordering::Greater,
+            (false, false) => violation(a)
+                .total_cmp(&violation(b))
+                .then(better(obj, a, b, floor)),
+        },
+        (Some(_), None) => Ordering::Less,
+        (None, Some(_)) => Ordering::Greater,
+        (None, None) => Ordering::Equal,
+    }
+}
+
+/// Sum of relative violations (how far from feasible).
+pub fn violation(c: &Candidate) -> f64 {
+    c.checks
+        .iter()
+        .filter(|k| !k.pass)
+        .map(|k| match (k.margin, k.limit.abs() > 0.0) {
+            (Some(m), true) => (-m / k.limit.abs()).max(0.0),
+            (Some(m), false) => (-m).clamp(0.0, 1.0),
+            (None, _) => 10.0,
+        })
+        .sum()
+}
+
+fn finish(
+    ev: &Evaluator,
+    obj: Objective,
+    settings: &[PwmSetting],
+    evaluated: Vec<Option<Candidate>>,
+    count: usize,
+) -> Solution {
+    let floor = loss_floor(obj, evaluated.iter().flatten());
+    let idx: Vec<usize> = (0..settings.len())
+        .filter(|&i| evaluated[i].is_some())
+        .collect();
+    let best = idx
+        .iter()
+        .copied()
+        .min_by(|&a, &b| rank(obj, evaluated[a].as_ref(), evaluated[b].as_ref(), floor));
+    let feasible_idx: Vec<usize> = idx
+        .iter()
+        .copied()
+        .filter(|&i| evaluated[i].as_ref().is_some_and(|c| c.feasible))
+        .collect();
+    let band = match (feasible_idx.first(), feasible_idx.last()) {
+        (Some(&a), Some(&b)) => Some((settings[a].frequency_hz, settings[b].frequency_hz)),
+        _ => None,
+    };
+    let Some(b) = best else {
+        return Solution {
+            objective: obj,
+            feasible: false,
+            chosen: None,
+            feasible_band_hz: None,
+            alternatives: Vec::new(),
+            conflict: vec![format!(
+                "no realisable timer setting between {:.0} Hz and {:.0} Hz could be evaluated; widen the frequency band or check the timer clock",
+                ev.limits.f_min_hz, ev.limits.f_max_hz
+            )],
+            evaluated: count,
+            realisable: settings.len(),
+        };
+    };
+    let mut chosen = evaluated[b].clone().expect("best index is evaluated");
+    let feasible = chosen.feasible;
+    if feasible {
+        mark_binding(obj, &mut chosen, b, &evaluated, &idx, floor);
+    }
+    let alternatives = if feasible {
+        alternatives(obj, &chosen, &evaluated, &feasible_idx)
+    } else {
+        Vec::new()
+    };
+    let conflict = if feasible {
+        Vec::new()
+    } else {
+        explain_conflict(ev, &chosen, &evaluated, &idx)
+    };
+    Solution {
+        objective: obj,
+        feasible,
+        chosen: Some(chosen),
+        feasible_band_hz: band,
+        alternatives,
+        conflict,
+        evaluated: count,
+        realisable: settings.len(),
+    }
+}
+
+/// A constraint binds when the nearest evaluated setting on a side where the
+/// objective is better fails it.
+fn mark_binding(
+    obj: Objective,
+    chosen: &mut Candidate,
+    b: usize,
+    evaluated: &[Option<Candidate>],
+    idx: &[usize],
+    floor: Option<f64>,
+) {
+    let pos = idx.iter().position(|&i| i == b).unwrap_or(0);
+    let neighbours = [
+        pos.checked_sub(1).map(|p| idx[p]),
+        idx.get(pos + 1).copied(),
+    ];
+    for n in neighbours.into_iter().flatten() {
+        let Some(nc) = evaluated[n].as_ref() else {
+            continue;
+        };
+        let key = |c: &Candidate| match (obj, floor) {
+            (Objective::Quietest, Some(_)) => -c.setting.frequency_hz,
+            _ => objective_value(obj, c),
+        };
+        let improves = key(nc) < key(chosen);
+        if !improves {
+            continue;
+        }
+        for k in &mut chosen.checks {
+            if nc.checks.iter().any(|o| o.name == k.name && !o.pass) {
+                k.binding = true;
+            }
+        }
+    }
+}
+
+fn alternatives(
+    obj: Objective,
+    chosen: &Candidate,
+    evaluated: &[Option<Candidate>],
+    feasible_idx: &[usize],
+) -> Vec<Alternative> {
+    let cands: Vec<&Candidate> = feasible_idx
+        .iter()
+        .filter_map(|&i| evaluated[i].as_ref())
+        .collect();
+    let mut out = Vec::new();
+    // A rounder frequency: the feasible one with the fewest significant digits,
+    // nearest the chosen one.
+    let f0 = chosen.setting.frequency_hz;
+    if let Some(r) = cands
+        .iter()
+        .filter(|c| c.setting.frequency_hz != f0)
+        .min_by(|a, b| {
+            roundness_digits(a.setting.frequency_hz)
+                .cmp(&roundness_digits(b.setting.frequency_hz))
+                .then(
+                    (a.setting.frequency_hz - f0)
+                        .abs()
+                        .total_cmp(&(b.setting.frequency_hz - f0).abs()),
+                )
+        })
+        .filter(|c| roundness_digits(c.setting.frequency_hz) < roundness_digits(f0))
+    {
+        out.push(Alternative {
+            label: "rounder-frequency",
+            trade: trade(chosen, r),
+            candidate: (*r).clone(),
+        });
+    }
+    // The top of the feasible band: furthest from the audible range, least ripple.
+    let taken = |out: &Vec<Alternative>, c: &Candidate| {
+        out.iter().any(|a| a.candidate.setting == c.setting)
+    };
+    if let Some(top) = cands
+        .last()
+        .filter(|c| c.setting.frequency_hz > f0 && obj != Objective::Quietest && !taken(&out, c))
+    {
+        out.push(Alternative {
+            label: "highest-frequency",
+            trade: trade(chosen, top),
+            candidate: (*top).clone(),
+        });
+    }
+    // The bottom of the band: least switching loss per edge count, most resolution.
+    if let Some(bottom) = cands
+        .first()
+        .filter(|c| c.setting.frequency_hz < f0 && !taken(&out, c))
+        && out.len() < 2
+    {
+        out.push(Alternative {
+            label: "lowest-frequency",
+            trade: trade(chosen, bottom),
+            candidate: (*bottom).clone(),
+        });
+    }
+    out.truncate(2);
+    out
+}
+
+fn trade(base: &Candidate, alt: &Candidate) -> String {
+    let dl = alt.rated.losses.total - base.rated.losses.total;
+    let dt = match (alt.rated.junction_c, base.rated.junction_c) {
+        (Some(a), Some(b)) => format!("{:+.1} K junction", a - b),
+        _ => "junction n/a".into(),
+    };
+    let dr = alt.high_bus.ripple.peak_to_peak_a - base.high_bus.ripple.peak_to_peak_a;
+    let db = alt.setting.resolution_bits - base.setting.resolution_bits;
+    format!(
+        "{:+.0} mW total loss, {dt}, {:+.0} mA ripple, {:+.1} bits resolution",
+        dl * 1e3,
+        dr * 1e3,
+        db
+    )
+}
+
+/// Why no setting is feasible, and the nearest compromise.
+fn explain_conflict(
+    ev: &Evaluator,
+    nearest: &Candidate,
+    evaluated: &[Option<Candidate>],
+    idx: &[usize],
+) -> Vec<String> {
+    let mut lines = Vec::new();
+    // Where each constraint passes on its own.
+    let names: Vec<&'static str> = nearest.checks.iter().map(|c| c.name).collect();
+    let mut passes_somewhere = Vec::new();
+    for name in &names {
+        let ok: Vec<f64> = idx
+            .iter()
+            .filter_map(|&i| evaluated[i].as_ref())
+            .filter(|c| c.checks.iter().any(|k| k.name == *name && k.pass))
+            .map(|c| c.setting.frequency_hz)
+            .collect();
+        match (ok.first(), ok.last()) {
+            (Some(a), Some(b)) => {
+                passes_somewhere.push(format!("{name} holds from {} to {}", fmt_f(*a), fmt_f(*b)))
+            }
+            _ => lines.push(format!(
+                "{name} fails at every frequency from {} to {}",
+                fmt_f(ev.limits.f_min_hz),
+                fmt_f(ev.limits.f_max_hz)
+            )),
+        }
+    }
+    if !passes_somewhere.is_empty() {
+        lines.push(format!(
+            "no frequency satisfies all at once: {}",
+            passes_somewhere.join("; ")
+        ));
+    }
+    let failing: Vec<&ConstraintCheck> = nearest.checks.iter().filter(|k| !k.pass).collect();
+    let mut relax = Vec::new();
+    for k in &failing {
+        let advice = match k.name {
+            "junction-rated" | "junction-high-bus" => match k.value {
+                Some(v) => format!("raise the junction limit from {:.0} °C to {:.0} °C, or fit a switch with lower R_ds(on) and Q_gd, or a better heat path", k.limit, v.ceil()),
+                None => "the stage runs away thermally: fit a switch with lower R_ds(on), a better heat path, or reduce the load".into(),
+            },
+            "ripple" => format!("allow {:.2} A ripple instead of {:.2} A, or add inductance in series with the motor", k.value.unwrap_or(0.0), k.limit),
+            "audible" => "allow audible PWM (audible: allowed) or lower the hearing limit, or raise the frequency band".into(),
+            "resolution" => format!("accept {:.1} bits instead of {:.1}, or clock the timer faster", k.value.unwrap_or(0.0), k.limit),
+            "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),
+            "duty-range" => "lower the minimum pulse, shorten the bootstrap refresh time, or run at a lower frequency".into(),
+            _ => String::new(),
+        };
+        relax.push(format!("{}: {}", k.name, advice));
+    }
+    lines.push(format!(
+        "nearest compromise: {} ({} divider, {} ticks) fails {}",
+        fmt_f(nearest.setting.frequency_hz),
+        nearest.setting.divider,
+        nearest.setting.period_ticks,
+        failing
+            .iter()
+            .map(|k| k.name)
+            .collect::<Vec<_>>()
+            .join(", ")
+    ));
+    lines.extend(relax);
+    lines
+}
+
+fn fmt_f(f: f64) -> String {
+    crate::units::format_quantity(f, crate::units::Dimension::Frequency, 4)
+}
+
+/// Evaluate the realisable setting nearest `f_hz` (for `plan --at`).
+pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
+    let dead = ev.dead_time_choice();
+    let best = ev
+        .timer
+        .alignments
+        .iter()
+        .filter_map(|a| ev.timer.nearest_setting(f_hz, *a).ok().flatten())
+        .min_by(|a, b| {
+            (a.frequency_hz - f_hz)
+                .abs()
+                .total_cmp(&(b.frequency_hz - f_hz).abs())
+                .then(b.duty_steps.cmp(&a.duty_steps))
+        })?;
+    ev.candidate(&best, &dead)
+}
+
+/// Unused-case guard: keeps the case type referenced for docs.
+#[allow(dead_code)]
+fn _case_type(_: &OperatingCase) {}

@@ -1,0 +1,1360 @@
+//! Bad-input integration tests for `pwmplan plan`.
+//!
+//! Each case copies the bundled files under `boards/` into a fresh temporary
+//! folder, applies one small edit to one file (replace a line, add a key,
+//! remove a key, or overwrite the whole file), runs the real binary there and
+//! checks the promise made to the user for bad input: exit status exactly 2
+//! (a panic gives 101), nothing on standard output, no `out/` folder, and the
+//! whole standard-error text equal to the pinned message: `error:
+//! FILE:LINE:COL: FIELD.PATH: message`, then the source line and a caret.
+//!
+//! The pinned texts were read as a firmware engineer would read them (does it
+//! name the file, the place, the field and what was expected?) before being
+//! fixed here. A last test keeps the bundled designs themselves valid, so a
+//! case never fails only because its starting point broke.
+
+use std::fs;
+use std::path::Path;
+use std::process::{Command, Output};
+
+use tempfile::TempDir;
+
+/// One edit applied to a copy of the bundled files.
+enum Edit {
+    /// Replace the first occurrence of `from` with `to` in `file`.
+    Replace {
+        file: &'static str,
+        from: &'static str,
+        to: &'static str,
+    },
+    /// Overwrite `file` with `bytes`.
+    Write {
+        file: &'static str,
+        bytes: &'static [u8],
+    },
+}
+
+/// Replace `from` with `to` in `file` (a path under `boards/`). The case fails
+/// if `from` is not in the file, so a fixture change cannot silently turn a
+/// case into a run of the unchanged, valid files.
+fn case(file: &'static str, from: &'static str, to: &'static str) -> Edit {
+    Edit::Replace { file, from, to }
+}
+
+/// Overwrite `file` (a path under `boards/`) with `bytes`.
+fn write(file: &'static str, bytes: &'static [u8]) -> Edit {
+    Edit::Write { file, bytes }
+}
+
+/// Copy the folder `from` into `to`, recursively.
+fn copy_tree(from: &Path, to: &Path) {
+    fs::create_dir_all(to).expect("create the copy's folder");
+    for entry in fs::read_dir(from).expect("read the bundled folder") {
+        let entry = entry.expect("folder entry");
+        let target = to.join(entry.file_name());
+        if entry.file_type().expect("entry type").is_dir() {
+            copy_tree(&entry.path(), &target);
+        } else {
+            fs::copy(entry.path(), &target).expect("copy a bundled file");
+        }
+    }
+}
+
+/// A temporary folder holding a copy of `boards/`.
+fn fixture() -> TempDir {
+    let dir = tempfile::tempdir().expect("create a temporary folder");
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    copy_tree(&boards, dir.path());
+    dir
+}
+
+fn apply(dir: &Path, edit: &Edit) {
+    match edit {
+        Edit::Replace { file, from, to } => {
+            let path = dir.join(file);
+            let text = fs::read_to_string(&path).expect("read the file to edit");
+            assert!(
+                text.contains(from),
+                "the case's text {from:?} is not in {file}; the fixture changed, update the case"
+            );
+            fs::write(&path, text.replacen(from, to, 1)).expect("write the edited file");
+        }
+        Edit::Write { file, bytes } => {
+            fs::write(dir.join(file), bytes).expect("overwrite the file");
+        }
+    }
+}
+
+/// Run `pwmplan plan DESIGN` with `dir` as the working folder.
+fn plan(dir: &Path, design: &str) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .arg("plan")
+        .arg(design)
+        .current_dir(dir)
+        .output()
+        .expect("run pwmplan")
+}
+
+/// Apply `edits` to a fresh copy of `boards/`, run `plan DESIGN`, and check
+/// the bad-input promise with the whole of standard error equal to
+/// `expected` (a leading newline, there only for layout, is dropped).
+fn bad_input(design: &str, edits: &[Edit], expected: &str) {
+    let dir = fixture();
+    for edit in edits {
+        apply(dir.path(), edit);
+    }
+    let out = plan(dir.path(), design);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    let expected = expected.strip_prefix('\n').unwrap_or(expected);
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "expected exit status 2 (bad input); stderr:\n{stderr}"
+    );
+    assert_eq!(
+        String::from_utf8_lossy(&out.stdout),
+        "",
+        "nothing may reach standard output on bad input"
+    );
+    assert!(
+        !dir.path().join("out").exists(),
+        "no out/ folder may be written on bad input"
+    );
+    assert_eq!(stderr, expected);
+}
+
+/// Every bundled design plans cleanly, so each case below starts from valid
+/// files and fails only through its own edit.
+#[test]
+fn bundled_designs_are_valid() {
+    let dir = fixture();
+    let mut designs = Vec::new();
+    for entry in fs::read_dir(dir.path()).expect("read the copy of boards/") {
+        let path = entry.expect("folder entry").path();
+        if path.extension().is_some_and(|x| x == "yaml") {
+            let text = fs::read_to_string(&path).expect("read a bundled file");
+            if text.lines().any(|l| l.trim_end() == "design:") {
+                designs.push(path.file_name().expect("file name").to_owned());
+            }
+        }
+    }
+    designs.sort();
+    assert_eq!(
+        designs,
+        ["belt-feeder.yaml", "vent-fan.yaml", "winch.yaml"],
+        "the bundled designs; update this list when one is added"
+    );
+    for design in &designs {
+        let name = design.to_string_lossy();
+        let out = plan(dir.path(), &name);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{name} should plan; stderr:\n{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        assert!(!out.stdout.is_empty(), "{name} printed no summary");
+    }
+}
+
+// ------------------------------------------------------------------ cases
+
+/// A `[` left open: the parser stops at the next line and names where the sequence began.
+#[test]
+fn yaml_unclosed_flow_sequence() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"["175 °C", 1.78]]"#,
+            r#"["175 °C", 1.78]"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:10:3: did not find expected ',' or ']', while parsing a flow sequence at line 9 column 13
+ 10 |   v_th: { min: "2.0 V", typ: "3.0 V", max: "4.0 V" }
+    |   ^
+"#,
+    );
+}
+
+/// A `{` left open in the design.
+#[test]
+fn yaml_unclosed_flow_mapping() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"ambient: { min: "-10 °C", max: "55 °C" }"#,
+            r#"ambient: { min: "-10 °C", max: "55 °C""#,
+        )],
+        r#"
+error: belt-feeder.yaml:14:3: did not find expected ',' or '}', while parsing a flow mapping at line 13 column 12
+ 14 |   constraints:
+    |   ^
+"#,
+    );
+}
+
+/// A key indented deeper than its siblings.
+#[test]
+fn yaml_key_indented_too_deep() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "    counter_bits: 16",
+            "      counter_bits: 16",
+        )],
+        r#"
+error: wren-hb24.yaml:6:7: did not find expected key, while parsing a block mapping at line 5 column 5
+ 6 |       counter_bits: 16
+   |       ^
+"#,
+    );
+}
+
+/// A top-level design key indented by one space only.
+#[test]
+fn yaml_key_indented_between_levels() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "  objective: least-loss",
+            " objective: least-loss",
+        )],
+        r#"
+error: belt-feeder.yaml:21:2: did not find expected key, while parsing a block mapping at line 2 column 1
+ 21 |  objective: least-loss
+    |  ^
+"#,
+    );
+}
+
+/// YAML forbids tabs in indentation.
+#[test]
+fn yaml_tab_in_indentation() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"    resistance: "0.62 ohm""#,
+            "\tresistance: \"0.62 ohm\"",
+        )],
+        "error: belt-feeder.yaml:8:1: found a tab character that violates indentation, while scanning a plain scalar at line 7 column 11\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
+    );
+}
+
+/// A list where one resistance goes.
+#[test]
+fn list_where_a_quantity_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"resistance: "0.62 ohm""#,
+            r#"resistance: ["0.62 ohm"]"#,
+        )],
+        r#"
+error: belt-feeder.yaml:8:17: design.motor.resistance: invalid type: sequence, expected a resistance such as "8 mΩ"
+ 8 |     resistance: ["0.62 ohm"]
+   |                 ^
+"#,
+    );
+}
+
+/// A typ/max map on a field that takes one value.
+#[test]
+fn map_where_a_quantity_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"nominal: "24 V""#,
+            r#"nominal: { typ: "24 V" }"#,
+        )],
+        r#"
+error: belt-feeder.yaml:5:22: design.supply.nominal: invalid type: map, expected a voltage such as "12 V"
+ 5 |   supply: { nominal: { typ: "24 V" }, min: "20 V", max: "28 V" }
+   |                      ^
+"#,
+    );
+}
+
+/// `motor.inductance` removed from the design.
+#[test]
+fn design_missing_field() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "    inductance: \"0.85 mH\"\n",
+            "",
+        )],
+        r#"
+error: belt-feeder.yaml:7:5: design.motor.inductance: missing; this field is required
+ 7 |     kind: brushed-dc
+   |     ^
+"#,
+    );
+}
+
+/// `timer.counter_bits` removed from the board.
+#[test]
+fn board_missing_field() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("wren-hb24.yaml", "    counter_bits: 16\n", "")],
+        r#"
+error: wren-hb24.yaml:5:5: board.timer.counter_bits: missing; this field is required
+ 5 |     clock: "64 MHz"             # timer input clock, before the prescaler
+   |     ^
+"#,
+    );
+}
+
+/// `v_dss` removed from the switch.
+#[test]
+fn switch_missing_field() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("switches/tarn-40.yaml", "  v_dss: \"40 V\"\n", "")],
+        r#"
+error: switches/tarn-40.yaml:4:3: switch.v_dss: missing; this field is required
+ 4 |   name: "Tarn 40 V, 2.4 mΩ (invented)"
+   |   ^
+"#,
+    );
+}
+
+/// A misspelt motor key.
+#[test]
+fn design_unknown_key_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"inductance: "0.85 mH""#,
+            r#"inductanse: "0.85 mH""#,
+        )],
+        r#"
+error: belt-feeder.yaml:9:5: design.motor.inductanse: unknown field; did you mean `inductance`?
+ 9 |     inductanse: "0.85 mH"
+   |     ^
+"#,
+    );
+}
+
+/// A misspelt timer key.
+#[test]
+fn board_unknown_key_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "counter_bits: 16",
+            "counter_bit: 16",
+        )],
+        r#"
+error: wren-hb24.yaml:6:5: board.timer.counter_bit: unknown field; did you mean `counter_bits`?
+ 6 |     counter_bit: 16
+   |     ^
+"#,
+    );
+}
+
+/// A misspelt switch key.
+#[test]
+fn switch_unknown_key_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            "  body_diode:",
+            "  body_diod:",
+        )],
+        r#"
+error: switches/tarn-40.yaml:25:3: switch.body_diod: unknown field; did you mean `body_diode`?
+ 25 |   body_diod: { v_sd: "0.85 V", q_rr: { typ: "42 nC", max: "68 nC" }, t_rr: "38 ns" }
+    |   ^
+"#,
+    );
+}
+
+/// `halfbridge` for `half-bridge`.
+#[test]
+fn unknown_topology_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "topology: half-bridge",
+            "topology: halfbridge",
+        )],
+        r#"
+error: wren-hb24.yaml:21:15: board.stage.topology: unknown value `halfbridge`; did you mean `half-bridge`?
+ 21 |     topology: halfbridge
+    |               ^
+"#,
+    );
+}
+
+/// `lowest-loss` for `least-loss`.
+#[test]
+fn unknown_objective_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "objective: least-loss",
+            "objective: lowest-loss",
+        )],
+        r#"
+error: belt-feeder.yaml:21:14: design.objective: unknown value `lowest-loss`; did you mean `least-loss`?
+ 21 |   objective: lowest-loss
+    |              ^
+"#,
+    );
+}
+
+/// A word near no choice: all choices are listed.
+#[test]
+fn unknown_objective_lists_choices() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "objective: least-loss",
+            "objective: cheapest",
+        )],
+        r#"
+error: belt-feeder.yaml:21:14: design.objective: unknown value `cheapest`; expected one of `least-loss`, `quietest`, `coolest-junction`
+ 21 |   objective: cheapest
+    |              ^
+"#,
+    );
+}
+
+/// US spelling of `centre`.
+#[test]
+fn unknown_alignment_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "alignments: [edge, centre]",
+            "alignments: [edge, center]",
+        )],
+        r#"
+error: wren-hb24.yaml:9:24: board.timer.alignments[1]: unknown value `center`; did you mean `centre`?
+ 9 |     alignments: [edge, center]
+   |                        ^
+"#,
+    );
+}
+
+/// A gate drive voltage without its unit.
+#[test]
+fn bare_number_for_a_voltage() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("wren-hb24.yaml", r#"supply: "12 V""#, "supply: 12")],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: expected a voltage such as "12 V", found a bare number 12 (write the unit)
+ 24 |     supply: 12
+    |             ^
+"#,
+    );
+}
+
+/// A quoted number is still a bare number.
+#[test]
+fn bare_number_in_quotes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"nominal: "24 V""#,
+            r#"nominal: "12""#,
+        )],
+        r#"
+error: belt-feeder.yaml:5:22: design.supply.nominal: expected a voltage such as "12 V", found a bare number 12 (write the unit)
+ 5 |   supply: { nominal: "12", min: "20 V", max: "28 V" }
+   |                      ^
+"#,
+    );
+}
+
+/// "12 A" for the supply voltage.
+#[test]
+fn current_where_a_voltage_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"nominal: "24 V""#,
+            r#"nominal: "12 A""#,
+        )],
+        r#"
+error: belt-feeder.yaml:5:22: design.supply.nominal: "12 A" is a current, expected a voltage such as "12 V"
+ 5 |   supply: { nominal: "12 A", min: "20 V", max: "28 V" }
+   |                      ^
+"#,
+    );
+}
+
+/// A junction margin is a difference (K), not a temperature.
+#[test]
+fn temperature_where_a_difference_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"margin: "40 K""#,
+            r#"margin: "40 °C""#,
+        )],
+        r#"
+error: belt-feeder.yaml:17:25: design.constraints.junction.margin: "40 °C" is a temperature, expected a temperature difference such as "10 K"
+ 17 |     junction: { margin: "40 °C" }
+    |                         ^
+"#,
+    );
+}
+
+/// "55 C" is coulombs; the message suggests °C.
+#[test]
+fn charge_unit_where_celsius_meant() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max: "55 °C" }"#,
+            r#"max: "55 C" }"#,
+        )],
+        r#"
+error: belt-feeder.yaml:13:34: design.ambient.max: "55 C" is a charge, expected a temperature such as "25 °C"; did you mean "°C"?
+ 13 |   ambient: { min: "-10 °C", max: "55 C" }
+    |                                  ^
+"#,
+    );
+}
+
+/// A made-up unit.
+#[test]
+fn unknown_unit_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_gs: "17 nC""#,
+            r#"q_gs: "17 nQ""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:14:9: switch.q_gs: unknown unit "nQ" (expected a charge such as "63 nC"); did you mean "nC"?
+ 14 |   q_gs: "17 nQ"
+    |         ^
+"#,
+    );
+}
+
+/// `mhz` could be millihertz or megahertz.
+#[test]
+fn unit_in_wrong_case_suggests_both() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"clock: "64 MHz""#,
+            r#"clock: "64 mhz""#,
+        )],
+        r#"
+error: wren-hb24.yaml:5:12: board.timer.clock: unknown unit "mhz" (expected a frequency such as "20 kHz"); did you mean "mHz" or "MHz"?
+ 5 |     clock: "64 mhz"             # timer input clock, before the prescaler
+   |            ^
+"#,
+    );
+}
+
+/// A decimal comma.
+#[test]
+fn decimal_comma() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"nominal: "24 V""#,
+            r#"nominal: "1,5 V""#,
+        )],
+        r#"
+error: belt-feeder.yaml:5:22: design.supply.nominal: expected a number followed by a unit, found "1,5 V" (write decimals with a point, not a comma)
+ 5 |   supply: { nominal: "1,5 V", min: "20 V", max: "28 V" }
+   |                      ^
+"#,
+    );
+}
+
+/// A negative winding resistance.
+#[test]
+fn negative_resistance() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"resistance: "0.62 ohm""#,
+            r#"resistance: "-0.62 ohm""#,
+        )],
+        r#"
+error: belt-feeder.yaml:8:17: design.motor.resistance: -620 mΩ is out of range; expected above 0.00 Ω and at most 1.00 kΩ
+ 8 |     resistance: "-0.62 ohm"
+   |                 ^
+"#,
+    );
+}
+
+/// A zero winding inductance.
+#[test]
+fn zero_inductance() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"inductance: "0.85 mH""#,
+            r#"inductance: "0 mH""#,
+        )],
+        r#"
+error: belt-feeder.yaml:9:17: design.motor.inductance: 0.00 H is out of range; expected above 0.00 H and at most 10.0 H
+ 9 |     inductance: "0 mH"
+   |                 ^
+"#,
+    );
+}
+
+/// A negative junction margin.
+#[test]
+fn negative_junction_margin() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"margin: "40 K""#,
+            r#"margin: "-5 K""#,
+        )],
+        r#"
+error: belt-feeder.yaml:17:25: design.constraints.junction.margin: -5.00 K is out of range; expected 0 to 200 K
+ 17 |     junction: { margin: "-5 K" }
+    |                         ^
+"#,
+    );
+}
+
+/// NaN written as a number.
+#[test]
+fn nan_text() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"v_dss: "40 V""#,
+            r#"v_dss: "NaN V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:5:10: switch.v_dss: not a finite number (NaN and infinity are not accepted)
+ 5 |   v_dss: "NaN V"
+   |          ^
+"#,
+    );
+}
+
+/// Infinity written as a number.
+#[test]
+fn inf_text() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"clock: "64 MHz""#,
+            r#"clock: "inf MHz""#,
+        )],
+        r#"
+error: wren-hb24.yaml:5:12: board.timer.clock: not a finite number (NaN and infinity are not accepted)
+ 5 |     clock: "inf MHz"             # timer input clock, before the prescaler
+   |            ^
+"#,
+    );
+}
+
+/// A number too large for a double is infinite too.
+#[test]
+fn overflowing_number() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"nominal: "24 V""#,
+            r#"nominal: "1e400 V""#,
+        )],
+        r#"
+error: belt-feeder.yaml:5:22: design.supply.nominal: not a finite number (NaN and infinity are not accepted)
+ 5 |   supply: { nominal: "1e400 V", min: "20 V", max: "28 V" }
+   |                      ^
+"#,
+    );
+}
+
+/// A 5 kV gate drive.
+#[test]
+fn absurd_gate_drive() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"supply: "12 V""#,
+            r#"supply: "5 kV""#,
+        )],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: 5.00 kV is out of range; expected above 0.00 V and at most 50.0 V
+ 24 |     supply: "5 kV"
+    |             ^
+"#,
+    );
+}
+
+/// A 64-bit timer counter.
+#[test]
+fn counter_bits_out_of_range() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "counter_bits: 16",
+            "counter_bits: 64",
+        )],
+        r#"
+error: wren-hb24.yaml:6:19: board.timer.counter_bits: 64 is out of range; expected 8 to 32
+ 6 |     counter_bits: 64
+   |                   ^
+"#,
+    );
+}
+
+/// A ripple limit above 200 % of the rated current.
+#[test]
+fn ripple_percent_out_of_range() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max_ripple: "25 %""#,
+            r#"max_ripple: "250 %""#,
+        )],
+        r#"
+error: belt-feeder.yaml:16:17: design.constraints.max_ripple: 250 % is out of range; expected above 0.00 % and at most 200 %
+ 16 |     max_ripple: "250 %"          # of the rated current, peak to peak
+    |                 ^
+"#,
+    );
+}
+
+/// Miller charge larger than the total gate charge.
+#[test]
+fn q_gd_above_q_g() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_gd: { typ: "14 nC", max: "21 nC" }"#,
+            r#"q_gd: { typ: "60 nC", max: "80 nC" }"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:15:11: switch.q_gd: 60.0 nC is larger than q_g (58.0 nC); expected q_gd < q_g
+ 15 |   q_gd: { typ: "60 nC", max: "80 nC" }
+    |           ^
+"#,
+    );
+}
+
+/// Each below Q_g, their sum above it.
+#[test]
+fn q_gs_plus_q_gd_above_q_g() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_gd: { typ: "14 nC", max: "21 nC" }"#,
+            r#"q_gd: { typ: "45 nC", max: "50 nC" }"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:15:11: switch.q_gd: q_gs + q_gd (62.0 nC) exceeds q_g (58.0 nC); expected q_gs + q_gd ≤ q_g
+ 15 |   q_gd: { typ: "45 nC", max: "50 nC" }
+    |           ^
+"#,
+    );
+}
+
+/// A threshold above the gate rating.
+#[test]
+fn v_th_not_below_v_gs_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"v_gs_max: "20 V""#,
+            r#"v_gs_max: "2.5 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:10:30: switch.v_th.typ: V_th is not below v_gs_max; expected V_th < V_GS max
+ 10 |   v_th: { min: "2.0 V", typ: "3.0 V", max: "4.0 V" }
+    |                              ^
+"#,
+    );
+}
+
+/// A 3 V gate drive on a 3 V threshold.
+#[test]
+fn drive_not_above_v_th() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"supply: "12 V""#,
+            r#"supply: "3 V""#,
+        )],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: 3.00 V does not exceed the switch's V_th typ 3.00 V; expected a drive voltage above the threshold
+ 24 |     supply: "3 V"
+    |             ^
+"#,
+    );
+}
+
+/// A 24 V gate drive on a 20 V gate.
+#[test]
+fn drive_above_v_gs_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"supply: "12 V""#,
+            r#"supply: "24 V""#,
+        )],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: 24.0 V exceeds the switch's V_GS max 20.0 V; expected a drive voltage within the gate rating
+ 24 |     supply: "24 V"
+    |             ^
+"#,
+    );
+}
+
+/// Ambient equal to the switch's T_j max.
+#[test]
+fn ambient_max_at_t_j_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max: "55 °C" }"#,
+            r#"max: "175 °C" }"#,
+        )],
+        r#"
+error: belt-feeder.yaml:13:34: design.ambient.max: 175 °C is not below the switch's T_j max 175 °C; expected an ambient the switch can work in
+ 13 |   ambient: { min: "-10 °C", max: "175 °C" }
+    |                                  ^
+"#,
+    );
+}
+
+/// Supply max under nominal.
+#[test]
+fn supply_max_below_nominal() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", r#"max: "28 V""#, r#"max: "22 V""#)],
+        r#"
+error: belt-feeder.yaml:5:48: design.supply.max: 22.0 V is below nominal 24.0 V; expected min ≤ nominal ≤ max
+ 5 |   supply: { nominal: "24 V", min: "20 V", max: "22 V" }
+   |                                                ^
+"#,
+    );
+}
+
+/// Supply min over nominal.
+#[test]
+fn supply_min_above_nominal() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", r#"min: "20 V""#, r#"min: "25 V""#)],
+        r#"
+error: belt-feeder.yaml:5:35: design.supply.min: 25.0 V is above nominal 24.0 V; expected min ≤ nominal ≤ max
+ 5 |   supply: { nominal: "24 V", min: "25 V", max: "28 V" }
+   |                                   ^
+"#,
+    );
+}
+
+/// 5.2 V/krpm at 3800 rpm plus 3.5 A through 0.62 ohm needs 21.9 V; the supply dips to 20 V.
+#[test]
+fn back_emf_plus_ir_above_lowest_supply() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"operating_speed: "3200 rpm""#,
+            r#"operating_speed: "3800 rpm""#,
+        )],
+        r#"
+error: belt-feeder.yaml:12:22: design.motor.operating_speed: the motor needs 21.9 V (back-EMF 19.8 V + I·R 2.17 V) at this speed and current, more than the lowest supply 20.0 V; expected a speed the supply can reach
+ 12 |     operating_speed: "3800 rpm"
+    |                      ^
+"#,
+    );
+}
+
+/// The same check when k_e comes from rated voltage and no-load speed.
+#[test]
+fn back_emf_from_no_load_speed_above_lowest_supply() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "vent-fan.yaml",
+            r#"operating_speed: "4200 rpm""#,
+            r#"operating_speed: "6000 rpm""#,
+        )],
+        r#"
+error: vent-fan.yaml:13:22: design.motor.operating_speed: the motor needs 14.3 V (back-EMF 12.0 V + I·R 2.28 V) at this speed and current, more than the lowest supply 10.8 V; expected a speed the supply can reach
+ 13 |     operating_speed: "6000 rpm"
+    |                      ^
+"#,
+    );
+}
+
+/// An empty frequency band.
+#[test]
+fn frequency_max_equal_to_min() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max: "60 kHz" }"#,
+            r#"max: "16 kHz" }"#,
+        )],
+        r#"
+error: belt-feeder.yaml:19:38: design.constraints.frequency.max: 16.0 kHz is not above min 16.0 kHz; expected min < max
+ 19 |     frequency: { min: "16 kHz", max: "16 kHz" }
+    |                                      ^
+"#,
+    );
+}
+
+/// 17 bits asked of a 16-bit counter.
+#[test]
+fn resolution_above_counter_width() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "min_resolution_bits: 10",
+            "min_resolution_bits: 17",
+        )],
+        r#"
+error: belt-feeder.yaml:18:26: design.constraints.min_resolution_bits: 17 bits exceeds the timer's 16-bit counter; expected at most 16
+ 18 |     min_resolution_bits: 17
+    |                          ^
+"#,
+    );
+}
+
+/// The board file named does not exist.
+#[test]
+fn board_reference_not_found() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: wren-hb42.yaml",
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: wren-hb42.yaml: no such file
+ 4 |   board: wren-hb42.yaml
+   |          ^
+"#,
+    );
+}
+
+/// A board path leaving the design's folder.
+#[test]
+fn board_reference_climbs_up() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: ../wren-hb24.yaml",
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: "../wren-hb24.yaml" climbs out of this file's folder with ".."; keep the board beside or below it (or use "bundled:NAME")
+ 4 |   board: ../wren-hb24.yaml
+   |          ^
+"#,
+    );
+}
+
+/// An absolute board path.
+#[test]
+fn board_reference_absolute() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: /etc/wren-hb24.yaml",
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: "/etc/wren-hb24.yaml" is an absolute path; expected a path relative to this file (or "bundled:NAME")
+ 4 |   board: /etc/wren-hb24.yaml
+   |          ^
+"#,
+    );
+}
+
+/// An empty board reference.
+#[test]
+fn board_reference_empty() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            r#"board: """#,
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: expected a board file path or "bundled:NAME"
+ 4 |   board: ""
+   |          ^
+"#,
+    );
+}
+
+/// A misspelt bundled board name.
+#[test]
+fn bundled_board_unknown_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: bundled:wren-hb42",
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: no bundled board named "wren-hb42"; did you mean "bundled:wren-hb24"?
+ 4 |   board: bundled:wren-hb42
+   |          ^
+"#,
+    );
+}
+
+/// A bundled board name near none: all are listed.
+#[test]
+fn bundled_board_unknown_lists_choices() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: bundled:osprey",
+        )],
+        r#"
+error: belt-feeder.yaml:4:10: design.board: no bundled board named "osprey"; expected one of: bundled:wren-hb24, bundled:kite-ls12, bundled:heron-hb48
+ 4 |   board: bundled:osprey
+   |          ^
+"#,
+    );
+}
+
+/// The switch file named by the board does not exist.
+#[test]
+fn switch_file_missing() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "switch: switches/tarn-40.yaml",
+            "switch: switches/tarn-41.yaml",
+        )],
+        r#"
+error: wren-hb24.yaml:22:13: board.stage.switch: switches/tarn-41.yaml: no such file
+ 22 |     switch: switches/tarn-41.yaml
+    |             ^
+"#,
+    );
+}
+
+/// The design names a switch file as its board.
+#[test]
+fn board_reference_is_a_switch_file() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board: switches/tarn-40.yaml",
+        )],
+        r#"
+error: switches/tarn-40.yaml:3:1: switch: unknown field; expected one of `board`
+ 3 | switch:
+   | ^
+"#,
+    );
+}
+
+/// The board names another board file as its switch.
+#[test]
+fn switch_reference_is_a_board_file() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "switch: switches/tarn-40.yaml",
+            "switch: kite-ls12.yaml",
+        )],
+        r#"
+error: kite-ls12.yaml:2:1: board: unknown field; expected one of `switch`
+ 2 | board:
+   | ^
+"#,
+    );
+}
+
+/// An h-bridge with its modulation removed.
+#[test]
+fn h_bridge_without_modulation() {
+    bad_input(
+        "winch.yaml",
+        &[case("heron-hb48.yaml", "    modulation: unipolar\n", "")],
+        r#"
+error: heron-hb48.yaml:15:5: board.stage.modulation: missing; an h-bridge needs `bipolar` or `unipolar`
+ 15 |     topology: h-bridge
+    |     ^
+"#,
+    );
+}
+
+/// A modulation on a single-switch stage.
+#[test]
+fn modulation_on_low_side() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            "    topology: low-side",
+            "    topology: low-side\n    modulation: bipolar",
+        )],
+        r#"
+error: kite-ls12.yaml:15:17: board.stage.modulation: only an h-bridge has a modulation; remove it
+ 15 |     modulation: bipolar
+    |                 ^
+"#,
+    );
+}
+
+/// A high-side supply on a low-side stage.
+#[test]
+fn low_side_with_high_side_supply() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            r#"    delay_mismatch: "0 ns""#,
+            "    delay_mismatch: \"0 ns\"\n    high_side: isolated",
+        )],
+        r#"
+error: kite-ls12.yaml:25:16: board.gate_driver.high_side: a low-side stage has no high-side switch; remove it
+ 25 |     high_side: isolated
+    |                ^
+"#,
+    );
+}
+
+/// A half-bridge with its bootstrap removed.
+#[test]
+fn bridge_without_high_side_supply() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "    high_side:\n      bootstrap: { capacitor: \"1 uF\", refresh_time: \"500 ns\", load_current: \"150 uA\" }\n",
+            "",
+        )],
+        r#"
+error: wren-hb24.yaml:24:5: board.gate_driver.high_side: missing; a bridge needs `bootstrap: {...}` or `isolated`
+ 24 |     supply: "12 V"
+    |     ^
+"#,
+    );
+}
+
+/// The reserved topology.
+#[test]
+fn three_phase_is_reserved() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "topology: half-bridge",
+            "topology: three-phase",
+        )],
+        r#"
+error: wren-hb24.yaml:21:15: board.stage.topology: `three-phase` is reserved and not supported yet; expected `low-side`, `half-bridge` or `h-bridge`
+ 21 |     topology: three-phase
+    |               ^
+"#,
+    );
+}
+
+/// Segment 2 starts inside segment 1 (0x80 + 64 = 0xC0).
+#[test]
+fn dead_time_segments_overlap() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "{ first_code: 0xC0, count: 32",
+            "{ first_code: 0xB0, count: 32",
+        )],
+        r#"
+error: wren-hb24.yaml:16:27: board.timer.dead_time.segmented.segments[2].first_code: codes overlap segment 1; expected each code in one segment only
+ 16 |           - { first_code: 0xB0, count: 32, base: 32, step: 8 }
+    |                           ^
+"#,
+    );
+}
+
+/// A linear prescaler range upside down.
+#[test]
+fn prescaler_max_below_min() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "linear: { min: 1, max: 65536 }",
+            "linear: { min: 8, max: 4 }",
+        )],
+        r#"
+error: wren-hb24.yaml:8:30: board.timer.prescaler.linear.max: 4 is below min 8; expected max ≥ min
+ 8 |       linear: { min: 8, max: 4 }     # register = divider - 1
+   |                              ^
+"#,
+    );
+}
+
+/// A divider of zero.
+#[test]
+fn prescaler_min_zero() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "linear: { min: 1, max: 65536 }",
+            "linear: { min: 0, max: 65536 }",
+        )],
+        r#"
+error: wren-hb24.yaml:8:22: board.timer.prescaler.linear.min: expected a divider of at least 1
+ 8 |       linear: { min: 0, max: 65536 }     # register = divider - 1
+   |                      ^
+"#,
+    );
+}
+
+/// Two thermal paths given at once.
+#[test]
+fn both_r_th_ja_and_r_th_sa() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"    r_th_sa: "24 K/W""#,
+            "    r_th_sa: \"24 K/W\"\n    r_th_ja: \"40 K/W\"",
+        )],
+        r#"
+error: wren-hb24.yaml:35:14: board.thermal.r_th_sa: give either r_th_ja, or r_th_cs with r_th_sa, not both
+ 35 |     r_th_sa: "24 K/W"
+    |              ^
+"#,
+    );
+}
+
+/// `plan` on a board file: the top-level key is not `design`.
+#[test]
+fn board_file_given_to_plan() {
+    bad_input(
+        "wren-hb24.yaml",
+        &[],
+        r#"
+error: wren-hb24.yaml:2:1: board: unknown field; expected one of `design`
+ 2 | board:
+   | ^
+"#,
+    );
+}
+
+/// `plan` on a file that does not exist.
+#[test]
+fn design_file_missing() {
+    bad_input(
+        "no-such-design.yaml",
+        &[],
+        r#"
+error: no-such-design.yaml: no such file
+"#,
+    );
+}
+
+/// An empty design file.
+#[test]
+fn design_file_empty() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write("belt-feeder.yaml", b"")],
+        r#"
+error: belt-feeder.yaml: the file is empty; expected YAML
+"#,
+    );
+}
+
+/// An empty board file, referenced from the design.
+#[test]
+fn board_file_empty() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write("wren-hb24.yaml", b"")],
+        r#"
+error: wren-hb24.yaml: the file is empty; expected YAML
+"#,
+    );
+}
+
+/// A design file in Latin-1.
+#[test]
+fn design_file_not_utf8() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write("belt-feeder.yaml", b"design:\n  name: caf\xe9\n")],
+        r#"
+error: belt-feeder.yaml: not UTF-8 text; expected a YAML file
+"#,
+    );
+}
+
+/// A switch file that is not text, referenced from the board.
+#[test]
+fn switch_file_not_utf8() {
+    bad_input(
+        "vent-fan.yaml",
+        &[write("switches/scree-60.yaml", b"\xff\xfe")],
+        r#"
+error: kite-ls12.yaml:15:13: board.stage.switch: switches/scree-60.yaml: not UTF-8 text; expected a YAML file
+ 15 |     switch: switches/scree-60.yaml
+    |             ^
+"#,
+    );
+}
