@@ -13,9 +13,14 @@ use clap::{Parser, Subcommand};
 use crate::bundled::{self, Kind};
 use crate::design::{Design, load_design};
 use crate::diagnostic::InputError;
+use crate::emit::{self, EmitError, GeneratedFile, Templates};
 use crate::load::{Origin, SourceFile};
-use crate::spec::{BoardFile, DesignFile, SwitchFile};
-use crate::summary;
+use crate::model::Evaluator;
+use crate::plan::{self, Plan};
+use crate::report;
+use crate::solve::{self, Objective};
+use crate::spec::{BoardFile, DesignFile, ObjectiveSpec, SwitchFile};
+use crate::units::{Dimension, parse_quantity};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -30,13 +35,40 @@ pub struct Args {
 
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Plan the PWM settings of a design (the bundled demo when no file is given).
+    /// Choose the PWM settings of a design and write them to the output folder
+    /// (the bundled demo when no file is given).
     Plan {
         /// Design file (YAML). Omit to run the bundled demo.
         design: Option<PathBuf>,
+        /// Pin the PWM frequency (e.g. "20 kHz"); it is still quantised to the
+        /// timer and checked against every constraint.
+        #[arg(long, value_name = "FREQ")]
+        at: Option<String>,
+        /// Print the plan as JSON instead of the text report.
+        #[arg(long)]
+        json: bool,
         /// Folder for the generated files.
-        #[arg(long, default_value = "out")]
+        #[arg(long, default_value = "out", value_name = "DIR")]
         out: PathBuf,
+        /// Templates folder overriding the bundled set.
+        #[arg(long, value_name = "DIR")]
+        templates: Option<PathBuf>,
+        /// Overwrite generated files a person has edited.
+        #[arg(long)]
+        force: bool,
+        /// Print only; write no files.
+        #[arg(long)]
+        no_write: bool,
+    },
+    /// Exit 1 with a diff when the output folder is not what the inputs
+    /// would generate now; 0 when it is current.
+    Check {
+        /// Design file (YAML). Omit for the bundled demo.
+        design: Option<PathBuf>,
+        #[arg(long, default_value = "out", value_name = "DIR")]
+        out: PathBuf,
+        #[arg(long, value_name = "DIR")]
+        templates: Option<PathBuf>,
     },
     /// Write a commented starter design file.
     New {
@@ -66,6 +98,12 @@ impl From<InputError> for Failure {
     }
 }
 
+impl From<EmitError> for Failure {
+    fn from(e: EmitError) -> Failure {
+        Failure::Usage(e.to_string())
+    }
+}
+
 /// Parse the process arguments, run, print, and return the exit status.
 pub fn main() -> ExitCode {
     let args = match Args::try_parse() {
@@ -77,27 +115,171 @@ pub fn main() -> ExitCode {
         }
     };
     let mut stdout = std::io::stdout().lock();
-    match run(args, &mut stdout) {
+    let mut stderr = std::io::stderr().lock();
+    match run(args, &mut stdout, &mut stderr) {
         Ok(code) => ExitCode::from(code),
         Err(Failure::Input(e)) => {
-            eprintln!("error: {e}");
+            let _ = writeln!(stderr, "error: {e}");
             ExitCode::from(2)
         }
         Err(Failure::Usage(m)) => {
-            eprintln!("error: {m}");
+            let _ = writeln!(stderr, "error: {m}");
             ExitCode::from(2)
         }
     }
 }
 
-/// Run one command, writing its report to `out`; returns the exit status.
-pub fn run(args: Args, out: &mut dyn Write) -> Result<u8, Failure> {
+/// A solved design: everything the outputs are made from.
+pub struct Solved {
+    pub design: Design,
+    pub plan: Plan,
+    pub feasible: bool,
+}
+
+/// Load, solve (or evaluate at a pinned frequency) and build the plan.
+pub fn solve_design(design: Option<&Path>, at: Option<f64>) -> Result<Solved, Failure> {
+    let design = load(design)?;
+    let ev = Evaluator::new(&design);
+    let objective = match design.spec.objective {
+        ObjectiveSpec::LeastLoss => Objective::LeastLoss,
+        ObjectiveSpec::Quietest => Objective::Quietest,
+        ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
+    };
+    let solution = match at {
+        Some(f) => solve::pinned(&ev, objective, f),
+        None => solve::solve(&ev, objective),
+    };
+    let plan = plan::build(&design, &ev, &solution, at).ok_or_else(|| {
+        Failure::Usage(
+            solution
+                .conflict
+                .first()
+                .cloned()
+                .unwrap_or_else(|| "no timer setting could be evaluated".into()),
+        )
+    })?;
+    Ok(Solved {
+        feasible: solution.feasible,
+        design,
+        plan,
+    })
+}
+
+fn parse_frequency(text: &str) -> Result<f64, Failure> {
+    parse_quantity(text, Dimension::Frequency)
+        .map_err(|e| Failure::Usage(format!("--at: {e}")))
+        .and_then(|f| {
+            if f > 0.0 {
+                Ok(f)
+            } else {
+                Err(Failure::Usage(
+                    "--at: expected a positive frequency such as \"20 kHz\"".into(),
+                ))
+            }
+        })
+}
+
+/// The files `plan` writes for a solved design.
+pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<GeneratedFile>, Failure> {
+    let t = Templates::load(templates)?;
+    let o = &s.design.spec.outputs;
+    Ok(emit::generate(
+        &s.plan,
+        s.design.board.timer.fpu,
+        o.c,
+        o.rust,
+        &t,
+    )?)
+}
+
+/// Run one command, writing its report to `out` and notes to `err`;
+/// returns the exit status.
+pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, Failure> {
     match args.command {
-        Command::Plan { design, out: _ } => {
-            let design = load(design.as_deref())?;
-            let text = summary::design_summary(&design);
-            write_stdout(out, &text)?;
+        Command::Plan {
+            design,
+            at,
+            json,
+            out: dir,
+            templates,
+            force,
+            no_write,
+        } => {
+            let at = at.as_deref().map(parse_frequency).transpose()?;
+            let solved = solve_design(design.as_deref(), at)?;
+            if !solved.feasible {
+                if json {
+                    write_text(out, &emit::plan_json(&solved.plan))?;
+                } else {
+                    write_text(out, &report::infeasible_text(&solved.plan))?;
+                }
+                return Ok(1);
+            }
+            let files = generate_files(&solved, templates.as_deref())?;
+            let ctx = emit::context(&solved.plan, solved.design.board.timer.fpu);
+            if json {
+                write_text(out, &emit::plan_json(&solved.plan))?;
+            } else {
+                write_text(out, &report::plan_text(&ctx))?;
+            }
+            if no_write {
+                return Ok(0);
+            }
+            let changes = previous_plan(&dir).map(|old| report::what_changed(&old, &solved.plan));
+            write_outputs(&dir, &files, force)?;
+            let mut note = String::new();
+            if let Some(lines) = changes {
+                for l in lines {
+                    note.push_str(&l);
+                    note.push('\n');
+                }
+            }
+            note.push_str(&format!(
+                "wrote {}\n",
+                files
+                    .iter()
+                    .map(|f| dir.join(&f.name).display().to_string())
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+            // With --json the report on stdout stays pure JSON.
+            if json {
+                write_text(err, &note)?;
+            } else {
+                write_text(out, &format!("\n{note}"))?;
+            }
             Ok(0)
+        }
+        Command::Check {
+            design,
+            out: dir,
+            templates,
+        } => {
+            let pinned = previous_plan(&dir).and_then(|p| p.search.pinned_frequency_hz);
+            let solved = solve_design(design.as_deref(), pinned)?;
+            if !solved.feasible {
+                write_text(out, &report::infeasible_text(&solved.plan))?;
+                return Ok(1);
+            }
+            let files = generate_files(&solved, templates.as_deref())?;
+            let problems = check_outputs(&dir, &files);
+            if problems.is_empty() {
+                write_text(
+                    out,
+                    &format!("{} is current ({} files)\n", dir.display(), files.len()),
+                )?;
+                Ok(0)
+            } else {
+                write_text(out, &problems.join(""))?;
+                write_text(
+                    out,
+                    &format!(
+                        "{} is out of date; run `pwmplan plan` to regenerate it\n",
+                        dir.display()
+                    ),
+                )?;
+                Ok(1)
+            }
         }
         Command::New { path, force } => {
             if path.exists() && !force {
@@ -107,7 +289,7 @@ pub fn run(args: Args, out: &mut dyn Write) -> Result<u8, Failure> {
                 )));
             }
             write_atomically(&path, STARTER_DESIGN.as_bytes())?;
-            write_stdout(
+            write_text(
                 out,
                 &format!(
                     "wrote {}: a starter design on the bundled board wren-hb24; edit the motor and constraints, then run `pwmplan plan {}`\n",
@@ -118,10 +300,110 @@ pub fn run(args: Args, out: &mut dyn Write) -> Result<u8, Failure> {
             Ok(0)
         }
         Command::Boards => {
-            write_stdout(out, &list_bundled()?)?;
+            write_text(out, &list_bundled()?)?;
             Ok(0)
         }
     }
+}
+
+/// The plan in `dir/plan.json`, if there is a readable one.
+fn previous_plan(dir: &Path) -> Option<Plan> {
+    let text = std::fs::read_to_string(dir.join("plan.json")).ok()?;
+    serde_json::from_str(&text).ok()
+}
+
+/// Refuse to overwrite a file a person edited (or one pwmplan did not
+/// write) unless forced; then write every file through a temporary file
+/// and rename them only when all temporaries are written.
+fn write_outputs(dir: &Path, files: &[GeneratedFile], force: bool) -> Result<(), Failure> {
+    if !force {
+        for f in files {
+            let path = dir.join(&f.name);
+            if let Ok(existing) = std::fs::read_to_string(&path) {
+                match emit::is_untouched(&existing) {
+                    Some(true) => {}
+                    Some(false) => {
+                        return Err(Failure::Usage(format!(
+                            "{} was edited after pwmplan wrote it; nothing was written. Keep your edits elsewhere, or pass --force to overwrite",
+                            path.display()
+                        )));
+                    }
+                    None => {
+                        return Err(Failure::Usage(format!(
+                            "{} exists and was not written by pwmplan; nothing was written. Move it, or pass --force to overwrite",
+                            path.display()
+                        )));
+                    }
+                }
+            }
+        }
+    }
+    std::fs::create_dir_all(dir)
+        .map_err(|e| Failure::Usage(format!("cannot create {}: {e}", dir.display())))?;
+    let mut temps = Vec::new();
+    for f in files {
+        let path = dir.join(&f.name);
+        let tmp = temp_path(&path);
+        if let Err(e) = std::fs::write(&tmp, f.text.as_bytes()) {
+            for (t, _) in &temps {
+                let _ = std::fs::remove_file(t);
+            }
+            let _ = std::fs::remove_file(&tmp);
+            return Err(Failure::Usage(format!(
+                "cannot write {}: {e}",
+                path.display()
+            )));
+        }
+        temps.push((tmp, path));
+    }
+    for (tmp, path) in &temps {
+        std::fs::rename(tmp, path)
+            .map_err(|e| Failure::Usage(format!("cannot write {}: {e}", path.display())))?;
+    }
+    Ok(())
+}
+
+fn temp_path(path: &Path) -> PathBuf {
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    dir.join(format!(".{name}.pwmplan-tmp"))
+}
+
+/// Differences between the files on disk and those the inputs generate now,
+/// as unified diffs and plain notes.
+fn check_outputs(dir: &Path, files: &[GeneratedFile]) -> Vec<String> {
+    let mut problems = Vec::new();
+    for f in files {
+        let path = dir.join(&f.name);
+        match std::fs::read_to_string(&path) {
+            Err(_) => problems.push(format!("{}: missing\n", path.display())),
+            Ok(existing) if existing == f.text => {}
+            Ok(existing) => {
+                if emit::is_untouched(&existing) == Some(false) {
+                    problems.push(format!(
+                        "{}: edited by hand since pwmplan wrote it\n",
+                        path.display()
+                    ));
+                }
+                let diff = similar::TextDiff::from_lines(&existing, &f.text)
+                    .unified_diff()
+                    .context_radius(2)
+                    .header(
+                        &format!("{} (on disk)", path.display()),
+                        &format!("{} (generated now)", path.display()),
+                    )
+                    .to_string();
+                problems.push(diff);
+            }
+        }
+    }
+    problems
 }
 
 fn load(design: Option<&Path>) -> Result<Design, InputError> {
@@ -132,9 +414,9 @@ fn load(design: Option<&Path>) -> Result<Design, InputError> {
     load_design(origin)
 }
 
-fn write_stdout(out: &mut dyn Write, text: &str) -> Result<(), Failure> {
+fn write_text(out: &mut dyn Write, text: &str) -> Result<(), Failure> {
     out.write_all(text.as_bytes())
-        .map_err(|e| Failure::Usage(format!("cannot write to standard output: {e}")))
+        .map_err(|e| Failure::Usage(format!("cannot write the report: {e}")))
 }
 
 /// Write `bytes` to `path` through a temporary file in the same folder and a

@@ -5,7 +5,7 @@
 //! **Invariant:** pure. No I/O, no printing; infeasibility is data (failed
 //! constraints and findings), never an error.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::design::Design;
 use crate::physics::acoustics::{self, AcousticVerdict, AudibleMode, Significance};
@@ -422,7 +422,7 @@ pub struct RippleFigures {
     pub frequency_hz: f64,
 }
 
-#[derive(Debug, Clone, Default, Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct LossFigures {
     pub conduction: f64,
     pub switching: f64,
@@ -435,7 +435,7 @@ pub struct LossFigures {
     pub total: f64,
 }
 
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct DeviceFigures {
     pub role: String,
     pub switched_current_on_a: f64,

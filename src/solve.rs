@@ -946,3 +946,30 @@ pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
 /// Unused-case guard: keeps the case type referenced for docs.
 #[allow(dead_code)]
 fn _case_type(_: &OperatingCase) {}
+
+/// The solution with the frequency pinned (`plan --at`): the realisable
+/// setting nearest `f_hz`, checked like any other; nothing else searched.
+pub fn pinned(ev: &Evaluator, obj: Objective, f_hz: f64) -> Solution {
+    let chosen = evaluate_at(ev, f_hz);
+    let feasible = chosen.as_ref().is_some_and(|c| c.feasible);
+    let conflict = match &chosen {
+        Some(c) if !c.feasible => c
+            .checks
+            .iter()
+            .filter(|k| !k.pass)
+            .map(|k| format!("{} fails at the pinned frequency: {}", k.name, k.detail))
+            .collect(),
+        Some(_) => Vec::new(),
+        None => vec![format!("no realisable timer setting near {}", fmt_f(f_hz))],
+    };
+    Solution {
+        objective: obj,
+        feasible,
+        chosen,
+        feasible_band_hz: None,
+        alternatives: Vec::new(),
+        conflict,
+        evaluated: 1,
+        realisable: 1,
+    }
+}

@@ -1,0 +1,748 @@
+//! Rendering the plan into files: the C header, the Rust module, the
+//! rationale in Markdown, and `plan.json`, through handlebars templates in
+//! strict mode fed by one typed context ([`Context`]).
+//!
+//! **Invariant:** templates compute nothing: numbers arrive formatted and
+//! identifiers arrive cased (`heck`); a field a template names but the
+//! context lacks is an error, not a blank. Output is deterministic: no
+//! timestamps, fixed number formats, stable order. No I/O here except
+//! reading an override template folder; files are returned as data.
+
+use std::path::{Path, PathBuf};
+
+use handlebars::Handlebars;
+use heck::{ToShoutySnakeCase, ToSnakeCase};
+use serde::Serialize;
+
+use crate::plan::{Plan, sha256_hex};
+use crate::units::{Dimension, format_quantity};
+
+/// Where the content hash goes; replaced by the real hash when sealed.
+pub const MARKER_PLACEHOLDER: &str =
+    "pwmplan-hash:0000000000000000000000000000000000000000000000000000000000000000";
+const MARKER_PREFIX: &str = "pwmplan-hash:";
+
+/// The bundled templates: (file name, text).
+pub const BUNDLED_TEMPLATES: &[(&str, &str)] = &[
+    (
+        "c_header.h.hbs",
+        include_str!("../templates/c_header.h.hbs"),
+    ),
+    (
+        "rust_module.rs.hbs",
+        include_str!("../templates/rust_module.rs.hbs"),
+    ),
+    (
+        "rationale.md.hbs",
+        include_str!("../templates/rationale.md.hbs"),
+    ),
+];
+
+/// One generated file: its name inside the output folder and its text.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct GeneratedFile {
+    pub name: PathBuf,
+    pub text: String,
+}
+
+/// Why rendering failed.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum EmitError {
+    /// A template in an override folder is missing or unreadable.
+    Template { file: String, message: String },
+    /// A template does not render (syntax, or a field the context lacks).
+    Render { template: String, message: String },
+}
+
+impl std::fmt::Display for EmitError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            EmitError::Template { file, message } => write!(f, "{file}: {message}"),
+            EmitError::Render { template, message } => write!(f, "template {template}: {message}"),
+        }
+    }
+}
+
+/// Replace the placeholder marker by the SHA-256 of the text that holds the
+/// placeholder, so a reader can check the file was not edited.
+pub fn seal(text: &str) -> String {
+    let hash = sha256_hex(text);
+    text.replacen(MARKER_PLACEHOLDER, &format!("{MARKER_PREFIX}{hash}"), 1)
+}
+
+/// Whether a generated file is as pwmplan wrote it: `None` when it carries
+/// no marker (not a pwmplan file), else whether the hash matches.
+pub fn is_untouched(text: &str) -> Option<bool> {
+    let at = text.find(MARKER_PREFIX)?;
+    let hex_start = at + MARKER_PREFIX.len();
+    let hex = text.get(hex_start..hex_start + 64)?;
+    if !hex.chars().all(|c| c.is_ascii_hexdigit()) {
+        return Some(false);
+    }
+    let blank = format!(
+        "{}{}{}",
+        &text[..at],
+        MARKER_PLACEHOLDER,
+        &text[hex_start + 64..]
+    );
+    Some(sha256_hex(&blank) == hex)
+}
+
+/// Names of the generated identifiers, by role (one table so templates
+/// never invent names).
+#[derive(Debug, Clone, Serialize)]
+pub struct Names {
+    /// Prefix of C macros, e.g. `BELT_FEEDER_PWM`.
+    pub c_macro: String,
+    /// Prefix of C functions, e.g. `belt_feeder_pwm`.
+    pub c_function: String,
+    /// Include guard of the header.
+    pub c_guard: String,
+    /// Rust module (file stem), e.g. `belt_feeder_pwm`.
+    pub rust_module: String,
+    /// File stem of both code files.
+    pub file_stem: String,
+}
+
+/// A label/value row.
+#[derive(Debug, Clone, Serialize)]
+pub struct Row {
+    pub label: String,
+    pub value: String,
+}
+
+/// One constraint, formatted.
+#[derive(Debug, Clone, Serialize)]
+pub struct ConstraintRow {
+    pub name: String,
+    pub limit: String,
+    pub value: String,
+    pub margin: String,
+    pub status: String,
+}
+
+/// Timer values as they go into code: decimal or hex literals.
+#[derive(Debug, Clone, Serialize)]
+pub struct TimerLiterals {
+    pub clock_hz: String,
+    pub divider: String,
+    pub divider_register: String,
+    pub period_ticks: String,
+    pub period_register: String,
+    pub duty_steps: String,
+    pub centre_aligned: bool,
+    pub alignment: String,
+    pub dead_time_code: String,
+    pub dead_time_ticks: String,
+    pub dead_time_ns: String,
+    pub compare_min: String,
+    pub compare_max: String,
+    /// PWM frequency in millihertz, an exact integer for code.
+    pub frequency_mhz: String,
+    pub frequency_text: String,
+    /// C type of the count constants and Rust type of the same.
+    pub c_count_type: String,
+    pub rust_count_type: String,
+    /// Rust literal suffix-free forms are used; the C forms carry `U`/`UL`.
+    pub c_clock_hz: String,
+}
+
+/// The one context every template receives.
+#[derive(Debug, Clone, Serialize)]
+pub struct Context {
+    pub tool: String,
+    /// The placeholder marker; sealed after rendering.
+    pub marker: String,
+    pub design: String,
+    pub names: Names,
+    pub timer: TimerLiterals,
+    /// The MCU has an FPU: emit the floating-point helper too.
+    pub fpu: bool,
+    pub has_dead_time: bool,
+    /// The rationale as plain text lines, for comment blocks.
+    pub rationale_lines: Vec<String>,
+    /// The register init sequence, one step per line.
+    pub init_steps: Vec<String>,
+    pub summary: Vec<Row>,
+    pub constraints: Vec<ConstraintRow>,
+    pub losses: Vec<Row>,
+    pub figures: Vec<Row>,
+    pub alternatives: Vec<Row>,
+    pub findings: Vec<Row>,
+    pub assumptions: Vec<String>,
+    pub cautions: Vec<String>,
+    pub inputs: Vec<Row>,
+    pub conventions: Vec<Row>,
+}
+
+fn q(v: f64, d: Dimension, sig: usize) -> String {
+    format_quantity(v, d, sig)
+}
+
+fn watts(w: f64) -> String {
+    q(w, Dimension::Power, 3)
+}
+
+fn opt_c(t: Option<f64>) -> String {
+    t.map(|t| q(t, Dimension::Temperature, 3))
+        .unwrap_or_else(|| "runaway".into())
+}
+
+/// Format a constraint's number in its unit.
+fn constraint_number(v: f64, unit: &str) -> String {
+    match unit {
+        "°C" => q(v, Dimension::Temperature, 3),
+        "K" => q(v, Dimension::TemperatureDifference, 3),
+        "A" => q(v, Dimension::Current, 3),
+        "Hz" => q(v, Dimension::Frequency, 5),
+        "Hz-margin" => q(v, Dimension::Frequency, 3),
+        "s" => q(v, Dimension::Time, 3),
+        "bits" => format!("{v:.2} bits"),
+        "lines" => format!("{v:.0} lines"),
+        "" => format!("{:.2} %", 100.0 * v),
+        _ => format!("{v}"),
+    }
+}
+
+fn constraint_margin(m: f64, unit: &str) -> String {
+    match unit {
+        // A temperature difference is in kelvin.
+        "°C" => q(m, Dimension::TemperatureDifference, 3),
+        "Hz" => constraint_number(m, "Hz-margin"),
+        other => constraint_number(m, other),
+    }
+}
+
+/// Identifier names from the design name (`belt-feeder` → `BELT_FEEDER_PWM`).
+pub fn names(design: &str) -> Names {
+    let snake = format!("{}_pwm", design.to_snake_case());
+    Names {
+        c_macro: snake.to_shouty_snake_case(),
+        c_function: snake.clone(),
+        c_guard: format!("{}_H", snake.to_shouty_snake_case()),
+        rust_module: snake.clone(),
+        file_stem: snake,
+    }
+}
+
+/// Build the template context of a plan.
+pub fn context(plan: &Plan, fpu: bool) -> Context {
+    let t = &plan.timer;
+    let big = [t.duty_steps, t.period_ticks, t.period_register, t.divider]
+        .iter()
+        .any(|v| *v > u64::from(u32::MAX));
+    let dt_code = t.dead_time_code.unwrap_or(0);
+    let timer = TimerLiterals {
+        clock_hz: format!("{}", t.clock_hz.round() as u64),
+        c_clock_hz: format!("{}UL", t.clock_hz.round() as u64),
+        divider: t.divider.to_string(),
+        divider_register: t.divider_register.to_string(),
+        period_ticks: t.period_ticks.to_string(),
+        period_register: t.period_register.to_string(),
+        duty_steps: t.duty_steps.to_string(),
+        centre_aligned: plan.pwm.alignment == "centre",
+        alignment: plan.pwm.alignment.clone(),
+        dead_time_code: format!("0x{dt_code:02X}"),
+        dead_time_ticks: t.dead_time_ticks.unwrap_or(0).to_string(),
+        dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
+        compare_min: plan.pwm.compare_min.to_string(),
+        compare_max: plan.pwm.compare_max.to_string(),
+        frequency_mhz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
+        frequency_text: q(plan.pwm.frequency_hz, Dimension::Frequency, 5),
+        c_count_type: if big { "uint64_t" } else { "uint32_t" }.into(),
+        rust_count_type: if big { "u64" } else { "u32" }.into(),
+    };
+    let has_dead_time = t.dead_time_ticks.is_some_and(|x| x > 0);
+    let n = names(&plan.design);
+    let mut summary = vec![
+        Row {
+            label: "design".into(),
+            value: plan.design.clone(),
+        },
+        Row {
+            label: "board".into(),
+            value: plan.board.clone(),
+        },
+        Row {
+            label: "switch".into(),
+            value: plan.switch.clone(),
+        },
+        Row {
+            label: "topology".into(),
+            value: plan.topology.clone(),
+        },
+        Row {
+            label: "objective".into(),
+            value: plan.objective.clone(),
+        },
+        Row {
+            label: "frequency".into(),
+            value: format!("{}, {}-aligned", timer.frequency_text, plan.pwm.alignment),
+        },
+        Row {
+            label: "timer".into(),
+            value: format!(
+                "clock {}; divider {} (register {}); period {} ticks (register {})",
+                q(t.clock_hz, Dimension::Frequency, 4),
+                t.divider,
+                t.divider_register,
+                t.period_ticks,
+                t.period_register
+            ),
+        },
+        Row {
+            label: "resolution".into(),
+            value: format!(
+                "{} duty steps ({:.1} bits)",
+                t.duty_steps, t.resolution_bits
+            ),
+        },
+    ];
+    if has_dead_time || t.dead_time_need_s > 0.0 {
+        summary.push(Row {
+            label: "dead time".into(),
+            value: format!(
+                "{} = {} ticks (code {}); needed {}",
+                q(t.dead_time_s, Dimension::Time, 3),
+                timer.dead_time_ticks,
+                timer.dead_time_code,
+                q(t.dead_time_need_s, Dimension::Time, 3)
+            ),
+        });
+    }
+    summary.push(Row {
+        label: "duty limits".into(),
+        value: format!(
+            "compare {} to {} ({:.1} % to {:.1} %); the load needs {:.1} % to {:.1} %",
+            plan.pwm.compare_min,
+            plan.pwm.compare_max,
+            100.0 * plan.pwm.duty_min,
+            100.0 * plan.pwm.duty_max,
+            100.0 * plan.pwm.duty_needed[0],
+            100.0 * plan.pwm.duty_needed[1]
+        ),
+    });
+    if let Some([a, b]) = plan.feasible_band_hz {
+        summary.push(Row {
+            label: "feasible band".into(),
+            value: format!(
+                "{} to {}",
+                q(a, Dimension::Frequency, 5),
+                q(b, Dimension::Frequency, 5)
+            ),
+        });
+    }
+    let constraints: Vec<ConstraintRow> = plan
+        .constraints
+        .iter()
+        .map(|c| ConstraintRow {
+            name: c.name.clone(),
+            limit: constraint_number(c.limit, &c.unit),
+            value: c
+                .value
+                .map(|v| constraint_number(v, &c.unit))
+                .unwrap_or_else(|| "none".into()),
+            margin: c
+                .margin
+                .map(|m| constraint_margin(m, &c.unit))
+                .unwrap_or_else(|| "none".into()),
+            status: match (c.pass, c.binding) {
+                (true, true) => "binds".into(),
+                (true, false) => "ok".into(),
+                (false, _) => "FAILS".into(),
+            },
+        })
+        .collect();
+    let l = &plan.losses_w;
+    let mut losses = vec![
+        Row {
+            label: "conduction".into(),
+            value: watts(l.conduction),
+        },
+        Row {
+            label: "switching".into(),
+            value: watts(l.switching),
+        },
+        Row {
+            label: "output capacitance".into(),
+            value: watts(l.output_capacitance),
+        },
+        Row {
+            label: "reverse recovery".into(),
+            value: watts(l.reverse_recovery),
+        },
+        Row {
+            label: "dead-time diode".into(),
+            value: watts(l.dead_time_diode),
+        },
+        Row {
+            label: "gate drive".into(),
+            value: watts(l.gate_drive),
+        },
+    ];
+    if plan.topology == "low-side" {
+        losses.push(Row {
+            label: "freewheel diode".into(),
+            value: watts(l.freewheel_diode),
+        });
+    }
+    losses.push(Row {
+        label: "motor ripple copper".into(),
+        value: watts(l.motor_ripple_copper),
+    });
+    losses.push(Row {
+        label: "total".into(),
+        value: watts(l.total),
+    });
+    let rated = plan.cases.first();
+    let figures = vec![
+        Row {
+            label: "rated case".into(),
+            value: rated
+                .map(|c| {
+                    format!(
+                        "{} supply, {} ambient, {} load",
+                        q(c.v_bus_v, Dimension::Voltage, 3),
+                        q(c.t_ambient_c, Dimension::Temperature, 3),
+                        q(c.load_current_a, Dimension::Current, 3)
+                    )
+                })
+                .unwrap_or_default(),
+        },
+        Row {
+            label: "junction".into(),
+            value: format!(
+                "{} (limit {}); {} at the highest supply",
+                opt_c(plan.thermal.junction_c),
+                q(plan.thermal.limit_c, Dimension::Temperature, 3),
+                opt_c(plan.thermal.junction_high_bus_c)
+            ),
+        },
+        Row {
+            label: "ripple".into(),
+            value: format!(
+                "{} peak to peak at {} ({}), {} rms",
+                q(plan.ripple.peak_to_peak_a, Dimension::Current, 3),
+                q(plan.ripple.frequency_hz, Dimension::Frequency, 5),
+                if plan.ripple.continuous {
+                    "continuous"
+                } else {
+                    "discontinuous"
+                },
+                q(plan.ripple.ac_rms_a, Dimension::Current, 3)
+            ),
+        },
+        Row {
+            label: "audibility".into(),
+            value: format!(
+                "{}; A-weighted in-band level {}",
+                plan.acoustic.verdict,
+                plan.acoustic
+                    .a_weighted_db
+                    .map(|d| format!("{d:.1} dB(A) re 1 A"))
+                    .unwrap_or_else(|| "none".into())
+            ),
+        },
+    ];
+    let alternatives = plan
+        .alternatives
+        .iter()
+        .map(|a| Row {
+            label: a.label.clone(),
+            value: format!(
+                "{} (divider {}, {} ticks, {}): {}",
+                q(a.frequency_hz, Dimension::Frequency, 5),
+                a.divider,
+                a.period_ticks,
+                a.alignment,
+                a.trade
+            ),
+        })
+        .collect();
+    let findings = plan
+        .findings
+        .iter()
+        .map(|f| Row {
+            label: f.severity.clone(),
+            value: f.message.clone(),
+        })
+        .collect();
+    let inputs = plan
+        .inputs
+        .iter()
+        .map(|i| Row {
+            label: i.file.clone(),
+            value: format!("sha256 {}", i.sha256),
+        })
+        .collect();
+    let conventions = plan
+        .conventions
+        .iter()
+        .map(|(k, v)| Row {
+            label: k.clone(),
+            value: v.clone(),
+        })
+        .collect();
+    let init_steps = init_steps(&n, &timer, has_dead_time);
+    let mut ctx = Context {
+        tool: format!("pwmplan {}", env!("CARGO_PKG_VERSION")),
+        marker: MARKER_PLACEHOLDER.into(),
+        design: plan.design.clone(),
+        names: n,
+        timer,
+        fpu,
+        has_dead_time,
+        rationale_lines: Vec::new(),
+        init_steps,
+        summary,
+        constraints,
+        losses,
+        figures,
+        alternatives,
+        findings,
+        assumptions: plan.assumptions.clone(),
+        cautions: plan.cautions.clone(),
+        inputs,
+        conventions,
+    };
+    ctx.rationale_lines = rationale_lines(&ctx);
+    ctx
+}
+
+fn init_steps(n: &Names, t: &TimerLiterals, dead: bool) -> Vec<String> {
+    let m = &n.c_macro;
+    let mut s = vec![
+        "Stop the timer and hold the bridge outputs in their safe (off) state.".to_string(),
+        format!(
+            "Prescaler register <- {m}_DIVIDER_REG (divider {}).",
+            t.divider
+        ),
+        format!(
+            "Period (auto-reload) register <- {m}_PERIOD_REG ({} ticks per period).",
+            t.period_ticks
+        ),
+        format!(
+            "Counting mode <- {} (see {m}_CENTRE_ALIGNED).",
+            if t.centre_aligned {
+                "up-down (centre-aligned)"
+            } else {
+                "up (edge-aligned)"
+            }
+        ),
+    ];
+    if dead {
+        s.push(format!(
+            "Dead-time register <- {m}_DEAD_TIME_CODE ({} ticks, {} ns); write it before enabling complementary outputs.",
+            t.dead_time_ticks, t.dead_time_ns
+        ));
+    }
+    s.push(format!(
+        "Compare register(s) <- 0, then values from {}_compare_from_q16() only.",
+        n.c_function
+    ));
+    s.push("Enable preload of period and compare registers so updates take effect at the period boundary.".into());
+    s.push("Start the counter, then enable the outputs.".into());
+    s.into_iter()
+        .enumerate()
+        .map(|(i, step)| format!("{}. {step}", i + 1))
+        .collect()
+}
+
+/// The rationale block as plain lines (for C and Rust comment blocks).
+fn rationale_lines(c: &Context) -> Vec<String> {
+    let mut out = vec![
+        format!("{} plan for {} ({})", c.tool, c.design, c.marker),
+        String::new(),
+    ];
+    let width = |rows: &[Row]| {
+        rows.iter()
+            .map(|r| r.label.chars().count())
+            .max()
+            .unwrap_or(0)
+    };
+    let table = |out: &mut Vec<String>, title: &str, rows: &[Row]| {
+        if rows.is_empty() {
+            return;
+        }
+        out.push(title.to_string());
+        let w = width(rows);
+        for r in rows {
+            out.push(format!("  {:<w$}  {}", r.label, r.value));
+        }
+        out.push(String::new());
+    };
+    table(&mut out, "Chosen setting", &c.summary);
+    out.push("Constraints (limit, value, margin to the limit, status)".into());
+    let nw = c
+        .constraints
+        .iter()
+        .map(|k| k.name.len())
+        .max()
+        .unwrap_or(0);
+    let lw = c
+        .constraints
+        .iter()
+        .map(|k| k.limit.chars().count())
+        .max()
+        .unwrap_or(0);
+    let vw = c
+        .constraints
+        .iter()
+        .map(|k| k.value.chars().count())
+        .max()
+        .unwrap_or(0);
+    let mw = c
+        .constraints
+        .iter()
+        .map(|k| k.margin.chars().count())
+        .max()
+        .unwrap_or(0);
+    for k in &c.constraints {
+        out.push(format!(
+            "  {:<nw$}  {:>lw$}  {:>vw$}  {:>mw$}  {}",
+            k.name, k.limit, k.value, k.margin, k.status
+        ));
+    }
+    out.push(String::new());
+    table(
+        &mut out,
+        "Losses at the rated case (whole stage)",
+        &c.losses,
+    );
+    table(&mut out, "Operating figures", &c.figures);
+    table(&mut out, "Alternatives", &c.alternatives);
+    table(&mut out, "Findings", &c.findings);
+    out.push("Assumptions".into());
+    out.extend(c.assumptions.iter().map(|a| format!("  - {a}")));
+    out.push(String::new());
+    out.push("Cautions".into());
+    out.extend(c.cautions.iter().map(|a| format!("  - {a}")));
+    out.push(String::new());
+    table(&mut out, "Inputs", &c.inputs);
+    while out.last().is_some_and(|l| l.is_empty()) {
+        out.pop();
+    }
+    out
+}
+
+/// The template set: the bundled one, or a folder that overrides it.
+pub struct Templates {
+    hb: Handlebars<'static>,
+}
+
+impl Templates {
+    /// The bundled templates, or those of `dir` when given (every bundled
+    /// name must exist there).
+    pub fn load(dir: Option<&Path>) -> Result<Templates, EmitError> {
+        let mut hb = Handlebars::new();
+        hb.set_strict_mode(true);
+        hb.register_escape_fn(handlebars::no_escape);
+        for (name, text) in BUNDLED_TEMPLATES {
+            let text = match dir {
+                None => text.to_string(),
+                Some(d) => {
+                    let p = d.join(name);
+                    std::fs::read_to_string(&p).map_err(|e| EmitError::Template {
+                        file: p.display().to_string(),
+                        message: if e.kind() == std::io::ErrorKind::NotFound {
+                            format!(
+                                "missing; a template folder must hold all of {}",
+                                bundled_names()
+                            )
+                        } else {
+                            format!("cannot read it: {e}")
+                        },
+                    })?
+                }
+            };
+            hb.register_template_string(name, text)
+                .map_err(|e| EmitError::Template {
+                    file: dir
+                        .map(|d| d.join(name).display().to_string())
+                        .unwrap_or_else(|| name.to_string()),
+                    message: e.to_string(),
+                })?;
+        }
+        Ok(Templates { hb })
+    }
+
+    fn render(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
+        self.hb.render(name, ctx).map_err(|e| EmitError::Render {
+            template: name.to_string(),
+            message: e.to_string(),
+        })
+    }
+}
+
+fn bundled_names() -> String {
+    BUNDLED_TEMPLATES
+        .iter()
+        .map(|(n, _)| *n)
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
+/// Everything `plan` writes for a feasible plan.
+pub fn generate(
+    plan: &Plan,
+    fpu: bool,
+    c: bool,
+    rust: bool,
+    templates: &Templates,
+) -> Result<Vec<GeneratedFile>, EmitError> {
+    let ctx = context(plan, fpu);
+    let stem = &ctx.names.file_stem;
+    let mut files = Vec::new();
+    if c {
+        files.push(GeneratedFile {
+            name: format!("{stem}.h").into(),
+            text: seal(&templates.render("c_header.h.hbs", &ctx)?),
+        });
+    }
+    if rust {
+        files.push(GeneratedFile {
+            name: format!("{stem}.rs").into(),
+            text: seal(&templates.render("rust_module.rs.hbs", &ctx)?),
+        });
+    }
+    files.push(GeneratedFile {
+        name: "rationale.md".into(),
+        text: seal(&templates.render("rationale.md.hbs", &ctx)?),
+    });
+    files.push(GeneratedFile {
+        name: "plan.json".into(),
+        text: seal(&plan_json(plan)),
+    });
+    Ok(files)
+}
+
+/// `plan.json`: pretty, keys in declaration order, a final newline.
+pub fn plan_json(plan: &Plan) -> String {
+    let mut s =
+        serde_json::to_string_pretty(plan).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+    s.push('\n');
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn seal_and_verify() {
+        let text = format!("/* {MARKER_PLACEHOLDER} */\nint x;\n");
+        let sealed = seal(&text);
+        assert_eq!(is_untouched(&sealed), Some(true));
+        let edited = sealed.replace("int x;", "int y;");
+        assert_eq!(is_untouched(&edited), Some(false));
+        assert_eq!(is_untouched("no marker here"), None);
+    }
+
+    #[test]
+    fn names_are_cased() {
+        let n = names("belt-feeder");
+        assert_eq!(n.c_macro, "BELT_FEEDER_PWM");
+        assert_eq!(n.c_function, "belt_feeder_pwm");
+        assert_eq!(n.c_guard, "BELT_FEEDER_PWM_H");
+    }
+}

@@ -1,0 +1,533 @@
+//! The plan: the solver's answer as one typed, serialisable record with
+//! stable keys (documented in the README), from which every output is
+//! rendered. `plan.json` is this struct.
+//!
+//! **Invariant:** built from the design and the solution only; no I/O.
+
+use std::collections::BTreeMap;
+
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+
+use crate::design::Design;
+use crate::model::{self, DeviceFigures, Evaluator, LossFigures};
+use crate::physics::bootstrap::{self, BootstrapInputs};
+use crate::physics::deadtime;
+use crate::physics::params::Topology;
+use crate::solve::{Candidate, Objective, Solution};
+use crate::spec::{HighSideSupplySpec, TopologySpec};
+use crate::units::{Dimension, format_quantity};
+
+/// The conventions behind `timer.*`, stated once (also in the README).
+pub const CONVENTIONS: &[(&str, &str)] = &[
+    (
+        "frequency",
+        "frequency_hz = clock_hz / (divider * period_ticks)",
+    ),
+    (
+        "divider",
+        "the prescaler ratio: the counter runs at clock_hz / divider",
+    ),
+    (
+        "divider_register",
+        "linear prescaler: divider - 1; ratio list: the index of the ratio in the board's list",
+    ),
+    ("period_ticks", "counter ticks per PWM period"),
+    (
+        "period_register",
+        "edge-aligned: period_ticks - 1 (the counter counts 0..=period_register); centre-aligned: period_ticks / 2 (the counter counts up to it and back down)",
+    ),
+    (
+        "duty_steps",
+        "edge-aligned: period_ticks; centre-aligned: period_ticks / 2; a compare value of duty_steps is 100 % on",
+    ),
+    ("resolution_bits", "log2(duty_steps)"),
+    (
+        "dead_time",
+        "dead_time_s = dead_time_ticks / (clock_hz / dead-time clock_divider); dead_time_code is the register value that encodes it",
+    ),
+];
+
+/// The cautions every output carries.
+pub const CAUTIONS: &[&str] = &[
+    "Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.",
+    "Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.",
+    "Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.",
+    "Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.",
+    "Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.",
+];
+
+/// The modelling assumptions every output states.
+pub const ASSUMPTIONS: &[&str] = &[
+    "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
+    "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
+    "motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage",
+    "devices thermally independent, each with the board's junction-to-ambient path",
+    "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
+    "audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms",
+];
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Plan {
+    /// Tool and version, with the content-hash marker of this file.
+    pub generated: String,
+    pub design: String,
+    pub board: String,
+    pub switch: String,
+    pub topology: String,
+    pub objective: String,
+    pub feasible: bool,
+    pub conventions: BTreeMap<String, String>,
+    pub pwm: Pwm,
+    pub timer: TimerOut,
+    /// Whole stage at the rated case, W.
+    pub losses_w: LossFigures,
+    pub thermal: Thermal,
+    pub ripple: Ripple,
+    pub acoustic: Acoustic,
+    pub constraints: Vec<ConstraintOut>,
+    pub findings: Vec<FindingOut>,
+    pub devices: Vec<DeviceFigures>,
+    pub feasible_band_hz: Option<[f64; 2]>,
+    pub alternatives: Vec<AlternativeOut>,
+    /// When infeasible: why, and the nearest compromise.
+    pub conflict: Vec<String>,
+    pub cases: Vec<CaseOut>,
+    pub assumptions: Vec<String>,
+    pub cautions: Vec<String>,
+    pub inputs: Vec<InputOut>,
+    pub search: SearchOut,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Pwm {
+    pub frequency_hz: f64,
+    pub alignment: String,
+    /// Smallest and largest duty the timer may be given (fractions).
+    pub duty_min: f64,
+    pub duty_max: f64,
+    pub compare_min: u64,
+    pub compare_max: u64,
+    /// Channel duties the rated load needs over the supply range.
+    pub duty_needed: [f64; 2],
+    /// Output-voltage error from the dead time, V (at the nominal supply).
+    pub dead_time_voltage_error_v: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct TimerOut {
+    pub clock_hz: f64,
+    pub counter_bits: u32,
+    pub divider: u64,
+    pub divider_register: u64,
+    pub period_ticks: u64,
+    pub period_register: u64,
+    pub duty_steps: u64,
+    pub resolution_bits: f64,
+    pub dead_time_ticks: Option<u64>,
+    pub dead_time_code: Option<u32>,
+    pub dead_time_s: f64,
+    pub dead_time_need_s: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Thermal {
+    /// Hottest junction at the rated case (null on runaway).
+    pub junction_c: Option<f64>,
+    /// Hottest junction at the highest supply.
+    pub junction_high_bus_c: Option<f64>,
+    pub limit_c: f64,
+    pub ambient_c: f64,
+    pub r_th_ja_k_per_w: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Ripple {
+    /// Worst of the rated and high-bus cases, A.
+    pub peak_to_peak_a: f64,
+    pub continuous: bool,
+    pub mean_a: f64,
+    pub rms_a: f64,
+    pub ac_rms_a: f64,
+    pub frequency_hz: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct Acoustic {
+    pub lowest_audible_line_hz: Option<f64>,
+    /// A-weighted level of the in-band ripple lines, dB(A) re 1 A rms.
+    pub a_weighted_db: Option<f64>,
+    pub verdict: String,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct ConstraintOut {
+    pub name: String,
+    pub limit: f64,
+    pub value: Option<f64>,
+    pub margin: Option<f64>,
+    pub unit: String,
+    pub pass: bool,
+    pub binding: bool,
+    pub detail: String,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct FindingOut {
+    pub severity: String,
+    pub code: String,
+    pub message: String,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct AlternativeOut {
+    pub label: String,
+    pub frequency_hz: f64,
+    pub alignment: String,
+    pub divider: u64,
+    pub period_ticks: u64,
+    pub total_loss_w: f64,
+    pub junction_c: Option<f64>,
+    pub ripple_a: f64,
+    pub trade: String,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct CaseOut {
+    pub name: String,
+    pub v_bus_v: f64,
+    pub t_ambient_c: f64,
+    pub load_current_a: f64,
+    pub modulation: f64,
+    pub losses_w: LossFigures,
+    pub junction_c: Option<f64>,
+    pub ripple_peak_to_peak_a: f64,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct InputOut {
+    pub file: String,
+    pub sha256: String,
+    /// Every field of the file as written, by dotted path (for "what changed").
+    pub fields: BTreeMap<String, String>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SearchOut {
+    pub realisable_settings: usize,
+    pub evaluated_settings: usize,
+    pub pinned_frequency_hz: Option<f64>,
+}
+
+/// Hex SHA-256 of a text.
+pub fn sha256_hex(text: &str) -> String {
+    let digest = Sha256::digest(text.as_bytes());
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+/// Flatten a YAML text into dotted paths → scalar texts.
+pub fn flatten_fields(text: &str) -> BTreeMap<String, String> {
+    fn walk(prefix: &str, v: &serde_yaml::Value, out: &mut BTreeMap<String, String>) {
+        match v {
+            serde_yaml::Value::Mapping(m) => {
+                for (k, v) in m {
+                    let key = match k {
+                        serde_yaml::Value::String(s) => s.clone(),
+                        other => serde_yaml::to_string(other)
+                            .unwrap_or_default()
+                            .trim()
+                            .to_string(),
+                    };
+                    let p = if prefix.is_empty() {
+                        key
+                    } else {
+                        format!("{prefix}.{key}")
+                    };
+                    walk(&p, v, out);
+                }
+            }
+            serde_yaml::Value::Sequence(s) => {
+                for (i, v) in s.iter().enumerate() {
+                    walk(&format!("{prefix}[{i}]"), v, out);
+                }
+            }
+            serde_yaml::Value::String(s) => {
+                out.insert(prefix.to_string(), s.clone());
+            }
+            serde_yaml::Value::Tagged(t) => walk(prefix, &t.value, out),
+            other => {
+                let s = serde_yaml::to_string(other).unwrap_or_default();
+                out.insert(prefix.to_string(), s.trim().to_string());
+            }
+        }
+    }
+    let mut out = BTreeMap::new();
+    if let Ok(v) = serde_yaml::from_str::<serde_yaml::Value>(text) {
+        walk("", &v, &mut out);
+    }
+    out
+}
+
+fn topology_name(d: &Design) -> String {
+    match (d.board.stage.topology, d.board.stage.modulation) {
+        (TopologySpec::LowSide, _) => "low-side".into(),
+        (TopologySpec::HalfBridge, _) => "half-bridge".into(),
+        (TopologySpec::HBridge, Some(crate::spec::ModulationSpec::Bipolar)) => {
+            "h-bridge-bipolar".into()
+        }
+        (TopologySpec::HBridge, _) => "h-bridge-unipolar".into(),
+        (TopologySpec::ThreePhase, _) => "three-phase".into(),
+    }
+}
+
+fn objective_name(o: Objective) -> &'static str {
+    match o {
+        Objective::LeastLoss => "least-loss",
+        Objective::Quietest => "quietest",
+        Objective::CoolestJunction => "coolest-junction",
+    }
+}
+
+/// Findings at the chosen setting: ratings, runaway, conduction mode, dead
+/// time, bootstrap.
+fn findings(d: &Design, ev: &Evaluator, c: &Candidate) -> Vec<FindingOut> {
+    let mut out: Vec<FindingOut> = ev
+        .rating_findings(d)
+        .into_iter()
+        .map(|f| FindingOut {
+            severity: model::severity_name(f.severity).into(),
+            code: f.code.into(),
+            message: f.message,
+        })
+        .collect();
+    let mut add = |severity: &str, code: &str, message: String| {
+        out.push(FindingOut {
+            severity: severity.into(),
+            code: code.into(),
+            message,
+        })
+    };
+    for r in [&c.rated, &c.high_bus] {
+        if let Some(why) = &r.runaway {
+            add(
+                "error",
+                "thermal-runaway",
+                format!("{} case: {why}", r.case.name),
+            );
+        }
+    }
+    if !c.rated.ripple.continuous {
+        add("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into());
+    }
+    let f = c.setting.frequency_hz;
+    if ev.needs_dead_time() {
+        let v_err = deadtime::dead_time_voltage_error_v(
+            ev.stage.topology,
+            c.dead_time.seconds,
+            f,
+            ev.rated.v_bus_v,
+        );
+        add(
+            "info",
+            "dead-time-voltage-error",
+            format!(
+                "the dead time costs {} of mean output voltage ({:.2} % of the nominal supply), opposing the current",
+                format_quantity(v_err, Dimension::Voltage, 3),
+                100.0 * v_err / ev.rated.v_bus_v
+            ),
+        );
+    }
+    if let Some(HighSideSupplySpec::Bootstrap {
+        capacitor,
+        load_current,
+        ..
+    }) = &d.board.gate_driver.high_side
+    {
+        let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs {
+            q_g_c: ev.stage.switch.q_g_c * ev.stage.drive.v_drive_v / ev.stage.switch.q_g_at_v_gs_v,
+            i_leak_a: load_current.si,
+            i_quiescent_a: 0.0,
+            d_max: c.duty_needed.1.clamp(0.0, 1.0),
+            f_sw_hz: f,
+            // 10 % droop of the drive voltage (common practice).
+            delta_v_v: 0.1 * ev.stage.drive.v_drive_v,
+            v_drive_v: ev.stage.drive.v_drive_v,
+        });
+        if let Some(s) = sizing
+            && capacitor.si < s.c_recommended_f
+        {
+            add(
+                "warning",
+                "bootstrap-capacitor-small",
+                format!(
+                    "bootstrap capacitor {} is below the {} needed for 10 % droop at this frequency and duty",
+                    format_quantity(capacitor.si, Dimension::Capacitance, 3),
+                    format_quantity(s.c_recommended_f, Dimension::Capacitance, 3)
+                ),
+            );
+        }
+    }
+    if matches!(ev.stage.topology, Topology::LowSide)
+        && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
+    {
+        add(
+            "info",
+            "no-full-on",
+            "100 % duty is not used: the compare limit keeps a minimum off-pulse each period"
+                .into(),
+        );
+    }
+    // Errors first, then warnings, then information; stable within each.
+    out.sort_by_key(|f| match f.severity.as_str() {
+        "error" => 0,
+        "warning" => 1,
+        _ => 2,
+    });
+    out
+}
+
+/// Build the plan of a solved design. `None` when the solution has no
+/// candidate at all (nothing in the band could be evaluated).
+pub fn build(d: &Design, ev: &Evaluator, sol: &Solution, pinned_hz: Option<f64>) -> Option<Plan> {
+    let c = sol.chosen.as_ref()?;
+    let worst_ripple = if c.high_bus.ripple.peak_to_peak_a >= c.rated.ripple.peak_to_peak_a {
+        &c.high_bus
+    } else {
+        &c.rated
+    };
+    let limits = c.duty_limits;
+    let v_err = if ev.needs_dead_time() {
+        deadtime::dead_time_voltage_error_v(
+            ev.stage.topology,
+            c.dead_time.seconds,
+            c.setting.frequency_hz,
+            ev.rated.v_bus_v,
+        )
+    } else {
+        0.0
+    };
+    Some(Plan {
+        generated: format!(
+            "pwmplan {} {}",
+            env!("CARGO_PKG_VERSION"),
+            crate::emit::MARKER_PLACEHOLDER
+        ),
+        design: d.spec.name.clone(),
+        board: d.board.name.clone(),
+        switch: d.switch.name.clone(),
+        topology: topology_name(d),
+        objective: objective_name(sol.objective).into(),
+        feasible: sol.feasible,
+        conventions: CONVENTIONS
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect(),
+        pwm: Pwm {
+            frequency_hz: c.setting.frequency_hz,
+            alignment: c.setting.alignment.into(),
+            duty_min: limits.map(|l| l.min_duty).unwrap_or(0.0),
+            duty_max: limits.map(|l| l.max_duty).unwrap_or(0.0),
+            compare_min: limits.map(|l| l.min_counts).unwrap_or(0),
+            compare_max: limits.map(|l| l.max_counts).unwrap_or(0),
+            duty_needed: [c.duty_needed.0, c.duty_needed.1],
+            dead_time_voltage_error_v: v_err,
+        },
+        timer: TimerOut {
+            clock_hz: ev.timer.clock_hz,
+            counter_bits: ev.timer.counter_bits,
+            divider: c.setting.divider,
+            divider_register: c.setting.divider_register,
+            period_ticks: c.setting.period_ticks,
+            period_register: c.setting.period_register,
+            duty_steps: c.setting.duty_steps,
+            resolution_bits: c.setting.resolution_bits,
+            dead_time_ticks: c.dead_time.ticks,
+            dead_time_code: c.dead_time.code,
+            dead_time_s: c.dead_time.seconds,
+            dead_time_need_s: c.dead_time.need_s,
+        },
+        losses_w: c.rated.losses.clone(),
+        thermal: Thermal {
+            junction_c: c.rated.junction_c,
+            junction_high_bus_c: c.high_bus.junction_c,
+            limit_c: ev.limits.t_j_max_c,
+            ambient_c: ev.rated.t_ambient_c,
+            r_th_ja_k_per_w: ev.stage.thermal.r_th_ja_k_per_w,
+        },
+        ripple: Ripple {
+            peak_to_peak_a: worst_ripple.ripple.peak_to_peak_a,
+            continuous: c.rated.ripple.continuous && c.high_bus.ripple.continuous,
+            mean_a: c.rated.ripple.mean_a,
+            rms_a: c.rated.ripple.rms_a,
+            ac_rms_a: c.rated.ripple.ac_rms_a,
+            frequency_hz: c.rated.ripple.frequency_hz,
+        },
+        acoustic: Acoustic {
+            lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
+            a_weighted_db: c.rated.acoustic.a_weighted_db,
+            verdict: c.rated.acoustic.reason.clone(),
+        },
+        constraints: c
+            .checks
+            .iter()
+            .map(|k| ConstraintOut {
+                name: k.name.into(),
+                limit: k.limit,
+                value: k.value,
+                margin: k.margin,
+                unit: k.unit.into(),
+                pass: k.pass,
+                binding: k.binding,
+                detail: k.detail.clone(),
+            })
+            .collect(),
+        findings: findings(d, ev, c),
+        devices: c.rated.devices.clone(),
+        feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
+        alternatives: sol
+            .alternatives
+            .iter()
+            .map(|a| AlternativeOut {
+                label: a.label.into(),
+                frequency_hz: a.candidate.setting.frequency_hz,
+                alignment: a.candidate.setting.alignment.into(),
+                divider: a.candidate.setting.divider,
+                period_ticks: a.candidate.setting.period_ticks,
+                total_loss_w: a.candidate.rated.losses.total,
+                junction_c: a.candidate.rated.junction_c,
+                ripple_a: a.candidate.high_bus.ripple.peak_to_peak_a,
+                trade: a.trade.clone(),
+            })
+            .collect(),
+        conflict: sol.conflict.clone(),
+        cases: [&c.rated, &c.high_bus]
+            .iter()
+            .map(|r| CaseOut {
+                name: r.case.name.into(),
+                v_bus_v: r.case.v_bus_v,
+                t_ambient_c: r.case.t_ambient_c,
+                load_current_a: r.case.load_current_a,
+                modulation: r.modulation,
+                losses_w: r.losses.clone(),
+                junction_c: r.junction_c,
+                ripple_peak_to_peak_a: r.ripple.peak_to_peak_a,
+            })
+            .collect(),
+        assumptions: ASSUMPTIONS.iter().map(|s| s.to_string()).collect(),
+        cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
+        inputs: d
+            .sources
+            .iter()
+            .map(|s| InputOut {
+                file: s.origin.display(),
+                sha256: sha256_hex(&s.text),
+                fields: flatten_fields(&s.text),
+            })
+            .collect(),
+        search: SearchOut {
+            realisable_settings: sol.realisable,
+            evaluated_settings: sol.evaluated,
+            pinned_frequency_hz: pinned_hz,
+        },
+    })
+}
