@@ -409,6 +409,11 @@ pub fn assess(
     Ok(v)
 }
 
+/// A frequency as people read it ("20.0 kHz").
+fn hz(f: f64) -> String {
+    crate::units::format_quantity(f, crate::units::Dimension::Frequency, 4)
+}
+
 /// Verdict from a given set of lines (the lowest line is taken from the lines, never assumed).
 pub fn assess_lines(
     lines: &[Line],
@@ -438,19 +443,21 @@ pub fn assess_lines(
         (AudibleMode::Allowed, _) => (true, "audible noise allowed".to_string()),
         (AudibleMode::Inaudible { .. }, None) => (
             true,
-            format!("no significant line at or below {limit_hz:.0} Hz"),
+            format!("no significant line at or below {}", hz(limit_hz)),
         ),
         (AudibleMode::Inaudible { .. }, Some(f)) => (
             false,
             format!(
-                "significant line at {f:.1} Hz is at or below the hearing limit {limit_hz:.0} Hz"
+                "significant line at {} is at or below the hearing limit {}",
+                hz(f),
+                hz(limit_hz)
             ),
         ),
         (AudibleMode::AvoidBands { .. }, _) => match lines_in_avoided_bands.first() {
             None => (true, "no significant line in the avoided bands".to_string()),
             Some(f) => (
                 false,
-                format!("significant line at {f:.1} Hz lies in an avoided band"),
+                format!("significant line at {} lies in an avoided band", hz(*f)),
             ),
         },
     };
