@@ -8,7 +8,7 @@
 
 use crate::bundled::{self, Kind};
 use crate::diagnostic::InputError;
-use crate::load::{Origin, SourceFile};
+use crate::load::{self, Origin, SourceFile};
 use crate::spec::*;
 use crate::units::{Dimension, format_quantity};
 
@@ -45,6 +45,9 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
             e
         }
     })?;
+    if let Some(m) = board_src.kind_mismatch::<BoardFile>() {
+        return Err(design_src.error("design.board", m.describe(&board_src.origin.display())));
+    }
     let board_file: BoardFile = board_src.parse()?;
     let board = board_file.board;
 
@@ -90,6 +93,9 @@ fn load_switch_from(
             e
         }
     })?;
+    if let Some(m) = src.kind_mismatch::<SwitchFile>() {
+        return Err(from.error(field, m.describe(&src.origin.display())));
+    }
     let file: SwitchFile = src.parse()?;
     check_switch(&file.switch, &src, "switch")?;
     Ok((file.switch, src))
@@ -108,7 +114,7 @@ pub fn switch_origin(arg: &str) -> Result<Origin, InputError> {
     match arg.strip_prefix("bundled:") {
         Some(name) => bundled::find(name, Kind::Switch)
             .map(|p| Origin::Bundled(p.to_string()))
-            .ok_or_else(|| InputError::file(arg, format!("no bundled switch named \"{name}\""))),
+            .ok_or_else(|| InputError::file(arg, load::no_bundled(name, Kind::Switch))),
         None => Ok(Origin::Disk(arg.into())),
     }
 }
@@ -389,7 +395,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     if s.v_th.typ.si >= s.v_gs_max.si {
         return Err(c.fail(
             "v_th.typ",
-            "V_th is not below v_gs_max; expected V_th < V_GS max",
+            format!(
+                "{} is not below v_gs_max ({}); expected V_th < V_GS max",
+                fmt(s.v_th.typ.si, V),
+                fmt(s.v_gs_max.si, V)
+            ),
         ));
     }
     c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?;

@@ -34,7 +34,9 @@ impl InputError {
         }
     }
 
-    /// An error at a position in `text`.
+    /// An error at a position in `text`. A position past the end of the
+    /// text (the parser ran off the last line) moves to the end of the last
+    /// line that holds something, so the caret still has a line to sit under.
     pub fn at(
         file: impl Into<String>,
         text: &str,
@@ -42,6 +44,7 @@ impl InputError {
         field: impl Into<String>,
         message: impl Into<String>,
     ) -> InputError {
+        let position = position.map(|p| clamp_to_text(text, p));
         let source_line = position.and_then(|p| text.lines().nth(p.line.saturating_sub(1)));
         InputError {
             file: file.into(),
@@ -50,6 +53,21 @@ impl InputError {
             message: message.into(),
             source_line: source_line.map(|s| s.trim_end().to_string()),
         }
+    }
+}
+
+/// `p`, or just after the last non-blank line's text when `p` lies past it.
+fn clamp_to_text(text: &str, p: Position) -> Position {
+    let lines: Vec<&str> = text.lines().collect();
+    if p.line <= lines.len() && p.line >= 1 {
+        return p;
+    }
+    match lines.iter().rposition(|l| !l.trim().is_empty()) {
+        Some(i) => Position {
+            line: i + 1,
+            column: lines[i].trim_end().chars().count() + 1,
+        },
+        None => p,
     }
 }
 
@@ -80,16 +98,44 @@ impl fmt::Display for InputError {
 
 impl std::error::Error for InputError {}
 
-/// The closest of `candidates` to `word` by edit distance, when close enough
-/// to be a likely slip (distance ≤ a third of the word, at least 1).
+/// The closest of `candidates` to `word`, when close enough to be a likely
+/// slip (edit distance ≤ a third of the word, at least 1). A swap of two
+/// neighbours wins over other slips of the same distance; then the nearer,
+/// then the first alphabetically.
 pub fn did_you_mean<'a>(word: &str, candidates: &[&'a str]) -> Option<&'a str> {
+    suggest_field(word, candidates, &[])
+}
+
+/// [`did_you_mean`] for a mapping key: among the close candidates, prefer a
+/// swap of two neighbours (`q_dg` → `q_gd`), then a field not yet `present`
+/// in the mapping (the misspelt key most likely stands for a missing one),
+/// then the smaller edit distance, then alphabetical order.
+pub fn suggest_field<'a>(word: &str, candidates: &[&'a str], present: &[&str]) -> Option<&'a str> {
+    let word_l = word.to_lowercase();
     let limit = (word.chars().count() / 3).max(1);
     candidates
         .iter()
-        .map(|c| (edit_distance(&word.to_lowercase(), &c.to_lowercase()), *c))
-        .filter(|(d, _)| *d <= limit)
-        .min_by_key(|(d, c)| (*d, *c))
+        .filter_map(|c| {
+            let c_l = c.to_lowercase();
+            let d = edit_distance(&word_l, &c_l);
+            (d <= limit).then(|| {
+                let rank = (!is_transposition(&word_l, &c_l), present.contains(c), d, *c);
+                (rank, *c)
+            })
+        })
+        .min_by(|a, b| a.0.cmp(&b.0))
         .map(|(_, c)| c)
+}
+
+/// Whether `b` is `a` with exactly two neighbouring characters swapped.
+pub fn is_transposition(a: &str, b: &str) -> bool {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    if a.len() != b.len() {
+        return false;
+    }
+    let diff: Vec<usize> = (0..a.len()).filter(|&i| a[i] != b[i]).collect();
+    matches!(diff.as_slice(), [i, j] if *j == i + 1 && a[*i] == b[*j] && a[*j] == b[*i])
 }
 
 /// Levenshtein distance, counting a swap of two neighbours as one edit
@@ -147,5 +193,44 @@ mod tests {
         );
         assert_eq!(did_you_mean("zzzz", &["q_g", "q_gd"]), None);
         assert_eq!(edit_distance("ab", "ba"), 1);
+    }
+
+    #[test]
+    fn a_swap_beats_a_deletion_of_the_same_distance() {
+        // Both are one edit from `q_dg`; alphabetical order alone picks `q_g`.
+        assert_eq!(edit_distance("q_dg", "q_g"), 1);
+        assert_eq!(edit_distance("q_dg", "q_gd"), 1);
+        assert_eq!(did_you_mean("q_dg", &["q_g", "q_gd"]), Some("q_gd"));
+        assert!(is_transposition("q_dg", "q_gd"));
+        assert!(!is_transposition("q_dg", "q_g"));
+        assert!(!is_transposition("abc", "cba"));
+    }
+
+    #[test]
+    fn a_missing_field_beats_a_present_one() {
+        // `v_tj` is one edit from both; `v_th` is already in the mapping.
+        let present = ["v_th"];
+        assert_eq!(
+            suggest_field("v_tj", &["v_th", "v_tz"], &present),
+            Some("v_tz")
+        );
+        assert_eq!(suggest_field("v_tj", &["v_th", "v_tz"], &[]), Some("v_th"));
+    }
+
+    #[test]
+    fn a_position_past_the_end_moves_to_the_last_line() {
+        let text = "a: [1,\n  2\n\n";
+        let e = InputError::at(
+            "f.yaml",
+            text,
+            Some(Position { line: 4, column: 1 }),
+            "a",
+            "unclosed",
+        );
+        assert_eq!(e.position, Some(Position { line: 2, column: 4 }));
+        assert_eq!(
+            e.to_string(),
+            "f.yaml:2:4: a: unclosed\n 2 |   2\n   |    ^"
+        );
     }
 }

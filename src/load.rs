@@ -6,10 +6,11 @@
 
 use std::path::{Component, Path, PathBuf};
 
+use serde::Deserialize;
 use serde::de::DeserializeOwned;
 
 use crate::bundled;
-use crate::diagnostic::{InputError, did_you_mean};
+use crate::diagnostic::{InputError, did_you_mean, suggest_field};
 use crate::locate::{Locator, Position};
 
 /// Where a file comes from.
@@ -38,24 +39,7 @@ impl Origin {
         if let Some(name) = reference.strip_prefix("bundled:") {
             return bundled::find(name, kind)
                 .map(|p| Origin::Bundled(p.to_string()))
-                .ok_or_else(|| {
-                    let names = bundled::names(kind);
-                    match did_you_mean(name, &names) {
-                        Some(s) => format!(
-                            "no bundled {} named \"{name}\"; did you mean \"bundled:{s}\"?",
-                            kind.noun()
-                        ),
-                        None => format!(
-                            "no bundled {} named \"{name}\"; expected one of: {}",
-                            kind.noun(),
-                            names
-                                .iter()
-                                .map(|n| format!("bundled:{n}"))
-                                .collect::<Vec<_>>()
-                                .join(", ")
-                        ),
-                    }
-                });
+                .ok_or_else(|| no_bundled(name, kind));
         }
         let rel = Path::new(reference);
         if reference.trim().is_empty() {
@@ -91,6 +75,35 @@ impl Origin {
             }
         }
     }
+}
+
+/// Why `bundled:NAME` names no bundled file of `kind`, with the nearest
+/// name when one is close. A switch may be named with or without its
+/// `switches/` folder, so both spellings are compared.
+pub fn no_bundled(name: &str, kind: bundled::Kind) -> String {
+    let full = bundled::names(kind);
+    let short: Vec<&str> = full.iter().map(|n| without_folder(n)).collect();
+    // The spelling the user chose (with or without the folder) is offered back.
+    let pool = if name.contains('/') { &full } else { &short };
+    match did_you_mean(name.trim(), pool) {
+        Some(s) => format!(
+            "no bundled {} named \"{name}\"; did you mean \"bundled:{s}\"?",
+            kind.noun()
+        ),
+        None => format!(
+            "no bundled {} named \"{name}\"; expected one of: {}",
+            kind.noun(),
+            short
+                .iter()
+                .map(|n| format!("bundled:{n}"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+    }
+}
+
+fn without_folder(name: &str) -> &str {
+    name.rsplit('/').next().unwrap_or(name)
 }
 
 /// One input file, read, with the positions of its fields.
@@ -142,12 +155,44 @@ impl SourceFile {
     }
 
     /// Deserialise the whole file into `T`, mapping every failure to an
-    /// [`InputError`] at the place the deserialiser stopped.
+    /// [`InputError`] at the place it concerns. YAML syntax is checked first,
+    /// so a syntax error is not hidden behind a field error from the part
+    /// the deserialiser read before it.
     pub fn parse<T: DeserializeOwned>(&self) -> Result<T, InputError> {
+        let top = top_key::<T>();
+        let expect_top = top.as_deref().map_or("expected YAML".to_string(), |k| {
+            format!("expected a top-level `{k}:` key")
+        });
         if self.text.trim().is_empty() {
             return Err(InputError::file(
                 self.origin.display(),
-                "the file is empty; expected YAML",
+                format!("the file is empty; {expect_top}"),
+            ));
+        }
+        if let Some(p) = self.locator.problem()
+            && (p.duplicate || !is_yaml(&self.text))
+        {
+            return Err(InputError::at(
+                self.origin.display(),
+                &self.text,
+                Some(p.position),
+                p.field.clone(),
+                p.message.clone(),
+            ));
+        }
+        if self.locator.problem().is_none() && !self.locator.has_content() {
+            return Err(InputError::file(
+                self.origin.display(),
+                format!("the file has no content; {expect_top}"),
+            ));
+        }
+        if let Some(m) = self.kind_mismatch::<T>() {
+            return Err(InputError::at(
+                self.origin.display(),
+                &self.text,
+                Some(m.position),
+                "",
+                m.describe("this"),
             ));
         }
         // Enums are written as one-key maps (`linear: { min: 1, max: 8 }`)
@@ -156,15 +201,74 @@ impl SourceFile {
         serde_yaml::with::singleton_map_recursive::deserialize(de).map_err(|e| self.convert(&e))
     }
 
+    /// When `T` is one file kind (top-level `design:`, `board:` or
+    /// `switch:`) and this file is plainly another, what each is.
+    pub fn kind_mismatch<T: DeserializeOwned>(&self) -> Option<KindMismatch> {
+        let expected = top_key::<T>()?;
+        let tops = self.locator.children("");
+        if tops.contains(&expected.as_str()) {
+            return None;
+        }
+        let found = tops
+            .into_iter()
+            .find(|k| KIND_KEYS.contains(k) && *k != expected)?;
+        Some(KindMismatch {
+            found: found.to_string(),
+            expected,
+            position: self.locator.key(found)?,
+        })
+    }
+
     fn convert(&self, e: &serde_yaml::Error) -> InputError {
         let position = e.location().map(|l| Position {
             line: l.line(),
             column: l.column(),
         });
         let (path, message) = split_yaml_message(&e.to_string());
-        let (field, message) = refine(&path, &message);
+        let present = self.locator.children(&path);
+        let (field, message) = refine(&path, &message, &present);
         InputError::at(self.origin.display(), &self.text, position, field, message)
     }
+}
+
+/// The top-level keys that name a file kind.
+const KIND_KEYS: [&str; 3] = ["design", "board", "switch"];
+
+/// A file of one kind where another was expected.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct KindMismatch {
+    /// Top-level key found (`board`).
+    pub found: String,
+    /// Top-level key expected (`design`).
+    pub expected: String,
+    /// Where the found key stands.
+    pub position: Position,
+}
+
+impl KindMismatch {
+    /// The sentence with `subject` (`this`, or the file's name) as subject.
+    pub fn describe(&self, subject: &str) -> String {
+        format!(
+            "{subject} is a {} file; expected a {} file (top-level key `{}:`)",
+            self.found, self.expected, self.expected
+        )
+    }
+}
+
+/// The one top-level key a file struct `T` requires, read from the error
+/// `T` gives for an empty mapping (`missing field `design``), so each file
+/// kind names itself without a table to keep in step.
+fn top_key<T: DeserializeOwned>() -> Option<String> {
+    let e = serde_yaml::from_str::<T>("{}").err()?.to_string();
+    let rest = e.split_once("missing field `")?.1;
+    Some(rest.split_once('`')?.0.to_string())
+}
+
+/// Whether the lenient parser the deserialiser uses accepts `text` as YAML.
+/// The stricter indexing parser's complaint is reported only when both
+/// agree the text is broken.
+fn is_yaml(text: &str) -> bool {
+    serde::de::IgnoredAny::deserialize(serde_yaml::Deserializer::from_str(text)).is_ok()
 }
 
 /// Split serde_yaml's `path: message at line L column C` into path and message.
@@ -195,8 +299,9 @@ fn split_yaml_message(raw: &str) -> (String, String) {
 }
 
 /// Turn serde's wording into ours: the field path gets the missing or unknown
-/// key appended, and unknown keys and variants get a suggestion.
-fn refine(path: &str, message: &str) -> (String, String) {
+/// key appended, unknown keys and variants get a suggestion (`present`: the
+/// keys already in the mapping), and Rust type names become words.
+fn refine(path: &str, message: &str, present: &[&str]) -> (String, String) {
     let join = |key: &str| {
         if path.is_empty() {
             key.to_string()
@@ -208,7 +313,8 @@ fn refine(path: &str, message: &str) -> (String, String) {
         && let Some((key, expected)) = rest.split_once('`')
     {
         let choices = backticked(expected);
-        let hint = match did_you_mean(key, &choices) {
+        let others: Vec<&str> = present.iter().copied().filter(|k| *k != key).collect();
+        let hint = match suggest_field(key, &choices, &others) {
             Some(s) => format!("unknown field; did you mean `{s}`?"),
             None => format!("unknown field; expected one of {}", list(&choices)),
         };
@@ -229,7 +335,129 @@ fn refine(path: &str, message: &str) -> (String, String) {
     {
         return (join(key), "missing; this field is required".to_string());
     }
-    (path.to_string(), message.to_string())
+    if let Some(rest) = message.strip_prefix("duplicate field `")
+        && let Some((key, _)) = rest.split_once('`')
+    {
+        return (join(key), format!("duplicate key `{key}`"));
+    }
+    (path.to_string(), plain_types(message))
+}
+
+/// serde's `invalid type: FOUND, expected WHAT` (and `invalid value`,
+/// `invalid length`) in plain words: `expected WHAT, found FOUND`, with Rust
+/// type names replaced by what the user writes.
+fn plain_types(message: &str) -> String {
+    let Some((head, expected)) = message.split_once(", expected ") else {
+        return message.to_string();
+    };
+    let expected_words = plain_expected(expected);
+    if let Some(found) = head.strip_prefix("invalid type: ") {
+        if found == "unit value" {
+            return format!("empty value; expected {expected_words}");
+        }
+        if let Some(n) = negative_integer(found)
+            && unsigned_max(expected).is_some()
+        {
+            return format!("expected a whole number ≥ 0, found {n}");
+        }
+        return format!("expected {expected_words}, found {}", plain_found(found));
+    }
+    if let Some(found) = head.strip_prefix("invalid value: ") {
+        let number = found
+            .strip_prefix("integer `")
+            .and_then(|n| n.strip_suffix('`'));
+        if let (Some(n), Some(max)) = (number, unsigned_max(expected)) {
+            return if n.starts_with('-') {
+                format!("expected a whole number ≥ 0, found {n}")
+            } else {
+                format!("expected a whole number from 0 to {max}, found {n}")
+            };
+        }
+        return format!("expected {expected_words}, found {}", plain_found(found));
+    }
+    if let Some(n) = head.strip_prefix("invalid length ") {
+        return format!("expected {expected_words}, found {n} item{}", plural(n));
+    }
+    message.to_string()
+}
+
+/// The number in serde's ``integer `-3` `` when it is negative.
+fn negative_integer(found: &str) -> Option<&str> {
+    let n = found.strip_prefix("integer `")?.strip_suffix('`')?;
+    n.starts_with('-').then_some(n)
+}
+
+fn plural(n: &str) -> &'static str {
+    if n == "1" { "" } else { "s" }
+}
+
+/// The largest value of an unsigned Rust integer type named in a message.
+fn unsigned_max(ty: &str) -> Option<u64> {
+    Some(match ty {
+        "u8" => u8::MAX.into(),
+        "u16" => u16::MAX.into(),
+        "u32" => u32::MAX.into(),
+        "u64" | "usize" => u64::MAX,
+        _ => return None,
+    })
+}
+
+/// serde's name for what it wanted, in the words a file's author uses.
+fn plain_expected(expected: &str) -> String {
+    match expected {
+        "u8" | "u16" | "u32" | "u64" | "usize" | "i8" | "i16" | "i32" | "i64" | "isize" => {
+            return "a whole number such as 16".into();
+        }
+        "f32" | "f64" => return "a number such as 10".into(),
+        "a boolean" => return "`true` or `false`".into(),
+        "a string" => return "a text value".into(),
+        "a sequence" => return "a list such as `[a, b]`".into(),
+        _ => {}
+    }
+    if let Some(name) = expected.strip_prefix("struct ") {
+        return match name.strip_suffix("File") {
+            Some(kind) => format!(
+                "a mapping with the top-level key `{}:`",
+                kind.to_lowercase()
+            ),
+            None => "a mapping of `key: value` fields".into(),
+        };
+    }
+    if expected.starts_with("enum ") {
+        return "one of the listed words".into();
+    }
+    if let Some(n) = expected
+        .strip_prefix("a tuple of size ")
+        .or_else(|| expected.strip_prefix("tuple of "))
+        .map(|n| n.trim_end_matches(" elements"))
+    {
+        return format!("a list of {n} items such as `[a, b]`");
+    }
+    expected.to_string()
+}
+
+/// serde's description of what it found, in plain words.
+fn plain_found(found: &str) -> String {
+    match found {
+        "sequence" => return "a list".into(),
+        "map" => return "a mapping".into(),
+        "unit value" => return "an empty value".into(),
+        _ => {}
+    }
+    for (prefix, words) in [
+        ("integer ", "the number "),
+        ("floating point ", "the number "),
+    ] {
+        if let Some(rest) = found.strip_prefix(prefix) {
+            return format!("{words}{}", rest.trim_matches('`'));
+        }
+    }
+    for (prefix, words) in [("boolean ", ""), ("string ", "the text ")] {
+        if let Some(rest) = found.strip_prefix(prefix) {
+            return format!("{words}{rest}");
+        }
+    }
+    found.to_string()
 }
 
 fn backticked(text: &str) -> Vec<&str> {
@@ -270,8 +498,62 @@ mod tests {
         let (f, m) = refine(
             "switch",
             "unknown field `q_gdd`, expected one of `q_g`, `q_gd`, `n`",
+            &["q_g", "q_gdd"],
         );
         assert_eq!(f, "switch.q_gdd");
         assert_eq!(m, "unknown field; did you mean `q_gd`?");
+    }
+
+    #[test]
+    fn rust_type_names_become_words() {
+        let cases = [
+            (
+                "invalid type: string \"x\", expected u32",
+                "expected a whole number such as 16, found the text \"x\"",
+            ),
+            (
+                "invalid type: floating point `1.5`, expected u32",
+                "expected a whole number such as 16, found the number 1.5",
+            ),
+            (
+                "invalid value: integer `-3`, expected u32",
+                "expected a whole number ≥ 0, found -3",
+            ),
+            (
+                "invalid type: integer `-16`, expected u32",
+                "expected a whole number ≥ 0, found -16",
+            ),
+            (
+                "invalid value: integer `5000000000`, expected u32",
+                "expected a whole number from 0 to 4294967295, found 5000000000",
+            ),
+            (
+                "invalid type: string \"x\", expected f64",
+                "expected a number such as 10, found the text \"x\"",
+            ),
+            (
+                "invalid type: sequence, expected struct DesignFile",
+                "expected a mapping with the top-level key `design:`, found a list",
+            ),
+            (
+                "invalid type: unit value, expected a voltage such as \"12 V\"",
+                "empty value; expected a voltage such as \"12 V\"",
+            ),
+        ];
+        for (serde, ours) in cases {
+            assert_eq!(refine("a", serde, &[]).1, ours, "for {serde:?}");
+        }
+    }
+
+    #[test]
+    fn bundled_switch_suggestion_ignores_the_folder() {
+        assert_eq!(
+            no_bundled("tarn-4", bundled::Kind::Switch),
+            "no bundled switch named \"tarn-4\"; did you mean \"bundled:tarn-40\"?"
+        );
+        assert_eq!(
+            no_bundled("switches/tarn-4", bundled::Kind::Switch),
+            "no bundled switch named \"switches/tarn-4\"; did you mean \"bundled:switches/tarn-40\"?"
+        );
     }
 }

@@ -164,7 +164,7 @@ impl Dimension {
     }
 
     /// The name with its indefinite article, e.g. "an inductance".
-    fn with_article(self) -> String {
+    pub fn with_article(self) -> String {
         let name = self.name();
         let vowel = name.starts_with(['a', 'e', 'i', 'o', 'u']);
         format!("{} {name}", if vowel { "an" } else { "a" })

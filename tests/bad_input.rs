@@ -159,7 +159,8 @@ fn bundled_designs_are_valid() {
 
 // ------------------------------------------------------------------ cases
 
-/// A `[` left open: the parser stops at the next line and names where the sequence began.
+/// A `[` left open: the caret goes where the `]` is missing, and the message
+/// names where the sequence began (the line holds several `[`).
 #[test]
 fn yaml_unclosed_flow_sequence() {
     bad_input(
@@ -170,9 +171,9 @@ fn yaml_unclosed_flow_sequence() {
             r#"["175 °C", 1.78]"#,
         )],
         r#"
-error: switches/tarn-40.yaml:10:3: did not find expected ',' or ']', while parsing a flow sequence at line 9 column 13
- 10 |   v_th: { min: "2.0 V", typ: "3.0 V", max: "4.0 V" }
-    |   ^
+error: switches/tarn-40.yaml:9:99: switch.r_ds_on_vs_temperature.points: unclosed `[` (opened at line 9, column 13); add the missing `]`
+ 9 |     points: [["-40 °C", 0.75], ["25 °C", 1.0], ["75 °C", 1.22], ["125 °C", 1.48], ["175 °C", 1.78]
+   |                                                                                                   ^
 "#,
     );
 }
@@ -188,14 +189,14 @@ fn yaml_unclosed_flow_mapping() {
             r#"ambient: { min: "-10 °C", max: "55 °C""#,
         )],
         r#"
-error: belt-feeder.yaml:14:3: did not find expected ',' or '}', while parsing a flow mapping at line 13 column 12
- 14 |   constraints:
-    |   ^
+error: belt-feeder.yaml:13:41: design.ambient: unclosed `{` (opened at line 13, column 12); add the missing `}`
+ 13 |   ambient: { min: "-10 °C", max: "55 °C"
+    |                                         ^
 "#,
     );
 }
 
-/// A key indented deeper than its siblings.
+/// A key indented deeper than its siblings: the valid indentations are named.
 #[test]
 fn yaml_key_indented_too_deep() {
     bad_input(
@@ -206,14 +207,14 @@ fn yaml_key_indented_too_deep() {
             "      counter_bits: 16",
         )],
         r#"
-error: wren-hb24.yaml:6:7: did not find expected key, while parsing a block mapping at line 5 column 5
+error: wren-hb24.yaml:6:7: bad indentation: `counter_bits` is indented 6 spaces, which lines up with no key above it; indent it 4 (a key of `timer`), 2 (a key of `board`) or 0 (a top-level key)
  6 |       counter_bits: 16
    |       ^
 "#,
     );
 }
 
-/// A top-level design key indented by one space only.
+/// A design key indented by one space only (under-indented).
 #[test]
 fn yaml_key_indented_between_levels() {
     bad_input(
@@ -224,7 +225,7 @@ fn yaml_key_indented_between_levels() {
             " objective: least-loss",
         )],
         r#"
-error: belt-feeder.yaml:21:2: did not find expected key, while parsing a block mapping at line 2 column 1
+error: belt-feeder.yaml:21:2: bad indentation: `objective` is indented 1 space, which lines up with no key above it; indent it 4 (a key of `constraints`), 2 (a key of `design`) or 0 (a top-level key)
  21 |  objective: least-loss
     |  ^
 "#,
@@ -241,7 +242,7 @@ fn yaml_tab_in_indentation() {
             r#"    resistance: "0.62 ohm""#,
             "\tresistance: \"0.62 ohm\"",
         )],
-        "error: belt-feeder.yaml:8:1: found a tab character that violates indentation, while scanning a plain scalar at line 7 column 11\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
+        "error: belt-feeder.yaml:8:1: a tab in the indentation; YAML indents with spaces only\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
     );
 }
 
@@ -256,7 +257,7 @@ fn list_where_a_quantity_goes() {
             r#"resistance: ["0.62 ohm"]"#,
         )],
         r#"
-error: belt-feeder.yaml:8:17: design.motor.resistance: invalid type: sequence, expected a resistance such as "8 mΩ"
+error: belt-feeder.yaml:8:17: design.motor.resistance: expected a resistance such as "8 mΩ", found a list
  8 |     resistance: ["0.62 ohm"]
    |                 ^
 "#,
@@ -274,7 +275,7 @@ fn map_where_a_quantity_goes() {
             r#"nominal: { typ: "24 V" }"#,
         )],
         r#"
-error: belt-feeder.yaml:5:22: design.supply.nominal: invalid type: map, expected a voltage such as "12 V"
+error: belt-feeder.yaml:5:22: design.supply.nominal: expected a voltage such as "12 V", found a mapping
  5 |   supply: { nominal: { typ: "24 V" }, min: "20 V", max: "28 V" }
    |                      ^
 "#,
@@ -802,7 +803,7 @@ fn v_th_not_below_v_gs_max() {
             r#"v_gs_max: "2.5 V""#,
         )],
         r#"
-error: switches/tarn-40.yaml:10:30: switch.v_th.typ: V_th is not below v_gs_max; expected V_th < V_GS max
+error: switches/tarn-40.yaml:10:30: switch.v_th.typ: 3.00 V is not below v_gs_max (2.50 V); expected V_th < V_GS max
  10 |   v_th: { min: "2.0 V", typ: "3.0 V", max: "4.0 V" }
     |                              ^
 "#,
@@ -1089,7 +1090,7 @@ error: wren-hb24.yaml:22:13: board.stage.switch: switches/tarn-41.yaml: no such 
     );
 }
 
-/// The design names a switch file as its board.
+/// The design names a switch file as its board: the reference is at fault.
 #[test]
 fn board_reference_is_a_switch_file() {
     bad_input(
@@ -1100,14 +1101,14 @@ fn board_reference_is_a_switch_file() {
             "board: switches/tarn-40.yaml",
         )],
         r#"
-error: switches/tarn-40.yaml:3:1: switch: unknown field; expected one of `board`
- 3 | switch:
-   | ^
+error: belt-feeder.yaml:4:10: design.board: switches/tarn-40.yaml is a switch file; expected a board file (top-level key `board:`)
+ 4 |   board: switches/tarn-40.yaml
+   |          ^
 "#,
     );
 }
 
-/// The board names another board file as its switch.
+/// The board names another board file as its switch: the reference is at fault.
 #[test]
 fn switch_reference_is_a_board_file() {
     bad_input(
@@ -1118,9 +1119,9 @@ fn switch_reference_is_a_board_file() {
             "switch: kite-ls12.yaml",
         )],
         r#"
-error: kite-ls12.yaml:2:1: board: unknown field; expected one of `switch`
- 2 | board:
-   | ^
+error: wren-hb24.yaml:22:13: board.stage.switch: kite-ls12.yaml is a board file; expected a switch file (top-level key `switch:`)
+ 22 |     switch: kite-ls12.yaml
+    |             ^
 "#,
     );
 }
@@ -1290,7 +1291,7 @@ fn board_file_given_to_plan() {
         "wren-hb24.yaml",
         &[],
         r#"
-error: wren-hb24.yaml:2:1: board: unknown field; expected one of `design`
+error: wren-hb24.yaml:2:1: this is a board file; expected a design file (top-level key `design:`)
  2 | board:
    | ^
 "#,
@@ -1316,7 +1317,7 @@ fn design_file_empty() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"")],
         r#"
-error: belt-feeder.yaml: the file is empty; expected YAML
+error: belt-feeder.yaml: the file is empty; expected a top-level `design:` key
 "#,
     );
 }
@@ -1328,7 +1329,7 @@ fn board_file_empty() {
         "belt-feeder.yaml",
         &[write("wren-hb24.yaml", b"")],
         r#"
-error: wren-hb24.yaml: the file is empty; expected YAML
+error: wren-hb24.yaml: the file is empty; expected a top-level `board:` key
 "#,
     );
 }
@@ -1355,6 +1356,343 @@ fn switch_file_not_utf8() {
 error: kite-ls12.yaml:15:13: board.stage.switch: switches/scree-60.yaml: not UTF-8 text; expected a YAML file
  15 |     switch: switches/scree-60.yaml
     |             ^
+"#,
+    );
+}
+
+// ------------------------------------------- syntax before fields, and wording
+
+/// A key one space short of its siblings: reported as indentation, not as
+/// the `motor.inductance` the deserialiser misses before reaching it.
+#[test]
+fn yaml_key_indented_one_short() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "    inductance:",
+            "   inductance:",
+        )],
+        r#"
+error: belt-feeder.yaml:9:4: bad indentation: `inductance` is indented 3 spaces, which lines up with no key above it; indent it 4 (a key of `motor`), 2 (a key of `design`) or 0 (a top-level key)
+ 9 |    inductance: "0.85 mH"
+   |    ^
+"#,
+    );
+}
+
+/// A quote left open: the rest of the file would read as one string (or as
+/// an unknown unit); the opening quote is named.
+#[test]
+fn yaml_unclosed_quote() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"clock: "64 MHz""#,
+            r#"clock: "64 MHz"#,
+        )],
+        r#"
+error: wren-hb24.yaml:5:12: board.timer.clock: unclosed quoted string; close it with `"`
+ 5 |     clock: "64 MHz             # timer input clock, before the prescaler
+   |            ^
+"#,
+    );
+}
+
+/// A single quote left open on the file's third line; the stream ends inside it.
+#[test]
+fn yaml_unclosed_single_quote() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "name: belt-feeder",
+            "name: 'belt-feeder",
+        )],
+        r#"
+error: belt-feeder.yaml:3:9: design.name: unclosed quoted string; close it with `'`
+ 3 |   name: 'belt-feeder
+   |         ^
+"#,
+    );
+}
+
+/// The last `]` of the file missing: the parser stops past the last line
+/// (line 37 of 36); the last line is shown with the caret at its end.
+#[test]
+fn yaml_unclosed_bracket_on_last_line() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("wren-hb24.yaml", r#""60 s"]]"#, r#""60 s"]"#)],
+        r#"
+error: wren-hb24.yaml:36:96: board.thermal.foster: unclosed `[` (opened at line 36, column 13); add the missing `]`
+ 36 |     foster: [["0.15 K/W", "0.4 ms"], ["0.75 K/W", "8 ms"], ["7 K/W", "2 s"], ["18 K/W", "60 s"]
+    |                                                                                                ^
+"#,
+    );
+}
+
+/// A key without its colon.
+#[test]
+fn yaml_key_without_colon() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "board: wren-hb24.yaml",
+            "board wren-hb24.yaml",
+        )],
+        r#"
+error: belt-feeder.yaml:4:3: expected `key: value`; `board wren-hb24.yaml` has no `:`
+ 4 |   board wren-hb24.yaml
+   |   ^
+"#,
+    );
+}
+
+/// A design file holding only comments.
+#[test]
+fn design_file_only_comments() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write(
+            "belt-feeder.yaml",
+            b"# pwmplan design: to be written\n\n# design:\n",
+        )],
+        r#"
+error: belt-feeder.yaml: the file has no content; expected a top-level `design:` key
+"#,
+    );
+}
+
+/// A board file holding only comments: the message names the board key.
+#[test]
+fn board_file_only_comments() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write("wren-hb24.yaml", b"# board: to be written\n")],
+        r#"
+error: wren-hb24.yaml: the file has no content; expected a top-level `board:` key
+"#,
+    );
+}
+
+/// A key written twice: the second is pointed at, the first is named.
+#[test]
+fn duplicate_key() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "    back_emf_constant:",
+            "    inductance: \"0.9 mH\"\n    back_emf_constant:",
+        )],
+        r#"
+error: belt-feeder.yaml:10:5: design.motor.inductance: duplicate key `inductance` (first at line 9)
+ 10 |     inductance: "0.9 mH"
+    |     ^
+"#,
+    );
+}
+
+/// "an inductance", not "a inductance".
+#[test]
+fn list_where_an_inductance_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"inductance: "0.85 mH""#,
+            r#"inductance: ["0.85 mH"]"#,
+        )],
+        r#"
+error: belt-feeder.yaml:9:17: design.motor.inductance: expected an inductance such as "4.7 mH", found a list
+ 9 |     inductance: ["0.85 mH"]
+   |                 ^
+"#,
+    );
+}
+
+/// `~` is YAML's null.
+#[test]
+fn null_where_a_quantity_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"inductance: "0.85 mH""#,
+            "inductance: ~",
+        )],
+        r#"
+error: belt-feeder.yaml:9:17: design.motor.inductance: empty value; expected an inductance such as "4.7 mH"
+ 9 |     inductance: ~
+   |                 ^
+"#,
+    );
+}
+
+/// A key with nothing after its colon.
+#[test]
+fn empty_value_where_a_quantity_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("wren-hb24.yaml", r#"supply: "12 V""#, "supply:")],
+        r#"
+error: wren-hb24.yaml:24:12: board.gate_driver.supply: empty value; expected a voltage such as "12 V"
+ 24 |     supply:
+    |            ^
+"#,
+    );
+}
+
+/// A misspelt bundled switch, written without its folder.
+#[test]
+fn bundled_switch_unknown_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "switch: switches/tarn-40.yaml",
+            "switch: bundled:tarn-4",
+        )],
+        r#"
+error: wren-hb24.yaml:22:13: board.stage.switch: no bundled switch named "tarn-4"; did you mean "bundled:tarn-40"?
+ 22 |     switch: bundled:tarn-4
+    |             ^
+"#,
+    );
+}
+
+/// Two letters swapped: `q_gd`, not `q_g` (also one edit away, and present).
+#[test]
+fn switch_unknown_key_transposed() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("switches/tarn-40.yaml", "  q_gd: {", "  q_dg: {")],
+        r#"
+error: switches/tarn-40.yaml:15:3: switch.q_dg: unknown field; did you mean `q_gd`?
+ 15 |   q_dg: { typ: "14 nC", max: "21 nC" }
+    |   ^
+"#,
+    );
+}
+
+/// A word for a whole number: no Rust type name in the message.
+#[test]
+fn text_where_a_whole_number_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "counter_bits: 16",
+            "counter_bits: sixteen",
+        )],
+        r#"
+error: wren-hb24.yaml:6:19: board.timer.counter_bits: expected a whole number such as 16, found the text "sixteen"
+ 6 |     counter_bits: sixteen
+   |                   ^
+"#,
+    );
+}
+
+/// A negative counter width.
+#[test]
+fn negative_whole_number() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "counter_bits: 16",
+            "counter_bits: -16",
+        )],
+        r#"
+error: wren-hb24.yaml:6:19: board.timer.counter_bits: expected a whole number ≥ 0, found -16
+ 6 |     counter_bits: -16
+   |                   ^
+"#,
+    );
+}
+
+/// A word where a plain number goes.
+#[test]
+fn text_where_a_number_goes() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "min_resolution_bits: 10",
+            "min_resolution_bits: ten",
+        )],
+        r#"
+error: belt-feeder.yaml:18:26: design.constraints.min_resolution_bits: expected a number such as 10, found the text "ten"
+ 18 |     min_resolution_bits: ten
+    |                          ^
+"#,
+    );
+}
+
+/// A design file that is a list.
+#[test]
+fn design_file_is_a_list() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[write("belt-feeder.yaml", b"- design\n")],
+        r#"
+error: belt-feeder.yaml:1:1: expected a mapping with the top-level key `design:`, found a list
+ 1 | - design
+   | ^
+"#,
+    );
+}
+
+/// `plan` on a switch file.
+#[test]
+fn switch_file_given_to_plan() {
+    bad_input(
+        "switches/tarn-40.yaml",
+        &[],
+        r#"
+error: switches/tarn-40.yaml:3:1: this is a switch file; expected a design file (top-level key `design:`)
+ 3 | switch:
+   | ^
+"#,
+    );
+}
+
+/// A bare number in quotes for a field that takes a current or a percentage:
+/// both forms are named.
+#[test]
+fn bare_number_for_current_or_ratio() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max_ripple: "25 %""#,
+            r#"max_ripple: "25""#,
+        )],
+        r#"
+error: belt-feeder.yaml:16:17: design.constraints.max_ripple: expected a current such as "0.5 A" or a ratio such as "15 %", found a bare number 25 (write the unit)
+ 16 |     max_ripple: "25"          # of the rated current, peak to peak
+    |                 ^
+"#,
+    );
+}
+
+/// The same, unquoted.
+#[test]
+fn bare_number_for_current_or_ratio_unquoted() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"max_ripple: "25 %""#,
+            "max_ripple: 25",
+        )],
+        r#"
+error: belt-feeder.yaml:16:17: design.constraints.max_ripple: expected a current such as "0.5 A" or a ratio such as "15 %", found a bare number 25 (write the unit)
+ 16 |     max_ripple: 25          # of the rated current, peak to peak
+    |                 ^
 "#,
     );
 }

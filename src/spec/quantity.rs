@@ -8,7 +8,7 @@ use std::marker::PhantomData;
 use serde::Deserialize;
 use serde::de::{self, Deserializer, MapAccess, Visitor};
 
-use crate::units::{Dimension, parse_any, parse_quantity};
+use crate::units::{Dimension, UnitError, parse_any, parse_quantity};
 
 /// A dimension known at compile time.
 pub trait Dim: Copy + Clone + fmt::Debug + PartialEq + 'static {
@@ -67,18 +67,37 @@ impl<D: Dim> Q<D> {
 struct QuantityVisitor<D>(PhantomData<D>);
 
 fn bare_number<E: de::Error>(dim: Dimension, shown: String) -> E {
+    E::custom(UnitError::BareNumber {
+        number: shown,
+        expected: dim,
+    })
+}
+
+/// A bare number where either of two dimensions goes: both forms are named,
+/// since the user may have meant either.
+fn bare_number_either<E: de::Error>(a: Dimension, b: Dimension, shown: &str) -> E {
     E::custom(format!(
-        "expected a {} such as {}, found a bare number {shown} (write the unit)",
-        dim.name(),
-        dim.example()
+        "expected {}, found a bare number {shown} (write the unit)",
+        either_expected(a, b)
     ))
+}
+
+/// `a current such as "0.5 A" or a ratio such as "15 %"`.
+fn either_expected(a: Dimension, b: Dimension) -> String {
+    format!(
+        "{} such as {} or {} such as {}",
+        a.with_article(),
+        a.example(),
+        b.with_article(),
+        b.example()
+    )
 }
 
 impl<'de, D: Dim> Visitor<'de> for QuantityVisitor<D> {
     type Value = Q<D>;
 
     fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-        write!(f, "a {} such as {}", D::DIM.name(), D::DIM.example())
+        write!(f, "{} such as {}", D::DIM.with_article(), D::DIM.example())
     }
 
     fn visit_str<E: de::Error>(self, v: &str) -> Result<Q<D>, E> {
@@ -129,8 +148,8 @@ impl<'de, D: Dim> Visitor<'de> for SpreadVisitor<D> {
     fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
         write!(
             f,
-            "a {} such as {}, or {{ typ: ..., max: ... }}",
-            D::DIM.name(),
+            "{} such as {}, or {{ typ: ..., max: ... }}",
+            D::DIM.with_article(),
             D::DIM.example()
         )
     }
@@ -194,14 +213,7 @@ impl<'de, A: Dim, B: Dim> Visitor<'de> for EitherVisitor<A, B> {
     type Value = Either2<A, B>;
 
     fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-        write!(
-            f,
-            "a {} such as {} or a {} such as {}",
-            A::DIM.name(),
-            A::DIM.example(),
-            B::DIM.name(),
-            B::DIM.example()
-        )
+        f.write_str(&either_expected(A::DIM, B::DIM))
     }
 
     fn visit_str<E: de::Error>(self, v: &str) -> Result<Either2<A, B>, E> {
@@ -212,14 +224,14 @@ impl<'de, A: Dim, B: Dim> Visitor<'de> for EitherVisitor<A, B> {
                 _dims: PhantomData,
             }),
             Ok((_, dim)) => Err(E::custom(format!(
-                "\"{}\" is a {}, expected a {} such as {} or a {} such as {}",
+                "\"{}\" is {}, expected {}",
                 v.trim(),
-                dim.name(),
-                A::DIM.name(),
-                A::DIM.example(),
-                B::DIM.name(),
-                B::DIM.example()
+                dim.with_article(),
+                either_expected(A::DIM, B::DIM)
             ))),
+            Err(UnitError::BareNumberAny { number }) => {
+                Err(bare_number_either(A::DIM, B::DIM, &number))
+            }
             // Report against the first dimension: its message names a unit.
             Err(_) => parse_quantity(v, A::DIM)
                 .map(|si| Either2 {
@@ -232,15 +244,15 @@ impl<'de, A: Dim, B: Dim> Visitor<'de> for EitherVisitor<A, B> {
     }
 
     fn visit_i64<E: de::Error>(self, v: i64) -> Result<Either2<A, B>, E> {
-        Err(bare_number(A::DIM, v.to_string()))
+        Err(bare_number_either(A::DIM, B::DIM, &v.to_string()))
     }
 
     fn visit_u64<E: de::Error>(self, v: u64) -> Result<Either2<A, B>, E> {
-        Err(bare_number(A::DIM, v.to_string()))
+        Err(bare_number_either(A::DIM, B::DIM, &v.to_string()))
     }
 
     fn visit_f64<E: de::Error>(self, v: f64) -> Result<Either2<A, B>, E> {
-        Err(bare_number(A::DIM, v.to_string()))
+        Err(bare_number_either(A::DIM, B::DIM, &v.to_string()))
     }
 }
 
