@@ -20,5 +20,6 @@ pub mod report;
 pub mod solve;
 pub mod spec;
 pub mod summary;
+pub mod sweep;
 pub mod timer;
 pub mod units;
