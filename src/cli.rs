@@ -4,7 +4,7 @@
 //! error reaches the user as one message and exit status 2 (bad input) or 1
 //! (infeasible / out of date), never as a panic.
 
-use std::io::Write;
+use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -20,6 +20,7 @@ use crate::plan::{self, Plan};
 use crate::report;
 use crate::solve::{self, Objective};
 use crate::spec::{BoardFile, DesignFile, ObjectiveSpec, SwitchFile};
+use crate::sweep;
 use crate::units::{Dimension, parse_quantity};
 
 #[derive(Debug, Parser)]
@@ -69,6 +70,38 @@ pub enum Command {
         out: PathBuf,
         #[arg(long, value_name = "DIR")]
         templates: Option<PathBuf>,
+    },
+    /// Loss, temperature, ripple and audibility against frequency, at the
+    /// realisable setting nearest each frequency.
+    Sweep {
+        /// Design file (YAML). Omit for the bundled demo.
+        design: Option<PathBuf>,
+        /// Lowest frequency (default: half the design's lower bound).
+        #[arg(long, value_name = "FREQ")]
+        from: Option<String>,
+        /// Highest frequency (default: twice the design's upper bound).
+        #[arg(long, value_name = "FREQ")]
+        to: Option<String>,
+        /// Number of log-spaced frequencies.
+        #[arg(long, default_value_t = 25)]
+        points: usize,
+        /// Print CSV instead of the table.
+        #[arg(long, conflicts_with = "json")]
+        csv: bool,
+        /// Print JSON instead of the table.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Solve the design with each switch and show them side by side.
+    Compare {
+        /// Design file (YAML). Omit for the bundled demo.
+        design: Option<PathBuf>,
+        /// A switch file, or bundled:NAME; give two or more.
+        #[arg(long = "switch", value_name = "FILE", required = true)]
+        switches: Vec<String>,
+        /// Print JSON instead of the table.
+        #[arg(long)]
+        json: bool,
     },
     /// Write a commented starter design file.
     New {
@@ -140,11 +173,7 @@ pub struct Solved {
 pub fn solve_design(design: Option<&Path>, at: Option<f64>) -> Result<Solved, Failure> {
     let design = load(design)?;
     let ev = Evaluator::new(&design);
-    let objective = match design.spec.objective {
-        ObjectiveSpec::LeastLoss => Objective::LeastLoss,
-        ObjectiveSpec::Quietest => Objective::Quietest,
-        ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
-    };
+    let objective = objective_of(&design);
     let solution = match at {
         Some(f) => solve::pinned(&ev, objective, f),
         None => solve::solve(&ev, objective),
@@ -165,18 +194,30 @@ pub fn solve_design(design: Option<&Path>, at: Option<f64>) -> Result<Solved, Fa
     })
 }
 
-fn parse_frequency(text: &str) -> Result<f64, Failure> {
+fn parse_frequency(text: &str, option: &str) -> Result<f64, Failure> {
     parse_quantity(text, Dimension::Frequency)
-        .map_err(|e| Failure::Usage(format!("--at: {e}")))
+        .map_err(|e| Failure::Usage(format!("{option}: {e}")))
         .and_then(|f| {
             if f > 0.0 {
                 Ok(f)
             } else {
-                Err(Failure::Usage(
-                    "--at: expected a positive frequency such as \"20 kHz\"".into(),
-                ))
+                Err(Failure::Usage(format!(
+                    "{option}: expected a positive frequency such as \"20 kHz\""
+                )))
             }
         })
+}
+
+fn fmt_hz(f: f64) -> String {
+    crate::units::format_quantity(f, Dimension::Frequency, 4)
+}
+
+fn objective_of(d: &Design) -> Objective {
+    match d.spec.objective {
+        ObjectiveSpec::LeastLoss => Objective::LeastLoss,
+        ObjectiveSpec::Quietest => Objective::Quietest,
+        ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
+    }
 }
 
 /// The files `plan` writes for a solved design.
@@ -205,7 +246,10 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             force,
             no_write,
         } => {
-            let at = at.as_deref().map(parse_frequency).transpose()?;
+            let at = at
+                .as_deref()
+                .map(|t| parse_frequency(t, "--at"))
+                .transpose()?;
             let solved = solve_design(design.as_deref(), at)?;
             if !solved.feasible {
                 if json {
@@ -297,6 +341,110 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                     path.display()
                 ),
             )?;
+            Ok(0)
+        }
+        Command::Sweep {
+            design,
+            from,
+            to,
+            points,
+            csv,
+            json,
+        } => {
+            if !(2..=10_000).contains(&points) {
+                return Err(Failure::Usage(format!(
+                    "--points {points}: expected 2 to 10000"
+                )));
+            }
+            let solved = solve_design(design.as_deref(), None)?;
+            let ev = Evaluator::new(&solved.design);
+            let from = match from {
+                Some(t) => parse_frequency(&t, "--from")?,
+                None => ev.limits.f_min_hz / 2.0,
+            };
+            let to = match to {
+                Some(t) => parse_frequency(&t, "--to")?,
+                None => ev.limits.f_max_hz * 2.0,
+            };
+            if to <= from {
+                return Err(Failure::Usage("--to must be above --from".into()));
+            }
+            let chosen = solved.feasible.then_some(solved.plan.pwm.frequency_hz);
+            let rows = sweep::sweep(&ev, &sweep::log_space(from, to, points), chosen);
+            if json {
+                let mut text = serde_json::to_string_pretty(&rows)
+                    .map_err(|e| Failure::Usage(format!("cannot format the sweep: {e}")))?;
+                text.push('\n');
+                write_text(out, &text)?;
+            } else if csv {
+                write_text(out, &report::sweep_csv(&rows))?;
+            } else {
+                let style = report::Style {
+                    colour: std::io::stdout().is_terminal()
+                        && std::env::var_os("NO_COLOR").is_none(),
+                };
+                write_text(
+                    out,
+                    &format!(
+                        "Sweep of {} from {} to {}\n",
+                        solved.plan.design,
+                        fmt_hz(from),
+                        fmt_hz(to)
+                    ),
+                )?;
+                if let Some([a, b]) = solved.plan.feasible_band_hz {
+                    write_text(
+                        out,
+                        &format!("Feasible band {} to {}\n\n", fmt_hz(a), fmt_hz(b)),
+                    )?;
+                } else {
+                    write_text(out, "No feasible band\n\n")?;
+                }
+                write_text(out, &report::sweep_table(&rows, style))?;
+            }
+            Ok(0)
+        }
+        Command::Compare {
+            design,
+            switches,
+            json,
+        } => {
+            let base = load(design.as_deref())?;
+            let mut entries = Vec::new();
+            for arg in &switches {
+                let origin = crate::design::switch_origin(arg)?;
+                let (spec, src) = crate::design::load_switch(origin)?;
+                let d = crate::design::with_switch(&base, spec, src)?;
+                let ev = Evaluator::new(&d);
+                let sol = solve::solve(&ev, objective_of(&d));
+                // Column label: the file's stem (names are long).
+                let label = arg
+                    .trim_start_matches("bundled:")
+                    .rsplit('/')
+                    .next()
+                    .unwrap_or(arg)
+                    .trim_end_matches(".yaml")
+                    .to_string();
+                entries.push((label, plan::build(&d, &ev, &sol, None)));
+            }
+            if json {
+                let list: Vec<_> = entries
+                    .iter()
+                    .map(|(n, p)| serde_json::json!({ "switch": n, "plan": p }))
+                    .collect();
+                let mut text = serde_json::to_string_pretty(&list)
+                    .map_err(|e| Failure::Usage(format!("cannot format the comparison: {e}")))?;
+                text.push('\n');
+                write_text(out, &text)?;
+            } else {
+                write_text(out, &format!("Switches compared on {}\n", base.spec.name))?;
+                for (arg, (label, p)) in switches.iter().zip(&entries) {
+                    let name = p.as_ref().map(|p| p.switch.clone()).unwrap_or_default();
+                    write_text(out, &format!("  {label}: {name} ({arg})\n"))?;
+                }
+                write_text(out, "\n")?;
+                write_text(out, &report::compare_table(&entries))?;
+            }
             Ok(0)
         }
         Command::Boards => {

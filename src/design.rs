@@ -76,6 +76,25 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
     })
 }
 
+/// The same design with another switch fitted (for comparing switches):
+/// the board and design checks run again against the new switch, so a
+/// switch the gate drive would overstress is refused like any bad input.
+pub fn with_switch(d: &Design, switch: SwitchSpec, src: SourceFile) -> Result<Design, InputError> {
+    check_board(&d.board, &switch, &d.sources[1])?;
+    let derived = check_design(&d.spec, &d.board, &switch, &d.sources[0])?;
+    let mut sources = vec![d.sources[0].clone(), d.sources[1].clone(), src];
+    sources.truncate(3);
+    Ok(Design {
+        spec: d.spec.clone(),
+        board: d.board.clone(),
+        switch,
+        sources,
+        back_emf_v: derived.0,
+        k_e_v_s_per_rad: derived.1,
+        t_j_limit_c: derived.2,
+    })
+}
+
 /// Load and check a switch file named by `reference` inside `from`.
 fn load_switch_from(
     from: &SourceFile,

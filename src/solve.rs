@@ -405,6 +405,23 @@ impl Evaluator {
             binding: false,
             detail: duty_detail,
         });
+        // The band the design allows (the solver searches only inside it;
+        // a sweep or a pinned frequency may step outside).
+        let in_band = f >= l.f_min_hz * (1.0 - 1e-12) && f <= l.f_max_hz * (1.0 + 1e-12);
+        checks.push(ConstraintCheck {
+            name: "frequency-band",
+            limit: if f < l.f_min_hz {
+                l.f_min_hz
+            } else {
+                l.f_max_hz
+            },
+            value: Some(f),
+            margin: Some((f - l.f_min_hz).min(l.f_max_hz - f)),
+            unit: "Hz",
+            pass: in_band,
+            binding: false,
+            detail: format!("allowed {} to {}", fmt_f(l.f_min_hz), fmt_f(l.f_max_hz)),
+        });
         let feasible = checks.iter().all(|c| c.pass);
         Some(Candidate {
             setting: s.into(),
@@ -716,7 +733,13 @@ fn finish(
     let mut chosen = evaluated[b].clone().expect("best index is evaluated");
     let feasible = chosen.feasible;
     if feasible {
-        mark_binding(obj, &mut chosen, b, &evaluated, &idx, floor);
+        let ctx = BindCtx {
+            ev,
+            obj,
+            floor,
+            dead: chosen.dead_time,
+        };
+        mark_binding(&ctx, &mut chosen, b, &evaluated, &idx);
     }
     let alternatives = if feasible {
         alternatives(obj, &chosen, &evaluated, &feasible_idx)
@@ -740,31 +763,38 @@ fn finish(
     }
 }
 
-/// A constraint binds when the nearest evaluated setting on a side where the
-/// objective is better fails it.
+/// A constraint binds when the nearest setting on a side where the
+/// objective is better fails it. At the edge of the band the nearest
+/// realisable setting just outside is evaluated too, so the band itself
+/// can bind.
 fn mark_binding(
-    obj: Objective,
+    ctx: &BindCtx,
     chosen: &mut Candidate,
     b: usize,
     evaluated: &[Option<Candidate>],
     idx: &[usize],
-    floor: Option<f64>,
 ) {
     let pos = idx.iter().position(|&i| i == b).unwrap_or(0);
-    let neighbours = [
+    let mut neighbours: Vec<Candidate> = [
         pos.checked_sub(1).map(|p| idx[p]),
         idx.get(pos + 1).copied(),
-    ];
-    for n in neighbours.into_iter().flatten() {
-        let Some(nc) = evaluated[n].as_ref() else {
-            continue;
-        };
-        let key = |c: &Candidate| match (obj, floor) {
-            (Objective::Quietest, Some(_)) => -c.setting.frequency_hz,
-            _ => objective_value(obj, c),
-        };
-        let improves = key(nc) < key(chosen);
-        if !improves {
+    ]
+    .into_iter()
+    .flatten()
+    .filter_map(|n| evaluated[n].clone())
+    .collect();
+    if pos == 0 {
+        neighbours.extend(outside_neighbour(ctx, chosen, 1));
+    }
+    if pos + 1 >= idx.len() {
+        neighbours.extend(outside_neighbour(ctx, chosen, -1));
+    }
+    let key = |c: &Candidate| match (ctx.obj, ctx.floor) {
+        (Objective::Quietest, Some(_)) => -c.setting.frequency_hz,
+        _ => objective_value(ctx.obj, c),
+    };
+    for nc in &neighbours {
+        if key(nc) >= key(chosen) {
             continue;
         }
         for k in &mut chosen.checks {
@@ -773,6 +803,40 @@ fn mark_binding(
             }
         }
     }
+}
+
+struct BindCtx<'a> {
+    ev: &'a Evaluator,
+    obj: Objective,
+    floor: Option<f64>,
+    dead: DeadTimeChoice,
+}
+
+/// The realisable setting next to `c` in frequency, on the lower side for
+/// `step` = 1 (one more tick per period) or the upper side for −1.
+fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidate> {
+    let n = (c.setting.divider * c.setting.period_ticks) as i64;
+    let clock = ctx.ev.timer.clock_hz;
+    let align = match c.setting.alignment {
+        "centre" => Alignment::Centre,
+        _ => Alignment::Edge,
+    };
+    for k in 1..=16 {
+        let m = n + step * k;
+        if m <= 0 {
+            return None;
+        }
+        let s = ctx
+            .ev
+            .timer
+            .nearest_setting(clock / m as f64, align)
+            .ok()
+            .flatten()?;
+        if s.frequency_hz != c.setting.frequency_hz {
+            return ctx.ev.candidate(&s, &ctx.dead);
+        }
+    }
+    None
 }
 
 fn alternatives(

@@ -58,10 +58,19 @@ pub fn row(requested_hz: f64, c: &Candidate, chosen_hz: Option<f64>) -> SweepRow
         losses_w: c.rated.losses.clone(),
         junction_c: c.rated.junction_c,
         junction_high_bus_c: c.high_bus.junction_c,
-        ripple_pp_a: c.rated.ripple.peak_to_peak_a.max(c.high_bus.ripple.peak_to_peak_a),
+        ripple_pp_a: c
+            .rated
+            .ripple
+            .peak_to_peak_a
+            .max(c.high_bus.ripple.peak_to_peak_a),
         lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
         a_weighted_db: c.rated.acoustic.a_weighted_db,
-        failing: c.checks.iter().filter(|k| !k.pass).map(|k| k.name.to_string()).collect(),
+        failing: c
+            .checks
+            .iter()
+            .filter(|k| !k.pass)
+            .map(|k| k.name.to_string())
+            .collect(),
         feasible: c.feasible,
         chosen: chosen_hz == Some(c.setting.frequency_hz),
     }
@@ -71,10 +80,19 @@ pub fn row(requested_hz: f64, c: &Candidate, chosen_hz: Option<f64>) -> SweepRow
 /// that map to the same setting give one row (the first asked).
 pub fn sweep(ev: &Evaluator, frequencies_hz: &[f64], chosen_hz: Option<f64>) -> Vec<SweepRow> {
     let mut rows: Vec<SweepRow> = Vec::new();
-    for &f in frequencies_hz {
+    // The chosen setting gets its own row, in frequency order.
+    let mut asked: Vec<f64> = frequencies_hz.to_vec();
+    if let Some(c) = chosen_hz {
+        asked.push(c);
+        asked.sort_by(f64::total_cmp);
+    }
+    for &f in &asked {
         if let Some(c) = solve::evaluate_at(ev, f) {
             let r = row(f, &c, chosen_hz);
-            if rows.last().is_none_or(|p| p.frequency_hz != r.frequency_hz || p.alignment != r.alignment) {
+            if rows
+                .last()
+                .is_none_or(|p| p.frequency_hz != r.frequency_hz || p.alignment != r.alignment)
+            {
                 rows.push(r);
             }
         }
