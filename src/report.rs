@@ -347,7 +347,10 @@ pub fn compare_table(entries: &[(String, Option<Plan>)]) -> String {
     }
     out.push('\n');
     type Getter = fn(&Plan) -> Option<f64>;
-    let rows: &[(&str, Getter, bool, fn(f64) -> String)] = &[
+    type Shower = fn(f64) -> String;
+    /// Label, value, lower is better, display.
+    type CompareRow = (&'static str, Getter, bool, Shower);
+    let rows: &[CompareRow] = &[
         (
             "frequency",
             |p| Some(p.pwm.frequency_hz),
