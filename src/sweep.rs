@@ -42,7 +42,12 @@ pub fn log_space(from_hz: f64, to_hz: f64, points: usize) -> Vec<f64> {
     let n = points.max(2);
     let (a, b) = (from_hz.ln(), to_hz.ln());
     (0..n)
-        .map(|k| (a + (b - a) * k as f64 / (n - 1) as f64).exp())
+        .map(|k| match k {
+            // The ends exactly as asked (exp(ln x) can miss x by an ulp).
+            0 => from_hz,
+            k if k == n - 1 => to_hz,
+            k => (a + (b - a) * k as f64 / (n - 1) as f64).exp(),
+        })
         .collect()
 }
 
