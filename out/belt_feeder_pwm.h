@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d32920f09649ebb7d83c4d52d9290afa5f8889571231ef6a645a5d8340dbaaa4)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:cb729f9786a1c5b4e0dd19eb430540bb38b0b2e94b347b074c29f8a5b14de9f3)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -22,6 +22,7 @@
  *   resolution         10.00 bits  11.64 bits  1.64 bits  ok
  *   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
  *   duty-range            99.00 %     94.05 %     4.95 %  ok
+ *   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           33.7 mW
@@ -83,7 +84,7 @@
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define BELT_FEEDER_PWM_CENTRE_ALIGNED 0
 /* PWM frequency in millihertz (20.006 kHz). */
-#define BELT_FEEDER_PWM_FREQUENCY_MHZ 20006252ULL
+#define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20006252ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define BELT_FEEDER_PWM_DUTY_STEPS 3199U
 /* Dead-time register code and the ticks it gives (78.1 ns). */
@@ -106,20 +107,21 @@
  */
 
 /*
- * Compare value for a duty given as a 16-bit fraction (65536 = 100 %).
- * 0 gives 0 (output off); a request between 0 and the minimum pulse gives
- * COMPARE_MIN; anything above COMPARE_MAX gives COMPARE_MAX. Integer only.
+ * Compare value for a duty given as a 16-bit fraction (65536 = 100 %),
+ * rounded to the nearest count. 0 gives 0 (output off); any other request
+ * gives at least COMPARE_MIN (no pulse shorter than the minimum) and at most
+ * COMPARE_MAX. Integer only.
  */
 static inline uint32_t belt_feeder_pwm_compare_from_q16(uint32_t duty_q16)
 {
     uint64_t c;
+    if (duty_q16 == 0U) {
+        return 0U;
+    }
     if (duty_q16 >= 65536U) {
         return BELT_FEEDER_PWM_COMPARE_MAX;
     }
     c = ((uint64_t)duty_q16 * (uint64_t)BELT_FEEDER_PWM_DUTY_STEPS + 32768U) >> 16;
-    if (c == 0U) {
-        return 0U;
-    }
     if (c < BELT_FEEDER_PWM_COMPARE_MIN) {
         return BELT_FEEDER_PWM_COMPARE_MIN;
     }
@@ -129,9 +131,12 @@ static inline uint32_t belt_feeder_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %). */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. */
 static inline uint32_t belt_feeder_pwm_compare_from_permille(uint32_t permille)
 {
+    if (permille == 0U) {
+        return 0U;
+    }
     if (permille >= 1000U) {
         return belt_feeder_pwm_compare_from_q16(65536U);
     }

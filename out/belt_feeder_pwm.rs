@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:febeba2b39ec63cff8cf60c1d3c324ad82ef8832c9d0c7d1b0f64128dcdacf6e)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:761eb98bc2b821587a7355e9d9df7bb567050519b9e2f92ab3a4204a91b1f7d8)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -21,6 +21,7 @@
 //!   resolution         10.00 bits  11.64 bits  1.64 bits  ok
 //!   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
 //!   duty-range            99.00 %     94.05 %     4.95 %  ok
+//!   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.7 mW
@@ -91,7 +92,7 @@ pub const PERIOD_REG: u32 = 3198;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
 /// PWM frequency in millihertz (20.006 kHz).
-pub const FREQUENCY_MHZ: u64 = 20006252;
+pub const FREQUENCY_MILLIHZ: u64 = 20006252;
 /// Compare value for 100 % on.
 pub const DUTY_STEPS: u32 = 3199;
 /// Dead-time register code (78.1 ns).
@@ -128,16 +129,24 @@ impl Duty {
         }
     }
 
-    /// From a 16-bit fraction (65536 = 100 %), rounded to the nearest count.
+    /// From a 16-bit fraction (65536 = 100 %), rounded to the nearest count;
+    /// 0 is off and any other request gives at least `COMPARE_MIN`.
     pub const fn from_q16(duty_q16: u32) -> Duty {
+        if duty_q16 == 0 {
+            return Duty::OFF;
+        }
         if duty_q16 >= 65536 {
             return Duty::MAX;
         }
-        Duty::from_counts((duty_q16 as u64 * DUTY_STEPS as u64 + 32768) >> 16)
+        let counts = (duty_q16 as u64 * DUTY_STEPS as u64 + 32768) >> 16;
+        Duty::from_counts(if counts == 0 { 1 } else { counts })
     }
 
-    /// From permille (1000 = 100 %).
+    /// From permille (1000 = 100 %); 0 is off.
     pub const fn from_permille(permille: u32) -> Duty {
+        if permille == 0 {
+            return Duty::OFF;
+        }
         if permille >= 1000 {
             return Duty::MAX;
         }
@@ -152,11 +161,19 @@ impl Duty {
 
 /// Set `duty` on a channel through embedded-hal's `SetDutyCycle`, scaling
 /// the compare value to the driver's `max_duty_cycle()` (a `u16`, which may
-/// be smaller than `DUTY_STEPS`).
+/// be smaller than `DUTY_STEPS`). The scaled value stays within the allowed
+/// range: the minimum is rounded up and the maximum down. A driver too coarse
+/// to hold both apart keeps the maximum (the off-time the stage needs).
 pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Result<(), P::Error> {
     let max = u64::from(pwm.max_duty_cycle());
     let steps = DUTY_STEPS as u64;
-    let value = (duty.counts() as u64 * max + steps / 2) / steps;
-    let value = if value > max { max } else { value };
+    if duty.counts() == 0 || max == 0 {
+        return pwm.set_duty_cycle(0);
+    }
+    let lowest = (COMPARE_MIN as u64 * max).div_ceil(steps);
+    let highest = COMPARE_MAX as u64 * max / steps;
+    let nearest = (duty.counts() as u64 * max + steps / 2) / steps;
+    let value = if nearest < lowest { lowest } else { nearest };
+    let value = if value > highest { highest } else { value };
     pwm.set_duty_cycle(value as u16)
 }

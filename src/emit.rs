@@ -138,7 +138,7 @@ pub struct TimerLiterals {
     pub compare_min: String,
     pub compare_max: String,
     /// PWM frequency in millihertz, an exact integer for code.
-    pub frequency_mhz: String,
+    pub frequency_millihz: String,
     pub frequency_text: String,
     /// C type of the count constants and Rust type of the same.
     pub c_count_type: String,
@@ -247,7 +247,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
         compare_min: plan.pwm.compare_min.to_string(),
         compare_max: plan.pwm.compare_max.to_string(),
-        frequency_mhz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
+        frequency_millihz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
         frequency_text: q(plan.pwm.frequency_hz, Dimension::Frequency, 5),
         c_count_type: if big { "uint64_t" } else { "uint32_t" }.into(),
         rust_count_type: if big { "u64" } else { "u32" }.into(),

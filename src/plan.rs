@@ -219,6 +219,31 @@ pub struct SearchOut {
     pub pinned_frequency_hz: Option<f64>,
 }
 
+/// How an input file is named in the plan: bundled files by their bundled
+/// name; files on disk relative to the design file's folder, so the record
+/// does not depend on the working directory or on how the path was typed.
+fn record_name(origin: &crate::load::Origin, design: &crate::load::Origin) -> String {
+    use crate::load::Origin;
+    use std::path::{Component, PathBuf};
+    let normal = |p: &std::path::Path| -> PathBuf {
+        p.components()
+            .filter(|c| !matches!(c, Component::CurDir))
+            .collect()
+    };
+    match (origin, design) {
+        (Origin::Disk(p), Origin::Disk(d)) => {
+            let dir = normal(d.parent().unwrap_or(std::path::Path::new("")));
+            let p = normal(p);
+            p.strip_prefix(&dir)
+                .map(|r| r.to_path_buf())
+                .unwrap_or(p.clone())
+                .to_string_lossy()
+                .replace('\\', "/")
+        }
+        (o, _) => o.display(),
+    }
+}
+
 /// Hex SHA-256 of a text.
 pub fn sha256_hex(text: &str) -> String {
     let digest = Sha256::digest(text.as_bytes());
@@ -519,7 +544,7 @@ pub fn build(d: &Design, ev: &Evaluator, sol: &Solution, pinned_hz: Option<f64>)
             .sources
             .iter()
             .map(|s| InputOut {
-                file: s.origin.display(),
+                file: record_name(&s.origin, &d.sources[0].origin),
                 sha256: sha256_hex(&s.text),
                 fields: flatten_fields(&s.text),
             })

@@ -1,0 +1,158 @@
+/*
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:7647e1a18c27525e7d23e9c6b9ad4ad4ba3084394bf5809b32a8a3d092b70e36)
+ *
+ * Chosen setting
+ *   design         belt-feeder
+ *   board          Wren 24 V half-bridge (invented)
+ *   switch         Tarn 40 V, 2.4 mΩ (invented)
+ *   topology       half-bridge
+ *   objective      least-loss
+ *   frequency      20.006 kHz, edge-aligned
+ *   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
+ *   resolution     3199 duty steps (11.6 bits)
+ *   dead time      78.1 ns = 5 ticks (code 0x05); needed 76.3 ns
+ *   duty limits    compare 20 to 3167 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+ *   feasible band  20.006 kHz to 59.981 kHz
+ *
+ * Constraints (limit, value, margin to the limit, status)
+ *   junction-rated         135 °C     58.4 °C     76.6 K  ok
+ *   junction-high-bus      135 °C     59.0 °C     76.0 K  ok
+ *   ripple                 875 mA      363 mA     512 mA  ok
+ *   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
+ *   resolution         10.00 bits  11.64 bits  1.64 bits  ok
+ *   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
+ *   duty-range            99.00 %     94.05 %     4.95 %  ok
+ *   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
+ *
+ * Losses at the rated case (whole stage)
+ *   conduction           33.7 mW
+ *   switching            73.0 mW
+ *   output capacitance   9.12 mW
+ *   reverse recovery     25.2 mW
+ *   dead-time diode      9.30 mW
+ *   gate drive           32.5 mW
+ *   motor ripple copper  2.96 mW
+ *   total                186 mW
+ *
+ * Operating figures
+ *   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
+ *   junction    58.4 °C (limit 135 °C); 59.0 °C at the highest supply
+ *   ripple      363 mA peak to peak at 20.006 kHz (continuous), 69.0 mA rms
+ *   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+ *
+ * Alternatives
+ *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +3 mW total loss, +0.1 K junction, -8 mA ripple, -0.0 bits resolution
+ *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +297 mW total loss, +5.5 K junction, -242 mA ripple, -1.6 bits resolution
+ *
+ * Findings
+ *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   info     the dead time costs 37.5 mV of mean output voltage (0.16 % of the nominal supply), opposing the current
+ *
+ * Assumptions
+ *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+ *   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+ *   - devices thermally independent, each with the board's junction-to-ambient path
+ *   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+ *   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms
+ *
+ * Cautions
+ *   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+ *   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+ *   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+ *   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+ *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+ *
+ * Inputs
+ *   belt-feeder.yaml       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
+ *   wren-hb24.yaml         sha256 1a237f7132eb02177cc7aad4eaa53f9e189c62da9d7a5fc0290fabb93cb2e5db
+ *   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
+ */
+#ifndef BELT_FEEDER_PWM_H
+#define BELT_FEEDER_PWM_H
+
+#include <stdint.h>
+
+/* Timer input clock, before the prescaler. */
+#define BELT_FEEDER_PWM_CLOCK_HZ 64000000UL
+/* Prescaler ratio and the value its register takes. */
+#define BELT_FEEDER_PWM_DIVIDER 1U
+#define BELT_FEEDER_PWM_DIVIDER_REG 0U
+/* Counter ticks per PWM period and the period (auto-reload) register value. */
+#define BELT_FEEDER_PWM_PERIOD_TICKS 3199U
+#define BELT_FEEDER_PWM_PERIOD_REG 3198U
+/* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
+#define BELT_FEEDER_PWM_CENTRE_ALIGNED 0
+/* PWM frequency in millihertz (20.006 kHz). */
+#define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20006252ULL
+/* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
+#define BELT_FEEDER_PWM_DUTY_STEPS 3199U
+/* Dead-time register code and the ticks it gives (78.1 ns). */
+#define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x05U
+#define BELT_FEEDER_PWM_DEAD_TIME_TICKS 5U
+/* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
+#define BELT_FEEDER_PWM_COMPARE_MIN 20U
+#define BELT_FEEDER_PWM_COMPARE_MAX 3167U
+
+/*
+ * Init sequence (register names differ per MCU; values are above):
+ *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+ *   2. Prescaler register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
+ *   3. Period (auto-reload) register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
+ *   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
+ *   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (5 ticks, 78.1 ns); write it before enabling complementary outputs.
+ *   6. Compare register(s) <- 0, then values from belt_feeder_pwm_compare_from_q16() only.
+ *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   8. Start the counter, then enable the outputs.
+ */
+
+/*
+ * Compare value for a duty given as a 16-bit fraction (65536 = 100 %),
+ * rounded to the nearest count. 0 gives 0 (output off); any other request
+ * gives at least COMPARE_MIN (no pulse shorter than the minimum) and at most
+ * COMPARE_MAX. Integer only.
+ */
+static inline uint32_t belt_feeder_pwm_compare_from_q16(uint32_t duty_q16)
+{
+    uint64_t c;
+    if (duty_q16 == 0U) {
+        return 0U;
+    }
+    if (duty_q16 >= 65536U) {
+        return BELT_FEEDER_PWM_COMPARE_MAX;
+    }
+    c = ((uint64_t)duty_q16 * (uint64_t)BELT_FEEDER_PWM_DUTY_STEPS + 32768U) >> 16;
+    if (c < BELT_FEEDER_PWM_COMPARE_MIN) {
+        return BELT_FEEDER_PWM_COMPARE_MIN;
+    }
+    if (c > BELT_FEEDER_PWM_COMPARE_MAX) {
+        return BELT_FEEDER_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
+}
+
+/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+static inline uint32_t belt_feeder_pwm_compare_from_permille(uint32_t permille)
+{
+    if (permille == 0U) {
+        return 0U;
+    }
+    if (permille >= 1000U) {
+        return belt_feeder_pwm_compare_from_q16(65536U);
+    }
+    return belt_feeder_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+}
+
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+static inline uint32_t belt_feeder_pwm_compare_from_fraction(float duty)
+{
+    if (!(duty > 0.0f)) {
+        return 0U;
+    }
+    if (duty >= 1.0f) {
+        return belt_feeder_pwm_compare_from_q16(65536U);
+    }
+    return belt_feeder_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+}
+
+#endif /* BELT_FEEDER_PWM_H */

@@ -1,0 +1,179 @@
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:89fb389a6148d34278e0bf0b064a912389bdcdc8850068f3af615cc93f081fae)
+//!
+//! Chosen setting
+//!   design         belt-feeder
+//!   board          Wren 24 V half-bridge (invented)
+//!   switch         Tarn 40 V, 2.4 mΩ (invented)
+//!   topology       half-bridge
+//!   objective      least-loss
+//!   frequency      20.006 kHz, edge-aligned
+//!   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
+//!   resolution     3199 duty steps (11.6 bits)
+//!   dead time      78.1 ns = 5 ticks (code 0x05); needed 76.3 ns
+//!   duty limits    compare 20 to 3167 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+//!   feasible band  20.006 kHz to 59.981 kHz
+//!
+//! Constraints (limit, value, margin to the limit, status)
+//!   junction-rated         135 °C     58.4 °C     76.6 K  ok
+//!   junction-high-bus      135 °C     59.0 °C     76.0 K  ok
+//!   ripple                 875 mA      363 mA     512 mA  ok
+//!   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
+//!   resolution         10.00 bits  11.64 bits  1.64 bits  ok
+//!   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
+//!   duty-range            99.00 %     94.05 %     4.95 %  ok
+//!   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
+//!
+//! Losses at the rated case (whole stage)
+//!   conduction           33.7 mW
+//!   switching            73.0 mW
+//!   output capacitance   9.12 mW
+//!   reverse recovery     25.2 mW
+//!   dead-time diode      9.30 mW
+//!   gate drive           32.5 mW
+//!   motor ripple copper  2.96 mW
+//!   total                186 mW
+//!
+//! Operating figures
+//!   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
+//!   junction    58.4 °C (limit 135 °C); 59.0 °C at the highest supply
+//!   ripple      363 mA peak to peak at 20.006 kHz (continuous), 69.0 mA rms
+//!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+//!
+//! Alternatives
+//!   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +3 mW total loss, +0.1 K junction, -8 mA ripple, -0.0 bits resolution
+//!   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +297 mW total loss, +5.5 K junction, -242 mA ripple, -1.6 bits resolution
+//!
+//! Findings
+//!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   info     the dead time costs 37.5 mV of mean output voltage (0.16 % of the nominal supply), opposing the current
+//!
+//! Assumptions
+//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+//!   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+//!   - devices thermally independent, each with the board's junction-to-ambient path
+//!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+//!   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms
+//!
+//! Cautions
+//!   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+//!   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+//!   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+//!   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+//!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+//!
+//! Inputs
+//!   belt-feeder.yaml       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
+//!   wren-hb24.yaml         sha256 1a237f7132eb02177cc7aad4eaa53f9e189c62da9d7a5fc0290fabb93cb2e5db
+//!   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
+//!
+//! Init sequence (register names differ per MCU; values are the constants below):
+//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+//!   2. Prescaler register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
+//!   3. Period (auto-reload) register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
+//!   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
+//!   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (5 ticks, 78.1 ns); write it before enabling complementary outputs.
+//!   6. Compare register(s) <- 0, then values from belt_feeder_pwm_compare_from_q16() only.
+//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   8. Start the counter, then enable the outputs.
+//!
+//! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
+
+/// Timer input clock, before the prescaler, Hz.
+pub const CLOCK_HZ: u64 = 64000000;
+/// Prescaler ratio.
+pub const DIVIDER: u32 = 1;
+/// Value of the prescaler register.
+pub const DIVIDER_REG: u32 = 0;
+/// Counter ticks per PWM period.
+pub const PERIOD_TICKS: u32 = 3199;
+/// Value of the period (auto-reload) register.
+pub const PERIOD_REG: u32 = 3198;
+/// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
+pub const CENTRE_ALIGNED: bool = false;
+/// PWM frequency in millihertz (20.006 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 20006252;
+/// Compare value for 100 % on.
+pub const DUTY_STEPS: u32 = 3199;
+/// Dead-time register code (78.1 ns).
+pub const DEAD_TIME_CODE: u32 = 0x05;
+/// Dead-time ticks the code gives.
+pub const DEAD_TIME_TICKS: u32 = 5;
+/// Smallest non-zero compare value allowed.
+pub const COMPARE_MIN: u32 = 20;
+/// Largest compare value allowed.
+pub const COMPARE_MAX: u32 = 3167;
+
+/// A duty as a compare value, always within the allowed range: 0 (off) or
+/// `COMPARE_MIN..=COMPARE_MAX`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Duty(u32);
+
+impl Duty {
+    /// Output off.
+    pub const OFF: Duty = Duty(0);
+    /// The largest duty allowed.
+    pub const MAX: Duty = Duty(COMPARE_MAX);
+
+    /// From a compare value: 0 stays 0, anything else is clamped to the
+    /// allowed range.
+    pub const fn from_counts(counts: u64) -> Duty {
+        if counts == 0 {
+            Duty(0)
+        } else if counts < COMPARE_MIN as u64 {
+            Duty(COMPARE_MIN)
+        } else if counts > COMPARE_MAX as u64 {
+            Duty(COMPARE_MAX)
+        } else {
+            Duty(counts as u32)
+        }
+    }
+
+    /// From a 16-bit fraction (65536 = 100 %), rounded to the nearest count;
+    /// 0 is off and any other request gives at least `COMPARE_MIN`.
+    pub const fn from_q16(duty_q16: u32) -> Duty {
+        if duty_q16 == 0 {
+            return Duty::OFF;
+        }
+        if duty_q16 >= 65536 {
+            return Duty::MAX;
+        }
+        let counts = (duty_q16 as u64 * DUTY_STEPS as u64 + 32768) >> 16;
+        Duty::from_counts(if counts == 0 { 1 } else { counts })
+    }
+
+    /// From permille (1000 = 100 %); 0 is off.
+    pub const fn from_permille(permille: u32) -> Duty {
+        if permille == 0 {
+            return Duty::OFF;
+        }
+        if permille >= 1000 {
+            return Duty::MAX;
+        }
+        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+    }
+
+    /// The compare value.
+    pub const fn counts(self) -> u32 {
+        self.0
+    }
+}
+
+/// Set `duty` on a channel through embedded-hal's `SetDutyCycle`, scaling
+/// the compare value to the driver's `max_duty_cycle()` (a `u16`, which may
+/// be smaller than `DUTY_STEPS`). The scaled value stays within the allowed
+/// range: the minimum is rounded up and the maximum down. A driver too coarse
+/// to hold both apart keeps the maximum (the off-time the stage needs).
+pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Result<(), P::Error> {
+    let max = u64::from(pwm.max_duty_cycle());
+    let steps = DUTY_STEPS as u64;
+    if duty.counts() == 0 || max == 0 {
+        return pwm.set_duty_cycle(0);
+    }
+    let lowest = (COMPARE_MIN as u64 * max).div_ceil(steps);
+    let highest = COMPARE_MAX as u64 * max / steps;
+    let nearest = (duty.counts() as u64 * max + steps / 2) / steps;
+    let value = if nearest < lowest { lowest } else { nearest };
+    let value = if value > highest { highest } else { value };
+    pwm.set_duty_cycle(value as u16)
+}

@@ -1,0 +1,158 @@
+/*
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:4744b3eb268adb5c138573330d6811944dd848e405e98f83260ec737a4a53f6b)
+ *
+ * Chosen setting
+ *   design         conveyor-centre
+ *   board          Wren 24 V half-bridge, centre-aligned timer (invented)
+ *   switch         Tarn 40 V, 2.4 mΩ (invented)
+ *   topology       half-bridge
+ *   objective      least-loss
+ *   frequency      20.013 kHz, centre-aligned
+ *   timer          clock 64.00 MHz; divider 1 (register 0); period 3198 ticks (register 1599)
+ *   resolution     1599 duty steps (10.6 bits)
+ *   dead time      78.1 ns = 5 ticks (code 0x05); needed 76.3 ns
+ *   duty limits    compare 10 to 1583 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+ *   feasible band  20.013 kHz to 31.250 kHz
+ *
+ * Constraints (limit, value, margin to the limit, status)
+ *   junction-rated         135 °C     58.4 °C     76.6 K  ok
+ *   junction-high-bus      135 °C     59.0 °C     76.0 K  ok
+ *   ripple                 875 mA      363 mA     512 mA  ok
+ *   audible            20.000 kHz  20.013 kHz    12.5 Hz  binds
+ *   resolution         10.00 bits  10.64 bits  0.64 bits  ok
+ *   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
+ *   duty-range            99.00 %     94.05 %     4.95 %  ok
+ *   frequency-band     60.000 kHz  20.013 kHz   4.01 kHz  ok
+ *
+ * Losses at the rated case (whole stage)
+ *   conduction           33.7 mW
+ *   switching            73.0 mW
+ *   output capacitance   9.13 mW
+ *   reverse recovery     25.2 mW
+ *   dead-time diode      9.30 mW
+ *   gate drive           32.5 mW
+ *   motor ripple copper  2.95 mW
+ *   total                186 mW
+ *
+ * Operating figures
+ *   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
+ *   junction    58.4 °C (limit 135 °C); 59.0 °C at the highest supply
+ *   ripple      363 mA peak to peak at 20.013 kHz (continuous), 69.0 mA rms
+ *   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+ *
+ * Alternatives
+ *   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +36 mW total loss, +0.7 K junction, -72 mA ripple, -0.3 bits resolution
+ *   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +82 mW total loss, +1.5 K junction, -131 mA ripple, -0.6 bits resolution
+ *
+ * Findings
+ *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   info     the dead time costs 37.5 mV of mean output voltage (0.16 % of the nominal supply), opposing the current
+ *
+ * Assumptions
+ *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+ *   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+ *   - devices thermally independent, each with the board's junction-to-ambient path
+ *   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+ *   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms
+ *
+ * Cautions
+ *   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+ *   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+ *   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+ *   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+ *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+ *
+ * Inputs
+ *   conveyor-centre.yaml   sha256 a3570c61c199a289d93fb96502a4b8d4dd03685b8a8dd455f5c4a53cf0e79222
+ *   wren-hb24.yaml         sha256 32a1c1b866e4c85707be1d9a3a2674e898e2eceb947b28a87e8875609a518c51
+ *   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
+ */
+#ifndef CONVEYOR_CENTRE_PWM_H
+#define CONVEYOR_CENTRE_PWM_H
+
+#include <stdint.h>
+
+/* Timer input clock, before the prescaler. */
+#define CONVEYOR_CENTRE_PWM_CLOCK_HZ 64000000UL
+/* Prescaler ratio and the value its register takes. */
+#define CONVEYOR_CENTRE_PWM_DIVIDER 1U
+#define CONVEYOR_CENTRE_PWM_DIVIDER_REG 0U
+/* Counter ticks per PWM period and the period (auto-reload) register value. */
+#define CONVEYOR_CENTRE_PWM_PERIOD_TICKS 3198U
+#define CONVEYOR_CENTRE_PWM_PERIOD_REG 1599U
+/* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
+#define CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED 1
+/* PWM frequency in millihertz (20.013 kHz). */
+#define CONVEYOR_CENTRE_PWM_FREQUENCY_MILLIHZ 20012508ULL
+/* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
+#define CONVEYOR_CENTRE_PWM_DUTY_STEPS 1599U
+/* Dead-time register code and the ticks it gives (78.1 ns). */
+#define CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE 0x05U
+#define CONVEYOR_CENTRE_PWM_DEAD_TIME_TICKS 5U
+/* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
+#define CONVEYOR_CENTRE_PWM_COMPARE_MIN 10U
+#define CONVEYOR_CENTRE_PWM_COMPARE_MAX 1583U
+
+/*
+ * Init sequence (register names differ per MCU; values are above):
+ *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+ *   2. Prescaler register <- CONVEYOR_CENTRE_PWM_DIVIDER_REG (divider 1).
+ *   3. Period (auto-reload) register <- CONVEYOR_CENTRE_PWM_PERIOD_REG (3198 ticks per period).
+ *   4. Counting mode <- up-down (centre-aligned) (see CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED).
+ *   5. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (5 ticks, 78.1 ns); write it before enabling complementary outputs.
+ *   6. Compare register(s) <- 0, then values from conveyor_centre_pwm_compare_from_q16() only.
+ *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   8. Start the counter, then enable the outputs.
+ */
+
+/*
+ * Compare value for a duty given as a 16-bit fraction (65536 = 100 %),
+ * rounded to the nearest count. 0 gives 0 (output off); any other request
+ * gives at least COMPARE_MIN (no pulse shorter than the minimum) and at most
+ * COMPARE_MAX. Integer only.
+ */
+static inline uint32_t conveyor_centre_pwm_compare_from_q16(uint32_t duty_q16)
+{
+    uint64_t c;
+    if (duty_q16 == 0U) {
+        return 0U;
+    }
+    if (duty_q16 >= 65536U) {
+        return CONVEYOR_CENTRE_PWM_COMPARE_MAX;
+    }
+    c = ((uint64_t)duty_q16 * (uint64_t)CONVEYOR_CENTRE_PWM_DUTY_STEPS + 32768U) >> 16;
+    if (c < CONVEYOR_CENTRE_PWM_COMPARE_MIN) {
+        return CONVEYOR_CENTRE_PWM_COMPARE_MIN;
+    }
+    if (c > CONVEYOR_CENTRE_PWM_COMPARE_MAX) {
+        return CONVEYOR_CENTRE_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
+}
+
+/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+static inline uint32_t conveyor_centre_pwm_compare_from_permille(uint32_t permille)
+{
+    if (permille == 0U) {
+        return 0U;
+    }
+    if (permille >= 1000U) {
+        return conveyor_centre_pwm_compare_from_q16(65536U);
+    }
+    return conveyor_centre_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+}
+
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+static inline uint32_t conveyor_centre_pwm_compare_from_fraction(float duty)
+{
+    if (!(duty > 0.0f)) {
+        return 0U;
+    }
+    if (duty >= 1.0f) {
+        return conveyor_centre_pwm_compare_from_q16(65536U);
+    }
+    return conveyor_centre_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+}
+
+#endif /* CONVEYOR_CENTRE_PWM_H */

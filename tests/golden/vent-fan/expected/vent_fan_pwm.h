@@ -1,0 +1,143 @@
+/*
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:75bc9fe7498b7341f42798f3864ab5b685da65389c07b779f2ffab0bba5b1086)
+ *
+ * Chosen setting
+ *   design         vent-fan
+ *   board          Kite 12 V low-side (invented)
+ *   switch         Scree 60 V, 7.5 mΩ (invented)
+ *   topology       low-side
+ *   objective      least-loss
+ *   frequency      13.400 kHz, edge-aligned
+ *   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
+ *   resolution     3582 duty steps (11.8 bits)
+ *   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
+ *   feasible band  8.1370 kHz to 25.000 kHz
+ *
+ * Constraints (limit, value, margin to the limit, status)
+ *   junction-rated         110 °C     48.3 °C     61.7 K  ok
+ *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
+ *   ripple                 600 mA      365 mA     235 mA  ok
+ *   audible               0 lines     0 lines    0 lines  ok
+ *   resolution          8.00 bits  11.81 bits  3.81 bits  ok
+ *   duty-range            99.72 %     98.94 %     0.78 %  ok
+ *   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+ *
+ * Losses at the rated case (whole stage)
+ *   conduction           10.9 mW
+ *   switching            10.1 mW
+ *   output capacitance   366 µW
+ *   reverse recovery     322 µW
+ *   dead-time diode      0.00 W
+ *   gate drive           3.22 mW
+ *   freewheel diode      73.3 mW
+ *   motor ripple copper  6.96 mW
+ *   total                105 mW
+ *
+ * Operating figures
+ *   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
+ *   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
+ *   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
+ *   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+ *
+ * Alternatives
+ *   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, +0.0 K junction, -169 mA ripple, -0.9 bits resolution
+ *   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, -0.0 K junction, +235 mA ripple, +0.7 bits resolution
+ *
+ * Findings
+ *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
+ *
+ * Assumptions
+ *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+ *   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+ *   - devices thermally independent, each with the board's junction-to-ambient path
+ *   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+ *   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms
+ *
+ * Cautions
+ *   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+ *   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+ *   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+ *   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+ *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+ *
+ * Inputs
+ *   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
+ *   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+ *   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
+ */
+#ifndef VENT_FAN_PWM_H
+#define VENT_FAN_PWM_H
+
+#include <stdint.h>
+
+/* Timer input clock, before the prescaler. */
+#define VENT_FAN_PWM_CLOCK_HZ 48000000UL
+/* Prescaler ratio and the value its register takes. */
+#define VENT_FAN_PWM_DIVIDER 1U
+#define VENT_FAN_PWM_DIVIDER_REG 0U
+/* Counter ticks per PWM period and the period (auto-reload) register value. */
+#define VENT_FAN_PWM_PERIOD_TICKS 3582U
+#define VENT_FAN_PWM_PERIOD_REG 3581U
+/* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
+#define VENT_FAN_PWM_CENTRE_ALIGNED 0
+/* PWM frequency in millihertz (13.400 kHz). */
+#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13400335ULL
+/* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
+#define VENT_FAN_PWM_DUTY_STEPS 3582U
+/* Dead-time register code and the ticks it gives (0.0 ns). */
+#define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
+#define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
+/* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
+#define VENT_FAN_PWM_COMPARE_MIN 10U
+#define VENT_FAN_PWM_COMPARE_MAX 3572U
+
+/*
+ * Init sequence (register names differ per MCU; values are above):
+ *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+ *   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
+ *   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
+ *   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
+ *   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
+ *   6. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   7. Start the counter, then enable the outputs.
+ */
+
+/*
+ * Compare value for a duty given as a 16-bit fraction (65536 = 100 %),
+ * rounded to the nearest count. 0 gives 0 (output off); any other request
+ * gives at least COMPARE_MIN (no pulse shorter than the minimum) and at most
+ * COMPARE_MAX. Integer only.
+ */
+static inline uint32_t vent_fan_pwm_compare_from_q16(uint32_t duty_q16)
+{
+    uint64_t c;
+    if (duty_q16 == 0U) {
+        return 0U;
+    }
+    if (duty_q16 >= 65536U) {
+        return VENT_FAN_PWM_COMPARE_MAX;
+    }
+    c = ((uint64_t)duty_q16 * (uint64_t)VENT_FAN_PWM_DUTY_STEPS + 32768U) >> 16;
+    if (c < VENT_FAN_PWM_COMPARE_MIN) {
+        return VENT_FAN_PWM_COMPARE_MIN;
+    }
+    if (c > VENT_FAN_PWM_COMPARE_MAX) {
+        return VENT_FAN_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
+}
+
+/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+static inline uint32_t vent_fan_pwm_compare_from_permille(uint32_t permille)
+{
+    if (permille == 0U) {
+        return 0U;
+    }
+    if (permille >= 1000U) {
+        return vent_fan_pwm_compare_from_q16(65536U);
+    }
+    return vent_fan_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+}
+
+#endif /* VENT_FAN_PWM_H */

@@ -1,0 +1,176 @@
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:6ed10d9e6773cfdc4c67479fee4cd95baaa4ec4b1804a46d1921505971569324)
+//!
+//! Chosen setting
+//!   design         vent-fan
+//!   board          Kite 12 V low-side (invented)
+//!   switch         Scree 60 V, 7.5 mΩ (invented)
+//!   topology       low-side
+//!   objective      least-loss
+//!   frequency      13.400 kHz, edge-aligned
+//!   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
+//!   resolution     3582 duty steps (11.8 bits)
+//!   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
+//!   feasible band  8.1370 kHz to 25.000 kHz
+//!
+//! Constraints (limit, value, margin to the limit, status)
+//!   junction-rated         110 °C     48.3 °C     61.7 K  ok
+//!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
+//!   ripple                 600 mA      365 mA     235 mA  ok
+//!   audible               0 lines     0 lines    0 lines  ok
+//!   resolution          8.00 bits  11.81 bits  3.81 bits  ok
+//!   duty-range            99.72 %     98.94 %     0.78 %  ok
+//!   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+//!
+//! Losses at the rated case (whole stage)
+//!   conduction           10.9 mW
+//!   switching            10.1 mW
+//!   output capacitance   366 µW
+//!   reverse recovery     322 µW
+//!   dead-time diode      0.00 W
+//!   gate drive           3.22 mW
+//!   freewheel diode      73.3 mW
+//!   motor ripple copper  6.96 mW
+//!   total                105 mW
+//!
+//! Operating figures
+//!   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
+//!   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
+//!   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
+//!   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+//!
+//! Alternatives
+//!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, +0.0 K junction, -169 mA ripple, -0.9 bits resolution
+//!   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, -0.0 K junction, +235 mA ripple, +0.7 bits resolution
+//!
+//! Findings
+//!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
+//!
+//! Assumptions
+//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+//!   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+//!   - devices thermally independent, each with the board's junction-to-ambient path
+//!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+//!   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms
+//!
+//! Cautions
+//!   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+//!   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+//!   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+//!   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+//!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+//!
+//! Inputs
+//!   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
+//!   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+//!   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
+//!
+//! Init sequence (register names differ per MCU; values are the constants below):
+//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+//!   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
+//!   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
+//!   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
+//!   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
+//!   6. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   7. Start the counter, then enable the outputs.
+//!
+//! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
+
+/// Timer input clock, before the prescaler, Hz.
+pub const CLOCK_HZ: u64 = 48000000;
+/// Prescaler ratio.
+pub const DIVIDER: u32 = 1;
+/// Value of the prescaler register.
+pub const DIVIDER_REG: u32 = 0;
+/// Counter ticks per PWM period.
+pub const PERIOD_TICKS: u32 = 3582;
+/// Value of the period (auto-reload) register.
+pub const PERIOD_REG: u32 = 3581;
+/// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
+pub const CENTRE_ALIGNED: bool = false;
+/// PWM frequency in millihertz (13.400 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13400335;
+/// Compare value for 100 % on.
+pub const DUTY_STEPS: u32 = 3582;
+/// Dead-time register code (0.0 ns).
+pub const DEAD_TIME_CODE: u32 = 0x00;
+/// Dead-time ticks the code gives.
+pub const DEAD_TIME_TICKS: u32 = 0;
+/// Smallest non-zero compare value allowed.
+pub const COMPARE_MIN: u32 = 10;
+/// Largest compare value allowed.
+pub const COMPARE_MAX: u32 = 3572;
+
+/// A duty as a compare value, always within the allowed range: 0 (off) or
+/// `COMPARE_MIN..=COMPARE_MAX`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Duty(u32);
+
+impl Duty {
+    /// Output off.
+    pub const OFF: Duty = Duty(0);
+    /// The largest duty allowed.
+    pub const MAX: Duty = Duty(COMPARE_MAX);
+
+    /// From a compare value: 0 stays 0, anything else is clamped to the
+    /// allowed range.
+    pub const fn from_counts(counts: u64) -> Duty {
+        if counts == 0 {
+            Duty(0)
+        } else if counts < COMPARE_MIN as u64 {
+            Duty(COMPARE_MIN)
+        } else if counts > COMPARE_MAX as u64 {
+            Duty(COMPARE_MAX)
+        } else {
+            Duty(counts as u32)
+        }
+    }
+
+    /// From a 16-bit fraction (65536 = 100 %), rounded to the nearest count;
+    /// 0 is off and any other request gives at least `COMPARE_MIN`.
+    pub const fn from_q16(duty_q16: u32) -> Duty {
+        if duty_q16 == 0 {
+            return Duty::OFF;
+        }
+        if duty_q16 >= 65536 {
+            return Duty::MAX;
+        }
+        let counts = (duty_q16 as u64 * DUTY_STEPS as u64 + 32768) >> 16;
+        Duty::from_counts(if counts == 0 { 1 } else { counts })
+    }
+
+    /// From permille (1000 = 100 %); 0 is off.
+    pub const fn from_permille(permille: u32) -> Duty {
+        if permille == 0 {
+            return Duty::OFF;
+        }
+        if permille >= 1000 {
+            return Duty::MAX;
+        }
+        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+    }
+
+    /// The compare value.
+    pub const fn counts(self) -> u32 {
+        self.0
+    }
+}
+
+/// Set `duty` on a channel through embedded-hal's `SetDutyCycle`, scaling
+/// the compare value to the driver's `max_duty_cycle()` (a `u16`, which may
+/// be smaller than `DUTY_STEPS`). The scaled value stays within the allowed
+/// range: the minimum is rounded up and the maximum down. A driver too coarse
+/// to hold both apart keeps the maximum (the off-time the stage needs).
+pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Result<(), P::Error> {
+    let max = u64::from(pwm.max_duty_cycle());
+    let steps = DUTY_STEPS as u64;
+    if duty.counts() == 0 || max == 0 {
+        return pwm.set_duty_cycle(0);
+    }
+    let lowest = (COMPARE_MIN as u64 * max).div_ceil(steps);
+    let highest = COMPARE_MAX as u64 * max / steps;
+    let nearest = (duty.counts() as u64 * max + steps / 2) / steps;
+    let value = if nearest < lowest { lowest } else { nearest };
+    let value = if value > highest { highest } else { value };
+    pwm.set_duty_cycle(value as u16)
+}
