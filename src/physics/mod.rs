@@ -22,3 +22,4 @@ pub mod ratings;
 pub mod ripple;
 pub mod switching;
 pub mod thermal;
+pub mod three_phase;
