@@ -91,6 +91,9 @@ pub enum Command {
         /// Print JSON instead of the table.
         #[arg(long)]
         json: bool,
+        /// Also write the loss-versus-frequency plot (SVG) to this file.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
     },
     /// Solve the design with each switch and show them side by side.
     Compare {
@@ -165,8 +168,18 @@ pub fn main() -> ExitCode {
 /// A solved design: everything the outputs are made from.
 pub struct Solved {
     pub design: Design,
+    pub evaluator: Evaluator,
     pub plan: Plan,
     pub feasible: bool,
+}
+
+/// Points of the sweep behind the plots.
+const PLOT_POINTS: usize = 40;
+
+/// The frequencies a review shows by default: from half the design's lower
+/// bound to twice its upper bound, so the infeasible edges are visible.
+fn review_range(ev: &Evaluator) -> (f64, f64) {
+    (ev.limits.f_min_hz / 2.0, ev.limits.f_max_hz * 2.0)
 }
 
 /// Load, solve (or evaluate at a pinned frequency) and build the plan.
@@ -190,6 +203,7 @@ pub fn solve_design(design: Option<&Path>, at: Option<f64>) -> Result<Solved, Fa
     Ok(Solved {
         feasible: solution.feasible,
         design,
+        evaluator: ev,
         plan,
     })
 }
@@ -224,8 +238,15 @@ fn objective_of(d: &Design) -> Objective {
 pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<GeneratedFile>, Failure> {
     let t = Templates::load(templates)?;
     let o = &s.design.spec.outputs;
+    let (from, to) = review_range(&s.evaluator);
+    let rows = sweep::sweep(
+        &s.evaluator,
+        &sweep::log_space(from, to, PLOT_POINTS),
+        Some(s.plan.pwm.frequency_hz),
+    );
     Ok(emit::generate(
         &s.plan,
+        &rows,
         s.design.board.timer.fpu,
         o.c,
         o.rust,
@@ -350,6 +371,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             points,
             csv,
             json,
+            svg,
         } => {
             if !(2..=10_000).contains(&points) {
                 return Err(Failure::Usage(format!(
@@ -357,20 +379,25 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 )));
             }
             let solved = solve_design(design.as_deref(), None)?;
-            let ev = Evaluator::new(&solved.design);
+            let ev = &solved.evaluator;
+            let (lo, hi) = review_range(ev);
             let from = match from {
                 Some(t) => parse_frequency(&t, "--from")?,
-                None => ev.limits.f_min_hz / 2.0,
+                None => lo,
             };
             let to = match to {
                 Some(t) => parse_frequency(&t, "--to")?,
-                None => ev.limits.f_max_hz * 2.0,
+                None => hi,
             };
             if to <= from {
                 return Err(Failure::Usage("--to must be above --from".into()));
             }
             let chosen = solved.feasible.then_some(solved.plan.pwm.frequency_hz);
-            let rows = sweep::sweep(&ev, &sweep::log_space(from, to, points), chosen);
+            let rows = sweep::sweep(ev, &sweep::log_space(from, to, points), chosen);
+            if let Some(path) = &svg {
+                let plot = crate::svg::loss_plot_svg(&rows, chosen, solved.plan.feasible_band_hz);
+                write_atomically(path, plot.as_bytes())?;
+            }
             if json {
                 let mut text = serde_json::to_string_pretty(&rows)
                     .map_err(|e| Failure::Usage(format!("cannot format the sweep: {e}")))?;

@@ -976,5 +976,93 @@ fn check_design(
     if let Some(t) = k.stall_time {
         c.within("constraints.stall_time", t.si, 0.0, 3600.0, S)?;
     }
+    if let Some(t) = &d.tolerances {
+        check_tolerances(&c, t, d, b, sw, emf)?;
+    }
     Ok((emf, k_e, t_j_limit))
+}
+
+/// Largest tolerance accepted: ±50 % (our choice; a wider spread is no
+/// longer a tolerance, and at ±100 % a resistance reaches zero).
+const MAX_TOLERANCE: f64 = 0.5;
+
+/// Checks on `design.tolerances`: each share within 0 to 50 %, the motor
+/// still driven at the lowest supply with its winding resistance at the
+/// top of its tolerance, and the gate drive at both ends of its tolerance
+/// above the highest Miller plateau and within V_GS max.
+fn check_tolerances(
+    c: &Check,
+    t: &TolerancesSpec,
+    d: &DesignSpec,
+    b: &BoardSpec,
+    sw: &SwitchSpec,
+    emf: f64,
+) -> Result<(), InputError> {
+    let shares = [
+        ("tolerances.motor_resistance", t.motor_resistance),
+        ("tolerances.motor_inductance", t.motor_inductance),
+        ("tolerances.driver_resistance", t.driver_resistance),
+        ("tolerances.driver_supply", t.driver_supply),
+    ];
+    for (field, share) in shares {
+        if let Some(q) = share {
+            c.non_negative(field, q.si, MAX_TOLERANCE, Dimension::Ratio)?;
+        }
+    }
+    let pct = |x: f64| format_quantity(x, Dimension::Ratio, 3);
+    let m = &d.motor;
+    if let Some(tol) = t.motor_resistance {
+        let r_hi = m.resistance.si * (1.0 + tol.si);
+        let v_needed = emf + m.rated_current.si * r_hi;
+        if v_needed >= d.supply.min.si {
+            return Err(c.fail(
+                "tolerances.motor_resistance",
+                format!(
+                    "at +{} the winding resistance is {} and the motor needs {} (back-EMF {} + I·R {}), more than the lowest supply {}; expected a tolerance the supply can still drive",
+                    pct(tol.si),
+                    fmt(r_hi, OHM),
+                    fmt(v_needed, V),
+                    fmt(emf, V),
+                    fmt(m.rated_current.si * r_hi, V),
+                    fmt(d.supply.min.si, V)
+                ),
+            ));
+        }
+    }
+    if let Some(tol) = t.driver_supply {
+        let v_drive = b.gate_driver.supply.si;
+        // Highest plateau: the threshold at its max, the plateau moving with
+        // it (V_plt = V_th + I/g_fs, AN608A), at the rated current.
+        let v_th_rise = sw.v_th.max.map(|x| x.si - sw.v_th.typ.si).unwrap_or(0.0);
+        let v_plt_max = match (sw.v_plateau, sw.g_fs) {
+            (Some(p), _) => p.si + v_th_rise,
+            (None, Some(g)) => sw.v_th.typ.si + v_th_rise + m.rated_current.si / g.si,
+            (None, None) => sw.v_th.typ.si + v_th_rise,
+        };
+        let low = v_drive * (1.0 - tol.si);
+        if low <= v_plt_max {
+            return Err(c.fail(
+                "tolerances.driver_supply",
+                format!(
+                    "at −{} the gate drive is {}, not above the switch's highest Miller plateau {} (V_th at its max, rated current); expected a drive that turns the switch fully on at every corner",
+                    pct(tol.si),
+                    fmt(low, V),
+                    fmt(v_plt_max, V)
+                ),
+            ));
+        }
+        let high = v_drive * (1.0 + tol.si);
+        if high > sw.v_gs_max.si {
+            return Err(c.fail(
+                "tolerances.driver_supply",
+                format!(
+                    "at +{} the gate drive is {}, above the switch's V_GS max {}; expected a drive within the gate rating at every corner",
+                    pct(tol.si),
+                    fmt(high, V),
+                    fmt(sw.v_gs_max.si, V)
+                ),
+            ));
+        }
+    }
+    Ok(())
 }

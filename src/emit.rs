@@ -685,6 +685,7 @@ fn bundled_names() -> String {
 /// Everything `plan` writes for a feasible plan.
 pub fn generate(
     plan: &Plan,
+    rows: &[crate::sweep::SweepRow],
     fpu: bool,
     c: bool,
     rust: bool,
@@ -713,7 +714,39 @@ pub fn generate(
         name: "plan.json".into(),
         text: seal(&plan_json(plan)),
     });
+    let chosen = Some(plan.pwm.frequency_hz);
+    let ripple_limit = plan
+        .constraints
+        .iter()
+        .find(|k| k.name == "ripple")
+        .map(|k| k.limit);
+    let loss_svg = crate::svg::loss_plot_svg(rows, chosen, plan.feasible_band_hz);
+    let thermal_svg =
+        crate::svg::thermal_ripple_plot_svg(rows, plan.thermal.limit_c, ripple_limit, chosen);
+    let html = crate::html::report_html(plan, &ctx, &loss_svg, &thermal_svg);
+    files.push(GeneratedFile {
+        name: "loss.svg".into(),
+        text: svg_with_marker(&loss_svg),
+    });
+    files.push(GeneratedFile {
+        name: "thermal.svg".into(),
+        text: svg_with_marker(&thermal_svg),
+    });
+    files.push(GeneratedFile {
+        name: "report.html".into(),
+        text: seal(&html),
+    });
     Ok(files)
+}
+
+/// A plot as a file: an XML comment with the sealed marker after the
+/// opening tag's line.
+fn svg_with_marker(svg: &str) -> String {
+    let text = match svg.find('>') {
+        Some(i) => format!("{}\n<!-- {MARKER_PLACEHOLDER} -->{}", &svg[..=i], &svg[i + 1..]),
+        None => svg.to_string(),
+    };
+    seal(&text)
 }
 
 /// `plan.json`: pretty, keys in declaration order, a final newline.

@@ -1696,3 +1696,86 @@ error: belt-feeder.yaml:16:17: design.constraints.max_ripple: expected a current
 "#,
     );
 }
+
+/// A tolerance above the 50 % the section accepts.
+#[test]
+fn tolerance_out_of_range() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "  objective: least-loss",
+            "  tolerances: { motor_resistance: \"60 %\" }\n  objective: least-loss",
+        )],
+        r#"
+error: belt-feeder.yaml:21:35: design.tolerances.motor_resistance: 60.0 % is out of range; expected 0 to 50.0 %
+ 21 |   tolerances: { motor_resistance: "60 %" }
+    |                                   ^
+"#,
+    );
+}
+
+/// The winding resistance at the top of its tolerance needs more voltage
+/// than the lowest supply gives.
+#[test]
+fn tolerance_motor_resistance_beyond_the_supply() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[
+            case("belt-feeder.yaml", r#"min: "20 V""#, r#"min: "19.2 V""#),
+            case(
+                "belt-feeder.yaml",
+                "  objective: least-loss",
+                "  tolerances: { motor_resistance: \"30 %\" }\n  objective: least-loss",
+            ),
+        ],
+        r#"
+error: belt-feeder.yaml:21:35: design.tolerances.motor_resistance: at +30.0 % the winding resistance is 806 mΩ and the motor needs 19.5 V (back-EMF 16.6 V + I·R 2.82 V), more than the lowest supply 19.2 V; expected a tolerance the supply can still drive
+ 21 |   tolerances: { motor_resistance: "30 %" }
+    |                                   ^
+"#,
+    );
+}
+
+/// The gate drive at the bottom of its tolerance does not clear the
+/// switch's highest Miller plateau.
+#[test]
+fn tolerance_driver_supply_below_the_plateau() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[
+            case("wren-hb24.yaml", r#"supply: "12 V""#, r#"supply: "8 V""#),
+            case(
+                "belt-feeder.yaml",
+                "  objective: least-loss",
+                "  tolerances: { driver_supply: \"40 %\" }\n  objective: least-loss",
+            ),
+        ],
+        r#"
+error: belt-feeder.yaml:21:32: design.tolerances.driver_supply: at −40.0 % the gate drive is 4.80 V, not above the switch's highest Miller plateau 5.40 V (V_th at its max, rated current); expected a drive that turns the switch fully on at every corner
+ 21 |   tolerances: { driver_supply: "40 %" }
+    |                                ^
+"#,
+    );
+}
+
+/// The gate drive at the top of its tolerance exceeds the switch's V_GS max.
+#[test]
+fn tolerance_driver_supply_above_v_gs_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[
+            case("wren-hb24.yaml", r#"supply: "12 V""#, r#"supply: "18 V""#),
+            case(
+                "belt-feeder.yaml",
+                "  objective: least-loss",
+                "  tolerances: { driver_supply: \"20 %\" }\n  objective: least-loss",
+            ),
+        ],
+        r#"
+error: belt-feeder.yaml:21:32: design.tolerances.driver_supply: at +20.0 % the gate drive is 21.6 V, above the switch's V_GS max 20.0 V; expected a drive within the gate rating at every corner
+ 21 |   tolerances: { driver_supply: "20 %" }
+    |                                ^
+"#,
+    );
+}

@@ -22,11 +22,14 @@ use tempfile::TempDir;
 const CASE: &str = "belt-feeder";
 const DESIGN: &str = "belt-feeder.yaml";
 const HEADER: &str = "belt_feeder_pwm.h";
-const FOUR: [&str; 4] = [
+const OUTPUTS: [&str; 7] = [
     "belt_feeder_pwm.h",
     "belt_feeder_pwm.rs",
+    "loss.svg",
     "plan.json",
     "rationale.md",
+    "report.html",
+    "thermal.svg",
 ];
 
 /// A folder with the case's inputs, planned into `out/`.
@@ -83,7 +86,7 @@ fn ripple_ma(diff: &str, sign: char) -> f64 {
 fn fresh_plan_is_current() {
     let dir = planned();
     let names: Vec<String> = out_files(dir.path()).into_keys().collect();
-    assert_eq!(names, FOUR, "exactly the four files, no temporaries left");
+    assert_eq!(names, OUTPUTS, "exactly the seven files, no temporaries left");
     let o = check(dir.path());
     assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
     assert!(
@@ -202,7 +205,7 @@ fn check_of_an_empty_folder_lists_every_file_missing() {
     copy_inputs(common::case(CASE), dir.path());
     let o = check(dir.path());
     assert_eq!(o.status.code(), Some(1), "{}", describe(&o));
-    for name in FOUR {
+    for name in OUTPUTS {
         assert!(
             stdout(&o).contains(&format!("out/{name}: missing")),
             "{name}\n{}",

@@ -210,10 +210,10 @@ fn every_golden_folder_is_a_case() {
     );
 }
 
-/// The expected files are the four `plan` promises, with names from the
+/// The expected files are the seven `plan` promises, with names from the
 /// design name, and each carries a hash marker.
 #[test]
-fn expected_folders_hold_the_four_files() {
+fn expected_folders_hold_the_seven_files() {
     if updating() {
         return;
     }
@@ -223,8 +223,11 @@ fn expected_folders_hold_the_four_files() {
         let want = [
             format!("{stem}.h"),
             format!("{stem}.rs"),
+            "loss.svg".to_string(),
             "plan.json".to_string(),
             "rationale.md".to_string(),
+            "report.html".to_string(),
+            "thermal.svg".to_string(),
         ];
         let mut want: Vec<String> = want.to_vec();
         want.sort();

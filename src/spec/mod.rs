@@ -341,6 +341,39 @@ pub struct DesignSpec {
     pub objective: ObjectiveSpec,
     #[serde(default)]
     pub outputs: OutputsSpec,
+    /// Part and operating spreads for the worst case and the Monte Carlo
+    /// (optional; without it only the switch's datasheet limits, the supply
+    /// range and the ambient range spread).
+    pub tolerances: Option<TolerancesSpec>,
+}
+
+/// Spreads of the parts the switch file does not describe, each written as
+/// ± a share of nominal (`"10 %"`); a missing one does not spread.
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TolerancesSpec {
+    /// How the Monte Carlo draws a parameter between its limits.
+    #[serde(default)]
+    pub distribution: DistributionSpec,
+    /// Winding resistance, ± around nominal.
+    pub motor_resistance: Option<Q<Ratio>>,
+    /// Winding inductance, ± around nominal.
+    pub motor_inductance: Option<Q<Ratio>>,
+    /// Gate-driver source and sink output resistances, ± around nominal.
+    pub driver_resistance: Option<Q<Ratio>>,
+    /// Gate-drive voltage, ± around nominal.
+    pub driver_supply: Option<Q<Ratio>>,
+}
+
+/// How a spread parameter is drawn between its limits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum DistributionSpec {
+    /// Uniform between the limits.
+    #[default]
+    Uniform,
+    /// Normal with the limits at ±3σ, truncated there.
+    Normal,
 }
 
 #[derive(Debug, Clone, Deserialize)]

@@ -4,7 +4,7 @@
 //!
 //! Each golden case is a self-contained folder `tests/golden/<case>/` holding
 //! the design `<case>.yaml`, its board and `switches/<switch>.yaml`, so the
-//! binary resolves every input inside the folder; `expected/` holds the four
+//! binary resolves every input inside the folder; `expected/` holds the seven
 //! files `plan` writes. The binary always runs with the case folder as its
 //! working directory and the design given as the bare file name, because the
 //! generated files record the input paths as spelled on the command line.

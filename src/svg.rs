@@ -1,0 +1,1186 @@
+//! The two review plots as SVG text: loss components stacked against PWM
+//! frequency, and junction temperature and motor-current ripple against
+//! PWM frequency, both from sweep rows.
+//!
+//! **Invariant:** pure and deterministic: hand-written SVG (no font files,
+//! no plotting library), coordinates at two decimals, no map iteration, no
+//! external references (no `url(…)`, no links). Every series is one element
+//! whose `class` names it (`series conduction`, `limit ripple-limit`,
+//! `chosen`), and every tick carries its value in `data-value`, so tests can
+//! read the plot back. Text is escaped for XML.
+
+use std::fmt::Write as _;
+
+use crate::model::LossFigures;
+use crate::sweep::SweepRow;
+use crate::units::{Dimension, format_quantity};
+
+/// The SVG namespace, needed by a standalone `.svg` file; the HTML report
+/// strips it (inline SVG in HTML5 is in that namespace already).
+pub const SVG_NAMESPACE_ATTR: &str = r#" xmlns="http://www.w3.org/2000/svg""#;
+
+const FONT: &str = "DejaVu Sans, Liberation Sans, Arial, Helvetica, sans-serif";
+const INK: &str = "#222222";
+const GRID: &str = "#d9d9d9";
+const GRID_MINOR: &str = "#eeeeee";
+const LIMIT: &str = "#b2182b";
+const CHOSEN: &str = "#111111";
+
+/// One loss component: key (CSS class), legend label, colour, and value.
+struct Component {
+    key: &'static str,
+    label: &'static str,
+    colour: &'static str,
+    get: fn(&LossFigures) -> f64,
+}
+
+/// Stacking order, bottom first: the frequency-independent terms under the
+/// frequency-proportional ones. Colours from the Okabe–Ito palette (common
+/// practice for colour-blind-safe plots), plus two muted tones.
+const COMPONENTS: &[Component] = &[
+    Component {
+        key: "conduction",
+        label: "conduction",
+        colour: "#0072b2",
+        get: |l| l.conduction,
+    },
+    Component {
+        key: "freewheel-diode",
+        label: "freewheel diode",
+        colour: "#999933",
+        get: |l| l.freewheel_diode,
+    },
+    Component {
+        key: "motor-ripple-copper",
+        label: "motor ripple copper",
+        colour: "#8c6d31",
+        get: |l| l.motor_ripple_copper,
+    },
+    Component {
+        key: "switching",
+        label: "switching",
+        colour: "#e69f00",
+        get: |l| l.switching,
+    },
+    Component {
+        key: "output-capacitance",
+        label: "output capacitance",
+        colour: "#56b4e9",
+        get: |l| l.output_capacitance,
+    },
+    Component {
+        key: "reverse-recovery",
+        label: "reverse recovery",
+        colour: "#cc79a7",
+        get: |l| l.reverse_recovery,
+    },
+    Component {
+        key: "dead-time-diode",
+        label: "dead-time diode",
+        colour: "#009e73",
+        get: |l| l.dead_time_diode,
+    },
+    Component {
+        key: "gate-drive",
+        label: "gate drive",
+        colour: "#d55e00",
+        get: |l| l.gate_drive,
+    },
+];
+
+/// The CSS class keys of the loss components with a nonzero value in some
+/// row, bottom of the stack first (what [`loss_plot_svg`] draws).
+pub fn nonzero_components(rows: &[SweepRow]) -> Vec<&'static str> {
+    COMPONENTS
+        .iter()
+        .filter(|c| rows.iter().any(|r| (c.get)(&r.losses_w) > 0.0))
+        .map(|c| c.key)
+        .collect()
+}
+
+/// The plot colour of a loss component by its label (`"gate drive"`),
+/// so tables can match the plot.
+pub fn loss_colour(label: &str) -> Option<&'static str> {
+    COMPONENTS
+        .iter()
+        .find(|c| c.label == label)
+        .map(|c| c.colour)
+}
+
+/// Escape text for XML and HTML (element content and quoted attributes).
+pub fn escape(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for ch in text.chars() {
+        match ch {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            c => out.push(c),
+        }
+    }
+    out
+}
+
+/// A coordinate at two decimals, never `-0.00`.
+fn n(v: f64) -> String {
+    let s = format!("{:.2}", if v.is_finite() { v } else { 0.0 });
+    if s == "-0.00" { "0.00".into() } else { s }
+}
+
+/// A number with up to three decimals and no trailing zeros.
+fn trim(v: f64) -> String {
+    let s = format!("{v:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.into() }
+}
+
+/// A tick label in hertz with its prefix: 20 kHz, 1.5 MHz.
+fn hz_label(v: f64) -> String {
+    if v >= 1e6 {
+        format!("{} MHz", trim(v / 1e6))
+    } else if v >= 1e3 {
+        format!("{} kHz", trim(v / 1e3))
+    } else {
+        format!("{} Hz", trim(v))
+    }
+}
+
+/// Logarithmic frequency axis mapped onto `[px0, px1]`.
+struct LogAxis {
+    lo: f64,
+    hi: f64,
+    px0: f64,
+    px1: f64,
+}
+
+impl LogAxis {
+    /// Spans the given positive frequencies; a single value gets ±20 %.
+    fn spanning(values: &[f64], px0: f64, px1: f64) -> Option<LogAxis> {
+        let pos = values.iter().copied().filter(|v| v.is_finite() && *v > 0.0);
+        let lo = pos.clone().fold(f64::INFINITY, f64::min);
+        let hi = pos.fold(f64::NEG_INFINITY, f64::max);
+        if !lo.is_finite() || !hi.is_finite() {
+            return None;
+        }
+        let (lo, hi) = if hi / lo < 1.0001 {
+            (lo / 1.2, hi * 1.2)
+        } else {
+            (lo, hi)
+        };
+        Some(LogAxis { lo, hi, px0, px1 })
+    }
+
+    fn x(&self, f: f64) -> f64 {
+        let t = (f.max(self.lo * 1e-3).ln() - self.lo.ln()) / (self.hi.ln() - self.lo.ln());
+        self.px0 + t * (self.px1 - self.px0)
+    }
+
+    fn contains(&self, f: f64) -> bool {
+        f >= self.lo * (1.0 - 1e-9) && f <= self.hi * (1.0 + 1e-9)
+    }
+
+    /// Major ticks at 1-2-5 per decade (only 1 when the axis spans more
+    /// than four decades) and minor ones at the other integers.
+    fn ticks(&self) -> (Vec<f64>, Vec<f64>) {
+        let (mut major, mut minor) = (Vec::new(), Vec::new());
+        let k0 = self.lo.log10().floor() as i32;
+        let k1 = self.hi.log10().ceil() as i32;
+        let wide = k1 - k0 > 4;
+        for k in k0..=k1 {
+            for m in 1..=9 {
+                let v = f64::from(m) * 10f64.powi(k);
+                if !self.contains(v) {
+                    continue;
+                }
+                let is_major = if wide { m == 1 } else { matches!(m, 1 | 2 | 5) };
+                if is_major {
+                    major.push(v);
+                } else {
+                    minor.push(v);
+                }
+            }
+        }
+        // Fewer than two labels cannot show the scale: label the ends too.
+        if major.len() < 2 {
+            major.insert(0, self.lo);
+            major.push(self.hi);
+            major.sort_by(f64::total_cmp);
+            major.dedup();
+        }
+        (major, minor)
+    }
+}
+
+/// Linear value axis mapped onto `[bottom, top]` pixels (top < bottom).
+struct LinAxis {
+    lo: f64,
+    hi: f64,
+    step: f64,
+    bottom: f64,
+    top: f64,
+}
+
+/// A 1-2-5 step giving about `target` intervals over `span`.
+fn nice_step(span: f64, target: f64) -> f64 {
+    let raw = (span / target).max(f64::MIN_POSITIVE);
+    let mag = 10f64.powf(raw.log10().floor());
+    let norm = raw / mag;
+    let m = if norm <= 1.0 {
+        1.0
+    } else if norm <= 2.0 {
+        2.0
+    } else if norm <= 5.0 {
+        5.0
+    } else {
+        10.0
+    };
+    m * mag
+}
+
+impl LinAxis {
+    /// A range on 1-2-5 steps holding every finite value; `zero` pins the
+    /// lower end at zero (for losses and ripple).
+    fn spanning(values: &[f64], zero: bool, bottom: f64, top: f64) -> LinAxis {
+        let fin = values.iter().copied().filter(|v| v.is_finite());
+        let mut lo = fin.clone().fold(f64::INFINITY, f64::min);
+        let mut hi = fin.fold(f64::NEG_INFINITY, f64::max);
+        if !lo.is_finite() {
+            (lo, hi) = (0.0, 1.0);
+        }
+        if zero {
+            lo = lo.min(0.0);
+        }
+        if hi - lo <= hi.abs().max(lo.abs()) * 1e-9 {
+            let pad = if hi == 0.0 { 1.0 } else { hi.abs() * 0.1 };
+            (lo, hi) = (lo - pad, hi + pad);
+            if zero {
+                lo = lo.max(0.0);
+            }
+        }
+        let step = nice_step(hi - lo, 5.0);
+        // Tolerance inward, so a value on a step is not pushed a step out.
+        let lo = (lo / step + 1e-9).floor() * step;
+        let hi = (hi / step - 1e-9).ceil() * step;
+        LinAxis {
+            lo,
+            hi,
+            step,
+            bottom,
+            top,
+        }
+    }
+
+    fn y(&self, v: f64) -> f64 {
+        self.bottom - (v - self.lo) / (self.hi - self.lo) * (self.bottom - self.top)
+    }
+
+    fn ticks(&self) -> Vec<f64> {
+        let count = ((self.hi - self.lo) / self.step).round() as i64;
+        (0..=count)
+            .map(|i| {
+                let v = self.lo + i as f64 * self.step;
+                // Snap float noise (0.30000000000000004) to the step grid.
+                (v / self.step).round() * self.step
+            })
+            .collect()
+    }
+
+    /// Decimals that show the step exactly, after scaling by `factor`.
+    fn decimals(&self, factor: f64) -> usize {
+        let s = self.step * factor;
+        if s >= 1.0 {
+            0
+        } else {
+            (-s.log10().floor()) as usize
+        }
+    }
+}
+
+/// The plot rectangle.
+#[derive(Clone, Copy)]
+struct Frame {
+    left: f64,
+    right: f64,
+    top: f64,
+    bottom: f64,
+}
+
+fn svg_open(out: &mut String, width: f64, height: f64, title: &str) {
+    let _ = writeln!(
+        out,
+        r#"<svg{SVG_NAMESPACE_ATTR} width="{w}" height="{h}" viewBox="0 0 {w} {h}" font-family="{FONT}" font-size="12" role="img">"#,
+        w = n(width),
+        h = n(height)
+    );
+    let _ = writeln!(out, "<title>{}</title>", escape(title));
+    let _ = writeln!(
+        out,
+        r##"<rect class="background" x="0" y="0" width="{}" height="{}" fill="#ffffff"/>"##,
+        n(width),
+        n(height)
+    );
+}
+
+/// A text element; `extra` holds further attributes (its own `fill`
+/// replaces the default ink).
+fn text(out: &mut String, x: f64, y: f64, anchor: &str, extra: &str, body: &str) {
+    let fill = if extra.contains(" fill=") {
+        String::new()
+    } else {
+        format!(r#" fill="{INK}""#)
+    };
+    let _ = writeln!(
+        out,
+        r#"<text x="{}" y="{}" text-anchor="{anchor}"{fill}{extra}>{}</text>"#,
+        n(x),
+        n(y),
+        escape(body)
+    );
+}
+
+fn line(out: &mut String, class: &str, (x1, y1): (f64, f64), (x2, y2): (f64, f64), style: &str) {
+    let _ = writeln!(
+        out,
+        r#"<line class="{class}" x1="{}" y1="{}" x2="{}" y2="{}" {style}/>"#,
+        n(x1),
+        n(y1),
+        n(x2),
+        n(y2)
+    );
+}
+
+/// Frequency grid and tick labels under the frame (labels only when
+/// `labels`, for the lower of two stacked panels).
+fn x_grid(out: &mut String, ax: &LogAxis, fr: Frame, labels: bool) {
+    let (major, minor) = ax.ticks();
+    for v in &minor {
+        let x = ax.x(*v);
+        line(
+            out,
+            "grid minor",
+            (x, fr.top),
+            (x, fr.bottom),
+            &format!(r#"stroke="{GRID_MINOR}" stroke-width="1""#),
+        );
+    }
+    for v in &major {
+        let x = ax.x(*v);
+        line(
+            out,
+            "grid major",
+            (x, fr.top),
+            (x, fr.bottom),
+            &format!(r#"stroke="{GRID}" stroke-width="1""#),
+        );
+        if labels {
+            let _ = writeln!(
+                out,
+                r#"<text class="tick x-tick" data-value="{}" x="{}" y="{}" text-anchor="middle" fill="{INK}">{}</text>"#,
+                v,
+                n(x),
+                n(fr.bottom + 18.0),
+                escape(&hz_label(*v))
+            );
+        }
+    }
+}
+
+/// Value grid with tick labels left of the frame, and the axis title
+/// rotated along it.
+fn y_grid(out: &mut String, ax: &LinAxis, fr: Frame, factor: f64, title: &str) {
+    let d = ax.decimals(factor);
+    for v in ax.ticks() {
+        let y = ax.y(v);
+        line(
+            out,
+            "grid major",
+            (fr.left, y),
+            (fr.right, y),
+            &format!(r#"stroke="{GRID}" stroke-width="1""#),
+        );
+        let _ = writeln!(
+            out,
+            r#"<text class="tick y-tick" data-value="{}" x="{}" y="{}" text-anchor="end" fill="{INK}">{:.d$}</text>"#,
+            v,
+            n(fr.left - 6.0),
+            n(y + 4.0),
+            v * factor
+        );
+    }
+    let cy = (fr.top + fr.bottom) / 2.0;
+    let _ = writeln!(
+        out,
+        r#"<text class="axis-title" x="{}" y="{}" text-anchor="middle" fill="{INK}" transform="rotate(-90 {} {})">{}</text>"#,
+        n(fr.left - 52.0),
+        n(cy),
+        n(fr.left - 52.0),
+        n(cy),
+        escape(title)
+    );
+}
+
+fn frame_border(out: &mut String, fr: Frame) {
+    let _ = writeln!(
+        out,
+        r#"<rect class="frame" x="{}" y="{}" width="{}" height="{}" fill="none" stroke="{INK}" stroke-width="1"/>"#,
+        n(fr.left),
+        n(fr.top),
+        n(fr.right - fr.left),
+        n(fr.bottom - fr.top)
+    );
+}
+
+fn x_title(out: &mut String, fr: Frame) {
+    text(
+        out,
+        (fr.left + fr.right) / 2.0,
+        fr.bottom + 40.0,
+        "middle",
+        r#" class="axis-title""#,
+        "PWM frequency (Hz, logarithmic)",
+    );
+}
+
+/// Rows in ascending frequency.
+fn sorted(rows: &[SweepRow]) -> Vec<&SweepRow> {
+    let mut v: Vec<&SweepRow> = rows.iter().collect();
+    v.sort_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz));
+    v
+}
+
+/// Where feasibility changes between two neighbouring rows: at the
+/// solver's band edge when one lies between them (it is exact), else at
+/// the feasible row, so the shading covers all not shown feasible.
+fn boundary(a: &SweepRow, b: &SweepRow, band: Option<[f64; 2]>) -> f64 {
+    let (fa, fb) = (a.frequency_hz, b.frequency_hz);
+    let at_feasible = if a.feasible { fa } else { fb };
+    band.into_iter()
+        .flatten()
+        .find(|e| *e >= fa && *e <= fb)
+        .unwrap_or(at_feasible)
+}
+
+/// Runs of infeasible rows as frequency spans, edges as [`boundary`]
+/// places them, the axis end where the run reaches it. Each with the names
+/// of the constraints that fail in it.
+fn infeasible_runs(
+    rows: &[&SweepRow],
+    ax: &LogAxis,
+    band: Option<[f64; 2]>,
+) -> Vec<(f64, f64, Vec<String>)> {
+    let mut runs = Vec::new();
+    let mut i = 0;
+    while i < rows.len() {
+        if rows[i].feasible {
+            i += 1;
+            continue;
+        }
+        let start = i;
+        let mut names: Vec<String> = Vec::new();
+        while i < rows.len() && !rows[i].feasible {
+            for f in &rows[i].failing {
+                if !names.contains(f) {
+                    names.push(f.clone());
+                }
+            }
+            i += 1;
+        }
+        let lo = if start == 0 {
+            ax.lo
+        } else {
+            boundary(rows[start - 1], rows[start], band)
+        };
+        let hi = if i >= rows.len() {
+            ax.hi
+        } else {
+            boundary(rows[i - 1], rows[i], band)
+        };
+        runs.push((lo, hi, names));
+    }
+    runs
+}
+
+/// Wash out the infeasible spans and name what fails there, at height
+/// `label_y` (no names when `None`).
+fn shade_infeasible(
+    out: &mut String,
+    runs: &[(f64, f64, Vec<String>)],
+    ax: &LogAxis,
+    fr: Frame,
+    label_y: Option<f64>,
+) {
+    for (lo, hi, names) in runs {
+        let (x0, x1) = (ax.x(*lo), ax.x(*hi));
+        let why = if names.is_empty() {
+            "infeasible".to_string()
+        } else {
+            format!("fails: {}", names.join(", "))
+        };
+        let _ = writeln!(
+            out,
+            r##"<rect class="infeasible" x="{}" y="{}" width="{}" height="{}" fill="#ffffff" fill-opacity="0.62"><title>{}</title></rect>"##,
+            n(x0),
+            n(fr.top),
+            n((x1 - x0).max(0.0)),
+            n(fr.bottom - fr.top),
+            escape(&why)
+        );
+        let _ = writeln!(
+            out,
+            r##"<rect class="infeasible-strip" x="{}" y="{}" width="{}" height="4" fill="#9e9e9e"/>"##,
+            n(x0),
+            n(fr.top),
+            n((x1 - x0).max(0.0))
+        );
+        // About 6 px per character at 10 px type.
+        let fits = x1 - x0 > 6.0 * why.chars().count() as f64 + 8.0;
+        if let Some(y) = label_y.filter(|_| fits) {
+            text(
+                out,
+                (x0 + x1) / 2.0,
+                y,
+                "middle",
+                r##" class="infeasible-label" font-size="10" fill-opacity="0.8""##,
+                &why,
+            );
+        }
+    }
+}
+
+/// A vertical marker at the chosen frequency, with its label at the top.
+/// A vertical marker at the chosen frequency, with its label (on a white
+/// plate, so lines under it stay readable) at height `label_y`.
+fn chosen_line(out: &mut String, ax: &LogAxis, fr: Frame, f: f64, label_y: Option<f64>) {
+    let x = ax.x(f);
+    line(
+        out,
+        "chosen chosen-line",
+        (x, fr.top),
+        (x, fr.bottom),
+        &format!(r#"stroke="{CHOSEN}" stroke-width="1.2" stroke-dasharray="2 3""#),
+    );
+    let Some(y) = label_y else {
+        return;
+    };
+    let label = format!("chosen {}", format_quantity(f, Dimension::Frequency, 5));
+    // About 7.4 px per character of 12 px bold type.
+    let w = 7.4 * label.chars().count() as f64 + 8.0;
+    let (x0, tx, anchor) = if fr.right - x > w + 8.0 {
+        (x + 2.0, x + 6.0, "start")
+    } else {
+        (x - 2.0 - w, x - 6.0, "end")
+    };
+    let _ = writeln!(
+        out,
+        r##"<rect class="chosen-plate" x="{}" y="{}" width="{}" height="17" fill="#ffffff" fill-opacity="0.88"/>"##,
+        n(x0),
+        n(y - 13.0),
+        n(w)
+    );
+    text(
+        out,
+        tx,
+        y,
+        anchor,
+        r#" class="chosen-label" font-weight="bold""#,
+        &label,
+    );
+}
+
+/// Label height in the junction panel: near the top, but clear of the
+/// limit line.
+fn clear_of(limit_y: f64, fr: Frame) -> f64 {
+    let y = fr.top + 30.0;
+    if (limit_y - (y - 5.0)).abs() < 14.0 {
+        limit_y + 22.0
+    } else {
+        y
+    }
+}
+
+fn chosen_dot(out: &mut String, class: &str, x: f64, y: f64, value: f64) {
+    let _ = writeln!(
+        out,
+        r##"<circle class="chosen {class}" data-value="{value}" cx="{}" cy="{}" r="5" fill="#ffffff" stroke="{CHOSEN}" stroke-width="2"/>"##,
+        n(x),
+        n(y)
+    );
+}
+
+/// Value at `f` by linear interpolation in log frequency between rows
+/// (rows where `get` is `None` break the curve: no value there).
+fn interpolate(rows: &[&SweepRow], f: f64, get: impl Fn(&SweepRow) -> Option<f64>) -> Option<f64> {
+    if let Some(r) = rows.iter().find(|r| r.frequency_hz == f) {
+        return get(r);
+    }
+    let w = rows
+        .windows(2)
+        .find(|w| w[0].frequency_hz < f && f < w[1].frequency_hz)?;
+    let (a, b) = (get(w[0])?, get(w[1])?);
+    let span = (w[1].frequency_hz / w[0].frequency_hz).ln();
+    if span <= 0.0 {
+        return Some(a);
+    }
+    let t = (f / w[0].frequency_hz).ln() / span;
+    Some(a + t * (b - a))
+}
+
+/// One legend entry kind.
+enum Swatch<'a> {
+    Fill(&'a str),
+    Line {
+        colour: &'a str,
+        dash: Option<&'a str>,
+    },
+    Wash,
+    Dot,
+}
+
+/// A legend column at `(x, y)`, one entry per 20 px.
+fn legend(out: &mut String, x: f64, y: f64, entries: &[(Swatch, String)]) {
+    let _ = writeln!(out, r#"<g class="legend">"#);
+    for (i, (sw, label)) in entries.iter().enumerate() {
+        let yy = y + 20.0 * i as f64;
+        match sw {
+            Swatch::Fill(c) => {
+                let _ = writeln!(
+                    out,
+                    r#"<rect x="{}" y="{}" width="18" height="12" fill="{c}"/>"#,
+                    n(x),
+                    n(yy - 10.0)
+                );
+            }
+            Swatch::Line { colour, dash } => {
+                let dash = dash
+                    .map(|d| format!(r#" stroke-dasharray="{d}""#))
+                    .unwrap_or_default();
+                let _ = writeln!(
+                    out,
+                    r#"<line x1="{}" y1="{}" x2="{}" y2="{}" stroke="{colour}" stroke-width="2"{dash}/>"#,
+                    n(x),
+                    n(yy - 4.0),
+                    n(x + 18.0),
+                    n(yy - 4.0)
+                );
+            }
+            Swatch::Wash => {
+                let _ = writeln!(
+                    out,
+                    r##"<rect x="{}" y="{}" width="18" height="12" fill="#f1f1f1" stroke="#9e9e9e" stroke-width="1"/>"##,
+                    n(x),
+                    n(yy - 10.0)
+                );
+            }
+            Swatch::Dot => {
+                let _ = writeln!(
+                    out,
+                    r##"<circle cx="{}" cy="{}" r="5" fill="#ffffff" stroke="{CHOSEN}" stroke-width="2"/>"##,
+                    n(x + 9.0),
+                    n(yy - 4.0)
+                );
+            }
+        }
+        text(out, x + 26.0, yy, "start", "", label);
+    }
+    let _ = writeln!(out, "</g>");
+}
+
+/// A message in place of a plot when there is nothing to draw.
+fn empty_plot(title: &str, width: f64, height: f64) -> String {
+    let mut out = String::new();
+    svg_open(&mut out, width, height, title);
+    text(
+        &mut out,
+        width / 2.0,
+        height / 2.0,
+        "middle",
+        r#" class="no-data""#,
+        "no realisable setting in the swept range",
+    );
+    out.push_str("</svg>\n");
+    out
+}
+
+/// Scale factor and unit for values up to `max`: milli below 1.
+fn scaled_unit(max: f64, unit: &str) -> (f64, String) {
+    if max.abs() < 1.0 {
+        (1e3, format!("m{unit}"))
+    } else {
+        (1.0, unit.to_string())
+    }
+}
+
+const LOSS_W: f64 = 960.0;
+const LOSS_H: f64 = 470.0;
+
+/// Loss components of the whole stage at the rated case, stacked against
+/// PWM frequency on a logarithmic axis: one filled polygon per nonzero
+/// component (`class="series <component>"`), the total as a line, the
+/// infeasible spans washed out and labelled with what fails there, the
+/// solver's feasible band edges dotted, the chosen setting marked.
+pub fn loss_plot_svg(
+    rows: &[SweepRow],
+    chosen_hz: Option<f64>,
+    band_hz: Option<[f64; 2]>,
+) -> String {
+    let title = "Power loss of the stage against PWM frequency (rated case)";
+    let rows = sorted(rows);
+    let fr = Frame {
+        left: 78.0,
+        right: 740.0,
+        top: 44.0,
+        bottom: 400.0,
+    };
+    let mut fs: Vec<f64> = rows.iter().map(|r| r.frequency_hz).collect();
+    fs.extend(chosen_hz);
+    let Some(ax) = LogAxis::spanning(&fs, fr.left, fr.right).filter(|_| !rows.is_empty()) else {
+        return empty_plot(title, LOSS_W, LOSS_H);
+    };
+    let comps: Vec<&Component> = COMPONENTS
+        .iter()
+        .filter(|c| rows.iter().any(|r| (c.get)(&r.losses_w) > 0.0))
+        .collect();
+    let tops: Vec<f64> = rows
+        .iter()
+        .map(|r| {
+            let stacked: f64 = comps.iter().map(|c| (c.get)(&r.losses_w).max(0.0)).sum();
+            stacked.max(r.losses_w.total)
+        })
+        .collect();
+    let max = tops.iter().copied().fold(0.0, f64::max);
+    let ay = LinAxis::spanning(&[0.0, max], true, fr.bottom, fr.top);
+    let (factor, unit) = scaled_unit(ay.hi, "W");
+
+    let mut out = String::new();
+    svg_open(&mut out, LOSS_W, LOSS_H, title);
+    text(
+        &mut out,
+        fr.left,
+        24.0,
+        "start",
+        r#" class="plot-title" font-size="15" font-weight="bold""#,
+        title,
+    );
+    x_grid(&mut out, &ax, fr, true);
+    y_grid(&mut out, &ay, fr, factor, &format!("Power loss ({unit})"));
+
+    // Stacked areas: each polygon runs along its top left to right and
+    // back along its base.
+    let mut base = vec![0.0; rows.len()];
+    for c in &comps {
+        let top: Vec<f64> = rows
+            .iter()
+            .zip(&base)
+            .map(|(r, b)| b + (c.get)(&r.losses_w).max(0.0))
+            .collect();
+        let mut pts: Vec<String> = rows
+            .iter()
+            .zip(&top)
+            .map(|(r, v)| format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(*v))))
+            .collect();
+        pts.extend(
+            rows.iter()
+                .zip(&base)
+                .rev()
+                .map(|(r, v)| format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(*v)))),
+        );
+        let _ = writeln!(
+            out,
+            r##"<polygon id="loss-{k}" class="series {k}" points="{}" fill="{}" fill-opacity="0.9" stroke="#ffffff" stroke-width="0.6"/>"##,
+            pts.join(" "),
+            c.colour,
+            k = c.key
+        );
+        base = top;
+    }
+    let total: Vec<String> = rows
+        .iter()
+        .map(|r| format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(r.losses_w.total))))
+        .collect();
+    let _ = writeln!(
+        out,
+        r#"<polyline id="loss-total" class="series total" points="{}" fill="none" stroke="{INK}" stroke-width="1.6"/>"#,
+        total.join(" ")
+    );
+
+    let runs = infeasible_runs(&rows, &ax, band_hz);
+    shade_infeasible(&mut out, &runs, &ax, fr, Some(fr.top + 18.0));
+    let band: Vec<f64> = band_hz
+        .map(|b| b.to_vec())
+        .unwrap_or_default()
+        .into_iter()
+        .filter(|f| ax.contains(*f))
+        .collect();
+    for f in &band {
+        let x = ax.x(*f);
+        line(
+            &mut out,
+            "band-edge",
+            (x, fr.top),
+            (x, fr.bottom),
+            r##"stroke="#4d4d4d" stroke-width="1" stroke-dasharray="1 3""##,
+        );
+    }
+    let mut chosen_drawn = false;
+    if let Some(f) = chosen_hz.filter(|f| ax.contains(*f)) {
+        chosen_line(&mut out, &ax, fr, f, Some(fr.top + 30.0));
+        if let Some(v) = interpolate(&rows, f, |r| Some(r.losses_w.total)) {
+            chosen_dot(&mut out, "chosen-total", ax.x(f), ay.y(v), v);
+            chosen_drawn = true;
+        }
+    }
+    frame_border(&mut out, fr);
+    x_title(&mut out, fr);
+
+    let mut entries: Vec<(Swatch, String)> = vec![(
+        Swatch::Line {
+            colour: INK,
+            dash: None,
+        },
+        "total".into(),
+    )];
+    entries.extend(
+        comps
+            .iter()
+            .rev()
+            .map(|c| (Swatch::Fill(c.colour), c.label.to_string())),
+    );
+    if chosen_drawn {
+        entries.push((Swatch::Dot, "chosen setting".into()));
+    }
+    if !runs.is_empty() {
+        entries.push((Swatch::Wash, "fails a constraint".into()));
+    }
+    if !band.is_empty() {
+        entries.push((
+            Swatch::Line {
+                colour: "#4d4d4d",
+                dash: Some("1 3"),
+            },
+            "feasible band edge".into(),
+        ));
+    }
+    legend(&mut out, fr.right + 22.0, fr.top + 12.0, &entries);
+    out.push_str("</svg>\n");
+    out
+}
+
+/// Polyline segments through the rows where `get` has a value (a `None`,
+/// e.g. thermal runaway, breaks the curve).
+fn segments(
+    rows: &[&SweepRow],
+    ax: &LogAxis,
+    ay: &LinAxis,
+    get: impl Fn(&SweepRow) -> Option<f64>,
+) -> Vec<String> {
+    let mut segs = Vec::new();
+    let mut cur: Vec<String> = Vec::new();
+    for r in rows {
+        match get(r).filter(|v| v.is_finite()) {
+            Some(v) => cur.push(format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(v)))),
+            None => {
+                if !cur.is_empty() {
+                    segs.push(cur.join(" "));
+                    cur.clear();
+                }
+            }
+        }
+    }
+    if !cur.is_empty() {
+        segs.push(cur.join(" "));
+    }
+    segs
+}
+
+fn series(out: &mut String, id: &str, colour: &str, dash: Option<&str>, segs: &[String]) {
+    let dash = dash
+        .map(|d| format!(r#" stroke-dasharray="{d}""#))
+        .unwrap_or_default();
+    // One element per series: a path with one sub-path per segment.
+    let d: Vec<String> = segs
+        .iter()
+        .map(|s| {
+            let mut pts = s.split(' ');
+            let first = pts.next().unwrap_or("0,0");
+            let rest: Vec<&str> = pts.collect();
+            if rest.is_empty() {
+                format!("M{first}")
+            } else {
+                format!("M{first} L{}", rest.join(" "))
+            }
+        })
+        .collect();
+    let _ = writeln!(
+        out,
+        r#"<path id="thermal-{id}" class="series {id}" d="{}" fill="none" stroke="{colour}" stroke-width="2"{dash} stroke-linejoin="round"/>"#,
+        d.join(" ")
+    );
+}
+
+fn limit_line(out: &mut String, class: &str, ay: &LinAxis, fr: Frame, value: f64, label: &str) {
+    let y = ay.y(value);
+    let _ = writeln!(
+        out,
+        r#"<line class="limit {class}" data-value="{value}" x1="{}" y1="{}" x2="{}" y2="{}" stroke="{LIMIT}" stroke-width="1.8" stroke-dasharray="7 4"/>"#,
+        n(fr.left),
+        n(y),
+        n(fr.right),
+        n(y)
+    );
+    // Above the line, or below it when the frame's top is too close.
+    let ty = if y - fr.top < 22.0 { y + 15.0 } else { y - 6.0 };
+    text(
+        out,
+        fr.right - 6.0,
+        ty,
+        "end",
+        &format!(r#" class="limit-label" fill="{LIMIT}""#),
+        label,
+    );
+}
+
+const THERMAL_W: f64 = 960.0;
+const THERMAL_H: f64 = 640.0;
+const RATED: &str = "#0072b2";
+const HIGH_BUS: &str = "#d55e00";
+const RIPPLE: &str = "#009e73";
+
+/// Junction temperature (rated case and highest supply) and motor-current
+/// ripple against PWM frequency, in two stacked panels sharing the
+/// logarithmic frequency axis; the junction limit and the ripple limit as
+/// dashed lines (`class="limit junction-limit"`, `"limit ripple-limit"`),
+/// infeasible spans washed out, the chosen setting marked in both.
+pub fn thermal_ripple_plot_svg(
+    rows: &[SweepRow],
+    t_j_limit_c: f64,
+    ripple_limit_a: Option<f64>,
+    chosen_hz: Option<f64>,
+) -> String {
+    let title = "Junction temperature and motor-current ripple against PWM frequency";
+    let rows = sorted(rows);
+    let top_fr = Frame {
+        left: 78.0,
+        right: 740.0,
+        top: 44.0,
+        bottom: 300.0,
+    };
+    let low_fr = Frame {
+        top: 330.0,
+        bottom: 570.0,
+        ..top_fr
+    };
+    let mut fs: Vec<f64> = rows.iter().map(|r| r.frequency_hz).collect();
+    fs.extend(chosen_hz);
+    let Some(ax) = LogAxis::spanning(&fs, top_fr.left, top_fr.right).filter(|_| !rows.is_empty())
+    else {
+        return empty_plot(title, THERMAL_W, THERMAL_H);
+    };
+    let mut temps: Vec<f64> = rows
+        .iter()
+        .flat_map(|r| [r.junction_c, r.junction_high_bus_c])
+        .flatten()
+        .collect();
+    temps.push(t_j_limit_c);
+    let at = LinAxis::spanning(&temps, false, top_fr.bottom, top_fr.top);
+    let mut ripples: Vec<f64> = rows.iter().map(|r| r.ripple_pp_a).collect();
+    ripples.extend(ripple_limit_a);
+    let ar = LinAxis::spanning(&ripples, true, low_fr.bottom, low_fr.top);
+    let (rf, ru) = scaled_unit(ar.hi, "A");
+    let runs = infeasible_runs(&rows, &ax, None);
+    let chosen = chosen_hz.filter(|f| ax.contains(*f));
+
+    let mut out = String::new();
+    svg_open(&mut out, THERMAL_W, THERMAL_H, title);
+    text(
+        &mut out,
+        top_fr.left,
+        24.0,
+        "start",
+        r#" class="plot-title" font-size="15" font-weight="bold""#,
+        title,
+    );
+
+    // Upper panel: junction temperatures.
+    let _ = writeln!(out, r#"<g class="panel junction">"#);
+    x_grid(&mut out, &ax, top_fr, false);
+    y_grid(&mut out, &at, top_fr, 1.0, "Junction temperature (°C)");
+    let rated = segments(&rows, &ax, &at, |r| r.junction_c);
+    let high = segments(&rows, &ax, &at, |r| r.junction_high_bus_c);
+    series(&mut out, "junction-rated", RATED, None, &rated);
+    series(&mut out, "junction-high-bus", HIGH_BUS, None, &high);
+    shade_infeasible(
+        &mut out,
+        &runs,
+        &ax,
+        top_fr,
+        Some((top_fr.top + top_fr.bottom) / 2.0),
+    );
+    limit_line(
+        &mut out,
+        "junction-limit",
+        &at,
+        top_fr,
+        t_j_limit_c,
+        &format!(
+            "junction limit {}",
+            format_quantity(t_j_limit_c, Dimension::Temperature, 3)
+        ),
+    );
+    let mut dots = false;
+    if let Some(f) = chosen {
+        chosen_line(
+            &mut out,
+            &ax,
+            top_fr,
+            f,
+            Some(clear_of(at.y(t_j_limit_c), top_fr)),
+        );
+        for (class, get) in [
+            (
+                "chosen-junction-rated",
+                (|r: &SweepRow| r.junction_c) as fn(&SweepRow) -> Option<f64>,
+            ),
+            ("chosen-junction-high-bus", |r: &SweepRow| {
+                r.junction_high_bus_c
+            }),
+        ] {
+            if let Some(v) = interpolate(&rows, f, get) {
+                chosen_dot(&mut out, class, ax.x(f), at.y(v), v);
+                dots = true;
+            }
+        }
+    }
+    frame_border(&mut out, top_fr);
+    let runaway = rows
+        .iter()
+        .any(|r| r.junction_c.is_none() || r.junction_high_bus_c.is_none());
+    let mut entries = vec![
+        (
+            Swatch::Line {
+                colour: RATED,
+                dash: None,
+            },
+            "rated supply".to_string(),
+        ),
+        (
+            Swatch::Line {
+                colour: HIGH_BUS,
+                dash: None,
+            },
+            "highest supply".to_string(),
+        ),
+        (
+            Swatch::Line {
+                colour: LIMIT,
+                dash: Some("7 4"),
+            },
+            "junction limit".to_string(),
+        ),
+    ];
+    if dots {
+        entries.push((Swatch::Dot, "chosen setting".into()));
+    }
+    if !runs.is_empty() {
+        entries.push((Swatch::Wash, "fails a constraint".into()));
+    }
+    if runaway {
+        entries.push((Swatch::Wash, "gap: thermal runaway".into()));
+    }
+    legend(&mut out, top_fr.right + 22.0, top_fr.top + 12.0, &entries);
+    let _ = writeln!(out, "</g>");
+
+    // Lower panel: ripple.
+    let _ = writeln!(out, r#"<g class="panel ripple">"#);
+    x_grid(&mut out, &ax, low_fr, true);
+    y_grid(
+        &mut out,
+        &ar,
+        low_fr,
+        rf,
+        &format!("Ripple, peak to peak ({ru})"),
+    );
+    let rip = segments(&rows, &ax, &ar, |r| Some(r.ripple_pp_a));
+    series(&mut out, "ripple", RIPPLE, None, &rip);
+    shade_infeasible(&mut out, &runs, &ax, low_fr, None);
+    if let Some(lim) = ripple_limit_a {
+        limit_line(
+            &mut out,
+            "ripple-limit",
+            &ar,
+            low_fr,
+            lim,
+            &format!(
+                "ripple limit {}",
+                format_quantity(lim, Dimension::Current, 3)
+            ),
+        );
+    }
+    let mut dot = false;
+    if let Some(f) = chosen {
+        chosen_line(&mut out, &ax, low_fr, f, None);
+        if let Some(v) = interpolate(&rows, f, |r| Some(r.ripple_pp_a)) {
+            chosen_dot(&mut out, "chosen-ripple", ax.x(f), ar.y(v), v);
+            dot = true;
+        }
+    }
+    frame_border(&mut out, low_fr);
+    x_title(&mut out, low_fr);
+    let mut entries = vec![(
+        Swatch::Line {
+            colour: RIPPLE,
+            dash: None,
+        },
+        "worst of both supplies".to_string(),
+    )];
+    if ripple_limit_a.is_some() {
+        entries.push((
+            Swatch::Line {
+                colour: LIMIT,
+                dash: Some("7 4"),
+            },
+            "ripple limit".into(),
+        ));
+    }
+    if dot {
+        entries.push((Swatch::Dot, "chosen setting".into()));
+    }
+    legend(&mut out, low_fr.right + 22.0, low_fr.top + 12.0, &entries);
+    let _ = writeln!(out, "</g>");
+    out.push_str("</svg>\n");
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// 1-2-5 steps by hand: span 0.78 over 5 → 0.156 → 0.2.
+    #[test]
+    fn nice_steps_are_one_two_five() {
+        assert_eq!(nice_step(0.78, 5.0), 0.2);
+        assert_eq!(nice_step(85.0, 5.0), 20.0);
+        assert_eq!(nice_step(4.0, 5.0), 1.0);
+        assert!((nice_step(0.04, 5.0) - 0.01).abs() < 1e-15);
+    }
+
+    /// Decade 10 kHz–100 kHz: majors 10k, 20k, 50k, 100k.
+    #[test]
+    fn log_ticks_one_decade() {
+        let ax = LogAxis::spanning(&[10e3, 100e3], 0.0, 100.0).expect("axis");
+        let (major, minor) = ax.ticks();
+        assert_eq!(major, vec![10e3, 20e3, 50e3, 100e3]);
+        assert_eq!(minor.len(), 6);
+        assert_eq!(n(ax.x(10e3)), "0.00");
+        assert_eq!(n(ax.x(100e3)), "100.00");
+    }
+
+    #[test]
+    fn escapes_markup() {
+        assert_eq!(escape("R<5 & Ω°\"'"), "R&lt;5 &amp; Ω°&quot;&#39;");
+        assert_eq!(n(-0.001), "0.00");
+        assert_eq!(hz_label(20e3), "20 kHz");
+        assert_eq!(hz_label(1.5e6), "1.5 MHz");
+    }
+}
