@@ -50,6 +50,9 @@ pub struct Search {
     pub exhaustive_limit: usize,
     /// Points of the log grid.
     pub grid_points: usize,
+    /// When the grid finds nothing feasible, every setting is evaluated if
+    /// there are at most this many.
+    pub infeasible_exhaustive_limit: usize,
 }
 
 impl Default for Search {
@@ -57,6 +60,7 @@ impl Default for Search {
         Search {
             exhaustive_limit: 1500,
             grid_points: 96,
+            infeasible_exhaustive_limit: 50_000,
         }
     }
 }
@@ -554,76 +558,236 @@ pub fn solve(ev: &Evaluator, obj: Objective) -> Solution {
 
 /// Solve; `search` sets the exhaustive limit and the grid.
 pub fn solve_with(ev: &Evaluator, obj: Objective, search: Search) -> Solution {
-    let settings = realisable(ev);
+    let all = realisable(ev);
+    // A setting below the resolution limit fails whatever the physics says,
+    // so the search runs over the others only; along that list every
+    // remaining constraint varies smoothly with frequency. When none is
+    // fine enough the whole list is searched, to explain the conflict.
+    let fine_enough: Vec<PwmSetting> = all
+        .iter()
+        .filter(|s| {
+            ev.limits
+                .min_resolution_bits
+                .is_none_or(|b| s.resolution_bits >= b - EPS)
+        })
+        .copied()
+        .collect();
+    if !fine_enough.is_empty() && fine_enough.len() < all.len() {
+        let first = search_list(ev, obj, search, fine_enough);
+        if first.feasible {
+            return Solution {
+                realisable: all.len(),
+                ..first
+            };
+        }
+        // Nothing fine enough is feasible: the nearest compromise may be a
+        // coarser setting, so look at the whole list.
+        let whole = search_list(ev, obj, search, all.clone());
+        return Solution {
+            realisable: all.len(),
+            evaluated: whole.evaluated + first.evaluated,
+            ..whole
+        };
+    }
+    search_list(ev, obj, search, all)
+}
+
+/// Search one list of settings (sorted by frequency).
+fn search_list(
+    ev: &Evaluator,
+    obj: Objective,
+    search: Search,
+    settings: Vec<PwmSetting>,
+) -> Solution {
     let dead = ev.dead_time_choice();
     let mut evaluated: Vec<Option<Candidate>> = vec![None; settings.len()];
     let mut count = 0usize;
     let mut eval = |i: usize, evaluated: &mut Vec<Option<Candidate>>| {
         if evaluated[i].is_none() {
-            evaluated[i] = ev.candidate(&settings[i], &dead);
-            count += 1;
+            let (c, n) = candidate_at_frequency(ev, &settings[i], &dead);
+            evaluated[i] = c;
+            count += n;
         }
     };
     if settings.len() <= search.exhaustive_limit {
         for i in 0..settings.len() {
             eval(i, &mut evaluated);
         }
+        return finish(ev, obj, settings.len(), &settings, evaluated, count);
+    }
+    let n = settings.len();
+    let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
+    for &i in &grid {
+        eval(i, &mut evaluated);
+    }
+    // Bracket the best grid point (feasible first, else least violation).
+    // The quietest objective needs the exact least loss first: bracket the
+    // least-loss point for it.
+    let bracket_obj = if obj == Objective::Quietest {
+        Objective::LeastLoss
     } else {
-        let n = settings.len();
-        let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
-        for &i in &grid {
+        obj
+    };
+    let best_grid = grid
+        .iter()
+        .copied()
+        .filter(|&i| evaluated[i].is_some())
+        .min_by(|&a, &b| {
+            rank(
+                bracket_obj,
+                evaluated[a].as_ref(),
+                evaluated[b].as_ref(),
+                None,
+            )
+        });
+    if let Some(g) = best_grid {
+        let pos = grid.iter().position(|&i| i == g).unwrap_or(0);
+        let lo = if pos == 0 { 0 } else { grid[pos - 1] };
+        let hi = if pos + 1 >= grid.len() {
+            n - 1
+        } else {
+            grid[pos + 1]
+        };
+        for i in lo..=hi {
             eval(i, &mut evaluated);
         }
-        // Bracket the best grid point (feasible first; else least violation).
-        let floor = loss_floor(obj, evaluated.iter().flatten());
-        let best_grid = grid
-            .iter()
-            .copied()
-            .filter(|&i| evaluated[i].is_some())
-            .min_by(|&a, &b| rank(obj, evaluated[a].as_ref(), evaluated[b].as_ref(), floor));
-        if let Some(g) = best_grid {
-            let pos = grid.iter().position(|&i| i == g).unwrap_or(0);
-            let lo = if pos == 0 { 0 } else { grid[pos - 1] };
-            let hi = if pos + 1 >= grid.len() {
-                n - 1
-            } else {
-                grid[pos + 1]
-            };
-            for i in lo..=hi {
-                eval(i, &mut evaluated);
-            }
-            // The quietest objective depends on the loss floor, found above;
-            // its best is the top feasible edge: bracket that too.
-        }
-        // Refine every feasibility edge between grid neighbours, so the
-        // feasible band is exact.
-        for w in grid.windows(2) {
-            let (a, b) = (w[0], w[1]);
-            let fa = evaluated[a].as_ref().map(|c| c.feasible);
-            let fb = evaluated[b].as_ref().map(|c| c.feasible);
-            if fa != fb {
-                let (mut lo, mut hi) = (a, b);
-                while hi - lo > 1 {
-                    let mid = (lo + hi) / 2;
-                    eval(mid, &mut evaluated);
-                    if evaluated[mid].as_ref().map(|c| c.feasible) == fa {
-                        lo = mid
-                    } else {
-                        hi = mid
-                    }
-                }
-                // The edge settings are candidates for a boundary optimum:
-                // search a bracket on the feasible side.
-                let (s, e) = if fa == Some(true) {
-                    (lo.saturating_sub(search.grid_points.max(8)), lo)
+    }
+    // Refine every feasibility edge between grid neighbours by bisection,
+    // so the feasible band, and an optimum on its edge, are exact.
+    for w in grid.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        let fa = evaluated[a].as_ref().map(|c| c.feasible);
+        let fb = evaluated[b].as_ref().map(|c| c.feasible);
+        if fa != fb {
+            let (mut lo, mut hi) = (a, b);
+            while hi - lo > 1 {
+                let mid = (lo + hi) / 2;
+                eval(mid, &mut evaluated);
+                if evaluated[mid].as_ref().map(|c| c.feasible) == fa {
+                    lo = mid
                 } else {
-                    (hi, (hi + search.grid_points.max(8)).min(n - 1))
-                };
-                let _ = (s, e);
+                    hi = mid
+                }
             }
         }
     }
-    finish(ev, obj, &settings, evaluated, count)
+    // The grid found nothing feasible: feasibility may come in islands the
+    // grid stepped over, so look at every setting (when that is affordable)
+    // before calling the design infeasible.
+    if !evaluated.iter().flatten().any(|c| c.feasible) && n <= search.infeasible_exhaustive_limit {
+        for i in 0..n {
+            eval(i, &mut evaluated);
+        }
+    }
+    if obj == Objective::Quietest {
+        // Above the least-loss point the loss rises with frequency, so the
+        // settings within the allowance end at one edge: find it by
+        // bisection between the last grid point inside and the next.
+        let floor = loss_floor(Objective::Quietest, evaluated.iter().flatten());
+        if let Some(floor) = floor {
+            let inside = |c: Option<&Candidate>| {
+                c.is_some_and(|c| {
+                    c.feasible && c.rated.losses.total <= floor * (1.0 + QUIET_LOSS_ALLOWANCE)
+                })
+            };
+            if let Some(pos) = grid.iter().rposition(|&i| inside(evaluated[i].as_ref())) {
+                let mut lo = grid[pos];
+                let mut hi = grid.get(pos + 1).copied().unwrap_or(n - 1);
+                if lo != hi {
+                    eval(hi, &mut evaluated);
+                    if inside(evaluated[hi].as_ref()) {
+                        lo = hi;
+                    }
+                    while hi - lo > 1 {
+                        let mid = (lo + hi) / 2;
+                        eval(mid, &mut evaluated);
+                        if inside(evaluated[mid].as_ref()) {
+                            lo = mid
+                        } else {
+                            hi = mid
+                        }
+                    }
+                }
+                // The neighbours, for the binding marks.
+                for i in [lo.saturating_sub(1), (lo + 1).min(n - 1)] {
+                    eval(i, &mut evaluated);
+                }
+            }
+        }
+    }
+    finish(ev, obj, settings.len(), &settings, evaluated, count)
+}
+
+/// The candidate at a setting's frequency: the listed setting (the most
+/// duty steps), or, when only the duty range fails, another divider of the
+/// same frequency whose coarser counts round the duty limits favourably.
+/// Returns the candidate and how many settings were evaluated.
+fn candidate_at_frequency(
+    ev: &Evaluator,
+    s: &PwmSetting,
+    dead: &DeadTimeChoice,
+) -> (Option<Candidate>, usize) {
+    let Some(c) = ev.candidate(s, dead) else {
+        return (None, 1);
+    };
+    let only_duty = !c.feasible
+        && c.checks
+            .iter()
+            .filter(|k| !k.pass)
+            .all(|k| k.name == "duty-range");
+    if !only_duty {
+        return (Some(c), 1);
+    }
+    let mut n = 1;
+    for alt in same_frequency_settings(ev, s) {
+        n += 1;
+        if let Some(a) = ev.candidate(&alt, dead) {
+            if a.feasible {
+                return (Some(a), n);
+            }
+        }
+    }
+    (Some(c), n)
+}
+
+/// Every other realisable setting with the same divider × period product
+/// (so the same frequency), most duty steps first.
+fn same_frequency_settings(ev: &Evaluator, s: &PwmSetting) -> Vec<PwmSetting> {
+    let product = s.divider * s.period_ticks;
+    let dividers: Vec<u64> = match &ev.timer.prescaler {
+        crate::timer::Prescaler::Ratios { ratios } => ratios.clone(),
+        crate::timer::Prescaler::Linear {
+            min_divider,
+            max_divider,
+            ..
+        } => {
+            let mut d = Vec::new();
+            let mut k = 1u64;
+            while k * k <= product {
+                if product % k == 0 {
+                    for x in [k, product / k] {
+                        if (*min_divider..=*max_divider).contains(&x) {
+                            d.push(x);
+                        }
+                    }
+                }
+                k += 1;
+            }
+            d
+        }
+    };
+    let mut out: Vec<PwmSetting> = dividers
+        .into_iter()
+        .filter(|&d| d != s.divider && product % d == 0)
+        .filter_map(|d| ev.timer.setting(d, product / d, s.alignment).ok())
+        .collect();
+    out.sort_by(|a, b| {
+        b.duty_steps
+            .cmp(&a.duty_steps)
+            .then(a.divider.cmp(&b.divider))
+    });
+    out.dedup_by_key(|x| x.divider);
+    out
 }
 
 fn grid_indices(settings: &[PwmSetting], points: usize) -> Vec<usize> {
@@ -694,6 +858,7 @@ pub fn violation(c: &Candidate) -> f64 {
 fn finish(
     ev: &Evaluator,
     obj: Objective,
+    realisable: usize,
     settings: &[PwmSetting],
     evaluated: Vec<Option<Candidate>>,
     count: usize,
@@ -727,7 +892,7 @@ fn finish(
                 ev.limits.f_min_hz, ev.limits.f_max_hz
             )],
             evaluated: count,
-            realisable: settings.len(),
+            realisable,
         };
     };
     let mut chosen = evaluated[b].clone().expect("best index is evaluated");
@@ -759,7 +924,7 @@ fn finish(
         alternatives,
         conflict,
         evaluated: count,
-        realisable: settings.len(),
+        realisable,
     }
 }
 

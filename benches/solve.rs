@@ -1,0 +1,135 @@
+//! Solver timing on the demo (boards/belt-feeder.yaml), median of 20 runs:
+//! (a) `solve` as bundled (64 MHz, 16-bit counter, linear prescaler);
+//! (b) the demo on a 170 MHz, 16-bit timer with a 16-bit linear prescaler
+//!     (1..=65536), edge and centre aligned;
+//! (c) the whole `pwmplan plan --json` process on the demo, spawned 20 times
+//!     (writes its files into a temporary folder).
+//! Run with `cargo bench --bench solve`.
+
+use std::path::Path;
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+use pwmplan::design::load_design;
+use pwmplan::load::Origin;
+use pwmplan::model::Evaluator;
+use pwmplan::solve::{self, Objective, Solution};
+use pwmplan::timer::{Alignment, Prescaler, TimerModel};
+
+const RUNS: usize = 20;
+
+/// Median of `RUNS` timings of `f`, with the last result.
+fn median_of<T>(mut f: impl FnMut() -> T) -> (Duration, T) {
+    let mut times = Vec::with_capacity(RUNS);
+    let mut last = f(); // warm-up, not timed
+    for _ in 0..RUNS {
+        let start = Instant::now();
+        last = f();
+        times.push(start.elapsed());
+    }
+    times.sort();
+    (times[RUNS / 2], last)
+}
+
+fn ms(d: Duration) -> f64 {
+    d.as_secs_f64() * 1e3
+}
+
+fn row(label: &str, d: Duration, sol: Option<&Solution>) {
+    let detail = match sol {
+        Some(s) => {
+            let f = s
+                .chosen
+                .as_ref()
+                .map(|c| format!("{:.1} Hz", c.setting.frequency_hz))
+                .unwrap_or_else(|| "none".into());
+            format!(
+                "{} of {} settings evaluated, chose {f}",
+                s.evaluated, s.realisable
+            )
+        }
+        None => String::new(),
+    };
+    println!("{label:<44} {:>10.2}   {detail}", ms(d));
+}
+
+/// The demo's timer swapped for a 170 MHz, 16-bit one with a 16-bit
+/// prescaler (dead-time generator and minimum pulse kept).
+fn fast_timer(t: &TimerModel) -> TimerModel {
+    TimerModel {
+        clock_hz: 170e6,
+        counter_bits: 16,
+        prescaler: Prescaler::Linear {
+            min_divider: 1,
+            max_divider: 65_536,
+            register_offset: 1,
+        },
+        alignments: vec![Alignment::Edge, Alignment::Centre],
+        dead_time: t.dead_time.clone(),
+        compare: t.compare,
+    }
+}
+
+/// Median wall time of `pwmplan plan --json` (the demo), or why not.
+fn plan_process(exe: &Path) -> Result<Duration, String> {
+    if !exe.exists() {
+        return Err(format!(
+            "{} is missing; build it with `cargo build --release`",
+            exe.display()
+        ));
+    }
+    let dir = tempfile::tempdir().map_err(|e| format!("no temporary folder: {e}"))?;
+    let run = || {
+        Command::new(exe)
+            .args(["plan", "--json"])
+            .current_dir(dir.path())
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .status()
+    };
+    match run() {
+        Ok(s) if s.success() => {}
+        Ok(s) => return Err(format!("`pwmplan plan --json` exited with {s}")),
+        Err(e) => return Err(format!("cannot run {}: {e}", exe.display())),
+    }
+    let (d, last) = median_of(run);
+    match last {
+        Ok(s) if s.success() => Ok(d),
+        _ => Err("`pwmplan plan --json` failed during the timed runs".into()),
+    }
+}
+
+fn main() {
+    let path = format!("{}/boards/belt-feeder.yaml", env!("CARGO_MANIFEST_DIR"));
+    let design = match load_design(Origin::Disk(path.into())) {
+        Ok(d) => d,
+        Err(e) => {
+            eprintln!("the demo design does not load: {e}");
+            std::process::exit(1);
+        }
+    };
+    let ev = Evaluator::new(&design);
+    let mut fast = ev.clone();
+    fast.timer = fast_timer(&ev.timer);
+
+    println!("solve benchmark, median of {RUNS} runs");
+    println!("{:<44} {:>10}", "case", "ms");
+    let (d, sol) = median_of(|| solve::solve(&ev, Objective::LeastLoss));
+    row("(a) solve, demo", d, Some(&sol));
+    let (d, sol) = median_of(|| solve::solve(&fast, Objective::LeastLoss));
+    row(
+        "(b) solve, demo on 170 MHz/16-bit/16-bit psc",
+        d,
+        Some(&sol),
+    );
+    // Built by cargo for benchmarks with the bench (release) profile:
+    // target/release/pwmplan.
+    let exe = Path::new(env!("CARGO_BIN_EXE_pwmplan"));
+    match plan_process(exe) {
+        Ok(d) => {
+            row("(c) pwmplan plan --json, whole process", d, None);
+            println!("    ({})", exe.display());
+        }
+        Err(why) => println!("(c) pwmplan plan --json: not timed: {why}"),
+    }
+}
