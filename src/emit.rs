@@ -743,7 +743,11 @@ pub fn generate(
 /// opening tag's line.
 fn svg_with_marker(svg: &str) -> String {
     let text = match svg.find('>') {
-        Some(i) => format!("{}\n<!-- {MARKER_PLACEHOLDER} -->{}", &svg[..=i], &svg[i + 1..]),
+        Some(i) => format!(
+            "{}\n<!-- {MARKER_PLACEHOLDER} -->{}",
+            &svg[..=i],
+            &svg[i + 1..]
+        ),
         None => svg.to_string(),
     };
     seal(&text)

@@ -741,10 +741,10 @@ fn candidate_at_frequency(
     let mut n = 1;
     for alt in same_frequency_settings(ev, s) {
         n += 1;
-        if let Some(a) = ev.candidate(&alt, dead) {
-            if a.feasible {
-                return (Some(a), n);
-            }
+        if let Some(a) = ev.candidate(&alt, dead)
+            && a.feasible
+        {
+            return (Some(a), n);
         }
     }
     (Some(c), n)
@@ -764,7 +764,7 @@ fn same_frequency_settings(ev: &Evaluator, s: &PwmSetting) -> Vec<PwmSetting> {
             let mut d = Vec::new();
             let mut k = 1u64;
             while k * k <= product {
-                if product % k == 0 {
+                if product.is_multiple_of(k) {
                     for x in [k, product / k] {
                         if (*min_divider..=*max_divider).contains(&x) {
                             d.push(x);
@@ -778,7 +778,7 @@ fn same_frequency_settings(ev: &Evaluator, s: &PwmSetting) -> Vec<PwmSetting> {
     };
     let mut out: Vec<PwmSetting> = dividers
         .into_iter()
-        .filter(|&d| d != s.divider && product % d == 0)
+        .filter(|&d| d != s.divider && product.is_multiple_of(d))
         .filter_map(|d| ev.timer.setting(d, product / d, s.alignment).ok())
         .collect();
     out.sort_by(|a, b| {

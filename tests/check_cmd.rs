@@ -86,7 +86,10 @@ fn ripple_ma(diff: &str, sign: char) -> f64 {
 fn fresh_plan_is_current() {
     let dir = planned();
     let names: Vec<String> = out_files(dir.path()).into_keys().collect();
-    assert_eq!(names, OUTPUTS, "exactly the seven files, no temporaries left");
+    assert_eq!(
+        names, OUTPUTS,
+        "exactly the seven files, no temporaries left"
+    );
     let o = check(dir.path());
     assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
     assert!(

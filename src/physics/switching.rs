@@ -262,11 +262,14 @@ pub fn rc_time_s(tau_s: f64, v_from: f64, v_target: f64, v_to: f64) -> f64 {
     tau_s * (num / den).ln()
 }
 
-/// One hard turn-on at `i_on_a` and one hard turn-off at `i_off_a` against
-/// `v_bus_v` (inductive clamped load). `r_ds_on_ohm` is the on-resistance in use
-/// (hot), needed for the two-point C_gd refinement. Currents are magnitudes; the
-/// caller decides which device hard-switches (see `losses`).
-pub fn transitions(
+/// The first-order gate-charge model (kept as the reference path; `transitions`
+/// refines it): one hard turn-on at `i_on_a` and one hard turn-off at `i_off_a`
+/// against `v_bus_v` (inductive clamped load). `r_ds_on_ohm` is the
+/// on-resistance in use (hot), needed for the two-point C_gd refinement.
+/// Currents are magnitudes; the caller decides which device hard-switches (see
+/// `losses`). Linear crossovers E = ½·V·I·(t_a + t_b) (Graovac 2006), Miller
+/// charge by `miller_charge_c`, delays with the single C_iss.
+pub fn transitions_first_order(
     sw: &SwitchModel,
     drive: &GateDrive,
     v_bus_v: f64,
@@ -328,6 +331,254 @@ pub fn transitions(
         e_on_j: crossover_energy_j(v, i_on, t_ri, t_fv),
         e_off_j: crossover_energy_j(v, i_off, t_rv, t_fi),
     })
+}
+
+/// `(∫C dv, ∫v·C dv)` of the power law through `(v0, c0)` and `(v1, c1)`,
+/// C = c0·(v/v0)^n, over `[a, b]` (closed form: ∫v^m dv = (b^(m+1) − a^(m+1))/(m+1),
+/// ln(b/a) for m = −1).
+fn power_law_integrals(p0: (f64, f64), p1: (f64, f64), a: f64, b: f64) -> (f64, f64) {
+    let ((v0, c0), (v1, c1)) = (p0, p1);
+    let n = if v1 > v0 {
+        (c1 / c0).ln() / (v1 / v0).ln()
+    } else {
+        0.0
+    };
+    let k = c0 / v0.powf(n);
+    let f = |m: f64| {
+        if (m + 1.0).abs() < 1e-9 {
+            (b / a).ln()
+        } else {
+            (b.powf(m + 1.0) - a.powf(m + 1.0)) / (m + 1.0)
+        }
+    };
+    (k * f(n), k * f(n + 1.0))
+}
+
+/// Miller integrals of the C_rss (= C_gd) curve while V_DS swings between
+/// `v_lo_v` and `v_hi_v` with the gate held at the plateau `v_plateau_v`:
+/// `(Q_gd = ∫C_gd(v − V_plt) dv, W_gd = ∫v·C_gd(v − V_plt) dv)`. `None` without
+/// a curve.
+///
+/// Why the shift: C_gd is a function of the drain-gate voltage V_DG = V_DS −
+/// V_GS, while the datasheet C_rss curve is taken at V_GS = 0 (V_DG = V_DS);
+/// on the plateau V_DG = V_DS − V_plt, and below V_DS = V_plt the gate-drain
+/// overlap is accumulated and C_gd is at its largest (the curve's low-voltage
+/// end is used there). This is own reasoning from the definition of C_rss
+/// (AN608A gives the curve at V_GS = 0), confirmed by the ngspice reference.
+///
+/// The curve is the one `c_gd_f` interpolates (log-log between points, i.e. a
+/// power law per segment, integrated in closed form; constant beyond the end
+/// points). Q_gd is the charge the gate current moves during the swing; W_gd
+/// gives the crossover energy (`miller_energy_j`). Why integrals: C_gd rises
+/// by one to two decades as V_DS falls, so the two-point mean of Graovac 2006
+/// overstates the charge and the linear ramp overstates the energy; Ren, Xu,
+/// Zhou, Lee, *Analytical Loss Model of Power MOSFET*, IEEE Trans. Power
+/// Electronics 21(2), 2006, model the nonlinear C_gd for the same reason (from
+/// memory). Q = ∫C(v) dv is the definition of charge on a nonlinear
+/// capacitance (AN608A).
+pub fn miller_integrals(
+    sw: &SwitchModel,
+    v_lo_v: f64,
+    v_hi_v: f64,
+    v_plateau_v: f64,
+) -> Option<(f64, f64)> {
+    let mut pts: Vec<(f64, f64)> = sw
+        .c_rss_curve
+        .iter()
+        .copied()
+        .filter(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
+        .collect();
+    if pts.is_empty() || !(v_lo_v.is_finite() && v_hi_v.is_finite() && v_plateau_v.is_finite()) {
+        return None;
+    }
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    // Integrate over u = v − V_plt; W = ∫(u + V_plt)·C(u) du = W_u + V_plt·Q_u.
+    let shift = v_plateau_v.max(0.0);
+    let (lo, hi) = (v_lo_v.max(0.0) - shift, v_hi_v.max(0.0) - shift);
+    if hi <= lo {
+        return Some((0.0, 0.0));
+    }
+    let (first, last) = (pts[0], pts[pts.len() - 1]);
+    let mut q = 0.0;
+    let mut w = 0.0;
+    let mut flat = |c: f64, a: f64, b: f64| {
+        if b > a {
+            q += c * (b - a);
+            w += 0.5 * c * (b * b - a * a);
+        }
+    };
+    flat(first.1, lo, hi.min(first.0));
+    flat(last.1, lo.max(last.0), hi);
+    for seg in pts.windows(2) {
+        let (a, b) = (lo.max(seg[0].0), hi.min(seg[1].0));
+        if b > a {
+            let (dq, dw) = power_law_integrals(seg[0], seg[1], a, b);
+            q += dq;
+            w += dw;
+        }
+    }
+    Some((q, w + shift * q))
+}
+
+/// Input capacitance at low V_DS (after the Miller plateau), from the slope of
+/// the datasheet gate-charge curve above the plateau:
+/// C_iss,on = (Q_g − Q_gs − Q_gd)/(V_GS,spec − V_plt) (AN608A describes this
+/// segment; its slope is C_gs + C_gd at low V_DS, larger than the tabulated
+/// C_iss taken at a high V_DS). The turn-off delay starts from this state.
+///
+/// Used only when the plateau is read from the same curve (`v_plateau_v`
+/// given); otherwise, or if the slope is not above C_iss, returns `c_iss_f`.
+pub fn input_capacitance_on_state_f(sw: &SwitchModel) -> f64 {
+    let Some(v_plt) = sw.v_plateau_v else {
+        return sw.c_iss_f;
+    };
+    let dq = sw.q_g_c - sw.q_gs_c - sw.q_gd_c;
+    let dv = sw.q_g_at_v_gs_v - v_plt;
+    if dq.is_finite() && dv.is_finite() && dq > 0.0 && dv > 0.0 && dq / dv > sw.c_iss_f {
+        dq / dv
+    } else {
+        sw.c_iss_f
+    }
+}
+
+/// Energy of a Miller (voltage) transition at gate current `i_g_a` and constant
+/// load current `i_a`: with the gate current flowing into C_gd alone,
+/// dt = C_gd(v)·dv/I_g, so E = ∫v·I dt = I·W_gd/I_g with W_gd = ∫v·C_gd dv
+/// (own derivation from the charge balance on C_gd, the premise of the
+/// gate-charge method of Graovac 2006 and Balogh). Equals the linear-ramp
+/// ½·V·I·Q_gd/I_g for a constant C_gd. `None` for a non-positive gate current.
+pub fn miller_energy_j(i_a: f64, w_gd_j: f64, i_g_a: f64) -> Option<f64> {
+    (i_g_a > 0.0 && i_g_a.is_finite() && w_gd_j.is_finite()).then(|| i_a.abs() * w_gd_j / i_g_a)
+}
+
+/// Plateau voltage at drain current `i_a`, square-law form.
+///
+/// When both the datasheet plateau V_plt,ds and g_fs are given, the saturated
+/// square law I = K·(V_GS − V_th)² (Sedra, Smith, *Microelectronic Circuits*,
+/// the MOSFET saturation law; from memory) with g_fs = 2·K·(V_plt,ds − V_th)
+/// at the datasheet plateau gives
+/// V_plt(I) = V_th + √(2·I·(V_plt,ds − V_th)/g_fs).
+/// It assumes g_fs is quoted at the gate-charge test current and takes the
+/// 250 µA threshold as the square-law threshold (both approximations: the
+/// switch file does not carry the test current). Otherwise falls back to
+/// `plateau_voltage_v` (the first-order choice).
+pub fn plateau_at_current_v(sw: &SwitchModel, i_a: f64) -> Result<f64, SwitchingError> {
+    match (sw.v_plateau_v, sw.g_fs_s) {
+        (Some(v_plt), Some(g_fs))
+            if v_plt.is_finite() && g_fs.is_finite() && g_fs > 0.0 && v_plt > sw.v_th_v =>
+        {
+            let i = finite_non_negative("i_a", i_a.abs())?;
+            let v_th = finite_positive("v_th_v", sw.v_th_v)?;
+            Ok(v_th + (2.0 * i * (v_plt - v_th) / g_fs).sqrt())
+        }
+        _ => plateau_voltage_v(sw, i_a),
+    }
+}
+
+/// Gate charge moved while the drain current changes (gate from V_th to the
+/// plateau at the switched current): Q_gs2 scaled by the gate swing,
+/// Q = Q_gs2·(V_plt(I) − V_th)/(V_plt,ds − V_th), i.e. the input capacitance
+/// between threshold and plateau taken as constant (the same assumption as
+/// `q_gs2_c`; AN608A for the segment). Without a datasheet plateau, Q_gs2.
+pub fn current_transition_charge_c(
+    sw: &SwitchModel,
+    v_plateau_at_i_v: f64,
+) -> Result<f64, SwitchingError> {
+    let q_gs2 = q_gs2_c(sw, v_plateau_at_i_v)?;
+    match sw.v_plateau_v {
+        Some(v_ds) if v_ds > sw.v_th_v => {
+            let x = ((v_plateau_at_i_v - sw.v_th_v) / (v_ds - sw.v_th_v)).max(0.0);
+            Ok(q_gs2 * x)
+        }
+        _ => Ok(q_gs2),
+    }
+}
+
+/// One hard turn-on at `i_on_a` and one hard turn-off at `i_off_a` against
+/// `v_bus_v` (inductive clamped load). `r_ds_on_ohm` is the on-resistance in use
+/// (hot). Currents are magnitudes; the caller decides which device
+/// hard-switches (see `losses`).
+///
+/// This is `transitions_first_order` with these refinements, each validated
+/// against the ngspice reference in `tests/spice/` (see its README); each is
+/// active only when the data it needs are in the switch file, so a file
+/// without them gives the first-order result:
+/// 1. Plateau at the switched current (`plateau_at_current_v`; needs
+///    `v_plateau_v` and `g_fs_s`), and the current-transition charge for that
+///    plateau (`current_transition_charge_c`).
+/// 2. With a C_rss curve, the Miller phase uses the integrals of the curve at
+///    V_DG = V_DS − V_plt (`miller_integrals`): t_fv = Q_gd/I_g,on, t_rv =
+///    Q_gd/I_g,off over the swing from V to R_ds(on)·I, and the
+///    voltage-transition energies are I·W_gd/I_g (`miller_energy_j`) instead of
+///    ½·V·I·t.
+/// 3. The turn-off delay discharges the on-state input capacitance
+///    (`input_capacitance_on_state_f`; needs `v_plateau_v`), not the C_iss
+///    tabulated at high V_DS.
+pub fn transitions(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    r_ds_on_ohm: f64,
+) -> Result<Transitions, SwitchingError> {
+    let mut tr = transitions_first_order(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm)?;
+    let v = tr.v_bus_v;
+    let (i_on, i_off) = (tr.i_on_a, tr.i_off_a);
+    let v_plt_on = plateau_at_current_v(sw, i_on)?;
+    let v_plt_off = plateau_at_current_v(sw, i_off)?;
+    let (i_g_on, i_g_off) = gate_currents_a(drive, sw.r_g_int_ohm, v_plt_on, v_plt_off)?;
+    let bad = SwitchingError::InvalidParameter {
+        name: "gate current",
+        value: i_g_off,
+    };
+    let q_ri = current_transition_charge_c(sw, v_plt_on)?;
+    let q_fi = current_transition_charge_c(sw, v_plt_off)?;
+    let t_ri = charge_time_s(q_ri, i_g_on).ok_or(bad.clone())?;
+    let t_fi = charge_time_s(q_fi, i_g_off).ok_or(bad.clone())?;
+    let miller = |i: f64, v_plt: f64| {
+        let v_low = (r_ds_on_ohm * i).clamp(0.0, v);
+        miller_integrals(sw, v_low, v, v_plt)
+    };
+    let (q_gd_on, q_gd_off, e_fv, e_rv) = match (miller(i_on, v_plt_on), miller(i_off, v_plt_off)) {
+        (Some((q_on, w_on)), Some((q_off, w_off))) => (
+            q_on,
+            q_off,
+            miller_energy_j(i_on, w_on, i_g_on).ok_or(bad.clone())?,
+            miller_energy_j(i_off, w_off, i_g_off).ok_or(bad.clone())?,
+        ),
+        _ => {
+            let q_on = miller_charge_c(sw, v, i_on, r_ds_on_ohm);
+            let q_off = miller_charge_c(sw, v, i_off, r_ds_on_ohm);
+            let t_on = charge_time_s(q_on, i_g_on).ok_or(bad.clone())?;
+            let t_off = charge_time_s(q_off, i_g_off).ok_or(bad.clone())?;
+            (
+                q_on,
+                q_off,
+                crossover_energy_j(v, i_on, t_on, 0.0),
+                crossover_energy_j(v, i_off, t_off, 0.0),
+            )
+        }
+    };
+    let tau_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)? * sw.c_iss_f;
+    let tau_off_on_state =
+        turn_off_resistance_ohm(drive, sw.r_g_int_ohm)? * input_capacitance_on_state_f(sw);
+    tr.v_plateau_on_v = v_plt_on;
+    tr.v_plateau_off_v = v_plt_off;
+    tr.i_g_on_a = i_g_on;
+    tr.i_g_off_a = i_g_off;
+    tr.q_gs2_c = q_ri;
+    tr.q_gd_on_c = q_gd_on;
+    tr.q_gd_off_c = q_gd_off;
+    tr.t_ri_s = t_ri;
+    tr.t_fv_s = charge_time_s(q_gd_on, i_g_on).ok_or(bad.clone())?;
+    tr.t_rv_s = charge_time_s(q_gd_off, i_g_off).ok_or(bad)?;
+    tr.t_fi_s = t_fi;
+    tr.t_d_off_s = rc_time_s(tau_off_on_state, drive.v_drive_v, 0.0, v_plt_off);
+    tr.t_fi_rc_s = rc_time_s(tau_off, v_plt_off, 0.0, sw.v_th_v.min(v_plt_off));
+    tr.e_on_j = crossover_energy_j(v, i_on, t_ri, 0.0) + e_fv;
+    tr.e_off_j = crossover_energy_j(v, i_off, 0.0, t_fi) + e_rv;
+    Ok(tr)
 }
 
 /// Total gate charge at the actual drive voltage.
@@ -510,5 +761,88 @@ mod tests {
             let b = transitions(&sw, &drive, v, 1.5 * i, 1.5 * i, 0.01).unwrap();
             assert!(b.e_on_j > a.e_on_j && b.e_off_j > a.e_off_j);
         }
+    }
+
+    /// Miller integrals against closed forms. C = k·v^−½ (exact under the
+    /// log-log interpolation): with no shift Q = 2k(√b − √a), W = ⅔k(b^1.5 −
+    /// a^1.5); with the plateau shift V_plt the variable is u = v − V_plt, so
+    /// Q = 2k(√u_b − √u_a), W = k[⅔u^1.5 + 2·V_plt·u^½] between u_a and u_b.
+    #[test]
+    fn miller_integrals_power_law_closed_form() {
+        let k = 300e-12;
+        let mut sw = example_switch();
+        sw.c_rss_curve = [1.0, 3.0, 10.0, 30.0, 100.0]
+            .iter()
+            .map(|&v| (v, k / f64::sqrt(v)))
+            .collect();
+        let (q, w) = miller_integrals(&sw, 5.0, 50.0, 0.0).unwrap();
+        let q0 = 2.0 * k * (50.0_f64.sqrt() - 5.0_f64.sqrt());
+        let w0 = 2.0 / 3.0 * k * (50.0_f64.powf(1.5) - 5.0_f64.powf(1.5));
+        assert!(rel(q, q0) < 1e-9 && rel(w, w0) < 1e-9);
+        let (q, w) = miller_integrals(&sw, 5.0, 50.0, 2.0).unwrap();
+        let f = |u: f64| k * (2.0 / 3.0 * u.powf(1.5) + 2.0 * 2.0 * u.sqrt());
+        assert!(rel(q, 2.0 * k * (48.0_f64.sqrt() - 3.0_f64.sqrt())) < 1e-9);
+        assert!(rel(w, f(48.0) - f(3.0)) < 1e-9);
+        // Below the first point (u < 1 V, including u < 0) the curve is flat.
+        let (q, _) = miller_integrals(&sw, 0.0, 1.0, 2.0).unwrap();
+        assert!(rel(q, k * 1.0) < 1e-9);
+        sw.c_rss_curve.clear();
+        assert!(miller_integrals(&sw, 0.0, 10.0, 2.0).is_none());
+    }
+
+    /// For a constant C_gd the Miller energy I·W/I_g equals the linear ramp
+    /// ½·V·I·t with t = C·V/I_g (Graovac 2006), whatever the plateau shift.
+    #[test]
+    fn miller_energy_reduces_to_linear_ramp_for_constant_c() {
+        let mut sw = example_switch();
+        sw.c_rss_curve = vec![(1.0, 50e-12), (60.0, 50e-12)];
+        let (q, w) = miller_integrals(&sw, 0.0, 24.0, 3.5).unwrap();
+        let e = miller_energy_j(10.0, w, 0.5).unwrap();
+        let t = charge_time_s(q, 0.5).unwrap();
+        assert!(rel(e, crossover_energy_j(24.0, 10.0, t, 0.0)) < 1e-12);
+        assert!(miller_energy_j(10.0, w, 0.0).is_none());
+    }
+
+    /// On-state input capacitance: the gate-charge slope above the plateau,
+    /// (30 − 3 − 12) nC/(10 − 4) V = 2.5 nF, only with a datasheet plateau.
+    #[test]
+    fn on_state_input_capacitance_from_gate_charge_slope() {
+        let mut sw = example_switch();
+        assert_eq!(input_capacitance_on_state_f(&sw), sw.c_iss_f);
+        sw.v_plateau_v = Some(4.0);
+        assert!(rel(input_capacitance_on_state_f(&sw), 15e-9 / 6.0) < 1e-12);
+        // A slope below the tabulated C_iss is not believed.
+        sw.q_g_c = 16e-9;
+        assert_eq!(input_capacitance_on_state_f(&sw), sw.c_iss_f);
+    }
+
+    /// Square-law plateau: V_th + √(2·I·(V_plt − V_th)/g_fs) in closed form,
+    /// equal to the datasheet plateau at I = g_fs·(V_plt − V_th)/2, and the
+    /// first-order plateau without a datasheet plateau.
+    #[test]
+    fn plateau_at_current_square_law() {
+        let mut sw = example_switch();
+        assert_eq!(
+            plateau_at_current_v(&sw, 10.0).unwrap(),
+            plateau_voltage_v(&sw, 10.0).unwrap()
+        );
+        sw.v_plateau_v = Some(4.0);
+        let v = plateau_at_current_v(&sw, 5.0).unwrap();
+        assert!(rel(v, 3.0 + (2.0 * 5.0 * 1.0 / 20.0_f64).sqrt()) < 1e-12);
+        assert!(rel(plateau_at_current_v(&sw, 10.0).unwrap(), 4.0) < 1e-12);
+        // The current-transition charge scales with the gate swing.
+        let q = current_transition_charge_c(&sw, 3.5).unwrap();
+        assert!(rel(q, 1.25e-9 * 0.5) < 1e-12);
+    }
+
+    /// Without a C_rss curve and a datasheet plateau, `transitions` is exactly
+    /// the first-order model (the refinements only use data that are present).
+    #[test]
+    fn refined_equals_first_order_without_refinement_data() {
+        let sw = example_switch();
+        let d = example_drive();
+        let a = transitions(&sw, &d, 24.0, 8.0, 12.0, 5e-3).unwrap();
+        let b = transitions_first_order(&sw, &d, 24.0, 8.0, 12.0, 5e-3).unwrap();
+        assert_eq!(a, b);
     }
 }
