@@ -7,6 +7,7 @@
 use std::io::{IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use std::time::{Duration, Instant};
 
 use clap::{Parser, Subcommand};
 
@@ -60,6 +61,25 @@ pub enum Command {
         /// Print only; write no files.
         #[arg(long)]
         no_write: bool,
+        /// Choose the settings against the worst corner of the part and
+        /// operating spreads instead of typical values.
+        #[arg(long)]
+        worst_case: bool,
+    },
+    /// Worst case over the part and operating spreads, and a seeded Monte
+    /// Carlo of the chosen setting: percentiles and yield.
+    Spread {
+        /// Design file (YAML). Omit for the bundled demo.
+        design: Option<PathBuf>,
+        /// Number of Monte Carlo samples.
+        #[arg(long, default_value_t = 10_000)]
+        samples: u64,
+        /// Seed of the random draws (same seed, same result on any machine).
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Print JSON instead of the text report.
+        #[arg(long)]
+        json: bool,
     },
     /// Exit 1 with a diff when the output folder is not what the inputs
     /// would generate now; 0 when it is current.
@@ -182,16 +202,32 @@ fn review_range(ev: &Evaluator) -> (f64, f64) {
     (ev.limits.f_min_hz / 2.0, ev.limits.f_max_hz * 2.0)
 }
 
-/// Load, solve (or evaluate at a pinned frequency) and build the plan.
-pub fn solve_design(design: Option<&Path>, at: Option<f64>) -> Result<Solved, Failure> {
+/// Load, solve (or evaluate at a pinned frequency) and build the plan;
+/// `worst_case` judges every setting against the worst corner.
+pub fn solve_design(
+    design: Option<&Path>,
+    at: Option<f64>,
+    worst_case: bool,
+) -> Result<Solved, Failure> {
     let design = load(design)?;
     let ev = Evaluator::new(&design);
     let objective = objective_of(&design);
+    let corners = if worst_case {
+        crate::spread::corner_evaluators(&design, &ev)
+    } else {
+        Vec::new()
+    };
+    let judge = solve::Judge {
+        ev: &ev,
+        corners: &corners,
+        dead: ev.dead_time_choice(),
+    };
     let solution = match at {
-        Some(f) => solve::pinned(&ev, objective, f),
+        Some(f) => solve::pinned_judged(&judge, objective, f),
+        None if worst_case => solve::solve_worst_case(&ev, &corners, objective),
         None => solve::solve(&ev, objective),
     };
-    let plan = plan::build(&design, &ev, &solution, at).ok_or_else(|| {
+    let plan = plan::build_on(&design, &ev, &solution, at, worst_case).ok_or_else(|| {
         Failure::Usage(
             solution
                 .conflict
@@ -266,12 +302,13 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             templates,
             force,
             no_write,
+            worst_case,
         } => {
             let at = at
                 .as_deref()
                 .map(|t| parse_frequency(t, "--at"))
                 .transpose()?;
-            let solved = solve_design(design.as_deref(), at)?;
+            let solved = solve_design(design.as_deref(), at, worst_case)?;
             if !solved.feasible {
                 if json {
                     write_text(out, &emit::plan_json(&solved.plan))?;
@@ -320,8 +357,12 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             out: dir,
             templates,
         } => {
-            let pinned = previous_plan(&dir).and_then(|p| p.search.pinned_frequency_hz);
-            let solved = solve_design(design.as_deref(), pinned)?;
+            // Regenerate the way the folder was made: the same pinned
+            // frequency and basis.
+            let previous = previous_plan(&dir);
+            let pinned = previous.as_ref().and_then(|p| p.search.pinned_frequency_hz);
+            let worst = previous.as_ref().is_some_and(|p| p.basis == "worst-case");
+            let solved = solve_design(design.as_deref(), pinned, worst)?;
             if !solved.feasible {
                 write_text(out, &report::infeasible_text(&solved.plan))?;
                 return Ok(1);
@@ -378,7 +419,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                     "--points {points}: expected 2 to 10000"
                 )));
             }
-            let solved = solve_design(design.as_deref(), None)?;
+            let solved = solve_design(design.as_deref(), None, false)?;
             let ev = &solved.evaluator;
             let (lo, hi) = review_range(ev);
             let from = match from {
@@ -471,6 +512,51 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 }
                 write_text(out, "\n")?;
                 write_text(out, &report::compare_table(&entries))?;
+            }
+            Ok(0)
+        }
+        Command::Spread {
+            design,
+            samples,
+            seed,
+            json,
+        } => {
+            if !(1..=10_000_000).contains(&samples) {
+                return Err(Failure::Usage(format!(
+                    "--samples {samples}: expected 1 to 10000000"
+                )));
+            }
+            let solved = solve_design(design.as_deref(), None, false)?;
+            if !solved.feasible {
+                write_text(out, &report::infeasible_text(&solved.plan))?;
+                return Ok(1);
+            }
+            let ev = &solved.evaluator;
+            let d = &solved.design;
+            let c = solve::evaluate_at(ev, solved.plan.pwm.frequency_hz).ok_or_else(|| {
+                Failure::Usage("the chosen setting could not be evaluated again".into())
+            })?;
+            let mut bar = ProgressDisplay::new();
+            let mc = crate::spread::monte_carlo_with_progress(
+                d,
+                ev,
+                &c.setting,
+                &c.dead_time,
+                samples,
+                seed,
+                &mut |a, b| bar.update(a, b),
+            );
+            bar.finish();
+            let wc = crate::spread::worst_case(d, ev, &c.setting, &c.dead_time);
+            if json {
+                let mut text = serde_json::to_string_pretty(
+                    &serde_json::json!({ "worst_case": wc, "monte_carlo": mc }),
+                )
+                .map_err(|e| Failure::Usage(format!("cannot format the spread: {e}")))?;
+                text.push('\n');
+                write_text(out, &text)?;
+            } else {
+                write_text(out, &crate::spread::text_report(&mc, &wc))?;
             }
             Ok(0)
         }
@@ -648,3 +734,58 @@ fn list_bundled() -> Result<String, Failure> {
 
 /// What `pwmplan new` writes.
 const STARTER_DESIGN: &str = include_str!("../templates/starter-design.yaml");
+
+// ----------------------------------------------------------------- progress
+
+/// A progress bar on standard error for a long Monte Carlo, for the
+/// command line: shown only when standard error is a terminal and the run
+/// has taken more than half a second. The engine calls it through the callback of
+/// [`spread::monte_carlo_with_progress`].
+pub struct ProgressDisplay {
+    start: Instant,
+    terminal: bool,
+    bar: Option<indicatif::ProgressBar>,
+}
+
+/// How long a run goes before its bar appears.
+const SHOW_AFTER: Duration = Duration::from_millis(500);
+
+impl Default for ProgressDisplay {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl ProgressDisplay {
+    pub fn new() -> ProgressDisplay {
+        use std::io::IsTerminal;
+        ProgressDisplay {
+            start: Instant::now(),
+            terminal: std::io::stderr().is_terminal(),
+            bar: None,
+        }
+    }
+
+    /// Report `done` of `total` samples.
+    pub fn update(&mut self, done: u64, total: u64) {
+        if self.bar.is_none() && self.terminal && self.start.elapsed() > SHOW_AFTER {
+            let bar = indicatif::ProgressBar::new(total);
+            if let Ok(style) = indicatif::ProgressStyle::with_template(
+                "{bar:40} {pos}/{len} samples, {per_sec}, {eta} left",
+            ) {
+                bar.set_style(style);
+            }
+            self.bar = Some(bar);
+        }
+        if let Some(b) = &self.bar {
+            b.set_position(done);
+        }
+    }
+
+    /// Remove the bar.
+    pub fn finish(self) {
+        if let Some(b) = self.bar {
+            b.finish_and_clear();
+        }
+    }
+}

@@ -169,6 +169,8 @@ pub struct Context {
     pub figures: Vec<Row>,
     pub alternatives: Vec<Row>,
     pub findings: Vec<Row>,
+    /// The chosen setting at the worst corners: rows `{label, value}`.
+    pub worst_case: Vec<Row>,
     pub assumptions: Vec<String>,
     pub cautions: Vec<String>,
     pub inputs: Vec<Row>,
@@ -197,6 +199,7 @@ fn constraint_number(v: f64, unit: &str) -> String {
         "Hz" => q(v, Dimension::Frequency, 5),
         "Hz-margin" => q(v, Dimension::Frequency, 3),
         "s" => q(v, Dimension::Time, 3),
+        "W" => q(v, Dimension::Power, 3),
         "bits" => format!("{v:.2} bits"),
         "lines" => format!("{v:.0} lines"),
         "" => format!("{:.2} %", 100.0 * v),
@@ -273,7 +276,15 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         },
         Row {
             label: "objective".into(),
-            value: plan.objective.clone(),
+            value: format!(
+                "{} at {} values",
+                plan.objective,
+                if plan.basis == "worst-case" {
+                    "worst-case"
+                } else {
+                    "typical"
+                }
+            ),
         },
         Row {
             label: "frequency".into(),
@@ -483,6 +494,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
             value: v.clone(),
         })
         .collect();
+    let worst_case = worst_case_rows(plan);
     let init_steps = init_steps(&n, &timer, has_dead_time);
     let mut ctx = Context {
         tool: format!("pwmplan {}", env!("CARGO_PKG_VERSION")),
@@ -500,6 +512,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         figures,
         alternatives,
         findings,
+        worst_case,
         assumptions: plan.assumptions.clone(),
         cautions: plan.cautions.clone(),
         inputs,
@@ -507,6 +520,38 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
     };
     ctx.rationale_lines = rationale_lines(&ctx);
     ctx
+}
+
+/// The worst-case rows: value, limit, where it occurs, verdict.
+fn worst_case_rows(plan: &Plan) -> Vec<Row> {
+    let w = &plan.worst_case;
+    let mut rows: Vec<Row> = w
+        .rows
+        .iter()
+        .map(|r| {
+            let num = |v: f64| constraint_number(v, &r.unit);
+            let value = match (r.value, r.limit) {
+                (Some(v), Some(l)) if r.name == "dead-time" => {
+                    format!("needs {} against {} chosen", num(v), num(l))
+                }
+                (Some(v), Some(l)) => format!("{} (limit {})", num(v), num(l)),
+                (Some(v), None) => num(v),
+                (None, _) if r.name == "audible" => String::new(),
+                (None, _) => "no value".into(),
+            };
+            let verdict = if r.pass { "ok" } else { "FAILS" };
+            let sep = if value.is_empty() { "" } else { "; " };
+            Row {
+                label: r.name.clone(),
+                value: format!("{value}{sep}{verdict}; {}", r.corner),
+            }
+        })
+        .collect();
+    rows.push(Row {
+        label: "corners".into(),
+        value: format!("{} evaluated; {}", w.corners, w.pruning),
+    });
+    rows
 }
 
 fn init_steps(n: &Names, t: &TimerLiterals, dead: bool) -> Vec<String> {
@@ -610,6 +655,11 @@ fn rationale_lines(c: &Context) -> Vec<String> {
         &c.losses,
     );
     table(&mut out, "Operating figures", &c.figures);
+    table(
+        &mut out,
+        "Worst case over part and operating spreads",
+        &c.worst_case,
+    );
     table(&mut out, "Alternatives", &c.alternatives);
     table(&mut out, "Findings", &c.findings);
     out.push("Assumptions".into());

@@ -65,6 +65,10 @@ pub struct Evaluator {
     pub audible: AudibleMode,
     pub significance: Significance,
     pub dead_time_margin: f64,
+    /// The dead time needed over the part spreads (slowest turn-off against
+    /// fastest turn-on), set by [`Evaluator::new`]; shoot-through is not a
+    /// typical-value question, so every setting uses it.
+    pub dead_time_need_override_s: Option<f64>,
 }
 
 /// The design's constraints in SI.
@@ -241,9 +245,13 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
 }
 
 impl Evaluator {
-    /// Derive the evaluator of a design (typical part values).
+    /// Derive the evaluator of a design: typical part values, with the
+    /// dead time sized for the worst pair of devices.
     pub fn new(d: &Design) -> Evaluator {
-        Evaluator::with_switch(d, &d.switch)
+        let mut ev = Evaluator::with_switch(d, &d.switch);
+        ev.dead_time_need_override_s =
+            crate::spread::worst_dead_time_need(d, &ev).map(|(need, _)| need);
+        ev
     }
 
     /// The same design with another switch fitted.
@@ -308,6 +316,7 @@ impl Evaluator {
             audible,
             significance: Significance::default(),
             dead_time_margin: deadtime::DEFAULT_DEAD_TIME_MARGIN,
+            dead_time_need_override_s: None,
         }
     }
 

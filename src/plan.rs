@@ -97,6 +97,79 @@ pub struct Plan {
     pub cautions: Vec<String>,
     pub inputs: Vec<InputOut>,
     pub search: SearchOut,
+    /// What the settings were chosen against: `typical` or `worst-case`.
+    pub basis: String,
+    /// The chosen setting at the worst corners of the part and operating
+    /// spreads (whichever basis chose it).
+    pub worst_case: WorstCaseOut,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct WorstCaseOut {
+    pub corners: usize,
+    pub pruning: String,
+    pub rows: Vec<WorstRow>,
+    /// Every constraint holds at every corner.
+    pub pass: bool,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct WorstRow {
+    pub name: String,
+    pub value: Option<f64>,
+    pub limit: Option<f64>,
+    pub unit: String,
+    /// The corner (and supply) where the worst value occurs.
+    pub corner: String,
+    pub pass: bool,
+}
+
+fn worst_case_out(w: &crate::spread::WorstCase) -> WorstCaseOut {
+    let row = |name: &str, v: &crate::spread::WorstValue| WorstRow {
+        name: name.into(),
+        value: v.value,
+        limit: v.limit,
+        unit: v.unit.into(),
+        corner: v.corner.clone(),
+        pass: v.pass,
+    };
+    let mut rows = vec![
+        row("junction", &w.junction),
+        row("total-loss", &w.total_loss),
+        row("ripple", &w.ripple),
+        row("duty-range", &w.duty_range),
+    ];
+    if w.dead_time.applicable {
+        rows.push(WorstRow {
+            name: "dead-time".into(),
+            value: w.dead_time.worst_need_s,
+            limit: Some(w.dead_time.chosen_s),
+            unit: "s".into(),
+            corner: format!(
+                "{} against {}",
+                w.dead_time.slow_turn_off, w.dead_time.fast_turn_on
+            ),
+            pass: w.dead_time.pass,
+        });
+    }
+    rows.push(WorstRow {
+        name: "audible".into(),
+        value: None,
+        limit: None,
+        unit: String::new(),
+        corner: w
+            .audible
+            .corner
+            .clone()
+            .unwrap_or_else(|| w.audible.reason.clone()),
+        pass: w.audible.pass,
+    });
+    WorstCaseOut {
+        corners: w.corners,
+        pruning: w.pruning.clone(),
+        rows,
+        pass: w.pass,
+    }
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -414,7 +487,20 @@ fn findings(d: &Design, ev: &Evaluator, c: &Candidate) -> Vec<FindingOut> {
 /// Build the plan of a solved design. `None` when the solution has no
 /// candidate at all (nothing in the band could be evaluated).
 pub fn build(d: &Design, ev: &Evaluator, sol: &Solution, pinned_hz: Option<f64>) -> Option<Plan> {
+    build_on(d, ev, sol, pinned_hz, false)
+}
+
+/// [`build`], stating whether the solution was chosen against the worst
+/// corners (`plan --worst-case`).
+pub fn build_on(
+    d: &Design,
+    ev: &Evaluator,
+    sol: &Solution,
+    pinned_hz: Option<f64>,
+    worst_case_basis: bool,
+) -> Option<Plan> {
     let c = sol.chosen.as_ref()?;
+    let worst = crate::spread::worst_case(d, ev, &c.setting, &c.dead_time);
     let worst_ripple = if c.high_bus.ripple.peak_to_peak_a >= c.rated.ripple.peak_to_peak_a {
         &c.high_bus
     } else {
@@ -554,5 +640,12 @@ pub fn build(d: &Design, ev: &Evaluator, sol: &Solution, pinned_hz: Option<f64>)
             evaluated_settings: sol.evaluated,
             pinned_frequency_hz: pinned_hz,
         },
+        basis: if worst_case_basis {
+            "worst-case"
+        } else {
+            "typical"
+        }
+        .into(),
+        worst_case: worst_case_out(&worst),
     })
 }

@@ -194,10 +194,14 @@ pub struct Solution {
 const EPS: f64 = 1e-9;
 
 impl Evaluator {
-    /// Dead time for a frequency-independent need (the rated and high-bus
-    /// turn-off against turn-on), encoded by the timer.
+    /// Dead time for a frequency-independent need, encoded by the timer:
+    /// the need over the part spreads when known (slowest turn-off against
+    /// fastest turn-on, see [`crate::spread::worst_dead_time_need`]), else
+    /// the rated and high-bus turn-off against turn-on at typical values.
     pub fn dead_time_choice(&self) -> DeadTimeChoice {
-        let need = if self.needs_dead_time() {
+        let need = if let Some(worst) = self.dead_time_need_override_s {
+            worst
+        } else if self.needs_dead_time() {
             [self.rated, self.high_bus]
                 .iter()
                 .filter_map(|c| self.dead_time_need_s(c))
@@ -558,6 +562,84 @@ pub fn solve(ev: &Evaluator, obj: Objective) -> Solution {
 
 /// Solve; `search` sets the exhaustive limit and the grid.
 pub fn solve_with(ev: &Evaluator, obj: Objective, search: Search) -> Solution {
+    solve_judged(&Judge::typical(ev), obj, search)
+}
+
+/// Solve with every setting judged against the worst of `corners` (and
+/// the typical values): `plan --worst-case`.
+pub fn solve_worst_case(
+    ev: &Evaluator,
+    corners: &[(String, Evaluator)],
+    obj: Objective,
+) -> Solution {
+    solve_judged(
+        &Judge {
+            ev,
+            corners,
+            dead: ev.dead_time_choice(),
+        },
+        obj,
+        Search::default(),
+    )
+}
+
+/// How a setting is judged: at typical values, or against every corner.
+#[derive(Clone, Copy)]
+pub struct Judge<'a> {
+    pub ev: &'a Evaluator,
+    /// Corner evaluators; empty for typical values.
+    pub corners: &'a [(String, Evaluator)],
+    pub dead: DeadTimeChoice,
+}
+
+impl<'a> Judge<'a> {
+    /// Typical values with the dead time they need.
+    pub fn typical(ev: &'a Evaluator) -> Judge<'a> {
+        Judge {
+            ev,
+            corners: &[],
+            dead: ev.dead_time_choice(),
+        }
+    }
+
+    /// The candidate at `s`. Against corners: each constraint keeps its
+    /// worst margin over the typical values and every corner (its detail
+    /// names the corner), and the figures are those of the corner with the
+    /// most loss, so the objective is the worst-case loss.
+    pub fn candidate(&self, s: &PwmSetting) -> Option<Candidate> {
+        let mut worst = self.ev.candidate(s, &self.dead)?;
+        for (label, ev) in self.corners {
+            let c = ev.candidate(s, &self.dead)?;
+            for k in &mut worst.checks {
+                let Some(o) = c.checks.iter().find(|o| o.name == k.name) else {
+                    continue;
+                };
+                let worse = match (o.pass, k.pass) {
+                    (false, true) => true,
+                    (true, false) => false,
+                    _ => {
+                        o.margin.unwrap_or(f64::NEG_INFINITY)
+                            < k.margin.unwrap_or(f64::NEG_INFINITY)
+                    }
+                };
+                if worse {
+                    *k = o.clone();
+                    k.detail = format!("{} (corner {label})", o.detail);
+                }
+            }
+            if c.rated.losses.total > worst.rated.losses.total {
+                worst.rated = c.rated;
+                worst.high_bus = c.high_bus;
+                worst.duty_needed = c.duty_needed;
+            }
+        }
+        worst.feasible = worst.checks.iter().all(|k| k.pass);
+        Some(worst)
+    }
+}
+
+fn solve_judged(judge: &Judge, obj: Objective, search: Search) -> Solution {
+    let ev = judge.ev;
     let all = realisable(ev);
     // A setting below the resolution limit fails whatever the physics says,
     // so the search runs over the others only; along that list every
@@ -573,7 +655,7 @@ pub fn solve_with(ev: &Evaluator, obj: Objective, search: Search) -> Solution {
         .copied()
         .collect();
     if !fine_enough.is_empty() && fine_enough.len() < all.len() {
-        let first = search_list(ev, obj, search, fine_enough);
+        let first = search_list(judge, obj, search, fine_enough);
         if first.feasible {
             return Solution {
                 realisable: all.len(),
@@ -582,29 +664,28 @@ pub fn solve_with(ev: &Evaluator, obj: Objective, search: Search) -> Solution {
         }
         // Nothing fine enough is feasible: the nearest compromise may be a
         // coarser setting, so look at the whole list.
-        let whole = search_list(ev, obj, search, all.clone());
+        let whole = search_list(judge, obj, search, all.clone());
         return Solution {
             realisable: all.len(),
             evaluated: whole.evaluated + first.evaluated,
             ..whole
         };
     }
-    search_list(ev, obj, search, all)
+    search_list(judge, obj, search, all)
 }
 
 /// Search one list of settings (sorted by frequency).
 fn search_list(
-    ev: &Evaluator,
+    judge: &Judge,
     obj: Objective,
     search: Search,
     settings: Vec<PwmSetting>,
 ) -> Solution {
-    let dead = ev.dead_time_choice();
     let mut evaluated: Vec<Option<Candidate>> = vec![None; settings.len()];
     let mut count = 0usize;
     let mut eval = |i: usize, evaluated: &mut Vec<Option<Candidate>>| {
         if evaluated[i].is_none() {
-            let (c, n) = candidate_at_frequency(ev, &settings[i], &dead);
+            let (c, n) = candidate_at_frequency(judge, &settings[i]);
             evaluated[i] = c;
             count += n;
         }
@@ -613,7 +694,7 @@ fn search_list(
         for i in 0..settings.len() {
             eval(i, &mut evaluated);
         }
-        return finish(ev, obj, settings.len(), &settings, evaluated, count);
+        return finish(judge, obj, settings.len(), &settings, evaluated, count);
     }
     let n = settings.len();
     let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
@@ -715,19 +796,16 @@ fn search_list(
             }
         }
     }
-    finish(ev, obj, settings.len(), &settings, evaluated, count)
+    finish(judge, obj, settings.len(), &settings, evaluated, count)
 }
 
 /// The candidate at a setting's frequency: the listed setting (the most
 /// duty steps), or, when only the duty range fails, another divider of the
 /// same frequency whose coarser counts round the duty limits favourably.
 /// Returns the candidate and how many settings were evaluated.
-fn candidate_at_frequency(
-    ev: &Evaluator,
-    s: &PwmSetting,
-    dead: &DeadTimeChoice,
-) -> (Option<Candidate>, usize) {
-    let Some(c) = ev.candidate(s, dead) else {
+fn candidate_at_frequency(judge: &Judge, s: &PwmSetting) -> (Option<Candidate>, usize) {
+    let ev = judge.ev;
+    let Some(c) = judge.candidate(s) else {
         return (None, 1);
     };
     let only_duty = !c.feasible
@@ -741,7 +819,7 @@ fn candidate_at_frequency(
     let mut n = 1;
     for alt in same_frequency_settings(ev, s) {
         n += 1;
-        if let Some(a) = ev.candidate(&alt, dead)
+        if let Some(a) = judge.candidate(&alt)
             && a.feasible
         {
             return (Some(a), n);
@@ -856,13 +934,14 @@ pub fn violation(c: &Candidate) -> f64 {
 }
 
 fn finish(
-    ev: &Evaluator,
+    judge: &Judge,
     obj: Objective,
     realisable: usize,
     settings: &[PwmSetting],
     evaluated: Vec<Option<Candidate>>,
     count: usize,
 ) -> Solution {
+    let ev = judge.ev;
     let floor = loss_floor(obj, evaluated.iter().flatten());
     let idx: Vec<usize> = (0..settings.len())
         .filter(|&i| evaluated[i].is_some())
@@ -898,12 +977,7 @@ fn finish(
     let mut chosen = evaluated[b].clone().expect("best index is evaluated");
     let feasible = chosen.feasible;
     if feasible {
-        let ctx = BindCtx {
-            ev,
-            obj,
-            floor,
-            dead: chosen.dead_time,
-        };
+        let ctx = BindCtx { judge, obj, floor };
         mark_binding(&ctx, &mut chosen, b, &evaluated, &idx);
     }
     let alternatives = if feasible {
@@ -971,17 +1045,16 @@ fn mark_binding(
 }
 
 struct BindCtx<'a> {
-    ev: &'a Evaluator,
+    judge: &'a Judge<'a>,
     obj: Objective,
     floor: Option<f64>,
-    dead: DeadTimeChoice,
 }
 
 /// The realisable setting next to `c` in frequency, on the lower side for
 /// `step` = 1 (one more tick per period) or the upper side for −1.
 fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidate> {
     let n = (c.setting.divider * c.setting.period_ticks) as i64;
-    let clock = ctx.ev.timer.clock_hz;
+    let clock = ctx.judge.ev.timer.clock_hz;
     let align = match c.setting.alignment {
         "centre" => Alignment::Centre,
         _ => Alignment::Edge,
@@ -992,13 +1065,14 @@ fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidat
             return None;
         }
         let s = ctx
+            .judge
             .ev
             .timer
             .nearest_setting(clock / m as f64, align)
             .ok()
             .flatten()?;
         if s.frequency_hz != c.setting.frequency_hz {
-            return ctx.ev.candidate(&s, &ctx.dead);
+            return ctx.judge.candidate(&s);
         }
     }
     None
@@ -1157,9 +1231,13 @@ fn fmt_f(f: f64) -> String {
 
 /// Evaluate the realisable setting nearest `f_hz` (for `plan --at`).
 pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
-    let dead = ev.dead_time_choice();
-    let best = ev
-        .timer
+    Judge::typical(ev).candidate(&nearest(ev, f_hz)?)
+}
+
+/// The realisable setting nearest `f_hz` over the allowed alignments (ties:
+/// more duty steps).
+fn nearest(ev: &Evaluator, f_hz: f64) -> Option<PwmSetting> {
+    ev.timer
         .alignments
         .iter()
         .filter_map(|a| ev.timer.nearest_setting(f_hz, *a).ok().flatten())
@@ -1168,8 +1246,7 @@ pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
                 .abs()
                 .total_cmp(&(b.frequency_hz - f_hz).abs())
                 .then(b.duty_steps.cmp(&a.duty_steps))
-        })?;
-    ev.candidate(&best, &dead)
+        })
 }
 
 /// Unused-case guard: keeps the case type referenced for docs.
@@ -1179,7 +1256,13 @@ fn _case_type(_: &OperatingCase) {}
 /// The solution with the frequency pinned (`plan --at`): the realisable
 /// setting nearest `f_hz`, checked like any other; nothing else searched.
 pub fn pinned(ev: &Evaluator, obj: Objective, f_hz: f64) -> Solution {
-    let chosen = evaluate_at(ev, f_hz);
+    pinned_judged(&Judge::typical(ev), obj, f_hz)
+}
+
+/// [`pinned`] with a given judge (worst case, or a given dead time).
+pub fn pinned_judged(judge: &Judge, obj: Objective, f_hz: f64) -> Solution {
+    let ev = judge.ev;
+    let chosen = nearest(ev, f_hz).and_then(|s| judge.candidate(&s));
     let feasible = chosen.as_ref().is_some_and(|c| c.feasible);
     let conflict = match &chosen {
         Some(c) if !c.feasible => c

@@ -10,16 +10,14 @@
 //! rendering of both ([`text_report`]).
 //!
 //! **Invariant:** the engine is pure (no I/O). The one exception is
-//! [`ProgressDisplay`], a small helper for the command line that draws a
-//! progress bar on standard error; the engine itself only calls a callback.
+//! a progress callback the command line turns into a bar; the engine does
+//! no I/O.
 //!
 //! Model of a sample: every switch of the stage takes the same drawn
 //! values (the stage model has one switch model); the corner analysis
 //! covers the difference between the device turning off and the one
 //! turning on for the dead time. The load is the rated current at the
 //! sample's supply and ambient.
-
-use std::time::{Duration, Instant};
 
 use rayon::prelude::*;
 use serde::Serialize;
@@ -1057,9 +1055,12 @@ fn hot_points(s: &Spreads, both: &[Param]) -> Vec<(String, Values)> {
 /// it enters only through the on-state drop of the two-point C_gd.
 fn slow_turn_off(s: &Spreads) -> Values {
     let mut v = s.typical();
+    // Q_g scales C_iss (see `apply`), so a larger Q_g also lengthens the
+    // RC turn-off delay.
     for p in [
         Param::DriverSink,
         Param::RgInt,
+        Param::Qg,
         Param::Qgd,
         Param::Qgs,
         Param::DriverSupply,
@@ -1079,7 +1080,7 @@ fn slow_turn_off(s: &Spreads) -> Values {
 /// turn-on.)
 fn fast_turn_on(s: &Spreads) -> Values {
     let mut v = s.typical();
-    for p in [Param::DriverSource, Param::RgInt, Param::Vth] {
+    for p in [Param::DriverSource, Param::RgInt, Param::Vth, Param::Qg] {
         v[p as usize] = s.range(p).low;
     }
     v[Param::DriverSupply as usize] = s.range(Param::DriverSupply).high;
@@ -1189,7 +1190,13 @@ pub fn worst_dead_time_need(d: &Design, ev: &Evaluator) -> Option<(f64, f64)> {
     let on = evaluator_at(ev, &fast_turn_on(&s));
     let sup = s.range(Param::Supply);
     let mut worst: Option<(f64, f64)> = None;
-    for v in [sup.low, sup.typ, sup.high] {
+    // The need is not monotonic in the supply (the plateau and the Miller
+    // charge both move with it), so a grid of supplies, ends included.
+    let grid: Vec<f64> = (0..=16)
+        .map(|k| sup.low + (sup.high - sup.low) * f64::from(k) / 16.0)
+        .chain([sup.typ])
+        .collect();
+    for v in grid {
         let need = pair_need_s(ev, &off, &on, v)?;
         if worst.is_none_or(|(w, _)| need > w) {
             worst = Some((need, v));
@@ -1726,61 +1733,6 @@ fn monte_carlo_text(o: &mut String, mc: &MonteCarlo, wc: &WorstCase) {
                 f.count,
                 pct(f.share)
             ));
-        }
-    }
-}
-
-// ----------------------------------------------------------------- progress
-
-/// A progress bar on standard error for a long Monte Carlo, for the
-/// command line: shown only when standard error is a terminal and the run
-/// has taken more than half a second. This is the module's only I/O; the
-/// engine calls it through the callback of [`monte_carlo_with_progress`].
-pub struct ProgressDisplay {
-    start: Instant,
-    terminal: bool,
-    bar: Option<indicatif::ProgressBar>,
-}
-
-/// How long a run goes before its bar appears.
-const SHOW_AFTER: Duration = Duration::from_millis(500);
-
-impl Default for ProgressDisplay {
-    fn default() -> Self {
-        Self::new()
-    }
-}
-
-impl ProgressDisplay {
-    pub fn new() -> ProgressDisplay {
-        use std::io::IsTerminal;
-        ProgressDisplay {
-            start: Instant::now(),
-            terminal: std::io::stderr().is_terminal(),
-            bar: None,
-        }
-    }
-
-    /// Report `done` of `total` samples.
-    pub fn update(&mut self, done: u64, total: u64) {
-        if self.bar.is_none() && self.terminal && self.start.elapsed() > SHOW_AFTER {
-            let bar = indicatif::ProgressBar::new(total);
-            if let Ok(style) = indicatif::ProgressStyle::with_template(
-                "{bar:40} {pos}/{len} samples, {per_sec}, {eta} left",
-            ) {
-                bar.set_style(style);
-            }
-            self.bar = Some(bar);
-        }
-        if let Some(b) = &self.bar {
-            b.set_position(done);
-        }
-    }
-
-    /// Remove the bar.
-    pub fn finish(self) {
-        if let Some(b) = self.bar {
-            b.finish_and_clear();
         }
     }
 }
