@@ -1,52 +1,61 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:cb729f9786a1c5b4e0dd19eb430540bb38b0b2e94b347b074c29f8a5b14de9f3)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:7a7f5ad6c466d9bb87f70b59a0a3ae2fd45b95f19013511fe7fb8c17d4087982)
  *
  * Chosen setting
  *   design         belt-feeder
  *   board          Wren 24 V half-bridge (invented)
  *   switch         Tarn 40 V, 2.4 mΩ (invented)
  *   topology       half-bridge
- *   objective      least-loss
+ *   objective      least-loss at typical values
  *   frequency      20.006 kHz, edge-aligned
  *   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
  *   resolution     3199 duty steps (11.6 bits)
- *   dead time      78.1 ns = 5 ticks (code 0x05); needed 76.3 ns
+ *   dead time      156 ns = 10 ticks (code 0x0A); needed 150 ns
  *   duty limits    compare 20 to 3167 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
  *   feasible band  20.006 kHz to 59.981 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
- *   junction-rated         135 °C     58.4 °C     76.6 K  ok
- *   junction-high-bus      135 °C     59.0 °C     76.0 K  ok
+ *   junction-rated         135 °C     57.0 °C     78.0 K  ok
+ *   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
  *   ripple                 875 mA      363 mA     512 mA  ok
  *   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
  *   resolution         10.00 bits  11.64 bits  1.64 bits  ok
- *   dead-time             78.1 ns     76.3 ns    1.81 ns  ok
+ *   dead-time              156 ns      150 ns    5.85 ns  ok
  *   duty-range            99.00 %     94.05 %     4.95 %  ok
  *   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
- *   conduction           33.7 mW
- *   switching            73.0 mW
+ *   conduction           33.5 mW
+ *   switching            20.2 mW
  *   output capacitance   9.12 mW
  *   reverse recovery     25.2 mW
- *   dead-time diode      9.30 mW
+ *   dead-time diode      18.6 mW
  *   gate drive           32.5 mW
  *   motor ripple copper  2.96 mW
- *   total                186 mW
+ *   total                142 mW
  *
  * Operating figures
  *   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
- *   junction    58.4 °C (limit 135 °C); 59.0 °C at the highest supply
+ *   junction    57.0 °C (limit 135 °C); 57.1 °C at the highest supply
  *   ripple      363 mA peak to peak at 20.006 kHz (continuous), 69.0 mA rms
  *   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
+ * Worst case over part and operating spreads
+ *   junction    58.1 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
+ *   total-loss  209 mW; ok; hot: V_th max, supply 28.0 V
+ *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
+ *   duty-range  94.05 % (limit 99.00 %); ok; hot: V_th min, supply 20.0 V
+ *   dead-time   needs 150 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   audible     ok; no significant audible line at any corner
+ *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
+ *
  * Alternatives
- *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +3 mW total loss, +0.1 K junction, -8 mA ripple, -0.0 bits resolution
- *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +297 mW total loss, +5.5 K junction, -242 mA ripple, -1.6 bits resolution
+ *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, +0.0 K junction, -8 mA ripple, -0.0 bits resolution
+ *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.6 bits resolution
  *
  * Findings
  *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
- *   info     the dead time costs 37.5 mV of mean output voltage (0.16 % of the nominal supply), opposing the current
+ *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -87,9 +96,9 @@
 #define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20006252ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define BELT_FEEDER_PWM_DUTY_STEPS 3199U
-/* Dead-time register code and the ticks it gives (78.1 ns). */
-#define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x05U
-#define BELT_FEEDER_PWM_DEAD_TIME_TICKS 5U
+/* Dead-time register code and the ticks it gives (156.2 ns). */
+#define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0AU
+#define BELT_FEEDER_PWM_DEAD_TIME_TICKS 10U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define BELT_FEEDER_PWM_COMPARE_MIN 20U
 #define BELT_FEEDER_PWM_COMPARE_MAX 3167U
@@ -100,7 +109,7 @@
  *   2. Prescaler register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
  *   3. Period (auto-reload) register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (5 ticks, 78.1 ns); write it before enabling complementary outputs.
+ *   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before enabling complementary outputs.
  *   6. Compare register(s) <- 0, then values from belt_feeder_pwm_compare_from_q16() only.
  *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
  *   8. Start the counter, then enable the outputs.

@@ -1528,6 +1528,8 @@ mod tests {
             assert!(r.closed_form_deviation_rel.abs() < 0.01);
         }
         sw.v_plateau_v = Some(4.5);
+        // A fixed plateau: without g_fs the plateau does not move with current.
+        sw.g_fs_s = None;
         let st = stage(&sw, &drv);
         let r = sinusoidal_losses(&st, &point(0.8, 0.8, ZeroSequence::None, 25.0), 60.0).unwrap();
         assert!(

@@ -1,11 +1,11 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:6ed10d9e6773cfdc4c67479fee4cd95baaa4ec4b1804a46d1921505971569324)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9ab70533968a794b4aa9ca2a430b036ac132efffa77c89abb485d9504241ef9f)
 //!
 //! Chosen setting
 //!   design         vent-fan
 //!   board          Kite 12 V low-side (invented)
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
-//!   objective      least-loss
+//!   objective      least-loss at typical values
 //!   frequency      13.400 kHz, edge-aligned
 //!   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
 //!   resolution     3582 duty steps (11.8 bits)
@@ -23,7 +23,7 @@
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
-//!   switching            10.1 mW
+//!   switching            10.2 mW
 //!   output capacitance   366 µW
 //!   reverse recovery     322 µW
 //!   dead-time diode      0.00 W
@@ -37,6 +37,14 @@
 //!   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
 //!   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
 //!   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+//!
+//! Worst case over part and operating spreads
+//!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
+//!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
+//!   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
+//!   duty-range  98.94 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+//!   audible     ok; no significant audible line at any corner
+//!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
 //!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, +0.0 K junction, -169 mA ripple, -0.9 bits resolution

@@ -1,52 +1,61 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:5e8777efc7ba105397a8562d19713ebeef06ba8b1c66634d87ff1d2d4338a110)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:0f4c8e3a8a27109e15009483e4963af8683931cb6a269ae5d7e823580df69590)
  *
  * Chosen setting
  *   design         winch
  *   board          Heron 48 V H-bridge (invented)
  *   switch         Corrie 100 V, 9.8 mΩ (invented)
  *   topology       h-bridge-unipolar
- *   objective      least-loss
+ *   objective      least-loss at typical values
  *   frequency      10.311 kHz, edge-aligned
  *   timer          clock 120.0 MHz; divider 1 (register 0); period 11638 ticks (register 11637)
  *   resolution     11638 duty steps (13.5 bits)
- *   dead time      58.3 ns = 7 ticks (code 0x07); needed 56.7 ns
+ *   dead time      125 ns = 15 ticks (code 0x0F); needed 123 ns
  *   duty limits    compare 48 to 11542 (0.4 % to 99.2 %); the load needs 4.5 % to 95.5 %
  *   feasible band  10.311 kHz to 40.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
- *   junction-rated         145 °C     62.6 °C     82.4 K  ok
- *   junction-high-bus      145 °C     62.2 °C     82.8 K  ok
+ *   junction-rated         145 °C     62.4 °C     82.6 K  ok
+ *   junction-high-bus      145 °C     62.0 °C     83.0 K  ok
  *   ripple                 1.80 A      1.80 A     135 µA  binds
  *   audible            18.000 kHz  20.622 kHz   2.62 kHz  ok
  *   resolution         10.00 bits  13.51 bits  3.51 bits  ok
- *   dead-time             58.3 ns     56.7 ns    1.60 ns  ok
+ *   dead-time              125 ns      123 ns    1.98 ns  ok
  *   duty-range            99.18 %     95.45 %     3.73 %  ok
  *   frequency-band     40.000 kHz  10.311 kHz     311 Hz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           3.44 W
- *   switching            275 mW
+ *   switching            232 mW
  *   output capacitance   27.2 mW
  *   reverse recovery     118 mW
- *   dead-time diode      26.0 mW
+ *   dead-time diode      55.7 mW
  *   gate drive           28.3 mW
  *   motor ripple copper  26.8 mW
- *   total                3.94 W
+ *   total                3.92 W
  *
  * Operating figures
  *   rated case  48.0 V supply, 50.0 °C ambient, 12.0 A load
- *   junction    62.6 °C (limit 145 °C); 62.2 °C at the highest supply
+ *   junction    62.4 °C (limit 145 °C); 62.0 °C at the highest supply
  *   ripple      1.80 A peak to peak at 20.622 kHz (continuous), 386 mA rms
  *   audibility  no significant line at or below 18.00 kHz; A-weighted in-band level none
  *
+ * Worst case over part and operating spreads
+ *   junction    67.5 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
+ *   total-loss  5.26 W; ok; hot: V_th min, supply 54.0 V
+ *   ripple      1.80 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
+ *   duty-range  95.45 % (limit 99.18 %); ok; hot: V_th min, supply 40.0 V
+ *   dead-time   needs 123 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   audible     ok; no significant audible line at any corner
+ *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
+ *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1414 mW total loss, +4.5 K junction, -1336 mA ripple, -2.0 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -2.0 bits resolution
  *
  * Findings
  *   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
  *   error  At stall (300.0 A, 1764.00 W at hot R_ds(on) 19.6 mOhm) the junction reaches 12927 C after 0.50 s stall, above T_j,max 175 C.
- *   info   the dead time costs 57.7 mV of mean output voltage (0.12 % of the nominal supply), opposing the current
+ *   info   the dead time costs 124 mV of mean output voltage (0.26 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -87,9 +96,9 @@
 #define WINCH_PWM_FREQUENCY_MILLIHZ 10311050ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define WINCH_PWM_DUTY_STEPS 11638U
-/* Dead-time register code and the ticks it gives (58.3 ns). */
-#define WINCH_PWM_DEAD_TIME_CODE 0x07U
-#define WINCH_PWM_DEAD_TIME_TICKS 7U
+/* Dead-time register code and the ticks it gives (125.0 ns). */
+#define WINCH_PWM_DEAD_TIME_CODE 0x0FU
+#define WINCH_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define WINCH_PWM_COMPARE_MIN 48U
 #define WINCH_PWM_COMPARE_MAX 11542U
@@ -100,7 +109,7 @@
  *   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
  *   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (7 ticks, 58.3 ns); write it before enabling complementary outputs.
+ *   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
  *   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
  *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
  *   8. Start the counter, then enable the outputs.
