@@ -185,6 +185,27 @@ pub fn q_gs2_c(sw: &SwitchModel, v_plateau_ref_v: f64) -> Result<f64, SwitchingE
     Ok(q_gs - q_g_th)
 }
 
+/// The curve as given when it is already usable (every point finite and
+/// positive, voltages increasing): the common case, borrowed, no copy.
+fn clean_curve(curve: &[(f64, f64)]) -> Option<&[(f64, f64)]> {
+    let ok = curve
+        .iter()
+        .all(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
+        && curve.windows(2).all(|w| w[0].0 <= w[1].0);
+    ok.then_some(curve)
+}
+
+/// The usable points of a curve, sorted by voltage.
+fn cleaned_curve(curve: &[(f64, f64)]) -> Vec<(f64, f64)> {
+    let mut pts: Vec<(f64, f64)> = curve
+        .iter()
+        .copied()
+        .filter(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
+        .collect();
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    pts
+}
+
 /// C_gd (= C_rss) at `v_ds_v`.
 ///
 /// From the `c_rss_curve` when it has data: interpolated log-log (a depletion
@@ -192,16 +213,17 @@ pub fn q_gs2_c(sw: &SwitchModel, v_plateau_ref_v: f64) -> Result<f64, SwitchingE
 /// for C ∝ V^−n; own choice), clamped to the end points outside the curve (no
 /// extrapolation). Without a curve: the single datasheet value `c_rss_f`.
 pub fn c_gd_f(sw: &SwitchModel, v_ds_v: f64) -> f64 {
-    let mut pts: Vec<(f64, f64)> = sw
-        .c_rss_curve
-        .iter()
-        .copied()
-        .filter(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
-        .collect();
+    let owned;
+    let pts: &[(f64, f64)] = match clean_curve(&sw.c_rss_curve) {
+        Some(p) => p,
+        None => {
+            owned = cleaned_curve(&sw.c_rss_curve);
+            &owned
+        }
+    };
     if pts.is_empty() {
         return sw.c_rss_f;
     }
-    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
     let (first, last) = (pts[0], pts[pts.len() - 1]);
     if v_ds_v <= first.0 {
         return first.1;
@@ -382,16 +404,17 @@ pub fn miller_integrals(
     v_hi_v: f64,
     v_plateau_v: f64,
 ) -> Option<(f64, f64)> {
-    let mut pts: Vec<(f64, f64)> = sw
-        .c_rss_curve
-        .iter()
-        .copied()
-        .filter(|&(v, c)| v.is_finite() && c.is_finite() && v > 0.0 && c > 0.0)
-        .collect();
+    let owned;
+    let pts: &[(f64, f64)] = match clean_curve(&sw.c_rss_curve) {
+        Some(p) => p,
+        None => {
+            owned = cleaned_curve(&sw.c_rss_curve);
+            &owned
+        }
+    };
     if pts.is_empty() || !(v_lo_v.is_finite() && v_hi_v.is_finite() && v_plateau_v.is_finite()) {
         return None;
     }
-    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
     // Integrate over u = v − V_plt; W = ∫(u + V_plt)·C(u) du = W_u + V_plt·Q_u.
     let shift = v_plateau_v.max(0.0);
     let (lo, hi) = (v_lo_v.max(0.0) - shift, v_hi_v.max(0.0) - shift);
