@@ -40,6 +40,11 @@ const FILES: &[(&str, Kind, &str)] = &[
         include_str!("../boards/winch.yaml"),
     ),
     (
+        "boards/pump-bldc.yaml",
+        Kind::Design,
+        include_str!("../boards/pump-bldc.yaml"),
+    ),
+    (
         "boards/wren-hb24.yaml",
         Kind::Board,
         include_str!("../boards/wren-hb24.yaml"),
@@ -53,6 +58,11 @@ const FILES: &[(&str, Kind, &str)] = &[
         "boards/heron-hb48.yaml",
         Kind::Board,
         include_str!("../boards/heron-hb48.yaml"),
+    ),
+    (
+        "boards/osprey-3p48.yaml",
+        Kind::Board,
+        include_str!("../boards/osprey-3p48.yaml"),
     ),
     (
         "boards/switches/tarn-40.yaml",

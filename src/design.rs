@@ -9,6 +9,7 @@
 use crate::bundled::{self, Kind};
 use crate::diagnostic::InputError;
 use crate::load::{self, Origin, SourceFile};
+use crate::physics::three_phase::{self, BackEmfShape, MotorParams, ZeroSequence};
 use crate::spec::*;
 use crate::units::{Dimension, format_quantity};
 
@@ -20,9 +21,11 @@ pub struct Design {
     pub switch: SwitchSpec,
     /// The files read, in the order design, board, switch (when separate).
     pub sources: Vec<SourceFile>,
-    /// Back-EMF at the operating speed.
+    /// Back-EMF at the operating speed (brushless: line-to-neutral peak).
     pub back_emf_v: f64,
-    /// Back-EMF constant in V·s/rad, whichever way the motor was described.
+    /// Back-EMF constant in V·s/rad, whichever way the motor was described
+    /// (brushless: line-to-neutral peak per electrical rad/s, the convention
+    /// of [`crate::physics::three_phase::MotorParams`]).
     pub k_e_v_s_per_rad: f64,
     /// Hottest junction allowed by the design's constraint.
     pub t_j_limit_c: f64,
@@ -578,9 +581,28 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
     }
 
     let st = &b.stage;
+    let three_phase_modulation = matches!(
+        st.modulation,
+        Some(ModulationSpec::Sinusoidal { .. } | ModulationSpec::SixStep { .. })
+    );
     match st.topology {
-        TopologySpec::ThreePhase => {
-            return Err(c.fail("stage.topology", "`three-phase` is reserved and not supported yet; expected `low-side`, `half-bridge` or `h-bridge`"));
+        TopologySpec::ThreePhase if st.modulation.is_none() => {
+            return Err(c.fail(
+                "stage.modulation",
+                "missing; a three-phase bridge needs `sinusoidal: { zero_sequence: ... }` or `six-step: { chop: ... }`",
+            ));
+        }
+        TopologySpec::ThreePhase if !three_phase_modulation => {
+            return Err(c.fail(
+                "stage.modulation",
+                "`bipolar` and `unipolar` belong to an h-bridge; a three-phase bridge needs `sinusoidal: { zero_sequence: ... }` or `six-step: { chop: ... }`",
+            ));
+        }
+        TopologySpec::HBridge if three_phase_modulation => {
+            return Err(c.fail(
+                "stage.modulation",
+                "`sinusoidal` and `six-step` belong to a three-phase bridge; an h-bridge needs `bipolar` or `unipolar`",
+            ));
         }
         TopologySpec::HBridge if st.modulation.is_none() => {
             return Err(c.fail(
@@ -591,10 +613,41 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         TopologySpec::LowSide | TopologySpec::HalfBridge if st.modulation.is_some() => {
             return Err(c.fail(
                 "stage.modulation",
-                "only an h-bridge has a modulation; remove it",
+                "only an h-bridge or a three-phase bridge has a modulation; remove it",
             ));
         }
         _ => {}
+    }
+    match (st.topology, &b.current_sensing) {
+        (TopologySpec::ThreePhase, None) => {
+            return Err(c.fail(
+                "current_sensing",
+                "missing; a three-phase bridge needs `current_sensing: { settle_time: ..., sample_time: ... }` (low-side shunts, sampled in the middle of the low-side on-time)",
+            ));
+        }
+        (TopologySpec::ThreePhase, Some(cs)) => {
+            c.non_negative("current_sensing.settle_time", cs.settle_time.si, 1e-3, S)?;
+            c.within(
+                "current_sensing.sample_time",
+                cs.sample_time.si,
+                0.0,
+                1e-3,
+                S,
+            )?;
+            if !t.alignments.contains(&AlignmentSpec::Centre) {
+                return Err(c.fail(
+                    "timer.alignments",
+                    "a three-phase bridge samples its phase currents in the middle of the low-side on-time, at the bottom of an up-down count; add `centre`",
+                ));
+            }
+        }
+        (_, Some(_)) => {
+            return Err(c.fail(
+                "current_sensing",
+                "only a three-phase bridge samples its phase currents here; remove it",
+            ));
+        }
+        (_, None) => {}
     }
     if st.topology != TopologySpec::LowSide && st.freewheel_diode.is_some() {
         return Err(c.fail("stage.freewheel_diode", "a bridge freewheels through its own switches; a freewheel diode belongs to `low-side` only"));
@@ -658,7 +711,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
                 "a low-side stage has no high-side switch; remove it",
             ));
         }
-        (None, TopologySpec::HalfBridge | TopologySpec::HBridge) => {
+        (None, TopologySpec::HalfBridge | TopologySpec::HBridge | TopologySpec::ThreePhase) => {
             return Err(c.fail(
                 "gate_driver.high_side",
                 "missing; a bridge needs `bootstrap: {...}` or `isolated`",
@@ -796,68 +849,98 @@ fn check_design(
         1e5,
         Dimension::AngularSpeed,
     )?;
-    let k_e = match (m.back_emf_constant, m.rated_voltage, m.no_load_speed) {
-        (Some(k), None, None) => {
-            c.within(
-                "motor.back_emf_constant",
-                k.si,
-                0.0,
-                100.0,
-                Dimension::BackEmfConstant,
-            )?;
-            k.si
-        }
-        (None, Some(v), Some(w)) => {
-            c.within("motor.rated_voltage", v.si, 0.0, 2000.0, V)?;
-            c.within(
-                "motor.no_load_speed",
-                w.si,
-                0.0,
-                1e5,
-                Dimension::AngularSpeed,
-            )?;
-            // Unloaded, the back-EMF nearly equals the rated voltage (common practice).
-            v.si / w.si
-        }
-        (Some(_), _, _) => {
+    let three_phase = b.stage.topology == TopologySpec::ThreePhase;
+    match (m.kind, three_phase) {
+        (MotorKind::Brushless, false) => {
             return Err(c.fail(
-                "motor.back_emf_constant",
-                "give either back_emf_constant, or rated_voltage with no_load_speed, not both",
+                "motor.kind",
+                "a brushless motor needs a `three-phase` board; this board's stage is not one",
             ));
         }
-        (None, Some(_), None) => {
+        (MotorKind::BrushedDc, true) => {
             return Err(c.fail(
-                "motor.no_load_speed",
-                "missing; rated_voltage needs no_load_speed",
+                "motor.kind",
+                "a three-phase board drives a `brushless` motor; expected `kind: brushless`",
             ));
         }
-        (None, None, Some(_)) => {
-            return Err(c.fail(
-                "motor.rated_voltage",
-                "missing; no_load_speed needs rated_voltage",
-            ));
-        }
-        (None, None, None) => {
-            return Err(c.fail(
-                "motor.back_emf_constant",
-                "missing; give back_emf_constant, or rated_voltage with no_load_speed",
-            ));
-        }
-    };
-    let emf = k_e * m.operating_speed.si;
-    let v_needed = emf + m.rated_current.si * m.resistance.si;
-    if v_needed >= s.min.si {
-        return Err(c.fail(
-            "motor.operating_speed",
-            format!(
-                "the motor needs {} (back-EMF {} + I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
-                fmt(v_needed, V),
-                fmt(emf, V),
-                fmt(m.rated_current.si * m.resistance.si, V),
-                fmt(s.min.si, V)
-            ),
-        ));
+        _ => {}
     }
+    let (emf, k_e) = if m.kind == MotorKind::Brushless {
+        check_brushless(&c, m, b, s)?
+    } else {
+        for (field, given) in [
+            ("motor.pole_pairs", m.pole_pairs.is_some()),
+            ("motor.back_emf_shape", m.back_emf_shape.is_some()),
+            ("motor.current_advance_deg", m.current_advance_deg.is_some()),
+        ] {
+            if given {
+                return Err(c.fail(field, "only a `brushless` motor has this; remove it"));
+            }
+        }
+        let k_e = match (m.back_emf_constant, m.rated_voltage, m.no_load_speed) {
+            (Some(k), None, None) => {
+                c.within(
+                    "motor.back_emf_constant",
+                    k.si,
+                    0.0,
+                    100.0,
+                    Dimension::BackEmfConstant,
+                )?;
+                k.si
+            }
+            (None, Some(v), Some(w)) => {
+                c.within("motor.rated_voltage", v.si, 0.0, 2000.0, V)?;
+                c.within(
+                    "motor.no_load_speed",
+                    w.si,
+                    0.0,
+                    1e5,
+                    Dimension::AngularSpeed,
+                )?;
+                // Unloaded, the back-EMF nearly equals the rated voltage (common practice).
+                v.si / w.si
+            }
+            (Some(_), _, _) => {
+                return Err(c.fail(
+                    "motor.back_emf_constant",
+                    "give either back_emf_constant, or rated_voltage with no_load_speed, not both",
+                ));
+            }
+            (None, Some(_), None) => {
+                return Err(c.fail(
+                    "motor.no_load_speed",
+                    "missing; rated_voltage needs no_load_speed",
+                ));
+            }
+            (None, None, Some(_)) => {
+                return Err(c.fail(
+                    "motor.rated_voltage",
+                    "missing; no_load_speed needs rated_voltage",
+                ));
+            }
+            (None, None, None) => {
+                return Err(c.fail(
+                    "motor.back_emf_constant",
+                    "missing; give back_emf_constant, or rated_voltage with no_load_speed",
+                ));
+            }
+        };
+        let emf = k_e * m.operating_speed.si;
+        let v_needed = emf + m.rated_current.si * m.resistance.si;
+        if v_needed >= s.min.si {
+            return Err(c.fail(
+                "motor.operating_speed",
+                format!(
+                    "the motor needs {} (back-EMF {} + I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
+                    fmt(v_needed, V),
+                    fmt(emf, V),
+                    fmt(m.rated_current.si * m.resistance.si, V),
+                    fmt(s.min.si, V)
+                ),
+            ));
+        }
+        (emf, k_e)
+    };
     let a = &d.ambient;
     c.within("ambient.min", a.min.si, -100.0, 200.0, DEG)?;
     c.within("ambient.max", a.max.si, -100.0, 200.0, DEG)?;
@@ -980,6 +1063,160 @@ fn check_design(
         check_tolerances(&c, t, d, b, sw, emf)?;
     }
     Ok((emf, k_e, t_j_limit))
+}
+
+/// The three-phase model of a brushless motor: phase R and L as written,
+/// pole pairs, and the back-EMF constant converted from the file's
+/// line-to-line peak per mechanical rad/s to `MotorParams`' line-to-neutral
+/// peak per electrical rad/s: k_e = k_ll/(√3·p) for a sinusoidal back-EMF
+/// (line-to-line peak = √3 × phase peak for a balanced star, Mohan, Undeland,
+/// Robbins, *Power Electronics*, 2003, from memory) and k_ll/(2·p) for a
+/// trapezoidal one (two 120° flat tops in series, Krishnan, *Permanent Magnet
+/// Synchronous and Brushless DC Motor Drives*, 2010, from memory).
+/// `None` unless the motor is brushless with pole pairs and a constant.
+pub fn brushless_motor(m: &MotorSpec) -> Option<MotorParams> {
+    if m.kind != MotorKind::Brushless {
+        return None;
+    }
+    let p = m.pole_pairs.filter(|p| *p > 0)?;
+    let k_ll = m.back_emf_constant?.si;
+    let (shape, ratio) = match m.back_emf_shape.unwrap_or_default() {
+        BackEmfShapeSpec::Sinusoidal => (BackEmfShape::Sinusoidal, 3f64.sqrt()),
+        BackEmfShapeSpec::Trapezoidal => (BackEmfShape::Trapezoidal, 2.0),
+    };
+    Some(MotorParams {
+        r_phase_ohm: m.resistance.si,
+        l_phase_h: m.inductance.si,
+        ke_v_s_per_rad: k_ll / (ratio * f64::from(p)),
+        pole_pairs: p,
+        back_emf_shape: shape,
+    })
+}
+
+/// Zero sequence of a board's sinusoidal modulation.
+pub fn zero_sequence(z: ZeroSequenceSpec) -> ZeroSequence {
+    match z {
+        ZeroSequenceSpec::None => ZeroSequence::None,
+        ZeroSequenceSpec::MinMax => ZeroSequence::MinMax,
+    }
+}
+
+/// Checks on a brushless motor against its three-phase board; returns
+/// (line-to-neutral back-EMF peak at the operating speed, k_e per
+/// electrical rad/s).
+fn check_brushless(
+    c: &Check,
+    m: &MotorSpec,
+    b: &BoardSpec,
+    s: &SupplySpec,
+) -> Result<(f64, f64), InputError> {
+    let Some(p) = m.pole_pairs else {
+        return Err(c.fail(
+            "motor.pole_pairs",
+            "missing; a brushless motor needs its pole pairs (half the magnet poles, e.g. 4 for an 8-pole rotor)",
+        ));
+    };
+    if !(1..=100).contains(&p) {
+        return Err(c.fail(
+            "motor.pole_pairs",
+            format!("{p} is out of range; expected 1 to 100"),
+        ));
+    }
+    for (field, given) in [
+        ("motor.rated_voltage", m.rated_voltage.is_some()),
+        ("motor.no_load_speed", m.no_load_speed.is_some()),
+    ] {
+        if given {
+            return Err(c.fail(
+                field,
+                "a brushless motor is described by back_emf_constant (line-to-line peak per mechanical speed); remove rated_voltage and no_load_speed",
+            ));
+        }
+    }
+    let Some(k) = m.back_emf_constant else {
+        return Err(c.fail(
+            "motor.back_emf_constant",
+            "missing; a brushless motor needs back_emf_constant, the line-to-line peak back-EMF per mechanical speed (e.g. \"5 V/krpm\")",
+        ));
+    };
+    c.within(
+        "motor.back_emf_constant",
+        k.si,
+        0.0,
+        100.0,
+        Dimension::BackEmfConstant,
+    )?;
+    let Some(motor) = brushless_motor(m) else {
+        return Err(c.fail("motor", "expected a brushless motor"));
+    };
+    let omega_e = f64::from(p) * m.operating_speed.si;
+    let emf = motor.phase_emf_peak_v(omega_e);
+    let i = m.rated_current.si;
+    match b.stage.modulation {
+        Some(ModulationSpec::Sinusoidal { zero_sequence: z }) => {
+            let gamma_deg = m.current_advance_deg.unwrap_or(0.0);
+            if !(gamma_deg.is_finite() && gamma_deg > -90.0 && gamma_deg < 90.0) {
+                return Err(c.fail(
+                    "motor.current_advance_deg",
+                    format!("{gamma_deg} is out of range; expected more than -90 and less than 90 degrees"),
+                ));
+            }
+            let zs = zero_sequence(z);
+            match three_phase::sinusoidal_point_from_motor(
+                &motor,
+                omega_e,
+                i,
+                gamma_deg.to_radians(),
+                s.min.si,
+                zs,
+            ) {
+                Ok(_) => {}
+                Err(three_phase::ThreePhaseError::Overmodulation {
+                    modulation_index,
+                    limit,
+                }) => {
+                    return Err(c.fail(
+                        "motor.operating_speed",
+                        format!(
+                            "at the lowest supply {} the motor needs modulation index {:.3} (phase voltage peak {}), above the linear limit {:.3} of zero_sequence `{}`; lower the speed or the current, or raise the supply{}",
+                            fmt(s.min.si, V),
+                            modulation_index,
+                            fmt(modulation_index * 0.5 * s.min.si, V),
+                            limit,
+                            if zs == ZeroSequence::None { "none" } else { "min-max" },
+                            if zs == ZeroSequence::None { ", or use `min-max` (linear to 1.155)" } else { "" }
+                        ),
+                    ));
+                }
+                Err(e) => {
+                    return Err(c.fail("motor", format!("no sinusoidal operating point: {e:?}")));
+                }
+            }
+        }
+        _ => {
+            if m.current_advance_deg.is_some() {
+                return Err(c.fail(
+                    "motor.current_advance_deg",
+                    "only sinusoidal modulation takes a current advance; remove it",
+                ));
+            }
+            let e_ll = motor.six_step_line_emf_v(omega_e);
+            let v_needed = e_ll + 2.0 * m.resistance.si * i;
+            if v_needed >= s.min.si {
+                return Err(c.fail(
+                    "motor.operating_speed",
+                    format!(
+                        "in six-step the motor needs {} (line-to-line back-EMF {} + 2·I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
+                        fmt(v_needed, V),
+                        fmt(e_ll, V),
+                        fmt(2.0 * m.resistance.si * i, V),
+                        fmt(s.min.si, V)
+                    ),
+                ));
+            }
+        }
+    }
+    Ok((emf, motor.ke_v_s_per_rad))
 }
 
 /// Largest tolerance accepted: ±50 % (our choice; a wider spread is no

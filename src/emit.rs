@@ -147,6 +147,22 @@ pub struct TimerLiterals {
     pub c_clock_hz: String,
 }
 
+/// Three-phase values as they go into code and text (all "0"/empty for the
+/// single-phase stages, so strict templates always find them).
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct ThreePhaseLiterals {
+    /// `sinusoidal` or `six-step`, with its option.
+    pub modulation: String,
+    /// Compare value on the down-count that starts the ADC.
+    pub adc_trigger_compare: String,
+    /// Trigger lead before the counter bottom, ns.
+    pub trigger_ns: String,
+    /// Largest compare of a sampled leg that keeps the sampling window.
+    pub sampling_compare_max: String,
+    /// The sampling window explained, one line each.
+    pub sampling_lines: Vec<String>,
+}
+
 /// The one context every template receives.
 #[derive(Debug, Clone, Serialize)]
 pub struct Context {
@@ -159,6 +175,9 @@ pub struct Context {
     /// The MCU has an FPU: emit the floating-point helper too.
     pub fpu: bool,
     pub has_dead_time: bool,
+    /// A three-phase bridge: emit the channel and ADC-trigger parts.
+    pub three_phase: bool,
+    pub three_phase_literals: ThreePhaseLiterals,
     /// The rationale as plain text lines, for comment blocks.
     pub rationale_lines: Vec<String>,
     /// The register init sequence, one step per line.
@@ -333,6 +352,19 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
             100.0 * plan.pwm.duty_needed[1]
         ),
     });
+    let tpl = three_phase_literals(plan);
+    if let Some(tp) = &plan.three_phase {
+        summary.push(Row {
+            label: "three-phase".into(),
+            value: three_phase_summary(tp),
+        });
+        if !tpl.sampling_lines.is_empty() {
+            summary.push(Row {
+                label: "current sampling".into(),
+                value: tpl.sampling_lines.join(" "),
+            });
+        }
+    }
     if let Some([a, b]) = plan.feasible_band_hz {
         summary.push(Row {
             label: "feasible band".into(),
@@ -495,7 +527,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         })
         .collect();
     let worst_case = worst_case_rows(plan);
-    let init_steps = init_steps(&n, &timer, has_dead_time);
+    let init_steps = init_steps(&n, &timer, has_dead_time, plan.three_phase.is_some());
     let mut ctx = Context {
         tool: format!("pwmplan {}", env!("CARGO_PKG_VERSION")),
         marker: MARKER_PLACEHOLDER.into(),
@@ -504,6 +536,8 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         timer,
         fpu,
         has_dead_time,
+        three_phase: plan.three_phase.is_some(),
+        three_phase_literals: tpl,
         rationale_lines: Vec::new(),
         init_steps,
         summary,
@@ -554,7 +588,99 @@ fn worst_case_rows(plan: &Plan) -> Vec<Row> {
     rows
 }
 
-fn init_steps(n: &Names, t: &TimerLiterals, dead: bool) -> Vec<String> {
+/// The three-phase summary line: modulation, operating point, channels.
+fn three_phase_summary(tp: &crate::plan::ThreePhaseOut) -> String {
+    let how = match (&tp.zero_sequence, &tp.chop) {
+        (Some(z), _) => format!("{}, zero sequence {z}", tp.modulation),
+        (_, Some(c)) => format!("{}, {c} chopping", tp.modulation),
+        _ => tp.modulation.clone(),
+    };
+    let point = match (
+        tp.rated.modulation_index,
+        tp.rated.power_factor,
+        tp.rated.chop_duty,
+    ) {
+        (Some(m), Some(pf), _) => format!("m {m:.3}, cos φ {pf:.3}"),
+        (_, _, Some(d)) => format!("chopping duty {:.1} %", 100.0 * d),
+        _ => String::new(),
+    };
+    format!(
+        "{how}; {point} at the rated case ({} {}); electrical frequency {}; channels {} share the period, the compare limits and the dead time",
+        q(tp.rated.current_a, Dimension::Current, 3),
+        tp.current_meaning,
+        q(tp.electrical_frequency_hz, Dimension::Frequency, 4),
+        tp.channels.join(", ")
+    )
+}
+
+/// The three-phase literals of a plan (defaults for the other stages).
+fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
+    let Some(tp) = &plan.three_phase else {
+        return ThreePhaseLiterals {
+            adc_trigger_compare: "0".into(),
+            trigger_ns: "0".into(),
+            sampling_compare_max: "0".into(),
+            ..ThreePhaseLiterals::default()
+        };
+    };
+    let t = |x: f64| q(x, Dimension::Time, 3);
+    let mut out = ThreePhaseLiterals {
+        modulation: tp.modulation.clone(),
+        adc_trigger_compare: "0".into(),
+        trigger_ns: "0".into(),
+        sampling_compare_max: "0".into(),
+        sampling_lines: Vec::new(),
+    };
+    match &tp.sampling {
+        Some(s) => {
+            let needed = s
+                .needed_duty
+                .map(|d| format!("{:.1} %", 100.0 * d))
+                .unwrap_or_else(|| "no value".into());
+            out.adc_trigger_compare = s.trigger_compare.to_string();
+            out.trigger_ns = format!("{:.1}", s.trigger_before_bottom_s * 1e9);
+            out.sampling_compare_max = s.max_high_side_compare.to_string();
+            out.sampling_lines = vec![
+                format!(
+                    "The ADC starts at compare {} on the down-count, {} before the counter bottom, so the {} sample is centred on the bottom, the middle of the low-side on-time.",
+                    s.trigger_compare,
+                    t(s.trigger_before_bottom_s),
+                    t(s.sample_time_s)
+                ),
+                if tp.chop.as_deref() == Some("low-side") {
+                    format!(
+                        "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so the chopping low side's duty must be at least {:.1} %; the load needs {}.",
+                        t(s.trigger_before_bottom_s),
+                        t(plan.timer.dead_time_s),
+                        t(s.settle_time_s),
+                        t(s.min_low_side_on_s),
+                        t(s.period_s),
+                        100.0 * (1.0 - s.max_high_side_duty),
+                        needed
+                    )
+                } else {
+                    format!(
+                        "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so a sampled leg's high-side duty is at most {:.1} % (compare {}); the load needs {}.",
+                        t(s.trigger_before_bottom_s),
+                        t(plan.timer.dead_time_s),
+                        t(s.settle_time_s),
+                        t(s.min_low_side_on_s),
+                        t(s.period_s),
+                        100.0 * s.max_high_side_duty,
+                        s.max_high_side_compare,
+                        needed
+                    )
+                },
+            ];
+        }
+        None => out.sampling_lines = vec![
+            "No sampling window fits the period: settling, dead time and sampling are longer than the low-side time.".into(),
+        ],
+    }
+    out
+}
+
+fn init_steps(n: &Names, t: &TimerLiterals, dead: bool, three_phase: bool) -> Vec<String> {
     let m = &n.c_macro;
     let mut s = vec![
         "Stop the timer and hold the bridge outputs in their safe (off) state.".to_string(),
@@ -581,10 +707,20 @@ fn init_steps(n: &Names, t: &TimerLiterals, dead: bool) -> Vec<String> {
             t.dead_time_ticks, t.dead_time_ns
         ));
     }
-    s.push(format!(
-        "Compare register(s) <- 0, then values from {}_compare_from_q16() only.",
-        n.c_function
-    ));
+    if three_phase {
+        s.push(format!(
+            "Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from {}_compare_from_q16() only (one call per channel).",
+            n.c_function
+        ));
+        s.push(format!(
+            "ADC trigger: a fourth compare <- {m}_ADC_TRIGGER_COMPARE, triggering on the down-count match only."
+        ));
+    } else {
+        s.push(format!(
+            "Compare register(s) <- 0, then values from {}_compare_from_q16() only.",
+            n.c_function
+        ));
+    }
     s.push("Enable preload of period and compare registers so updates take effect at the period boundary.".into());
     s.push("Start the counter, then enable the outputs.".into());
     s.into_iter()

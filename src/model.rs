@@ -19,6 +19,9 @@ use crate::physics::ratings::{self, Finding, RatingInputs, Severity};
 use crate::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
 use crate::physics::switching;
 use crate::physics::thermal::{self, JunctionTemperature};
+use crate::physics::three_phase::{
+    self, BackEmfShape, Chop, LossLines, MotorParams, SixStepPoint, ThreePhaseStage, ZeroSequence,
+};
 use crate::spec::*;
 use crate::timer::{
     self, Alignment, CompareLimits, DeadTimeGenerator, DeadTimeSegment, Prescaler, PwmSetting,
@@ -69,6 +72,74 @@ pub struct Evaluator {
     /// fastest turn-on), set by [`Evaluator::new`]; shoot-through is not a
     /// typical-value question, so every setting uses it.
     pub dead_time_need_override_s: Option<f64>,
+    /// A three-phase bridge: its modulation, motor and current sensing
+    /// (`None` for the single-phase stages). `motor_r_ohm`/`motor_l_h` are
+    /// then the phase values.
+    pub three_phase: Option<ThreePhaseModel>,
+}
+
+/// What a three-phase bridge adds to the evaluator.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ThreePhaseModel {
+    pub modulation: ThreePhaseModulation,
+    pub pole_pairs: u32,
+    /// Line-to-neutral peak back-EMF per electrical rad/s.
+    pub ke_v_s_per_rad: f64,
+    pub back_emf_shape: BackEmfShape,
+    /// Electrical speed at the operating point.
+    pub omega_e_rad_s: f64,
+    /// Shunt-amplifier settling after the low side turns on.
+    pub settle_s: f64,
+    /// ADC sampling time.
+    pub sample_s: f64,
+}
+
+/// Modulation of a three-phase bridge.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ThreePhaseModulation {
+    Sinusoidal {
+        zero_sequence: ZeroSequence,
+        current_advance_rad: f64,
+    },
+    SixStep {
+        chop: Chop,
+    },
+}
+
+impl ThreePhaseModulation {
+    /// Highest leg duty over the electrical period at index m: ½(1 + k·m)
+    /// with k = 1 without zero sequence and √3/2 with min-max (the largest
+    /// half line-to-line reference, Holmes, Lipo, *Pulse Width Modulation for
+    /// Power Converters*, 2003, from memory); six-step: the chopping duty.
+    pub fn leg_duty_max(&self, m: f64) -> f64 {
+        match self {
+            ThreePhaseModulation::Sinusoidal {
+                zero_sequence: ZeroSequence::None,
+                ..
+            } => 0.5 * (1.0 + m),
+            ThreePhaseModulation::Sinusoidal { .. } => 0.5 * (1.0 + 0.5 * 3f64.sqrt() * m),
+            ThreePhaseModulation::SixStep { .. } => m,
+        }
+    }
+
+    /// Highest duty of the MIDDLE leg over the electrical period: the two
+    /// legs with the longest low-side on-time are sampled and the third
+    /// current is i_a + i_b + i_c = 0 (three-shunt practice, common
+    /// practice), so the middle leg binds the sampling window. Of three
+    /// balanced references of amplitude m the middle one peaks at m/2;
+    /// min-max adds z = b/2 to the middle value b (a + b + c = 0, own
+    /// derivation), so ½(1 + m/2) or ½(1 + 3m/4). Six-step: the chopping
+    /// duty (the conducting low side carries the line current).
+    pub fn sampled_leg_duty_max(&self, m: f64) -> f64 {
+        match self {
+            ThreePhaseModulation::Sinusoidal {
+                zero_sequence: ZeroSequence::None,
+                ..
+            } => 0.5 * (1.0 + 0.5 * m),
+            ThreePhaseModulation::Sinusoidal { .. } => 0.5 * (1.0 + 0.75 * m),
+            ThreePhaseModulation::SixStep { .. } => m,
+        }
+    }
 }
 
 /// The design's constraints in SI.
@@ -190,6 +261,38 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
             _ => None,
         },
     }
+}
+
+/// The three-phase part of a design's evaluator, when its board is one.
+fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
+    if d.board.stage.topology != TopologySpec::ThreePhase {
+        return None;
+    }
+    let motor = crate::design::brushless_motor(&d.spec.motor)?;
+    let sensing = d.board.current_sensing.as_ref()?;
+    let modulation = match d.board.stage.modulation? {
+        ModulationSpec::Sinusoidal { zero_sequence } => ThreePhaseModulation::Sinusoidal {
+            zero_sequence: crate::design::zero_sequence(zero_sequence),
+            current_advance_rad: d.spec.motor.current_advance_deg.unwrap_or(0.0).to_radians(),
+        },
+        ModulationSpec::SixStep { chop } => ThreePhaseModulation::SixStep {
+            chop: match chop {
+                ChopSpec::HighSide => Chop::HighSide,
+                ChopSpec::LowSide => Chop::LowSide,
+                ChopSpec::Complementary => Chop::Complementary,
+            },
+        },
+        ModulationSpec::Bipolar | ModulationSpec::Unipolar => return None,
+    };
+    Some(ThreePhaseModel {
+        modulation,
+        pole_pairs: motor.pole_pairs,
+        ke_v_s_per_rad: motor.ke_v_s_per_rad,
+        back_emf_shape: motor.back_emf_shape,
+        omega_e_rad_s: f64::from(motor.pole_pairs) * d.spec.motor.operating_speed.si,
+        settle_s: sensing.settle_time.si,
+        sample_s: sensing.sample_time.si,
+    })
 }
 
 /// Timer model from the board file.
@@ -317,6 +420,7 @@ impl Evaluator {
             significance: Significance::default(),
             dead_time_margin: deadtime::DEFAULT_DEAD_TIME_MARGIN,
             dead_time_need_override_s: None,
+            three_phase: three_phase_model(d),
         }
     }
 
@@ -365,6 +469,10 @@ impl Evaluator {
     /// rises monotonically with duty; in discontinuous conduction it also
     /// depends on frequency, so it is solved per frequency).
     pub fn modulation_for_load(&self, case: &OperatingCase, f_hz: f64) -> Option<f64> {
+        if let Some(tp) = &self.three_phase {
+            let r_path = 2.0 * thermal::r_ds_on_ohm(&self.stage.switch, case.t_ambient_c);
+            return self.three_phase_modulation(tp, case, f_hz, 0.0, r_path);
+        }
         let target = case.load_current_a;
         // Continuous conduction has a closed form from the mean terminal
         // voltage (volt-second balance, common practice): bridges
@@ -416,6 +524,45 @@ pub struct CaseResult {
     /// Why the junction temperature has no value.
     pub runaway: Option<String>,
     pub acoustic: AcousticFigures,
+    /// Three-phase figures (absent for the single-phase stages).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub three_phase: Option<ThreePhaseCase>,
+}
+
+/// What a three-phase case adds.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ThreePhaseCase {
+    /// `sinusoidal` or `six-step`.
+    pub modulation: String,
+    /// Sinusoidal: m (phase-voltage fundamental peak / (V/2)).
+    pub modulation_index: Option<f64>,
+    /// Sinusoidal: cos φ between phase voltage and current.
+    pub power_factor: Option<f64>,
+    /// Six-step: duty of the chopping switch.
+    pub chop_duty: Option<f64>,
+    /// Highest leg (compare) duty over the electrical period.
+    pub leg_duty_max: f64,
+    /// Highest duty of the leg the current sampling depends on.
+    pub sampled_leg_duty_max: f64,
+    pub electrical_frequency_hz: f64,
+    /// Rated current as the model takes it: phase peak (sinusoidal) or
+    /// DC-link line current (six-step).
+    pub current_a: f64,
+    /// Each high-side and each low-side switch, W.
+    pub high_side_w: f64,
+    pub low_side_w: f64,
+    /// Junction of each high-side and low-side switch.
+    pub high_side_junction_c: Option<f64>,
+    pub low_side_junction_c: Option<f64>,
+    /// Sum over the six switches (channel, diode, switching, gate share in
+    /// R_g,int), W.
+    pub devices_total_w: f64,
+    /// Gate-drive loss outside the switches (driver and external
+    /// resistors), W: devices + this + motor ripple copper = total.
+    pub gate_outside_devices_w: f64,
+    /// Sinusoidal: (closed form − sample average)/sample average of the
+    /// per-switch loss.
+    pub closed_form_deviation_rel: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -507,6 +654,9 @@ impl Evaluator {
     /// Evaluate one case at frequency `f_hz` with dead time `t_dead_s`.
     /// `None` when the load current cannot be reached at this bus voltage.
     pub fn case(&self, case: &OperatingCase, f_hz: f64, t_dead_s: f64) -> Option<CaseResult> {
+        if let Some(tp) = &self.three_phase {
+            return self.case_three_phase(tp, case, f_hz, t_dead_s);
+        }
         let m = self.modulation_for_load(case, f_hz)?;
         let w = self.waveform(case, m, f_hz)?;
         let load = load_current(&w);
@@ -599,6 +749,7 @@ impl Evaluator {
             junction_c,
             runaway,
             acoustic: acoustic.into(),
+            three_phase: None,
         })
     }
 
@@ -630,7 +781,12 @@ impl Evaluator {
             drive: &st.drive,
             diode: st.diode.as_ref(),
             v_bus_max_v: d.spec.supply.max.si,
-            r_winding_ohm: Some(self.motor_r_ohm),
+            // A three-phase stall drives the line-to-line resistance.
+            r_winding_ohm: Some(if self.three_phase.is_some() {
+                2.0 * self.motor_r_ohm
+            } else {
+                self.motor_r_ohm
+            }),
             thermal: &st.thermal,
             t_ambient_c: d.spec.ambient.max.si,
             stall_time_s: d.spec.constraints.stall_time.map(|t| t.si),
@@ -675,3 +831,453 @@ pub fn severity_name(s: Severity) -> &'static str {
 /// Re-exported for the solver.
 pub use timer::duty_limits;
 pub type Setting = PwmSetting;
+
+// ------------------------------------------------------------ three-phase
+
+/// The six positions of a three-phase bridge, in report order.
+pub const THREE_PHASE_ROLES: [(&str, bool); 6] = [
+    ("phase-a-high", true),
+    ("phase-a-low", false),
+    ("phase-b-high", true),
+    ("phase-b-low", false),
+    ("phase-c-high", true),
+    ("phase-c-low", false),
+];
+
+/// Per-side losses and temperatures of a three-phase case, before the
+/// figures are assembled.
+struct SideResult {
+    high: LossLines,
+    low: LossLines,
+    t_high: JunctionTemperature,
+    t_low: JunctionTemperature,
+    /// Driver + external gate-resistor loss of all six switches.
+    gate_outside_w: f64,
+    /// Current at the turn-on and turn-off edges (magnitudes) for the
+    /// device table.
+    i_on_a: f64,
+    i_off_a: f64,
+}
+
+impl Evaluator {
+    /// Motor constants of the three-phase model (phase R and L from the
+    /// evaluator, so tolerance corners move them).
+    pub fn motor_params(&self, tp: &ThreePhaseModel) -> MotorParams {
+        MotorParams {
+            r_phase_ohm: self.motor_r_ohm,
+            l_phase_h: self.motor_l_h,
+            ke_v_s_per_rad: tp.ke_v_s_per_rad,
+            pole_pairs: tp.pole_pairs,
+            back_emf_shape: tp.back_emf_shape,
+        }
+    }
+
+    fn bridge<'a>(&'a self, case: &OperatingCase, f_hz: f64, t_dead_s: f64) -> ThreePhaseStage<'a> {
+        ThreePhaseStage {
+            sw: &self.stage.switch,
+            drive: &self.stage.drive,
+            v_bus_v: case.v_bus_v,
+            f_sw_hz: f_hz,
+            t_dead_s,
+        }
+    }
+
+    /// m (sinusoidal, from the motor by `sinusoidal_point_from_motor`) or
+    /// the six-step chopping duty for the case's current (`six_step_duty`,
+    /// `r_path_ohm` of switches in the line path).
+    fn three_phase_modulation(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+        r_path_ohm: f64,
+    ) -> Option<f64> {
+        let motor = self.motor_params(tp);
+        match tp.modulation {
+            ThreePhaseModulation::Sinusoidal {
+                zero_sequence,
+                current_advance_rad,
+            } => three_phase::sinusoidal_point_from_motor(
+                &motor,
+                tp.omega_e_rad_s,
+                case.load_current_a,
+                current_advance_rad,
+                case.v_bus_v,
+                zero_sequence,
+            )
+            .ok()
+            .map(|p| p.modulation_index),
+            ThreePhaseModulation::SixStep { chop } => three_phase::six_step_duty(
+                &self.bridge(case, f_hz, t_dead_s),
+                &motor,
+                tp.omega_e_rad_s,
+                chop,
+                case.load_current_a,
+                r_path_ohm,
+            )
+            .ok(),
+        }
+    }
+
+    /// Top of the frequency range the acoustic verdict looks at.
+    fn acoustic_top_hz(&self) -> f64 {
+        match &self.audible {
+            AudibleMode::Inaudible { hearing_limit_hz } => *hearing_limit_hz,
+            AudibleMode::Allowed => acoustics::DEFAULT_HEARING_LIMIT_HZ,
+            AudibleMode::AvoidBands {
+                bands,
+                hearing_limit_hz,
+            } => bands.iter().map(|b| b.1).fold(*hearing_limit_hz, f64::max),
+        }
+    }
+
+    /// One case of a three-phase bridge: losses of each switch position,
+    /// junction temperatures (each side iterated on its own R_ds(on)(T_j)
+    /// by `thermal::junction_temperature`), the ripple and its audibility.
+    fn case_three_phase(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<CaseResult> {
+        match tp.modulation {
+            ThreePhaseModulation::Sinusoidal {
+                zero_sequence,
+                current_advance_rad,
+            } => self.case_sinusoidal(tp, case, f_hz, t_dead_s, zero_sequence, current_advance_rad),
+            ThreePhaseModulation::SixStep { chop } => {
+                self.case_six_step(tp, case, f_hz, t_dead_s, chop)
+            }
+        }
+    }
+
+    /// Sinusoidal case. The junction iteration runs on the closed forms
+    /// (`sinusoidal_losses_closed_form`, cheap; they carry the R_ds(on)(T)
+    /// dependence exactly) shifted by their offset to the sample average with
+    /// the non-linear transitions (`sinusoidal_losses`) at the first settled
+    /// temperature; the losses reported are the sample average at the final
+    /// temperature. High and low sides are alike by half-wave symmetry.
+    fn case_sinusoidal(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+        zs: ZeroSequence,
+        gamma_rad: f64,
+    ) -> Option<CaseResult> {
+        let st = &self.stage;
+        let bridge = self.bridge(case, f_hz, t_dead_s);
+        let motor = self.motor_params(tp);
+        let point = three_phase::sinusoidal_point_from_motor(
+            &motor,
+            tp.omega_e_rad_s,
+            case.load_current_a,
+            gamma_rad,
+            case.v_bus_v,
+            zs,
+        )
+        .ok()?;
+        let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
+        let closed = |t: f64| {
+            three_phase::sinusoidal_losses_closed_form(&bridge, &point, t)
+                .map(|l| l.high_side.total_w())
+                .unwrap_or(f64::NAN)
+        };
+        let first = thermal::junction_temperature(case.t_ambient_c, r_th, t_max, closed);
+        let t0 = first.t_j_c().unwrap_or(t_max);
+        let at_t0 = three_phase::sinusoidal_losses(&bridge, &point, t0).ok()?;
+        let offset = at_t0.exact.high_side.total_w() - at_t0.closed_form.high_side.total_w();
+        let tj =
+            thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| closed(t) + offset);
+        let t_final = tj.t_j_c().unwrap_or(t_max);
+        let report = three_phase::sinusoidal_losses(&bridge, &point, t_final).ok()?;
+        let ex = &report.exact;
+        let sides = SideResult {
+            high: ex.high_side,
+            low: ex.low_side,
+            t_high: tj.clone(),
+            t_low: tj,
+            gate_outside_w: 6.0 * (ex.gate_per_switch.driver_w + ex.gate_per_switch.external_w),
+            i_on_a: point.i_peak_a,
+            i_off_a: point.i_peak_a,
+        };
+        let ripple = three_phase::sinusoidal_ripple(
+            &bridge,
+            self.motor_l_h,
+            point.modulation_index,
+            zs,
+            three_phase::DEFAULT_RIPPLE_ANGLES,
+            self.acoustic_top_hz(),
+            self.significance.max_lines,
+        )
+        .ok()?;
+        let acoustic =
+            acoustics::assess_lines(&ripple.lines, &self.audible, &self.significance).ok()?;
+        let i_pk = point.i_peak_a;
+        let ripple_fig = RippleFigures {
+            // The phase current is a sine: zero mean over the electrical
+            // period; rms of the fundamental and the ripple together.
+            mean_a: 0.0,
+            rms_a: (0.5 * i_pk * i_pk + ripple.rms_a * ripple.rms_a).sqrt(),
+            max_a: i_pk + 0.5 * ripple.pp_max_a,
+            min_a: -(i_pk + 0.5 * ripple.pp_max_a),
+            peak_to_peak_a: ripple.pp_max_a,
+            ac_rms_a: ripple.rms_a,
+            continuous: true,
+            frequency_hz: f_hz,
+        };
+        // Three phases carry the ripple.
+        let copper = ripple::ripple_copper_loss_w(3.0 * self.motor_r_ohm, ripple.rms_a);
+        let m = point.modulation_index;
+        let extra = ThreePhaseCase {
+            modulation: "sinusoidal".into(),
+            modulation_index: Some(m),
+            power_factor: Some(point.power_factor),
+            chop_duty: None,
+            leg_duty_max: tp.modulation.leg_duty_max(m),
+            sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(m),
+            electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
+            current_a: i_pk,
+            high_side_w: 0.0,
+            low_side_w: 0.0,
+            high_side_junction_c: None,
+            low_side_junction_c: None,
+            devices_total_w: 0.0,
+            gate_outside_devices_w: 0.0,
+            closed_form_deviation_rel: Some(report.closed_form_deviation_rel),
+        };
+        self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic.into(), extra)
+    }
+
+    /// Six-step case. The duty is solved for the line current with the two
+    /// switches of the path in the loop (R_ds(on) at the side temperatures,
+    /// starting from ambient, solved twice); each side's junction is iterated
+    /// on its own lines of `six_step_losses` (a side's lines depend on its own
+    /// T_j only).
+    fn case_six_step(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+        chop: Chop,
+    ) -> Option<CaseResult> {
+        let st = &self.stage;
+        let bridge = self.bridge(case, f_hz, t_dead_s);
+        let motor = self.motor_params(tp);
+        let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
+        let f_e = tp.omega_e_rad_s / (2.0 * std::f64::consts::PI);
+        let (mut t_hi, mut t_lo) = (case.t_ambient_c, case.t_ambient_c);
+        let mut last = None;
+        for _ in 0..2 {
+            let r_path =
+                thermal::r_ds_on_ohm(&st.switch, t_hi) + thermal::r_ds_on_ohm(&st.switch, t_lo);
+            let d = self.three_phase_modulation(tp, case, f_hz, t_dead_s, r_path)?;
+            let w =
+                three_phase::six_step_ripple(&bridge, &motor, tp.omega_e_rad_s, d, chop, r_path)
+                    .ok()?;
+            let pt = SixStepPoint {
+                chop,
+                duty: d,
+                f_e_hz: f_e,
+            };
+            let side = |high: bool| {
+                thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
+                    three_phase::six_step_losses(&bridge, &pt, &w, t, t)
+                        .map(|l| {
+                            if high {
+                                l.high_side.total_w()
+                            } else {
+                                l.low_side.total_w()
+                            }
+                        })
+                        .unwrap_or(f64::NAN)
+                })
+            };
+            let (jh, jl) = (side(true), side(false));
+            t_hi = jh.t_j_c().unwrap_or(t_max);
+            t_lo = jl.t_j_c().unwrap_or(t_max);
+            last = Some((d, w, pt, jh, jl));
+        }
+        let (d, w, pt, jh, jl) = last?;
+        let l = three_phase::six_step_losses(&bridge, &pt, &w, t_hi, t_lo).ok()?;
+        let sides = SideResult {
+            high: l.high_side,
+            low: l.low_side,
+            t_high: jh,
+            t_low: jl,
+            gate_outside_w: l.gate_driver_w + l.gate_external_w,
+            i_on_a: w.value_at(0.0).abs(),
+            i_off_a: w.value_at(d * w.period_s()).abs(),
+        };
+        let acoustic = acoustics::assess(&w, &self.audible, &self.significance).ok()?;
+        let ripple_fig = RippleFigures {
+            mean_a: w.i_avg_a(),
+            rms_a: w.i_rms_a(),
+            max_a: w.i_max_a(),
+            min_a: w.i_min_a(),
+            peak_to_peak_a: w.ripple_pp_a(),
+            ac_rms_a: w.ripple_rms_a(),
+            continuous: w.continuous(),
+            frequency_hz: 1.0 / w.period_s(),
+        };
+        // The line current flows through two phases in series.
+        let copper = ripple::ripple_copper_loss_w(2.0 * self.motor_r_ohm, w.ripple_rms_a());
+        let extra = ThreePhaseCase {
+            modulation: "six-step".into(),
+            modulation_index: None,
+            power_factor: None,
+            chop_duty: Some(d),
+            leg_duty_max: tp.modulation.leg_duty_max(d),
+            sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(d),
+            electrical_frequency_hz: f_e,
+            current_a: case.load_current_a,
+            high_side_w: 0.0,
+            low_side_w: 0.0,
+            high_side_junction_c: None,
+            low_side_junction_c: None,
+            devices_total_w: 0.0,
+            gate_outside_devices_w: 0.0,
+            closed_form_deviation_rel: None,
+        };
+        self.three_phase_result(case, d, sides, ripple_fig, copper, acoustic.into(), extra)
+    }
+
+    /// Assemble the case: the six device rows, the loss split (lines add up
+    /// to the total: devices + gate drive outside them + ripple copper) and
+    /// the hottest junction.
+    #[allow(clippy::too_many_arguments)]
+    fn three_phase_result(
+        &self,
+        case: &OperatingCase,
+        modulation: f64,
+        s: SideResult,
+        ripple: RippleFigures,
+        copper_w: f64,
+        acoustic: AcousticFigures,
+        mut extra: ThreePhaseCase,
+    ) -> Option<CaseResult> {
+        let st = &self.stage;
+        let t_max = st.switch.t_j_max_c;
+        let r_at =
+            |t: &JunctionTemperature| thermal::r_ds_on_ohm(&st.switch, t.t_j_c().unwrap_or(t_max));
+        let tr = |t: &JunctionTemperature| {
+            switching::transitions(
+                &st.switch,
+                &st.drive,
+                case.v_bus_v,
+                s.i_on_a,
+                s.i_off_a,
+                r_at(t),
+            )
+            .ok()
+        };
+        let (tr_h, tr_l) = (tr(&s.t_high)?, tr(&s.t_low)?);
+        let devices: Vec<DeviceFigures> = THREE_PHASE_ROLES
+            .iter()
+            .map(|&(role, high)| {
+                let (lines, t, tr) = if high {
+                    (&s.high, &s.t_high, &tr_h)
+                } else {
+                    (&s.low, &s.t_low, &tr_l)
+                };
+                DeviceFigures {
+                    role: role.to_string(),
+                    switched_current_on_a: s.i_on_a,
+                    switched_current_off_a: s.i_off_a,
+                    e_on_j: tr.e_on_j,
+                    e_off_j: tr.e_off_j,
+                    t_delay_on_s: tr.t_d_on_s,
+                    t_delay_off_s: tr.t_d_off_s,
+                    conduction_w: lines.conduction_w(),
+                    total_w: lines.total_w(),
+                    junction_c: t.t_j_c(),
+                }
+            })
+            .collect();
+        let three = |f: fn(&LossLines) -> f64| 3.0 * (f(&s.high) + f(&s.low));
+        let devices_total = three(LossLines::total_w);
+        let gate_internal = three(|l| l.gate_internal_w);
+        let losses = LossFigures {
+            conduction: three(LossLines::conduction_w),
+            switching: three(|l| l.switching_w + l.commutation_w),
+            output_capacitance: three(|l| l.output_capacitance_w),
+            reverse_recovery: three(|l| l.reverse_recovery_w),
+            dead_time_diode: three(|l| l.body_diode_w),
+            gate_drive: gate_internal + s.gate_outside_w,
+            freewheel_diode: 0.0,
+            motor_ripple_copper: copper_w,
+            total: devices_total + s.gate_outside_w + copper_w,
+        };
+        let mut runaway = None;
+        for (side, t) in [("high side", &s.t_high), ("low side", &s.t_low)] {
+            if let JunctionTemperature::Runaway { reason } = t {
+                runaway = Some(format!("{side}: {reason}"));
+            }
+        }
+        let junction_c = match (runaway.is_some(), s.t_high.t_j_c(), s.t_low.t_j_c()) {
+            (false, Some(a), Some(b)) => Some(a.max(b)),
+            _ => None,
+        };
+        extra.high_side_w = s.high.total_w();
+        extra.low_side_w = s.low.total_w();
+        extra.high_side_junction_c = s.t_high.t_j_c();
+        extra.low_side_junction_c = s.t_low.t_j_c();
+        extra.devices_total_w = devices_total;
+        extra.gate_outside_devices_w = s.gate_outside_w;
+        Some(CaseResult {
+            case: *case,
+            modulation,
+            ripple,
+            losses,
+            devices,
+            junction_c,
+            runaway,
+            acoustic,
+            three_phase: Some(extra),
+        })
+    }
+}
+
+#[cfg(test)]
+mod three_phase_tests {
+    use super::*;
+
+    /// The closed forms of the highest leg duty and of the highest middle-leg
+    /// duty against a sweep of `three_phase::leg_duties` over the electrical
+    /// period (independent: the sweep sorts the three duties at each angle).
+    #[test]
+    fn leg_duty_maxima_match_a_sweep() {
+        for zs in [ZeroSequence::None, ZeroSequence::MinMax] {
+            for m in [0.2, 0.6, 1.0, 1.15] {
+                if m > zs.linear_limit() {
+                    continue;
+                }
+                let modulation = ThreePhaseModulation::Sinusoidal {
+                    zero_sequence: zs,
+                    current_advance_rad: 0.0,
+                };
+                let (mut top, mut mid) = (0.0_f64, 0.0_f64);
+                for k in 0..36_000 {
+                    let theta = k as f64 * 2.0 * std::f64::consts::PI / 36_000.0;
+                    let mut d = three_phase::leg_duties(m, zs, theta);
+                    d.sort_by(f64::total_cmp);
+                    top = top.max(d[2]);
+                    mid = mid.max(d[1]);
+                }
+                assert!(
+                    (modulation.leg_duty_max(m) - top).abs() < 1e-6,
+                    "{zs:?} m={m}"
+                );
+                assert!(
+                    (modulation.sampled_leg_duty_max(m) - mid).abs() < 1e-6,
+                    "{zs:?} m={m}: {} vs {mid}",
+                    modulation.sampled_leg_duty_max(m)
+                );
+            }
+        }
+    }
+}

@@ -10,7 +10,7 @@ use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
 use crate::design::Design;
-use crate::model::{self, DeviceFigures, Evaluator, LossFigures};
+use crate::model::{self, DeviceFigures, Evaluator, LossFigures, ThreePhaseCase};
 use crate::physics::bootstrap::{self, BootstrapInputs};
 use crate::physics::deadtime;
 use crate::physics::params::Topology;
@@ -67,6 +67,79 @@ pub const ASSUMPTIONS: &[&str] = &[
     "audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms",
 ];
 
+/// The modelling assumptions of a three-phase plan.
+pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
+    "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
+    "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
+    "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
+    "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
+    "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
+    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0",
+    "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
+];
+
+/// The three-phase block of a plan.
+fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
+    use crate::model::ThreePhaseModulation as M;
+    use crate::physics::three_phase::{Chop, ZeroSequence};
+    let tp = ev.three_phase.as_ref()?;
+    let (modulation, zero_sequence, chop, current_meaning) = match tp.modulation {
+        M::Sinusoidal { zero_sequence, .. } => (
+            "sinusoidal",
+            Some(match zero_sequence {
+                ZeroSequence::None => "none",
+                ZeroSequence::MinMax => "min-max",
+            }),
+            None,
+            "phase-current peak",
+        ),
+        M::SixStep { chop } => (
+            "six-step",
+            None,
+            Some(match chop {
+                Chop::HighSide => "high-side",
+                Chop::LowSide => "low-side",
+                Chop::Complementary => "complementary",
+            }),
+            "DC-link (line) current",
+        ),
+    };
+    let period_s = 1.0 / c.setting.frequency_hz;
+    let sensing = d.board.current_sensing.as_ref();
+    let needed = c
+        .checks
+        .iter()
+        .find(|k| k.name == "sampling-window")
+        .and_then(|k| k.value);
+    Some(ThreePhaseOut {
+        modulation: modulation.into(),
+        zero_sequence: zero_sequence.map(Into::into),
+        chop: chop.map(Into::into),
+        channels: ["A", "B", "C"].iter().map(|x| x.to_string()).collect(),
+        pole_pairs: tp.pole_pairs,
+        k_e_v_s_per_rad: tp.ke_v_s_per_rad,
+        back_emf_phase_peak_v: tp.ke_v_s_per_rad * tp.omega_e_rad_s,
+        electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
+        current_meaning: current_meaning.into(),
+        rated: c.rated.three_phase.clone()?,
+        high_bus: c.high_bus.three_phase.clone()?,
+        sampling: c.sampling.map(|w| SamplingPlan {
+            settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
+            sample_time_s: sensing.map(|x| x.sample_time.si).unwrap_or(tp.sample_s),
+            trigger_compare: w.trigger_compare,
+            trigger_before_bottom_s: w.trigger_before_bottom_s,
+            period_s,
+            min_low_side_on_s: w.min_low_side_on_s,
+            min_low_side_gate_on_s: w.min_low_side_gate_on_s,
+            max_high_side_duty: w.max_high_side_duty,
+            max_high_side_compare: (w.max_high_side_duty * c.setting.duty_steps as f64 + 1e-9)
+                .floor()
+                .max(0.0) as u64,
+            needed_duty: needed,
+        }),
+    })
+}
+
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct Plan {
     /// Tool and version, with the content-hash marker of this file.
@@ -88,6 +161,10 @@ pub struct Plan {
     pub constraints: Vec<ConstraintOut>,
     pub findings: Vec<FindingOut>,
     pub devices: Vec<DeviceFigures>,
+    /// Three-phase bridges only: modulation, per-side figures and the
+    /// current-sampling trigger.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub three_phase: Option<ThreePhaseOut>,
     pub feasible_band_hz: Option<[f64; 2]>,
     pub alternatives: Vec<AlternativeOut>,
     /// When infeasible: why, and the nearest compromise.
@@ -170,6 +247,54 @@ fn worst_case_out(w: &crate::spread::WorstCase) -> WorstCaseOut {
         rows,
         pass: w.pass,
     }
+}
+
+/// The three-phase block of `plan.json`.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct ThreePhaseOut {
+    /// `sinusoidal` or `six-step`.
+    pub modulation: String,
+    /// Sinusoidal: `none` or `min-max`.
+    pub zero_sequence: Option<String>,
+    /// Six-step: `high-side`, `low-side` or `complementary`.
+    pub chop: Option<String>,
+    /// The timer channels: all three share the period, the compare limits
+    /// and the dead time.
+    pub channels: Vec<String>,
+    pub pole_pairs: u32,
+    /// Back-EMF constant, line-to-neutral peak per electrical rad/s.
+    pub k_e_v_s_per_rad: f64,
+    /// Line-to-neutral back-EMF peak at the operating speed.
+    pub back_emf_phase_peak_v: f64,
+    pub electrical_frequency_hz: f64,
+    /// What `rated_current` is taken as.
+    pub current_meaning: String,
+    pub rated: ThreePhaseCase,
+    pub high_bus: ThreePhaseCase,
+    /// The current-sampling window (null when none fits the period).
+    pub sampling: Option<SamplingPlan>,
+}
+
+/// The low-side shunt sampling of a three-phase plan.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SamplingPlan {
+    pub settle_time_s: f64,
+    pub sample_time_s: f64,
+    /// Compare value on the DOWN-count that starts the ADC conversion.
+    pub trigger_compare: u64,
+    /// Time from the trigger to the counter bottom (the window is centred
+    /// on the bottom, the middle of the low-side on-time).
+    pub trigger_before_bottom_s: f64,
+    pub period_s: f64,
+    /// Shortest low-side time the window needs (reference, and gate on-time).
+    pub min_low_side_on_s: f64,
+    pub min_low_side_gate_on_s: f64,
+    /// Largest high-side duty (and compare value) of a sampled leg.
+    pub max_high_side_duty: f64,
+    pub max_high_side_compare: u64,
+    /// The duty the sampling constraint compares (sampled leg at the lowest
+    /// supply; six-step low-side chop: chopping duty at the highest supply).
+    pub needed_duty: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -594,6 +719,7 @@ pub fn build_on(
             .collect(),
         findings: findings(d, ev, c),
         devices: c.rated.devices.clone(),
+        three_phase: three_phase_out(d, ev, c),
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
         alternatives: sol
             .alternatives
@@ -624,7 +750,14 @@ pub fn build_on(
                 ripple_peak_to_peak_a: r.ripple.peak_to_peak_a,
             })
             .collect(),
-        assumptions: ASSUMPTIONS.iter().map(|s| s.to_string()).collect(),
+        assumptions: if ev.three_phase.is_some() {
+            THREE_PHASE_ASSUMPTIONS
+        } else {
+            ASSUMPTIONS
+        }
+        .iter()
+        .map(|s| s.to_string())
+        .collect(),
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
         inputs: d
             .sources

@@ -20,8 +20,9 @@ use std::cmp::Ordering;
 
 use serde::Serialize;
 
-use crate::model::{CaseResult, Evaluator, OperatingCase};
+use crate::model::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
 use crate::physics::params::{HBridgeModulation, Topology};
+use crate::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
 use crate::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
 
 /// What the solver optimises.
@@ -109,6 +110,24 @@ pub struct Candidate {
     pub high_bus: CaseResult,
     pub checks: Vec<ConstraintCheck>,
     pub feasible: bool,
+    /// Three-phase: the current-sampling window at this setting.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sampling: Option<SamplingOut>,
+}
+
+/// The low-side shunt sampling window of a three-phase setting.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SamplingOut {
+    /// Compare value on the down-count at which the ADC starts.
+    pub trigger_compare: u64,
+    /// Time from the trigger to the counter bottom.
+    pub trigger_before_bottom_s: f64,
+    /// Shortest low-side reference time that holds the window.
+    pub min_low_side_on_s: f64,
+    /// The same as low-side gate on-time (one dead time shorter).
+    pub min_low_side_gate_on_s: f64,
+    /// Largest high-side duty of a sampled leg.
+    pub max_high_side_duty: f64,
 }
 
 /// Serialisable copy of [`PwmSetting`].
@@ -235,8 +254,15 @@ impl Evaluator {
     }
 
     /// Channel duty range the load needs: from the high-bus case (lowest
-    /// modulation) to the low-bus case (highest).
-    fn duty_needed(&self, m_low: f64, m_high: f64) -> (f64, f64) {
+    /// modulation) to the low-bus case (highest). A sinusoidal three-phase
+    /// bridge swings each leg over 1 − d_max..d_max at the highest m.
+    pub fn duty_needed(&self, m_low: f64, m_high: f64) -> (f64, f64) {
+        if let Some(tp) = &self.three_phase
+            && let ThreePhaseModulation::Sinusoidal { .. } = tp.modulation
+        {
+            let d = tp.modulation.leg_duty_max(m_high);
+            return (1.0 - d, d);
+        }
         match self.stage.topology {
             Topology::HBridge(HBridgeModulation::Unipolar) => {
                 (0.5 * (1.0 - m_high), 0.5 * (1.0 + m_high))
@@ -246,6 +272,48 @@ impl Evaluator {
             }
             _ => (m_low, m_high),
         }
+    }
+
+    /// Whether the lower end of the needed duty range is checked against
+    /// the timer's minimum (the stages whose legs swing both ways).
+    pub fn checks_min_duty(&self) -> bool {
+        matches!(
+            self.stage.topology,
+            Topology::HBridge(HBridgeModulation::Unipolar)
+        ) || self
+            .three_phase
+            .as_ref()
+            .is_some_and(|tp| matches!(tp.modulation, ThreePhaseModulation::Sinusoidal { .. }))
+    }
+
+    /// The alignments the search may use: a three-phase bridge samples its
+    /// currents at the counter bottom, so centre-aligned only.
+    pub fn alignments(&self) -> Vec<Alignment> {
+        self.timer
+            .alignments
+            .iter()
+            .copied()
+            .filter(|a| self.three_phase.is_none() || *a == Alignment::Centre)
+            .collect()
+    }
+
+    /// The current-sampling window of a three-phase bridge at a
+    /// centre-aligned setting (`three_phase::sampling_window` with the
+    /// counter's top P = duty steps and one tick = divider / clock).
+    pub fn sampling_window(
+        &self,
+        s: &PwmSetting,
+        t_dead_s: f64,
+    ) -> Option<Result<SamplingWindow, ThreePhaseError>> {
+        let tp = self.three_phase.as_ref()?;
+        let p = u32::try_from(s.duty_steps).unwrap_or(u32::MAX);
+        Some(three_phase::sampling_window(
+            p,
+            s.divider as f64 / self.timer.clock_hz,
+            tp.settle_s,
+            tp.sample_s,
+            t_dead_s,
+        ))
     }
 
     /// Highest duty the bootstrap refresh leaves: D_max = 1 − t_refresh·f
@@ -379,10 +447,7 @@ impl Evaluator {
         let (duty_pass, duty_margin, duty_detail) = match limits {
             Some(lim) => {
                 let hi_margin = lim.max_duty - duty_needed.1;
-                let lo_margin = if matches!(
-                    self.stage.topology,
-                    Topology::HBridge(HBridgeModulation::Unipolar)
-                ) {
+                let lo_margin = if self.checks_min_duty() {
                     duty_needed.0 - lim.min_duty
                 } else {
                     f64::INFINITY
@@ -413,6 +478,10 @@ impl Evaluator {
             binding: false,
             detail: duty_detail,
         });
+        let sampling = self.sampling_window(s, dead.seconds);
+        if let Some(w) = &sampling {
+            checks.push(self.sampling_check(w, &high_bus, m_low_bus));
+        }
         // The band the design allows (the solver searches only inside it;
         // a sweep or a pinned frequency may step outside).
         let in_band = f >= l.f_min_hz * (1.0 - 1e-12) && f <= l.f_max_hz * (1.0 + 1e-12);
@@ -440,8 +509,98 @@ impl Evaluator {
             high_bus,
             checks,
             feasible,
+            sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
+                trigger_compare: u64::from(w.trigger_compare),
+                trigger_before_bottom_s: w.trigger_before_bottom_s,
+                min_low_side_on_s: w.min_low_side_on_s,
+                min_low_side_gate_on_s: w.min_low_side_gate_on_s,
+                max_high_side_duty: w.max_high_side_duty,
+            }),
         })
     }
+
+    /// The `sampling-window` constraint: the sampled leg's high-side duty
+    /// at the highest modulation (low supply) must leave the low-side time
+    /// the window needs; with six-step low-side chopping the chopping low
+    /// side carries the current only while on, so its duty at the lowest
+    /// modulation (high supply) must be at least that time.
+    fn sampling_check(
+        &self,
+        w: &Result<SamplingWindow, ThreePhaseError>,
+        high_bus: &CaseResult,
+        m_low_bus: f64,
+    ) -> ConstraintCheck {
+        let low_side_chop = self.three_phase.as_ref().is_some_and(|tp| {
+            tp.modulation
+                == ThreePhaseModulation::SixStep {
+                    chop: Chop::LowSide,
+                }
+        });
+        let sampled = |m: f64| {
+            self.three_phase
+                .as_ref()
+                .map(|tp| tp.modulation.sampled_leg_duty_max(m))
+                .unwrap_or(m)
+        };
+        match w {
+            Err(ThreePhaseError::NoSamplingWindow {
+                min_low_side_on_s,
+                period_s,
+            }) => ConstraintCheck {
+                name: "sampling-window",
+                limit: 0.0,
+                value: None,
+                margin: None,
+                unit: "",
+                pass: false,
+                binding: false,
+                detail: format!(
+                    "settling, dead time and sampling need {} of low-side time, not less than the period {}",
+                    fmt_t(*min_low_side_on_s),
+                    fmt_t(*period_s)
+                ),
+            },
+            Err(e) => ConstraintCheck {
+                name: "sampling-window",
+                limit: 0.0,
+                value: None,
+                margin: None,
+                unit: "",
+                pass: false,
+                binding: false,
+                detail: format!("no sampling window: {e:?}"),
+            },
+            Ok(win) if low_side_chop => {
+                let need = 1.0 - win.max_high_side_duty;
+                lower(
+                    "sampling-window",
+                    need,
+                    Some(high_bus.modulation),
+                    "",
+                    format!(
+                        "the chopping low side must stay on {} around the counter bottom (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
+                        fmt_t(win.min_low_side_on_s),
+                        100.0 * need
+                    ),
+                )
+            }
+            Ok(win) => upper(
+                "sampling-window",
+                win.max_high_side_duty,
+                Some(sampled(m_low_bus)),
+                "",
+                format!(
+                    "the sampled leg's low side must stay on {} around the counter bottom (settle, dead time, sample), so its high-side duty at most {:.1} %",
+                    fmt_t(win.min_low_side_on_s),
+                    100.0 * win.max_high_side_duty
+                ),
+            ),
+        }
+    }
+}
+
+fn fmt_t(t: f64) -> String {
+    crate::units::format_quantity(t, crate::units::Dimension::Time, 3)
 }
 
 fn fmt_v(v: f64) -> String {
@@ -539,7 +698,7 @@ pub fn better(obj: Objective, a: &Candidate, b: &Candidate, loss_floor: Option<f
 pub fn realisable(ev: &Evaluator) -> Vec<PwmSetting> {
     let l = &ev.limits;
     let mut all = Vec::new();
-    for a in &ev.timer.alignments {
+    for a in &ev.alignments() {
         if let Ok(it) = ev
             .timer
             .distinct_products_in_band(l.f_min_hz, l.f_max_hz, *a)
@@ -1206,6 +1365,7 @@ fn explain_conflict(
             "resolution" => format!("accept {:.1} bits instead of {:.1}, or clock the timer faster", k.value.unwrap_or(0.0), k.limit),
             "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),
             "duty-range" => "lower the minimum pulse, shorten the bootstrap refresh time, or run at a lower frequency".into(),
+            "sampling-window" => "shorten the shunt amplifier's settling or the ADC sampling time, use min-max zero sequence, or run at a lower frequency".into(),
             _ => String::new(),
         };
         relax.push(format!("{}: {}", k.name, advice));
@@ -1237,8 +1397,7 @@ pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
 /// The realisable setting nearest `f_hz` over the allowed alignments (ties:
 /// more duty steps).
 fn nearest(ev: &Evaluator, f_hz: f64) -> Option<PwmSetting> {
-    ev.timer
-        .alignments
+    ev.alignments()
         .iter()
         .filter_map(|a| ev.timer.nearest_setting(f_hz, *a).ok().flatten())
         .min_by(|a, b| {

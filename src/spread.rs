@@ -25,7 +25,6 @@ use serde::Serialize;
 use crate::design::Design;
 use crate::model::{CaseResult, Evaluator, OperatingCase};
 use crate::physics::deadtime::{self, DeadTimeInputs};
-use crate::physics::params::{HBridgeModulation, Topology};
 use crate::physics::{switching, thermal};
 use crate::solve::{DeadTimeChoice, Setting};
 use crate::spec::{Dim, DistributionSpec, Spread};
@@ -546,21 +545,16 @@ pub fn pwm_setting(s: &Setting) -> PwmSetting {
 }
 
 /// Channel duties `(low, high)` the load needs at modulation `m` (as the
-/// solver maps them).
-fn duty_needed(topology: Topology, m: f64) -> (f64, f64) {
-    match topology {
-        Topology::HBridge(HBridgeModulation::Unipolar) => (0.5 * (1.0 - m), 0.5 * (1.0 + m)),
-        Topology::HBridge(HBridgeModulation::Bipolar) => (0.5 * (1.0 + m), 0.5 * (1.0 + m)),
-        _ => (m, m),
-    }
+/// solver maps them, [`Evaluator::duty_needed`]).
+fn duty_needed(ev: &Evaluator, m: f64) -> (f64, f64) {
+    ev.duty_needed(m, m)
 }
 
 /// Whether the needed duties fit the timer's limits (the solver's rule:
-/// the top always, the bottom only for a unipolar H-bridge).
-fn duty_fits(topology: Topology, needed: (f64, f64), lim: Option<&DutyLimits>) -> bool {
+/// the top always, the bottom when [`Evaluator::checks_min_duty`]).
+fn duty_fits(ev: &Evaluator, needed: (f64, f64), lim: Option<&DutyLimits>) -> bool {
     let Some(l) = lim else { return false };
-    let low_ok = !matches!(topology, Topology::HBridge(HBridgeModulation::Unipolar))
-        || needed.0 >= l.min_duty - EPS;
+    let low_ok = !ev.checks_min_duty() || needed.0 >= l.min_duty - EPS;
     needed.1 <= l.max_duty + EPS && low_ok
 }
 
@@ -655,8 +649,8 @@ impl<'a> Context<'a> {
         if !r.acoustic.pass {
             failed |= AUDIBLE;
         }
-        let topo = self.base.stage.topology;
-        if !duty_fits(topo, duty_needed(topo, r.modulation), self.duty.as_ref()) {
+        let ev = self.base;
+        if !duty_fits(ev, duty_needed(ev, r.modulation), self.duty.as_ref()) {
             failed |= DUTY_RANGE;
         }
         failed
@@ -1357,7 +1351,6 @@ pub fn worst_case(
         reason: "no significant audible line at any corner".into(),
     };
     let mut unreachable = Vec::new();
-    let topo = ev.stage.topology;
     for c in &hot {
         let name = c.label.clone();
         let Some(r) = c.ev.case(&c.ev.rated, f, dead.seconds) else {
@@ -1367,8 +1360,8 @@ pub fn worst_case(
         keep_max(&mut tj, r.junction_c, &name);
         keep_max(&mut loss, Some(r.losses.total), &name);
         keep_max(&mut ripple, Some(r.ripple.peak_to_peak_a), &name);
-        let needed = duty_needed(topo, r.modulation);
-        let duty_value = if duty_fits(topo, needed, ctx.duty.as_ref()) {
+        let needed = duty_needed(ev, r.modulation);
+        let duty_value = if duty_fits(ev, needed, ctx.duty.as_ref()) {
             needed.1
         } else {
             // A failing bottom edge must show as a failure, not hide

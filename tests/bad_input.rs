@@ -141,7 +141,12 @@ fn bundled_designs_are_valid() {
     designs.sort();
     assert_eq!(
         designs,
-        ["belt-feeder.yaml", "vent-fan.yaml", "winch.yaml"],
+        [
+            "belt-feeder.yaml",
+            "pump-bldc.yaml",
+            "vent-fan.yaml",
+            "winch.yaml"
+        ],
         "the bundled designs; update this list when one is added"
     );
     for design in &designs {
@@ -1065,7 +1070,7 @@ fn bundled_board_unknown_lists_choices() {
             "board: bundled:osprey",
         )],
         r#"
-error: belt-feeder.yaml:4:10: design.board: no bundled board named "osprey"; expected one of: bundled:wren-hb24, bundled:kite-ls12, bundled:heron-hb48
+error: belt-feeder.yaml:4:10: design.board: no bundled board named "osprey"; expected one of: bundled:wren-hb24, bundled:kite-ls12, bundled:heron-hb48, bundled:osprey-3p48
  4 |   board: bundled:osprey
    |          ^
 "#,
@@ -1151,7 +1156,7 @@ fn modulation_on_low_side() {
             "    topology: low-side\n    modulation: bipolar",
         )],
         r#"
-error: kite-ls12.yaml:15:17: board.stage.modulation: only an h-bridge has a modulation; remove it
+error: kite-ls12.yaml:15:17: board.stage.modulation: only an h-bridge or a three-phase bridge has a modulation; remove it
  15 |     modulation: bipolar
     |                 ^
 "#,
@@ -1194,9 +1199,9 @@ error: wren-hb24.yaml:24:5: board.gate_driver.high_side: missing; a bridge needs
     );
 }
 
-/// The reserved topology.
+/// A half-bridge board turned three-phase without a modulation.
 #[test]
-fn three_phase_is_reserved() {
+fn three_phase_without_modulation() {
     bad_input(
         "belt-feeder.yaml",
         &[case(
@@ -1205,9 +1210,196 @@ fn three_phase_is_reserved() {
             "topology: three-phase",
         )],
         r#"
-error: wren-hb24.yaml:21:15: board.stage.topology: `three-phase` is reserved and not supported yet; expected `low-side`, `half-bridge` or `h-bridge`
+error: wren-hb24.yaml:21:5: board.stage.modulation: missing; a three-phase bridge needs `sinusoidal: { zero_sequence: ... }` or `six-step: { chop: ... }`
  21 |     topology: three-phase
-    |               ^
+    |     ^
+"#,
+    );
+}
+
+// ------------------------------------------------------- three-phase cases
+
+/// Sinusoidal modulation on a timer without centre-aligned counting.
+#[test]
+fn three_phase_needs_centre_alignment() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "alignments: [edge, centre]",
+            "alignments: [edge]",
+        )],
+        r#"
+error: osprey-3p48.yaml:9:17: board.timer.alignments: a three-phase bridge samples its phase currents in the middle of the low-side on-time, at the bottom of an up-down count; add `centre`
+ 9 |     alignments: [edge]
+   |                 ^
+"#,
+    );
+}
+
+/// A three-phase board without its current-sensing block.
+#[test]
+fn three_phase_needs_current_sensing() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "  current_sensing: { settle_time: \"1.5 us\", sample_time: \"0.8 us\" }\n",
+            "",
+        )],
+        r#"
+error: osprey-3p48.yaml:3:3: board.current_sensing: missing; a three-phase bridge needs `current_sensing: { settle_time: ..., sample_time: ... }` (low-side shunts, sampled in the middle of the low-side on-time)
+ 3 |   name: "Osprey 48 V three-phase bridge (invented)"
+   |   ^
+"#,
+    );
+}
+
+/// An h-bridge modulation on a three-phase board.
+#[test]
+fn three_phase_with_h_bridge_modulation() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "    modulation:\n      sinusoidal: { zero_sequence: min-max }\n",
+            "    modulation: unipolar\n",
+        )],
+        r#"
+error: osprey-3p48.yaml:16:17: board.stage.modulation: `bipolar` and `unipolar` belong to an h-bridge; a three-phase bridge needs `sinusoidal: { zero_sequence: ... }` or `six-step: { chop: ... }`
+ 16 |     modulation: unipolar
+    |                 ^
+"#,
+    );
+}
+
+/// A six-step modulation on an h-bridge board.
+#[test]
+fn h_bridge_with_six_step_modulation() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "modulation: unipolar",
+            "modulation: { six-step: { chop: high-side } }",
+        )],
+        r#"
+error: heron-hb48.yaml:16:19: board.stage.modulation: `sinusoidal` and `six-step` belong to a three-phase bridge; an h-bridge needs `bipolar` or `unipolar`
+ 16 |     modulation: { six-step: { chop: high-side } }
+    |                   ^
+"#,
+    );
+}
+
+/// A chop scheme the tool does not know.
+#[test]
+fn six_step_unknown_chop() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "sinusoidal: { zero_sequence: min-max }",
+            "six-step: { chop: middle }",
+        )],
+        r#"
+error: osprey-3p48.yaml:17:25: board.stage.modulation.six-step.chop: unknown value `middle`; expected one of `high-side`, `low-side`, `complementary`
+ 17 |       six-step: { chop: middle }
+    |                         ^
+"#,
+    );
+}
+
+/// A brushless motor without its pole pairs.
+#[test]
+fn brushless_needs_pole_pairs() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case("pump-bldc.yaml", "    pole_pairs: 4\n", "")],
+        r#"
+error: pump-bldc.yaml:7:5: design.motor.pole_pairs: missing; a brushless motor needs its pole pairs (half the magnet poles, e.g. 4 for an 8-pole rotor)
+ 7 |     kind: brushless
+   |     ^
+"#,
+    );
+}
+
+/// A brushless motor on an h-bridge board.
+#[test]
+fn brushless_motor_on_h_bridge() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "pump-bldc.yaml",
+            "board: osprey-3p48.yaml",
+            "board: heron-hb48.yaml",
+        )],
+        r#"
+error: pump-bldc.yaml:7:11: design.motor.kind: a brushless motor needs a `three-phase` board; this board's stage is not one
+ 7 |     kind: brushless
+   |           ^
+"#,
+    );
+}
+
+/// A brushed motor on a three-phase board.
+#[test]
+fn brushed_motor_on_three_phase() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "board: heron-hb48.yaml",
+            "board: osprey-3p48.yaml",
+        )],
+        r#"
+error: winch.yaml:7:11: design.motor.kind: a three-phase board drives a `brushless` motor; expected `kind: brushless`
+ 7 |     kind: brushed-dc
+   |           ^
+"#,
+    );
+}
+
+/// A speed whose phase voltage needs more than the linear range of min-max
+/// at the lowest supply: 6 V/krpm line-to-line at 7000 rpm is 24.2 V phase
+/// peak, m ≈ 1.25 > 2/√3 at 40 V.
+#[test]
+fn brushless_overmodulation_at_low_supply() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "pump-bldc.yaml",
+            "operating_speed: \"3000 rpm\"",
+            "operating_speed: \"7000 rpm\"",
+        )],
+        r#"
+error: pump-bldc.yaml:14:22: design.motor.operating_speed: at the lowest supply 40.0 V the motor needs modulation index 1.324 (phase voltage peak 26.5 V), above the linear limit 1.155 of zero_sequence `min-max`; lower the speed or the current, or raise the supply
+ 14 |     operating_speed: "7000 rpm"
+    |                      ^
+"#,
+    );
+}
+
+/// A current advance with six-step modulation.
+#[test]
+fn current_advance_with_six_step() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[
+            case(
+                "osprey-3p48.yaml",
+                "sinusoidal: { zero_sequence: min-max }",
+                "six-step: { chop: complementary }",
+            ),
+            case(
+                "pump-bldc.yaml",
+                "    pole_pairs: 4\n",
+                "    pole_pairs: 4\n    current_advance_deg: 10\n",
+            ),
+        ],
+        r#"
+error: pump-bldc.yaml:12:26: design.motor.current_advance_deg: only sinusoidal modulation takes a current advance; remove it
+ 12 |     current_advance_deg: 10
+    |                          ^
 "#,
     );
 }

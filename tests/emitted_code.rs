@@ -58,6 +58,9 @@ struct Facts {
     compare_min: u64,
     compare_max: u64,
     fpu: bool,
+    /// Three-phase: (ADC trigger compare, sampling compare max) from
+    /// `plan.json` `three_phase.sampling`.
+    three_phase: Option<(u64, u64)>,
     header: String,
     module: String,
 }
@@ -121,6 +124,12 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
         compare_min: json_u64(&json, "pwm.compare_min"),
         compare_max: json_u64(&json, "pwm.compare_max"),
         fpu,
+        three_phase: json.get("three_phase").map(|tp| {
+            (
+                json_u64(tp, "sampling.trigger_compare"),
+                json_u64(tp, "sampling.max_high_side_compare"),
+            )
+        }),
         header: text(&format!("{stem}.h")),
         module: text(&format!("{stem}.rs")),
         stem,
@@ -259,6 +268,46 @@ fn c_host_program(f: &Facts) -> String {
             "    expect(\"{m}_{name} (plan.json)\", (unsigned long long){m}_{name}, {want}ULL);"
         );
     }
+    if let Some((trigger, sampling_max)) = f.three_phase {
+        // The trigger lies within the up-down period (0..=PERIOD_REG) and
+        // the sampling limit within the compare range.
+        assert!(
+            trigger <= f.period_register && sampling_max <= f.duty_steps,
+            "{c}: trigger {trigger} or sampling limit {sampling_max} outside the period"
+        );
+        for (name, want) in [
+            ("CHANNELS", 3),
+            ("ADC_TRIGGER_COMPARE", trigger),
+            ("SAMPLING_COMPARE_MAX", sampling_max),
+        ] {
+            let _ = writeln!(
+                s,
+                "    expect(\"{m}_{name} (plan.json)\", (unsigned long long){m}_{name}, {want}ULL);"
+            );
+        }
+        // The three-channel helper gives each channel the one-channel value.
+        let duties = [0u64, 32768, 65536];
+        let _ = writeln!(
+            s,
+            "    {{\n        const uint32_t d[3] = {{ {}UL, {}UL, {}UL }};\n        {} cmp[3];\n        {c}_compare_abc_from_q16(d, cmp);",
+            duties[0],
+            duties[1],
+            duties[2],
+            if f.header.contains(&format!("uint64_t {c}_compare_from_q16")) {
+                "uint64_t"
+            } else {
+                "uint32_t"
+            }
+        );
+        for (k, q) in duties.iter().enumerate() {
+            let _ = writeln!(
+                s,
+                "        expect(\"{c}_compare_abc_from_q16 channel {k}\", cmp[{k}], {}ULL);",
+                f.compare_q16(*q)
+            );
+        }
+        s.push_str("    }\n");
+    }
     // The frequency in mHz from the stated convention, in integers.
     let _ = writeln!(
         s,
@@ -392,6 +441,11 @@ fn c_host_winch() {
 }
 
 #[test]
+fn c_host_pump_bldc() {
+    c_host(common::case("pump-bldc"));
+}
+
+#[test]
 fn c_host_conveyor_centre() {
     c_host(common::case("conveyor-centre"));
 }
@@ -466,10 +520,22 @@ fn c_header_cross_compiles() {
             String::new()
         };
         let src = tmp.path().join("use.c");
+        let abc = if f.three_phase.is_some() {
+            format!(
+                "void use_abc_{c}(const uint32_t d[3], {t} out[3]) {{ {c}_compare_abc_from_q16(d, out); }}\n",
+                t = if f.header.contains(&format!("uint64_t {c}_compare_from_q16")) {
+                    "uint64_t"
+                } else {
+                    "uint32_t"
+                }
+            )
+        } else {
+            String::new()
+        };
         fs::write(
             &src,
             format!(
-                "#include \"{c}.h\"\nunsigned long use_{c}(uint32_t d) {{ return (unsigned long)({c}_compare_from_q16(d) + {c}_compare_from_permille(d){fraction}); }}\n"
+                "#include \"{c}.h\"\nunsigned long use_{c}(uint32_t d) {{ return (unsigned long)({c}_compare_from_q16(d) + {c}_compare_from_permille(d){fraction}); }}\n{abc}"
             ),
         )
         .expect("write use.c");
@@ -590,7 +656,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
              assert_eq!(DEAD_TIME_CODE as u64, {dtc});\n        \
              assert_eq!(DEAD_TIME_TICKS as u64, {dtt});\n        \
              assert_eq!(COMPARE_MIN as u64, {min});\n        \
-             assert_eq!(COMPARE_MAX as u64, {max});\n    }}\n\n    \
+             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}    }}\n\n    \
              #[test]\n    fn constructors_give_the_closed_form() {{\n        \
              let got: Vec<u64> = [{list}].iter().map(|d| d.counts() as u64).collect();\n        \
              assert_eq!(got, vec![{counts}]);\n        \
@@ -612,6 +678,19 @@ fn rust_host_tests(cases: &[Facts]) -> String {
             max = f.compare_max,
             mid = f.mid(),
             tiny = f.tiny_q16(),
+            extra = match f.three_phase {
+                Some((trigger, sampling_max)) => format!(
+                    "        assert_eq!(CHANNELS, 3);\n        \
+                     assert_eq!(ADC_TRIGGER_COMPARE as u64, {trigger});\n        \
+                     assert_eq!(SAMPLING_COMPARE_MAX as u64, {sampling_max});\n        \
+                     assert_eq!(duties_abc([0, 32768, 65536]), [Duty::OFF, Duty::from_q16(32768), Duty::MAX]);\n        \
+                     let (mut a, mut b, mut c) = (super::Fake {{ max: 1000, calls: Vec::new() }}, super::Fake {{ max: 1000, calls: Vec::new() }}, super::Fake {{ max: 1000, calls: Vec::new() }});\n        \
+                     apply_abc(&mut a, &mut b, &mut c, duties_abc([0, 32768, 65536])).unwrap();\n        \
+                     assert_eq!((a.calls.len(), b.calls.len(), c.calls.len()), (1, 1, 1));\n        \
+                     assert_eq!(a.calls[0], 0);\n"
+                ),
+                None => String::new(),
+            },
         );
         for max_duty in [1000u64, 65535] {
             let want = requests

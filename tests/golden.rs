@@ -189,6 +189,11 @@ fn golden_winch() {
 }
 
 #[test]
+fn golden_pump_bldc() {
+    check_case("pump-bldc");
+}
+
+#[test]
 fn golden_conveyor_centre() {
     check_case("conveyor-centre");
 }

@@ -142,6 +142,8 @@ pub struct BoardSpec {
     pub stage: StageSpec,
     pub gate_driver: GateDriverSpec,
     pub thermal: ThermalSpec,
+    /// Low-side shunt current sensing (`three-phase` only, required there).
+    pub current_sensing: Option<CurrentSensingSpec>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -212,18 +214,61 @@ pub enum TopologySpec {
     ThreePhase,
 }
 
+/// How the stage modulates: `bipolar` / `unipolar` (h-bridge), or for a
+/// `three-phase` bridge `sinusoidal: { zero_sequence: none | min-max }` or
+/// `six-step: { chop: high-side | low-side | complementary }`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
-#[serde(rename_all = "snake_case")]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub enum ModulationSpec {
     Bipolar,
     Unipolar,
+    /// Sinusoidal (or, with min-max injection, space-vector) PWM.
+    Sinusoidal {
+        #[serde(default)]
+        zero_sequence: ZeroSequenceSpec,
+    },
+    /// Six-step block commutation with one chopping switch.
+    SixStep {
+        chop: ChopSpec,
+    },
+}
+
+/// Zero-sequence signal added to the three sinusoidal references.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum ZeroSequenceSpec {
+    /// Plain sinusoidal PWM (linear up to m = 1).
+    #[default]
+    None,
+    /// Min-max injection (space-vector equivalent, linear up to m = 2/√3).
+    MinMax,
+}
+
+/// Which switch chops in six-step.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ChopSpec {
+    HighSide,
+    LowSide,
+    Complementary,
+}
+
+/// Low-side shunt current sensing of a three-phase bridge: the ADC samples
+/// in the middle of the low-side on-time of a centre-aligned timer.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CurrentSensingSpec {
+    /// Time the shunt amplifier needs after the low side turns on.
+    pub settle_time: Q<Second>,
+    /// ADC sampling (acquisition) time.
+    pub sample_time: Q<Second>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct StageSpec {
     pub topology: TopologySpec,
-    /// H-bridge switching scheme (required for `h-bridge`).
+    /// Switching scheme (required for `h-bridge` and `three-phase`).
     pub modulation: Option<ModulationSpec>,
     /// A switch file path relative to this board file, `bundled:NAME`, or the
     /// switch written inline.
@@ -388,21 +433,42 @@ pub struct SupplySpec {
 #[serde(rename_all = "kebab-case")]
 pub enum MotorKind {
     BrushedDc,
+    /// Three-phase permanent-magnet motor (BLDC or PMSM), star connected.
+    Brushless,
+}
+
+/// Shape of a brushless motor's phase back-EMF.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum BackEmfShapeSpec {
+    #[default]
+    Sinusoidal,
+    Trapezoidal,
 }
 
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct MotorSpec {
     pub kind: MotorKind,
-    /// Winding (terminal) resistance.
+    /// Winding (terminal) resistance; brushless: phase (line-to-neutral).
     pub resistance: Q<Ohm>,
-    /// Winding inductance.
+    /// Winding inductance; brushless: phase inductance.
     pub inductance: Q<Henry>,
     /// Back-EMF constant; or give `rated_voltage` with `no_load_speed`.
+    /// Brushless: line-to-line PEAK back-EMF per mechanical speed.
     pub back_emf_constant: Option<Q<VoltSecondPerRad>>,
+    /// Brushless: pole pairs (required).
+    pub pole_pairs: Option<u32>,
+    /// Brushless: shape of the phase back-EMF (default sinusoidal).
+    pub back_emf_shape: Option<BackEmfShapeSpec>,
+    /// Brushless, sinusoidal modulation: current advance angle in degrees
+    /// ahead of the back-EMF (default 0: i_d = 0).
+    pub current_advance_deg: Option<f64>,
     pub rated_voltage: Option<Q<Volt>>,
     pub no_load_speed: Option<Q<RadPerSecond>>,
-    /// Continuous current at the rated load.
+    /// Continuous current at the rated load. Brushless: the phase-current
+    /// peak under sinusoidal modulation, the DC-link (line) current under
+    /// six-step.
     pub rated_current: Q<Ampere>,
     /// Speed at the rated load.
     pub operating_speed: Q<RadPerSecond>,

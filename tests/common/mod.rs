@@ -57,6 +57,12 @@ pub const CASES: &[Case] = &[
         source: "winch",
     },
     Case {
+        name: "pump-bldc",
+        board: "osprey-3p48.yaml",
+        switch: "switches/corrie-100.yaml",
+        source: "pump-bldc",
+    },
+    Case {
         name: "conveyor-centre",
         board: "wren-hb24.yaml",
         switch: "switches/tarn-40.yaml",

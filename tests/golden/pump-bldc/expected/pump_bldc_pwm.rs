@@ -1,0 +1,224 @@
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:95d349bd07bf56062fe86d87025d7c8352bc3ee40b15601752582f41eb16c3ca)
+//!
+//! Chosen setting
+//!   design            pump-bldc
+//!   board             Osprey 48 V three-phase bridge (invented)
+//!   switch            Corrie 100 V, 9.8 mΩ (invented)
+//!   topology          three-phase
+//!   objective         least-loss at typical values
+//!   frequency         20.007 kHz, centre-aligned
+//!   timer             clock 120.0 MHz; divider 1 (register 0); period 5998 ticks (register 2999)
+//!   resolution        2999 duty steps (11.6 bits)
+//!   dead time         125 ns = 15 ticks (code 0x0F); needed 124 ns
+//!   duty limits       compare 12 to 2951 (0.4 % to 98.4 %); the load needs 24.0 % to 76.0 %
+//!   three-phase       sinusoidal, zero sequence min-max; m 0.500, cos φ 0.965 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
+//!   current sampling  The ADC starts at compare 48 on the down-count, 400 ns before the counter bottom, so the 800 ns sample is centred on the bottom, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
+//!   feasible band     20.007 kHz to 40.000 kHz
+//!
+//! Constraints (limit, value, margin to the limit, status)
+//!   junction-rated         145 °C     49.0 °C     96.0 K  ok
+//!   junction-high-bus      145 °C     49.1 °C     95.9 K  ok
+//!   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
+//!   resolution         10.00 bits  11.55 bits  1.55 bits  ok
+//!   dead-time              125 ns      124 ns     550 ps  ok
+//!   duty-range            98.40 %     76.00 %    22.40 %  ok
+//!   sampling-window       91.90 %     72.52 %    19.38 %  ok
+//!   frequency-band     40.000 kHz  20.007 kHz   4.01 kHz  ok
+//!
+//! Losses at the rated case (whole stage)
+//!   conduction           1.68 W
+//!   switching            348 mW
+//!   output capacitance   79.2 mW
+//!   reverse recovery     342 mW
+//!   dead-time diode      86.0 mW
+//!   gate drive           82.4 mW
+//!   motor ripple copper  9.29 mW
+//!   total                2.63 W
+//!
+//! Operating figures
+//!   rated case  48.0 V supply, 45.0 °C ambient, 10.0 A load
+//!   junction    49.0 °C (limit 145 °C); 49.1 °C at the highest supply
+//!   ripple      800 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
+//!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+//!
+//! Worst case over part and operating spreads
+//!   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
+//!   total-loss  3.70 W; ok; hot: V_th min, supply 54.0 V
+//!   ripple      800 mA; ok; hot: V_th min, supply 54.0 V
+//!   duty-range  76.00 % (limit 98.40 %); ok; hot: V_th min, supply 40.0 V
+//!   dead-time   needs 124 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   audible     ok; no significant audible line at any corner
+//!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
+//!
+//! Alternatives
+//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.0 bits resolution
+//!
+//! Findings
+//!   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
+//!   error  At stall (225.0 A, 992.25 W at hot R_ds(on) 19.6 mOhm) the junction reaches 9273 C after steady stall, above T_j,max 175 C.
+//!   info   the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
+//!
+//! Assumptions
+//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+//!   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
+//!   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
+//!   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
+//!   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0
+//!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
+//!
+//! Cautions
+//!   - Power stages can burn, shock and start motors unexpectedly: first power-up from a current-limited supply, motor mechanically safe, hand on the switch.
+//!   - Figures come from datasheet typical values and first-order models: measure switching edges, dead time and case temperatures on the real board before relying on the margins.
+//!   - Check every register value against the MCU reference manual; a wrong dead-time code can short a bridge leg.
+//!   - Keep the current limit and over-temperature shutdown in hardware; this plan does not replace them.
+//!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
+//!
+//! Inputs
+//!   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
+//!   osprey-3p48.yaml          sha256 8fdf4ba77702dbe74aca8d6613230d1c8849920f3c80f2e03b97fd7a538d52a9
+//!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
+//!
+//! Init sequence (register names differ per MCU; values are the constants below):
+//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
+//!   2. Prescaler register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
+//!   3. Period (auto-reload) register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
+//!   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
+//!   5. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
+//!   6. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from pump_bldc_pwm_compare_from_q16() only (one call per channel).
+//!   7. ADC trigger: a fourth compare <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
+//!   8. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   9. Start the counter, then enable the outputs.
+//!
+//! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
+
+/// Timer input clock, before the prescaler, Hz.
+pub const CLOCK_HZ: u64 = 120000000;
+/// Prescaler ratio.
+pub const DIVIDER: u32 = 1;
+/// Value of the prescaler register.
+pub const DIVIDER_REG: u32 = 0;
+/// Counter ticks per PWM period.
+pub const PERIOD_TICKS: u32 = 5998;
+/// Value of the period (auto-reload) register.
+pub const PERIOD_REG: u32 = 2999;
+/// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
+pub const CENTRE_ALIGNED: bool = true;
+/// PWM frequency in millihertz (20.007 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 20006669;
+/// Compare value for 100 % on.
+pub const DUTY_STEPS: u32 = 2999;
+/// Dead-time register code (125.0 ns).
+pub const DEAD_TIME_CODE: u32 = 0x0F;
+/// Dead-time ticks the code gives.
+pub const DEAD_TIME_TICKS: u32 = 15;
+/// Smallest non-zero compare value allowed.
+pub const COMPARE_MIN: u32 = 12;
+/// Largest compare value allowed.
+pub const COMPARE_MAX: u32 = 2951;
+/// Three-phase bridge: channels A, B and C share the period, the compare
+/// limits and the dead time; the same [`Duty`] conversion serves all three.
+pub const CHANNELS: usize = 3;
+/// ADC trigger: the compare value matched on the DOWN-count, 400.0 ns before
+/// the counter bottom, so the sample is centred on the bottom (the middle of
+/// the low-side on-time, where the low-side shunts carry the phase currents).
+pub const ADC_TRIGGER_COMPARE: u32 = 48;
+/// Largest compare of a sampled leg that still leaves the sampling window
+/// (settling, dead time, sample); above it that leg's current is not valid.
+pub const SAMPLING_COMPARE_MAX: u32 = 2756;
+
+/// A duty as a compare value, always within the allowed range: 0 (off) or
+/// `COMPARE_MIN..=COMPARE_MAX`.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Duty(u32);
+
+impl Duty {
+    /// Output off.
+    pub const OFF: Duty = Duty(0);
+    /// The largest duty allowed.
+    pub const MAX: Duty = Duty(COMPARE_MAX);
+
+    /// From a compare value: 0 stays 0, anything else is clamped to the
+    /// allowed range.
+    pub const fn from_counts(counts: u64) -> Duty {
+        if counts == 0 {
+            Duty(0)
+        } else if counts < COMPARE_MIN as u64 {
+            Duty(COMPARE_MIN)
+        } else if counts > COMPARE_MAX as u64 {
+            Duty(COMPARE_MAX)
+        } else {
+            Duty(counts as u32)
+        }
+    }
+
+    /// From a 16-bit fraction (65536 = 100 %), rounded to the nearest count;
+    /// 0 is off and any other request gives at least `COMPARE_MIN`.
+    pub const fn from_q16(duty_q16: u32) -> Duty {
+        if duty_q16 == 0 {
+            return Duty::OFF;
+        }
+        if duty_q16 >= 65536 {
+            return Duty::MAX;
+        }
+        let counts = (duty_q16 as u64 * DUTY_STEPS as u64 + 32768) >> 16;
+        Duty::from_counts(if counts == 0 { 1 } else { counts })
+    }
+
+    /// From permille (1000 = 100 %); 0 is off.
+    pub const fn from_permille(permille: u32) -> Duty {
+        if permille == 0 {
+            return Duty::OFF;
+        }
+        if permille >= 1000 {
+            return Duty::MAX;
+        }
+        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+    }
+
+    /// The compare value.
+    pub const fn counts(self) -> u32 {
+        self.0
+    }
+}
+
+/// Set `duty` on a channel through embedded-hal's `SetDutyCycle`, scaling
+/// the compare value to the driver's `max_duty_cycle()` (a `u16`, which may
+/// be smaller than `DUTY_STEPS`). The scaled value stays within the allowed
+/// range: the minimum is rounded up and the maximum down. A driver too coarse
+/// to hold both apart keeps the maximum (the off-time the stage needs).
+pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Result<(), P::Error> {
+    let max = u64::from(pwm.max_duty_cycle());
+    let steps = DUTY_STEPS as u64;
+    if duty.counts() == 0 || max == 0 {
+        return pwm.set_duty_cycle(0);
+    }
+    let lowest = (COMPARE_MIN as u64 * max).div_ceil(steps);
+    let highest = COMPARE_MAX as u64 * max / steps;
+    let nearest = (duty.counts() as u64 * max + steps / 2) / steps;
+    let value = if nearest < lowest { lowest } else { nearest };
+    let value = if value > highest { highest } else { value };
+    pwm.set_duty_cycle(value as u16)
+}
+
+/// The duties of channels A, B and C from three 16-bit fractions, each as
+/// [`Duty::from_q16`].
+pub const fn duties_abc(duty_q16: [u32; 3]) -> [Duty; 3] {
+    [
+        Duty::from_q16(duty_q16[0]),
+        Duty::from_q16(duty_q16[1]),
+        Duty::from_q16(duty_q16[2]),
+    ]
+}
+
+/// Set channels A, B and C (each as [`apply`]); stops at the first error.
+pub fn apply_abc<A, B, C>(a: &mut A, b: &mut B, c: &mut C, duties: [Duty; 3]) -> Result<(), A::Error>
+where
+    A: embedded_hal::pwm::SetDutyCycle,
+    B: embedded_hal::pwm::SetDutyCycle<Error = A::Error>,
+    C: embedded_hal::pwm::SetDutyCycle<Error = A::Error>,
+{
+    apply(a, duties[0])?;
+    apply(b, duties[1])?;
+    apply(c, duties[2])
+}

@@ -1,0 +1,185 @@
+//! The bundled three-phase design plans end to end: `plan.json` carries the
+//! three-phase block, the ADC trigger lies inside the PWM period, the six
+//! device rows add up (with the gate drive outside the switches and the
+//! ripple copper loss) to the stage total, and the sampling constraint is
+//! checked against the window it reports.
+
+use std::fs;
+use std::path::Path;
+use std::process::Command;
+
+fn copy_tree(from: &Path, to: &Path) {
+    fs::create_dir_all(to).expect("create folder");
+    for e in fs::read_dir(from).expect("read folder") {
+        let e = e.expect("entry");
+        let target = to.join(e.file_name());
+        if e.file_type().expect("type").is_dir() {
+            copy_tree(&e.path(), &target);
+        } else {
+            fs::copy(e.path(), &target).expect("copy");
+        }
+    }
+}
+
+/// Plan `design` from a copy of `boards/` (after `edit` of the board) and
+/// return its `plan.json`.
+fn plan(design: &str, edit: Option<(&str, &str)>) -> serde_json::Value {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    copy_tree(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
+        dir.path(),
+    );
+    if let Some((from, to)) = edit {
+        let p = dir.path().join("osprey-3p48.yaml");
+        let text = fs::read_to_string(&p).expect("board");
+        assert!(text.contains(from), "{from} not in the board");
+        fs::write(&p, text.replacen(from, to, 1)).expect("write board");
+    }
+    let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .current_dir(dir.path())
+        .args(["plan", design, "--out", "out"])
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let text = fs::read_to_string(dir.path().join("out/plan.json")).expect("plan.json");
+    serde_json::from_str(&text).expect("plan.json parses")
+}
+
+fn f(v: &serde_json::Value) -> f64 {
+    v.as_f64().unwrap_or_else(|| panic!("not a number: {v}"))
+}
+
+fn check(p: &serde_json::Value, modulation: &str) {
+    assert_eq!(p["topology"], "three-phase");
+    assert_eq!(p["pwm"]["alignment"], "centre");
+    let tp = &p["three_phase"];
+    assert_eq!(tp["modulation"], modulation);
+    assert_eq!(tp["channels"], serde_json::json!(["A", "B", "C"]));
+    // 6 V/krpm line-to-line peak, 4 pole pairs, sinusoidal shape:
+    // k_e = 6/(1000·2π/60)/(√3·4) V·s/rad (the file's convention converted).
+    if modulation == "sinusoidal" {
+        let want = 6.0 / (1000.0 * 2.0 * std::f64::consts::PI / 60.0) / (3f64.sqrt() * 4.0);
+        assert!((f(&tp["k_e_v_s_per_rad"]) - want).abs() < 1e-12 * want);
+    }
+    // 3000 rpm × 4 pole pairs = 200 Hz electrical.
+    assert!((f(&tp["electrical_frequency_hz"]) - 200.0).abs() < 1e-9);
+
+    // Trigger: a counter value within the up-down period, C·t_tick before
+    // the bottom, with C = round(t_sample / (2·t_tick)).
+    let s = &tp["sampling"];
+    let steps = p["timer"]["duty_steps"].as_u64().expect("duty steps");
+    let trigger = s["trigger_compare"].as_u64().expect("trigger");
+    assert!(trigger > 0 && trigger <= p["timer"]["period_register"].as_u64().expect("reg"));
+    let tick = p["timer"]["divider"].as_f64().expect("divider") / f(&p["timer"]["clock_hz"]);
+    assert_eq!(
+        trigger,
+        (0.5 * f(&s["sample_time_s"]) / tick).round() as u64
+    );
+    let period = f(&s["period_s"]);
+    assert!((period - 2.0 * steps as f64 * tick).abs() < 1e-15);
+    assert!(f(&s["trigger_before_bottom_s"]) < 0.5 * period);
+    // t_ls,min = 2·(t_c + t_dead + t_settle) here (the start of the window binds).
+    let t_ls = 2.0
+        * (f(&s["trigger_before_bottom_s"])
+            + f(&p["timer"]["dead_time_s"])
+            + f(&s["settle_time_s"]));
+    assert!((f(&s["min_low_side_on_s"]) - t_ls).abs() < 1e-15);
+    assert!((f(&s["max_high_side_duty"]) - (1.0 - t_ls / period)).abs() < 1e-12);
+    let k = p["constraints"]
+        .as_array()
+        .expect("constraints")
+        .iter()
+        .find(|k| k["name"] == "sampling-window")
+        .expect("sampling-window constraint");
+    assert_eq!(k["pass"], true);
+    assert!(f(&k["value"]) <= f(&s["max_high_side_duty"]));
+
+    // Six device rows, high sides alike and low sides alike, adding up.
+    let devs = p["devices"].as_array().expect("devices");
+    let roles: Vec<&str> = devs
+        .iter()
+        .map(|d| d["role"].as_str().expect("role"))
+        .collect();
+    assert_eq!(
+        roles,
+        [
+            "phase-a-high",
+            "phase-a-low",
+            "phase-b-high",
+            "phase-b-low",
+            "phase-c-high",
+            "phase-c-low"
+        ]
+    );
+    let sum: f64 = devs.iter().map(|d| f(&d["total_w"])).sum();
+    assert!((sum - f(&tp["rated"]["devices_total_w"])).abs() < 1e-9);
+    let l = &p["losses_w"];
+    let total = sum + f(&tp["rated"]["gate_outside_devices_w"]) + f(&l["motor_ripple_copper"]);
+    assert!(
+        (total - f(&l["total"])).abs() < 1e-9,
+        "{total} vs {}",
+        l["total"]
+    );
+    let lines: f64 = [
+        "conduction",
+        "switching",
+        "output_capacitance",
+        "reverse_recovery",
+        "dead_time_diode",
+        "gate_drive",
+        "freewheel_diode",
+        "motor_ripple_copper",
+    ]
+    .iter()
+    .map(|k| f(&l[*k]))
+    .sum();
+    assert!((lines - f(&l["total"])).abs() < 1e-9);
+    // Each device's junction: ambient + R_th·P (one thermal path per switch).
+    let r_th = f(&p["thermal"]["r_th_ja_k_per_w"]);
+    for d in devs {
+        let t = f(&d["junction_c"]);
+        let want = f(&p["thermal"]["ambient_c"]) + r_th * f(&d["total_w"]);
+        assert!((t - want).abs() < 1e-6, "{}: {t} vs {want}", d["role"]);
+    }
+}
+
+#[test]
+fn bundled_sinusoidal_design_plans() {
+    let p = plan("pump-bldc.yaml", None);
+    check(&p, "sinusoidal");
+    let r = &p["three_phase"]["rated"];
+    // Needed duties: the legs swing 1 − d_max..d_max with d_max = ½(1 + (√3/2)·m)
+    // at the lowest supply (min-max).
+    let [lo, hi] = [
+        f(&p["pwm"]["duty_needed"][0]),
+        f(&p["pwm"]["duty_needed"][1]),
+    ];
+    assert!((lo + hi - 1.0).abs() < 1e-12);
+    assert!(f(&r["modulation_index"]) < 2.0 / 3f64.sqrt());
+}
+
+#[test]
+fn six_step_variant_plans() {
+    for chop in ["high-side", "complementary"] {
+        let p = plan(
+            "pump-bldc.yaml",
+            Some((
+                "sinusoidal: { zero_sequence: min-max }",
+                if chop == "high-side" {
+                    "six-step: { chop: high-side }"
+                } else {
+                    "six-step: { chop: complementary }"
+                },
+            )),
+        );
+        check(&p, "six-step");
+        assert_eq!(p["three_phase"]["chop"], chop);
+        // The line current's mean is the rated DC-link current.
+        assert!((f(&p["ripple"]["mean_a"]) - 10.0).abs() < 1e-6);
+    }
+}
