@@ -1397,9 +1397,32 @@ pub fn evaluate_at(ev: &Evaluator, f_hz: f64) -> Option<Candidate> {
 /// The realisable setting nearest `f_hz` over the allowed alignments (ties:
 /// more duty steps).
 fn nearest(ev: &Evaluator, f_hz: f64) -> Option<PwmSetting> {
+    // The settings of a narrow band around the target, one per frequency
+    // (the most duty steps), widened until the band holds some: cheaper
+    // than visiting every divider, and the same nearest setting.
+    let near = |a: Alignment| -> Option<PwmSetting> {
+        let mut width = 1e-3;
+        while width < 1e3 {
+            let (lo, hi) = (f_hz / (1.0 + width), f_hz * (1.0 + width));
+            if let Ok(it) = ev.timer.distinct_products_in_band(lo, hi, a) {
+                let best = it.min_by(|x, y| {
+                    (x.frequency_hz - f_hz)
+                        .abs()
+                        .total_cmp(&(y.frequency_hz - f_hz).abs())
+                        .then(y.duty_steps.cmp(&x.duty_steps))
+                        .then(x.divider.cmp(&y.divider))
+                });
+                if best.is_some() {
+                    return best;
+                }
+            }
+            width *= 8.0;
+        }
+        ev.timer.nearest_setting(f_hz, a).ok().flatten()
+    };
     ev.alignments()
         .iter()
-        .filter_map(|a| ev.timer.nearest_setting(f_hz, *a).ok().flatten())
+        .filter_map(|a| near(*a))
         .min_by(|a, b| {
             (a.frequency_hz - f_hz)
                 .abs()
