@@ -517,6 +517,55 @@ pub fn current_transition_charge_c(
     }
 }
 
+/// [`transitions`] remembered: the last few results on this thread, each
+/// kept with a copy of its inputs and returned only for equal inputs (the
+/// switch and drive compared field by field), so the result is exactly what
+/// `transitions` gives. The thermal fixed point and the search ask for the
+/// same edges many times.
+pub fn transitions_memo(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    r_ds_on_ohm: f64,
+) -> Result<Transitions, SwitchingError> {
+    type Entry = (
+        SwitchModel,
+        GateDrive,
+        [u64; 4],
+        Result<Transitions, SwitchingError>,
+    );
+    thread_local! {
+        static MEMO: std::cell::RefCell<Vec<Entry>> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    const SIZE: usize = 16;
+    let key = [
+        v_bus_v.to_bits(),
+        i_on_a.to_bits(),
+        i_off_a.to_bits(),
+        r_ds_on_ohm.to_bits(),
+    ];
+    let hit = MEMO.with(|m| {
+        m.borrow()
+            .iter()
+            .find(|(s, d, k, _)| *k == key && s == sw && d == drive)
+            .map(|(_, _, _, r)| r.clone())
+    });
+    if let Some(r) = hit {
+        return r;
+    }
+    let r = transitions(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm);
+    MEMO.with(|m| {
+        let mut m = m.borrow_mut();
+        if m.len() >= SIZE {
+            drop(m.remove(0));
+        }
+        m.push((sw.clone(), drive.clone(), key, r.clone()));
+    });
+    r
+}
+
 /// One hard turn-on at `i_on_a` and one hard turn-off at `i_off_a` against
 /// `v_bus_v` (inductive clamped load). `r_ds_on_ohm` is the on-resistance in use
 /// (hot). Currents are magnitudes; the caller decides which device
