@@ -537,7 +537,9 @@ pub fn transitions_memo(
         Result<Transitions, SwitchingError>,
     );
     thread_local! {
-        static MEMO: std::cell::RefCell<Vec<Entry>> = const { std::cell::RefCell::new(Vec::new()) };
+        // A ring of recent results and the slot the next one replaces.
+        static MEMO: std::cell::RefCell<(Vec<Entry>, usize)> =
+            const { std::cell::RefCell::new((Vec::new(), 0)) };
     }
     const SIZE: usize = 16;
     let key = [
@@ -548,6 +550,7 @@ pub fn transitions_memo(
     ];
     let hit = MEMO.with(|m| {
         m.borrow()
+            .0
             .iter()
             .find(|(s, d, k, _)| *k == key && s == sw && d == drive)
             .map(|(_, _, _, r)| r.clone())
@@ -557,11 +560,14 @@ pub fn transitions_memo(
     }
     let r = transitions(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm);
     MEMO.with(|m| {
-        let mut m = m.borrow_mut();
-        if m.len() >= SIZE {
-            drop(m.remove(0));
+        let (ring, next) = &mut *m.borrow_mut();
+        let entry = (sw.clone(), drive.clone(), key, r.clone());
+        if ring.len() < SIZE {
+            ring.push(entry);
+        } else {
+            ring[*next] = entry;
         }
-        m.push((sw.clone(), drive.clone(), key, r.clone()));
+        *next = (*next + 1) % SIZE;
     });
     r
 }

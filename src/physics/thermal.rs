@@ -40,12 +40,22 @@ pub fn r_ds_on_factor(model: &RdsOnTemperature, t_j_c: f64) -> f64 {
 }
 
 fn curve_factor(points: &[(f64, f64)], t_c: f64) -> f64 {
-    let mut pts: Vec<(f64, f64)> = points
-        .iter()
-        .copied()
-        .filter(|&(t, k)| t.is_finite() && k.is_finite())
-        .collect();
-    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    // Validated curves arrive finite and sorted: use them as they are.
+    let usable = points.iter().all(|&(t, k)| t.is_finite() && k.is_finite())
+        && points.windows(2).all(|w| w[0].0 <= w[1].0);
+    let owned: Vec<(f64, f64)>;
+    let pts: &[(f64, f64)] = if usable {
+        points
+    } else {
+        let mut v: Vec<(f64, f64)> = points
+            .iter()
+            .copied()
+            .filter(|&(t, k)| t.is_finite() && k.is_finite())
+            .collect();
+        v.sort_by(|a, b| a.0.total_cmp(&b.0));
+        owned = v;
+        &owned
+    };
     match pts.len() {
         0 => 1.0,
         1 => pts[0].1,
