@@ -85,6 +85,32 @@ pub struct ConstraintCheck {
     pub detail: String,
 }
 
+impl DeadTimeChoice {
+    /// The smallest dead time the timer encodes at or above `need_s`; when
+    /// none is long enough (or the timer has no generator) the need itself,
+    /// with no code and the longest encodable value in `max_s`.
+    pub fn encode(timer: &crate::timer::TimerModel, need_s: f64) -> DeadTimeChoice {
+        let unencoded = |max_s| DeadTimeChoice {
+            need_s,
+            code: None,
+            ticks: None,
+            seconds: need_s,
+            max_s: Some(max_s),
+        };
+        match timer.encode_dead_time(need_s) {
+            Ok(c) => DeadTimeChoice {
+                need_s,
+                code: Some(c.code),
+                ticks: Some(c.ticks),
+                seconds: c.seconds,
+                max_s: None,
+            },
+            Err(DeadTimeError::OutOfRange { max_s }) => unencoded(max_s),
+            Err(_) => unencoded(0.0),
+        }
+    }
+}
+
 /// The dead time chosen for a setting.
 #[derive(Debug, Clone, Copy, Serialize)]
 pub struct DeadTimeChoice {
@@ -228,29 +254,7 @@ impl Evaluator {
         } else {
             0.0
         };
-        match self.timer.encode_dead_time(need) {
-            Ok(c) => DeadTimeChoice {
-                need_s: need,
-                code: Some(c.code),
-                ticks: Some(c.ticks),
-                seconds: c.seconds,
-                max_s: None,
-            },
-            Err(DeadTimeError::OutOfRange { max_s }) => DeadTimeChoice {
-                need_s: need,
-                code: None,
-                ticks: None,
-                seconds: need,
-                max_s: Some(max_s),
-            },
-            Err(_) => DeadTimeChoice {
-                need_s: need,
-                code: None,
-                ticks: None,
-                seconds: need,
-                max_s: Some(0.0),
-            },
-        }
+        DeadTimeChoice::encode(&self.timer, need)
     }
 
     /// Channel duty range the load needs: from the high-bus case (lowest

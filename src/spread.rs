@@ -28,7 +28,7 @@ use crate::physics::deadtime::{self, DeadTimeInputs};
 use crate::physics::{switching, thermal};
 use crate::solve::{DeadTimeChoice, Setting};
 use crate::spec::{Dim, DistributionSpec, Spread};
-use crate::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
+use crate::timer::{self, Alignment, DutyLimits, PwmSetting};
 use crate::units::{Dimension, format_quantity};
 
 // ---------------------------------------------------------------- parameters
@@ -1204,29 +1204,7 @@ pub fn worst_dead_time_need(d: &Design, ev: &Evaluator) -> Option<(f64, f64)> {
 /// need (the next encodable value up).
 pub fn worst_case_dead_time(d: &Design, ev: &Evaluator) -> Option<DeadTimeChoice> {
     let (need, _) = worst_dead_time_need(d, ev)?;
-    Some(match ev.timer.encode_dead_time(need) {
-        Ok(c) => DeadTimeChoice {
-            need_s: need,
-            code: Some(c.code),
-            ticks: Some(c.ticks),
-            seconds: c.seconds,
-            max_s: None,
-        },
-        Err(DeadTimeError::OutOfRange { max_s }) => DeadTimeChoice {
-            need_s: need,
-            code: None,
-            ticks: None,
-            seconds: need,
-            max_s: Some(max_s),
-        },
-        Err(_) => DeadTimeChoice {
-            need_s: need,
-            code: None,
-            ticks: None,
-            seconds: need,
-            max_s: Some(0.0),
-        },
-    })
+    Some(DeadTimeChoice::encode(&ev.timer, need))
 }
 
 // --------------------------------------------------------------- worst case
