@@ -21,7 +21,6 @@ pub mod report;
 pub mod solve;
 pub mod spec;
 pub mod spread;
-pub mod summary;
 pub mod svg;
 pub mod sweep;
 pub mod timer;
