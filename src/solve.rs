@@ -611,6 +611,7 @@ fn fmt_v(v: f64) -> String {
     crate::units::format_quantity(v, crate::units::Dimension::Voltage, 3)
 }
 
+/// A check that `value` stays at or below `limit`.
 fn upper(
     name: &'static str,
     limit: f64,
@@ -618,19 +619,10 @@ fn upper(
     unit: &'static str,
     detail: String,
 ) -> ConstraintCheck {
-    let margin = value.map(|v| limit - v);
-    ConstraintCheck {
-        name,
-        limit,
-        value,
-        margin,
-        unit,
-        pass: margin.is_some_and(|m| m >= -EPS),
-        binding: false,
-        detail,
-    }
+    bound(name, limit, value, value.map(|v| limit - v), unit, detail)
 }
 
+/// A check that `value` stays at or above `limit`.
 fn lower(
     name: &'static str,
     limit: f64,
@@ -638,7 +630,19 @@ fn lower(
     unit: &'static str,
     detail: String,
 ) -> ConstraintCheck {
-    let margin = value.map(|v| v - limit);
+    bound(name, limit, value, value.map(|v| v - limit), unit, detail)
+}
+
+/// A check that passes when its margin (distance on the safe side) is not
+/// negative.
+fn bound(
+    name: &'static str,
+    limit: f64,
+    value: Option<f64>,
+    margin: Option<f64>,
+    unit: &'static str,
+    detail: String,
+) -> ConstraintCheck {
     ConstraintCheck {
         name,
         limit,
