@@ -272,7 +272,12 @@ fn objective_of(d: &Design) -> Objective {
 
 /// The files `plan` writes for a solved design.
 pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<GeneratedFile>, Failure> {
-    let t = Templates::load(templates)?;
+    generate_with(s, &Templates::load(templates)?)
+}
+
+/// The files `plan` writes for a solved design, with templates already
+/// compiled.
+fn generate_with(s: &Solved, t: &Templates) -> Result<Vec<GeneratedFile>, Failure> {
     let o = &s.design.spec.outputs;
     let (from, to) = review_range(&s.evaluator);
     let rows = sweep::sweep(
@@ -286,7 +291,7 @@ pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<Genera
         s.design.board.timer.fpu,
         o.c,
         o.rust,
-        &t,
+        t,
     )?)
 }
 
@@ -308,7 +313,20 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 .as_deref()
                 .map(|t| parse_frequency(t, "--at"))
                 .transpose()?;
-            let solved = solve_design(design.as_deref(), at, worst_case)?;
+            // Compiling the templates takes as long as a small solve: do it
+            // on another thread meanwhile.
+            let (solved, compiled) = std::thread::scope(|scope| {
+                let compiling = scope.spawn(|| Templates::load(templates.as_deref()));
+                let solved = solve_design(design.as_deref(), at, worst_case);
+                let compiled = compiling.join().unwrap_or_else(|_| {
+                    Err(emit::EmitError::Template {
+                        file: "templates".into(),
+                        message: "compiling the templates failed unexpectedly".into(),
+                    })
+                });
+                (solved, compiled)
+            });
+            let solved = solved?;
             if !solved.feasible {
                 if json {
                     write_text(out, &emit::plan_json(&solved.plan))?;
@@ -317,7 +335,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 }
                 return Ok(1);
             }
-            let files = generate_files(&solved, templates.as_deref())?;
+            let files = generate_with(&solved, &compiled?)?;
             let ctx = emit::context(&solved.plan, solved.design.board.timer.fpu);
             if json {
                 write_text(out, &emit::plan_json(&solved.plan))?;

@@ -16,6 +16,7 @@
 //! (terms that grow with f — switching, gate drive — against terms that fall
 //! — ripple conduction and copper loss).
 
+use rayon::prelude::*;
 use std::cmp::Ordering;
 
 use serde::Serialize;
@@ -848,26 +849,44 @@ fn search_list(
     search: Search,
     settings: Vec<PwmSetting>,
 ) -> Solution {
-    let mut evaluated: Vec<Option<Candidate>> = vec![None; settings.len()];
+    // Boxed: a candidate is over a kilobyte and most settings are never
+    // evaluated.
+    let mut evaluated: Vec<Option<Box<Candidate>>> = vec![None; settings.len()];
     let mut count = 0usize;
-    let mut eval = |i: usize, evaluated: &mut Vec<Option<Candidate>>| {
-        if evaluated[i].is_none() {
-            let (c, n) = candidate_at_frequency(judge, &settings[i]);
-            evaluated[i] = c;
-            count += n;
+    let eval = |i: usize, evaluated: &mut Vec<Option<Box<Candidate>>>| -> usize {
+        if evaluated[i].is_some() {
+            return 0;
         }
+        let (c, n) = candidate_at_frequency(judge, &settings[i]);
+        evaluated[i] = c.map(Box::new);
+        n
+    };
+    // Independent settings are evaluated on every core; the results do not
+    // depend on the order, so the choice is the same on any machine.
+    let eval_all = |indices: &[usize], evaluated: &mut Vec<Option<Box<Candidate>>>| -> usize {
+        let fresh: Vec<(usize, Option<Box<Candidate>>, usize)> = indices
+            .par_iter()
+            .filter(|&&i| evaluated[i].is_none())
+            .map(|&i| {
+                let (c, n) = candidate_at_frequency(judge, &settings[i]);
+                (i, c.map(Box::new), n)
+            })
+            .collect();
+        let mut n_total = 0;
+        for (i, c, n) in fresh {
+            evaluated[i] = c;
+            n_total += n;
+        }
+        n_total
     };
     if settings.len() <= search.exhaustive_limit {
-        for i in 0..settings.len() {
-            eval(i, &mut evaluated);
-        }
+        let all: Vec<usize> = (0..settings.len()).collect();
+        let count = eval_all(&all, &mut evaluated);
         return finish(judge, obj, settings.len(), &settings, evaluated, count);
     }
     let n = settings.len();
     let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
-    for &i in &grid {
-        eval(i, &mut evaluated);
-    }
+    count += eval_all(&grid, &mut evaluated);
     // Bracket the best grid point (feasible first, else least violation).
     // The quietest objective needs the exact least loss first: bracket the
     // least-loss point for it.
@@ -883,8 +902,8 @@ fn search_list(
         .min_by(|&a, &b| {
             rank(
                 bracket_obj,
-                evaluated[a].as_ref(),
-                evaluated[b].as_ref(),
+                evaluated[a].as_deref(),
+                evaluated[b].as_deref(),
                 None,
             )
         });
@@ -896,22 +915,21 @@ fn search_list(
         } else {
             grid[pos + 1]
         };
-        for i in lo..=hi {
-            eval(i, &mut evaluated);
-        }
+        let bracket: Vec<usize> = (lo..=hi).collect();
+        count += eval_all(&bracket, &mut evaluated);
     }
     // Refine every feasibility edge between grid neighbours by bisection,
     // so the feasible band, and an optimum on its edge, are exact.
     for w in grid.windows(2) {
         let (a, b) = (w[0], w[1]);
-        let fa = evaluated[a].as_ref().map(|c| c.feasible);
-        let fb = evaluated[b].as_ref().map(|c| c.feasible);
+        let fa = evaluated[a].as_deref().map(|c| c.feasible);
+        let fb = evaluated[b].as_deref().map(|c| c.feasible);
         if fa != fb {
             let (mut lo, mut hi) = (a, b);
             while hi - lo > 1 {
                 let mid = (lo + hi) / 2;
-                eval(mid, &mut evaluated);
-                if evaluated[mid].as_ref().map(|c| c.feasible) == fa {
+                count += eval(mid, &mut evaluated);
+                if evaluated[mid].as_deref().map(|c| c.feasible) == fa {
                     lo = mid
                 } else {
                     hi = mid
@@ -922,34 +940,33 @@ fn search_list(
     // The grid found nothing feasible: feasibility may come in islands the
     // grid stepped over, so look at every setting (when that is affordable)
     // before calling the design infeasible.
-    if !evaluated.iter().flatten().any(|c| c.feasible) && n <= search.infeasible_exhaustive_limit {
-        for i in 0..n {
-            eval(i, &mut evaluated);
-        }
+    if !evaluated.iter().flatten().map(|c| &**c).any(|c| c.feasible) && n <= search.infeasible_exhaustive_limit {
+        let all: Vec<usize> = (0..n).collect();
+        count += eval_all(&all, &mut evaluated);
     }
     if obj == Objective::Quietest {
         // Above the least-loss point the loss rises with frequency, so the
         // settings within the allowance end at one edge: find it by
         // bisection between the last grid point inside and the next.
-        let floor = loss_floor(Objective::Quietest, evaluated.iter().flatten());
+        let floor = loss_floor(Objective::Quietest, evaluated.iter().flatten().map(|c| &**c));
         if let Some(floor) = floor {
             let inside = |c: Option<&Candidate>| {
                 c.is_some_and(|c| {
                     c.feasible && c.rated.losses.total <= floor * (1.0 + QUIET_LOSS_ALLOWANCE)
                 })
             };
-            if let Some(pos) = grid.iter().rposition(|&i| inside(evaluated[i].as_ref())) {
+            if let Some(pos) = grid.iter().rposition(|&i| inside(evaluated[i].as_deref())) {
                 let mut lo = grid[pos];
                 let mut hi = grid.get(pos + 1).copied().unwrap_or(n - 1);
                 if lo != hi {
-                    eval(hi, &mut evaluated);
-                    if inside(evaluated[hi].as_ref()) {
+                    count += eval(hi, &mut evaluated);
+                    if inside(evaluated[hi].as_deref()) {
                         lo = hi;
                     }
                     while hi - lo > 1 {
                         let mid = (lo + hi) / 2;
-                        eval(mid, &mut evaluated);
-                        if inside(evaluated[mid].as_ref()) {
+                        count += eval(mid, &mut evaluated);
+                        if inside(evaluated[mid].as_deref()) {
                             lo = mid
                         } else {
                             hi = mid
@@ -958,7 +975,7 @@ fn search_list(
                 }
                 // The neighbours, for the binding marks.
                 for i in [lo.saturating_sub(1), (lo + 1).min(n - 1)] {
-                    eval(i, &mut evaluated);
+                    count += eval(i, &mut evaluated);
                 }
             }
         }
@@ -1105,22 +1122,22 @@ fn finish(
     obj: Objective,
     realisable: usize,
     settings: &[PwmSetting],
-    evaluated: Vec<Option<Candidate>>,
+    evaluated: Vec<Option<Box<Candidate>>>,
     count: usize,
 ) -> Solution {
     let ev = judge.ev;
-    let floor = loss_floor(obj, evaluated.iter().flatten());
+    let floor = loss_floor(obj, evaluated.iter().flatten().map(|c| &**c));
     let idx: Vec<usize> = (0..settings.len())
         .filter(|&i| evaluated[i].is_some())
         .collect();
     let best = idx
         .iter()
         .copied()
-        .min_by(|&a, &b| rank(obj, evaluated[a].as_ref(), evaluated[b].as_ref(), floor));
+        .min_by(|&a, &b| rank(obj, evaluated[a].as_deref(), evaluated[b].as_deref(), floor));
     let feasible_idx: Vec<usize> = idx
         .iter()
         .copied()
-        .filter(|&i| evaluated[i].as_ref().is_some_and(|c| c.feasible))
+        .filter(|&i| evaluated[i].as_deref().is_some_and(|c| c.feasible))
         .collect();
     let band = match (feasible_idx.first(), feasible_idx.last()) {
         (Some(&a), Some(&b)) => Some((settings[a].frequency_hz, settings[b].frequency_hz)),
@@ -1141,7 +1158,7 @@ fn finish(
             realisable,
         };
     };
-    let mut chosen = evaluated[b].clone().expect("best index is evaluated");
+    let mut chosen = evaluated[b].as_deref().cloned().expect("best index is evaluated");
     let feasible = chosen.feasible;
     if feasible {
         let ctx = BindCtx { judge, obj, floor };
@@ -1177,7 +1194,7 @@ fn mark_binding(
     ctx: &BindCtx,
     chosen: &mut Candidate,
     b: usize,
-    evaluated: &[Option<Candidate>],
+    evaluated: &[Option<Box<Candidate>>],
     idx: &[usize],
 ) {
     let pos = idx.iter().position(|&i| i == b).unwrap_or(0);
@@ -1187,7 +1204,7 @@ fn mark_binding(
     ]
     .into_iter()
     .flatten()
-    .filter_map(|n| evaluated[n].clone())
+    .filter_map(|n| evaluated[n].as_deref().cloned())
     .collect();
     if pos == 0 {
         neighbours.extend(outside_neighbour(ctx, chosen, 1));
@@ -1248,12 +1265,12 @@ fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidat
 fn alternatives(
     obj: Objective,
     chosen: &Candidate,
-    evaluated: &[Option<Candidate>],
+    evaluated: &[Option<Box<Candidate>>],
     feasible_idx: &[usize],
 ) -> Vec<Alternative> {
     let cands: Vec<&Candidate> = feasible_idx
         .iter()
-        .filter_map(|&i| evaluated[i].as_ref())
+        .filter_map(|&i| evaluated[i].as_deref())
         .collect();
     let mut out = Vec::new();
     // A rounder frequency: the feasible one with the fewest significant digits,
@@ -1329,7 +1346,7 @@ fn trade(base: &Candidate, alt: &Candidate) -> String {
 fn explain_conflict(
     ev: &Evaluator,
     nearest: &Candidate,
-    evaluated: &[Option<Candidate>],
+    evaluated: &[Option<Box<Candidate>>],
     idx: &[usize],
 ) -> Vec<String> {
     let mut lines = Vec::new();
@@ -1339,7 +1356,7 @@ fn explain_conflict(
     for name in &names {
         let ok: Vec<f64> = idx
             .iter()
-            .filter_map(|&i| evaluated[i].as_ref())
+            .filter_map(|&i| evaluated[i].as_deref())
             .filter(|c| c.checks.iter().any(|k| k.name == *name && k.pass))
             .map(|c| c.setting.frequency_hz)
             .collect();

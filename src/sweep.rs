@@ -4,6 +4,7 @@
 //! **Invariant:** pure; the rows are the same numbers `plan --at` gives at
 //! the same frequency (both go through [`crate::solve::evaluate_at`]).
 
+use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use crate::model::{Evaluator, LossFigures};
@@ -91,9 +92,13 @@ pub fn sweep(ev: &Evaluator, frequencies_hz: &[f64], chosen_hz: Option<f64>) -> 
         asked.push(c);
         asked.sort_by(f64::total_cmp);
     }
-    for &f in &asked {
-        if let Some(c) = solve::evaluate_at(ev, f) {
-            let r = row(f, &c, chosen_hz);
+    // Each frequency is independent: evaluate them on every core.
+    let evaluated: Vec<Option<SweepRow>> = asked
+        .par_iter()
+        .map(|&f| solve::evaluate_at(ev, f).map(|c| row(f, &c, chosen_hz)))
+        .collect();
+    for r in evaluated.into_iter().flatten() {
+        {
             if rows
                 .last()
                 .is_none_or(|p| p.frequency_hz != r.frequency_hz || p.alignment != r.alignment)
