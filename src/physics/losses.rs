@@ -109,6 +109,26 @@ pub struct DeviceLoss {
     pub total_w: f64,
 }
 
+impl DeviceLoss {
+    /// This device's total loss at junction temperature `t_j_c`, from these
+    /// losses evaluated at `t_eval_c`. In this model only a MOSFET's
+    /// conduction loss I²·R_ds(on)(T) depends on its junction temperature
+    /// (the switching edges take R_ds(on) at 25 °C, see `mosfet_loss`; the
+    /// diode model has no temperature), so the conduction line scales by
+    /// R_ds(on)(T)/R_ds(on)(T_eval) and the other lines stay. Exact for this
+    /// model (checked against `stage_losses` in the tests); it lets the
+    /// thermal loop iterate without re-evaluating the edges.
+    pub fn total_at_w(&self, sw: &SwitchModel, t_eval_c: f64, t_j_c: f64) -> f64 {
+        if self.role == DeviceRole::FreewheelDiode {
+            return self.total_w;
+        }
+        let model = &sw.r_ds_on_temperature;
+        let scale =
+            thermal::r_ds_on_factor(model, t_j_c) / thermal::r_ds_on_factor(model, t_eval_c);
+        self.total_w + self.conduction_w * (scale - 1.0)
+    }
+}
+
 /// Losses of the whole stage.
 #[derive(Debug, Clone, PartialEq)]
 pub struct StageLosses {
@@ -634,6 +654,52 @@ mod tests {
             dev + s.gate_driver_w + s.gate_external_w,
             1e-12
         ));
+    }
+
+    /// The thermal loop's shortcut: a device's loss at another junction
+    /// temperature, from one evaluation, equals a full evaluation there, on
+    /// every topology and every R_ds(on) temperature model, with the devices
+    /// at different temperatures.
+    #[test]
+    fn total_at_temperature_matches_full_evaluation() {
+        let models = [
+            RdsOnTemperature::PowerLaw,
+            RdsOnTemperature::CoefficientPerK(0.006),
+            RdsOnTemperature::Curve(vec![(-40.0, 0.7), (25.0, 1.0), (125.0, 1.7), (175.0, 2.1)]),
+        ];
+        let topologies = [
+            Topology::LowSide,
+            Topology::HalfBridge,
+            Topology::HBridge(HBridgeModulation::Bipolar),
+            Topology::HBridge(HBridgeModulation::Unipolar),
+        ];
+        let load = triangular_load(6.0, 1.5);
+        for model in &models {
+            let mut sw = example_switch();
+            sw.r_ds_on_temperature = model.clone();
+            for topology in topologies {
+                let o = op(0.45);
+                let d = diode();
+                let base = stage_losses(topology, &sw, &example_drive(), Some(&d), &o, &load, T25)
+                    .unwrap();
+                let hot = |role: DeviceRole| match role {
+                    DeviceRole::HighSide | DeviceRole::LegAHigh => 97.0,
+                    DeviceRole::LegBLow => 61.5,
+                    _ => 133.0,
+                };
+                let full = stage_losses(topology, &sw, &example_drive(), Some(&d), &o, &load, &hot)
+                    .unwrap();
+                for dev in &base.devices {
+                    let want = full.device(dev.role).unwrap().total_w;
+                    let got = dev.total_at_w(&sw, 25.0, hot(dev.role));
+                    assert!(
+                        close(got, want, 1e-12),
+                        "{topology:?} {model:?} {:?}: {got} vs {want}",
+                        dev.role
+                    );
+                }
+            }
+        }
     }
 
     /// Practitioner figure (common practice, no published source): 12 V motor at

@@ -294,12 +294,13 @@ pub struct DeviceTemperature {
 /// thermal path (`thermal_for(role)`), each with its own T_j.
 ///
 /// The devices are taken as thermally independent (separate paths to ambient),
-/// so each is a one-dimensional fixed point on its own loss P_i(T_i), as in
-/// [`junction_temperature`]. A device's loss depends on its own temperature
-/// only, so all devices iterate together, one stage evaluation per step; each
-/// device stops where it would have stopped alone, so the result is the same
-/// as solving them one by one. The freewheel diode uses the switch's T_j,max
-/// (the diode model has none).
+/// so each is a one-dimensional fixed point on its own loss P_i(T_i), solved
+/// by [`junction_temperature`]. The stage is evaluated once, at ambient; a
+/// device's loss at another temperature follows from it exactly
+/// ([`DeviceLoss::total_at_w`](super::losses::DeviceLoss::total_at_w): only
+/// the conduction line depends on T_j), so the iteration does not
+/// re-evaluate the switching edges. The freewheel diode uses the switch's
+/// T_j,max (the diode model has none).
 pub fn stage_junction_temperatures(
     topology: Topology,
     sw: &SwitchModel,
@@ -311,114 +312,19 @@ pub fn stage_junction_temperatures(
 ) -> Result<Vec<DeviceTemperature>, StageError> {
     let t_a = op.t_ambient_c;
     let at_ambient = stage_losses(topology, sw, drive, diode, op, load, &|_| t_a)?;
-    let roles: Vec<DeviceRole> = at_ambient.devices.iter().map(|d| d.role).collect();
-    let r_th: Vec<f64> = roles
+    Ok(at_ambient
+        .devices
         .iter()
-        .map(|r| thermal_for(*r).r_th_ja_k_per_w)
-        .collect();
-    let n = roles.len();
-    // The one-device solution for the paths the joint iteration does not
-    // cover (bad inputs, passing T_j,max, not settling).
-    let alone = |i: usize| {
-        let role = roles[i];
-        let power = |t: f64| {
-            stage_losses(topology, sw, drive, diode, op, load, &|_| t)
-                .ok()
-                .and_then(|s| s.device(role).map(|d| d.total_w))
-                .unwrap_or(f64::NAN)
-        };
-        junction_temperature(t_a, r_th[i], sw.t_j_max_c, power)
-    };
-    let inputs_ok = t_a.is_finite()
-        && sw.t_j_max_c.is_finite()
-        && r_th.iter().all(|r| r.is_finite() && *r >= 0.0);
-    if !inputs_ok {
-        return Ok((0..n)
-            .map(|i| DeviceTemperature {
-                role: roles[i],
-                result: alone(i),
-            })
-            .collect());
-    }
-    let index = |role: DeviceRole| roles.iter().position(|r| *r == role).unwrap_or(0);
-    let power_at = |temps: &[f64]| -> Option<Vec<f64>> {
-        let s = stage_losses(topology, sw, drive, diode, op, load, &|role| {
-            temps[index(role)]
+        .map(|d| DeviceTemperature {
+            role: d.role,
+            result: junction_temperature(
+                t_a,
+                thermal_for(d.role).r_th_ja_k_per_w,
+                sw.t_j_max_c,
+                |t| d.total_at_w(sw, t_a, t),
+            ),
         })
-        .ok()?;
-        Some(
-            roles
-                .iter()
-                .map(|r| s.device(*r).map(|d| d.total_w).unwrap_or(f64::NAN))
-                .collect(),
-        )
-    };
-    let mut t = vec![t_a; n];
-    let mut settled = vec![false; n];
-    let mut fallback = vec![false; n];
-    for _ in 0..FIXED_POINT_MAX_ITER {
-        let Some(p) = power_at(&t) else {
-            fallback.iter_mut().for_each(|f| *f = true);
-            break;
-        };
-        for i in 0..n {
-            if settled[i] || fallback[i] {
-                continue;
-            }
-            let t_next = t_a + r_th[i] * p[i];
-            if !p[i].is_finite() || t_next > sw.t_j_max_c {
-                fallback[i] = true;
-                continue;
-            }
-            settled[i] = (t_next - t[i]).abs() <= FIXED_POINT_TOL_K * t[i].abs().max(1.0);
-            t[i] = t_next;
-        }
-        if settled.iter().zip(&fallback).all(|(s, f)| *s || *f) {
-            break;
-        }
-    }
-    // Loop gains of the settled devices by one central difference of all.
-    let up: Vec<f64> = t.iter().map(|x| x + GAIN_STEP_K).collect();
-    let down: Vec<f64> = t.iter().map(|x| x - GAIN_STEP_K).collect();
-    let (p_up, p_down, p_at) = match (power_at(&up), power_at(&down), power_at(&t)) {
-        (Some(a), Some(b), Some(c)) => (a, b, c),
-        _ => {
-            return Ok((0..n)
-                .map(|i| DeviceTemperature {
-                    role: roles[i],
-                    result: alone(i),
-                })
-                .collect());
-        }
-    };
-    let out = (0..n)
-        .map(|i| {
-            let result = if settled[i] && !fallback[i] {
-                let gain = r_th[i] * (p_up[i] - p_down[i]) / (2.0 * GAIN_STEP_K);
-                if !gain.is_finite() || gain >= 1.0 {
-                    JunctionTemperature::Runaway {
-                        reason: RunawayReason::LoopGainAtLeastOne {
-                            t_c: t[i],
-                            loop_gain: gain,
-                        },
-                    }
-                } else {
-                    JunctionTemperature::Settled {
-                        t_j_c: t[i],
-                        p_w: p_at[i],
-                        loop_gain: gain,
-                    }
-                }
-            } else {
-                alone(i)
-            };
-            DeviceTemperature {
-                role: roles[i],
-                result,
-            }
-        })
-        .collect();
-    Ok(out)
+        .collect())
 }
 
 #[cfg(test)]
@@ -621,11 +527,31 @@ mod tests {
         )
         .unwrap();
         assert_eq!(res.len(), 2);
-        for d in res {
+        let t_of = |role: DeviceRole| {
+            res.iter()
+                .find(|d| d.role == role)
+                .and_then(|d| d.result.t_j_c())
+                .unwrap()
+        };
+        // The powers the loop used are those of a full evaluation at the
+        // temperatures it found.
+        let full = stage_losses(
+            Topology::HalfBridge,
+            &example_switch(),
+            &example_drive(),
+            None,
+            &op,
+            &load,
+            &t_of,
+        )
+        .unwrap();
+        for d in &res {
             let JunctionTemperature::Settled { t_j_c, p_w, .. } = d.result else {
                 panic!("{d:?}");
             };
             assert!((t_j_c - (40.0 + 40.0 * p_w)).abs() < 1e-6);
+            let p_full = full.device(d.role).unwrap().total_w;
+            assert!((p_w - p_full).abs() <= 1e-12 * p_full, "{p_w} vs {p_full}");
         }
     }
 }
