@@ -109,23 +109,48 @@ pub struct DeviceLoss {
     pub total_w: f64,
 }
 
-impl DeviceLoss {
-    /// This device's total loss at junction temperature `t_j_c`, from these
-    /// losses evaluated at `t_eval_c`. In this model only a MOSFET's
-    /// conduction loss I²·R_ds(on)(T) depends on its junction temperature
-    /// (the switching edges take R_ds(on) at 25 °C, see `mosfet_loss`; the
-    /// diode model has no temperature), so the conduction line scales by
-    /// R_ds(on)(T)/R_ds(on)(T_eval) and the other lines stay. Exact for this
-    /// model (checked against `stage_losses` in the tests); it lets the
-    /// thermal loop iterate without re-evaluating the edges.
-    pub fn total_at_w(&self, sw: &SwitchModel, t_eval_c: f64, t_j_c: f64) -> f64 {
-        if self.role == DeviceRole::FreewheelDiode {
-            return self.total_w;
+/// A device's loss as a function of its junction temperature,
+/// P(T) = `fixed_w` + `resistive_25_w`·k(T), with k the R_ds(on) temperature
+/// factor (1 at 25 °C; `thermal::r_ds_on_factor`).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LossVsTemperature {
+    /// Lines that do not depend on T_j.
+    pub fixed_w: f64,
+    /// Conduction loss I²·R_ds(on) at 25 °C (0 for a diode).
+    pub resistive_25_w: f64,
+}
+
+impl LossVsTemperature {
+    /// The loss at junction temperature `t_j_c`.
+    pub fn at_w(&self, sw: &SwitchModel, t_j_c: f64) -> f64 {
+        if self.resistive_25_w == 0.0 {
+            return self.fixed_w;
         }
-        let model = &sw.r_ds_on_temperature;
-        let scale =
-            thermal::r_ds_on_factor(model, t_j_c) / thermal::r_ds_on_factor(model, t_eval_c);
-        self.total_w + self.conduction_w * (scale - 1.0)
+        self.fixed_w + self.resistive_25_w * thermal::r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
+    }
+}
+
+impl DeviceLoss {
+    /// This device's loss at any junction temperature, from these losses
+    /// evaluated at `t_eval_c`. In this model only a MOSFET's conduction
+    /// loss I²·R_ds(on)(T) depends on its junction temperature (the
+    /// switching edges take R_ds(on) at 25 °C, see `mosfet_loss`; the diode
+    /// model has no temperature), so the conduction line is referred to
+    /// 25 °C and the other lines stay. Exact for this model (checked against
+    /// `stage_losses` in the tests); it lets the thermal loop iterate without
+    /// re-evaluating the edges.
+    pub fn vs_temperature(&self, sw: &SwitchModel, t_eval_c: f64) -> LossVsTemperature {
+        if self.role == DeviceRole::FreewheelDiode {
+            return LossVsTemperature {
+                fixed_w: self.total_w,
+                resistive_25_w: 0.0,
+            };
+        }
+        let k = thermal::r_ds_on_factor(&sw.r_ds_on_temperature, t_eval_c);
+        LossVsTemperature {
+            fixed_w: self.total_w - self.conduction_w,
+            resistive_25_w: self.conduction_w / k,
+        }
     }
 }
 
@@ -691,7 +716,7 @@ mod tests {
                     .unwrap();
                 for dev in &base.devices {
                     let want = full.device(dev.role).unwrap().total_w;
-                    let got = dev.total_at_w(&sw, 25.0, hot(dev.role));
+                    let got = dev.vs_temperature(&sw, 25.0).at_w(&sw, hot(dev.role));
                     assert!(
                         close(got, want, 1e-12),
                         "{topology:?} {model:?} {:?}: {got} vs {want}",

@@ -299,6 +299,21 @@ pub fn transitions_first_order(
     i_off_a: f64,
     r_ds_on_ohm: f64,
 ) -> Result<Transitions, SwitchingError> {
+    first_order(sw, drive, v_bus_v, i_on_a, i_off_a, &|v, i| {
+        miller_charge_c(sw, v, i, r_ds_on_ohm)
+    })
+}
+
+/// [`transitions_first_order`] with the Miller charge at (bus voltage,
+/// current) given by `q_gd`.
+fn first_order(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    q_gd: &dyn Fn(f64, f64) -> f64,
+) -> Result<Transitions, SwitchingError> {
     let v = finite_non_negative("v_bus_v", v_bus_v)?;
     let i_on = finite_non_negative("i_on_a", i_on_a.abs())?;
     let i_off = finite_non_negative("i_off_a", i_off_a.abs())?;
@@ -310,8 +325,8 @@ pub fn transitions_first_order(
     let v_plt_off = plateau_voltage_v(sw, i_off)?;
     let (i_g_on, i_g_off) = gate_currents_a(drive, sw.r_g_int_ohm, v_plt_on, v_plt_off)?;
     let q_gs2 = q_gs2_c(sw, v_plt_on)?;
-    let q_gd_on = miller_charge_c(sw, v, i_on, r_ds_on_ohm);
-    let q_gd_off = miller_charge_c(sw, v, i_off, r_ds_on_ohm);
+    let q_gd_on = q_gd(v, i_on);
+    let q_gd_off = q_gd(v, i_off);
 
     let bad_current = SwitchingError::InvalidParameter {
         name: "gate current",
@@ -357,7 +372,9 @@ pub fn transitions_first_order(
 
 /// `(∫C dv, ∫v·C dv)` of the power law through `(v0, c0)` and `(v1, c1)`,
 /// C = c0·(v/v0)^n, over `[a, b]` (closed form: ∫v^m dv = (b^(m+1) − a^(m+1))/(m+1),
-/// ln(b/a) for m = −1).
+/// ln(b/a) for m = −1). Written with C at the bounds, ∫C dv = (b·C(b) −
+/// a·C(a))/(n+1) and ∫v·C dv = (b²·C(b) − a²·C(a))/(n+2), so two powers
+/// serve both integrals.
 fn power_law_integrals(p0: (f64, f64), p1: (f64, f64), a: f64, b: f64) -> (f64, f64) {
     let ((v0, c0), (v1, c1)) = (p0, p1);
     let n = if v1 > v0 {
@@ -365,15 +382,17 @@ fn power_law_integrals(p0: (f64, f64), p1: (f64, f64), a: f64, b: f64) -> (f64, 
     } else {
         0.0
     };
-    let k = c0 / v0.powf(n);
-    let f = |m: f64| {
-        if (m + 1.0).abs() < 1e-9 {
-            (b / a).ln()
+    let (c_a, c_b) = (c0 * (a / v0).powf(n), c0 * (b / v0).powf(n));
+    // ∫v^(j−1)·C dv for j = 1, 2; the logarithmic case when n + j = 0.
+    let integral = |j: i32| {
+        let p = n + f64::from(j);
+        if p.abs() < 1e-9 {
+            c0 * v0.powf(-n) * (b / a).ln()
         } else {
-            (b.powf(m + 1.0) - a.powf(m + 1.0)) / (m + 1.0)
+            (b.powi(j) * c_b - a.powi(j) * c_a) / p
         }
     };
-    (k * f(n), k * f(n + 1.0))
+    (integral(1), integral(2))
 }
 
 /// Miller integrals of the C_rss (= C_gd) curve while V_DS swings between
@@ -600,7 +619,9 @@ pub fn transitions(
     i_off_a: f64,
     r_ds_on_ohm: f64,
 ) -> Result<Transitions, SwitchingError> {
-    let mut tr = transitions_first_order(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm)?;
+    // Every Miller figure of the first-order pass is replaced below, so it
+    // takes the datasheet Q_gd rather than evaluating the curve twice.
+    let mut tr = first_order(sw, drive, v_bus_v, i_on_a, i_off_a, &|_, _| sw.q_gd_c)?;
     let v = tr.v_bus_v;
     let (i_on, i_off) = (tr.i_on_a, tr.i_off_a);
     let v_plt_on = plateau_at_current_v(sw, i_on)?;
@@ -866,6 +887,25 @@ mod tests {
         assert!(rel(q, k * 1.0) < 1e-9);
         sw.c_rss_curve.clear();
         assert!(miller_integrals(&sw, 0.0, 10.0, 2.0).is_none());
+    }
+
+    /// The logarithmic cases of the closed form: C = k/v gives Q = k·ln(b/a),
+    /// W = k·(b − a); C = k/v² gives Q = k·(1/a − 1/b), W = k·ln(b/a).
+    #[test]
+    fn miller_integrals_logarithmic_cases() {
+        let k = 2e-9;
+        let mut sw = example_switch();
+        for (power, q0, w0) in [
+            (1, k * (40.0_f64 / 4.0).ln(), k * (40.0 - 4.0)),
+            (2, k * (1.0 / 4.0 - 1.0 / 40.0), k * (40.0_f64 / 4.0).ln()),
+        ] {
+            sw.c_rss_curve = [1.0, 10.0, 100.0]
+                .iter()
+                .map(|&v: &f64| (v, k / v.powi(power)))
+                .collect();
+            let (q, w) = miller_integrals(&sw, 4.0, 40.0, 0.0).unwrap();
+            assert!(rel(q, q0) < 1e-9 && rel(w, w0) < 1e-9, "{power}: {q} {w}");
+        }
     }
 
     /// For a constant C_gd the Miller energy I·W/I_g equals the linear ramp

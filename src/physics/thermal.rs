@@ -297,7 +297,7 @@ pub struct DeviceTemperature {
 /// so each is a one-dimensional fixed point on its own loss P_i(T_i), solved
 /// by [`junction_temperature`]. The stage is evaluated once, at ambient; a
 /// device's loss at another temperature follows from it exactly
-/// ([`DeviceLoss::total_at_w`](super::losses::DeviceLoss::total_at_w): only
+/// ([`DeviceLoss::vs_temperature`](super::losses::DeviceLoss::vs_temperature): only
 /// the conduction line depends on T_j), so the iteration does not
 /// re-evaluate the switching edges. The freewheel diode uses the switch's
 /// T_j,max (the diode model has none).
@@ -315,14 +315,17 @@ pub fn stage_junction_temperatures(
     Ok(at_ambient
         .devices
         .iter()
-        .map(|d| DeviceTemperature {
-            role: d.role,
-            result: junction_temperature(
-                t_a,
-                thermal_for(d.role).r_th_ja_k_per_w,
-                sw.t_j_max_c,
-                |t| d.total_at_w(sw, t_a, t),
-            ),
+        .map(|d| {
+            let p = d.vs_temperature(sw, t_a);
+            DeviceTemperature {
+                role: d.role,
+                result: junction_temperature(
+                    t_a,
+                    thermal_for(d.role).r_th_ja_k_per_w,
+                    sw.t_j_max_c,
+                    |t| p.at_w(sw, t),
+                ),
+            }
         })
         .collect())
 }
