@@ -611,7 +611,7 @@ pub struct AcousticFigures {
     pub a_weighted_db: Option<f64>,
     pub lines_in_avoided_bands_hz: Vec<f64>,
     pub pass: bool,
-    pub reason: String,
+    pub reason: crate::physics::acoustics::AcousticReason,
 }
 
 impl From<AcousticVerdict> for AcousticFigures {

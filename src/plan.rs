@@ -701,7 +701,7 @@ pub fn build_on(
         acoustic: Acoustic {
             lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
             a_weighted_db: c.rated.acoustic.a_weighted_db,
-            verdict: c.rated.acoustic.reason.clone(),
+            verdict: c.rated.acoustic.reason.to_string(),
         },
         constraints: c
             .checks

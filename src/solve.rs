@@ -402,9 +402,9 @@ impl Evaluator {
             pass: audible_pass,
             binding: false,
             detail: if rated.acoustic.pass && !high_bus.acoustic.pass {
-                high_bus.acoustic.reason.clone()
+                high_bus.acoustic.reason.to_string()
             } else {
-                rated.acoustic.reason.clone()
+                rated.acoustic.reason.to_string()
             },
         };
         match &self.audible {
@@ -940,7 +940,9 @@ fn search_list(
     // The grid found nothing feasible: feasibility may come in islands the
     // grid stepped over, so look at every setting (when that is affordable)
     // before calling the design infeasible.
-    if !evaluated.iter().flatten().map(|c| &**c).any(|c| c.feasible) && n <= search.infeasible_exhaustive_limit {
+    if !evaluated.iter().flatten().map(|c| &**c).any(|c| c.feasible)
+        && n <= search.infeasible_exhaustive_limit
+    {
         let all: Vec<usize> = (0..n).collect();
         count += eval_all(&all, &mut evaluated);
     }
@@ -948,7 +950,10 @@ fn search_list(
         // Above the least-loss point the loss rises with frequency, so the
         // settings within the allowance end at one edge: find it by
         // bisection between the last grid point inside and the next.
-        let floor = loss_floor(Objective::Quietest, evaluated.iter().flatten().map(|c| &**c));
+        let floor = loss_floor(
+            Objective::Quietest,
+            evaluated.iter().flatten().map(|c| &**c),
+        );
         if let Some(floor) = floor {
             let inside = |c: Option<&Candidate>| {
                 c.is_some_and(|c| {
@@ -1158,7 +1163,10 @@ fn finish(
             realisable,
         };
     };
-    let mut chosen = evaluated[b].as_deref().cloned().expect("best index is evaluated");
+    let mut chosen = evaluated[b]
+        .as_deref()
+        .cloned()
+        .expect("best index is evaluated");
     let feasible = chosen.feasible;
     if feasible {
         let ctx = BindCtx { judge, obj, floor };

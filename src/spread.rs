@@ -1351,7 +1351,7 @@ pub fn worst_case(
             audible = WorstAudible {
                 pass: false,
                 corner: Some(name.clone()),
-                reason: r.acoustic.reason.clone(),
+                reason: r.acoustic.reason.to_string(),
             };
         }
     }

@@ -311,7 +311,54 @@ pub struct AcousticVerdict {
     /// True when `max_lines` stopped the spectrum before the highest frequency of interest.
     pub truncated: bool,
     pub pass: bool,
-    pub reason: String,
+    pub reason: AcousticReason,
+}
+
+/// Why the verdict is what it is; worded on display only, so an
+/// assessment inside a search or a Monte Carlo loop formats nothing.
+#[derive(Debug, Clone, PartialEq)]
+pub enum AcousticReason {
+    Allowed,
+    NoLineAtOrBelow { limit_hz: f64 },
+    LineAtOrBelow { line_hz: f64, limit_hz: f64 },
+    NoLineInAvoidedBands,
+    LineInAvoidedBand { line_hz: f64 },
+    Truncated { max_lines: usize, top_hz: f64 },
+}
+
+impl fmt::Display for AcousticReason {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            AcousticReason::Allowed => write!(f, "audible noise allowed"),
+            AcousticReason::NoLineAtOrBelow { limit_hz } => {
+                write!(f, "no significant line at or below {}", hz(limit_hz))
+            }
+            AcousticReason::LineAtOrBelow { line_hz, limit_hz } => write!(
+                f,
+                "significant line at {} is at or below the hearing limit {}",
+                hz(line_hz),
+                hz(limit_hz)
+            ),
+            AcousticReason::NoLineInAvoidedBands => {
+                write!(f, "no significant line in the avoided bands")
+            }
+            AcousticReason::LineInAvoidedBand { line_hz } => write!(
+                f,
+                "significant line at {} lies in an avoided band",
+                hz(line_hz)
+            ),
+            AcousticReason::Truncated { max_lines, top_hz } => write!(
+                f,
+                "spectrum truncated at {max_lines} lines before {top_hz:.0} Hz; raise max_lines"
+            ),
+        }
+    }
+}
+
+impl serde::Serialize for AcousticReason {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
 }
 
 /// Why an assessment was refused.
@@ -400,10 +447,10 @@ pub fn assess(
         if let AudibleMode::AvoidBands { .. } = mode {
             // Unseen lines may fall in a band: refuse to pass rather than guess.
             v.pass = false;
-            v.reason = format!(
-                "spectrum truncated at {} lines before {top_hz:.0} Hz; raise max_lines",
-                sig.max_lines
-            );
+            v.reason = AcousticReason::Truncated {
+                max_lines: sig.max_lines,
+                top_hz,
+            };
         }
     }
     Ok(v)
@@ -440,25 +487,20 @@ pub fn assess_lines(
         .filter(|f| bands.iter().any(|&(lo, hi)| (lo..=hi).contains(f)))
         .collect();
     let (pass, reason) = match (mode, lowest) {
-        (AudibleMode::Allowed, _) => (true, "audible noise allowed".to_string()),
-        (AudibleMode::Inaudible { .. }, None) => (
-            true,
-            format!("no significant line at or below {}", hz(limit_hz)),
-        ),
+        (AudibleMode::Allowed, _) => (true, AcousticReason::Allowed),
+        (AudibleMode::Inaudible { .. }, None) => {
+            (true, AcousticReason::NoLineAtOrBelow { limit_hz })
+        }
         (AudibleMode::Inaudible { .. }, Some(f)) => (
             false,
-            format!(
-                "significant line at {} is at or below the hearing limit {}",
-                hz(f),
-                hz(limit_hz)
-            ),
+            AcousticReason::LineAtOrBelow {
+                line_hz: f,
+                limit_hz,
+            },
         ),
         (AudibleMode::AvoidBands { .. }, _) => match lines_in_avoided_bands.first() {
-            None => (true, "no significant line in the avoided bands".to_string()),
-            Some(f) => (
-                false,
-                format!("significant line at {} lies in an avoided band", hz(*f)),
-            ),
+            None => (true, AcousticReason::NoLineInAvoidedBands),
+            Some(&f) => (false, AcousticReason::LineInAvoidedBand { line_hz: f }),
         },
     };
     Ok(AcousticVerdict {
