@@ -346,7 +346,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 return Ok(0);
             }
             let changes = previous_plan(&dir).map(|old| report::what_changed(&old, &solved.plan));
-            write_outputs(&dir, &files, force)?;
+            let (written, unchanged) = write_outputs(&dir, &files, force)?;
             let mut note = String::new();
             if let Some(lines) = changes {
                 for l in lines {
@@ -354,14 +354,19 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                     note.push('\n');
                 }
             }
-            note.push_str(&format!(
-                "wrote {}\n",
-                files
+            let names = |paths: &[PathBuf]| {
+                paths
                     .iter()
-                    .map(|f| dir.join(&f.name).display().to_string())
+                    .map(|p| p.display().to_string())
                     .collect::<Vec<_>>()
                     .join(", ")
-            ));
+            };
+            if !written.is_empty() {
+                note.push_str(&format!("wrote {}\n", names(&written)));
+            }
+            if !unchanged.is_empty() {
+                note.push_str(&format!("unchanged {}\n", names(&unchanged)));
+            }
             // With --json the report on stdout stays pure JSON.
             if json {
                 write_text(err, &note)?;
@@ -592,37 +597,51 @@ fn previous_plan(dir: &Path) -> Option<Plan> {
 }
 
 /// Refuse to overwrite a file a person edited (or one pwmplan did not
-/// write) unless forced; then write every file through a temporary file
-/// and rename them only when all temporaries are written.
-fn write_outputs(dir: &Path, files: &[GeneratedFile], force: bool) -> Result<(), Failure> {
-    if !force {
-        for f in files {
-            let path = dir.join(&f.name);
-            if let Ok(existing) = std::fs::read_to_string(&path) {
-                match emit::is_untouched(&existing) {
-                    Some(true) => {}
-                    Some(false) => {
-                        return Err(Failure::Usage(format!(
-                            "{} was edited after pwmplan wrote it; nothing was written. Keep your edits elsewhere, or pass --force to overwrite",
-                            path.display()
-                        )));
-                    }
-                    None => {
-                        return Err(Failure::Usage(format!(
-                            "{} exists and was not written by pwmplan; nothing was written. Move it, or pass --force to overwrite",
-                            path.display()
-                        )));
-                    }
+/// write) unless forced; then write every changed file through a temporary
+/// file and rename them only when all temporaries are written. A file whose
+/// content is already what would be written is left alone (its time stamp
+/// too, so a build does not recompile an unchanged header). Returns the
+/// names written and the names left unchanged.
+fn write_outputs(
+    dir: &Path,
+    files: &[GeneratedFile],
+    force: bool,
+) -> Result<(Vec<PathBuf>, Vec<PathBuf>), Failure> {
+    let mut changed = Vec::new();
+    let mut unchanged = Vec::new();
+    for f in files {
+        let path = dir.join(&f.name);
+        match std::fs::read_to_string(&path) {
+            Ok(existing) if existing == f.text => unchanged.push(path),
+            Ok(existing) if !force => match emit::is_untouched(&existing) {
+                Some(true) => changed.push((path, f)),
+                Some(false) => {
+                    return Err(Failure::Usage(format!(
+                        "{} was edited after pwmplan wrote it; nothing was written. Keep your edits elsewhere, or pass --force to overwrite",
+                        path.display()
+                    )));
                 }
+                None => {
+                    return Err(Failure::Usage(format!(
+                        "{} exists and was not written by pwmplan; nothing was written. Move it, or pass --force to overwrite",
+                        path.display()
+                    )));
+                }
+            },
+            Err(e) if !force && e.kind() != std::io::ErrorKind::NotFound => {
+                return Err(Failure::Usage(format!(
+                    "{} exists but cannot be read as pwmplan output ({e}); nothing was written. Move it, or pass --force to overwrite",
+                    path.display()
+                )));
             }
+            _ => changed.push((path, f)),
         }
     }
     std::fs::create_dir_all(dir)
         .map_err(|e| Failure::Usage(format!("cannot create {}: {e}", dir.display())))?;
     let mut temps = Vec::new();
-    for f in files {
-        let path = dir.join(&f.name);
-        let tmp = temp_path(&path);
+    for (path, f) in &changed {
+        let tmp = temp_path(path);
         if let Err(e) = std::fs::write(&tmp, f.text.as_bytes()) {
             for (t, _) in &temps {
                 let _ = std::fs::remove_file(t);
@@ -633,13 +652,13 @@ fn write_outputs(dir: &Path, files: &[GeneratedFile], force: bool) -> Result<(),
                 path.display()
             )));
         }
-        temps.push((tmp, path));
+        temps.push((tmp, path.clone()));
     }
     for (tmp, path) in &temps {
         std::fs::rename(tmp, path)
             .map_err(|e| Failure::Usage(format!("cannot write {}: {e}", path.display())))?;
     }
-    Ok(())
+    Ok((temps.into_iter().map(|(_, p)| p).collect(), unchanged))
 }
 
 fn temp_path(path: &Path) -> PathBuf {

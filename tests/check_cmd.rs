@@ -276,6 +276,69 @@ fn plan_refuses_to_overwrite_a_foreign_file() {
     assert_eq!(names, ["rationale.md"], "nothing else written");
 }
 
+/// A second `plan` with the same inputs leaves every file alone (time
+/// stamps included, so a build does not recompile the header) and says so;
+/// after an input change only the files whose content moved are written.
+#[test]
+fn replanning_leaves_unchanged_files_alone() {
+    let dir = planned();
+    let mtimes = |d: &Path| -> BTreeMap<String, std::time::SystemTime> {
+        OUTPUTS
+            .iter()
+            .map(|n| {
+                let m = fs::metadata(d.join("out").join(n)).expect("output exists");
+                (n.to_string(), m.modified().expect("modification time"))
+            })
+            .collect()
+    };
+    let before = mtimes(dir.path());
+    std::thread::sleep(std::time::Duration::from_millis(20));
+    let o = run(dir.path(), &["plan", DESIGN, "--out", "out"]);
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+    let text = stdout(&o);
+    assert!(text.contains("unchanged out/"), "{text}");
+    assert!(!text.contains("wrote "), "{text}");
+    assert_eq!(mtimes(dir.path()), before, "no file rewritten");
+
+    // An input change rewrites what moved.
+    edit(
+        dir.path(),
+        DESIGN,
+        "inductance: \"0.85 mH\"",
+        "inductance: \"0.40 mH\"",
+    );
+    let o = run(dir.path(), &["plan", DESIGN, "--out", "out"]);
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+    let text = stdout(&o);
+    assert!(
+        text.contains("wrote ") && text.contains("out/plan.json"),
+        "{text}"
+    );
+    let after = mtimes(dir.path());
+    assert_ne!(after["plan.json"], before["plan.json"]);
+    let o = check(dir.path());
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+}
+
+/// An output path holding something that is not text (so not pwmplan's)
+/// is refused like a foreign file.
+#[test]
+fn plan_refuses_to_overwrite_a_binary_file() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    copy_inputs(common::case(CASE), dir.path());
+    fs::create_dir_all(dir.path().join("out")).expect("mkdir");
+    fs::write(dir.path().join("out/plan.json"), [0xff_u8, 0xfe, 0x00]).expect("write");
+    let o = run(dir.path(), &["plan", DESIGN, "--out", "out"]);
+    assert_eq!(o.status.code(), Some(2), "{}", describe(&o));
+    assert!(
+        stderr(&o).contains("out/plan.json") && stderr(&o).contains("--force"),
+        "{}",
+        describe(&o)
+    );
+    let names: Vec<String> = out_files(dir.path()).into_keys().collect();
+    assert_eq!(names, ["plan.json"], "nothing else written");
+}
+
 /// A copy of the bundled templates in `dir/tpl`.
 fn template_copy(dir: &Path) -> std::path::PathBuf {
     let tpl = dir.join("tpl");
