@@ -714,7 +714,7 @@ pub fn build_on(
                 unit: k.unit.into(),
                 pass: k.pass,
                 binding: k.binding,
-                detail: k.detail.clone(),
+                detail: k.detail.to_string(),
             })
             .collect(),
         findings: findings(d, ev, c),

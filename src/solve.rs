@@ -83,7 +83,88 @@ pub struct ConstraintCheck {
     /// Moving the setting towards a better objective would break this one.
     pub binding: bool,
     /// One line on what the value is.
-    pub detail: String,
+    pub detail: Detail,
+}
+
+/// One line on what a constraint's value is, worded only when shown: the
+/// search builds thousands of checks and shows a few.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Detail {
+    Text(std::borrow::Cow<'static, str>),
+    /// Hottest junction at a case's supply and ambient.
+    Junction {
+        v_bus_v: f64,
+        t_ambient_c: f64,
+    },
+    /// Ripple at the named supply.
+    Ripple {
+        v_bus_v: f64,
+    },
+    Audible(crate::physics::acoustics::AcousticReason),
+    DutySteps(u64),
+    DutyRange {
+        needed: (f64, f64),
+        allowed: (f64, f64),
+    },
+    FrequencyBand {
+        min_hz: f64,
+        max_hz: f64,
+    },
+    /// Another detail, found at a corner of the spreads.
+    AtCorner(Box<Detail>, String),
+}
+
+impl From<&'static str> for Detail {
+    fn from(s: &'static str) -> Detail {
+        Detail::Text(s.into())
+    }
+}
+
+impl From<String> for Detail {
+    fn from(s: String) -> Detail {
+        Detail::Text(s.into())
+    }
+}
+
+impl std::fmt::Display for Detail {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Detail::Text(t) => f.write_str(t),
+            Detail::Junction {
+                v_bus_v,
+                t_ambient_c,
+            } => write!(
+                f,
+                "hottest junction at {} and {:.0} °C ambient",
+                fmt_v(*v_bus_v),
+                t_ambient_c
+            ),
+            Detail::Ripple { v_bus_v } => {
+                write!(
+                    f,
+                    "motor current ripple peak to peak at {}",
+                    fmt_v(*v_bus_v)
+                )
+            }
+            Detail::Audible(r) => write!(f, "{r}"),
+            Detail::DutySteps(n) => write!(f, "{n} duty steps"),
+            Detail::DutyRange { needed, allowed } => write!(
+                f,
+                "channel duty {:.3}–{:.3} needed, {:.3}–{:.3} allowed",
+                needed.0, needed.1, allowed.0, allowed.1
+            ),
+            Detail::FrequencyBand { min_hz, max_hz } => {
+                write!(f, "allowed {} to {}", fmt_f(*min_hz), fmt_f(*max_hz))
+            }
+            Detail::AtCorner(d, label) => write!(f, "{d} (corner {label})"),
+        }
+    }
+}
+
+impl Serialize for Detail {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
 }
 
 impl DeadTimeChoice {
@@ -349,12 +430,11 @@ impl Evaluator {
         // Junction temperature at the rated and the high-bus case.
         for (name, r) in [("junction-rated", &rated), ("junction-high-bus", &high_bus)] {
             let detail = match (&r.runaway, r.junction_c) {
-                (Some(why), _) => why.clone(),
-                (None, Some(_)) => format!(
-                    "hottest junction at {} and {:.0} °C ambient",
-                    fmt_v(r.case.v_bus_v),
-                    r.case.t_ambient_c
-                ),
+                (Some(why), _) => why.clone().into(),
+                (None, Some(_)) => Detail::Junction {
+                    v_bus_v: r.case.v_bus_v,
+                    t_ambient_c: r.case.t_ambient_c,
+                },
                 (None, None) => "no junction temperature".into(),
             };
             checks.push(upper(name, l.t_j_max_c, r.junction_c, "°C", detail));
@@ -369,10 +449,9 @@ impl Evaluator {
                 max,
                 Some(worst),
                 "A",
-                format!(
-                    "motor current ripple peak to peak at {}",
-                    fmt_v(self.high_bus.v_bus_v)
-                ),
+                Detail::Ripple {
+                    v_bus_v: self.high_bus.v_bus_v,
+                },
             ));
         }
         let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass;
@@ -402,9 +481,9 @@ impl Evaluator {
             pass: audible_pass,
             binding: false,
             detail: if rated.acoustic.pass && !high_bus.acoustic.pass {
-                high_bus.acoustic.reason.to_string()
+                Detail::Audible(high_bus.acoustic.reason.clone())
             } else {
-                rated.acoustic.reason.to_string()
+                Detail::Audible(rated.acoustic.reason.clone())
             },
         };
         match &self.audible {
@@ -424,7 +503,7 @@ impl Evaluator {
                 bits,
                 Some(s.resolution_bits),
                 "bits",
-                format!("{} duty steps", s.duty_steps),
+                Detail::DutySteps(s.duty_steps),
             ));
         }
         let dt_ok = dead.code.is_some();
@@ -461,10 +540,10 @@ impl Evaluator {
                 (
                     m >= -EPS,
                     Some(m),
-                    format!(
-                        "channel duty {:.3}–{:.3} needed, {:.3}–{:.3} allowed",
-                        duty_needed.0, duty_needed.1, lim.min_duty, lim.max_duty
-                    ),
+                    Detail::DutyRange {
+                        needed: duty_needed,
+                        allowed: (lim.min_duty, lim.max_duty),
+                    },
                 )
             }
             None => (
@@ -502,7 +581,10 @@ impl Evaluator {
             unit: "Hz",
             pass: in_band,
             binding: false,
-            detail: format!("allowed {} to {}", fmt_f(l.f_min_hz), fmt_f(l.f_max_hz)),
+            detail: Detail::FrequencyBand {
+                min_hz: l.f_min_hz,
+                max_hz: l.f_max_hz,
+            },
         });
         let feasible = checks.iter().all(|c| c.pass);
         Some(Candidate {
@@ -563,7 +645,8 @@ impl Evaluator {
                     "settling, dead time and sampling need {} of low-side time, not less than the period {}",
                     fmt_t(*min_low_side_on_s),
                     fmt_t(*period_s)
-                ),
+                )
+                .into(),
             },
             Err(e) => ConstraintCheck {
                 name: "sampling-window",
@@ -573,7 +656,7 @@ impl Evaluator {
                 unit: "",
                 pass: false,
                 binding: false,
-                detail: format!("no sampling window: {e:?}"),
+                detail: format!("no sampling window: {e:?}").into(),
             },
             Ok(win) if low_side_chop => {
                 let need = 1.0 - win.max_high_side_duty;
@@ -586,7 +669,8 @@ impl Evaluator {
                         "the chopping low side must stay on {} around the counter bottom (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
                         fmt_t(win.min_low_side_on_s),
                         100.0 * need
-                    ),
+                    )
+                    .into(),
                 )
             }
             Ok(win) => upper(
@@ -598,7 +682,8 @@ impl Evaluator {
                     "the sampled leg's low side must stay on {} around the counter bottom (settle, dead time, sample), so its high-side duty at most {:.1} %",
                     fmt_t(win.min_low_side_on_s),
                     100.0 * win.max_high_side_duty
-                ),
+                )
+                .into(),
             ),
         }
     }
@@ -618,7 +703,7 @@ fn upper(
     limit: f64,
     value: Option<f64>,
     unit: &'static str,
-    detail: String,
+    detail: Detail,
 ) -> ConstraintCheck {
     bound(name, limit, value, value.map(|v| limit - v), unit, detail)
 }
@@ -629,7 +714,7 @@ fn lower(
     limit: f64,
     value: Option<f64>,
     unit: &'static str,
-    detail: String,
+    detail: Detail,
 ) -> ConstraintCheck {
     bound(name, limit, value, value.map(|v| v - limit), unit, detail)
 }
@@ -642,7 +727,7 @@ fn bound(
     value: Option<f64>,
     margin: Option<f64>,
     unit: &'static str,
-    detail: String,
+    detail: Detail,
 ) -> ConstraintCheck {
     ConstraintCheck {
         name,
@@ -792,7 +877,7 @@ impl<'a> Judge<'a> {
                 };
                 if worse {
                     *k = o.clone();
-                    k.detail = format!("{} (corner {label})", o.detail);
+                    k.detail = Detail::AtCorner(Box::new(o.detail.clone()), label.clone());
                 }
             }
             if c.rated.losses.total > worst.rated.losses.total {
