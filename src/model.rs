@@ -473,6 +473,16 @@ impl Evaluator {
             let r_path = 2.0 * thermal::r_ds_on_ohm(&self.stage.switch, case.t_ambient_c);
             return self.three_phase_modulation(tp, case, f_hz, 0.0, r_path);
         }
+        self.modulation_and_waveform(case, f_hz).map(|(m, _)| m)
+    }
+
+    /// [`Self::modulation_for_load`] of a single-phase stage with the
+    /// waveform at that modulation (computed once for both).
+    fn modulation_and_waveform(
+        &self,
+        case: &OperatingCase,
+        f_hz: f64,
+    ) -> Option<(f64, RippleWaveform)> {
         let target = case.load_current_a;
         // Continuous conduction has a closed form from the mean terminal
         // voltage (volt-second balance, common practice): bridges
@@ -487,7 +497,7 @@ impl Evaluator {
             && w.continuous()
             && (w.i_avg_a() - target).abs() <= 1e-9 * target.abs().max(1e-3)
         {
-            return Some(guess);
+            return Some((guess, w));
         }
         // Discontinuous conduction: bisection on the exact waveform.
         let mean = |m: f64| self.waveform(case, m, f_hz).map(|w| w.i_avg_a());
@@ -506,7 +516,8 @@ impl Evaluator {
                 break;
             }
         }
-        Some(0.5 * (lo + hi))
+        let m = 0.5 * (lo + hi);
+        Some((m, self.waveform(case, m, f_hz)?))
     }
 }
 
@@ -657,8 +668,7 @@ impl Evaluator {
         if let Some(tp) = &self.three_phase {
             return self.case_three_phase(tp, case, f_hz, t_dead_s);
         }
-        let m = self.modulation_for_load(case, f_hz)?;
-        let w = self.waveform(case, m, f_hz)?;
+        let (m, w) = self.modulation_and_waveform(case, f_hz)?;
         let load = load_current(&w);
         let st = &self.stage;
         let op = OperatingPoint {
