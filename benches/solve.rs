@@ -3,7 +3,9 @@
 //! (b) the demo on a 170 MHz, 16-bit timer with a 16-bit linear prescaler
 //!     (1..=65536), edge and centre aligned;
 //! (c) the whole `pwmplan plan --json` process on the demo, spawned 20 times
-//!     (writes its files into a temporary folder).
+//!     into one temporary folder (after the first run the files are current
+//!     and left alone);
+//! (d) the same, each run into a new empty folder (all seven files written).
 //! Run with `cargo bench --bench solve`.
 
 use std::path::Path;
@@ -70,8 +72,11 @@ fn fast_timer(t: &TimerModel) -> TimerModel {
     }
 }
 
-/// Median wall time of `pwmplan plan --json` (the demo), or why not.
-fn plan_process(exe: &Path) -> Result<Duration, String> {
+/// Median wall time of `pwmplan plan --json` (the demo), or why not:
+/// `fresh` writes into a new empty folder each run (all seven files
+/// written), otherwise into the same folder (files already current, left
+/// alone).
+fn plan_process(exe: &Path, fresh: bool) -> Result<Duration, String> {
     if !exe.exists() {
         return Err(format!(
             "{} is missing; build it with `cargo build --release`",
@@ -79,9 +84,16 @@ fn plan_process(exe: &Path) -> Result<Duration, String> {
         ));
     }
     let dir = tempfile::tempdir().map_err(|e| format!("no temporary folder: {e}"))?;
-    let run = || {
+    let mut n = 0;
+    let mut run = || {
+        n += 1;
+        let out = if fresh {
+            format!("out-{n}")
+        } else {
+            "out".into()
+        };
         Command::new(exe)
-            .args(["plan", "--json"])
+            .args(["plan", "--json", "--out", &out])
             .current_dir(dir.path())
             .stdout(Stdio::null())
             .stderr(Stdio::null())
@@ -125,11 +137,14 @@ fn main() {
     // Built by cargo for benchmarks with the bench (release) profile:
     // target/release/pwmplan.
     let exe = Path::new(env!("CARGO_BIN_EXE_pwmplan"));
-    match plan_process(exe) {
-        Ok(d) => {
-            row("(c) pwmplan plan --json, whole process", d, None);
-            println!("    ({})", exe.display());
+    for (label, fresh) in [
+        ("(c) pwmplan plan --json, whole process", false),
+        ("(d) the same into an empty folder each run", true),
+    ] {
+        match plan_process(exe, fresh) {
+            Ok(d) => row(label, d, None),
+            Err(why) => println!("{label}: not timed: {why}"),
         }
-        Err(why) => println!("(c) pwmplan plan --json: not timed: {why}"),
     }
+    println!("    ({})", exe.display());
 }
