@@ -365,7 +365,10 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 note.push_str(&format!("wrote {}\n", names(&written)));
             }
             if !unchanged.is_empty() {
-                note.push_str(&format!("unchanged {}\n", names(&unchanged)));
+                note.push_str(&format!(
+                    "already current, left alone: {}\n",
+                    names(&unchanged)
+                ));
             }
             // With --json the report on stdout stays pure JSON.
             if json {

@@ -296,7 +296,7 @@ fn replanning_leaves_unchanged_files_alone() {
     let o = run(dir.path(), &["plan", DESIGN, "--out", "out"]);
     assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
     let text = stdout(&o);
-    assert!(text.contains("unchanged out/"), "{text}");
+    assert!(text.contains("already current, left alone: out/"), "{text}");
     assert!(!text.contains("wrote "), "{text}");
     assert_eq!(mtimes(dir.path()), before, "no file rewritten");
 
