@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:7a7f5ad6c466d9bb87f70b59a0a3ae2fd45b95f19013511fe7fb8c17d4087982)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6053ed9f772db4c66fcb304f9090c16120db6282e5016644cbef6376f5a02366)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -50,8 +50,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, +0.0 K junction, -8 mA ripple, -0.0 bits resolution
- *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.6 bits resolution
+ *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, ±0 K junction, -8 mA ripple, -0.03 bits resolution
+ *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
  *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.

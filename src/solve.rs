@@ -1415,6 +1415,28 @@ fn alternatives(
             candidate: (*bottom).clone(),
         });
     }
+    // Still one short (the band's edges are taken or chosen): the setting
+    // nearest the band's geometric middle, furthest from both edges.
+    if out.len() < 2
+        && let (Some(lo), Some(hi)) = (cands.first(), cands.last())
+    {
+        let mid = (lo.setting.frequency_hz * hi.setting.frequency_hz).sqrt();
+        if let Some(m) = cands
+            .iter()
+            .filter(|c| c.setting.frequency_hz != f0 && !taken(&out, c))
+            .min_by(|a, b| {
+                (a.setting.frequency_hz.ln() - mid.ln())
+                    .abs()
+                    .total_cmp(&(b.setting.frequency_hz.ln() - mid.ln()).abs())
+            })
+        {
+            out.push(Alternative {
+                label: "mid-band",
+                trade: trade(chosen, m),
+                candidate: (*m).clone(),
+            });
+        }
+    }
     out.truncate(2);
     out
 }
@@ -1422,17 +1444,28 @@ fn alternatives(
 fn trade(base: &Candidate, alt: &Candidate) -> String {
     let dl = alt.rated.losses.total - base.rated.losses.total;
     let dt = match (alt.rated.junction_c, base.rated.junction_c) {
-        (Some(a), Some(b)) => format!("{:+.1} K junction", a - b),
+        (Some(a), Some(b)) => format!("{} K junction", signed(a - b, 1)),
         _ => "junction n/a".into(),
     };
     let dr = alt.high_bus.ripple.peak_to_peak_a - base.high_bus.ripple.peak_to_peak_a;
     let db = alt.setting.resolution_bits - base.setting.resolution_bits;
     format!(
-        "{:+.0} mW total loss, {dt}, {:+.0} mA ripple, {:+.1} bits resolution",
-        dl * 1e3,
-        dr * 1e3,
-        db
+        "{} mW total loss, {dt}, {} mA ripple, {} bits resolution",
+        signed(dl * 1e3, 0),
+        signed(dr * 1e3, 0),
+        signed(db, 2)
     )
+}
+
+/// A difference with its sign and `decimals` places; one that rounds to
+/// zero is written "±0" (never "-0.0").
+fn signed(d: f64, decimals: usize) -> String {
+    let text = format!("{:+.*}", decimals, d);
+    if text[1..].chars().all(|c| c == '0' || c == '.') {
+        "±0".into()
+    } else {
+        text
+    }
 }
 
 /// Why no setting is feasible, and the nearest compromise.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:230144dded68085857a04809c505afae368229e4f664abb141f2cbe5116d8eb4)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:186687aed239b8c1db6058add7995908c1c54b1acc035f30bd685b4c31e037f1)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -50,8 +50,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, +0.0 K junction, -8 mA ripple, -0.0 bits resolution
- *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.6 bits resolution
+ *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, ±0 K junction, -8 mA ripple, -0.03 bits resolution
+ *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
  *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:30258d7d2290ce39e2065ee365d64bf3b68c75a49c6b23a033dfd7aefa9956dd)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:75f8cfa362fec4c4417b3af712694c78647a96bc673099b565ea9db7fc763ca4)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -50,8 +50,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.3 bits resolution
- *   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.6 bits resolution
+ *   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.32 bits resolution
+ *   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
  *
  * Findings
  *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.

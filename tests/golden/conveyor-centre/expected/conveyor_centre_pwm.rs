@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:edfe6a1fde7e79828e93133a531ccbbe13b4d288e525dcb19a6be1e6c313ddf1)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:44f32b67b94fa7efb47fe891e254de51624a61cb763faee3ec2615f80a1503d6)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -49,8 +49,8 @@
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.3 bits resolution
-//!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.6 bits resolution
+//!   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.32 bits resolution
+//!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:98e83770d575f564a9a80b03cf1b556db83278f57a78ced2d57959950fc91485)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:a289ba38166dffe591d9d23a9df1874cf14c6b7352249b63a627cb96dc18dfc8)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -52,7 +52,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.0 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
+ *   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
  *
  * Findings
  *   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:95d349bd07bf56062fe86d87025d7c8352bc3ee40b15601752582f41eb16c3ca)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:69aba2964c0e3b34f18f159e80b75eef33e71caca3d5ce5ce23b895a98fff52e)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -51,7 +51,8 @@
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.0 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
+//!   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
 //!
 //! Findings
 //!   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.

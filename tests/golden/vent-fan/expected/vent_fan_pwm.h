@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:3e9f91b28f7a1eb853f094b9f075a0d9eabdfe80f02338a3fc1b2c7d1f5281f0)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:f3b4c38793e8a4eda65be4a03683011fdce45e0cbc9fb2d6ed78b525562d9890)
  *
  * Chosen setting
  *   design         vent-fan
@@ -48,8 +48,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, +0.0 K junction, -169 mA ripple, -0.9 bits resolution
- *   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, -0.0 K junction, +235 mA ripple, +0.7 bits resolution
+ *   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
+ *   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
  *
  * Findings
  *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period

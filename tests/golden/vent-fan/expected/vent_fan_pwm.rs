@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9ab70533968a794b4aa9ca2a430b036ac132efffa77c89abb485d9504241ef9f)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:cc449b8b474790d2cf27735ad3e2a932090543c34066c04520112d50237bce87)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -47,8 +47,8 @@
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, +0.0 K junction, -169 mA ripple, -0.9 bits resolution
-//!   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, -0.0 K junction, +235 mA ripple, +0.7 bits resolution
+//!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
+//!   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:0f4c8e3a8a27109e15009483e4963af8683931cb6a269ae5d7e823580df69590)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:e5990fdc958be9a4b09a82d20afcb2d062b6871d40904831e1283bf34d65f144)
  *
  * Chosen setting
  *   design         winch
@@ -50,7 +50,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -2.0 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
+ *   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
  *
  * Findings
  *   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.

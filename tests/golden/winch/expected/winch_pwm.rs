@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:33292b2e96924efe7d66718f5ea99f9ec754a5f4097f8a7a74b7bacb034b2620)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c73836613919d5ac588f64762ba3a16178c542b8257d7429aab2a4ac221c6132)
 //!
 //! Chosen setting
 //!   design         winch
@@ -49,7 +49,8 @@
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -2.0 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
+//!   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
 //!
 //! Findings
 //!   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
