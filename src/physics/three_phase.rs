@@ -600,7 +600,11 @@ pub fn sinusoidal_losses_numerical(
     let (mut hs, mut ls) = (LossLines::default(), LossLines::default());
     // Sample k + n/2 is half a fundamental period on: the same |i| (the
     // edges depend on |i| only), so each pair shares one edge evaluation.
-    let half = if n_samples.is_multiple_of(2) { n_samples / 2 } else { 0 };
+    let half = if n_samples.is_multiple_of(2) {
+        n_samples / 2
+    } else {
+        0
+    };
     let mut edges: Vec<Option<(f64, f64)>> = vec![None; half];
     let mut first_half = vec![(0.0, 0.0); half];
     for k in 0..n_samples {
