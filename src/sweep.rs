@@ -98,13 +98,11 @@ pub fn sweep(ev: &Evaluator, frequencies_hz: &[f64], chosen_hz: Option<f64>) -> 
         .map(|&f| solve::evaluate_at(ev, f).map(|c| row(f, &c, chosen_hz)))
         .collect();
     for r in evaluated.into_iter().flatten() {
+        if rows
+            .last()
+            .is_none_or(|p| p.frequency_hz != r.frequency_hz || p.alignment != r.alignment)
         {
-            if rows
-                .last()
-                .is_none_or(|p| p.frequency_hz != r.frequency_hz || p.alignment != r.alignment)
-            {
-                rows.push(r);
-            }
+            rows.push(r);
         }
     }
     rows

@@ -607,10 +607,11 @@ mod tests {
             t_ambient_c: 40.0,
         };
         let load = triangular_load(8.0, 2.0);
+        let (sw, drive) = (example_switch(), example_drive());
         let res = stage_junction_temperatures(
             Topology::HalfBridge,
-            &example_switch(),
-            &example_drive(),
+            &sw,
+            &drive,
             None,
             &op,
             &load,
@@ -629,16 +630,8 @@ mod tests {
         };
         // The powers the loop used are those of a full evaluation at the
         // temperatures it found.
-        let full = stage_losses(
-            Topology::HalfBridge,
-            &example_switch(),
-            &example_drive(),
-            None,
-            &op,
-            &load,
-            &t_of,
-        )
-        .unwrap();
+        let full =
+            stage_losses(Topology::HalfBridge, &sw, &drive, None, &op, &load, &t_of).unwrap();
         for d in &res {
             let JunctionTemperature::Settled { t_j_c, p_w, .. } = d.result else {
                 panic!("{d:?}");

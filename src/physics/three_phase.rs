@@ -605,23 +605,23 @@ pub fn sinusoidal_losses_numerical(
     } else {
         0
     };
-    let mut edges: Vec<Option<(f64, f64)>> = vec![None; half];
-    let mut first_half = vec![(0.0, 0.0); half];
+    // (duty, current, edge energies once computed) of the first half period.
+    let mut first_half: Vec<(f64, f64, Option<(f64, f64)>)> = vec![(0.0, 0.0, None); half];
     for k in 0..n_samples {
         // Half a period on, the references, the zero sequence and the
         // current change sign: the duty becomes 1 − d and the current −i
         // (sin(θ + π − φ) = −sin(θ − φ)), so the second half reuses the first.
-        let (d, i) = if half > 0 && k >= half {
-            let (d, i) = first_half[k - half];
-            (1.0 - d, -i)
+        let (d, i, known_edges) = if half > 0 && k >= half {
+            let (d, i, e) = first_half[k - half];
+            (1.0 - d, -i, e)
         } else {
             let theta = (k as f64 + 0.5) * 2.0 * PI / n_samples as f64;
             let d = leg_duties(point.modulation_index, point.zero_sequence, theta)[0];
             let i = i_pk * (theta - phi).sin();
             if k < half {
-                first_half[k] = (d, i);
+                first_half[k] = (d, i, None);
             }
-            (d, i)
+            (d, i, None)
         };
         let i2r = i * i * r;
         if i > 0.0 {
@@ -639,18 +639,16 @@ pub fn sinusoidal_losses_numerical(
                 let k_lin = if i_pk > 0.0 { i.abs() / i_pk } else { 0.0 };
                 (e_on_pk * k_lin, e_off_pk * k_lin)
             }
-            EnergyModel::Transitions if half > 0 => {
-                let slot = k % half;
-                match edges[slot] {
-                    Some(e) => e,
-                    None => {
-                        let e = stage.energies(i, i, r)?;
-                        edges[slot] = Some(e);
-                        e
+            EnergyModel::Transitions => match known_edges {
+                Some(e) => e,
+                None => {
+                    let e = stage.energies(i, i, r)?;
+                    if k < half {
+                        first_half[k].2 = Some(e);
                     }
+                    e
                 }
-            }
-            EnergyModel::Transitions => stage.energies(i, i, r)?,
+            },
         };
         let (hard, soft) = if i > 0.0 {
             (&mut hs, &mut ls)
