@@ -605,8 +605,9 @@ pub fn sinusoidal_losses_numerical(
     } else {
         0
     };
-    // (duty, current, edge energies once computed) of the first half period.
-    let mut first_half: Vec<(f64, f64, Option<(f64, f64)>)> = vec![(0.0, 0.0, None); half];
+    // (duty, current, (E_on, E_off) once computed) of the first half period.
+    type Sample = (f64, f64, Option<(f64, f64)>);
+    let mut first_half: Vec<Sample> = vec![(0.0, 0.0, None); half];
     for k in 0..n_samples {
         // Half a period on, the references, the zero sequence and the
         // current change sign: the duty becomes 1 − d and the current −i
