@@ -25,3 +25,4 @@ pub mod svg;
 pub mod sweep;
 pub mod timer;
 pub mod units;
+pub mod verify;

@@ -1,0 +1,1205 @@
+//! Register-level verifier: what the written timer registers really do to the motor current.
+//!
+//! Owns: turning the emitted register values (counter tick, alignment, period, compare values,
+//! output polarity, dead time) into each output's switching instants exactly as a timer with
+//! complementary outputs and dead-time insertion produces them; driving a series
+//! R–L–back-EMF load through those switch states (channel conduction, body-diode or freewheel
+//! diode clamping in the direction of the current, discontinuous conduction); solving the
+//! periodic steady state; and measuring it (ripple, mean, rms, Fourier lines, the mean terminal
+//! voltage and its split, every output pulse, the switch-state timeline).
+//!
+//! It is deliberately independent of the models it checks: it calls nothing in
+//! `physics::ripple`, `physics::acoustics` or `model`, and shares only [`Alignment`] with
+//! `timer`. Its method is its own: an event list built from integer tick counts, an exact
+//! exponential per event interval, and a fixed point of the exact period map. It does no I/O
+//! and prints nothing.
+//!
+//! # Register conventions (those of `timer`'s module doc and the emitted header)
+//!
+//! - One counter tick lasts `tick_s` (= divider / clock_hz); a PWM period is `period_ticks`
+//!   ticks, `T = period_ticks · tick_s`.
+//! - Edge alignment: the counter runs `0..period_ticks`, duty steps = `period_ticks`; the
+//!   reference is high while the counter is below the compare value: `t ∈ [0, c·tick)`.
+//! - Centre alignment: the counter runs up and down `0 → period_ticks/2 → 0`, duty steps =
+//!   `period_ticks / 2`; seen as a triangle with its bottom at `t = 0` the reference is high
+//!   for `|t| < c·tick`, i.e. `2c` ticks centred on the counter bottom (duty `c / duty steps`).
+//! - Compare 0 = reference always low; compare = duty steps = reference always high.
+//!   `inverted` swaps the reference (high while the counter is at or above the compare value).
+//! - Dead-time insertion (common practice): each complementary output turns on `dead_time_s`
+//!   after its reference edge (high side after the rise, low side after the fall) and turns off
+//!   with the edge; a reference pulse no longer than the dead time gives no output pulse. A
+//!   reference with no edge (always high or always low) gives a constant output.
+//! - Time origin of every result: `t = 0` at counter 0 (edge) or the counter bottom (centre);
+//!   all times lie in `[0, T)`.
+//!
+//! # Circuit (common practice)
+//!
+//! `L·di/dt = v_m − R·i − E`, `v_m` the motor terminal voltage, `i > 0` out of leg A (half
+//! bridge, H-bridge) or from the supply through the motor into the switch (low side).
+//! - A conducting switch is a resistance `r_ds_on_ohm` in either direction (its body diode in
+//!   parallel is ignored: assumption, synchronous rectification).
+//! - A bridge leg with both switches off is clamped by the body diode the current forces into
+//!   conduction: current out of the leg → low-side diode, `v_leg = −v_sd_v`; into the leg →
+//!   high-side diode, `v_leg = v_bus_v + v_sd_v`. A low-side switch that is off: current `> 0`
+//!   → freewheel diode, `v_m = −v_f_v`; current `< 0` → the switch's body diode,
+//!   `v_m = v_bus_v + v_sd_v`.
+//! - When the current reaches zero while a path depends on a diode, it stays zero (the terminal
+//!   voltage is then `E`) until the switch states change and drive it again (discontinuous
+//!   conduction).
+//!
+//! Between events the current is `i(t) = i_∞ + (i_0 − i_∞)·e^(−t/τ)` with `τ = L/(R + r)`,
+//! `i_∞ = (a − E)/(R + r)`, where the terminal voltage is `v_m = a − r·i` in that state (the
+//! first-order linear ODE's solution: common practice); a diode's zero crossing inside an
+//! interval is found in closed form, `t_0 = τ·ln((i_0 − i_∞)/(−i_∞))` (own derivation).
+//!
+//! # Steady state
+//!
+//! The period map `P(i_0)` (current after one period from `i_0`) is monotone and piecewise
+//! affine with slope `e^(−Σ dt/τ) < 1` (or 0 after a clamp at zero). Its fixed point is found by
+//! Newton steps on `P(i) − i`, which are exact on an affine piece, safeguarded by a bracket
+//! `[−B, B]` with `B` the largest `|i_∞|` of any state (own derivation); the residual is
+//! reported ([`Verification::residual_a`]).
+//!
+//! Three-phase bridges are not covered yet.
+
+use crate::timer::Alignment;
+use std::fmt;
+
+/// Fixed-point iterations before the solver gives up (bisection alone needs ~110 on `f64`).
+const MAX_FIXED_POINT_ITERATIONS: usize = 200;
+
+/// Relative step below which the fixed point counts as found (relative to the current bound).
+const FIXED_POINT_REL_STEP: f64 = 1e-15;
+
+/// Breakpoints closer than this fraction of the period are merged (they stem from the same
+/// instant computed along different floating-point paths).
+const MERGE_REL: f64 = 1e-12;
+
+// ---------------------------------------------------------------------------------------------
+// Inputs
+// ---------------------------------------------------------------------------------------------
+
+/// The timer registers as written, in seconds and ticks.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TimerRegisters {
+    /// One counter tick, s (= prescaler divider / timer clock).
+    pub tick_s: f64,
+    pub alignment: Alignment,
+    /// Counter ticks per PWM period (edge: counter `0..period_ticks`; centre: up-down
+    /// `0 → period_ticks/2 → 0`, so `period_ticks` must be even).
+    pub period_ticks: u64,
+    /// Inserted dead time, s (dead-time ticks × dead-time tick). Ignored by [`Stage::LowSide`].
+    pub dead_time_s: f64,
+}
+
+impl TimerRegisters {
+    /// Full-scale compare value: `period_ticks` (edge) or `period_ticks / 2` (centre).
+    pub fn duty_steps(&self) -> u64 {
+        match self.alignment {
+            Alignment::Edge => self.period_ticks,
+            Alignment::Centre => self.period_ticks / 2,
+        }
+    }
+
+    /// PWM period `T = period_ticks · tick_s`, s.
+    pub fn period_s(&self) -> f64 {
+        self.period_ticks as f64 * self.tick_s
+    }
+
+    /// PWM frequency `1 / T`, Hz.
+    pub fn frequency_hz(&self) -> f64 {
+        1.0 / self.period_s()
+    }
+
+    fn validate(&self) -> Result<(), VerifyError> {
+        if !(self.tick_s.is_finite() && self.tick_s > 0.0) {
+            return Err(VerifyError::Tick);
+        }
+        let odd_centre = self.alignment == Alignment::Centre && self.period_ticks % 2 != 0;
+        if self.period_ticks < 2 || odd_centre {
+            return Err(VerifyError::PeriodTicks(self.period_ticks));
+        }
+        if !(self.dead_time_s.is_finite() && self.dead_time_s >= 0.0) {
+            return Err(VerifyError::DeadTime);
+        }
+        Ok(())
+    }
+}
+
+/// One leg's compare register and output polarity.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct LegCompare {
+    /// Compare value, `0..=duty_steps`.
+    pub compare: u64,
+    /// `false`: reference high while the counter is below `compare` (the emitted convention);
+    /// `true`: the reference is inverted (high while the counter is at or above `compare`).
+    pub inverted: bool,
+}
+
+impl LegCompare {
+    /// Normal polarity (reference high below the compare value).
+    pub fn new(compare: u64) -> Self {
+        LegCompare {
+            compare,
+            inverted: false,
+        }
+    }
+
+    /// Inverted polarity (reference high at or above the compare value).
+    pub fn inverted(compare: u64) -> Self {
+        LegCompare {
+            compare,
+            inverted: true,
+        }
+    }
+}
+
+/// The output stage and the compare values that drive it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    /// One switch to ground, the motor from the supply to its drain, a freewheel diode across
+    /// the motor. The switch follows the reference; no dead time.
+    LowSide(LegCompare),
+    /// One complementary leg; the motor from the leg output to ground.
+    HalfBridge(LegCompare),
+    /// Two complementary legs on the same counter; the motor from leg A to leg B. Bipolar: e.g.
+    /// `b = LegCompare::inverted(a.compare)`; unipolar: two normal legs with their own compares.
+    HBridge { a: LegCompare, b: LegCompare },
+}
+
+impl Stage {
+    fn legs(&self) -> (LegCompare, Option<LegCompare>) {
+        match *self {
+            Stage::LowSide(a) | Stage::HalfBridge(a) => (a, None),
+            Stage::HBridge { a, b } => (a, Some(b)),
+        }
+    }
+
+    fn complementary(&self) -> bool {
+        !matches!(self, Stage::LowSide(_))
+    }
+}
+
+/// The load and the switches, SI units.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Circuit {
+    /// Motor winding resistance, Ω (> 0).
+    pub r_ohm: f64,
+    /// Motor inductance, H (> 0).
+    pub l_h: f64,
+    /// Back-EMF, V, opposing positive current (any sign).
+    pub back_emf_v: f64,
+    /// Supply voltage, V (≥ 0).
+    pub v_bus_v: f64,
+    /// On-resistance of each conducting switch, Ω (≥ 0).
+    pub r_ds_on_ohm: f64,
+    /// Body-diode forward voltage, V (≥ 0): bridge legs in the dead time, and a low-side switch
+    /// carrying reverse current while off.
+    pub v_sd_v: f64,
+    /// Freewheel-diode forward voltage, V (≥ 0), low-side stage only.
+    pub v_f_v: f64,
+}
+
+impl Circuit {
+    fn validate(&self) -> Result<(), VerifyError> {
+        let positive = |x: f64| x.is_finite() && x > 0.0;
+        let non_negative = |x: f64| x.is_finite() && x >= 0.0;
+        let ok = positive(self.r_ohm)
+            && positive(self.l_h)
+            && self.back_emf_v.is_finite()
+            && non_negative(self.v_bus_v)
+            && non_negative(self.r_ds_on_ohm)
+            && non_negative(self.v_sd_v)
+            && non_negative(self.v_f_v);
+        if ok {
+            Ok(())
+        } else {
+            Err(VerifyError::Circuit)
+        }
+    }
+}
+
+/// Why a verification was refused.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum VerifyError {
+    /// `tick_s` is not a positive finite number.
+    Tick,
+    /// `period_ticks` < 2, or odd on a centre-aligned counter.
+    PeriodTicks(u64),
+    /// `dead_time_s` is negative or not finite.
+    DeadTime,
+    /// A compare value above the duty steps.
+    Compare { compare: u64, duty_steps: u64 },
+    /// R or L not positive, or a voltage/resistance negative or not finite.
+    Circuit,
+    /// The steady-state solver did not converge (should not happen; reported, never hidden).
+    NoSteadyState,
+}
+
+impl fmt::Display for VerifyError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            VerifyError::Tick => write!(f, "the counter tick must be a positive time"),
+            VerifyError::PeriodTicks(p) => write!(
+                f,
+                "period of {p} ticks: needs at least 2 ticks, and an even count when centre-aligned"
+            ),
+            VerifyError::DeadTime => write!(f, "the dead time must be zero or positive"),
+            VerifyError::Compare {
+                compare,
+                duty_steps,
+            } => write!(
+                f,
+                "compare value {compare} above the {duty_steps} duty steps"
+            ),
+            VerifyError::Circuit => write!(
+                f,
+                "R and L must be positive; voltages and on-resistance zero or positive"
+            ),
+            VerifyError::NoSteadyState => write!(f, "the periodic steady state was not found"),
+        }
+    }
+}
+
+impl std::error::Error for VerifyError {}
+
+// ---------------------------------------------------------------------------------------------
+// Outputs and their pulses
+// ---------------------------------------------------------------------------------------------
+
+/// Leg name.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum LegName {
+    A,
+    B,
+}
+
+/// One switch's gate output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub enum Output {
+    /// The single switch of [`Stage::LowSide`].
+    Switch,
+    /// The high-side output of a bridge leg.
+    High(LegName),
+    /// The low-side output of a bridge leg.
+    Low(LegName),
+}
+
+/// State of a leg during a timeline interval.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum LegState {
+    /// High-side switch on (for [`Stage::LowSide`]: the switch is on).
+    High,
+    /// Low-side switch on.
+    Low,
+    /// Both switches off (dead time; for [`Stage::LowSide`]: the switch is off).
+    Dead,
+}
+
+/// One output's pulses over a period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OutputTiming {
+    pub output: Output,
+    /// Total ON time per period, s (0 = never on, the period = always on).
+    pub on_s: f64,
+    /// Number of ON pulses per period (0 when the output never switches).
+    pub pulses: u32,
+    /// Shortest ON pulse, s (`None` when the output never switches).
+    pub shortest_on_s: Option<f64>,
+    /// Shortest OFF interval, s (`None` when the output never switches).
+    pub shortest_off_s: Option<f64>,
+    /// The reference asked for an ON pulse on this output that the dead time swallowed
+    /// (a zero-width output pulse).
+    pub swallowed: bool,
+}
+
+impl OutputTiming {
+    /// Shortest pulse of either level, s: 0 when a pulse was swallowed, `None` when the output
+    /// never switches (nothing to check against a minimum pulse).
+    pub fn shortest_pulse_s(&self) -> Option<f64> {
+        if self.swallowed {
+            return Some(0.0);
+        }
+        match (self.shortest_on_s, self.shortest_off_s) {
+            (Some(on), Some(off)) => Some(on.min(off)),
+            (a, b) => a.or(b),
+        }
+    }
+}
+
+/// A cyclic ON interval `[start, start + len)` modulo the period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Arc {
+    start_s: f64,
+    len_s: f64,
+}
+
+impl Arc {
+    fn contains(&self, t_s: f64, period_s: f64) -> bool {
+        if self.len_s >= period_s {
+            return true;
+        }
+        self.len_s > 0.0 && (t_s - self.start_s).rem_euclid(period_s) < self.len_s
+    }
+
+    /// Rising and falling instants in `[0, T)`, when the arc switches at all.
+    fn edges(&self, period_s: f64) -> Option<(f64, f64)> {
+        (self.len_s > 0.0 && self.len_s < period_s).then(|| {
+            (
+                self.start_s,
+                (self.start_s + self.len_s).rem_euclid(period_s),
+            )
+        })
+    }
+
+    fn complement(&self, period_s: f64) -> Arc {
+        Arc {
+            start_s: (self.start_s + self.len_s).rem_euclid(period_s),
+            len_s: period_s - self.len_s,
+        }
+    }
+
+    /// Dead-time insertion on this arc's turn-on edge (common practice).
+    fn delayed_on(&self, dead_s: f64, period_s: f64) -> Arc {
+        if self.len_s >= period_s {
+            *self
+        } else if self.len_s <= dead_s {
+            Arc {
+                start_s: self.start_s,
+                len_s: 0.0,
+            }
+        } else {
+            Arc {
+                start_s: (self.start_s + dead_s).rem_euclid(period_s),
+                len_s: self.len_s - dead_s,
+            }
+        }
+    }
+}
+
+/// A leg's reference and outputs.
+#[derive(Debug, Clone, Copy)]
+struct LegArcs {
+    reference: Arc,
+    high: Arc,
+    /// `None` for the low-side stage's single switch.
+    low: Option<Arc>,
+}
+
+impl LegArcs {
+    fn state_at(&self, t_s: f64, period_s: f64) -> LegState {
+        if self.high.contains(t_s, period_s) {
+            LegState::High
+        } else if self.low.is_some_and(|l| l.contains(t_s, period_s)) {
+            LegState::Low
+        } else {
+            LegState::Dead
+        }
+    }
+}
+
+/// The reference of one leg, from integer ticks (see the module doc's conventions).
+fn reference_arc(regs: &TimerRegisters, leg: LegCompare) -> Result<Arc, VerifyError> {
+    let steps = regs.duty_steps();
+    if leg.compare > steps {
+        return Err(VerifyError::Compare {
+            compare: leg.compare,
+            duty_steps: steps,
+        });
+    }
+    let p = regs.period_ticks;
+    let (start, len) = match regs.alignment {
+        Alignment::Edge => (0, leg.compare),
+        Alignment::Centre => ((p - leg.compare) % p, 2 * leg.compare),
+    };
+    let (start, len) = if leg.inverted {
+        ((start + len) % p, p - len)
+    } else {
+        (start, len)
+    };
+    Ok(Arc {
+        start_s: start as f64 * regs.tick_s,
+        len_s: len as f64 * regs.tick_s,
+    })
+}
+
+fn leg_arcs(
+    regs: &TimerRegisters,
+    leg: LegCompare,
+    complementary: bool,
+) -> Result<LegArcs, VerifyError> {
+    let t = regs.period_s();
+    let reference = reference_arc(regs, leg)?;
+    if !complementary {
+        return Ok(LegArcs {
+            reference,
+            high: reference,
+            low: None,
+        });
+    }
+    Ok(LegArcs {
+        reference,
+        high: reference.delayed_on(regs.dead_time_s, t),
+        low: Some(reference.complement(t).delayed_on(regs.dead_time_s, t)),
+    })
+}
+
+fn stage_arcs(
+    regs: &TimerRegisters,
+    stage: &Stage,
+) -> Result<(LegArcs, Option<LegArcs>), VerifyError> {
+    regs.validate()?;
+    let (a, b) = stage.legs();
+    let c = stage.complementary();
+    let a = leg_arcs(regs, a, c)?;
+    let b = b.map(|b| leg_arcs(regs, b, c)).transpose()?;
+    Ok((a, b))
+}
+
+fn timing(output: Output, reference: Arc, out: Arc, period_s: f64) -> OutputTiming {
+    let switches = out.edges(period_s).is_some();
+    OutputTiming {
+        output,
+        on_s: out.len_s,
+        pulses: u32::from(switches),
+        shortest_on_s: switches.then_some(out.len_s),
+        shortest_off_s: switches.then_some(period_s - out.len_s),
+        swallowed: reference.len_s > 0.0 && reference.len_s < period_s && out.len_s <= 0.0,
+    }
+}
+
+fn leg_timings(name: LegName, leg: &LegArcs, period_s: f64, out: &mut Vec<OutputTiming>) {
+    match leg.low {
+        None => out.push(timing(Output::Switch, leg.reference, leg.high, period_s)),
+        Some(low) => {
+            let ref_low = leg.reference.complement(period_s);
+            out.push(timing(
+                Output::High(name),
+                leg.reference,
+                leg.high,
+                period_s,
+            ));
+            out.push(timing(Output::Low(name), ref_low, low, period_s));
+        }
+    }
+}
+
+/// Every output's pulses for these registers and compare values (no load needed): the check of
+/// compare limits. Each output's pulse is its reference interval minus the dead time, none when
+/// the reference is not longer than the dead time (common practice). Order: the low-side
+/// stage's switch; else high A, low A (, high B, low B).
+pub fn output_timings(
+    regs: &TimerRegisters,
+    stage: &Stage,
+) -> Result<Vec<OutputTiming>, VerifyError> {
+    let (a, b) = stage_arcs(regs, stage)?;
+    let t = regs.period_s();
+    let mut out = Vec::with_capacity(4);
+    leg_timings(LegName::A, &a, t, &mut out);
+    if let Some(b) = b {
+        leg_timings(LegName::B, &b, t, &mut out);
+    }
+    Ok(out)
+}
+
+// ---------------------------------------------------------------------------------------------
+// Timeline and terminal voltage per state
+// ---------------------------------------------------------------------------------------------
+
+/// One interval of constant switch states.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SwitchInterval {
+    pub t0_s: f64,
+    pub t1_s: f64,
+    /// Leg A (or the low-side switch: `High` = on, `Dead` = off).
+    pub a: LegState,
+    /// Leg B of an H-bridge.
+    pub b: Option<LegState>,
+    /// Leg A's reference (before dead-time insertion) is high.
+    pub reference_a: bool,
+    pub reference_b: Option<bool>,
+}
+
+/// The terminal voltage `v_m = a − r·i` of one switch state for one current direction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Terminal {
+    a_v: f64,
+    r_ohm: f64,
+    /// `a_v` with lossless switches and diodes (R_ds(on), V_sd, V_f = 0).
+    a_lossless_v: f64,
+}
+
+impl Terminal {
+    fn minus(self, other: Terminal) -> Terminal {
+        Terminal {
+            a_v: self.a_v - other.a_v,
+            r_ohm: self.r_ohm + other.r_ohm,
+            a_lossless_v: self.a_lossless_v - other.a_lossless_v,
+        }
+    }
+}
+
+/// Bridge-leg output voltage for a current `i_out` out of the leg of the given sign.
+fn leg_terminal(state: LegState, out_positive: bool, c: &Circuit) -> Terminal {
+    match (state, out_positive) {
+        (LegState::High, _) => Terminal {
+            a_v: c.v_bus_v,
+            r_ohm: c.r_ds_on_ohm,
+            a_lossless_v: c.v_bus_v,
+        },
+        (LegState::Low, _) => Terminal {
+            a_v: 0.0,
+            r_ohm: c.r_ds_on_ohm,
+            a_lossless_v: 0.0,
+        },
+        (LegState::Dead, true) => Terminal {
+            a_v: -c.v_sd_v,
+            r_ohm: 0.0,
+            a_lossless_v: 0.0,
+        },
+        (LegState::Dead, false) => Terminal {
+            a_v: c.v_bus_v + c.v_sd_v,
+            r_ohm: 0.0,
+            a_lossless_v: c.v_bus_v,
+        },
+    }
+}
+
+/// Low-side stage motor voltage (switch on = `High`, off = `Dead`).
+fn low_side_terminal(state: LegState, positive: bool, c: &Circuit) -> Terminal {
+    match (state, positive) {
+        (LegState::High, _) => Terminal {
+            a_v: c.v_bus_v,
+            r_ohm: c.r_ds_on_ohm,
+            a_lossless_v: c.v_bus_v,
+        },
+        (_, true) => Terminal {
+            a_v: -c.v_f_v,
+            r_ohm: 0.0,
+            a_lossless_v: 0.0,
+        },
+        (_, false) => Terminal {
+            a_v: c.v_bus_v + c.v_sd_v,
+            r_ohm: 0.0,
+            a_lossless_v: c.v_bus_v,
+        },
+    }
+}
+
+/// Motor terminal voltage for a motor current of the given sign.
+fn motor_terminal(
+    stage: &Stage,
+    a: LegState,
+    b: Option<LegState>,
+    positive: bool,
+    c: &Circuit,
+) -> Terminal {
+    match (stage, b) {
+        (Stage::LowSide(_), _) => low_side_terminal(a, positive, c),
+        (_, None) => leg_terminal(a, positive, c),
+        (_, Some(b)) => leg_terminal(a, positive, c).minus(leg_terminal(b, !positive, c)),
+    }
+}
+
+/// One direction's dynamics in a switch state.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Branch {
+    terminal: Terminal,
+    i_inf_a: f64,
+    tau_s: f64,
+}
+
+impl Branch {
+    fn new(terminal: Terminal, c: &Circuit) -> Branch {
+        let r = c.r_ohm + terminal.r_ohm;
+        Branch {
+            terminal,
+            i_inf_a: (terminal.a_v - c.back_emf_v) / r,
+            tau_s: c.l_h / r,
+        }
+    }
+
+    /// Current after `dt` from `i0` (the exact exponential, common practice).
+    fn advance(&self, i0: f64, dt: f64) -> f64 {
+        i0 + (self.i_inf_a - i0) * -(-dt / self.tau_s).exp_m1()
+    }
+}
+
+/// An interval of constant switch states with its two branches.
+#[derive(Debug, Clone, Copy)]
+struct Segment {
+    interval: SwitchInterval,
+    pos: Branch,
+    neg: Branch,
+    /// A path depends on a diode: the current cannot cross zero.
+    floating: bool,
+    /// Terminal voltage the references alone would give with ideal switches, V.
+    v_reference_v: f64,
+}
+
+fn build_segments(
+    regs: &TimerRegisters,
+    stage: &Stage,
+    c: &Circuit,
+) -> Result<Vec<Segment>, VerifyError> {
+    let (la, lb) = stage_arcs(regs, stage)?;
+    let t = regs.period_s();
+    let mut cuts = vec![0.0, t];
+    for leg in std::iter::once(&la).chain(lb.as_ref()) {
+        for arc in [Some(leg.high), leg.low].into_iter().flatten() {
+            if let Some((r, f)) = arc.edges(t) {
+                cuts.extend([r, f]);
+            }
+        }
+    }
+    cuts.sort_by(f64::total_cmp);
+    cuts.dedup_by(|b, a| *b - *a <= MERGE_REL * t);
+    if let Some(last) = cuts.last_mut() {
+        *last = t;
+    }
+    let segments = cuts
+        .windows(2)
+        .map(|w| segment(stage, c, &la, lb.as_ref(), w[0], w[1], t))
+        .collect();
+    Ok(segments)
+}
+
+fn segment(
+    stage: &Stage,
+    c: &Circuit,
+    la: &LegArcs,
+    lb: Option<&LegArcs>,
+    t0: f64,
+    t1: f64,
+    period_s: f64,
+) -> Segment {
+    let mid = 0.5 * (t0 + t1);
+    let a = la.state_at(mid, period_s);
+    let b = lb.map(|l| l.state_at(mid, period_s));
+    let reference_a = la.reference.contains(mid, period_s);
+    let reference_b = lb.map(|l| l.reference.contains(mid, period_s));
+    let v_reference_v = c.v_bus_v
+        * (f64::from(u8::from(reference_a)) - f64::from(u8::from(reference_b.unwrap_or(false))));
+    let floating = a == LegState::Dead || b == Some(LegState::Dead);
+    Segment {
+        interval: SwitchInterval {
+            t0_s: t0,
+            t1_s: t1,
+            a,
+            b,
+            reference_a,
+            reference_b,
+        },
+        pos: Branch::new(motor_terminal(stage, a, b, true, c), c),
+        neg: Branch::new(motor_terminal(stage, a, b, false, c), c),
+        floating,
+        v_reference_v,
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Current pieces and the period map
+// ---------------------------------------------------------------------------------------------
+
+/// How the current flows during a piece.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Conduction {
+    /// Only switch channels (and the motor) carry the current; it may cross zero.
+    Channels,
+    /// A diode carries the current (dead time, freewheeling); it stops at zero.
+    Diode,
+    /// No current: every path is blocked (discontinuous conduction).
+    Zero,
+}
+
+/// A piece of the steady-state current: `i(t) = i_inf + (i0 − i_inf)·e^(−(t − t0)/τ)`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CurrentPiece {
+    pub t0_s: f64,
+    pub t1_s: f64,
+    pub i0_a: f64,
+    pub i1_a: f64,
+    /// Asymptote, A (0 for a `Zero` piece).
+    pub i_inf_a: f64,
+    /// Time constant, s (infinite for a `Zero` piece).
+    pub tau_s: f64,
+    pub conduction: Conduction,
+    /// Index into [`Verification::timeline`].
+    pub interval: usize,
+}
+
+impl CurrentPiece {
+    fn zero(t0: f64, t1: f64, interval: usize) -> CurrentPiece {
+        CurrentPiece {
+            t0_s: t0,
+            t1_s: t1,
+            i0_a: 0.0,
+            i1_a: 0.0,
+            i_inf_a: 0.0,
+            tau_s: f64::INFINITY,
+            conduction: Conduction::Zero,
+            interval,
+        }
+    }
+
+    /// Current at `t_s` inside the piece, A.
+    pub fn current_at(&self, t_s: f64) -> f64 {
+        if self.conduction == Conduction::Zero {
+            return 0.0;
+        }
+        let dt = t_s - self.t0_s;
+        self.i0_a + (self.i_inf_a - self.i0_a) * -(-dt / self.tau_s).exp_m1()
+    }
+
+    /// `(1 − e^(−dt/τ))·τ`, the integral of the decaying part's shape.
+    fn decay_integral(&self, k: f64) -> f64 {
+        let dt = self.t1_s - self.t0_s;
+        -(-k * dt / self.tau_s).exp_m1() * self.tau_s / k
+    }
+
+    /// `∫ i dt` over the piece (exact).
+    fn integral(&self) -> f64 {
+        if self.conduction == Conduction::Zero {
+            return 0.0;
+        }
+        let dt = self.t1_s - self.t0_s;
+        self.i_inf_a * dt + (self.i0_a - self.i_inf_a) * self.decay_integral(1.0)
+    }
+
+    /// `∫ i² dt` over the piece (exact; own derivation).
+    fn square_integral(&self) -> f64 {
+        if self.conduction == Conduction::Zero {
+            return 0.0;
+        }
+        let dt = self.t1_s - self.t0_s;
+        let (c, a) = (self.i_inf_a, self.i0_a - self.i_inf_a);
+        (c * c * dt + 2.0 * c * a * self.decay_integral(1.0) + a * a * self.decay_integral(2.0))
+            .max(0.0)
+    }
+}
+
+/// Result of one period from a start current.
+#[derive(Debug, Clone, Copy)]
+struct PeriodEnd {
+    i_end_a: f64,
+    /// `ln(dP/di)` while no clamp at zero happened.
+    ln_slope: f64,
+    /// The current was held at zero somewhere (`dP/di = 0`).
+    clamped: bool,
+}
+
+/// The piecewise solver over one period.
+struct Solver<'a> {
+    segments: &'a [Segment],
+}
+
+impl Solver<'_> {
+    fn run_period(&self, i0: f64, mut pieces: Option<&mut Vec<CurrentPiece>>) -> PeriodEnd {
+        let mut end = PeriodEnd {
+            i_end_a: i0,
+            ln_slope: 0.0,
+            clamped: false,
+        };
+        for (k, seg) in self.segments.iter().enumerate() {
+            run_segment(seg, k, &mut end, pieces.as_deref_mut());
+        }
+        end
+    }
+
+    /// Largest `|i_∞|` of any state: the current of the steady state lies within ±this.
+    fn current_bound(&self) -> f64 {
+        self.segments
+            .iter()
+            .flat_map(|s| [s.pos.i_inf_a.abs(), s.neg.i_inf_a.abs()])
+            .fold(0.0, f64::max)
+    }
+
+    /// Fixed point of the period map (see the module doc). Returns `(i_start, residual)`.
+    fn steady_state(&self) -> Result<(f64, f64), VerifyError> {
+        let bound = self.current_bound();
+        if bound == 0.0 {
+            return Ok((0.0, 0.0));
+        }
+        let (mut lo, mut hi) = (-bound, bound);
+        let mut i = hi;
+        for _ in 0..MAX_FIXED_POINT_ITERATIONS {
+            let end = self.run_period(i, None);
+            let g = end.i_end_a - i;
+            if g == 0.0 {
+                return Ok((i, 0.0));
+            }
+            if g > 0.0 {
+                lo = i;
+            } else {
+                hi = i;
+            }
+            let newton = if end.clamped {
+                end.i_end_a
+            } else {
+                i + g / -end.ln_slope.exp_m1()
+            };
+            let next = if newton > lo && newton < hi {
+                newton
+            } else {
+                0.5 * (lo + hi)
+            };
+            if (next - i).abs() <= FIXED_POINT_REL_STEP * bound
+                || hi - lo <= FIXED_POINT_REL_STEP * bound
+            {
+                let residual = self.run_period(next, None).i_end_a - next;
+                return Ok((next, residual));
+            }
+            i = next;
+        }
+        Err(VerifyError::NoSteadyState)
+    }
+}
+
+fn push(pieces: &mut Option<&mut Vec<CurrentPiece>>, piece: CurrentPiece) {
+    if let Some(p) = pieces.as_deref_mut() {
+        if piece.t1_s > piece.t0_s {
+            p.push(piece);
+        }
+    }
+}
+
+fn conducting(
+    branch: &Branch,
+    t0: f64,
+    t1: f64,
+    i0: f64,
+    conduction: Conduction,
+    interval: usize,
+) -> CurrentPiece {
+    CurrentPiece {
+        t0_s: t0,
+        t1_s: t1,
+        i0_a: i0,
+        i1_a: branch.advance(i0, t1 - t0),
+        i_inf_a: branch.i_inf_a,
+        tau_s: branch.tau_s,
+        conduction,
+        interval,
+    }
+}
+
+/// Advances `end` through one segment, splitting at a diode's zero crossing.
+fn run_segment(
+    seg: &Segment,
+    index: usize,
+    end: &mut PeriodEnd,
+    mut pieces: Option<&mut Vec<CurrentPiece>>,
+) {
+    let (mut t, t1) = (seg.interval.t0_s, seg.interval.t1_s);
+    let mut i = end.i_end_a;
+    if !seg.floating {
+        let p = conducting(&seg.pos, t, t1, i, Conduction::Channels, index);
+        end.ln_slope -= (t1 - t) / seg.pos.tau_s;
+        end.i_end_a = p.i1_a;
+        push(&mut pieces, p);
+        return;
+    }
+    loop {
+        let branch = if i > 0.0 || (i == 0.0 && seg.pos.i_inf_a > 0.0) {
+            &seg.pos
+        } else if i < 0.0 || seg.neg.i_inf_a < 0.0 {
+            &seg.neg
+        } else {
+            // Zero current, both directions blocked: it stays zero.
+            end.clamped = true;
+            end.i_end_a = 0.0;
+            push(&mut pieces, CurrentPiece::zero(t, t1, index));
+            return;
+        };
+        let crossing = zero_crossing_s(branch, i).filter(|&dt| t + dt < t1);
+        let Some(dt) = crossing else {
+            let p = conducting(branch, t, t1, i, Conduction::Diode, index);
+            end.ln_slope -= (t1 - t) / branch.tau_s;
+            end.i_end_a = p.i1_a;
+            push(&mut pieces, p);
+            return;
+        };
+        let mut p = conducting(branch, t, t + dt, i, Conduction::Diode, index);
+        p.i1_a = 0.0;
+        push(&mut pieces, p);
+        end.clamped = true;
+        t += dt;
+        i = 0.0;
+    }
+}
+
+/// Time for a current `i0 ≠ 0` heading across zero towards `i_∞` to reach zero:
+/// `τ·ln((i0 − i_∞)/(−i_∞))` (own derivation); `None` when it does not cross.
+fn zero_crossing_s(branch: &Branch, i0: f64) -> Option<f64> {
+    let i_inf = branch.i_inf_a;
+    if i0 == 0.0 || i_inf == 0.0 || i0.signum() == i_inf.signum() {
+        return None;
+    }
+    Some(branch.tau_s * (i0 / -i_inf).ln_1p())
+}
+
+// ---------------------------------------------------------------------------------------------
+// Measurement
+// ---------------------------------------------------------------------------------------------
+
+/// The mean motor terminal voltage and its split (each term a mean over the period, V):
+/// `mean_v = ideal_v + dead_time_v + drops_v + dcm_v` exactly.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VoltageSplit {
+    /// Mean terminal voltage `v_m`, V. In the steady state it equals `R·mean_a + E`.
+    pub mean_v: f64,
+    /// What the references alone give with ideal switches: `m·V_bus` (m the reference duty,
+    /// or the difference of the two legs' reference duties).
+    pub ideal_v: f64,
+    /// Dead-time loss: the diode-clamped legs (with ideal diodes) against the references while
+    /// current flows; about `−t_dead·f·V_bus` per leg edge pair for a positive current.
+    pub dead_time_v: f64,
+    /// Switch and diode drops: `−i·R_ds(on)` per conducting switch, `−V_sd`, `−V_f`.
+    pub drops_v: f64,
+    /// Zero-current intervals: the terminal sits at `E` instead of the reference voltage.
+    pub dcm_v: f64,
+}
+
+/// One Fourier line of the motor current.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Line {
+    /// Multiple of the PWM frequency.
+    pub harmonic: u32,
+    pub frequency_hz: f64,
+    /// Rms amplitude of the line, A.
+    pub rms_a: f64,
+}
+
+/// The verified steady state of one single-phase stage.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Verification {
+    pub period_s: f64,
+    pub frequency_hz: f64,
+    /// Switch states over one period, in time order, covering `[0, T)`.
+    pub timeline: Vec<SwitchInterval>,
+    /// The steady-state current over one period, in time order, covering `[0, T)`.
+    pub pieces: Vec<CurrentPiece>,
+    /// `P(i0) − i0` at the solution, A (the fixed point's residual).
+    pub residual_a: f64,
+    pub mean_a: f64,
+    pub rms_a: f64,
+    pub min_a: f64,
+    pub max_a: f64,
+    /// `max_a − min_a`.
+    pub ripple_pp_a: f64,
+    /// The current never rests at zero for a non-zero time.
+    pub continuous: bool,
+    pub voltage: VoltageSplit,
+    /// Every output's pulses (order as [`output_timings`]).
+    pub outputs: Vec<OutputTiming>,
+}
+
+/// Verifies one single-phase stage: the steady-state motor current the registers produce.
+/// Event-based; cost grows with the number of switching edges only (a few µs).
+pub fn verify(
+    regs: &TimerRegisters,
+    stage: &Stage,
+    circuit: &Circuit,
+) -> Result<Verification, VerifyError> {
+    circuit.validate()?;
+    let segments = build_segments(regs, stage, circuit)?;
+    let solver = Solver {
+        segments: &segments,
+    };
+    let (i0, residual_a) = solver.steady_state()?;
+    let mut pieces = Vec::with_capacity(segments.len() + 4);
+    solver.run_period(i0, Some(&mut pieces));
+    let period_s = regs.period_s();
+    let (mean_a, rms_a) = mean_and_rms(&pieces, period_s);
+    let (min_a, max_a) = pieces
+        .iter()
+        .flat_map(|p| [p.i0_a, p.i1_a])
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), i| {
+            (lo.min(i), hi.max(i))
+        });
+    Ok(Verification {
+        period_s,
+        frequency_hz: regs.frequency_hz(),
+        timeline: segments.iter().map(|s| s.interval).collect(),
+        continuous: !pieces.iter().any(|p| p.conduction == Conduction::Zero),
+        voltage: voltage_split(&segments, &pieces, circuit, period_s),
+        pieces,
+        residual_a,
+        mean_a,
+        rms_a,
+        min_a,
+        max_a,
+        ripple_pp_a: max_a - min_a,
+        outputs: output_timings(regs, stage)?,
+    })
+}
+
+fn mean_and_rms(pieces: &[CurrentPiece], period_s: f64) -> (f64, f64) {
+    let mean = pieces.iter().map(CurrentPiece::integral).sum::<f64>() / period_s;
+    let square = pieces
+        .iter()
+        .map(CurrentPiece::square_integral)
+        .sum::<f64>()
+        / period_s;
+    (mean, square.sqrt())
+}
+
+/// The terminal-voltage split (definitions on [`VoltageSplit`]; own derivation).
+fn voltage_split(
+    segments: &[Segment],
+    pieces: &[CurrentPiece],
+    c: &Circuit,
+    period_s: f64,
+) -> VoltageSplit {
+    let mut s = VoltageSplit {
+        mean_v: 0.0,
+        ideal_v: 0.0,
+        dead_time_v: 0.0,
+        drops_v: 0.0,
+        dcm_v: 0.0,
+    };
+    for seg in segments {
+        s.ideal_v += seg.v_reference_v * (seg.interval.t1_s - seg.interval.t0_s);
+    }
+    for p in pieces {
+        let seg = &segments[p.interval];
+        let dt = p.t1_s - p.t0_s;
+        if p.conduction == Conduction::Zero {
+            s.dcm_v += (c.back_emf_v - seg.v_reference_v) * dt;
+            continue;
+        }
+        let branch = if p.i0_a + p.i1_a >= 0.0 {
+            &seg.pos
+        } else {
+            &seg.neg
+        };
+        let term = branch.terminal;
+        let actual = term.a_v * dt - term.r_ohm * p.integral();
+        let lossless = term.a_lossless_v * dt;
+        s.dead_time_v += lossless - seg.v_reference_v * dt;
+        s.drops_v += actual - lossless;
+    }
+    for x in [
+        &mut s.ideal_v,
+        &mut s.dead_time_v,
+        &mut s.drops_v,
+        &mut s.dcm_v,
+    ] {
+        *x /= period_s;
+    }
+    s.mean_v = s.ideal_v + s.dead_time_v + s.drops_v + s.dcm_v;
+    s
+}
+
+/// A complex number, just enough for the Fourier integrals.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Complex {
+    re: f64,
+    im: f64,
+}
+
+impl Complex {
+    fn new(re: f64, im: f64) -> Complex {
+        Complex { re, im }
+    }
+
+    /// `e^(−jθ)`.
+    fn unit(theta: f64) -> Complex {
+        Complex::new(theta.cos(), -theta.sin())
+    }
+
+    fn mul(self, o: Complex) -> Complex {
+        Complex::new(
+            self.re * o.re - self.im * o.im,
+            self.re * o.im + self.im * o.re,
+        )
+    }
+
+    fn div(self, o: Complex) -> Complex {
+        let d = o.re * o.re + o.im * o.im;
+        Complex::new(
+            (self.re * o.re + self.im * o.im) / d,
+            (self.im * o.re - self.re * o.im) / d,
+        )
+    }
+
+    fn add(self, o: Complex) -> Complex {
+        Complex::new(self.re + o.re, self.im + o.im)
+    }
+
+    fn sub(self, o: Complex) -> Complex {
+        Complex::new(self.re - o.re, self.im - o.im)
+    }
+
+    fn scale(self, k: f64) -> Complex {
+        Complex::new(self.re * k, self.im * k)
+    }
+}
+
+/// `∫_{t0}^{t1} i(t)·e^(−jωt) dt` over one piece, exactly: the constant part gives
+/// `i_∞·(e^(−jωt0) − e^(−jωt1))/(jω)`, the decaying part
+/// `(i0 − i_∞)·e^(−jωt0)·(1 − e^(−(1/τ + jω)·dt))/(1/τ + jω)` (own derivation).
+fn piece_fourier(p: &CurrentPiece, omega: f64) -> Complex {
+    if p.conduction == Conduction::Zero {
+        return Complex::new(0.0, 0.0);
+    }
+    let dt = p.t1_s - p.t0_s;
+    let e0 = Complex::unit(omega * p.t0_s);
+    let e1 = Complex::unit(omega * p.t1_s);
+    let constant = e0.sub(e1).div(Complex::new(0.0, omega)).scale(p.i_inf_a);
+    let s = Complex::new(1.0 / p.tau_s, omega);
+    let decay = (-dt / p.tau_s).exp();
+    let tail = Complex::new(1.0, 0.0).sub(Complex::unit(omega * dt).scale(decay));
+    let shaped = e0.mul(tail).div(s).scale(p.i0_a - p.i_inf_a);
+    constant.add(shaped)
+}
+
+impl Verification {
+    /// The current at time `t_s` (taken modulo the period), A.
+    pub fn current_at(&self, t_s: f64) -> f64 {
+        let t = t_s.rem_euclid(self.period_s);
+        let k = self.pieces.partition_point(|p| p.t1_s <= t);
+        self.pieces
+            .get(k.min(self.pieces.len() - 1))
+            .map_or(0.0, |p| p.current_at(t))
+    }
+
+    /// Rms amplitude of harmonic `k ≥ 1` of the PWM frequency, A: `√2·|c_k|` with
+    /// `c_k = (1/T)·∫_0^T i(t)·e^(−j2πkt/T) dt`, integrated exactly piece by piece
+    /// (own derivation; no sampling).
+    pub fn harmonic_rms_a(&self, k: u32) -> f64 {
+        let omega = 2.0 * std::f64::consts::PI * f64::from(k) / self.period_s;
+        let c = self.pieces.iter().fold(Complex::new(0.0, 0.0), |acc, p| {
+            acc.add(piece_fourier(p, omega))
+        });
+        std::f64::consts::SQRT_2 * c.re.hypot(c.im) / self.period_s
+    }
+
+    /// Every Fourier line of the current at multiples `k·f ≤ f_max_hz`, `k ≥ 1`.
+    pub fn lines(&self, f_max_hz: f64) -> Vec<Line> {
+        let count = (f_max_hz / self.frequency_hz)
+            .floor()
+            .clamp(0.0, f64::from(u32::MAX)) as u32;
+        (1..=count)
+            .map(|k| Line {
+                harmonic: k,
+                frequency_hz: f64::from(k) * self.frequency_hz,
+                rms_a: self.harmonic_rms_a(k),
+            })
+            .collect()
+    }
+
+    /// The timing of one output, if the stage has it.
+    pub fn output(&self, output: Output) -> Option<&OutputTiming> {
+        self.outputs.iter().find(|o| o.output == output)
+    }
+
+    /// Total time per period the current rests at zero, s.
+    pub fn zero_current_s(&self) -> f64 {
+        self.pieces
+            .iter()
+            .filter(|p| p.conduction == Conduction::Zero)
+            .map(|p| p.t1_s - p.t0_s)
+            .sum()
+    }
+}
