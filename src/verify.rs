@@ -115,7 +115,8 @@ impl TimerRegisters {
         if !(self.tick_s.is_finite() && self.tick_s > 0.0) {
             return Err(VerifyError::Tick);
         }
-        let odd_centre = self.alignment == Alignment::Centre && self.period_ticks % 2 != 0;
+        let odd_centre =
+            self.alignment == Alignment::Centre && !self.period_ticks.is_multiple_of(2);
         if self.period_ticks < 2 || odd_centre {
             return Err(VerifyError::PeriodTicks(self.period_ticks));
         }
@@ -742,6 +743,12 @@ impl CurrentPiece {
         }
     }
 
+    /// The current is identically zero: every path blocked, or a channel path with nothing
+    /// to drive it (zero start, zero asymptote).
+    pub fn is_zero(&self) -> bool {
+        self.conduction == Conduction::Zero || (self.i0_a == 0.0 && self.i_inf_a == 0.0)
+    }
+
     /// Current at `t_s` inside the piece, A.
     pub fn current_at(&self, t_s: f64) -> f64 {
         if self.conduction == Conduction::Zero {
@@ -856,10 +863,10 @@ impl Solver<'_> {
 }
 
 fn push(pieces: &mut Option<&mut Vec<CurrentPiece>>, piece: CurrentPiece) {
-    if let Some(p) = pieces.as_deref_mut() {
-        if piece.t1_s > piece.t0_s {
-            p.push(piece);
-        }
+    if let Some(p) = pieces.as_deref_mut()
+        && piece.t1_s > piece.t0_s
+    {
+        p.push(piece);
     }
 }
 
@@ -987,7 +994,8 @@ pub struct Verification {
     pub max_a: f64,
     /// `max_a − min_a`.
     pub ripple_pp_a: f64,
-    /// The current never rests at zero for a non-zero time.
+    /// The current never rests at zero for a non-zero time (no piece
+    /// [`CurrentPiece::is_zero`]).
     pub continuous: bool,
     pub voltage: VoltageSplit,
     /// Every output's pulses (order as [`output_timings`]).
@@ -1021,7 +1029,7 @@ pub fn verify(
         period_s,
         frequency_hz: regs.frequency_hz(),
         timeline: segments.iter().map(|s| s.interval).collect(),
-        continuous: !pieces.iter().any(|p| p.conduction == Conduction::Zero),
+        continuous: !pieces.iter().any(CurrentPiece::is_zero),
         voltage: voltage_split(&segments, &pieces, circuit, period_s),
         pieces,
         residual_a,
@@ -1198,8 +1206,227 @@ impl Verification {
     pub fn zero_current_s(&self) -> f64 {
         self.pieces
             .iter()
-            .filter(|p| p.conduction == Conduction::Zero)
+            .filter(|p| p.is_zero())
             .map(|p| p.t1_s - p.t0_s)
             .sum()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const TICK_S: f64 = 10e-9;
+
+    fn regs(alignment: Alignment, period_ticks: u64, dead_ticks: u64) -> TimerRegisters {
+        TimerRegisters {
+            tick_s: TICK_S,
+            alignment,
+            period_ticks,
+            dead_time_s: dead_ticks as f64 * TICK_S,
+        }
+    }
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-12 * b.abs().max(1e-9)
+    }
+
+    /// (shortest on, shortest off, swallowed) of an output, in ticks.
+    fn pulses(t: &OutputTiming) -> (Option<f64>, Option<f64>, bool) {
+        let ticks = |x: Option<f64>| x.map(|s| (s / TICK_S * 1e6).round() / 1e6);
+        (ticks(t.shortest_on_s), ticks(t.shortest_off_s), t.swallowed)
+    }
+
+    fn half_bridge(r: &TimerRegisters, compare: u64) -> Vec<OutputTiming> {
+        output_timings(r, &Stage::HalfBridge(LegCompare::new(compare))).unwrap()
+    }
+
+    /// Hand-computed: edge, 100 ticks, dead time 5 ticks, compare 30: reference high 30 ticks,
+    /// high side on 30 − 5 = 25, off 75; low side on 70 − 5 = 65, off 35.
+    #[test]
+    fn edge_pulses_by_hand() {
+        let r = regs(Alignment::Edge, 100, 5);
+        let t = half_bridge(&r, 30);
+        assert_eq!(t[0].output, Output::High(LegName::A));
+        assert_eq!(pulses(&t[0]), (Some(25.0), Some(75.0), false));
+        assert_eq!(t[1].output, Output::Low(LegName::A));
+        assert_eq!(pulses(&t[1]), (Some(65.0), Some(35.0), false));
+        assert!(close(t[0].shortest_pulse_s().unwrap(), 25.0 * TICK_S));
+        // Compare 5 = the dead time: the high-side pulse is swallowed (zero width); the low
+        // side is off for the 5 reference ticks plus the 5 dead ticks.
+        let t = half_bridge(&r, 5);
+        assert_eq!(pulses(&t[0]), (None, None, true));
+        assert_eq!(t[0].shortest_pulse_s(), Some(0.0));
+        assert_eq!(pulses(&t[1]), (Some(90.0), Some(10.0), false));
+        // Compare 6: one tick survives.
+        assert_eq!(
+            pulses(&half_bridge(&r, 6)[0]),
+            (Some(1.0), Some(99.0), false)
+        );
+        // Compare 96: the low-side reference lasts 4 ticks < dead time: swallowed.
+        let t = half_bridge(&r, 96);
+        assert_eq!(pulses(&t[0]), (Some(91.0), Some(9.0), false));
+        assert_eq!(pulses(&t[1]), (None, None, true));
+        // Compare 0 and full scale: constant outputs, nothing swallowed.
+        let t = half_bridge(&r, 0);
+        assert_eq!((t[0].on_s, t[0].pulses, t[0].swallowed), (0.0, 0, false));
+        assert!(close(t[1].on_s, 100.0 * TICK_S) && t[1].shortest_pulse_s().is_none());
+        let t = half_bridge(&r, 100);
+        assert!(close(t[0].on_s, 100.0 * TICK_S) && t[1].on_s == 0.0);
+    }
+
+    /// Hand-computed: centre, 100 ticks (50 steps), dead time 5 ticks, compare 10: reference
+    /// high 2·10 = 20 ticks around the bottom; high side on 15, low side on 80 − 5 = 75.
+    #[test]
+    fn centre_pulses_by_hand() {
+        let r = regs(Alignment::Centre, 100, 5);
+        assert_eq!(r.duty_steps(), 50);
+        let t = half_bridge(&r, 10);
+        assert_eq!(pulses(&t[0]), (Some(15.0), Some(85.0), false));
+        assert_eq!(pulses(&t[1]), (Some(75.0), Some(25.0), false));
+        // Compare 2: 4 reference ticks < 5 dead ticks.
+        let t = half_bridge(&r, 2);
+        assert_eq!(pulses(&t[0]), (None, None, true));
+        assert_eq!(pulses(&t[1]), (Some(91.0), Some(9.0), false));
+        // Compare 48 (low-side reference 4 ticks) swallows the low side.
+        assert!(half_bridge(&r, 48)[1].swallowed);
+        // Inverted polarity: the high side follows the counter at or above the compare.
+        let inv = output_timings(&r, &Stage::HalfBridge(LegCompare::inverted(10))).unwrap();
+        assert_eq!(pulses(&inv[0]), (Some(75.0), Some(25.0), false));
+    }
+
+    /// The high-side pulse on a centre-aligned counter is centred on the counter bottom
+    /// (t = 0): on from t = −c + dead to +c.
+    #[test]
+    fn centre_pulse_sits_on_the_counter_bottom() {
+        let r = regs(Alignment::Centre, 100, 5);
+        let c = Circuit {
+            r_ohm: 1.0,
+            l_h: 1e-3,
+            back_emf_v: 0.0,
+            v_bus_v: 10.0,
+            r_ds_on_ohm: 0.0,
+            v_sd_v: 0.0,
+            v_f_v: 0.0,
+        };
+        let v = verify(&r, &Stage::HalfBridge(LegCompare::new(10)), &c).unwrap();
+        let high: Vec<_> = v
+            .timeline
+            .iter()
+            .filter(|s| s.a == LegState::High)
+            .collect();
+        assert_eq!(high.len(), 2);
+        assert!(close(high[0].t0_s, 0.0) && close(high[0].t1_s, 10.0 * TICK_S));
+        assert!(close(high[1].t0_s, 95.0 * TICK_S) && close(high[1].t1_s, 100.0 * TICK_S));
+    }
+
+    fn dead_time_case(back_emf_v: f64) -> (Verification, Circuit, f64) {
+        let r = TimerRegisters {
+            tick_s: 1.0 / 64e6,
+            alignment: Alignment::Edge,
+            period_ticks: 3200,
+            dead_time_s: 1e-6,
+        };
+        let c = Circuit {
+            r_ohm: 0.5,
+            l_h: 2e-3,
+            back_emf_v,
+            v_bus_v: 48.0,
+            r_ds_on_ohm: 0.0,
+            v_sd_v: 0.9,
+            v_f_v: 0.0,
+        };
+        let v = verify(&r, &Stage::HalfBridge(LegCompare::new(1600)), &c).unwrap();
+        (v, c, r.dead_time_s * r.frequency_hz())
+    }
+
+    /// Dead-time voltage error (common practice): with a current of one sign the leg sits on
+    /// the diode of that sign during both dead times, so the mean voltage moves by
+    /// `−sign(i)·t_dead·f·V_bus` against the reference, and by `−sign(i)·2·t_dead·f·V_sd` more
+    /// through the diode drops.
+    #[test]
+    fn dead_time_voltage_error_for_a_current_of_one_sign() {
+        for (emf, sign) in [(10.0, 1.0), (38.0, -1.0)] {
+            let (v, c, td_f) = dead_time_case(emf);
+            assert!(v.min_a * sign > 0.0 && v.max_a * sign > 0.0, "one sign");
+            assert!(close(v.voltage.ideal_v, 24.0));
+            assert!(close(v.voltage.dead_time_v, -sign * td_f * c.v_bus_v));
+            assert!(close(v.voltage.drops_v, -sign * 2.0 * td_f * c.v_sd_v));
+            assert_eq!(v.voltage.dcm_v, 0.0);
+            let expected = 24.0 - sign * td_f * (c.v_bus_v + 2.0 * c.v_sd_v);
+            assert!(close(v.voltage.mean_v, expected));
+            assert!((v.mean_a - (expected - emf) / c.r_ohm).abs() < 1e-9);
+        }
+    }
+
+    /// Discontinuous conduction: a low-side stage with a back-EMF near the bus; the current
+    /// stops during the off time and the timeline shows the switch off there.
+    #[test]
+    fn low_side_with_high_back_emf_is_discontinuous() {
+        let r = regs(Alignment::Edge, 5000, 0);
+        let c = Circuit {
+            r_ohm: 1.0,
+            l_h: 100e-6,
+            back_emf_v: 22.0,
+            v_bus_v: 24.0,
+            r_ds_on_ohm: 0.05,
+            v_sd_v: 0.8,
+            v_f_v: 0.6,
+        };
+        let v = verify(&r, &Stage::LowSide(LegCompare::new(1500)), &c).unwrap();
+        assert!(!v.continuous);
+        assert_eq!(v.min_a, 0.0);
+        let zero: Vec<_> = v
+            .pieces
+            .iter()
+            .filter(|p| p.conduction == Conduction::Zero)
+            .collect();
+        assert_eq!(zero.len(), 1);
+        let z = zero[0];
+        assert!(z.t1_s > z.t0_s && close(z.t1_s, v.period_s));
+        assert_eq!(v.timeline[z.interval].a, LegState::Dead);
+        assert_eq!(v.current_at(0.5 * (z.t0_s + z.t1_s)), 0.0);
+        // By hand: on for 15 µs from zero, then the diode until zero.
+        let tau = c.l_h / (c.r_ohm + c.r_ds_on_ohm);
+        let i_on =
+            (c.v_bus_v - c.back_emf_v) / (c.r_ohm + c.r_ds_on_ohm) * -(-15e-6 / tau).exp_m1();
+        assert!(close(v.max_a, i_on));
+        let i_inf = (-c.v_f_v - c.back_emf_v) / c.r_ohm;
+        let t_zero = c.l_h / c.r_ohm * ((i_on - i_inf) / -i_inf).ln();
+        assert!(close(z.t0_s, 15e-6 + t_zero));
+        // Terminal balance and the split: the zero interval sits at E.
+        assert!((v.voltage.mean_v - (c.r_ohm * v.mean_a + c.back_emf_v)).abs() < 1e-9);
+        assert!(close(
+            v.voltage.dcm_v,
+            c.back_emf_v * (z.t1_s - z.t0_s) / v.period_s
+        ));
+    }
+
+    #[test]
+    fn bad_inputs_are_refused() {
+        let c = Circuit {
+            r_ohm: 1.0,
+            l_h: 1e-3,
+            back_emf_v: 0.0,
+            v_bus_v: 10.0,
+            r_ds_on_ohm: 0.0,
+            v_sd_v: 0.0,
+            v_f_v: 0.0,
+        };
+        let stage = Stage::HalfBridge(LegCompare::new(51));
+        assert_eq!(
+            verify(&regs(Alignment::Centre, 100, 0), &stage, &c),
+            Err(VerifyError::Compare {
+                compare: 51,
+                duty_steps: 50
+            })
+        );
+        let odd = regs(Alignment::Centre, 101, 0);
+        assert_eq!(verify(&odd, &stage, &c), Err(VerifyError::PeriodTicks(101)));
+        let no_l = Circuit { l_h: 0.0, ..c };
+        assert_eq!(
+            verify(&regs(Alignment::Edge, 100, 0), &stage, &no_l),
+            Err(VerifyError::Circuit)
+        );
     }
 }
