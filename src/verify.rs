@@ -503,6 +503,26 @@ pub fn output_timings(
     Ok(out)
 }
 
+/// The shortest pulse of any output, s (0 when a pulse was swallowed by the dead time; `None`
+/// when no output switches): to compare with the output stage's minimum pulse.
+pub fn shortest_pulse_s(timings: &[OutputTiming]) -> Option<f64> {
+    timings
+        .iter()
+        .filter_map(OutputTiming::shortest_pulse_s)
+        .reduce(f64::min)
+}
+
+/// The shortest low-side ON time per period of any bridge leg, s (the bootstrap refresh time;
+/// one pulse per output and period, so the ON time is one contiguous pulse): the period when
+/// always on, 0 when never on; `None` for the low-side stage (no low-side output).
+pub fn low_side_on_s(timings: &[OutputTiming]) -> Option<f64> {
+    timings
+        .iter()
+        .filter(|t| matches!(t.output, Output::Low(_)))
+        .map(|t| t.on_s)
+        .reduce(f64::min)
+}
+
 // ---------------------------------------------------------------------------------------------
 // Timeline and terminal voltage per state
 // ---------------------------------------------------------------------------------------------
@@ -1252,12 +1272,15 @@ mod tests {
         assert_eq!(t[1].output, Output::Low(LegName::A));
         assert_eq!(pulses(&t[1]), (Some(65.0), Some(35.0), false));
         assert!(close(t[0].shortest_pulse_s().unwrap(), 25.0 * TICK_S));
+        assert!(close(shortest_pulse_s(&t).unwrap(), 25.0 * TICK_S));
+        assert!(close(low_side_on_s(&t).unwrap(), 65.0 * TICK_S));
         // Compare 5 = the dead time: the high-side pulse is swallowed (zero width); the low
         // side is off for the 5 reference ticks plus the 5 dead ticks.
         let t = half_bridge(&r, 5);
         assert_eq!(pulses(&t[0]), (None, None, true));
         assert_eq!(t[0].shortest_pulse_s(), Some(0.0));
         assert_eq!(pulses(&t[1]), (Some(90.0), Some(10.0), false));
+        assert_eq!(shortest_pulse_s(&t), Some(0.0));
         // Compare 6: one tick survives.
         assert_eq!(
             pulses(&half_bridge(&r, 6)[0]),
@@ -1273,6 +1296,11 @@ mod tests {
         assert!(close(t[1].on_s, 100.0 * TICK_S) && t[1].shortest_pulse_s().is_none());
         let t = half_bridge(&r, 100);
         assert!(close(t[0].on_s, 100.0 * TICK_S) && t[1].on_s == 0.0);
+        assert_eq!((shortest_pulse_s(&t), low_side_on_s(&t)), (None, Some(0.0)));
+        let low_side = output_timings(&r, &Stage::LowSide(LegCompare::new(30))).unwrap();
+        assert_eq!(low_side.len(), 1);
+        assert_eq!(pulses(&low_side[0]), (Some(30.0), Some(70.0), false));
+        assert_eq!(low_side_on_s(&low_side), None);
     }
 
     /// Hand-computed: centre, 100 ticks (50 steps), dead time 5 ticks, compare 10: reference

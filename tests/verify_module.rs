@@ -321,6 +321,12 @@ fn random_stage(rng: &mut Rng, steps: u64) -> Stage {
     }
 }
 
+/// 50 random stages (every topology, both alignments, dead times of 0–3 ticks in sixteenths of
+/// a tick, switch and diode drops, discontinuous conduction) from zero current for 30 τ + 5
+/// periods with RK4 at 16 steps per tick: the current at every step of the last period and its
+/// extremes within 1e-6 of the peak current (the asked 0.1 % with room: RK4 on a linear ODE
+/// with h/τ ≤ 0.02 is that exact), mean and rms (trapezoid rule) within 0.1 %, the time at
+/// zero within 4 steps, and the verifier's terminal balance `mean v_m = R·mean i + E`.
 #[test]
 fn agrees_with_a_brute_force_rk4_integration_of_the_emulated_counter() {
     let mut rng = Rng(0x5eed_0002);
@@ -376,13 +382,13 @@ fn agrees_with_a_brute_force_rk4_integration_of_the_emulated_counter() {
             worst = worst.max((out.current_at(k as f64 * bf.h_s) - i).abs());
         }
         assert!(
-            worst <= 1e-3 * scale,
+            worst <= 1e-6 * scale,
             "pointwise {worst} vs scale {scale}: {ctx}"
         );
         let bf_max = bf.samples.iter().copied().fold(f64::NEG_INFINITY, f64::max);
         let bf_min = bf.samples.iter().copied().fold(f64::INFINITY, f64::min);
-        assert!(rel(out.max_a, bf_max, scale) <= 1e-3, "max: {ctx}");
-        assert!(rel(out.min_a, bf_min, scale) <= 1e-3, "min: {ctx}");
+        assert!(rel(out.max_a, bf_max, scale) <= 1e-6, "max: {ctx}");
+        assert!(rel(out.min_a, bf_min, scale) <= 1e-6, "min: {ctx}");
         let n = bf.samples.len() - 1;
         let trapezoid = |g: &dyn Fn(f64) -> f64| {
             (0..n)
