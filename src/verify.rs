@@ -60,7 +60,9 @@
 //! `[−B, B]` with `B` the largest `|i_∞|` of any state (own derivation); the residual is
 //! reported ([`Verification::residual_a`]).
 //!
-//! Three-phase bridges are not covered yet.
+//! Three-phase bridges: only the switch timing is covered ([`three_phase_samples`]: each leg's
+//! state and low-side conduction window at the current-sampling instant, per PWM period); the
+//! phase currents through the three coupled phases are not simulated yet.
 
 use crate::timer::Alignment;
 use std::fmt;
@@ -235,6 +237,8 @@ pub enum VerifyError {
     Circuit,
     /// The steady-state solver did not converge (should not happen; reported, never hidden).
     NoSteadyState,
+    /// A sampling trigger's counter value beyond the counter's range.
+    Trigger(u64),
 }
 
 impl fmt::Display for VerifyError {
@@ -258,6 +262,9 @@ impl fmt::Display for VerifyError {
                 "R and L must be positive; voltages and on-resistance zero or positive"
             ),
             VerifyError::NoSteadyState => write!(f, "the periodic steady state was not found"),
+            VerifyError::Trigger(c) => {
+                write!(f, "trigger counter value {c} beyond the counter's range")
+            }
         }
     }
 }
@@ -1232,6 +1239,100 @@ impl Verification {
     }
 }
 
+// ---------------------------------------------------------------------------------------------
+// Three-phase: leg states at the sampling instant
+// ---------------------------------------------------------------------------------------------
+
+/// A current-sampling trigger: a counter value and the counting direction (the direction
+/// matters on a centre-aligned counter only).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SampleTrigger {
+    /// Counter value, `0..period_ticks` (edge) or `0..=period_ticks / 2` (centre).
+    pub counter: u64,
+    /// Centre alignment: the match while counting up (`true`) or down (`false`).
+    pub counting_up: bool,
+}
+
+impl SampleTrigger {
+    /// The trigger instant in `[0, T)`, s, `t = 0` at counter 0 (edge) or the bottom (centre):
+    /// `counter·tick` (edge, or centre counting up), `T − counter·tick` (centre counting down).
+    pub fn time_s(&self, regs: &TimerRegisters) -> f64 {
+        let up = self.counter as f64 * regs.tick_s;
+        match (regs.alignment, self.counting_up) {
+            (Alignment::Centre, false) => (regs.period_s() - up).rem_euclid(regs.period_s()),
+            _ => up,
+        }
+    }
+
+    fn validate(&self, regs: &TimerRegisters) -> Result<(), VerifyError> {
+        let top = match regs.alignment {
+            Alignment::Edge => regs.period_ticks - 1,
+            Alignment::Centre => regs.period_ticks / 2,
+        };
+        if self.counter > top {
+            return Err(VerifyError::Trigger(self.counter));
+        }
+        Ok(())
+    }
+}
+
+/// One leg at the sampling instant.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LegSample {
+    /// The leg's switch state at the instant (an output turning on exactly then counts as on).
+    pub state: LegState,
+    /// The leg's reference (before dead-time insertion) is high.
+    pub reference: bool,
+    /// When the low-side output is on: time since it turned on, s (the whole period when it
+    /// is always on, measured from the period start).
+    pub low_on_since_s: Option<f64>,
+    /// When the low-side output is on: time until it turns off, s (to the period end when it
+    /// is always on).
+    pub low_on_until_s: Option<f64>,
+}
+
+/// Each leg's state at the sampling instant of every PWM period, for a three-phase bridge on
+/// one counter (`compares[n]` = the three legs' compare values in period `n`, normal
+/// polarity). A low-side shunt sees its phase current only while its leg is `Low` (or `Dead`
+/// with the current out of the leg through the low-side diode); the since/until margins say how
+/// far the instant is from the low-side edges (the settling and sampling window).
+pub fn three_phase_samples(
+    regs: &TimerRegisters,
+    compares: &[[u64; 3]],
+    trigger: SampleTrigger,
+) -> Result<Vec<[LegSample; 3]>, VerifyError> {
+    regs.validate()?;
+    trigger.validate(regs)?;
+    let t = trigger.time_s(regs);
+    let mut out = Vec::with_capacity(compares.len());
+    for period in compares {
+        let mut legs = [None; 3];
+        for (slot, &compare) in legs.iter_mut().zip(period) {
+            let arcs = leg_arcs(regs, LegCompare::new(compare), true)?;
+            *slot = Some(leg_sample(&arcs, t, regs.period_s()));
+        }
+        out.push(legs.map(|l| l.expect("every leg sampled")));
+    }
+    Ok(out)
+}
+
+fn leg_sample(arcs: &LegArcs, t_s: f64, period_s: f64) -> LegSample {
+    let low = arcs.low.filter(|l| l.contains(t_s, period_s));
+    let since = low.map(|l| {
+        if l.len_s >= period_s {
+            t_s
+        } else {
+            (t_s - l.start_s).rem_euclid(period_s)
+        }
+    });
+    LegSample {
+        state: arcs.state_at(t_s, period_s),
+        reference: arcs.reference.contains(t_s, period_s),
+        low_on_since_s: since,
+        low_on_until_s: low.zip(since).map(|(l, s)| l.len_s.min(period_s) - s),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -1428,6 +1529,58 @@ mod tests {
             v.voltage.dcm_v,
             c.back_emf_v * (z.t1_s - z.t0_s) / v.period_s
         ));
+    }
+
+    /// By hand: centre, 100 ticks, dead time 2 ticks, compares 10, 25, 40 (reference high for
+    /// |t| < c ticks around the bottom; low side on from c + 2 to 100 − c). At the counter top
+    /// (t = 50) every low side conducts; on the down-count at counter 1 (t = 99) every high side
+    /// does, so no low-side shunt carries current (defect 13 of issue 14).
+    #[test]
+    fn three_phase_leg_states_at_the_trigger_by_hand() {
+        let r = regs(Alignment::Centre, 100, 2);
+        let periods = [[10, 25, 40], [0, 50, 49]];
+        let top = SampleTrigger {
+            counter: 50,
+            counting_up: true,
+        };
+        let s = three_phase_samples(&r, &periods, top).unwrap();
+        assert_eq!(s.len(), 2);
+        for (leg, c) in s[0].iter().zip([10.0, 25.0, 40.0]) {
+            assert_eq!((leg.state, leg.reference), (LegState::Low, false));
+            assert!(close(
+                leg.low_on_since_s.unwrap(),
+                (50.0 - c - 2.0) * TICK_S
+            ));
+            assert!(close(leg.low_on_until_s.unwrap(), (50.0 - c) * TICK_S));
+        }
+        // Compare 0: low side always on; 50: never on (high always); 49: the low-side
+        // reference lasts 2 ticks = the dead time, swallowed: the leg is dead at the top.
+        assert_eq!(s[1][0].state, LegState::Low);
+        assert!(close(s[1][0].low_on_since_s.unwrap(), 50.0 * TICK_S));
+        assert!(close(s[1][0].low_on_until_s.unwrap(), 50.0 * TICK_S));
+        assert_eq!(
+            (s[1][1].state, s[1][1].low_on_since_s),
+            (LegState::High, None)
+        );
+        assert_eq!((s[1][2].state, s[1][2].reference), (LegState::Dead, false));
+        let down = SampleTrigger {
+            counter: 1,
+            counting_up: false,
+        };
+        assert!(close(down.time_s(&r), 99.0 * TICK_S));
+        let s = three_phase_samples(&r, &periods[..1], down).unwrap();
+        assert!(
+            s[0].iter()
+                .all(|l| l.state == LegState::High && l.low_on_since_s.is_none())
+        );
+        let beyond = SampleTrigger {
+            counter: 51,
+            counting_up: true,
+        };
+        assert_eq!(
+            three_phase_samples(&r, &periods, beyond),
+            Err(VerifyError::Trigger(51))
+        );
     }
 
     #[test]
