@@ -552,3 +552,74 @@ fn lines_satisfy_parseval() {
         }
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// Robustness over many random designs
+// ---------------------------------------------------------------------------------------------
+
+/// 2 000 random stages over wide ranges (τ/T from 1e-3 to 1e4, dead time up to 20 % of the
+/// period, back-EMF beyond both rails): the pieces tile `[0, T)` and join continuously,
+/// including across the period boundary (the fixed point), the residual is below 1e-9 of the
+/// largest asymptote, and the steady state balances its mean terminal voltage,
+/// `mean v_m = R·mean i + E` (the mean of `L·di/dt` over a period is zero).
+#[test]
+fn steady_state_is_consistent_over_random_designs() {
+    let mut rng = Rng(0x5eed_0004);
+    for case in 0..2000 {
+        let alignment = rng.pick(&[Alignment::Edge, Alignment::Centre]);
+        let period_ticks = 2 * rng.int(1, 30_000);
+        let f_hz = rng.log_range(100.0, 500e3);
+        let tick_s = 1.0 / (f_hz * period_ticks as f64);
+        let regs = TimerRegisters {
+            tick_s,
+            alignment,
+            period_ticks,
+            dead_time_s: rng.range(0.0, 0.2) / f_hz,
+        };
+        let stage = random_stage(&mut rng, regs.duty_steps());
+        let r = rng.log_range(0.01, 50.0);
+        let v = rng.range(1.0, 400.0);
+        let c = Circuit {
+            r_ohm: r,
+            l_h: regs.period_s() * rng.log_range(1e-3, 1e4) * r,
+            back_emf_v: rng.range(-0.3, 1.3) * v,
+            v_bus_v: v,
+            r_ds_on_ohm: rng.range(0.0, 0.5) * r,
+            v_sd_v: rng.range(0.0, 2.0),
+            v_f_v: rng.range(0.0, 2.0),
+        };
+        let out = verify(&regs, &stage, &c).unwrap();
+        let ctx = format!("case {case}: {regs:?} {stage:?} {c:?}");
+        let scale = (v + c.v_sd_v.max(c.v_f_v) + c.back_emf_v.abs()) / r;
+        assert!(out.residual_a.abs() <= 1e-9 * scale, "residual: {ctx}");
+        let first = out.pieces.first().unwrap();
+        let last = out.pieces.last().unwrap();
+        assert_eq!(first.t0_s, 0.0, "{ctx}");
+        assert!(
+            (last.t1_s - out.period_s).abs() <= 1e-12 * out.period_s,
+            "{ctx}"
+        );
+        assert!(
+            (last.i1_a - first.i0_a).abs() <= 1e-9 * scale,
+            "wrap: {ctx}"
+        );
+        for w in out.pieces.windows(2) {
+            assert_eq!(w[0].t1_s, w[1].t0_s, "{ctx}");
+            assert!(
+                (w[0].i1_a - w[1].i0_a).abs() <= 1e-12 * scale,
+                "join: {ctx}"
+            );
+        }
+        let balance = c.r_ohm * out.mean_a + c.back_emf_v;
+        assert!(
+            (out.voltage.mean_v - balance).abs() <= 1e-8 * (v + c.back_emf_v.abs()),
+            "balance {} vs {balance}: {ctx}",
+            out.voltage.mean_v
+        );
+        assert!(
+            out.min_a <= out.mean_a + 1e-12 * scale && out.mean_a <= out.max_a + 1e-12 * scale,
+            "{ctx}"
+        );
+        assert!(out.rms_a + 1e-12 * scale >= out.mean_a.abs(), "{ctx}");
+    }
+}
