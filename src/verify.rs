@@ -60,9 +60,17 @@
 //! `[−B, B]` with `B` the largest `|i_∞|` of any state (own derivation); the residual is
 //! reported ([`Verification::residual_a`]).
 //!
-//! Three-phase bridges: only the switch timing is covered ([`three_phase_samples`]: each leg's
-//! state and low-side conduction window at the current-sampling instant, per PWM period); the
-//! phase currents through the three coupled phases are not simulated yet.
+//! # Three-phase bridges
+//!
+//! [`three_phase_samples`] gives each leg's state and low-side conduction window at the
+//! current-sampling trigger, per PWM period (timing only). [`verify_three_phase`] also solves
+//! the phase currents of a star R–L–EMF motor with a floating neutral over one electrical
+//! period (compares supplied per PWM period) and reports them, and the low-side shunt
+//! currents, at the trigger. Convention: PWM period `n` runs from counter bottom to counter
+//! bottom and shows compare `n`'s waveform (a compare update takes effect at the bottom); a
+//! high-side turn-on delayed past the bottom (dead time longer than the compare interval) is
+//! taken with the new period's compare (assumption). Two phases blocked at once (deep
+//! discontinuous conduction) is refused, not simulated.
 
 use crate::timer::Alignment;
 use std::fmt;
@@ -239,6 +247,9 @@ pub enum VerifyError {
     NoSteadyState,
     /// A sampling trigger's counter value beyond the counter's range.
     Trigger(u64),
+    /// Two phases of a three-phase bridge blocked at once (deep discontinuous conduction):
+    /// not simulated.
+    DeepDiscontinuous,
 }
 
 impl fmt::Display for VerifyError {
@@ -265,6 +276,10 @@ impl fmt::Display for VerifyError {
             VerifyError::Trigger(c) => {
                 write!(f, "trigger counter value {c} beyond the counter's range")
             }
+            VerifyError::DeepDiscontinuous => write!(
+                f,
+                "two phases blocked at once (deep discontinuous conduction) is not simulated"
+            ),
         }
     }
 }
@@ -1331,6 +1346,581 @@ fn leg_sample(arcs: &LegArcs, t_s: f64, period_s: f64) -> LegSample {
         low_on_since_s: since,
         low_on_until_s: low.zip(since).map(|(l, s)| l.len_s.min(period_s) - s),
     }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Three-phase: phase currents
+// ---------------------------------------------------------------------------------------------
+
+/// A star-connected three-phase motor (neutral floating), per phase, with a sinusoidal
+/// back-EMF `e_k(t) = emf_peak_v·sin(ω·t + emf_angle_rad − k·2π/3)`, `k` = 0, 1, 2 for legs
+/// a, b, c, `ω = 2π/(N·T)` with `N` PWM periods per electrical period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ThreePhaseLoad {
+    /// Phase resistance, Ω (> 0).
+    pub r_ohm: f64,
+    /// Phase inductance, H (> 0).
+    pub l_h: f64,
+    /// Phase back-EMF peak, V.
+    pub emf_peak_v: f64,
+    /// Angle of phase a's back-EMF at `t = 0`, rad.
+    pub emf_angle_rad: f64,
+}
+
+/// The bridge's supply and switches, SI units.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BridgeSwitches {
+    pub v_bus_v: f64,
+    /// On-resistance of each conducting switch, Ω.
+    pub r_ds_on_ohm: f64,
+    /// Body-diode forward voltage, V.
+    pub v_sd_v: f64,
+}
+
+/// The bridge at the sampling instant of one PWM period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ThreePhaseSample {
+    /// The instant, s from the start of the electrical period.
+    pub time_s: f64,
+    pub legs: [LegSample; 3],
+    /// Phase currents out of the legs into the motor, A.
+    pub phase_a: [f64; 3],
+    /// The part of each phase current carried by the low side (switch or body diode), out of
+    /// the leg, A: what a low-side shunt measures (its voltage is −R_shunt times this).
+    pub low_side_a: [f64; 3],
+}
+
+/// The periodic steady state of a three-phase bridge over one electrical period.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ThreePhaseVerification {
+    pub electrical_hz: f64,
+    /// One sample per PWM period at the trigger instant.
+    pub samples: Vec<ThreePhaseSample>,
+    /// Largest phase-current change over one electrical period from the solution, A.
+    pub residual_a: f64,
+}
+
+/// Event-search grid points per interval for a floating leg (see [`verify_three_phase`]).
+const EVENT_GRID: usize = 16;
+
+/// Events handled within one interval before giving up.
+const MAX_EVENTS_PER_INTERVAL: usize = 24;
+
+type V2 = [f64; 2];
+type M2 = [[f64; 2]; 2];
+
+fn m2_mul_v(m: &M2, v: V2) -> V2 {
+    [
+        m[0][0] * v[0] + m[0][1] * v[1],
+        m[1][0] * v[0] + m[1][1] * v[1],
+    ]
+}
+
+fn m2_inv(m: &M2) -> M2 {
+    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+    [
+        [m[1][1] / det, -m[0][1] / det],
+        [-m[1][0] / det, m[0][0] / det],
+    ]
+}
+
+fn m2_mul(a: &M2, b: &M2) -> M2 {
+    let mut out = [[0.0; 2]; 2];
+    for (r, row) in out.iter_mut().enumerate() {
+        for (c, x) in row.iter_mut().enumerate() {
+            *x = a[r][0] * b[0][c] + a[r][1] * b[1][c];
+        }
+    }
+    out
+}
+
+/// `(jω·I − A)⁻¹·c` for a real 2×2 `A` and a complex vector `c` (Cramer's rule).
+fn complex_solve(a: &M2, omega: f64, c: [Complex; 2]) -> [Complex; 2] {
+    let m = |r: usize, k: usize| {
+        let diag = if r == k { omega } else { 0.0 };
+        Complex::new(-a[r][k], diag)
+    };
+    let det = m(0, 0).mul(m(1, 1)).sub(m(0, 1).mul(m(1, 0)));
+    [
+        c[0].mul(m(1, 1)).sub(m(0, 1).mul(c[1])).div(det),
+        m(0, 0).mul(c[1]).sub(c[0].mul(m(1, 0))).div(det),
+    ]
+}
+
+/// `e^(A·τ)` of a 2×2 matrix with real eigenvalues `s ± δ` (Sylvester's formula; own
+/// derivation of the small-δ limit).
+fn m2_exp(a: &M2, tau: f64) -> M2 {
+    let s = 0.5 * (a[0][0] + a[1][1]);
+    let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+    let delta = (s * s - det).max(0.0).sqrt();
+    let (e1, e2) = (((s + delta) * tau).exp(), ((s - delta) * tau).exp());
+    let mean = 0.5 * (e1 + e2);
+    let slope = if delta * tau < 1e-5 {
+        tau * (s * tau).exp() * (1.0 + (delta * tau).powi(2) / 6.0)
+    } else {
+        (e1 - e2) / (2.0 * delta)
+    };
+    [
+        [mean + slope * (a[0][0] - s), slope * a[0][1]],
+        [slope * a[1][0], mean + slope * (a[1][1] - s)],
+    ]
+}
+
+/// Which phases conduct: all three, or two with phase `k` blocked (its leg floating, its
+/// current zero).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Mode {
+    Full,
+    Open(usize),
+}
+
+/// The coupled phases in one mode over one interval: `M·z' = Bᵀ(a − e(t)) − K·z` with the
+/// phase currents `i = B·z`, `M = L·BᵀB`, `K = Bᵀ·diag(R + r_k)·B` (loop equations through the
+/// floating neutral: `Bᵀ·1 = 0` removes its voltage; own derivation). The exact solution is
+/// `z(t) = z_p(t) + e^(A(t−t0))·(z(t0) − z_p(t0))`, `A = −M⁻¹K`, with the particular
+/// solution `z_p(t) = K⁻¹Bᵀa + Im(w·e^(jωt))`, `(jωI − A)·w = −E·e^(jφ)·M⁻¹Bᵀu`,
+/// `u_k = e^(−j2πk/3)` (linear ODE with sinusoidal forcing: common practice).
+#[derive(Debug, Clone, Copy)]
+struct Coupled {
+    basis: [[f64; 2]; 3],
+    a: M2,
+    z_const: V2,
+    w: [Complex; 2],
+    omega: f64,
+    /// Per phase `(a_k, r_k)`: the leg voltage `a_k − r_k·i_k`.
+    legs: [(f64, f64); 3],
+    mode: Mode,
+}
+
+fn mode_basis(mode: Mode) -> [[f64; 2]; 3] {
+    match mode {
+        Mode::Full => [[1.0, 0.0], [0.0, 1.0], [-1.0, -1.0]],
+        Mode::Open(k) => {
+            let (j, l) = others(k);
+            let mut b = [[0.0; 2]; 3];
+            b[j][0] = 1.0;
+            b[l][0] = -1.0;
+            b
+        }
+    }
+}
+
+fn others(k: usize) -> (usize, usize) {
+    match k {
+        0 => (1, 2),
+        1 => (0, 2),
+        _ => (0, 1),
+    }
+}
+
+impl Coupled {
+    fn new(mode: Mode, legs: [(f64, f64); 3], load: &ThreePhaseLoad, omega: f64) -> Coupled {
+        let b = mode_basis(mode);
+        let mut m = [[0.0; 2]; 2];
+        let mut k = [[0.0; 2]; 2];
+        let mut bta = [0.0; 2];
+        let mut btu = [Complex::new(0.0, 0.0); 2];
+        for (p, row) in b.iter().enumerate() {
+            let g = load.r_ohm + legs[p].1;
+            let u = Complex::unit(2.0 * std::f64::consts::PI * p as f64 / 3.0);
+            for r in 0..2 {
+                bta[r] += row[r] * legs[p].0;
+                btu[r] = btu[r].add(u.scale(row[r]));
+                for c in 0..2 {
+                    m[r][c] += load.l_h * row[r] * row[c];
+                    k[r][c] += g * row[r] * row[c];
+                }
+            }
+        }
+        if let Mode::Open(_) = mode {
+            // The unused second coordinate: same dynamics, no forcing, stays at zero.
+            m[1][1] = m[0][0];
+            k[1][1] = k[0][0];
+        }
+        let m_inv = m2_inv(&m);
+        let mk = m2_mul(&m_inv, &k);
+        let a = [[-mk[0][0], -mk[0][1]], [-mk[1][0], -mk[1][1]]];
+        let emf =
+            Complex::new(0.0, 0.0).sub(Complex::unit(-load.emf_angle_rad).scale(load.emf_peak_v));
+        let c = [0, 1].map(|r| {
+            m_inv[r][0..2]
+                .iter()
+                .zip(btu)
+                .fold(Complex::new(0.0, 0.0), |acc, (&x, u)| acc.add(u.scale(x)))
+                .mul(emf)
+        });
+        Coupled {
+            basis: b,
+            a,
+            z_const: m2_mul_v(&m2_inv(&k), bta),
+            w: complex_solve(&a, omega, c),
+            omega,
+            legs,
+            mode,
+        }
+    }
+
+    fn particular(&self, t: f64) -> V2 {
+        let e = Complex::unit(-self.omega * t);
+        [0, 1].map(|r| self.z_const[r] + self.w[r].mul(e).im)
+    }
+
+    fn z_at(&self, z0: V2, t0: f64, t: f64) -> V2 {
+        let p0 = self.particular(t0);
+        let d = m2_mul_v(&m2_exp(&self.a, t - t0), [z0[0] - p0[0], z0[1] - p0[1]]);
+        let p = self.particular(t);
+        [p[0] + d[0], p[1] + d[1]]
+    }
+
+    fn currents(&self, z: V2) -> [f64; 3] {
+        self.basis.map(|row| row[0] * z[0] + row[1] * z[1])
+    }
+
+    /// Voltage of the floating leg `k` in `Open(k)`: the neutral plus its EMF,
+    /// `v_n = Σ_conducting (v_j − e_j)/2` (own derivation).
+    fn floating_leg_v(&self, k: usize, i: [f64; 3], t: f64, load: &ThreePhaseLoad) -> f64 {
+        let (j, l) = others(k);
+        let v =
+            |p: usize| self.legs[p].0 - self.legs[p].1 * i[p] - phase_emf(load, self.omega, p, t);
+        0.5 * (v(j) + v(l)) + phase_emf(load, self.omega, k, t)
+    }
+}
+
+fn phase_emf(load: &ThreePhaseLoad, omega: f64, k: usize, t: f64) -> f64 {
+    let angle = omega * t + load.emf_angle_rad - 2.0 * std::f64::consts::PI * k as f64 / 3.0;
+    load.emf_peak_v * angle.sin()
+}
+
+fn z_of(mode: Mode, i: [f64; 3]) -> V2 {
+    match mode {
+        Mode::Full => [i[0], i[1]],
+        Mode::Open(k) => [i[others(k).0], 0.0],
+    }
+}
+
+/// One PWM period's intervals of constant leg states, with the trigger as a cut.
+#[derive(Debug, Clone, Copy)]
+struct Interval3 {
+    t0_s: f64,
+    t1_s: f64,
+    legs: [LegState; 3],
+    /// The interval starts at the trigger instant.
+    sample: Option<[LegSample; 3]>,
+}
+
+fn period_intervals(
+    regs: &TimerRegisters,
+    compares: [u64; 3],
+    trigger_s: f64,
+    offset_s: f64,
+) -> Result<Vec<Interval3>, VerifyError> {
+    let t = regs.period_s();
+    let mut arcs = Vec::with_capacity(3);
+    for c in compares {
+        arcs.push(leg_arcs(regs, LegCompare::new(c), true)?);
+    }
+    let mut cuts = vec![0.0, t, trigger_s];
+    for leg in &arcs {
+        for arc in [Some(leg.high), leg.low].into_iter().flatten() {
+            if let Some((r, f)) = arc.edges(t) {
+                cuts.extend([r, f]);
+            }
+        }
+    }
+    cuts.sort_by(f64::total_cmp);
+    cuts.dedup_by(|b, a| *b - *a <= MERGE_REL * t);
+    if let Some(last) = cuts.last_mut() {
+        *last = t;
+    }
+    let sample_at = cuts
+        .iter()
+        .position(|&c| (c - trigger_s).abs() <= MERGE_REL * t);
+    Ok(cuts
+        .windows(2)
+        .enumerate()
+        .map(|(n, w)| {
+            let mid = 0.5 * (w[0] + w[1]);
+            Interval3 {
+                t0_s: offset_s + w[0],
+                t1_s: offset_s + w[1],
+                legs: [0, 1, 2].map(|k| arcs[k].state_at(mid, t)),
+                sample: (Some(n) == sample_at)
+                    .then(|| [0, 1, 2].map(|k| leg_sample(&arcs[k], trigger_s, t))),
+            }
+        })
+        .collect())
+}
+
+/// The three-phase solver over one electrical period.
+struct Sim3<'a> {
+    intervals: &'a [Interval3],
+    load: &'a ThreePhaseLoad,
+    /// The switches as a `Circuit` for [`leg_terminal`] (only `v_bus_v`, `r_ds_on_ohm`,
+    /// `v_sd_v` are read).
+    switches: Circuit,
+    omega: f64,
+}
+
+/// The event functions of one mode: currents through floating legs keep their sign; a blocked
+/// phase's floating leg stays between the diode thresholds. All positive while nothing happens.
+struct Watch {
+    /// `(phase, +1 or −1)` for each conducting phase whose leg floats.
+    signs: Vec<(usize, f64)>,
+    open: Option<usize>,
+}
+
+impl Sim3<'_> {
+    fn run(
+        &self,
+        i0: [f64; 3],
+        mut samples: Option<&mut Vec<ThreePhaseSample>>,
+    ) -> Result<[f64; 3], VerifyError> {
+        let mut i = i0;
+        for iv in self.intervals {
+            if let (Some(s), Some(legs)) = (samples.as_deref_mut(), iv.sample) {
+                s.push(three_phase_sample(legs, i, iv.t0_s));
+            }
+            i = self.advance(iv, i)?;
+        }
+        Ok(i)
+    }
+
+    fn coupled(&self, mode: Mode, legs: [LegState; 3], positive: [bool; 3]) -> Coupled {
+        let terms = [0, 1, 2].map(|p| {
+            let t = leg_terminal(legs[p], positive[p], &self.switches);
+            (t.a_v, t.r_ohm)
+        });
+        Coupled::new(mode, terms, self.load, self.omega)
+    }
+
+    /// The mode at `t` from the currents: a floating leg with zero current stays blocked while
+    /// its voltage lies between the diode thresholds, else its diode conducts.
+    fn choose(
+        &self,
+        legs: [LegState; 3],
+        i: [f64; 3],
+        t: f64,
+    ) -> Result<(Coupled, Watch), VerifyError> {
+        let mut positive = i.map(|x| x > 0.0);
+        let zero: Vec<usize> = (0..3)
+            .filter(|&p| legs[p] == LegState::Dead && i[p] == 0.0)
+            .collect();
+        let mut mode = Mode::Full;
+        match zero.as_slice() {
+            [] => {}
+            [k] => {
+                let open = self.coupled(Mode::Open(*k), legs, positive);
+                let v = open.floating_leg_v(*k, i, t, self.load);
+                if v < -self.switches.v_sd_v {
+                    positive[*k] = true;
+                } else if v > self.switches.v_bus_v + self.switches.v_sd_v {
+                    positive[*k] = false;
+                } else {
+                    mode = Mode::Open(*k);
+                }
+            }
+            _ => return Err(VerifyError::DeepDiscontinuous),
+        }
+        let coupled = self.coupled(mode, legs, positive);
+        let open = match mode {
+            Mode::Open(k) => Some(k),
+            Mode::Full => None,
+        };
+        let signs = (0..3)
+            .filter(|&p| legs[p] == LegState::Dead && Some(p) != open)
+            .map(|p| (p, if positive[p] { 1.0 } else { -1.0 }))
+            .collect();
+        Ok((coupled, Watch { signs, open }))
+    }
+
+    fn event_min(&self, c: &Coupled, watch: &Watch, i: [f64; 3], t: f64) -> f64 {
+        let mut f = watch
+            .signs
+            .iter()
+            .map(|&(p, s)| i[p] * s)
+            .fold(f64::INFINITY, f64::min);
+        if let Some(k) = watch.open {
+            let v = c.floating_leg_v(k, i, t, self.load);
+            f = f
+                .min(v + self.switches.v_sd_v)
+                .min(self.switches.v_bus_v + self.switches.v_sd_v - v);
+        }
+        f
+    }
+
+    /// Advances the currents through one interval, event by event.
+    fn advance(&self, iv: &Interval3, i0: [f64; 3]) -> Result<[f64; 3], VerifyError> {
+        let (mut t, t1) = (iv.t0_s, iv.t1_s);
+        let mut i = i0;
+        for _ in 0..MAX_EVENTS_PER_INTERVAL {
+            let (c, watch) = self.choose(iv.legs, i, t)?;
+            let z0 = z_of(c.mode, i);
+            let at = |tt: f64| c.currents(c.z_at(z0, t, tt));
+            if watch.signs.is_empty() && watch.open.is_none() {
+                return Ok(at(t1));
+            }
+            let f = |tt: f64| self.event_min(&c, &watch, at(tt), tt);
+            let Some(te) = first_event(t, t1, f) else {
+                return Ok(at(t1));
+            };
+            i = at(te);
+            for &(p, s) in &watch.signs {
+                if i[p] * s <= 0.0 {
+                    i = zero_phase(i, p);
+                }
+            }
+            t = te;
+        }
+        Err(VerifyError::DeepDiscontinuous)
+    }
+}
+
+/// The first instant in `(t0, t1]` where `f` drops to zero or below: a grid of
+/// [`EVENT_GRID`] points, then bisection (the instant just past the event is returned).
+fn first_event(t0: f64, t1: f64, f: impl Fn(f64) -> f64) -> Option<f64> {
+    let mut prev = t0;
+    for g in 1..=EVENT_GRID {
+        let t = t0 + (t1 - t0) * g as f64 / EVENT_GRID as f64;
+        if f(t) <= 0.0 {
+            let (mut lo, mut hi) = (prev, t);
+            for _ in 0..64 {
+                let mid = 0.5 * (lo + hi);
+                if mid <= lo || mid >= hi {
+                    break;
+                }
+                if f(mid) > 0.0 {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            return Some(hi);
+        }
+        prev = t;
+    }
+    None
+}
+
+/// Sets phase `p`'s current to zero, keeping the sum of the three at zero.
+fn zero_phase(mut i: [f64; 3], p: usize) -> [f64; 3] {
+    let (q, r) = others(p);
+    i[p] = 0.0;
+    let d = 0.5 * (i[q] + i[r]);
+    i[q] -= d;
+    i[r] -= d;
+    i
+}
+
+fn three_phase_sample(legs: [LegSample; 3], i: [f64; 3], t: f64) -> ThreePhaseSample {
+    let low = [0, 1, 2].map(|k| match legs[k].state {
+        LegState::Low => i[k],
+        LegState::Dead if i[k] > 0.0 => i[k],
+        _ => 0.0,
+    });
+    ThreePhaseSample {
+        time_s: t,
+        legs,
+        phase_a: i,
+        low_side_a: low,
+    }
+}
+
+/// Verifies a three-phase bridge (three legs on one counter, normal polarity) driving a star
+/// R–L–EMF motor over one electrical period of `compares.len()` PWM periods: the periodic
+/// steady state of the phase currents, sampled at `trigger` in every PWM period.
+///
+/// Method (own): intervals of constant leg states per PWM period; in each, the exact solution
+/// of the coupled phases ([`Coupled`]: two independent currents, one when a phase is blocked);
+/// within intervals where a leg floats, diode events (a current reaching zero, a blocked
+/// phase's leg reaching a diode threshold) are located on a grid of [`EVENT_GRID`] points and
+/// bisected, so two events closer than 1/16 of such an interval would be missed (assumption:
+/// floating intervals are dead times, short against τ). The fixed point over the electrical
+/// period is found by Newton steps with a difference Jacobian, falling back to plain
+/// iteration (the map is a contraction). Two phases blocked at once (deep discontinuous
+/// conduction) is refused with [`VerifyError::DeepDiscontinuous`].
+pub fn verify_three_phase(
+    regs: &TimerRegisters,
+    compares: &[[u64; 3]],
+    trigger: SampleTrigger,
+    load: &ThreePhaseLoad,
+    switches: &BridgeSwitches,
+) -> Result<ThreePhaseVerification, VerifyError> {
+    regs.validate()?;
+    trigger.validate(regs)?;
+    let circuit = Circuit {
+        r_ohm: load.r_ohm,
+        l_h: load.l_h,
+        back_emf_v: load.emf_peak_v,
+        v_bus_v: switches.v_bus_v,
+        r_ds_on_ohm: switches.r_ds_on_ohm,
+        v_sd_v: switches.v_sd_v,
+        v_f_v: 0.0,
+    };
+    circuit.validate()?;
+    if compares.is_empty() || !load.emf_angle_rad.is_finite() {
+        return Err(VerifyError::Circuit);
+    }
+    let period_s = regs.period_s();
+    let trigger_s = trigger.time_s(regs);
+    let mut intervals = Vec::new();
+    for (n, &c) in compares.iter().enumerate() {
+        intervals.extend(period_intervals(regs, c, trigger_s, n as f64 * period_s)?);
+    }
+    let electrical_s = compares.len() as f64 * period_s;
+    let sim = Sim3 {
+        intervals: &intervals,
+        load,
+        switches: circuit,
+        omega: 2.0 * std::f64::consts::PI / electrical_s,
+    };
+    let scale = (switches.v_bus_v + switches.v_sd_v + load.emf_peak_v.abs()) / load.r_ohm;
+    let start = three_phase_fixed_point(&sim, scale)?;
+    let mut samples = Vec::with_capacity(compares.len());
+    let end = sim.run(start, Some(&mut samples))?;
+    let residual_a = (0..3)
+        .map(|k| (end[k] - start[k]).abs())
+        .fold(0.0, f64::max);
+    Ok(ThreePhaseVerification {
+        electrical_hz: 1.0 / electrical_s,
+        samples,
+        residual_a,
+    })
+}
+
+fn phase_currents(x: V2) -> [f64; 3] {
+    [x[0], x[1], -x[0] - x[1]]
+}
+
+/// Newton steps on `Z(x) − x` (difference Jacobian), plain iteration when a step does not
+/// reduce the residual.
+fn three_phase_fixed_point(sim: &Sim3, scale: f64) -> Result<[f64; 3], VerifyError> {
+    let map = |x: V2| -> Result<V2, VerifyError> {
+        let e = sim.run(phase_currents(x), None)?;
+        Ok([e[0], e[1]])
+    };
+    let norm = |a: V2, b: V2| (a[0] - b[0]).abs().max((a[1] - b[1]).abs());
+    let tol = 1e-11 * scale;
+    let mut x = [0.0, 0.0];
+    for _ in 0..MAX_FIXED_POINT_ITERATIONS {
+        let zx = map(x)?;
+        let r = norm(zx, x);
+        if r <= tol {
+            return Ok(phase_currents(x));
+        }
+        let h = 1e-7 * scale;
+        let z0 = map([x[0] + h, x[1]])?;
+        let z1 = map([x[0], x[1] + h])?;
+        let j = [
+            [(z0[0] - zx[0]) / h, (z1[0] - zx[0]) / h],
+            [(z0[1] - zx[1]) / h, (z1[1] - zx[1]) / h],
+        ];
+        let i_minus_j = m2_inv(&[[1.0 - j[0][0], -j[0][1]], [-j[1][0], 1.0 - j[1][1]]]);
+        let step = m2_mul_v(&i_minus_j, [zx[0] - x[0], zx[1] - x[1]]);
+        let newton = [x[0] + step[0], x[1] + step[1]];
+        let better = newton.iter().all(|v| v.is_finite()) && norm(map(newton)?, newton) < r;
+        x = if better { newton } else { zx };
+    }
+    Err(VerifyError::NoSteadyState)
 }
 
 #[cfg(test)]
