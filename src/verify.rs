@@ -60,6 +60,15 @@
 //! `[−B, B]` with `B` the largest `|i_∞|` of any state (own derivation); the residual is
 //! reported ([`Verification::residual_a`]).
 //!
+//! # Measurements
+//!
+//! Mean and rms integrate each exponential piece exactly; minimum and maximum lie at piece ends
+//! (each piece is monotone). The Fourier lines are the exact integrals of each piece against
+//! `e^(−jωt)` (no sampling, no DFT; own derivation), reported as rms values per harmonic of the
+//! PWM frequency. The mean terminal voltage is split into the references' ideal value, the
+//! dead-time loss, the switch and diode drops and the zero-current intervals
+//! ([`VoltageSplit`]).
+//!
 //! # Three-phase bridges
 //!
 //! [`three_phase_samples`] gives each leg's state and low-side conduction window at the
@@ -250,6 +259,9 @@ pub enum VerifyError {
     /// Two phases of a three-phase bridge blocked at once (deep discontinuous conduction):
     /// not simulated.
     DeepDiscontinuous,
+    /// More diode events in one interval than the three-phase solver handles (should not
+    /// happen; reported, never hidden).
+    TooManyEvents,
 }
 
 impl fmt::Display for VerifyError {
@@ -280,6 +292,9 @@ impl fmt::Display for VerifyError {
                 f,
                 "two phases blocked at once (deep discontinuous conduction) is not simulated"
             ),
+            VerifyError::TooManyEvents => {
+                write!(f, "too many diode events in one switching interval")
+            }
         }
     }
 }
@@ -1771,7 +1786,7 @@ impl Sim3<'_> {
             }
             t = te;
         }
-        Err(VerifyError::DeepDiscontinuous)
+        Err(VerifyError::TooManyEvents)
     }
 }
 
