@@ -618,6 +618,17 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         }
         _ => {}
     }
+    if matches!(st.modulation, Some(ModulationSpec::Unipolar))
+        && !t.alignments.contains(&AlignmentSpec::Centre)
+    {
+        // One up-counter shared by both legs gives one output pulse per period (ripple and
+        // sound at f), not the two symmetric pulses of unipolar switching: refused rather than
+        // planned on a model the registers would not realise.
+        return Err(c.fail(
+            "timer.alignments",
+            "unipolar switching places the two legs' pulses symmetrically on an up-down (centre-aligned) count, which doubles the ripple frequency; add `centre`, or use `modulation: bipolar`",
+        ));
+    }
     match (st.topology, &b.current_sensing) {
         (TopologySpec::ThreePhase, None) => {
             return Err(c.fail(

@@ -17,6 +17,7 @@ pub mod locate;
 pub mod model;
 pub mod physics;
 pub mod plan;
+pub mod register_check;
 pub mod report;
 pub mod solve;
 pub mod spec;

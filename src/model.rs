@@ -10,6 +10,7 @@ use serde::{Deserialize, Serialize};
 use crate::design::Design;
 use crate::physics::acoustics::{self, AcousticVerdict, AudibleMode, Significance};
 use crate::physics::deadtime::{self, DeadTimeInputs};
+use crate::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents, StageLevels};
 use crate::physics::losses::{self, DeviceRole, StageLosses};
 use crate::physics::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
@@ -527,6 +528,11 @@ pub struct CaseResult {
     pub case: OperatingCase,
     /// Mean load voltage / bus voltage.
     pub modulation: f64,
+    /// The compare duty (reference on-fraction) that gives this case's load
+    /// current once the dead time and the conduction drops are counted:
+    /// leg A of an H-bridge (leg B runs the complement), the single leg or
+    /// switch otherwise, the highest leg duty of a three-phase bridge.
+    pub compare_duty: f64,
     pub ripple: RippleFigures,
     pub losses: LossFigures,
     pub devices: Vec<DeviceFigures>,
@@ -668,7 +674,8 @@ impl Evaluator {
         if let Some(tp) = &self.three_phase {
             return self.case_three_phase(tp, case, f_hz, t_dead_s);
         }
-        let (m, w) = self.modulation_and_waveform(case, f_hz)?;
+        let (m, ideal) = self.modulation_and_waveform(case, f_hz)?;
+        let (compare_duty, w) = self.stage_duty_and_waveform(case, m, ideal, f_hz, t_dead_s);
         let load = load_current(&w);
         let st = &self.stage;
         let op = OperatingPoint {
@@ -726,6 +733,7 @@ impl Evaluator {
         Some(CaseResult {
             case: *case,
             modulation: m,
+            compare_duty,
             ripple: RippleFigures {
                 mean_a: w.i_avg_a(),
                 rms_a: w.i_rms_a(),
@@ -782,6 +790,131 @@ impl Evaluator {
         !matches!(self.stage.topology, Topology::LowSide)
     }
 
+    /// The legs' supply, dead time and drops at `case`. R_ds(on) is taken
+    /// at the junction limit: the largest drop the settings must overcome
+    /// (a choice of our own, on the safe side for reachability).
+    pub fn leg_drops(&self, case: &OperatingCase, f_hz: f64, t_dead_s: f64) -> StageDrops {
+        let sw = &self.stage.switch;
+        StageDrops {
+            v_bus_v: case.v_bus_v,
+            t_dead_s: if self.needs_dead_time() { t_dead_s } else { 0.0 },
+            f_sw_hz: f_hz,
+            r_ds_on_ohm: thermal::r_ds_on_ohm(sw, self.limits.t_j_max_c),
+            v_sd_v: sw.v_sd_v,
+        }
+    }
+
+    /// The compare duty that puts modulation `m` (mean load voltage / bus)
+    /// on the load, and the motor current the stage then really carries
+    /// (the ideal waveform at `m` starts the iteration). Leg A of an
+    /// H-bridge; leg B runs the complement (bipolar: the inverse reference;
+    /// unipolar: `1 − d`).
+    ///
+    /// Bridges: the load voltage over a period is the dead-time clamps at
+    /// the two edges, each held until the current reaches zero, the high and
+    /// low states less the switches' drop ([`leg_voltage::period_states`]);
+    /// which diode clamps and for how long depends on the currents at the
+    /// edges, which depend on the duty: solved together by fixed-point
+    /// iteration (damped after a few steps; own method). A single switch with
+    /// a freewheel diode: `m` is its duty already (the diode's drop is in
+    /// the waveform); its own drop I·R_ds(on) while on is made up by scaling
+    /// the duty, d·(V + V_f − I_on·R) − V_f = m·(V + V_f) − V_f (own
+    /// derivation). Falls back to the ideal waveform when the states do not
+    /// fit the period.
+    fn stage_duty_and_waveform(
+        &self,
+        case: &OperatingCase,
+        m: f64,
+        ideal: RippleWaveform,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> (f64, RippleWaveform) {
+        let drops = self.leg_drops(case, f_hz, t_dead_s);
+        let i_on = ideal.i_at_switch_on_a().unwrap_or(ideal.i_min_a());
+        let i_off = ideal.i_at_switch_off_a().unwrap_or(ideal.i_max_a());
+        let (v, vd, drive) = (case.v_bus_v, drops.v_sd_v, self.ripple_drive());
+        let level = |high_v, low_v, diode_v, switches_in_path, edges_per_period| StageLevels {
+            high_v,
+            low_v,
+            diode_v,
+            switches_in_path,
+            edges_per_period,
+        };
+        let levels = match drive {
+            Drive::LowSideFreewheel { v_f_v } => {
+                let v_on = v - 0.5 * (i_on + i_off) * drops.r_ds_on_ohm;
+                let d = m * (v + v_f_v) / (v_on + v_f_v);
+                let w = ripple::steady_state(&self.motor(case), drive, v_on, d.clamp(0.0, 1.0), f_hz);
+                return (d, w.unwrap_or(ideal));
+            }
+            Drive::HalfBridgeSynchronous => level(v, 0.0, vd, 1.0, 1.0),
+            Drive::HBridgeBipolar => level(v, -v, 2.0 * vd, 2.0, 1.0),
+            Drive::HBridgeUnipolar => level(v, 0.0, vd, 2.0, 2.0),
+        };
+        let conditions = DeadTimeConditions {
+            t_dead_s: drops.t_dead_s,
+            f_sw_hz: f_hz,
+            l_h: self.motor_l_h,
+            back_emf_v: case.back_emf_v,
+            r_ds_on_ohm: drops.r_ds_on_ohm,
+        };
+        let mut edges = EdgeCurrents {
+            at_start_a: i_on,
+            at_end_a: i_off,
+            mean_a: ideal.i_avg_a(),
+        };
+        let to_duty = |high: f64| match drive {
+            // Two pulses of (d_A − d_B)·T/2 with d_B = 1 − d_A.
+            Drive::HBridgeUnipolar => 0.5 * (1.0 + high),
+            _ => high,
+        };
+        let mut high = leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges);
+        let mut best = None;
+        for step in 0..60 {
+            let Some(states) = leg_voltage::period_states(high, &levels, &conditions, &edges) else {
+                break;
+            };
+            let Ok(w) = ripple::piecewise_steady_state(&self.motor(case), &states, (0, 3)) else {
+                break;
+            };
+            let (s, e) = (w.i_at_switch_on_a().unwrap_or(0.0), w.i_at_switch_off_a().unwrap_or(0.0));
+            let moved = (s - edges.at_start_a).abs().max((e - edges.at_end_a).abs());
+            best = Some((to_duty(high), w));
+            if moved <= 1e-9 * case.load_current_a.abs().max(1e-3) {
+                break;
+            }
+            // Plain steps first; then damped, which settles a clamp that flips.
+            let k = if step < 8 { 1.0 } else { 0.5 };
+            edges.at_start_a += k * (s - edges.at_start_a);
+            edges.at_end_a += k * (e - edges.at_end_a);
+            high = leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges);
+        }
+        best.unwrap_or_else(|| {
+            let d = to_duty(leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges));
+            (d, ideal)
+        })
+    }
+
+    /// The compare duty at the load current of `case` (see
+    /// [`Self::compare_duty`]); `None` when the load cannot be reached.
+    pub fn compare_duty_for_load(
+        &self,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<f64> {
+        if let Some(tp) = &self.three_phase {
+            let m = self.modulation_for_load(case, f_hz)?;
+            let drops = self.leg_drops(case, f_hz, t_dead_s);
+            return Some(
+                tp.modulation.leg_duty_max(m)
+                    + three_phase_duty_allowance(&drops, case.load_current_a.abs()),
+            );
+        }
+        let (m, w) = self.modulation_and_waveform(case, f_hz)?;
+        Some(self.stage_duty_and_waveform(case, m, w, f_hz, t_dead_s).0)
+    }
+
     /// Findings about ratings and drive that do not depend on the setting.
     pub fn rating_findings(&self, d: &Design) -> Vec<Finding> {
         let st = &self.stage;
@@ -802,6 +935,30 @@ impl Evaluator {
             stall_time_s: d.spec.constraints.stall_time.map(|t| t.si),
         })
     }
+}
+
+/// A stage's supply, dead time and conduction drops at one case.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StageDrops {
+    pub v_bus_v: f64,
+    /// Inserted dead time (0 for a single switch), s.
+    pub t_dead_s: f64,
+    pub f_sw_hz: f64,
+    /// On-resistance of a conducting switch, Ω.
+    pub r_ds_on_ohm: f64,
+    /// Body-diode forward voltage, V.
+    pub v_sd_v: f64,
+}
+
+/// Extra compare duty a three-phase leg needs at its highest duty so that
+/// the dead time and the drops do not cut the voltage the modulation asks
+/// for: the whole dead-time loss of one leg with its diode, t_d·f·(V + 2·V_SD),
+/// and the switch drop at the peak current, I·R_ds(on), over the bus (a
+/// conservative bound of our own from [`leg_voltage::offset_v`] with the
+/// current out of the leg at both edges).
+fn three_phase_duty_allowance(drops: &StageDrops, i_peak_a: f64) -> f64 {
+    let x = drops.t_dead_s * drops.f_sw_hz;
+    (x * (drops.v_bus_v + 2.0 * drops.v_sd_v) + i_peak_a * drops.r_ds_on_ohm) / drops.v_bus_v
 }
 
 /// The stage's loss split so that the lines add up to the total: the
@@ -952,7 +1109,7 @@ impl Evaluator {
         f_hz: f64,
         t_dead_s: f64,
     ) -> Option<CaseResult> {
-        match tp.modulation {
+        let mut r = match tp.modulation {
             ThreePhaseModulation::Sinusoidal {
                 zero_sequence,
                 current_advance_rad,
@@ -960,7 +1117,12 @@ impl Evaluator {
             ThreePhaseModulation::SixStep { chop } => {
                 self.case_six_step(tp, case, f_hz, t_dead_s, chop)
             }
-        }
+        }?;
+        let drops = self.leg_drops(case, f_hz, t_dead_s);
+        let i_peak = r.ripple.max_a.abs().max(case.load_current_a.abs());
+        r.compare_duty = tp.modulation.leg_duty_max(r.modulation)
+            + three_phase_duty_allowance(&drops, i_peak);
+        Some(r)
     }
 
     /// Sinusoidal case. The junction iteration runs on the closed forms
@@ -1241,6 +1403,8 @@ impl Evaluator {
         Some(CaseResult {
             case: *case,
             modulation,
+            // Set by `case_three_phase` (it knows the dead time).
+            compare_duty: modulation,
             ripple,
             losses,
             devices,

@@ -170,6 +170,7 @@ pub struct Plan {
     /// When infeasible: why, and the nearest compromise.
     pub conflict: Vec<String>,
     pub cases: Vec<CaseOut>,
+    pub load: LoadOut,
     pub assumptions: Vec<String>,
     pub cautions: Vec<String>,
     pub inputs: Vec<InputOut>,
@@ -310,6 +311,30 @@ pub struct Pwm {
     pub duty_needed: [f64; 2],
     /// Output-voltage error from the dead time, V (at the nominal supply).
     pub dead_time_voltage_error_v: f64,
+    /// The board's shortest allowed output pulse, s (0 when not given).
+    pub min_pulse_s: f64,
+    /// Bootstrap refresh time the low side must stay on, s.
+    pub refresh_s: Option<f64>,
+    /// High-side output on-time at `compare_min`, after the dead time, s.
+    pub shortest_high_pulse_s: f64,
+    /// Low-side output on-time (a single switch: off-time) at
+    /// `compare_max`, after the dead time, s.
+    pub shortest_low_pulse_s: f64,
+}
+
+/// The load and the conduction drops the plan's duties account for.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct LoadOut {
+    /// Motor resistance, Ω (brushless: per phase).
+    pub r_ohm: f64,
+    /// Motor inductance, H (brushless: per phase).
+    pub l_h: f64,
+    /// Switch on-resistance used for the drops: at the junction limit, Ω.
+    pub r_ds_on_ohm: f64,
+    /// Body-diode forward voltage during the dead time, V.
+    pub v_sd_v: f64,
+    /// Freewheel-diode forward voltage (single switch only), V.
+    pub freewheel_v_f_v: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -396,10 +421,20 @@ pub struct CaseOut {
     pub v_bus_v: f64,
     pub t_ambient_c: f64,
     pub load_current_a: f64,
+    /// Motor back-EMF at the operating speed, V.
+    pub back_emf_v: f64,
     pub modulation: f64,
+    /// Compare duty that gives the load current with the dead time and the
+    /// drops counted (leg A of an H-bridge; the highest leg duty of a
+    /// three-phase bridge).
+    pub compare_duty: f64,
+    /// `compare_duty` as a compare value, rounded to the nearest count.
+    pub compare: u64,
     pub losses_w: LossFigures,
     pub junction_c: Option<f64>,
     pub ripple_peak_to_peak_a: f64,
+    /// Lowest significant ripple line at or below the hearing limit.
+    pub lowest_audible_line_hz: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -667,6 +702,10 @@ pub fn build_on(
             compare_max: limits.map(|l| l.max_counts).unwrap_or(0),
             duty_needed: [c.duty_needed.0, c.duty_needed.1],
             dead_time_voltage_error_v: v_err,
+            min_pulse_s: ev.timer.compare.min_pulse_s,
+            refresh_s: ev.stage.bootstrap_refresh_s,
+            shortest_high_pulse_s: limits.map(|l| l.shortest_high_pulse_s).unwrap_or(0.0),
+            shortest_low_pulse_s: limits.map(|l| l.shortest_low_pulse_s).unwrap_or(0.0),
         },
         timer: TimerOut {
             clock_hz: ev.timer.clock_hz,
@@ -744,12 +783,29 @@ pub fn build_on(
                 v_bus_v: r.case.v_bus_v,
                 t_ambient_c: r.case.t_ambient_c,
                 load_current_a: r.case.load_current_a,
+                back_emf_v: r.case.back_emf_v,
                 modulation: r.modulation,
+                compare_duty: r.compare_duty,
+                compare: crate::timer::compare_for_duty(
+                    &crate::spread::pwm_setting(&c.setting),
+                    r.compare_duty,
+                ),
                 losses_w: r.losses.clone(),
                 junction_c: r.junction_c,
                 ripple_peak_to_peak_a: r.ripple.peak_to_peak_a,
+                lowest_audible_line_hz: r.acoustic.lowest_audible_line_hz,
             })
             .collect(),
+        load: {
+            let drops = ev.leg_drops(&ev.rated, c.setting.frequency_hz, c.dead_time.seconds);
+            LoadOut {
+                r_ohm: ev.motor_r_ohm,
+                l_h: ev.motor_l_h,
+                r_ds_on_ohm: drops.r_ds_on_ohm,
+                v_sd_v: drops.v_sd_v,
+                freewheel_v_f_v: ev.stage.diode.as_ref().map(|d| d.v_f_v),
+            }
+        },
         assumptions: if ev.three_phase.is_some() {
             THREE_PHASE_ASSUMPTIONS
         } else {

@@ -257,6 +257,10 @@ pub struct DutyLimitsOut {
     pub max_counts: u64,
     pub min_duty: f64,
     pub max_duty: f64,
+    /// High-side output on-time at `min_counts`, after the dead time, s.
+    pub shortest_high_pulse_s: f64,
+    /// Low-side output on-time (a single switch: off-time) at `max_counts`, s.
+    pub shortest_low_pulse_s: f64,
 }
 
 impl From<DutyLimits> for DutyLimitsOut {
@@ -266,6 +270,8 @@ impl From<DutyLimits> for DutyLimitsOut {
             max_counts: d.max_counts,
             min_duty: d.min_duty,
             max_duty: d.max_duty,
+            shortest_high_pulse_s: d.shortest_high_pulse_s,
+            shortest_low_pulse_s: d.shortest_low_pulse_s,
         }
     }
 }
@@ -339,24 +345,21 @@ impl Evaluator {
         DeadTimeChoice::encode(&self.timer, need)
     }
 
-    /// Channel duty range the load needs: from the high-bus case (lowest
-    /// modulation) to the low-bus case (highest). A sinusoidal three-phase
-    /// bridge swings each leg over 1 − d_max..d_max at the highest m.
-    pub fn duty_needed(&self, m_low: f64, m_high: f64) -> (f64, f64) {
+    /// Channel duty range the load needs, from the compare duties of the
+    /// high-bus case (lowest) and of the low-bus case (highest), each with
+    /// the dead time and the drops counted ([`Evaluator::compare_duty`]):
+    /// an H-bridge's leg B runs the complement of leg A, so a unipolar
+    /// bridge swings 1 − d..d; a sinusoidal three-phase leg swings
+    /// 1 − d..d around one half.
+    pub fn duty_needed(&self, d_high_bus: f64, d_low_bus: f64) -> (f64, f64) {
         if let Some(tp) = &self.three_phase
             && let ThreePhaseModulation::Sinusoidal { .. } = tp.modulation
         {
-            let d = tp.modulation.leg_duty_max(m_high);
-            return (1.0 - d, d);
+            return (1.0 - d_low_bus, d_low_bus);
         }
         match self.stage.topology {
-            Topology::HBridge(HBridgeModulation::Unipolar) => {
-                (0.5 * (1.0 - m_high), 0.5 * (1.0 + m_high))
-            }
-            Topology::HBridge(HBridgeModulation::Bipolar) => {
-                (0.5 * (1.0 + m_low), 0.5 * (1.0 + m_high))
-            }
-            _ => (m_low, m_high),
+            Topology::HBridge(HBridgeModulation::Unipolar) => (1.0 - d_low_bus, d_low_bus),
+            _ => (d_high_bus, d_low_bus),
         }
     }
 
@@ -372,14 +375,22 @@ impl Evaluator {
             .is_some_and(|tp| matches!(tp.modulation, ThreePhaseModulation::Sinusoidal { .. }))
     }
 
-    /// The alignments the search may use: a three-phase bridge samples its
-    /// currents at the counter bottom, so centre-aligned only.
+    /// The alignments the search may use. A three-phase bridge samples its
+    /// currents in the low-side on-time of an up-down count, and unipolar
+    /// switching needs the two legs' pulses placed symmetrically on an
+    /// up-down count (on one shared up-counter both legs start together and
+    /// the load sees one pulse per period, not two): centre-aligned only.
     pub fn alignments(&self) -> Vec<Alignment> {
+        let centre_only = self.three_phase.is_some()
+            || matches!(
+                self.stage.topology,
+                Topology::HBridge(HBridgeModulation::Unipolar)
+            );
         self.timer
             .alignments
             .iter()
             .copied()
-            .filter(|a| self.three_phase.is_none() || *a == Alignment::Centre)
+            .filter(|a| !centre_only || *a == Alignment::Centre)
             .collect()
     }
 
@@ -402,12 +413,17 @@ impl Evaluator {
         ))
     }
 
-    /// Highest duty the bootstrap refresh leaves: D_max = 1 − t_refresh·f
-    /// (physics brief §7; TI SLUA887, 2018, from memory).
-    fn bootstrap_max_duty(&self, f_hz: f64) -> Option<f64> {
-        self.stage
-            .bootstrap_refresh_s
-            .map(|t| (1.0 - t * f_hz).clamp(0.0, 1.0))
+    /// What the output pulses must respect at dead time `t_dead_s` (see
+    /// [`timer::duty_limits`]): the board's minimum pulse, and on a
+    /// bootstrapped bridge the low side's refresh time, both after the dead
+    /// time.
+    pub fn pulse_rules(&self, t_dead_s: f64) -> timer::PulseRules {
+        timer::PulseRules {
+            complementary: self.needs_dead_time(),
+            dead_time_s: t_dead_s,
+            min_pulse_s: self.timer.compare.min_pulse_s,
+            refresh_s: self.stage.bootstrap_refresh_s,
+        }
     }
 
     /// Evaluate one realisable setting against every constraint.
@@ -416,14 +432,11 @@ impl Evaluator {
         let rated = self.case(&self.rated, f, dead.seconds)?;
         let high_bus = self.case(&self.high_bus, f, dead.seconds)?;
         let m_low_bus = self.modulation_for_load(&self.low_bus, f).unwrap_or(1.0);
-        let duty_needed = self.duty_needed(high_bus.modulation, m_low_bus);
-        let limits = timer::duty_limits(
-            s,
-            dead.seconds,
-            self.timer.compare.min_pulse_s,
-            self.bootstrap_max_duty(f),
-        )
-        .ok();
+        let d_low_bus = self
+            .compare_duty_for_load(&self.low_bus, f, dead.seconds)
+            .unwrap_or(1.0);
+        let duty_needed = self.duty_needed(high_bus.compare_duty, d_low_bus);
+        let limits = timer::duty_limits(s, &self.pulse_rules(dead.seconds)).ok();
         let mut checks = Vec::new();
         let l = &self.limits;
 

@@ -544,10 +544,10 @@ pub fn pwm_setting(s: &Setting) -> PwmSetting {
     }
 }
 
-/// Channel duties `(low, high)` the load needs at modulation `m` (as the
+/// Channel duties `(low, high)` the load needs at compare duty `d` (as the
 /// solver maps them, [`Evaluator::duty_needed`]).
-fn duty_needed(ev: &Evaluator, m: f64) -> (f64, f64) {
-    ev.duty_needed(m, m)
+fn duty_needed(ev: &Evaluator, d: f64) -> (f64, f64) {
+    ev.duty_needed(d, d)
 }
 
 /// Whether the needed duties fit the timer's limits (the solver's rule:
@@ -573,11 +573,7 @@ impl<'a> Context<'a> {
     fn new(d: &Design, ev: &'a Evaluator, setting: &Setting, dead: &DeadTimeChoice) -> Self {
         let pwm = pwm_setting(setting);
         let f = setting.frequency_hz;
-        let boot = ev
-            .stage
-            .bootstrap_refresh_s
-            .map(|t| (1.0 - t * f).clamp(0.0, 1.0));
-        let duty = timer::duty_limits(&pwm, dead.seconds, ev.timer.compare.min_pulse_s, boot).ok();
+        let duty = timer::duty_limits(&pwm, &ev.pulse_rules(dead.seconds)).ok();
         let l = &ev.limits;
         let mut fixed = 0;
         if l.min_resolution_bits
@@ -650,7 +646,7 @@ impl<'a> Context<'a> {
             failed |= AUDIBLE;
         }
         let ev = self.base;
-        if !duty_fits(ev, duty_needed(ev, r.modulation), self.duty.as_ref()) {
+        if !duty_fits(ev, duty_needed(ev, r.compare_duty), self.duty.as_ref()) {
             failed |= DUTY_RANGE;
         }
         failed
@@ -1338,7 +1334,7 @@ pub fn worst_case(
         keep_max(&mut tj, r.junction_c, &name);
         keep_max(&mut loss, Some(r.losses.total), &name);
         keep_max(&mut ripple, Some(r.ripple.peak_to_peak_a), &name);
-        let needed = duty_needed(ev, r.modulation);
+        let needed = duty_needed(ev, r.compare_duty);
         let duty_value = if duty_fits(ev, needed, ctx.duty.as_ref()) {
             needed.1
         } else {

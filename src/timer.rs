@@ -288,6 +288,11 @@ pub struct DutyLimits {
     pub max_duty: f64,
     /// Duration of one compare count, s: `1 / (f · duty_steps)`.
     pub count_s: f64,
+    /// High-side output on-time at `min_counts`, after the dead time, s.
+    pub shortest_high_pulse_s: f64,
+    /// Low-side output on-time at `max_counts`, after the dead time, s (a single switch: its
+    /// off-time).
+    pub shortest_low_pulse_s: f64,
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -848,36 +853,56 @@ impl TimerModel {
 // Duty
 // ---------------------------------------------------------------------------------------------
 
-/// Allowed compare range for `setting`.
+/// What every output pulse must respect, for [`duty_limits`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PulseRules {
+    /// Complementary outputs with dead-time insertion (a bridge leg): each output's turn-on
+    /// edge is delayed by `dead_time_s`. `false` for a single switch (no partner, no dead time).
+    pub complementary: bool,
+    /// Inserted dead time, s (as encoded, not as needed).
+    pub dead_time_s: f64,
+    /// Shortest on-pulse any output may have, s (the board's `min_pulse`).
+    pub min_pulse_s: f64,
+    /// Shortest low-side on-time per period that refreshes a bootstrap capacitor, s.
+    pub refresh_s: Option<f64>,
+}
+
+/// Allowed compare range for `setting`: the compares whose OUTPUT pulses respect `rules`.
 ///
-/// `t_min = max(min_pulse_s, dead_time_s)`: a pulse shorter than the dead time never appears
-/// at the output (common practice). One count lasts `count_s = 1/(f · duty_steps)`.
-/// `min_counts = ⌈t_min / count_s⌉`; `max_counts = min(duty_steps − ⌈t_min / count_s⌉,
-/// ⌊bootstrap_max_duty · duty_steps⌋)` (rounded inwards; the bootstrap limit
-/// D_max = 1 − t_refresh·f is physics brief §7). Infeasible when `min_counts > max_counts`.
-pub fn duty_limits(
-    setting: &PwmSetting,
-    dead_time_s: f64,
-    min_pulse_s: f64,
-    bootstrap_max_duty: Option<f64>,
-) -> Result<DutyLimits, DutyError> {
+/// One compare count lasts `count_s = 1/(f · duty_steps)`; the high-side reference is on for
+/// `c·count_s`. With dead-time insertion each output's turn-on is delayed by the dead time, so
+/// the high-side output is on for `c·count_s − t_dead` and the low-side output for
+/// `(steps − c)·count_s − t_dead` (common practice for complementary outputs with dead-time
+/// insertion). Every output pulse must last at least `max(min_pulse_s, count_s)` (never empty:
+/// a bound of our own choice) and the low side at least the bootstrap refresh, both after the
+/// dead time:
+/// `min_counts = ⌈(max(min_pulse, count) + t_dead)/count_s⌉`,
+/// `max_counts = steps − ⌈(max(min_pulse, count, t_refresh) + t_dead)/count_s⌉`
+/// (rounded inwards). A single switch (`complementary = false`) has no dead time; its off-pulse
+/// obeys the same minimum. Compare 0 (off) and, where allowed, full scale are outside this
+/// range on purpose: the helpers map an explicit 0 to off. Infeasible when `min_counts >
+/// max_counts`.
+pub fn duty_limits(setting: &PwmSetting, rules: &PulseRules) -> Result<DutyLimits, DutyError> {
     let time_ok = |t: f64| t.is_finite() && t >= 0.0;
     let f = setting.frequency_hz;
-    let boot_ok = bootstrap_max_duty.is_none_or(|b| (0.0..=1.0).contains(&b));
-    let inputs_ok = time_ok(dead_time_s) && time_ok(min_pulse_s) && boot_ok;
+    let inputs_ok = time_ok(rules.dead_time_s)
+        && time_ok(rules.min_pulse_s)
+        && rules.refresh_s.is_none_or(time_ok);
     if !inputs_ok || !f.is_finite() || f <= 0.0 || setting.duty_steps == 0 {
         return Err(DutyError::InvalidInput);
     }
     let steps = setting.duty_steps;
     let count_s = 1.0 / (f * steps as f64);
-    let t_min = min_pulse_s.max(dead_time_s);
-    // f64 → u64 casts saturate, so an absurd t_min yields an infeasible result, not a wrap.
-    let edge_counts = ceil_tol(t_min / count_s) as u64;
-    let mut max_counts = steps.saturating_sub(edge_counts);
-    if let Some(b) = bootstrap_max_duty {
-        max_counts = max_counts.min(floor_tol(b * steps as f64) as u64);
-    }
-    let min_counts = edge_counts;
+    let t_dead = if rules.complementary {
+        rules.dead_time_s
+    } else {
+        0.0
+    };
+    let pulse = rules.min_pulse_s.max(count_s);
+    let low_pulse = pulse.max(rules.refresh_s.unwrap_or(0.0));
+    // f64 → u64 casts saturate, so an absurd time yields an infeasible result, not a wrap.
+    let min_counts = ceil_tol((pulse + t_dead) / count_s) as u64;
+    let max_counts = steps.saturating_sub(ceil_tol((low_pulse + t_dead) / count_s) as u64);
     if min_counts > max_counts {
         return Err(DutyError::Infeasible {
             min_counts,
@@ -890,6 +915,8 @@ pub fn duty_limits(
         min_duty: min_counts as f64 / steps as f64,
         max_duty: max_counts as f64 / steps as f64,
         count_s,
+        shortest_high_pulse_s: min_counts as f64 * count_s - t_dead,
+        shortest_low_pulse_s: (steps - max_counts) as f64 * count_s - t_dead,
     })
 }
 
@@ -1050,16 +1077,6 @@ fn ceil_tol(x: f64) -> f64 {
         r.max(0.0)
     } else {
         x.ceil().max(0.0)
-    }
-}
-
-/// `⌊x⌋` with the same tolerance as [`ceil_tol`].
-fn floor_tol(x: f64) -> f64 {
-    let r = x.round();
-    if (x - r).abs() <= ROUND_REL_TOL * x.abs().max(1.0) {
-        r.max(0.0)
-    } else {
-        x.floor().max(0.0)
     }
 }
 
@@ -1416,36 +1433,65 @@ mod tests {
         );
     }
 
+    fn rules(complementary: bool, dead: f64, pulse: f64, refresh: Option<f64>) -> PulseRules {
+        PulseRules {
+            complementary,
+            dead_time_s: dead,
+            min_pulse_s: pulse,
+            refresh_s: refresh,
+        }
+    }
+
+    /// Compare limits keep every OUTPUT pulse (after the dead time) at least the minimum pulse
+    /// and the low side on for the refresh time (by hand: 15.625 ns per count).
     #[test]
     fn duty_limits_by_hand() {
         let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
         let s = t.setting(1, 3200, Alignment::Edge).unwrap(); // 15.625 ns per count
-        // t_min = max(0.5 µs, 1 µs) = 1 µs = 64 counts; max = 3200 − 64 = 3136.
-        let l = duty_limits(&s, 1e-6, 0.5e-6, None).unwrap();
-        assert_eq!((l.min_counts, l.max_counts), (64, 3136));
-        assert_eq!((l.min_duty, l.max_duty), (0.02, 0.98));
-        // Bootstrap 95 %: ⌊0.95·3200⌋ = 3040.
-        let l = duty_limits(&s, 1e-6, 0.5e-6, Some(0.95)).unwrap();
-        assert_eq!(l.max_counts, 3040);
-        // 1.01 µs = 64.64 counts → 65 on, off ≥ 65 → max 3135 (rounded inwards).
-        let l = duty_limits(&s, 0.0, 1.01e-6, None).unwrap();
+        // Bridge: 0.5 µs pulse + 1 µs dead time = 96 counts each side; max = 3200 − 96.
+        let l = duty_limits(&s, &rules(true, 1e-6, 0.5e-6, None)).unwrap();
+        assert_eq!((l.min_counts, l.max_counts), (96, 3104));
+        assert_eq!((l.min_duty, l.max_duty), (0.03, 0.97));
+        assert!((l.shortest_high_pulse_s - 0.5e-6).abs() < 1e-15);
+        assert!((l.shortest_low_pulse_s - 0.5e-6).abs() < 1e-15);
+        // Bootstrap refresh 2.5 µs after the 1 µs dead time: 224 counts off → 2976.
+        let l = duty_limits(&s, &rules(true, 1e-6, 0.5e-6, Some(2.5e-6))).unwrap();
+        assert_eq!(l.max_counts, 2976);
+        assert!((l.shortest_low_pulse_s - 2.5e-6).abs() < 1e-15);
+        // No minimum pulse: a compare equal to the dead time (64) would be an empty pulse;
+        // the limit is one count more.
+        let l = duty_limits(&s, &rules(true, 1e-6, 0.0, None)).unwrap();
         assert_eq!((l.min_counts, l.max_counts), (65, 3135));
-        // 30 µs of a 50 µs period: 1920 counts min, 1280 max → infeasible.
+        // A single switch has no dead time: 1.01 µs = 64.64 counts → 65 on, off ≥ 65 → 3135.
+        let l = duty_limits(&s, &rules(false, 1e-6, 1.01e-6, None)).unwrap();
+        assert_eq!((l.min_counts, l.max_counts), (65, 3135));
+        // 30 µs dead time of a 50 µs period: 1921 counts min, 1279 max → infeasible.
         assert_eq!(
-            duty_limits(&s, 30e-6, 0.0, None),
+            duty_limits(&s, &rules(true, 30e-6, 0.0, None)),
             Err(DutyError::Infeasible {
-                min_counts: 1920,
-                max_counts: 1280
+                min_counts: 1921,
+                max_counts: 1279
             })
         );
         assert_eq!(
-            duty_limits(&s, -1.0, 0.0, None),
+            duty_limits(&s, &rules(true, -1.0, 0.0, None)),
             Err(DutyError::InvalidInput)
         );
         assert_eq!(
-            duty_limits(&s, 0.0, 0.0, Some(1.5)),
+            duty_limits(&s, &rules(true, 0.0, 0.0, Some(f64::NAN))),
             Err(DutyError::InvalidInput)
         );
+    }
+
+    /// Centre alignment: one count is two ticks; the dead time counts in seconds.
+    #[test]
+    fn duty_limits_centre_by_hand() {
+        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        let s = t.setting(1, 3200, Alignment::Centre).unwrap(); // 1600 steps, 31.25 ns each
+        // 400 ns pulse + 156.25 ns dead time = 556.25 ns = 17.8 counts → 18.
+        let l = duty_limits(&s, &rules(true, 156.25e-9, 400e-9, None)).unwrap();
+        assert_eq!((l.min_counts, l.max_counts), (18, 1582));
+        assert!(l.shortest_high_pulse_s >= 400e-9);
     }
 
     #[test]

@@ -3,7 +3,8 @@
 //! Owns, a model per file: the gate-charge switching transitions
 //! ([`switching`]), the loss terms of each device ([`losses`]), junction
 //! temperature with runaway detection and transient impedance ([`thermal`]),
-//! dead-time need ([`deadtime`]), bootstrap sizing ([`bootstrap`]), rating
+//! dead-time need ([`deadtime`]), the mean leg voltage under dead time and
+//! drops ([`leg_voltage`]), bootstrap sizing ([`bootstrap`]), rating
 //! findings ([`ratings`]), the motor current waveform under PWM ([`ripple`])
 //! and its audible spectrum ([`acoustics`]). Inputs are the plain SI structs
 //! of [`params`]; load currents arrive precomputed from [`ripple`].
@@ -16,6 +17,7 @@
 pub mod acoustics;
 pub mod bootstrap;
 pub mod deadtime;
+pub mod leg_voltage;
 pub mod losses;
 pub mod params;
 pub mod ratings;

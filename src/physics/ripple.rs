@@ -475,6 +475,50 @@ pub fn steady_state(
     }
 }
 
+/// Exact periodic current of a continuous piecewise-constant terminal voltage: `states` are
+/// `(volts, seconds)` in time order over one waveform period (zero-length states allowed); the
+/// switching currents reported are those at the starts of states `edges.0` (on) and `edges.1`
+/// (off). The same closed-form fixed point as [`steady_state`]. The stage model uses it for
+/// the waveform with the dead-time intervals and the conduction drops counted.
+pub fn piecewise_steady_state(
+    load: &MotorLoad,
+    states: &[(f64, f64)],
+    edges: (usize, usize),
+) -> Result<RippleWaveform, RippleError> {
+    check_positive("r_ohm", load.r_ohm)?;
+    check_positive("l_h", load.l_h)?;
+    check_finite("back_emf_v", load.back_emf_v)?;
+    for &(v, d) in states {
+        check_finite("state voltage", v)?;
+        check_finite("state duration", d)?;
+        if d < 0.0 {
+            return Err(RippleError::InvalidInput {
+                name: "state duration",
+                reason: "must not be negative",
+            });
+        }
+    }
+    let period: f64 = states.iter().map(|s| s.1).sum();
+    check_positive("period", period)?;
+    let kept: Vec<(f64, f64)> = states.iter().copied().filter(|s| s.1 > 0.0).collect();
+    let tau = load.l_h / load.r_ohm;
+    let mut i = periodic_start_current(&kept, load);
+    let mut at_start = Vec::with_capacity(states.len());
+    for &(v, d) in states {
+        at_start.push(i);
+        let i_inf = (v - load.back_emf_v) / load.r_ohm;
+        i = i_inf + (i - i_inf) * (-d / tau).exp();
+    }
+    let pick = |k: usize| at_start.get(k).copied();
+    let sw = pick(edges.0).zip(pick(edges.1));
+    Ok(RippleWaveform::from_segments(
+        period,
+        linear_segments(&kept, load),
+        true,
+        sw,
+    ))
+}
+
 /// Continuous two-level drive: `v_hi` for D·T, `v_lo` for the rest.
 fn two_level(load: &MotorLoad, v_hi: f64, v_lo: f64, duty: f64, t: f64) -> RippleWaveform {
     let t_on = duty * t;

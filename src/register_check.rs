@@ -1,0 +1,346 @@
+//! The plan's claims checked on the registers it writes, by the register-level verifier
+//! ([`crate::verify`]), before anything is written.
+//!
+//! Owns: reading a [`Plan`] record as a firmware engineer would (divider, period, alignment,
+//! dead time, compare limits, the compare at each operating case, the load and drops it
+//! states), driving the verifier with exactly those values, and comparing what the verifier
+//! measures with what the plan claims. It reads nothing but the plan record, so the check
+//! is as independent of the model as the verifier itself.
+//!
+//! What is checked, with the tolerances of our own choice ([`TOLERANCES`]):
+//! - every output pulse at `compare_min` and `compare_max` lasts at least the board's minimum
+//!   pulse (and is never empty), and the low side stays on for the bootstrap refresh time;
+//! - at each operating case, at the plan's compare duty (simulated on a finer timer, see
+//!   [`SUB_TICKS`]), the mean current is the load current within 1 % of the rated current,
+//!   the ripple peak to peak within 1 % of the plan's (or 1 mA);
+//! - the lowest significant ripple line at or below the hearing limit is the same line.
+//!
+//! Three-phase bridges: the pulse checks (each leg is a complementary leg); the current
+//! checks need the three-phase verifier, which does not exist yet (stated in the result).
+//!
+//! **Invariant:** pure; a disagreement is data ([`RegisterCheck::disagreements`]), the caller
+//! decides (the command line refuses to write the plan).
+
+use serde::{Deserialize, Serialize};
+
+use crate::plan::{CaseOut, Plan};
+use crate::timer::Alignment;
+use crate::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verification};
+
+/// Agreement required between the plan and the verifier (bounds of our own choice).
+pub struct Tolerances {
+    /// Mean current, as a fraction of the case's load current.
+    pub mean_current_rel: f64,
+    /// Ripple peak to peak, as a fraction of the plan's figure.
+    pub ripple_rel: f64,
+    /// Ripple peak to peak, absolute floor, A.
+    pub ripple_abs_a: f64,
+    /// Pulse times are compared with this much rounding slack, s.
+    pub time_abs_s: f64,
+}
+
+/// The tolerances `plan` holds the model to.
+pub const TOLERANCES: Tolerances = Tolerances {
+    mean_current_rel: 0.01,
+    ripple_rel: 0.01,
+    ripple_abs_a: 1e-3,
+    time_abs_s: 1e-12,
+};
+
+/// A line counts when within this many dB of the strongest and above the floor (the plan's
+/// own definition of a significant line, stated in the README).
+const SIGNIFICANT_REL_DB: f64 = 60.0;
+const SIGNIFICANT_FLOOR_A_RMS: f64 = 1e-3;
+/// Lines this close to the significance threshold are not compared: either verdict is right
+/// within the two methods' rounding (a bound of our own choice).
+const SIGNIFICANCE_GUARD_DB: f64 = 0.5;
+/// Hearing limit when the design gives none (the plan's default, README).
+const DEFAULT_HEARING_LIMIT_HZ: f64 = 20_000.0;
+
+/// What the verifier measured on the written registers.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RegisterCheck {
+    /// Shortest high-side output pulse at `compare_min` (a single switch: its on-pulse), s.
+    pub shortest_high_pulse_s: f64,
+    /// Shortest low-side output pulse at `compare_max` (a single switch: its off-time), s.
+    pub shortest_low_pulse_s: f64,
+    pub cases: Vec<CaseCheck>,
+    /// What was not checked, and why.
+    pub not_checked: Vec<String>,
+    /// Each claim the verifier contradicts, with both figures.
+    pub disagreements: Vec<String>,
+}
+
+/// One operating case on the registers.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CaseCheck {
+    pub name: String,
+    /// The compare duty simulated (the plan's, to 1/4096 of a count).
+    pub compare_duty: f64,
+    /// Mean motor current, A.
+    pub mean_a: f64,
+    /// Ripple peak to peak, A.
+    pub ripple_pp_a: f64,
+    pub continuous: bool,
+    /// Lowest significant line at or below the hearing limit, Hz.
+    pub lowest_audible_line_hz: Option<f64>,
+    /// A line lies within the guard band of the significance threshold: not compared.
+    pub line_near_threshold: bool,
+}
+
+/// Check `plan` on its registers. A plan without a timer setting (nothing chosen) has nothing
+/// to check.
+pub fn check(plan: &Plan) -> RegisterCheck {
+    let mut out = RegisterCheck {
+        shortest_high_pulse_s: 0.0,
+        shortest_low_pulse_s: 0.0,
+        cases: Vec::new(),
+        not_checked: Vec::new(),
+        disagreements: Vec::new(),
+    };
+    let Some(regs) = registers(plan) else {
+        out.not_checked
+            .push("no realisable timer setting in the plan".into());
+        return out;
+    };
+    check_pulses(plan, &regs, &mut out);
+    if plan.topology == "three-phase" {
+        out.not_checked.push(
+            "three-phase currents: the register-level verifier covers single-phase stages only"
+                .into(),
+        );
+        return out;
+    }
+    for case in &plan.cases {
+        match check_case(plan, &regs, case) {
+            Ok(c) => {
+                compare_case(plan, case, &c, &mut out.disagreements);
+                out.cases.push(c);
+            }
+            Err(e) => out
+                .disagreements
+                .push(format!("{} case: the verifier refused it: {e}", case.name)),
+        }
+    }
+    out
+}
+
+/// The registers as written.
+fn registers(plan: &Plan) -> Option<TimerRegisters> {
+    let t = &plan.timer;
+    if t.period_ticks < 2 || t.divider == 0 || !(plan.timer.clock_hz > 0.0) {
+        return None;
+    }
+    Some(TimerRegisters {
+        tick_s: t.divider as f64 / t.clock_hz,
+        alignment: if plan.pwm.alignment == "centre" {
+            Alignment::Centre
+        } else {
+            Alignment::Edge
+        },
+        period_ticks: t.period_ticks,
+        dead_time_s: if plan.topology == "low-side" {
+            0.0
+        } else {
+            t.dead_time_s
+        },
+    })
+}
+
+/// The stage the topology wires, with leg A at `compare`: bipolar drives leg B with the
+/// inverse reference (same compare, polarity inverted); unipolar with the complementary
+/// compare `duty_steps − compare` (the README's leg conventions).
+fn stage(plan: &Plan, regs: &TimerRegisters, compare: u64) -> Stage {
+    let a = LegCompare::new(compare);
+    match plan.topology.as_str() {
+        "low-side" => Stage::LowSide(a),
+        "h-bridge-bipolar" => Stage::HBridge {
+            a,
+            b: LegCompare::inverted(compare),
+        },
+        "h-bridge-unipolar" => Stage::HBridge {
+            a,
+            b: LegCompare::new(regs.duty_steps().saturating_sub(compare)),
+        },
+        _ => Stage::HalfBridge(a),
+    }
+}
+
+/// Every output's pulses at the two compare limits.
+fn check_pulses(plan: &Plan, regs: &TimerRegisters, out: &mut RegisterCheck) {
+    let p = &plan.pwm;
+    // The pulse checks are per leg: a leg of any bridge is a half-bridge leg.
+    let leg = |c: u64| match plan.topology.as_str() {
+        "low-side" => Stage::LowSide(LegCompare::new(c)),
+        _ => Stage::HalfBridge(LegCompare::new(c)),
+    };
+    let shortest = |c: u64, high: bool| -> Result<f64, verify::VerifyError> {
+        let timings = verify::output_timings(regs, &leg(c))?;
+        let pick = |t: &verify::OutputTiming| match t.output {
+            verify::Output::Switch => {
+                if high {
+                    t.shortest_on_s
+                } else {
+                    t.shortest_off_s
+                }
+            }
+            verify::Output::High(_) if high => t.shortest_pulse_s(),
+            verify::Output::Low(_) if !high => t.shortest_pulse_s(),
+            _ => None,
+        };
+        Ok(timings.iter().filter_map(pick).fold(f64::INFINITY, f64::min))
+    };
+    match (shortest(p.compare_min, true), shortest(p.compare_max, false)) {
+        (Ok(hi), Ok(lo)) => {
+            out.shortest_high_pulse_s = hi;
+            out.shortest_low_pulse_s = lo;
+        }
+        (Err(e), _) | (_, Err(e)) => {
+            out.disagreements
+                .push(format!("compare limits: the verifier refused them: {e}"));
+            return;
+        }
+    }
+    let floor = p.min_pulse_s.max(0.0);
+    let slack = TOLERANCES.time_abs_s;
+    let mut need = |what: &str, got: f64, min: f64, strict: bool| {
+        if got + slack < min || (strict && got <= 0.0) {
+            out.disagreements.push(format!(
+                "{what}: the registers give {} s, the plan promises at least {} s",
+                fmt_g(got),
+                fmt_g(min)
+            ));
+        }
+    };
+    need("shortest high-side pulse at compare_min", out.shortest_high_pulse_s, floor, true);
+    need("shortest low-side pulse at compare_max", out.shortest_low_pulse_s, floor, true);
+    if let Some(r) = p.refresh_s {
+        need("bootstrap refresh (low-side on-time) at compare_max", out.shortest_low_pulse_s, r, false);
+    }
+}
+
+fn circuit(plan: &Plan, case: &CaseOut) -> Circuit {
+    Circuit {
+        r_ohm: plan.load.r_ohm,
+        l_h: plan.load.l_h,
+        back_emf_v: case.back_emf_v,
+        v_bus_v: case.v_bus_v,
+        r_ds_on_ohm: plan.load.r_ds_on_ohm,
+        v_sd_v: plan.load.v_sd_v,
+        v_f_v: plan.load.freewheel_v_f_v.unwrap_or(0.0),
+    }
+}
+
+/// Sub-ticks per tick of the finer timer the case claims are checked on (our own choice: one
+/// compare step becomes 1/4096 of a count, far below any tolerance here).
+const SUB_TICKS: u64 = 4096;
+
+/// The verifier at the case's compare duty. The duty is a real number and the compare an
+/// integer: the claims "this duty gives the load current, with this ripple and these lines"
+/// are checked on a timer with [`SUB_TICKS`] finer ticks over the same period and dead time
+/// (the compare quantised to 1/4096 of a count), so that quantisation does not mask the
+/// physics; the compare limits are checked on the written registers ([`check_pulses`]).
+fn check_case(
+    plan: &Plan,
+    regs: &TimerRegisters,
+    case: &CaseOut,
+) -> Result<CaseCheck, verify::VerifyError> {
+    let fine = TimerRegisters {
+        tick_s: regs.tick_s / SUB_TICKS as f64,
+        period_ticks: regs.period_ticks.saturating_mul(SUB_TICKS),
+        ..*regs
+    };
+    let steps = fine.duty_steps();
+    let compare = ((case.compare_duty * steps as f64).round().max(0.0) as u64).min(steps);
+    let v = verify::verify(&fine, &stage(plan, &fine, compare), &circuit(plan, case))?;
+    let (line, near) = lowest_audible_line(&v, hearing_limit_hz(plan));
+    Ok(CaseCheck {
+        name: case.name.clone(),
+        compare_duty: compare as f64 / steps as f64,
+        mean_a: v.mean_a,
+        ripple_pp_a: v.ripple_pp_a,
+        continuous: v.continuous,
+        lowest_audible_line_hz: line,
+        line_near_threshold: near,
+    })
+}
+
+/// The hearing limit the plan judged against: the `audible` constraint's limit in hertz when
+/// it has one, else the default.
+fn hearing_limit_hz(plan: &Plan) -> f64 {
+    plan.constraints
+        .iter()
+        .find(|c| c.name == "audible" && c.unit == "Hz" && c.limit > 0.0)
+        .map(|c| c.limit)
+        .unwrap_or(DEFAULT_HEARING_LIMIT_HZ)
+}
+
+/// The lowest significant line at or below `limit_hz` (`None`: none), and whether some line
+/// there lies within [`SIGNIFICANCE_GUARD_DB`] of the significance floor (then either verdict
+/// is right within the two methods' rounding and the line is not compared).
+fn lowest_audible_line(v: &Verification, limit_hz: f64) -> (Option<f64>, bool) {
+    let lines = v.lines(limit_hz.max(v.frequency_hz * 64.0));
+    let strongest = lines.iter().map(|l| l.rms_a).fold(0.0, f64::max);
+    let floor = (strongest * 10f64.powf(-SIGNIFICANT_REL_DB / 20.0)).max(SIGNIFICANT_FLOOR_A_RMS);
+    let guard = 10f64.powf(SIGNIFICANCE_GUARD_DB / 20.0);
+    let audible = lines
+        .iter()
+        .filter(|l| l.frequency_hz <= limit_hz * (1.0 + 1e-12));
+    let lowest = audible.clone().find(|l| l.rms_a >= floor).map(|l| l.frequency_hz);
+    let ambiguous = audible
+        .clone()
+        .any(|l| l.rms_a > floor / guard && l.rms_a < floor * guard);
+    (lowest, ambiguous)
+}
+
+/// The case's claims against the verifier's figures.
+fn compare_case(plan: &Plan, case: &CaseOut, c: &CaseCheck, out: &mut Vec<String>) {
+    let t = &TOLERANCES;
+    let rated = plan
+        .cases
+        .first()
+        .map(|r| r.load_current_a.abs())
+        .unwrap_or(case.load_current_a.abs());
+    if (c.mean_a - case.load_current_a).abs() > t.mean_current_rel * rated {
+        out.push(format!(
+            "{} case: at compare duty {:.6} the registers give a mean motor current of {} A, the plan {} A",
+            case.name,
+            case.compare_duty,
+            fmt_g(c.mean_a),
+            fmt_g(case.load_current_a)
+        ));
+    }
+    let tol = (t.ripple_rel * case.ripple_peak_to_peak_a).max(t.ripple_abs_a);
+    if (c.ripple_pp_a - case.ripple_peak_to_peak_a).abs() > tol {
+        out.push(format!(
+            "{} case: at compare duty {:.6} the registers give a ripple of {} A peak to peak, the plan {} A",
+            case.name,
+            case.compare_duty,
+            fmt_g(c.ripple_pp_a),
+            fmt_g(case.ripple_peak_to_peak_a)
+        ));
+    }
+    let same = c.line_near_threshold
+        || match (c.lowest_audible_line_hz, case.lowest_audible_line_hz) {
+            (Some(a), Some(b)) => (a - b).abs() <= 1e-6 * b.abs().max(1.0),
+            (None, None) => true,
+            _ => false,
+        };
+    if !same {
+        out.push(format!(
+            "{} case: the lowest significant audible line is {} on the registers, {} in the plan",
+            case.name,
+            line_text(c.lowest_audible_line_hz),
+            line_text(case.lowest_audible_line_hz)
+        ));
+    }
+}
+
+fn line_text(l: Option<f64>) -> String {
+    l.map_or("none".into(), |f| format!("{} Hz", fmt_g(f)))
+}
+
+/// Six significant digits, for messages.
+fn fmt_g(x: f64) -> String {
+    format!("{x:.6e}")
+}
