@@ -833,12 +833,15 @@ impl Evaluator {
         let i_on = ideal.i_at_switch_on_a().unwrap_or(ideal.i_min_a());
         let i_off = ideal.i_at_switch_off_a().unwrap_or(ideal.i_max_a());
         let (v, vd, drive) = (case.v_bus_v, drops.v_sd_v, self.ripple_drive());
-        let level = |high_v, low_v, diode_v, switches_in_path, edges_per_period| StageLevels {
-            high_v,
-            low_v,
-            diode_v,
-            switches_in_path,
-            edges_per_period,
+        let level = |high_v, low_v, diode_v, switches_in_path, switches_in_clamp, edges_per_period| {
+            StageLevels {
+                high_v,
+                low_v,
+                diode_v,
+                switches_in_path,
+                switches_in_clamp,
+                edges_per_period,
+            }
         };
         let levels = match drive {
             Drive::LowSideFreewheel { v_f_v } => {
@@ -847,9 +850,9 @@ impl Evaluator {
                 let w = ripple::steady_state(&self.motor(case), drive, v_on, d.clamp(0.0, 1.0), f_hz);
                 return (d, w.unwrap_or(ideal));
             }
-            Drive::HalfBridgeSynchronous => level(v, 0.0, vd, 1.0, 1.0),
-            Drive::HBridgeBipolar => level(v, -v, 2.0 * vd, 2.0, 1.0),
-            Drive::HBridgeUnipolar => level(v, 0.0, vd, 2.0, 2.0),
+            Drive::HalfBridgeSynchronous => level(v, 0.0, vd, 1.0, 0.0, 1.0),
+            Drive::HBridgeBipolar => level(v, -v, 2.0 * vd, 2.0, 0.0, 1.0),
+            Drive::HBridgeUnipolar => level(v, 0.0, vd, 2.0, 1.0, 2.0),
         };
         let conditions = DeadTimeConditions {
             t_dead_s: drops.t_dead_s,

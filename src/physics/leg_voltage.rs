@@ -25,6 +25,9 @@ pub struct StageLevels {
     pub diode_v: f64,
     /// Switches conducting in the load path (one leg: 1; H-bridge: 2).
     pub switches_in_path: f64,
+    /// Switches still conducting in the load path during a dead time (the leg that does not
+    /// switch: 1 for a unipolar H-bridge, else 0).
+    pub switches_in_clamp: f64,
     /// Dead-time intervals per period at the start of the high state (and as many at its end):
     /// 1, or 2 for unipolar switching (two pulses per period).
     pub edges_per_period: f64,
@@ -54,15 +57,17 @@ pub struct EdgeCurrents {
 
 /// The load voltage a dead time at an edge holds, and for how long, s: the old level when
 /// the current opposes the transition and the new one when it helps (each beyond the supply
-/// rail by the diode drop: positive current is clamped low, negative high), held until the
+/// rail by the diode drop: positive current is clamped low, negative high; less the drop of a
+/// switch of the other leg still conducting), held until the
 /// current reaches zero, t_0 = L·|i|/|v_clamp − E| (constant slope), at most the dead time;
 /// the load then sits at E.
 pub fn clamp(levels: &StageLevels, c: &DeadTimeConditions, i_a: f64) -> (f64, f64) {
-    let v = if i_a > 0.0 {
+    let rail = if i_a > 0.0 {
         levels.low_v - levels.diode_v
     } else {
         levels.high_v + levels.diode_v
     };
+    let v = rail - levels.switches_in_clamp * i_a * c.r_ds_on_ohm;
     let drive = (v - c.back_emf_v).abs();
     let t = if drive > 0.0 {
         (c.l_h * i_a.abs() / drive).min(c.t_dead_s)
@@ -145,6 +150,7 @@ mod tests {
             low_v: 0.0,
             diode_v: v_sd,
             switches_in_path: 1.0,
+            switches_in_clamp: 0.0,
             edges_per_period: 1.0,
         }
     }
@@ -211,6 +217,7 @@ mod tests {
             low_v: 0.0,
             diode_v: 0.8,
             switches_in_path: 2.0,
+            switches_in_clamp: 1.0,
             edges_per_period: 2.0,
         };
         let c = conditions(2e-6, 0.02);
