@@ -780,3 +780,68 @@ pub fn compare_table(entries: &[(String, Option<Plan>)]) -> String {
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// C `#define`s with a value and top-level Rust `pub const`s are
+    /// constants; the include guard, function-like macros, `const fn` and
+    /// items inside an `impl` are not.
+    #[test]
+    fn constants_of_code_files() {
+        let c = "#ifndef X_H\n#define X_H\n#define X_PERIOD_TICKS 1500U\n#define X_F(a) ((a) * 2)\n#define X_DEAD_TIME_CODE 0x0AU\n";
+        assert_eq!(
+            emitted_constants(c),
+            [
+                ("X_PERIOD_TICKS".to_string(), "1500U".to_string()),
+                ("X_DEAD_TIME_CODE".to_string(), "0x0AU".to_string())
+            ]
+        );
+        let rs = "pub const PERIOD_TICKS: u32 = 1500;\npub const fn f() -> u32 { 1 }\nimpl Duty {\n    pub const OFF: Duty = Duty(0);\n}\n";
+        assert_eq!(
+            emitted_constants(rs),
+            [("PERIOD_TICKS".to_string(), "1500".to_string())]
+        );
+        let new = "#define X_PERIOD_TICKS 1400U\n#define X_NEW 1U\n";
+        assert_eq!(
+            constant_changes(c, new),
+            [
+                ("X_PERIOD_TICKS".into(), "1500U".into(), "1400U".into()),
+                ("X_NEW".into(), String::new(), "1U".into()),
+                ("X_DEAD_TIME_CODE".into(), "0x0AU".into(), String::new()),
+            ]
+        );
+    }
+
+    /// A figure is listed when it moves by more than 1 % (a temperature by
+    /// more than 1 K), and not below.
+    #[test]
+    fn figures_beyond_the_threshold_are_listed() {
+        let old: Plan = serde_json::from_str(include_str!(
+            "../tests/golden/belt-feeder/expected/plan.json"
+        ))
+        .expect("the golden plan parses");
+        let mut new = old.clone();
+        new.ripple.peak_to_peak_a *= 1.005;
+        new.losses_w.total *= 1.02;
+        new.thermal.junction_c = old.thermal.junction_c.map(|t| t + 0.5);
+        new.thermal.junction_high_bus_c = old.thermal.junction_high_bus_c.map(|t| t + 1.5);
+        let lines = what_changed(&old, &new, &[]);
+        let text = lines.join("\n");
+        assert!(text.contains("moved: figure losses_w.total "), "{text}");
+        assert!(text.contains("(+2.0 %)"), "{text}");
+        assert!(!text.contains("ripple.peak_to_peak_a"), "{text}");
+        assert!(!text.contains("thermal.junction_c "), "{text}");
+        assert!(
+            text.contains("moved: figure thermal.junction_high_bus_c "),
+            "{text}"
+        );
+        assert!(text.contains("(+1.5 K)"), "{text}");
+        assert!(
+            text.contains("more than 1 %, temperatures by more than 1 K"),
+            "{text}"
+        );
+        assert!(what_changed(&old, &old, &[]).is_empty());
+    }
+}
