@@ -28,7 +28,7 @@ use crate::units::{Dimension, parse_quantity};
 #[command(
     name = "pwmplan",
     version,
-    about = "Choose PWM frequency, timer prescaler/period and dead time for a DC motor drive, and emit them as C and Rust with the reasons."
+    about = "Choose PWM frequency, timer prescaler/period and dead time for a brushed DC or brushless (three-phase) motor drive, and emit them as C and Rust with the reasons."
 )]
 pub struct Args {
     #[command(subcommand)]
@@ -55,7 +55,9 @@ pub enum Command {
         /// Templates folder overriding the bundled set.
         #[arg(long, value_name = "DIR")]
         templates: Option<PathBuf>,
-        /// Overwrite generated files a person has edited.
+        /// Overwrite generated files a person has edited; also write the
+        /// outputs of an infeasible plan, marked infeasible (exit status
+        /// stays 1).
         #[arg(long)]
         force: bool,
         /// Print only; write no files.
@@ -126,17 +128,43 @@ pub enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Write a commented starter design file.
+    /// Write a commented starter design file for one of the bundled boards.
     New {
         /// Where to write it.
         #[arg(default_value = "drive.yaml")]
         path: PathBuf,
+        /// The power stage: half-bridge (brushed DC, one direction),
+        /// h-bridge (brushed DC, both directions), low-side (brushed DC, one
+        /// switch and a freewheel diode) or three-phase (brushless).
+        #[arg(long, value_enum, default_value_t = StarterTopology::HalfBridge)]
+        topology: StarterTopology,
         /// Overwrite an existing file.
         #[arg(long)]
         force: bool,
     },
     /// List the bundled boards, switches and designs.
     Boards,
+}
+
+/// The starter designs of `pwmplan new`, one per topology.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum StarterTopology {
+    HalfBridge,
+    HBridge,
+    LowSide,
+    ThreePhase,
+}
+
+impl StarterTopology {
+    /// The starter's text and the bundled board it uses.
+    pub fn starter(self) -> (&'static str, &'static str) {
+        match self {
+            StarterTopology::HalfBridge => (STARTER_DESIGN, "wren-hb24"),
+            StarterTopology::HBridge => (STARTER_H_BRIDGE, "heron-hb48"),
+            StarterTopology::LowSide => (STARTER_LOW_SIDE, "kite-ls12"),
+            StarterTopology::ThreePhase => (STARTER_THREE_PHASE, "osprey-3p48"),
+        }
+    }
 }
 
 /// Why a command failed, and so its exit status.
@@ -190,7 +218,12 @@ pub struct Solved {
     pub design: Design,
     pub evaluator: Evaluator,
     pub plan: Plan,
+    /// The plan may be used (`plan.feasible`): the search met every
+    /// constraint and no error finding blocks it.
     pub feasible: bool,
+    /// The search found a setting that meets every constraint (it may
+    /// still be blocked by an error finding).
+    pub setting_found: bool,
 }
 
 /// Points of the sweep behind the plots.
@@ -237,7 +270,8 @@ pub fn solve_design(
         )
     })?;
     Ok(Solved {
-        feasible: solution.feasible,
+        feasible: plan.feasible,
+        setting_found: solution.feasible,
         design,
         evaluator: ev,
         plan,
@@ -327,11 +361,17 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 (solved, compiled)
             });
             let solved = solved?;
-            if !solved.feasible {
+            // An infeasible plan exits 1 and writes nothing, unless forced.
+            let status = if solved.feasible { 0 } else { 1 };
+            if !solved.feasible && (!force || no_write) {
                 if json {
                     write_text(out, &emit::plan_json(&solved.plan))?;
                 } else {
                     write_text(out, &report::infeasible_text(&solved.plan))?;
+                    write_text(
+                        out,
+                        "Nothing was written (`--force` writes the outputs, marked infeasible).\n",
+                    )?;
                 }
                 return Ok(1);
             }
@@ -339,13 +379,19 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             let ctx = emit::context(&solved.plan, solved.design.board.timer.fpu);
             if json {
                 write_text(out, &emit::plan_json(&solved.plan))?;
+            } else if solved.feasible {
+                write_text(out, &report::plan_text(&ctx))?;
             } else {
+                write_text(out, &report::infeasible_text(&solved.plan))?;
+                write_text(out, "\nWritten anyway (--force), marked infeasible:\n\n")?;
                 write_text(out, &report::plan_text(&ctx))?;
             }
             if no_write {
-                return Ok(0);
+                return Ok(status);
             }
-            let changes = previous_plan(&dir).map(|old| report::what_changed(&old, &solved.plan));
+            let changes = previous_plan(&dir).map(|old| {
+                report::what_changed(&old, &solved.plan, &constant_changes(&dir, &files))
+            });
             let (written, unchanged) = write_outputs(&dir, &files, force)?;
             let mut note = String::new();
             if let Some(lines) = changes {
@@ -376,7 +422,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             } else {
                 write_text(out, &format!("\n{note}"))?;
             }
-            Ok(0)
+            Ok(status)
         }
         Command::Check {
             design,
@@ -395,6 +441,15 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             }
             let files = generate_files(&solved, templates.as_deref())?;
             let problems = check_outputs(&dir, &files);
+            if let Some(old) = &previous
+                && !problems.is_empty()
+            {
+                let lines =
+                    report::what_changed(old, &solved.plan, &constant_changes(&dir, &files));
+                for l in lines {
+                    write_text(out, &format!("{l}\n"))?;
+                }
+            }
             if problems.is_empty() {
                 write_text(
                     out,
@@ -413,18 +468,23 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 Ok(1)
             }
         }
-        Command::New { path, force } => {
+        Command::New {
+            path,
+            force,
+            topology,
+        } => {
             if path.exists() && !force {
                 return Err(Failure::Usage(format!(
                     "{} exists; pass --force to overwrite it",
                     path.display()
                 )));
             }
-            write_atomically(&path, STARTER_DESIGN.as_bytes())?;
+            let (text, board) = topology.starter();
+            write_atomically(&path, text.as_bytes())?;
             write_text(
                 out,
                 &format!(
-                    "wrote {}: a starter design on the bundled board wren-hb24; edit the motor and constraints, then run `pwmplan plan {}`\n",
+                    "wrote {}: a starter design on the bundled board {board}; edit the motor and constraints, then run `pwmplan plan {}`\n",
                     path.display(),
                     path.display()
                 ),
@@ -460,6 +520,12 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 return Err(Failure::Usage("--to must be above --from".into()));
             }
             let chosen = solved.feasible.then_some(solved.plan.pwm.frequency_hz);
+            let blocked: String = solved
+                .plan
+                .blocked_by
+                .iter()
+                .map(|b| format!("The plan is infeasible: {b}\n"))
+                .collect();
             let rows = sweep::sweep(ev, &sweep::log_space(from, to, points), chosen);
             if let Some(path) = &svg {
                 let plot = crate::svg::loss_plot_svg(&rows, chosen, solved.plan.feasible_band_hz);
@@ -493,6 +559,9 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                     )?;
                 } else {
                     write_text(out, "No feasible band\n\n")?;
+                }
+                if !blocked.is_empty() {
+                    write_text(out, &format!("{blocked}\n"))?;
                 }
                 write_text(out, &report::sweep_table(&rows, style))?;
             }
@@ -553,7 +622,9 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 )));
             }
             let solved = solve_design(design.as_deref(), None, false)?;
-            if !solved.feasible {
+            // A plan blocked only by findings (a worst-case failure, a
+            // rating) still has a setting worth spreading; exit 1 after.
+            if !solved.setting_found {
                 write_text(out, &report::infeasible_text(&solved.plan))?;
                 return Ok(1);
             }
@@ -583,6 +654,16 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 write_text(out, &text)?;
             } else {
                 write_text(out, &crate::spread::text_report(&mc, &wc))?;
+            }
+            if !solved.feasible {
+                let mut note = report::infeasible_text(&solved.plan);
+                if json {
+                    write_text(err, &note)?;
+                } else {
+                    note.insert(0, '\n');
+                    write_text(out, &note)?;
+                }
+                return Ok(1);
             }
             Ok(0)
         }
@@ -772,8 +853,34 @@ fn list_bundled() -> Result<String, Failure> {
     Ok(s)
 }
 
-/// What `pwmplan new` writes.
+/// What `pwmplan new` writes: the half-bridge starter (the default), and
+/// one per other topology.
 const STARTER_DESIGN: &str = include_str!("../templates/starter-design.yaml");
+const STARTER_H_BRIDGE: &str = include_str!("../templates/starter-h-bridge.yaml");
+const STARTER_LOW_SIDE: &str = include_str!("../templates/starter-low-side.yaml");
+const STARTER_THREE_PHASE: &str = include_str!("../templates/starter-three-phase.yaml");
+
+/// The emitted constants (C `#define`s, or Rust `pub const`s when no
+/// header is written) that differ between the files in `dir` and the
+/// files generated now: `(name, old, new)`, `old`/`new` empty when the
+/// constant is new or gone.
+fn constant_changes(dir: &Path, files: &[GeneratedFile]) -> Vec<(String, String, String)> {
+    let code = files
+        .iter()
+        .find(|f| f.name.extension().is_some_and(|e| e == "h"))
+        .or_else(|| {
+            files
+                .iter()
+                .find(|f| f.name.extension().is_some_and(|e| e == "rs"))
+        });
+    let Some(f) = code else {
+        return Vec::new();
+    };
+    let Ok(old) = std::fs::read_to_string(dir.join(&f.name)) else {
+        return Vec::new();
+    };
+    report::constant_changes(&old, &f.text)
+}
 
 // ----------------------------------------------------------------- progress
 

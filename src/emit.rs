@@ -276,7 +276,18 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
     };
     let has_dead_time = t.dead_time_ticks.is_some_and(|x| x > 0);
     let n = names(&plan.design);
-    let mut summary = vec![
+    let mut summary = Vec::new();
+    if !plan.feasible {
+        // Written only with `plan --force`: the reason leads every output.
+        summary.push(Row {
+            label: "VERDICT".into(),
+            value: format!(
+                "INFEASIBLE, do not use these settings: {}",
+                plan.infeasible_reasons().join("; ")
+            ),
+        });
+    }
+    summary.extend([
         Row {
             label: "design".into(),
             value: plan.design.clone(),
@@ -327,7 +338,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
                 t.duty_steps, t.resolution_bits
             ),
         },
-    ];
+    ]);
     if has_dead_time || t.dead_time_need_s > 0.0 {
         summary.push(Row {
             label: "dead time".into(),
@@ -581,6 +592,12 @@ fn worst_case_rows(plan: &Plan) -> Vec<Row> {
             }
         })
         .collect();
+    for u in &w.unreachable {
+        rows.push(Row {
+            label: "unreachable".into(),
+            value: format!("FAILS; the rated current cannot be reached at {u}"),
+        });
+    }
     rows.push(Row {
         label: "corners".into(),
         value: format!("{} evaluated; {}", w.corners, w.pruning),

@@ -1,6 +1,6 @@
 //! The HTML report of a plan: one self-contained page (inline CSS, inline
 //! SVG plots) with the chosen settings, the cautions, the constraints, the
-//! plots, the losses, the operating figures, the alternatives, the
+//! worst case over the spreads, the plots, the losses, the operating figures, the alternatives, the
 //! findings, the assumptions, the inputs with their hashes and the
 //! conventions.
 //!
@@ -121,14 +121,24 @@ fn list(out: &mut String, items: &[String]) {
 
 fn header(out: &mut String, plan: &Plan, ctx: &Context) {
     let (class, word) = if plan.feasible {
-        ("feasible", "all constraints met")
+        ("feasible", "all constraints met".to_string())
+    } else if let Some(first) = plan.blocked_by.first() {
+        let more = match plan.blocked_by.len() - 1 {
+            0 => String::new(),
+            n => format!(" and {n} more"),
+        };
+        ("infeasible", format!("infeasible: {}{more}", first.code))
     } else {
-        ("infeasible", "no setting meets every constraint")
+        (
+            "infeasible",
+            "no setting meets every constraint".to_string(),
+        )
     };
     let _ = writeln!(
         out,
-        "<header>\n<h1>PWM plan: {} <span class=\"status {class}\">{word}</span></h1>",
-        escape(&plan.design)
+        "<header>\n<h1>PWM plan: {} <span class=\"status {class}\">{}</span></h1>",
+        escape(&plan.design),
+        escape(&word)
     );
     let _ = writeln!(
         out,
@@ -170,7 +180,13 @@ fn settings(out: &mut String, plan: &Plan, ctx: &Context) {
         );
     }
     out.push_str("</div>\n");
-    if !plan.feasible && !plan.conflict.is_empty() {
+    if !plan.blocked_by.is_empty() {
+        out.push_str("<div class=\"conflict\"><p><strong>Infeasible: do not use these settings.</strong> Error findings stop the plan:</p>\n");
+        let reasons: Vec<String> = plan.blocked_by.iter().map(|b| b.to_string()).collect();
+        list(out, &reasons);
+        out.push_str("</div>\n");
+    }
+    if !plan.feasible && !plan.search.constraints_met && !plan.conflict.is_empty() {
         out.push_str("<div class=\"conflict\"><p><strong>No timer setting meets every constraint.</strong> The figures below are the nearest compromise.</p>\n");
         list(out, &plan.conflict);
         out.push_str("</div>\n");
@@ -214,6 +230,48 @@ fn constraints(out: &mut String, plan: &Plan, ctx: &Context) {
         );
     }
     out.push_str("</tbody></table>\n<p class=\"detail\">Margin: distance from the value to the limit. A constraint that <em>binds</em> is the one that stops the solver from moving further toward its objective.</p>\n");
+}
+
+/// The chosen setting at the worst corners of the part and operating
+/// spreads: each constraint's worst value, where it occurs and its verdict.
+fn worst_case(out: &mut String, plan: &Plan, ctx: &Context) {
+    h2(
+        out,
+        "worst-case",
+        "Worst case over part and operating spreads",
+    );
+    let w = &plan.worst_case;
+    let verdict = if w.pass {
+        "Every constraint holds at every corner.".to_string()
+    } else {
+        let failing: Vec<&str> = w
+            .rows
+            .iter()
+            .filter(|r| !r.pass)
+            .map(|r| r.name.as_str())
+            .collect();
+        format!(
+            "Fails at a worst corner: {}.",
+            if failing.is_empty() {
+                "the rated current is out of reach".to_string()
+            } else {
+                failing.join(", ")
+            }
+        )
+    };
+    let _ = writeln!(out, "<p>{}</p>", escape(&verdict));
+    out.push_str("<table class=\"worst-case\"><thead><tr><th>constraint</th><th>worst value; verdict; corner</th></tr></thead><tbody>\n");
+    for r in &ctx.worst_case {
+        let failing = w.rows.iter().any(|x| x.name == r.label && !x.pass);
+        let _ = writeln!(
+            out,
+            "<tr{}><td>{}</td><td>{}</td></tr>",
+            if failing { " class=\"failing\"" } else { "" },
+            escape(&r.label),
+            escape(&r.value)
+        );
+    }
+    out.push_str("</tbody></table>\n");
 }
 
 fn plots(out: &mut String, loss_svg: &str, thermal_svg: &str) {
@@ -389,6 +447,7 @@ pub fn report_html(plan: &Plan, ctx: &Context, loss_svg: &str, thermal_svg: &str
     settings(&mut out, plan, ctx);
     cautions(&mut out, ctx);
     constraints(&mut out, plan, ctx);
+    worst_case(&mut out, plan, ctx);
     plots(&mut out, loss_svg, thermal_svg);
     losses(&mut out, plan, ctx);
     figures(&mut out, ctx);

@@ -15,7 +15,7 @@ use crate::physics::bootstrap::{self, BootstrapInputs};
 use crate::physics::deadtime;
 use crate::physics::params::Topology;
 use crate::solve::{Candidate, Objective, Solution};
-use crate::spec::{HighSideSupplySpec, TopologySpec};
+use crate::spec::{HighSideSupplySpec, TopologySpec, WorstCasePolicySpec};
 use crate::units::{Dimension, format_quantity};
 
 /// The conventions behind `timer.*`, stated once (also in the README).
@@ -149,7 +149,16 @@ pub struct Plan {
     pub switch: String,
     pub topology: String,
     pub objective: String,
+    /// The plan may be used: the search found a setting that meets every
+    /// constraint (`search.constraints_met`) and nothing blocks it
+    /// (`blocked_by` is empty).
     pub feasible: bool,
+    /// What makes the plan infeasible although a setting was found: every
+    /// finding of severity `error` (a worst-case failure is one unless the
+    /// design says `constraints.worst_case: warn`), each naming its finding
+    /// and, for the worst case, the corner. Empty when nothing blocks.
+    #[serde(default)]
+    pub blocked_by: Vec<BlockerOut>,
     pub conventions: BTreeMap<String, String>,
     pub pwm: Pwm,
     pub timer: TimerOut,
@@ -182,11 +191,39 @@ pub struct Plan {
     pub worst_case: WorstCaseOut,
 }
 
+/// One reason a plan is infeasible: an error finding, by its code.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct BlockerOut {
+    pub code: String,
+    pub message: String,
+}
+
+impl std::fmt::Display for BlockerOut {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "error finding {}: {}", self.code, self.message)
+    }
+}
+
+impl Plan {
+    /// The reasons the plan is infeasible, one sentence each: the blocking
+    /// findings, then the search's conflict.
+    pub fn infeasible_reasons(&self) -> Vec<String> {
+        let mut out: Vec<String> = self.blocked_by.iter().map(|b| b.to_string()).collect();
+        if !self.search.constraints_met {
+            out.extend(self.conflict.iter().cloned());
+        }
+        out
+    }
+}
+
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct WorstCaseOut {
     pub corners: usize,
     pub pruning: String,
     pub rows: Vec<WorstRow>,
+    /// Corners where the rated current cannot be reached at all.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub unreachable: Vec<String>,
     /// Every constraint holds at every corner.
     pub pass: bool,
 }
@@ -246,8 +283,82 @@ fn worst_case_out(w: &crate::spread::WorstCase) -> WorstCaseOut {
         corners: w.corners,
         pruning: w.pruning.clone(),
         rows,
+        unreachable: w.unreachable.clone(),
         pass: w.pass,
     }
+}
+
+/// A worst-case row's number in its unit.
+fn worst_number(v: f64, unit: &str) -> String {
+    match unit {
+        "°C" => format_quantity(v, Dimension::Temperature, 3),
+        "A" => format_quantity(v, Dimension::Current, 3),
+        "W" => format_quantity(v, Dimension::Power, 3),
+        "s" => format_quantity(v, Dimension::Time, 3),
+        "" => format!("{:.1} %", 100.0 * v),
+        _ => format!("{v}"),
+    }
+}
+
+/// One finding per worst-case failure, naming the constraint and the
+/// corner: severity `error` (blocks the plan) under
+/// `constraints.worst_case: block`, `warning` under `warn`.
+fn worst_case_findings(
+    w: &WorstCaseOut,
+    policy: WorstCasePolicySpec,
+    worst_case_basis: bool,
+) -> Vec<FindingOut> {
+    let (severity, advice) = match policy {
+        WorstCasePolicySpec::Block if worst_case_basis => {
+            ("error", "; `constraints.worst_case: warn` accepts the risk")
+        }
+        WorstCasePolicySpec::Block => (
+            "error",
+            "; `pwmplan plan --worst-case` chooses the setting against the worst corners, and `constraints.worst_case: warn` accepts the risk",
+        ),
+        WorstCasePolicySpec::Warn => (
+            "warning",
+            " (accepted: the design says constraints.worst_case: warn)",
+        ),
+    };
+    let mut out = Vec::new();
+    for r in w.rows.iter().filter(|r| !r.pass) {
+        let figure = match (r.value, r.limit) {
+            (Some(v), Some(l)) if r.name == "dead-time" => format!(
+                ": the worst pair needs {} against the {} chosen",
+                worst_number(v, &r.unit),
+                worst_number(l, &r.unit)
+            ),
+            (Some(v), Some(l)) => format!(
+                ": {} against the limit {}",
+                worst_number(v, &r.unit),
+                worst_number(l, &r.unit)
+            ),
+            (None, _) if r.name == "duty-range" => {
+                ": the needed duty falls outside the compare limits".into()
+            }
+            (None, _) if r.name == "junction" => ": thermal runaway".into(),
+            _ => String::new(),
+        };
+        out.push(FindingOut {
+            severity: severity.into(),
+            code: format!("worst-case-{}", r.name),
+            message: format!(
+                "worst case: {} FAILS at the corner {}{figure}{advice}",
+                r.name, r.corner
+            ),
+        });
+    }
+    for c in &w.unreachable {
+        out.push(FindingOut {
+            severity: severity.into(),
+            code: "worst-case-unreachable".into(),
+            message: format!(
+                "worst case: the rated current cannot be reached at the corner {c}{advice}"
+            ),
+        });
+    }
+    out
 }
 
 /// The three-phase block of `plan.json`.
@@ -450,6 +561,10 @@ pub struct SearchOut {
     pub realisable_settings: usize,
     pub evaluated_settings: usize,
     pub pinned_frequency_hz: Option<f64>,
+    /// The search found a setting that meets every constraint (at typical
+    /// values, or at the worst corners with `--worst-case`).
+    #[serde(default)]
+    pub constraints_met: bool,
 }
 
 /// How an input file is named in the plan: bundled files by their bundled
@@ -546,9 +661,15 @@ fn objective_name(o: Objective) -> &'static str {
     }
 }
 
-/// Findings at the chosen setting: ratings, runaway, conduction mode, dead
-/// time, bootstrap.
-fn findings(d: &Design, ev: &Evaluator, c: &Candidate) -> Vec<FindingOut> {
+/// Findings at the chosen setting: ratings, runaway, worst-case failures,
+/// conduction mode, dead time, bootstrap.
+fn findings(
+    d: &Design,
+    ev: &Evaluator,
+    c: &Candidate,
+    worst: &WorstCaseOut,
+    worst_case_basis: bool,
+) -> Vec<FindingOut> {
     let mut out: Vec<FindingOut> = ev
         .rating_findings(d)
         .into_iter()
@@ -573,6 +694,9 @@ fn findings(d: &Design, ev: &Evaluator, c: &Candidate) -> Vec<FindingOut> {
                 format!("{} case: {why}", r.case.name),
             );
         }
+    }
+    for w in worst_case_findings(worst, d.spec.constraints.worst_case, worst_case_basis) {
+        add(&w.severity, &w.code, w.message);
     }
     if !c.rated.ripple.continuous {
         add("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into());
@@ -660,7 +784,18 @@ pub fn build_on(
     worst_case_basis: bool,
 ) -> Option<Plan> {
     let c = sol.chosen.as_ref()?;
-    let worst = crate::spread::worst_case(d, ev, &c.setting, &c.dead_time);
+    let worst = worst_case_out(&crate::spread::worst_case(d, ev, &c.setting, &c.dead_time));
+    let findings = findings(d, ev, c, &worst, worst_case_basis);
+    // Infeasibility is data: every error finding blocks the plan and is
+    // named as a reason.
+    let blocked_by: Vec<BlockerOut> = findings
+        .iter()
+        .filter(|f| f.severity == "error")
+        .map(|f| BlockerOut {
+            code: f.code.clone(),
+            message: f.message.clone(),
+        })
+        .collect();
     let worst_ripple = if c.high_bus.ripple.peak_to_peak_a >= c.rated.ripple.peak_to_peak_a {
         &c.high_bus
     } else {
@@ -688,7 +823,8 @@ pub fn build_on(
         switch: d.switch.name.clone(),
         topology: topology_name(d),
         objective: objective_name(sol.objective).into(),
-        feasible: sol.feasible,
+        feasible: sol.feasible && blocked_by.is_empty(),
+        blocked_by,
         conventions: CONVENTIONS
             .iter()
             .map(|(k, v)| (k.to_string(), v.to_string()))
@@ -756,7 +892,7 @@ pub fn build_on(
                 detail: k.detail.to_string(),
             })
             .collect(),
-        findings: findings(d, ev, c),
+        findings,
         devices: c.rated.devices.clone(),
         three_phase: three_phase_out(d, ev, c),
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
@@ -828,6 +964,7 @@ pub fn build_on(
             realisable_settings: sol.realisable,
             evaluated_settings: sol.evaluated,
             pinned_frequency_hz: pinned_hz,
+            constraints_met: sol.feasible,
         },
         basis: if worst_case_basis {
             "worst-case"
@@ -835,6 +972,6 @@ pub fn build_on(
             "typical"
         }
         .into(),
-        worst_case: worst_case_out(&worst),
+        worst_case: worst,
     })
 }

@@ -196,6 +196,15 @@ pub enum UnitError {
     },
     /// NaN, infinity, or a value that overflows `f64`.
     NotFinite,
+    /// A back-EMF constant written as an rms value ("6 V rms/krpm"): the
+    /// files take the peak. `peak` is the line-to-line peak if the rms
+    /// figure is line-to-line, `peak_from_phase` if it is line-to-neutral,
+    /// both formatted with the unit.
+    RmsBackEmf {
+        text: String,
+        peak: String,
+        peak_from_phase: String,
+    },
 }
 
 impl fmt::Display for UnitError {
@@ -257,6 +266,14 @@ impl fmt::Display for UnitError {
             UnitError::NotFinite => {
                 write!(f, "not a finite number (NaN and infinity are not accepted)")
             }
+            UnitError::RmsBackEmf {
+                text,
+                peak,
+                peak_from_phase,
+            } => write!(
+                f,
+                "\"{text}\" is an rms back-EMF constant; pwmplan expects the line-to-line PEAK back-EMF per speed (for a sinusoidal back-EMF the peak is √2 × the rms): write \"{peak}\" if the rms figure is line-to-line, or \"{peak_from_phase}\" (√2·√3 = √6 ×) if it is line-to-neutral"
+            ),
         }
     }
 }
@@ -613,11 +630,49 @@ pub fn parse_quantity(text: &str, dim: Dimension) -> Result<f64, UnitError> {
         None if starts_numeric(s.unit) => Err(UnitError::NotANumber {
             text: s.trimmed.to_string(),
         }),
-        None => Err(UnitError::UnknownUnit {
-            unit: s.unit.to_string(),
-            expected: dim,
-        }),
+        None => Err(
+            rms_back_emf(&s, dim).unwrap_or_else(|| UnitError::UnknownUnit {
+                unit: s.unit.to_string(),
+                expected: dim,
+            }),
+        ),
     }
+}
+
+/// A back-EMF constant marked rms ("V rms/krpm", "Vrms/krpm", "V_rms/krpm",
+/// "V(rms)/krpm", "V/krpm rms"): the error that gives the peak to write.
+/// Peak = √2 × rms for a sinusoid; a line-to-neutral rms figure is
+/// √3 × smaller again than the line-to-line one for a balanced star (Mohan,
+/// Undeland, Robbins, *Power Electronics*, 2003, from memory).
+fn rms_back_emf(s: &Split<'_>, dim: Dimension) -> Option<UnitError> {
+    if dim != Dimension::BackEmfConstant {
+        return None;
+    }
+    let lower = s.unit.to_lowercase();
+    if lower.len() != s.unit.len() {
+        return None;
+    }
+    let mut bare = None;
+    for mark in ["(rms)", "_rms", " rms", "-rms", "rms"] {
+        if let Some(at) = lower.find(mark) {
+            // `to_lowercase` keeps these ASCII byte offsets.
+            let mut u = String::new();
+            u.push_str(&s.unit[..at]);
+            u.push_str(&s.unit[at + mark.len()..]);
+            bare = Some(u.trim().replace(" /", "/"));
+            break;
+        }
+    }
+    let bare = bare?;
+    let m = lookup(&bare).filter(|m| m.def.dim == Dimension::BackEmfConstant)?;
+    let rms_si = to_si(s.value, m).ok()?;
+    let peak = format_quantity(rms_si * 2f64.sqrt(), dim, 3);
+    let peak_from_phase = format_quantity(rms_si * 6f64.sqrt(), dim, 3);
+    Some(UnitError::RmsBackEmf {
+        text: s.trimmed.to_string(),
+        peak,
+        peak_from_phase,
+    })
 }
 
 /// Parses `text` with whatever unit it has; returns the SI value and the
@@ -1178,6 +1233,18 @@ mod tests {
             "3000 RPM",
             D::AngularSpeed,
             "unknown unit \"RPM\" (expected an angular speed such as \"3000 rpm\"); did you mean \"rpm\"?",
+        ),
+        // An rms back-EMF constant: the peak is √2 × (6 → 8.49), from
+        // line-to-neutral √6 × (6 → 14.7).
+        (
+            "6 V rms/krpm",
+            D::BackEmfConstant,
+            "\"6 V rms/krpm\" is an rms back-EMF constant; pwmplan expects the line-to-line PEAK back-EMF per speed (for a sinusoidal back-EMF the peak is √2 × the rms): write \"8.49 V/krpm\" if the rms figure is line-to-line, or \"14.7 V/krpm\" (√2·√3 = √6 ×) if it is line-to-neutral",
+        ),
+        (
+            "6 Vrms/krpm",
+            D::BackEmfConstant,
+            "\"6 Vrms/krpm\" is an rms back-EMF constant; pwmplan expects the line-to-line PEAK back-EMF per speed (for a sinusoidal back-EMF the peak is √2 × the rms): write \"8.49 V/krpm\" if the rms figure is line-to-line, or \"14.7 V/krpm\" (√2·√3 = √6 ×) if it is line-to-neutral",
         ),
         (
             "4.2 V/kRPM",

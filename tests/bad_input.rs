@@ -1971,3 +1971,59 @@ error: belt-feeder.yaml:21:32: design.tolerances.driver_supply: at +20.0 % the g
 "#,
     );
 }
+
+/// `constraints.worst_case` takes `block` or `warn` (issue 14, defect 14).
+#[test]
+fn unknown_worst_case_policy_lists_choices() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"    frequency: { min: "16 kHz", max: "60 kHz" }"#,
+            "    frequency: { min: \"16 kHz\", max: \"60 kHz\" }\n    worst_case: stop",
+        )],
+        r#"
+error: belt-feeder.yaml:20:17: design.constraints.worst_case: unknown value `stop`; expected one of `block`, `warn`
+ 20 |     worst_case: stop
+    |                 ^
+"#,
+    );
+}
+
+/// A near miss of a policy gets a suggestion.
+#[test]
+fn misspelt_worst_case_policy_suggests() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"    frequency: { min: "16 kHz", max: "60 kHz" }"#,
+            "    frequency: { min: \"16 kHz\", max: \"60 kHz\" }\n    worst_case: blok",
+        )],
+        r#"
+error: belt-feeder.yaml:20:17: design.constraints.worst_case: unknown value `blok`; did you mean `block`?
+ 20 |     worst_case: blok
+    |                 ^
+"#,
+    );
+}
+
+/// A back-EMF constant in V rms/krpm is refused with the peak to write:
+/// √2 × 6 = 8.49 V/krpm line-to-line, √6 × 6 = 14.7 V/krpm from a
+/// line-to-neutral figure (issue 14, defect 16).
+#[test]
+fn rms_back_emf_constant_names_the_peak() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "pump-bldc.yaml",
+            r#"back_emf_constant: "6 V/krpm""#,
+            r#"back_emf_constant: "6 V rms/krpm""#,
+        )],
+        r#"
+error: pump-bldc.yaml:10:24: design.motor.back_emf_constant: "6 V rms/krpm" is an rms back-EMF constant; pwmplan expects the line-to-line PEAK back-EMF per speed (for a sinusoidal back-EMF the peak is √2 × the rms): write "8.49 V/krpm" if the rms figure is line-to-line, or "14.7 V/krpm" (√2·√3 = √6 ×) if it is line-to-neutral
+ 10 |     back_emf_constant: "6 V rms/krpm"
+    |                        ^
+"#,
+    );
+}

@@ -149,6 +149,19 @@ fn changed_input_shows_the_moved_value() {
         "a changed input is not a hand edit\n{diff}"
     );
     assert!(diff.contains("is out of date"), "{diff}");
+    // The summary names the moved figures and the input that changed.
+    assert!(
+        diff.contains("What changed since the previous plan:"),
+        "{diff}"
+    );
+    assert!(
+        diff.contains("moved: figure ripple.peak_to_peak_a "),
+        "{diff}"
+    );
+    assert!(
+        diff.contains("design.motor.inductance 0.85 mH -> 0.40 mH"),
+        "{diff}"
+    );
     assert_eq!(out_files(dir.path()), before, "check writes nothing");
 }
 

@@ -255,9 +255,65 @@ fn a_switch_change_is_explained() {
         out.contains("switch.r_ds_on.typ 2.4 mohm -> 3.0 mohm"),
         "{out}"
     );
-    assert!(out.contains("moved: total loss"), "{out}");
+    assert!(out.contains("moved: figure losses_w.total"), "{out}");
+    // A slower switch needs a different dead time: the changed header
+    // constants are listed by their names.
+    assert!(
+        out.contains("moved: constant BELT_FEEDER_PWM_DEAD_TIME_TICKS "),
+        "{out}"
+    );
+    assert!(
+        out.contains("moved: constant BELT_FEEDER_PWM_DEAD_TIME_CODE "),
+        "{out}"
+    );
     // The board and design did not change and are not blamed.
     assert!(!out.contains("because: belt-feeder.yaml"), "{out}");
+}
+
+/// Lowering a brushless motor's inductance moves the ripple (by about the
+/// ratio of the inductances, 0.25/0.10: the small-ripple limit scales as 1/L),
+/// the modulation index and the power factor (the phase voltage
+/// E + (R + jωL)·I turns with ωL): all are listed, with the threshold
+/// stated and the input field named (issue 14, defect 15).
+#[test]
+fn an_inductance_change_lists_every_moved_figure() {
+    let dir = boards_copy();
+    let (code, _, err) = run(&["plan", "pump-bldc.yaml"], dir.path());
+    assert_eq!(code, 0, "{err}");
+    let design = dir.path().join("pump-bldc.yaml");
+    let text = std::fs::read_to_string(&design).expect("design");
+    let changed = text.replace("inductance: \"0.25 mH\"", "inductance: \"0.10 mH\"");
+    assert_ne!(text, changed, "the fixture still has the inductance");
+    std::fs::write(&design, changed).expect("write");
+    let (code, out, err) = run(&["plan", "pump-bldc.yaml"], dir.path());
+    assert_eq!(code, 0, "{err}");
+    for figure in [
+        "moved: figure ripple.peak_to_peak_a ",
+        "moved: figure losses_w.total ",
+        "moved: figure three_phase.rated.modulation_index ",
+        "moved: figure three_phase.rated.power_factor ",
+        "moved: figure cases[rated].ripple_peak_to_peak_a ",
+    ] {
+        assert!(out.contains(figure), "{figure:?} missing\n{out}");
+    }
+    let ripple = out
+        .lines()
+        .find(|l| l.contains("moved: figure ripple.peak_to_peak_a "))
+        .expect("ripple line");
+    let ratio: f64 = ripple
+        .rsplit("(x")
+        .next()
+        .and_then(|r| r.trim_end_matches(')').parse().ok())
+        .unwrap_or_else(|| panic!("no ratio in {ripple}"));
+    assert!((2.0..3.0).contains(&ratio), "{ripple}");
+    assert!(
+        out.contains("listed when they moved by more than 1 %, temperatures by more than 1 K"),
+        "{out}"
+    );
+    assert!(
+        out.contains("because: pump-bldc.yaml changed: design.motor.inductance 0.25 mH -> 0.10 mH"),
+        "{out}"
+    );
 }
 
 #[test]

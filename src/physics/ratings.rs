@@ -163,11 +163,19 @@ pub fn check_freewheel_path(topology: Topology, diode: Option<&DiodeModel>) -> O
     })
 }
 
-/// Stall: I_stall = V_max/R_winding against I_D (error above I_D), and the
-/// junction temperature at that current through the hot on-resistance
-/// R_ds(on)(T_j,max) at full conduction (common practice: size for stall at hot
-/// R_ds(on), not the 25 °C rating): steady T = T_a + R_th·I²·R_hot, or with
-/// `stall_time_s` the single-pulse rise P·Z_th(t) (AN2008-03, from memory).
+/// Stall: a stalled motor on a drive without a current limit draws
+/// I_stall = V_max/R_winding (Ohm's law: no back-EMF at standstill). It is
+/// checked against I_D and against the junction temperature at that current
+/// through the hot on-resistance R_ds(on)(T_j,max) at full conduction (common
+/// practice: size for stall at hot R_ds(on), not the 25 °C rating): with a
+/// stall time and a Foster network the single-pulse rise P·Z_th(t), otherwise
+/// the steady state P·R_th(j-a) (common practice). pwmplan does not yet know a
+/// drive's current limit, and nearly every real drive has one, so a stall
+/// beyond the ratings is a warning (`stall-needs-current-limit`) that names
+/// the current the limit must hold the stall to: the largest current whose
+/// junction stays at T_j,max on the same basis,
+/// I_lim = √((T_j,max − T_a)/(R_hot·Z)), with Z = Z_th(t) or R_th(j-a)
+/// (the same relation solved for I; own derivation), and not above I_D.
 pub fn check_stall(
     sw: &SwitchModel,
     v_bus_max_v: f64,
@@ -181,35 +189,75 @@ pub fn check_stall(
         return out;
     }
     let i_stall = v_bus_max_v / r_winding_ohm;
-    if i_stall > sw.i_d_a {
-        out.push(finding(
-            Severity::Error,
-            "stall-current-above-id",
-            format!(
-                "Stall current {i_stall:.1} A (V/R_winding) exceeds the I_D rating {:.1} A.",
-                sw.i_d_a
-            ),
-        ));
-    }
     let r_hot = thermal::r_ds_on_ohm(sw, sw.t_j_max_c);
     let p_hot = i_stall * i_stall * r_hot;
-    let rise = match stall_time_s {
-        Some(t) => thermal::single_pulse_rise_k(thermal_path, p_hot, t),
-        None => p_hot * thermal_path.r_th_ja_k_per_w,
-    };
-    let t_j = t_ambient_c + rise;
-    if !t_j.is_finite() || t_j > sw.t_j_max_c {
-        let span = stall_time_s.map_or("steady stall".to_string(), |t| format!("{t:.2} s stall"));
-        out.push(finding(
-            Severity::Error,
-            "stall-overtemperature",
+    // What the temperature is computed from, in words.
+    let (z, basis) = match stall_time_s {
+        Some(t) if !thermal_path.foster.is_empty() => {
+            let z = thermal::z_th_k_per_w(thermal_path, t);
+            (
+                z,
+                format!(
+                    "Computed over the {t:.2} s stall through the board's transient thermal impedance Z_th = {z:.3} K/W"
+                ),
+            )
+        }
+        Some(t) => (
+            thermal_path.r_th_ja_k_per_w,
             format!(
-                "At stall ({i_stall:.1} A, {p_hot:.2} W at hot R_ds(on) {:.1} mOhm) the junction reaches {t_j:.0} C after {span}, above T_j,max {:.0} C.",
-                r_hot * 1e3,
-                sw.t_j_max_c
+                "Computed in steady state: the board gives no thermal transient data, so the {t:.2} s stall time is not used (R_th(j-a) {:.2} K/W)",
+                thermal_path.r_th_ja_k_per_w
             ),
+        ),
+        None => (
+            thermal_path.r_th_ja_k_per_w,
+            format!(
+                "Computed in steady state: the design gives no stall time (R_th(j-a) {:.2} K/W)",
+                thermal_path.r_th_ja_k_per_w
+            ),
+        ),
+    };
+    let t_j = t_ambient_c + p_hot * z;
+    let over_id = i_stall > sw.i_d_a;
+    let over_t = !t_j.is_finite() || t_j > sw.t_j_max_c;
+    if !(over_id || over_t) {
+        return out;
+    }
+    // The current at which the junction just reaches T_j,max on the same
+    // basis, and not above I_D.
+    let room_k = sw.t_j_max_c - t_ambient_c;
+    let i_thermal = if room_k > 0.0 && z > 0.0 && r_hot > 0.0 {
+        (room_k / (r_hot * z)).sqrt()
+    } else {
+        0.0
+    };
+    let (i_limit, why) = if i_thermal <= sw.i_d_a {
+        (i_thermal, "there the junction just reaches T_j,max")
+    } else {
+        (
+            sw.i_d_a,
+            "the I_D rating; there the junction stays below T_j,max",
+        )
+    };
+    let mut beyond = Vec::new();
+    if over_id {
+        beyond.push(format!("above the I_D rating {:.1} A", sw.i_d_a));
+    }
+    if over_t {
+        beyond.push(format!(
+            "{p_hot:.1} W at hot R_ds(on) {:.1} mOhm would take the junction past T_j,max {:.0} °C",
+            r_hot * 1e3,
+            sw.t_j_max_c
         ));
     }
+    out.push(finding(
+        Severity::Warning,
+        "stall-needs-current-limit",
+        format!(
+            "A stalled motor on a drive without a current limit draws V/R_winding = {i_stall:.1} A: {}. {basis}, {t_ambient_c:.0} °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most {i_limit:.1} A ({why}).",
+            beyond.join(", and ")
+        ),
+    ));
     out
 }
 
@@ -332,8 +380,10 @@ mod tests {
     }
 
     /// Stall: 24 V / 0.4 Ω = 60 A > 50 A; at hot R_ds(on) 5 mΩ·1.005^150 ≈
-    /// 10.58 mΩ that is 38 W, far over 175 °C through 40 K/W. A 1 Ω winding
-    /// (24 A, 6.1 W) on 2 K/W passes; a short pulse with small Z_th passes too.
+    /// 10.58 mΩ that is 38 W, far over 175 °C through 40 K/W: a warning that
+    /// asks for a current limit of √(150 K/(10.58 mΩ·40 K/W)) ≈ 18.8 A. A 1 Ω
+    /// winding (24 A, 6.1 W) on 2 K/W passes; a short pulse with small Z_th
+    /// passes too.
     #[test]
     fn stall_checks() {
         let sw = example_switch();
@@ -342,9 +392,25 @@ mod tests {
             foster: vec![(0.5, 0.01), (39.5, 100.0)],
         };
         let f = check_stall(&sw, 24.0, 0.4, &path, 25.0, None);
-        assert_eq!(
-            codes(&f),
-            ["stall-current-above-id", "stall-overtemperature"]
+        assert_eq!(codes(&f), ["stall-needs-current-limit"]);
+        assert_eq!(f[0].severity, Severity::Warning);
+        let r_hot = thermal::r_ds_on_ohm(&sw, sw.t_j_max_c);
+        let i_lim = (150.0 / (r_hot * 40.0)).sqrt();
+        assert!(
+            f[0].message.contains(&format!("at most {i_lim:.1} A")),
+            "{}",
+            f[0].message
+        );
+        assert!(
+            f[0].message.contains("above the I_D rating"),
+            "{}",
+            f[0].message
+        );
+        assert!(
+            f[0].message
+                .contains("Computed in steady state: the design gives no stall time"),
+            "{}",
+            f[0].message
         );
         let cool = ThermalPath {
             r_th_ja_k_per_w: 2.0,
@@ -355,7 +421,25 @@ mod tests {
         assert!(check_stall(&sw, 24.0, 1.0, &path, 25.0, Some(0.1)).is_empty());
         assert_eq!(
             codes(&check_stall(&sw, 24.0, 1.0, &path, 25.0, None)),
-            ["stall-overtemperature"]
+            ["stall-needs-current-limit"]
+        );
+        // A stall time without transient data: steady state, and said so.
+        let no_transient = ThermalPath {
+            r_th_ja_k_per_w: 40.0,
+            foster: Vec::new(),
+        };
+        let f = check_stall(&sw, 24.0, 1.0, &no_transient, 25.0, Some(0.5));
+        assert_eq!(f.len(), 1);
+        assert!(
+            f[0].message.contains("Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used"),
+            "{}",
+            f[0].message
+        );
+        // Within I_D (24 A < 50 A): the thermal current is the limit.
+        assert!(
+            !f[0].message.contains("above the I_D rating"),
+            "{}",
+            f[0].message
         );
     }
 

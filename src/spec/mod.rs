@@ -493,6 +493,23 @@ pub struct ConstraintsSpec {
     pub frequency: Option<FrequencyBandSpec>,
     /// Length of a stall at start-up the stage must survive.
     pub stall_time: Option<Q<Second>>,
+    /// What a constraint that fails at a worst corner of the part and
+    /// operating spreads does to the plan: `block` (default) makes the plan
+    /// infeasible with the corner named; `warn` keeps it feasible with a
+    /// warning finding naming the corner.
+    #[serde(default)]
+    pub worst_case: WorstCasePolicySpec,
+}
+
+/// What a worst-case failure does to the plan (`constraints.worst_case`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[serde(rename_all = "kebab-case")]
+pub enum WorstCasePolicySpec {
+    /// The plan is infeasible; the failing constraint and corner are named.
+    #[default]
+    Block,
+    /// The plan stays feasible; a warning finding names the corner.
+    Warn,
 }
 
 #[derive(Debug, Clone, Deserialize, Default)]

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:a289ba38166dffe591d9d23a9df1874cf14c6b7352249b63a627cb96dc18dfc8)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:8308626001eaf90723b5a53ddcbfa3f5f38e0c21c7e6c5859aabc55c845566c6)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -56,9 +56,8 @@
  *   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
  *
  * Findings
- *   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
- *   error  At stall (225.0 A, 992.25 W at hot R_ds(on) 19.6 mOhm) the junction reaches 9273 C after steady stall, above T_j,max 175 C.
- *   info   the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
+ *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225.0 A: above the I_D rating 60.0 A, and 992.3 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
+ *   info     the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve

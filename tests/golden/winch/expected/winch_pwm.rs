@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c73836613919d5ac588f64762ba3a16178c542b8257d7429aab2a4ac221c6132)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:1f6f7270e0a7e3da583bffa8685a70688a018f59d14fb851ccbb7701033ad121)
 //!
 //! Chosen setting
 //!   design         winch
@@ -53,9 +53,8 @@
 //!   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
 //!
 //! Findings
-//!   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
-//!   error  At stall (300.0 A, 1764.00 W at hot R_ds(on) 19.6 mOhm) the junction reaches 12927 C after 0.50 s stall, above T_j,max 175 C.
-//!   info   the dead time costs 124 mV of mean output voltage (0.26 % of the nominal supply), opposing the current
+//!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300.0 A: above the I_D rating 60.0 A, and 1764.0 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used (R_th(j-a) 7.30 K/W), 50 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
+//!   info     the dead time costs 124 mV of mean output voltage (0.26 % of the nominal supply), opposing the current
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
