@@ -569,15 +569,12 @@ impl Evaluator {
         // The band the design allows (the solver searches only inside it;
         // a sweep or a pinned frequency may step outside).
         let in_band = f >= l.f_min_hz * (1.0 - 1e-12) && f <= l.f_max_hz * (1.0 + 1e-12);
+        let (band_limit, band_margin) = band_bound(f, l.f_min_hz, l.f_max_hz);
         checks.push(ConstraintCheck {
             name: "frequency-band",
-            limit: if f < l.f_min_hz {
-                l.f_min_hz
-            } else {
-                l.f_max_hz
-            },
+            limit: band_limit,
             value: Some(f),
-            margin: Some((f - l.f_min_hz).min(l.f_max_hz - f)),
+            margin: Some(band_margin),
             unit: "Hz",
             pass: in_band,
             binding: false,
@@ -738,6 +735,18 @@ fn bound(
         pass: margin.is_some_and(|m| m >= -EPS),
         binding: false,
         detail,
+    }
+}
+
+/// The bound of the band `[f_min, f_max]` a frequency is measured against
+/// and its margin: the nearer bound (the one that binds when the band
+/// binds, and the one crossed when outside), margin positive inside.
+pub fn band_bound(f_hz: f64, f_min_hz: f64, f_max_hz: f64) -> (f64, f64) {
+    let (below, above) = (f_hz - f_min_hz, f_max_hz - f_hz);
+    if below <= above {
+        (f_min_hz, below)
+    } else {
+        (f_max_hz, above)
     }
 }
 

@@ -780,3 +780,44 @@ fn solution_invariants_on_bundled_designs() {
     // and the vent fan on the band's top (quietest).
     assert!(bindings >= 3, "only {bindings} binding constraints seen");
 }
+
+/// Issue 14, defect 8: the frequency-band row shows the bound it is
+/// measured against, the nearer one, with its margin; when the band binds at
+/// its bottom (least loss pushed up against a raised lower edge) the limit
+/// shown is the lower edge, not the upper.
+#[test]
+fn frequency_band_row_shows_the_binding_bound() {
+    let mut bottom_binds = 0;
+    for (name, base) in DESIGNS.iter().zip(evaluators()) {
+        let free = solve::solve(base, Objective::LeastLoss);
+        let f0 = free.chosen.as_ref().expect("a choice").setting.frequency_hz;
+        let mut ev = base.clone();
+        ev.limits.f_min_hz = (f0 * 1.3).min(0.5 * (f0 + ev.limits.f_max_hz));
+        let sol = solve::solve(&ev, Objective::LeastLoss);
+        let Some(c) = sol.chosen.as_ref() else {
+            continue;
+        };
+        let f = c.setting.frequency_hz;
+        let k = c
+            .checks
+            .iter()
+            .find(|k| k.name == "frequency-band")
+            .expect("a band row");
+        let (lo, hi) = (ev.limits.f_min_hz, ev.limits.f_max_hz);
+        let nearer = if f - lo <= hi - f { lo } else { hi };
+        assert_eq!(k.limit, nearer, "{name}: band row limit");
+        let margin = k.margin.expect("a margin");
+        assert!(
+            (margin - (f - nearer).abs()).abs() <= 1e-9 * f,
+            "{name}: margin {margin} for {f} Hz against {nearer} Hz"
+        );
+        if k.binding && k.limit == lo {
+            bottom_binds += 1;
+        }
+        assert!(
+            !(k.binding && k.limit == hi && f - lo < hi - f),
+            "{name}: the upper edge is shown while the lower binds"
+        );
+    }
+    assert!(bottom_binds >= 1, "no design bound at the band's bottom");
+}
