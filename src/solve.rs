@@ -1267,7 +1267,7 @@ fn finish(
         mark_binding(&ctx, &mut chosen, b, &evaluated, &idx);
     }
     let alternatives = if feasible {
-        alternatives(obj, &chosen, &evaluated, &feasible_idx)
+        alternatives(judge, obj, &chosen, &evaluated, &feasible_idx, band)
     } else {
         Vec::new()
     };
@@ -1364,38 +1364,104 @@ fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidat
     None
 }
 
+/// Most `nearest_setting` look-ups and evaluations the rounder-frequency
+/// search spends (own choice: bounds the time on wide bands; the search
+/// goes roundest first, so what it skips is the least round).
+const ROUND_LOOKUPS: usize = 4000;
+const ROUND_EVALUATIONS: usize = 48;
+
+/// The round frequencies in `[lo, hi]` with exactly `digits` significant
+/// decimal digits in Hz, nearest `f0` first: k·10^e for integers k.
+fn round_frequencies(lo: f64, hi: f64, digits: u32, f0: f64, cap: usize) -> Vec<f64> {
+    let mut out = Vec::new();
+    if !(lo > 0.0 && hi >= lo && lo.is_finite() && hi.is_finite()) {
+        return out;
+    }
+    let (e_lo, e_hi) = (lo.log10().floor() as i32, hi.log10().floor() as i32);
+    for e in e_lo..=e_hi {
+        let unit = 10f64.powi(e + 1 - digits as i32);
+        let (k_lo, k_hi) = ((lo / unit).ceil() as i64, (hi / unit).floor() as i64);
+        for k in k_lo..=k_hi {
+            let f = k as f64 * unit;
+            if f >= lo && f <= hi && roundness_digits(f) == digits {
+                out.push(f);
+            }
+            if out.len() > cap {
+                break;
+            }
+        }
+    }
+    out.sort_by(|a, b| {
+        (a - f0)
+            .abs()
+            .total_cmp(&(b - f0).abs())
+            .then(a.total_cmp(b))
+    });
+    out.dedup();
+    out
+}
+
+/// The roundest realisable setting in the feasible band that passes every
+/// check, or `None` when none is rounder than the chosen frequency.
+///
+/// Roundness (own choice): the fewest significant decimal digits of the
+/// frequency in Hz ([`roundness_digits`]: 24 000 Hz has 2, 24 500 Hz 3,
+/// 20 006.67 Hz 7); ties go to the frequency nearest the chosen one. The
+/// search does not stop at the settings the solver happened to evaluate: for
+/// each digit count from 1 up it lists the round frequencies in the band,
+/// asks the timer for the setting nearest each (exactly realisable when its
+/// frequency equals the round one), evaluates those, and offers the first
+/// that passes.
+fn roundest_in_band(judge: &Judge, chosen: &Candidate, band: (f64, f64)) -> Option<Candidate> {
+    let f0 = chosen.setting.frequency_hz;
+    let ev = judge.ev;
+    let (mut lookups, mut evaluations) = (0usize, 0usize);
+    for digits in 1..roundness_digits(f0) {
+        for f in round_frequencies(band.0, band.1, digits, f0, ROUND_LOOKUPS) {
+            for a in ev.alignments() {
+                lookups += 1;
+                if lookups > ROUND_LOOKUPS || evaluations >= ROUND_EVALUATIONS {
+                    return None;
+                }
+                let Ok(Some(s)) = ev.timer.nearest_setting(f, a) else {
+                    continue;
+                };
+                if (s.frequency_hz - f).abs() > 1e-12 * f
+                    || roundness_digits(s.frequency_hz) != digits
+                {
+                    continue;
+                }
+                evaluations += 1;
+                if let Some(c) = judge.candidate(&s).filter(|c| c.feasible) {
+                    return Some(c);
+                }
+            }
+        }
+    }
+    None
+}
+
 fn alternatives(
+    judge: &Judge,
     obj: Objective,
     chosen: &Candidate,
     evaluated: &[Option<Box<Candidate>>],
     feasible_idx: &[usize],
+    band: Option<(f64, f64)>,
 ) -> Vec<Alternative> {
     let cands: Vec<&Candidate> = feasible_idx
         .iter()
         .filter_map(|&i| evaluated[i].as_deref())
         .collect();
     let mut out = Vec::new();
-    // A rounder frequency: the feasible one with the fewest significant digits,
-    // nearest the chosen one.
+    // A rounder frequency: the roundest realisable setting in the feasible
+    // band that passes, nearest the chosen one (evaluated or not).
     let f0 = chosen.setting.frequency_hz;
-    if let Some(r) = cands
-        .iter()
-        .filter(|c| c.setting.frequency_hz != f0)
-        .min_by(|a, b| {
-            roundness_digits(a.setting.frequency_hz)
-                .cmp(&roundness_digits(b.setting.frequency_hz))
-                .then(
-                    (a.setting.frequency_hz - f0)
-                        .abs()
-                        .total_cmp(&(b.setting.frequency_hz - f0).abs()),
-                )
-        })
-        .filter(|c| roundness_digits(c.setting.frequency_hz) < roundness_digits(f0))
-    {
+    if let Some(r) = band.and_then(|b| roundest_in_band(judge, chosen, b)) {
         out.push(Alternative {
             label: "rounder-frequency",
-            trade: trade(chosen, r),
-            candidate: (*r).clone(),
+            trade: trade(chosen, &r),
+            candidate: r,
         });
     }
     // The top of the feasible band: furthest from the audible range, least ripple.

@@ -821,3 +821,66 @@ fn frequency_band_row_shows_the_binding_bound() {
     }
     assert!(bottom_binds >= 1, "no design bound at the band's bottom");
 }
+
+/// Issue 14, defect 10: the rounder-frequency alternative is the roundest
+/// realisable setting in the feasible band that passes (fewest significant
+/// digits in Hz, then nearest the choice), found also when the search never
+/// evaluated it (the forced grid search evaluates a few settings only).
+/// Brute force: every realisable setting in the band, roundest first.
+#[test]
+fn rounder_frequency_is_the_roundest_feasible_setting_in_the_band() {
+    let roundest = |ev: &Evaluator, sol: &Solution| -> Option<f64> {
+        let f0 = sol.chosen.as_ref()?.setting.frequency_hz;
+        let (lo, hi) = sol.feasible_band_hz?;
+        let dead = ev.dead_time_choice();
+        let mut all: Vec<_> = solve::realisable(ev)
+            .into_iter()
+            .filter(|s| s.frequency_hz >= lo && s.frequency_hz <= hi)
+            .collect();
+        all.sort_by(|a, b| {
+            solve::roundness_digits(a.frequency_hz)
+                .cmp(&solve::roundness_digits(b.frequency_hz))
+                .then(
+                    (a.frequency_hz - f0)
+                        .abs()
+                        .total_cmp(&(b.frequency_hz - f0).abs()),
+                )
+        });
+        all.into_iter()
+            .take_while(|s| solve::roundness_digits(s.frequency_hz) < solve::roundness_digits(f0))
+            .find(|s| ev.candidate(s, &dead).is_some_and(|c| c.feasible))
+            .map(|s| s.frequency_hz)
+    };
+    let offered = |sol: &Solution| {
+        sol.alternatives
+            .iter()
+            .find(|a| a.label == "rounder-frequency")
+            .map(|a| a.candidate.setting.frequency_hz)
+    };
+    for (name, ev) in DESIGNS.iter().zip(evaluators()) {
+        let sol = solve::solve_with(ev, Objective::LeastLoss, GRID);
+        let want = roundest(ev, &sol);
+        let got = offered(&sol);
+        match (want, got) {
+            (Some(w), Some(g)) => assert_eq!(
+                solve::roundness_digits(g),
+                solve::roundness_digits(w),
+                "{name}: offered {g} Hz, the roundest is {w} Hz"
+            ),
+            _ => assert_eq!(want, got, "{name}: rounder frequency"),
+        }
+    }
+    // The trial's case: a 72 MHz clock and a 21–27 kHz band. 24.000 kHz
+    // (3000 ticks) is the roundest realisable frequency nearest the
+    // least-loss choice at the band's bottom; 25.000 kHz is as round but
+    // further away.
+    let mut ev = evaluators()[0].clone();
+    ev.timer.clock_hz = 72e6;
+    ev.limits.f_min_hz = 21_000.0;
+    ev.limits.f_max_hz = 27_000.0;
+    let sol = solve::solve_with(&ev, Objective::LeastLoss, GRID);
+    let f0 = sol.chosen.as_ref().expect("a choice").setting.frequency_hz;
+    assert!(f0 < 22_000.0, "least loss sits at the bottom: {f0} Hz");
+    assert_eq!(offered(&sol), Some(24_000.0), "{:?}", sol.alternatives);
+    assert_eq!(roundest(&ev, &sol), Some(24_000.0));
+}
