@@ -321,6 +321,7 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
             DeadTimeSpec::Linear {
                 clock_divider,
                 max_ticks,
+                ..
             } => DeadTimeGenerator::Linear {
                 clock_divider: *clock_divider,
                 max_ticks: *max_ticks,
@@ -328,6 +329,7 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
             DeadTimeSpec::Segmented {
                 clock_divider,
                 segments,
+                ..
             } => DeadTimeGenerator::Segmented {
                 clock_divider: *clock_divider,
                 segments: segments

@@ -186,11 +186,22 @@ pub enum DeadTimeSpec {
     /// No dead-time generator: complementary outputs need external delay.
     None,
     /// Dead time = ticks / (clock / clock_divider), ticks 0..=max_ticks.
-    Linear { clock_divider: u64, max_ticks: u64 },
+    Linear {
+        clock_divider: u64,
+        max_ticks: u64,
+        /// Width of the dead-time register field in bits (optional): the
+        /// code (= ticks) must fit, max_ticks ≤ 2^code_bits − 1.
+        #[serde(default)]
+        code_bits: Option<u32>,
+    },
     /// A register code split into segments with their own tick multipliers.
     Segmented {
         clock_divider: u64,
         segments: Vec<DeadTimeSegmentSpec>,
+        /// Width of the dead-time register field in bits (optional): every
+        /// segment's codes must fit, first_code + count ≤ 2^code_bits.
+        #[serde(default)]
+        code_bits: Option<u32>,
     },
 }
 
