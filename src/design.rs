@@ -338,6 +338,9 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
         return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
     }
     c.within("q_g.at_v_gs", s.q_g.at_v_gs.si, 0.0, 30.0, V)?;
+    if let Some(v) = s.q_g.at_v_ds {
+        c.within("q_g.at_v_ds", v.si, 0.0, s.v_dss.si, V)?;
+    }
     c.spread("q_gs", &s.q_gs)?;
     c.spread("q_gd", &s.q_gd)?;
     c.within("q_gs", s.q_gs.typ.si, 0.0, 1e-5, C)?;

@@ -539,6 +539,42 @@ fn findings(d: &Design, ev: &Evaluator, c: &Candidate) -> Vec<FindingOut> {
             );
         }
     }
+    if let Some(r) = model::c_rss_reconciliation(&d.switch) {
+        let nc = |q: f64| format_quantity(q, Dimension::Charge, 3);
+        let swing = format!(
+            "the gate-charge test swing from {}{} down to the on state",
+            format_quantity(r.v_test_v, Dimension::Voltage, 3),
+            if r.v_test_given {
+                ""
+            } else {
+                " (half of V_DSS; q_g.at_v_ds not given)"
+            }
+        );
+        if r.disagrees() {
+            add(
+                "warning",
+                "c-rss-q-gd-disagree",
+                format!(
+                    "the C_rss curve gives a Miller charge of {} over {swing}, against Q_gd {}: they differ by more than {:.0} %; check both datasheet values (the curve is scaled by ×{:.2} to Q_gd)",
+                    nc(r.curve_q_gd_c),
+                    nc(r.q_gd_c),
+                    100.0 * model::C_RSS_Q_GD_TOLERANCE,
+                    r.factor
+                ),
+            );
+        } else {
+            add(
+                "info",
+                "c-rss-scaled-to-q-gd",
+                format!(
+                    "the C_rss curve gives a Miller charge of {} over {swing}; it is scaled by ×{:.2} to Q_gd {} (the curve sets the shape of C_gd, Q_gd its size)",
+                    nc(r.curve_q_gd_c),
+                    r.factor,
+                    nc(r.q_gd_c)
+                ),
+            );
+        }
+    }
     if !c.rated.ripple.continuous {
         add("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into());
     }

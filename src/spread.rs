@@ -325,7 +325,9 @@ fn scale(value: f64, typ: f64) -> f64 {
 /// Mappings beyond "field = value" (own choices, no published source):
 /// - Q_gd: with a C_rss curve the Miller charge comes from the curve, so
 ///   the curve is scaled by Q_gd/Q_gd,typ (the Miller charge is the
-///   integral of C_gd over the swing).
+///   integral of C_gd over the swing). The typical curve is already scaled
+///   to Q_gd,typ over the gate-charge test swing (`model::switch_model`),
+///   so a corner's curve integrates to the corner's Q_gd.
 /// - Q_gs: Q_g(th), when given, scales with Q_gs (both are charge on the
 ///   same input capacitance), so Q_gs2 = Q_gs − Q_g(th) stays positive.
 /// - V_th: a datasheet plateau moves with the threshold, since

@@ -1467,6 +1467,24 @@ error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: code 1023 
     );
 }
 
+/// Issue 14, defect 6: the gate-charge test's drain voltage above V_DSS.
+#[test]
+fn gate_charge_test_voltage_above_v_dss() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            "at_v_gs: \"10 V\" }\n  q_gs",
+            "at_v_gs: \"10 V\", at_v_ds: \"60 V\" }\n  q_gs",
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:64: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_v_ds: "60 V" }
+    |                                                                ^
+"#,
+    );
+}
+
 /// A linear prescaler range upside down.
 #[test]
 fn prescaler_max_below_min() {

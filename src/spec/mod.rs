@@ -92,6 +92,12 @@ pub struct GateChargeSpec {
     pub max: Option<Q<Coulomb>>,
     /// Gate-source voltage the total gate charge is given at.
     pub at_v_gs: Q<Volt>,
+    /// Drain-source (supply) voltage of the datasheet's gate-charge test
+    /// (optional; half of `v_dss` when absent). The Miller charge Q_gd is
+    /// the drain swing from this voltage down to the on state; a C_rss curve
+    /// is reconciled with Q_gd over that swing.
+    #[serde(default)]
+    pub at_v_ds: Option<Q<Volt>>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
