@@ -430,6 +430,17 @@ fn report_fits_80_columns_and_serialises() {
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }
+    // Issue 14, defect 11: the need the dead time is encoded from is the
+    // worst-case one and is called so; the typical need is named apart.
+    let worst = wc.dead_time.worst_need_s.expect("a worst-case need");
+    assert!(wc.dead_time.encoded_from_worst_case);
+    assert!(wc.dead_time.typical_need_s <= worst + 1e-15);
+    let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(
+        flat.contains("encoded from the worst-case need"),
+        "the encoded need is not called worst-case in\n{text}"
+    );
+    assert!(!flat.contains("; typical need"), "{text}");
     let json = serde_json::to_value((&mc, &wc)).expect("serialises");
     assert!(json[0]["yield"]["point"].is_number());
     assert!(json[0]["junction_c"]["p99"].is_number());
