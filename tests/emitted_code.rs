@@ -367,6 +367,9 @@ fn c_host_program(f: &Facts) -> String {
             ("-0.25f", 0),
             ("NAN", 0),
             ("0.5f", f.mid()),
+            // Issue 14, defect 9: a tiny non-zero request is a pulse.
+            ("1e-9f", f.compare_min),
+            ("1e-6f", f.compare_min),
             ("1.0f", f.compare_max),
             ("2.0f", f.compare_max),
         ] {
