@@ -153,9 +153,9 @@ pub struct TimerLiterals {
 pub struct ThreePhaseLiterals {
     /// `sinusoidal` or `six-step`, with its option.
     pub modulation: String,
-    /// Compare value on the down-count that starts the ADC.
+    /// Compare value matched on the up-count that starts the ADC.
     pub adc_trigger_compare: String,
-    /// Trigger lead before the counter bottom, ns.
+    /// Trigger lead before the counter top, ns.
     pub trigger_ns: String,
     /// Largest compare of a sampled leg that keeps the sampling window.
     pub sampling_compare_max: String,
@@ -638,19 +638,20 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
                 .map(|d| format!("{:.1} %", 100.0 * d))
                 .unwrap_or_else(|| "no value".into());
             out.adc_trigger_compare = s.trigger_compare.to_string();
-            out.trigger_ns = format!("{:.1}", s.trigger_before_bottom_s * 1e9);
+            out.trigger_ns = format!("{:.1}", s.trigger_before_top_s * 1e9);
             out.sampling_compare_max = s.max_high_side_compare.to_string();
             out.sampling_lines = vec![
                 format!(
-                    "The ADC starts at compare {} on the down-count, {} before the counter bottom, so the {} sample is centred on the bottom, the middle of the low-side on-time.",
+                    "PWM mode: {}. The ADC starts at compare {} matched on the UP-count, {} before the counter top, so the {} sample is centred on the top, the middle of the low-side on-time.",
+                    s.pwm_mode,
                     s.trigger_compare,
-                    t(s.trigger_before_bottom_s),
+                    t(s.trigger_before_top_s),
                     t(s.sample_time_s)
                 ),
                 if tp.chop.as_deref() == Some("low-side") {
                     format!(
                         "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so the chopping low side's duty must be at least {:.1} %; the load needs {}.",
-                        t(s.trigger_before_bottom_s),
+                        t(s.trigger_before_top_s),
                         t(plan.timer.dead_time_s),
                         t(s.settle_time_s),
                         t(s.min_low_side_on_s),
@@ -661,7 +662,7 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
                 } else {
                     format!(
                         "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so a sampled leg's high-side duty is at most {:.1} % (compare {}); the load needs {}.",
-                        t(s.trigger_before_bottom_s),
+                        t(s.trigger_before_top_s),
                         t(plan.timer.dead_time_s),
                         t(s.settle_time_s),
                         t(s.min_low_side_on_s),

@@ -74,9 +74,13 @@ pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
-    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0",
+    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0",
     "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
 ];
+
+/// The PWM mode and output polarity a three-phase plan's compare values and
+/// ADC trigger assume (the emitted code's convention).
+pub const THREE_PHASE_PWM_MODE: &str = "centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time";
 
 /// The three-phase block of a plan.
 fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
@@ -127,7 +131,9 @@ fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePha
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: sensing.map(|x| x.sample_time.si).unwrap_or(tp.sample_s),
             trigger_compare: w.trigger_compare,
-            trigger_before_bottom_s: w.trigger_before_bottom_s,
+            trigger_count: "up".into(),
+            trigger_before_top_s: w.trigger_before_top_s,
+            pwm_mode: THREE_PHASE_PWM_MODE.into(),
             period_s,
             min_low_side_on_s: w.min_low_side_on_s,
             min_low_side_gate_on_s: w.min_low_side_gate_on_s,
@@ -280,11 +286,15 @@ pub struct ThreePhaseOut {
 pub struct SamplingPlan {
     pub settle_time_s: f64,
     pub sample_time_s: f64,
-    /// Compare value on the DOWN-count that starts the ADC conversion.
+    /// Compare value matched on the UP-count that starts the ADC conversion.
     pub trigger_compare: u64,
-    /// Time from the trigger to the counter bottom (the window is centred
-    /// on the bottom, the middle of the low-side on-time).
-    pub trigger_before_bottom_s: f64,
+    /// Which count direction's match triggers: `up`.
+    pub trigger_count: String,
+    /// Time from the trigger to the counter top (the window is centred on
+    /// the top, the middle of the low-side on-time under `pwm_mode`).
+    pub trigger_before_top_s: f64,
+    /// The PWM mode and output polarity the trigger assumes.
+    pub pwm_mode: String,
     pub period_s: f64,
     /// Shortest low-side time the window needs (reference, and gate on-time).
     pub min_low_side_on_s: f64,

@@ -226,10 +226,10 @@ pub struct Candidate {
 /// The low-side shunt sampling window of a three-phase setting.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct SamplingOut {
-    /// Compare value on the down-count at which the ADC starts.
+    /// Compare value matched on the up-count at which the ADC starts.
     pub trigger_compare: u64,
-    /// Time from the trigger to the counter bottom.
-    pub trigger_before_bottom_s: f64,
+    /// Time from the trigger to the counter top.
+    pub trigger_before_top_s: f64,
     /// Shortest low-side reference time that holds the window.
     pub min_low_side_on_s: f64,
     /// The same as low-side gate on-time (one dead time shorter).
@@ -373,7 +373,7 @@ impl Evaluator {
     }
 
     /// The alignments the search may use: a three-phase bridge samples its
-    /// currents at the counter bottom, so centre-aligned only.
+    /// currents around the counter top, so centre-aligned only.
     pub fn alignments(&self) -> Vec<Alignment> {
         self.timer
             .alignments
@@ -595,7 +595,7 @@ impl Evaluator {
             feasible,
             sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
                 trigger_compare: u64::from(w.trigger_compare),
-                trigger_before_bottom_s: w.trigger_before_bottom_s,
+                trigger_before_top_s: w.trigger_before_top_s,
                 min_low_side_on_s: w.min_low_side_on_s,
                 min_low_side_gate_on_s: w.min_low_side_gate_on_s,
                 max_high_side_duty: w.max_high_side_duty,
@@ -663,7 +663,7 @@ impl Evaluator {
                     Some(high_bus.modulation),
                     "",
                     format!(
-                        "the chopping low side must stay on {} around the counter bottom (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
+                        "the chopping low side must stay on {} around the counter top (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
                         fmt_t(win.min_low_side_on_s),
                         100.0 * need
                     )
@@ -676,7 +676,7 @@ impl Evaluator {
                 Some(sampled(m_low_bus)),
                 "",
                 format!(
-                    "the sampled leg's low side must stay on {} around the counter bottom (settle, dead time, sample), so its high-side duty at most {:.1} %",
+                    "the sampled leg's low side must stay on {} around the counter top (settle, dead time, sample), so its high-side duty at most {:.1} %",
                     fmt_t(win.min_low_side_on_s),
                     100.0 * win.max_high_side_duty
                 )
