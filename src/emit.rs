@@ -437,56 +437,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         label: "total".into(),
         value: watts(l.total),
     });
-    let rated = plan.cases.first();
-    let figures = vec![
-        Row {
-            label: "rated case".into(),
-            value: rated
-                .map(|c| {
-                    format!(
-                        "{} supply, {} ambient, {} load",
-                        q(c.v_bus_v, Dimension::Voltage, 3),
-                        q(c.t_ambient_c, Dimension::Temperature, 3),
-                        q(c.load_current_a, Dimension::Current, 3)
-                    )
-                })
-                .unwrap_or_default(),
-        },
-        Row {
-            label: "junction".into(),
-            value: format!(
-                "{} (limit {}); {} at the highest supply",
-                opt_c(plan.thermal.junction_c),
-                q(plan.thermal.limit_c, Dimension::Temperature, 3),
-                opt_c(plan.thermal.junction_high_bus_c)
-            ),
-        },
-        Row {
-            label: "ripple".into(),
-            value: format!(
-                "{} peak to peak at {} ({}), {} rms",
-                q(plan.ripple.peak_to_peak_a, Dimension::Current, 3),
-                q(plan.ripple.frequency_hz, Dimension::Frequency, 5),
-                if plan.ripple.continuous {
-                    "continuous"
-                } else {
-                    "discontinuous"
-                },
-                q(plan.ripple.ac_rms_a, Dimension::Current, 3)
-            ),
-        },
-        Row {
-            label: "audibility".into(),
-            value: format!(
-                "{}; A-weighted in-band level {}",
-                plan.acoustic.verdict,
-                plan.acoustic
-                    .a_weighted_db
-                    .map(|d| format!("{d:.1} dB(A) re 1 A"))
-                    .unwrap_or_else(|| "none".into())
-            ),
-        },
-    ];
+    let figures = operating_figures(plan);
     let alternatives = plan
         .alternatives
         .iter()
@@ -554,6 +505,70 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
     };
     ctx.rationale_lines = rationale_lines(&ctx);
     ctx
+}
+
+/// The operating figures, each labelled with the case it is from: the
+/// cases themselves, the junction and the ripple of each case, and the
+/// audibility of the rated case.
+fn operating_figures(plan: &Plan) -> Vec<Row> {
+    let mut rows: Vec<Row> = plan
+        .cases
+        .iter()
+        .map(|c| Row {
+            label: format!("{} case", c.name),
+            value: format!(
+                "{} supply, {} ambient, {} load",
+                q(c.v_bus_v, Dimension::Voltage, 3),
+                q(c.t_ambient_c, Dimension::Temperature, 3),
+                q(c.load_current_a, Dimension::Current, 3)
+            ),
+        })
+        .collect();
+    rows.push(Row {
+        label: "junction".into(),
+        value: format!(
+            "{} at the rated case, {} at the high-bus case (limit {})",
+            opt_c(plan.thermal.junction_c),
+            opt_c(plan.thermal.junction_high_bus_c),
+            q(plan.thermal.limit_c, Dimension::Temperature, 3)
+        ),
+    });
+    let mode = |continuous: bool| {
+        if continuous {
+            "continuous"
+        } else {
+            "discontinuous"
+        }
+    };
+    for r in &plan.ripple.by_case {
+        rows.push(Row {
+            label: format!("ripple, {} case", r.case),
+            value: format!(
+                "{} peak to peak at {} ({}), {} rms{}",
+                q(r.peak_to_peak_a, Dimension::Current, 3),
+                q(r.frequency_hz, Dimension::Frequency, 5),
+                mode(r.continuous),
+                q(r.ac_rms_a, Dimension::Current, 3),
+                if r.case == plan.ripple.peak_to_peak_case && plan.ripple.by_case.len() > 1 {
+                    "; the larger, checked against the ripple limit"
+                } else {
+                    ""
+                }
+            ),
+        });
+    }
+    rows.push(Row {
+        label: format!("audibility, {} case", plan.acoustic.case),
+        value: format!(
+            "{}; A-weighted in-band level {}",
+            plan.acoustic.verdict,
+            plan.acoustic
+                .a_weighted_db
+                .map(|d| format!("{d:.1} dB(A) re 1 A"))
+                .unwrap_or_else(|| "none".into())
+        ),
+    });
+    rows
 }
 
 /// The worst-case rows: value, limit, where it occurs, verdict.

@@ -349,6 +349,11 @@ pub struct Thermal {
     pub r_th_ja_k_per_w: f64,
 }
 
+/// The motor-current ripple. The top-level figures keep their keys: the
+/// peak to peak is the worst of the rated and high-bus cases (the case named
+/// by `peak_to_peak_case`), `continuous` holds for both, and the mean, rms,
+/// ac rms and frequency are the rated case's (`case`). `by_case` gives every
+/// figure of each case.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct Ripple {
     /// Worst of the rated and high-bus cases, A.
@@ -358,6 +363,41 @@ pub struct Ripple {
     pub rms_a: f64,
     pub ac_rms_a: f64,
     pub frequency_hz: f64,
+    /// The case of `mean_a`, `rms_a`, `ac_rms_a` and `frequency_hz`.
+    #[serde(default)]
+    pub case: String,
+    /// The case whose peak to peak is `peak_to_peak_a` (the larger).
+    #[serde(default)]
+    pub peak_to_peak_case: String,
+    /// Every figure per case: rated, then high-bus.
+    #[serde(default)]
+    pub by_case: Vec<RippleCase>,
+}
+
+/// The ripple figures of one operating case.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct RippleCase {
+    pub case: String,
+    pub v_bus_v: f64,
+    pub peak_to_peak_a: f64,
+    pub continuous: bool,
+    pub mean_a: f64,
+    pub rms_a: f64,
+    pub ac_rms_a: f64,
+    pub frequency_hz: f64,
+}
+
+fn ripple_case(r: &model::CaseResult) -> RippleCase {
+    RippleCase {
+        case: r.case.name.into(),
+        v_bus_v: r.case.v_bus_v,
+        peak_to_peak_a: r.ripple.peak_to_peak_a,
+        continuous: r.ripple.continuous,
+        mean_a: r.ripple.mean_a,
+        rms_a: r.ripple.rms_a,
+        ac_rms_a: r.ripple.ac_rms_a,
+        frequency_hz: r.ripple.frequency_hz,
+    }
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -366,6 +406,9 @@ pub struct Acoustic {
     /// A-weighted level of the in-band ripple lines, dB(A) re 1 A rms.
     pub a_weighted_db: Option<f64>,
     pub verdict: String,
+    /// The operating case these figures are from.
+    #[serde(default)]
+    pub case: String,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -743,11 +786,15 @@ pub fn build_on(
             rms_a: c.rated.ripple.rms_a,
             ac_rms_a: c.rated.ripple.ac_rms_a,
             frequency_hz: c.rated.ripple.frequency_hz,
+            case: c.rated.case.name.into(),
+            peak_to_peak_case: worst_ripple.case.name.into(),
+            by_case: vec![ripple_case(&c.rated), ripple_case(&c.high_bus)],
         },
         acoustic: Acoustic {
             lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
             a_weighted_db: c.rated.acoustic.a_weighted_db,
             verdict: c.rated.acoustic.reason.to_string(),
+            case: c.rated.case.name.into(),
         },
         constraints: c
             .checks
