@@ -199,8 +199,8 @@ impl CrssReconciliation {
 /// falling from the test voltage to the on state (≈ 0 V) and the gate on the
 /// plateau (`switching::miller_integrals`, the same integral the switching
 /// model uses; Q = ∫C dV is the definition of charge on a nonlinear
-/// capacitance, AN608A), against the datasheet Q_gd, which is that same
-/// charge measured. `None` without a curve or when the curve gives no charge.
+/// capacitance, common practice), against the datasheet Q_gd, which is that
+/// same charge measured. `None` without a curve or when the curve gives no charge.
 ///
 /// The plateau is the datasheet plateau, else V_th (own choice: the test
 /// current is not in the switch file); the test voltage is `q_g.at_v_ds`,
