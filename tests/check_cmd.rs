@@ -65,12 +65,16 @@ fn edit(dir: &Path, rel: &str, from: &str, to: &str) {
     fs::write(&path, text.replacen(from, to, 1)).expect("write edit");
 }
 
-/// The peak-to-peak ripple in mA on the diff line of the C header's
-/// "Operating figures" block starting with `sign`.
+/// The peak-to-peak ripple in mA of the high-bus case on the diff line of
+/// the C header's "Operating figures" block starting with `sign`.
 fn ripple_ma(diff: &str, sign: char) -> f64 {
     let line = diff
         .lines()
-        .find(|l| l.starts_with(sign) && l.contains(" *   ripple ") && l.contains("peak to peak"))
+        .find(|l| {
+            l.starts_with(sign)
+                && l.contains(" *   ripple, high-bus case ")
+                && l.contains("peak to peak")
+        })
         .unwrap_or_else(|| panic!("no {sign} ripple line in the diff:\n{diff}"));
     let words: Vec<&str> = line.split_whitespace().collect();
     let at = words
