@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:e5990fdc958be9a4b09a82d20afcb2d062b6871d40904831e1283bf34d65f144)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:706339bf8b62cf315482ca66ab1a18e118b614e7e35ed0fdd01ffa505e798d2d)
  *
  * Chosen setting
  *   design         winch
@@ -22,7 +22,7 @@
  *   resolution         10.00 bits  13.51 bits  3.51 bits  ok
  *   dead-time              125 ns      123 ns    1.98 ns  ok
  *   duty-range            99.18 %     95.45 %     3.73 %  ok
- *   frequency-band     40.000 kHz  10.311 kHz     311 Hz  ok
+ *   frequency-band     10.000 kHz  10.311 kHz     311 Hz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           3.44 W
@@ -35,10 +35,12 @@
  *   total                3.92 W
  *
  * Operating figures
- *   rated case  48.0 V supply, 50.0 °C ambient, 12.0 A load
- *   junction    62.4 °C (limit 145 °C); 62.0 °C at the highest supply
- *   ripple      1.80 A peak to peak at 20.622 kHz (continuous), 386 mA rms
- *   audibility  no significant line at or below 18.00 kHz; A-weighted in-band level none
+ *   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   high-bus case           54.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   junction                62.4 °C at the rated case, 62.0 °C at the high-bus case (limit 145 °C)
+ *   ripple, rated case      1.34 A peak to peak at 20.622 kHz (continuous), 386 mA rms
+ *   ripple, high-bus case   1.80 A peak to peak at 20.622 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
  *   junction    67.5 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
@@ -50,8 +52,8 @@
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
- *   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
+ *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, edge): +432 mW total loss, +1.3 K junction, -872 mA ripple, -0.96 bits resolution
+ *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
  *
  * Findings
  *   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
@@ -75,7 +77,7 @@
  *
  * Inputs
  *   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
- *   heron-hb48.yaml           sha256 367681d8e3d1eed9498d2faf9132a69fde983edac637c05e716acf22c0e13669
+ *   heron-hb48.yaml           sha256 ce518ea7920ed93ec2f984833776be60a7dde6659acb848337b34d6df0528510
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef WINCH_PWM_H
@@ -83,12 +85,20 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/*
+ * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *
+ * What duty 0 means on this h-bridge-unipolar stage, and how to coast:
+ *   Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.
+ *   To coast: disable the outputs (all four switches off); duty 0 is not coasting.
+ */
+
+/* Timer input clock, before the divider. */
 #define WINCH_PWM_CLOCK_HZ 120000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider (prescaler) ratio and the value the divider register takes. */
 #define WINCH_PWM_DIVIDER 1U
 #define WINCH_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
+/* Counter ticks per PWM period and the period register value. */
 #define WINCH_PWM_PERIOD_TICKS 11638U
 #define WINCH_PWM_PERIOD_REG 11637U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -103,17 +113,24 @@
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define WINCH_PWM_COMPARE_MIN 48U
 #define WINCH_PWM_COMPARE_MAX 11542U
+/* The compare the init sequence loads while the outputs are disabled
+ * (0: the low sides on, braking a turning motor, once enabled). */
+#define WINCH_PWM_INIT_COMPARE 0U
+/* 1: compare 0 with the outputs enabled turns the low side(s) on and shorts
+ * the motor (braking); 0: it does not. Coasting is outputs disabled. */
+#define WINCH_PWM_DUTY_ZERO_BRAKES 1
 
 /*
  * Init sequence (register names differ per MCU; values are above):
- *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
+ *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+ *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
- *   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
- *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
- *   8. Start the counter, then enable the outputs.
+ *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *   6. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
+ *   7. Compare register(s) <- WINCH_PWM_INIT_COMPARE (outputs still disabled), then values from winch_pwm_compare_from_q16() only.
+ *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
  */
 
 /*
@@ -141,7 +158,9 @@ static inline uint32_t winch_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. 32-bit
+ * arithmetic: permille < 1000 here, so permille * 65536 + 500 < 2^32 (no
+ * 64-bit division on a 32-bit target). */
 static inline uint32_t winch_pwm_compare_from_permille(uint32_t permille)
 {
     if (permille == 0U) {
@@ -150,19 +169,23 @@ static inline uint32_t winch_pwm_compare_from_permille(uint32_t permille)
     if (permille >= 1000U) {
         return winch_pwm_compare_from_q16(65536U);
     }
-    return winch_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+    return winch_pwm_compare_from_q16((uint32_t)((permille * 65536U + 500U) / 1000U));
 }
 
-/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU): 0 (or
+ * less, or NaN) is off; any other request gives at least COMPARE_MIN, also
+ * one below half a 16-bit step that rounds to 0. */
 static inline uint32_t winch_pwm_compare_from_fraction(float duty)
 {
+    uint32_t q;
     if (!(duty > 0.0f)) {
         return 0U;
     }
     if (duty >= 1.0f) {
         return winch_pwm_compare_from_q16(65536U);
     }
-    return winch_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+    q = (uint32_t)(duty * 65536.0f + 0.5f);
+    return winch_pwm_compare_from_q16(q == 0U ? 1U : q);
 }
 
 #endif /* WINCH_PWM_H */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c73836613919d5ac588f64762ba3a16178c542b8257d7429aab2a4ac221c6132)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:ad78edcfe01d7e8df1c2ab8e3fd75ce9f95fd102948453b434afc064304a3980)
 //!
 //! Chosen setting
 //!   design         winch
@@ -21,7 +21,7 @@
 //!   resolution         10.00 bits  13.51 bits  3.51 bits  ok
 //!   dead-time              125 ns      123 ns    1.98 ns  ok
 //!   duty-range            99.18 %     95.45 %     3.73 %  ok
-//!   frequency-band     40.000 kHz  10.311 kHz     311 Hz  ok
+//!   frequency-band     10.000 kHz  10.311 kHz     311 Hz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           3.44 W
@@ -34,10 +34,12 @@
 //!   total                3.92 W
 //!
 //! Operating figures
-//!   rated case  48.0 V supply, 50.0 °C ambient, 12.0 A load
-//!   junction    62.4 °C (limit 145 °C); 62.0 °C at the highest supply
-//!   ripple      1.80 A peak to peak at 20.622 kHz (continuous), 386 mA rms
-//!   audibility  no significant line at or below 18.00 kHz; A-weighted in-band level none
+//!   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
+//!   high-bus case           54.0 V supply, 50.0 °C ambient, 12.0 A load
+//!   junction                62.4 °C at the rated case, 62.0 °C at the high-bus case (limit 145 °C)
+//!   ripple, rated case      1.34 A peak to peak at 20.622 kHz (continuous), 386 mA rms
+//!   ripple, high-bus case   1.80 A peak to peak at 20.622 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
 //!   junction    67.5 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
@@ -49,8 +51,8 @@
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
-//!   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
+//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, edge): +432 mW total loss, +1.3 K junction, -872 mA ripple, -0.96 bits resolution
+//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
 //!
 //! Findings
 //!   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
@@ -74,30 +76,37 @@
 //!
 //! Inputs
 //!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
-//!   heron-hb48.yaml           sha256 367681d8e3d1eed9498d2faf9132a69fde983edac637c05e716acf22c0e13669
+//!   heron-hb48.yaml           sha256 ce518ea7920ed93ec2f984833776be60a7dde6659acb848337b34d6df0528510
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
+//! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!
+//! What duty 0 means on this h-bridge-unipolar stage, and how to coast:
+//!   Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.
+//!   To coast: disable the outputs (all four switches off); duty 0 is not coasting.
+//!
 //! Init sequence (register names differ per MCU; values are the constants below):
-//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
-//!   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
-//!   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
-//!   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
-//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
-//!   8. Start the counter, then enable the outputs.
+//!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+//!   2. Divider register <- DIVIDER_REG (divider 1).
+//!   3. Period register <- PERIOD_REG (11638 ticks per period).
+//!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
+//!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
+//!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
+//!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 120000000;
-/// Prescaler ratio.
+/// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 11638;
-/// Value of the period (auto-reload) register.
+/// Value of the period register.
 pub const PERIOD_REG: u32 = 11637;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
@@ -113,6 +122,12 @@ pub const DEAD_TIME_TICKS: u32 = 15;
 pub const COMPARE_MIN: u32 = 48;
 /// Largest compare value allowed.
 pub const COMPARE_MAX: u32 = 11542;
+/// The compare the init sequence loads while the outputs are disabled
+/// (0: the low sides on, braking a turning motor, once enabled).
+pub const INIT_COMPARE: u32 = 0;
+/// True when compare 0 with the outputs enabled turns the low side(s) on and
+/// shorts the motor (braking). Coasting is outputs disabled.
+pub const DUTY_ZERO_BRAKES: bool = true;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
@@ -160,7 +175,8 @@ impl Duty {
         if permille >= 1000 {
             return Duty::MAX;
         }
-        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+        // permille < 1000 here, so the product fits 32 bits.
+        Duty::from_q16((permille * 65536 + 500) / 1000)
     }
 
     /// The compare value.
