@@ -381,3 +381,57 @@ fn three_phase_trigger_samples_while_the_low_sides_conduct() {
         "the counter bottom is inside the high-side pulse"
     );
 }
+
+fn copy_tree(from: &std::path::Path, to: &std::path::Path) {
+    fs::create_dir_all(to).expect("create folder");
+    for e in fs::read_dir(from).expect("read folder") {
+        let e = e.expect("entry");
+        let target = to.join(e.file_name());
+        if e.file_type().expect("type").is_dir() {
+            copy_tree(&e.path(), &target);
+        } else {
+            fs::copy(e.path(), &target).expect("copy");
+        }
+    }
+}
+
+/// Issue 14, defect 12, the topology no golden case has: a bipolar
+/// H-bridge (the winch on its board switched to bipolar modulation). Duty 0
+/// is full reverse there, so the init compare is the 50 % compare (zero
+/// volts), duty 0 does not brake, and the sequence is as safe as the others.
+#[test]
+fn bipolar_h_bridge_inits_at_zero_volts_with_the_outputs_disabled() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    copy_tree(
+        &std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
+        dir.path(),
+    );
+    let board = dir.path().join("heron-hb48.yaml");
+    let text = fs::read_to_string(&board).expect("board");
+    assert_eq!(text.matches("modulation: unipolar").count(), 1);
+    fs::write(
+        &board,
+        text.replace("modulation: unipolar", "modulation: bipolar"),
+    )
+    .expect("write board");
+    let o = std::process::Command::new(common::BIN)
+        .current_dir(dir.path())
+        .args(["plan", "winch.yaml", "--out", "out"])
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(o.status.code(), Some(0), "{}", common::describe(&o));
+    let read = |f: &str| fs::read_to_string(dir.path().join("out").join(f)).expect("output");
+    let plan: serde_json::Value = serde_json::from_str(&read("plan.json")).expect("plan.json");
+    assert_eq!(plan["topology"], "h-bridge-bipolar");
+    let header = read("winch_pwm.h");
+    let module = read("winch_pwm.rs");
+    check_safe("bipolar header", &init_steps(&header, " *   "));
+    check_safe("bipolar module", &init_steps(&module, "//!   "));
+    let d = defines(&header, "WINCH_PWM");
+    let steps = plan["timer"]["duty_steps"].as_u64().expect("duty steps");
+    assert_eq!(d["INIT_COMPARE"], (steps as f64 / 2.0).round() as u64);
+    assert_eq!(d["DUTY_ZERO_BRAKES"], 0);
+    for text in [&header, &module] {
+        assert!(text.contains("FULL REVERSE") && text.contains("To coast: disable the outputs"));
+    }
+}
