@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6053ed9f772db4c66fcb304f9090c16120db6282e5016644cbef6376f5a02366)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:b224f7d26cb9225d4eb90fcad856ceb515c2fd5e51701cbd87a3698ecd066c4b)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -10,8 +10,8 @@
  *   frequency      20.006 kHz, edge-aligned
  *   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
  *   resolution     3199 duty steps (11.6 bits)
- *   dead time      156 ns = 10 ticks (code 0x0A); needed 150 ns
- *   duty limits    compare 20 to 3167 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+ *   dead time      156 ns = 10 ticks (code 0x0A); needed 152 ns
+ *   duty limits    compare 30 to 3157 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
  *   feasible band  20.006 kHz to 59.981 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
@@ -20,41 +20,44 @@
  *   ripple                 875 mA      363 mA     512 mA  ok
  *   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
  *   resolution         10.00 bits  11.64 bits  1.64 bits  ok
- *   dead-time              156 ns      150 ns    5.85 ns  ok
- *   duty-range            99.00 %     94.05 %     4.95 %  ok
- *   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
+ *   dead-time              156 ns      152 ns    3.85 ns  ok
+ *   duty-range            98.69 %     94.45 %     4.23 %  ok
+ *   frequency-band     16.000 kHz  20.006 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           33.5 mW
- *   switching            20.2 mW
+ *   switching            20.8 mW
  *   output capacitance   9.12 mW
  *   reverse recovery     25.2 mW
  *   dead-time diode      18.6 mW
  *   gate drive           32.5 mW
- *   motor ripple copper  2.96 mW
- *   total                142 mW
+ *   motor ripple copper  2.95 mW
+ *   total                143 mW
  *
  * Operating figures
- *   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
- *   junction    57.0 °C (limit 135 °C); 57.1 °C at the highest supply
- *   ripple      363 mA peak to peak at 20.006 kHz (continuous), 69.0 mA rms
- *   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+ *   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
+ *   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
+ *   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
+ *   ripple, rated case      239 mA peak to peak at 20.006 kHz (continuous), 68.9 mA rms
+ *   ripple, high-bus case   363 mA peak to peak at 20.006 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
- *   junction    58.1 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
- *   total-loss  209 mW; ok; hot: V_th max, supply 28.0 V
+ *   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
+ *   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
  *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
- *   duty-range  94.05 % (limit 99.00 %); ok; hot: V_th min, supply 20.0 V
- *   dead-time   needs 150 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   duty-range  94.47 % (limit 98.69 %); ok; hot: V_th min, supply 20.0 V
+ *   dead-time   needs 152 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, ±0 K junction, -8 mA ripple, -0.03 bits resolution
- *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 1600 ticks, edge): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
+ *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +210 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
  *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
  *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
  *
  * Assumptions
@@ -82,12 +85,20 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/*
+ * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *
+ * What duty 0 means on this half-bridge stage, and how to coast:
+ *   Duty 0 (compare 0) means the low side is on for the whole period: the motor terminals are shorted through it, and a turning motor brakes (its back-EMF drives a braking current).
+ *   To coast: disable the outputs (both switches off); duty 0 is not coasting.
+ */
+
+/* Timer input clock, before the divider. */
 #define BELT_FEEDER_PWM_CLOCK_HZ 64000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider (prescaler) ratio and the value the divider register takes. */
 #define BELT_FEEDER_PWM_DIVIDER 1U
 #define BELT_FEEDER_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
+/* Counter ticks per PWM period and the period register value. */
 #define BELT_FEEDER_PWM_PERIOD_TICKS 3199U
 #define BELT_FEEDER_PWM_PERIOD_REG 3198U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -100,19 +111,26 @@
 #define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0AU
 #define BELT_FEEDER_PWM_DEAD_TIME_TICKS 10U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define BELT_FEEDER_PWM_COMPARE_MIN 20U
-#define BELT_FEEDER_PWM_COMPARE_MAX 3167U
+#define BELT_FEEDER_PWM_COMPARE_MIN 30U
+#define BELT_FEEDER_PWM_COMPARE_MAX 3157U
+/* The compare the init sequence loads while the outputs are disabled
+ * (0: the low side on, braking a turning motor, once enabled). */
+#define BELT_FEEDER_PWM_INIT_COMPARE 0U
+/* 1: compare 0 with the outputs enabled turns the low side(s) on and shorts
+ * the motor (braking); 0: it does not. Coasting is outputs disabled. */
+#define BELT_FEEDER_PWM_DUTY_ZERO_BRAKES 1
 
 /*
  * Init sequence (register names differ per MCU; values are above):
- *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
+ *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+ *   2. Divider register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before enabling complementary outputs.
- *   6. Compare register(s) <- 0, then values from belt_feeder_pwm_compare_from_q16() only.
- *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
- *   8. Start the counter, then enable the outputs.
+ *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *   6. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before the complementary outputs are ever enabled.
+ *   7. Compare register(s) <- BELT_FEEDER_PWM_INIT_COMPARE (outputs still disabled), then values from belt_feeder_pwm_compare_from_q16() only.
+ *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
  */
 
 /*
@@ -140,7 +158,9 @@ static inline uint32_t belt_feeder_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. 32-bit
+ * arithmetic: permille < 1000 here, so permille * 65536 + 500 < 2^32 (no
+ * 64-bit division on a 32-bit target). */
 static inline uint32_t belt_feeder_pwm_compare_from_permille(uint32_t permille)
 {
     if (permille == 0U) {
@@ -149,19 +169,23 @@ static inline uint32_t belt_feeder_pwm_compare_from_permille(uint32_t permille)
     if (permille >= 1000U) {
         return belt_feeder_pwm_compare_from_q16(65536U);
     }
-    return belt_feeder_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+    return belt_feeder_pwm_compare_from_q16((uint32_t)((permille * 65536U + 500U) / 1000U));
 }
 
-/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU): 0 (or
+ * less, or NaN) is off; any other request gives at least COMPARE_MIN, also
+ * one below half a 16-bit step that rounds to 0. */
 static inline uint32_t belt_feeder_pwm_compare_from_fraction(float duty)
 {
+    uint32_t q;
     if (!(duty > 0.0f)) {
         return 0U;
     }
     if (duty >= 1.0f) {
         return belt_feeder_pwm_compare_from_q16(65536U);
     }
-    return belt_feeder_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+    q = (uint32_t)(duty * 65536.0f + 0.5f);
+    return belt_feeder_pwm_compare_from_q16(q == 0U ? 1U : q);
 }
 
 #endif /* BELT_FEEDER_PWM_H */

@@ -145,6 +145,18 @@ fn fmt(v: f64, dim: Dimension) -> String {
     format_quantity(v, dim, 3)
 }
 
+/// The largest code a dead-time register of `bits` bits holds, 2^bits − 1;
+/// refuses a width outside 1..=32 (a code is a `u32`).
+fn dead_time_code_top(c: &Check, field: &str, bits: u32) -> Result<u64, InputError> {
+    if !(1..=32).contains(&bits) {
+        return Err(c.fail(
+            field,
+            format!("{bits} bits is out of range; expected 1 to 32"),
+        ));
+    }
+    Ok((1u64 << bits) - 1)
+}
+
 /// Field checks within one file; paths are `prefix.field`.
 struct Check<'a> {
     src: &'a SourceFile,
@@ -326,6 +338,9 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
         return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
     }
     c.within("q_g.at_v_gs", s.q_g.at_v_gs.si, 0.0, 30.0, V)?;
+    if let Some(v) = s.q_g.at_v_ds {
+        c.within("q_g.at_v_ds", v.si, 0.0, s.v_dss.si, V)?;
+    }
     c.spread("q_gs", &s.q_gs)?;
     c.spread("q_gd", &s.q_gd)?;
     c.within("q_gs", s.q_gs.typ.si, 0.0, 1e-5, C)?;
@@ -517,6 +532,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         DeadTimeSpec::Linear {
             clock_divider,
             max_ticks,
+            code_bits,
         } => {
             if *clock_divider < 1 {
                 return Err(c.fail(
@@ -530,10 +546,22 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
                     "expected at least 1 tick",
                 ));
             }
+            if let Some(bits) = code_bits {
+                let top = dead_time_code_top(&c, "timer.dead_time.linear.code_bits", *bits)?;
+                if *max_ticks > top {
+                    return Err(c.fail(
+                        "timer.dead_time.linear.max_ticks",
+                        format!(
+                            "code {max_ticks} does not fit the {bits}-bit dead-time register (codes 0 to {top}); expected max_ticks ≤ {top}"
+                        ),
+                    ));
+                }
+            }
         }
         DeadTimeSpec::Segmented {
             clock_divider,
             segments,
+            code_bits,
         } => {
             if *clock_divider < 1 {
                 return Err(c.fail(
@@ -562,6 +590,20 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
                     ));
                 }
                 let end = u64::from(s.first_code) + u64::from(s.count);
+                if let Some(bits) = code_bits {
+                    let top = dead_time_code_top(&c, "timer.dead_time.segmented.code_bits", *bits)?;
+                    if end - 1 > top {
+                        return Err(c.fail(
+                            &format!("{f}.count"),
+                            format!(
+                                "codes 0x{:X} to 0x{:X} run past the {bits}-bit dead-time register (codes 0x0 to 0x{top:X}); expected first_code + count ≤ 0x{:X}",
+                                s.first_code,
+                                end - 1,
+                                top + 1
+                            ),
+                        ));
+                    }
+                }
                 for (j, o) in segments[..i].iter().enumerate() {
                     let o_end = u64::from(o.first_code) + u64::from(o.count);
                     if u64::from(s.first_code) < o_end && u64::from(o.first_code) < end {

@@ -153,9 +153,9 @@ pub struct TimerLiterals {
 pub struct ThreePhaseLiterals {
     /// `sinusoidal` or `six-step`, with its option.
     pub modulation: String,
-    /// Compare value on the down-count that starts the ADC.
+    /// Compare value matched on the up-count that starts the ADC.
     pub adc_trigger_compare: String,
-    /// Trigger lead before the counter bottom, ns.
+    /// Trigger lead before the counter top, ns.
     pub trigger_ns: String,
     /// Largest compare of a sampled leg that keeps the sampling window.
     pub sampling_compare_max: String,
@@ -180,8 +180,12 @@ pub struct Context {
     pub three_phase_literals: ThreePhaseLiterals,
     /// The rationale as plain text lines, for comment blocks.
     pub rationale_lines: Vec<String>,
-    /// The register init sequence, one step per line.
+    /// The register init sequence, one step per line (C names).
     pub init_steps: Vec<String>,
+    /// The same sequence naming the Rust module's constants and helpers.
+    pub rust_init_steps: Vec<String>,
+    /// What duty 0 means for this topology, how to coast, the PWM mode.
+    pub stage: StageLiterals,
     pub summary: Vec<Row>,
     pub constraints: Vec<ConstraintRow>,
     pub losses: Vec<Row>,
@@ -448,56 +452,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         label: "total".into(),
         value: watts(l.total),
     });
-    let rated = plan.cases.first();
-    let figures = vec![
-        Row {
-            label: "rated case".into(),
-            value: rated
-                .map(|c| {
-                    format!(
-                        "{} supply, {} ambient, {} load",
-                        q(c.v_bus_v, Dimension::Voltage, 3),
-                        q(c.t_ambient_c, Dimension::Temperature, 3),
-                        q(c.load_current_a, Dimension::Current, 3)
-                    )
-                })
-                .unwrap_or_default(),
-        },
-        Row {
-            label: "junction".into(),
-            value: format!(
-                "{} (limit {}); {} at the highest supply",
-                opt_c(plan.thermal.junction_c),
-                q(plan.thermal.limit_c, Dimension::Temperature, 3),
-                opt_c(plan.thermal.junction_high_bus_c)
-            ),
-        },
-        Row {
-            label: "ripple".into(),
-            value: format!(
-                "{} peak to peak at {} ({}), {} rms",
-                q(plan.ripple.peak_to_peak_a, Dimension::Current, 3),
-                q(plan.ripple.frequency_hz, Dimension::Frequency, 5),
-                if plan.ripple.continuous {
-                    "continuous"
-                } else {
-                    "discontinuous"
-                },
-                q(plan.ripple.ac_rms_a, Dimension::Current, 3)
-            ),
-        },
-        Row {
-            label: "audibility".into(),
-            value: format!(
-                "{}; A-weighted in-band level {}",
-                plan.acoustic.verdict,
-                plan.acoustic
-                    .a_weighted_db
-                    .map(|d| format!("{d:.1} dB(A) re 1 A"))
-                    .unwrap_or_else(|| "none".into())
-            ),
-        },
-    ];
+    let figures = operating_figures(plan);
     let alternatives = plan
         .alternatives
         .iter()
@@ -538,7 +493,23 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         })
         .collect();
     let worst_case = worst_case_rows(plan);
-    let init_steps = init_steps(&n, &timer, has_dead_time, plan.three_phase.is_some());
+    let stage = stage_literals(plan);
+    let c_init_steps = init_steps(
+        &n,
+        &timer,
+        &stage,
+        has_dead_time,
+        plan.three_phase.is_some(),
+        Lang::C,
+    );
+    let rust_init_steps = init_steps(
+        &n,
+        &timer,
+        &stage,
+        has_dead_time,
+        plan.three_phase.is_some(),
+        Lang::Rust,
+    );
     let mut ctx = Context {
         tool: format!("pwmplan {}", env!("CARGO_PKG_VERSION")),
         marker: MARKER_PLACEHOLDER.into(),
@@ -550,7 +521,9 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         three_phase: plan.three_phase.is_some(),
         three_phase_literals: tpl,
         rationale_lines: Vec::new(),
-        init_steps,
+        init_steps: c_init_steps,
+        rust_init_steps,
+        stage,
         summary,
         constraints,
         losses,
@@ -565,6 +538,70 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
     };
     ctx.rationale_lines = rationale_lines(&ctx);
     ctx
+}
+
+/// The operating figures, each labelled with the case it is from: the
+/// cases themselves, the junction and the ripple of each case, and the
+/// audibility of the rated case.
+fn operating_figures(plan: &Plan) -> Vec<Row> {
+    let mut rows: Vec<Row> = plan
+        .cases
+        .iter()
+        .map(|c| Row {
+            label: format!("{} case", c.name),
+            value: format!(
+                "{} supply, {} ambient, {} load",
+                q(c.v_bus_v, Dimension::Voltage, 3),
+                q(c.t_ambient_c, Dimension::Temperature, 3),
+                q(c.load_current_a, Dimension::Current, 3)
+            ),
+        })
+        .collect();
+    rows.push(Row {
+        label: "junction".into(),
+        value: format!(
+            "{} at the rated case, {} at the high-bus case (limit {})",
+            opt_c(plan.thermal.junction_c),
+            opt_c(plan.thermal.junction_high_bus_c),
+            q(plan.thermal.limit_c, Dimension::Temperature, 3)
+        ),
+    });
+    let mode = |continuous: bool| {
+        if continuous {
+            "continuous"
+        } else {
+            "discontinuous"
+        }
+    };
+    for r in &plan.ripple.by_case {
+        rows.push(Row {
+            label: format!("ripple, {} case", r.case),
+            value: format!(
+                "{} peak to peak at {} ({}), {} rms{}",
+                q(r.peak_to_peak_a, Dimension::Current, 3),
+                q(r.frequency_hz, Dimension::Frequency, 5),
+                mode(r.continuous),
+                q(r.ac_rms_a, Dimension::Current, 3),
+                if r.case == plan.ripple.peak_to_peak_case && plan.ripple.by_case.len() > 1 {
+                    "; the larger, checked against the ripple limit"
+                } else {
+                    ""
+                }
+            ),
+        });
+    }
+    rows.push(Row {
+        label: format!("audibility, {} case", plan.acoustic.case),
+        value: format!(
+            "{}; A-weighted in-band level {}",
+            plan.acoustic.verdict,
+            plan.acoustic
+                .a_weighted_db
+                .map(|d| format!("{d:.1} dB(A) re 1 A"))
+                .unwrap_or_else(|| "none".into())
+        ),
+    });
+    rows
 }
 
 /// The worst-case rows: value, limit, where it occurs, verdict.
@@ -655,19 +692,20 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
                 .map(|d| format!("{:.1} %", 100.0 * d))
                 .unwrap_or_else(|| "no value".into());
             out.adc_trigger_compare = s.trigger_compare.to_string();
-            out.trigger_ns = format!("{:.1}", s.trigger_before_bottom_s * 1e9);
+            out.trigger_ns = format!("{:.1}", s.trigger_before_top_s * 1e9);
             out.sampling_compare_max = s.max_high_side_compare.to_string();
             out.sampling_lines = vec![
                 format!(
-                    "The ADC starts at compare {} on the down-count, {} before the counter bottom, so the {} sample is centred on the bottom, the middle of the low-side on-time.",
+                    "PWM mode: {}. The ADC starts at compare {} matched on the UP-count, {} before the counter top, so the {} sample is centred on the top, the middle of the low-side on-time.",
+                    s.pwm_mode,
                     s.trigger_compare,
-                    t(s.trigger_before_bottom_s),
+                    t(s.trigger_before_top_s),
                     t(s.sample_time_s)
                 ),
                 if tp.chop.as_deref() == Some("low-side") {
                     format!(
                         "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so the chopping low side's duty must be at least {:.1} %; the load needs {}.",
-                        t(s.trigger_before_bottom_s),
+                        t(s.trigger_before_top_s),
                         t(plan.timer.dead_time_s),
                         t(s.settle_time_s),
                         t(s.min_low_side_on_s),
@@ -678,7 +716,7 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
                 } else {
                     format!(
                         "The window needs the low side on for 2 × (trigger lead {} + dead time {} + settling {}) = {} of the {} period, so a sampled leg's high-side duty is at most {:.1} % (compare {}); the load needs {}.",
-                        t(s.trigger_before_bottom_s),
+                        t(s.trigger_before_top_s),
                         t(plan.timer.dead_time_s),
                         t(s.settle_time_s),
                         t(s.min_low_side_on_s),
@@ -697,53 +735,197 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
     out
 }
 
-fn init_steps(n: &Names, t: &TimerLiterals, dead: bool, three_phase: bool) -> Vec<String> {
-    let m = &n.c_macro;
+/// Which code the init sequence names its constants and helpers for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Lang {
+    C,
+    Rust,
+}
+
+/// The register init sequence, one numbered step per line, naming the C
+/// macros and functions or the Rust constants and helpers.
+///
+/// **Invariant (issue 14, defect 12):** the sequence brings the stage up in
+/// a safe state: the first step disables the outputs (every switch off: the
+/// motor coasts), no step enables them, and the last step leaves them
+/// disabled until the firmware deliberately enables them. Each step that
+/// touches the outputs starts with `Outputs:` so tests can follow the state.
+fn init_steps(
+    n: &Names,
+    t: &TimerLiterals,
+    st: &StageLiterals,
+    dead: bool,
+    three_phase: bool,
+    lang: Lang,
+) -> Vec<String> {
+    let k = |name: &str| match lang {
+        Lang::C => format!("{}_{name}", n.c_macro),
+        Lang::Rust => name.to_string(),
+    };
+    let convert = match lang {
+        Lang::C => format!("{}_compare_from_q16()", n.c_function),
+        Lang::Rust => "Duty::from_q16() through apply()".to_string(),
+    };
     let mut s = vec![
-        "Stop the timer and hold the bridge outputs in their safe (off) state.".to_string(),
+        "Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.".to_string(),
         format!(
-            "Prescaler register <- {m}_DIVIDER_REG (divider {}).",
+            "Divider register <- {} (divider {}).",
+            k("DIVIDER_REG"),
             t.divider
         ),
         format!(
-            "Period (auto-reload) register <- {m}_PERIOD_REG ({} ticks per period).",
+            "Period register <- {} ({} ticks per period).",
+            k("PERIOD_REG"),
             t.period_ticks
         ),
         format!(
-            "Counting mode <- {} (see {m}_CENTRE_ALIGNED).",
+            "Counting mode <- {} (see {}).",
             if t.centre_aligned {
                 "up-down (centre-aligned)"
             } else {
                 "up (edge-aligned)"
-            }
+            },
+            k("CENTRE_ALIGNED")
         ),
+        format!("PWM mode and polarity: {}", st.pwm_mode),
     ];
     if dead {
         s.push(format!(
-            "Dead-time register <- {m}_DEAD_TIME_CODE ({} ticks, {} ns); write it before enabling complementary outputs.",
-            t.dead_time_ticks, t.dead_time_ns
+            "Dead-time register <- {} ({} ticks, {} ns); write it before the complementary outputs are ever enabled.",
+            k("DEAD_TIME_CODE"),
+            t.dead_time_ticks,
+            t.dead_time_ns
         ));
     }
     if three_phase {
         s.push(format!(
-            "Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from {}_compare_from_q16() only (one call per channel).",
-            n.c_function
+            "Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- {} (outputs still disabled), then values from {convert} only (one per channel).",
+            k("INIT_COMPARE")
         ));
         s.push(format!(
-            "ADC trigger: a fourth compare <- {m}_ADC_TRIGGER_COMPARE, triggering on the down-count match only."
+            "ADC trigger: a spare compare channel <- {}, triggering on the UP-count match only (just before the counter top, where the low sides conduct).",
+            k("ADC_TRIGGER_COMPARE")
         ));
     } else {
         s.push(format!(
-            "Compare register(s) <- 0, then values from {}_compare_from_q16() only.",
-            n.c_function
+            "Compare register(s) <- {} (outputs still disabled), then values from {convert} only.",
+            k("INIT_COMPARE")
         ));
     }
-    s.push("Enable preload of period and compare registers so updates take effect at the period boundary.".into());
-    s.push("Start the counter, then enable the outputs.".into());
+    s.push("Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.".into());
+    s.push(format!(
+        "Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty ({}).",
+        st.enable_note
+    ));
     s.into_iter()
         .enumerate()
         .map(|(i, step)| format!("{}. {step}", i + 1))
         .collect()
+}
+
+/// What the stage does at duty 0 and how it coasts, per topology (text and
+/// literals for the templates).
+#[derive(Debug, Clone, Serialize)]
+pub struct StageLiterals {
+    /// The plan's topology name.
+    pub topology: String,
+    /// What the init compare does once the outputs are enabled.
+    pub init_compare_meaning: String,
+    /// The compare the init sequence loads while the outputs are disabled:
+    /// 0, or for a bipolar H-bridge the 50 % compare (zero volts).
+    pub init_compare: String,
+    /// Compare 0 with the outputs enabled turns the low side(s) on and
+    /// shorts the motor (braking): `true`/`false`.
+    pub duty_zero_brakes: bool,
+    /// The PWM mode and output polarity the constants assume.
+    pub pwm_mode: String,
+    /// What duty 0 means and how to coast, one sentence each.
+    pub duty_zero_lines: Vec<String>,
+    /// What the firmware must know before it enables the outputs.
+    pub enable_note: String,
+}
+
+/// The stage literals of a plan.
+fn stage_literals(plan: &Plan) -> StageLiterals {
+    let mid = {
+        let m = (plan.timer.duty_steps as f64 / 2.0).round() as u64;
+        m.clamp(
+            plan.pwm.compare_min,
+            plan.pwm.compare_max.max(plan.pwm.compare_min),
+        )
+    };
+    let complementary = plan.topology != "low-side";
+    let pwm_mode = if complementary {
+        "each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either."
+    } else {
+        "the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on)."
+    }
+    .to_string();
+    let (init, brakes, lines): (u64, bool, Vec<&str>) = match plan.topology.as_str() {
+        "low-side" => (
+            0,
+            false,
+            vec![
+                "Duty 0 (compare 0) means the switch is off: the motor coasts, its current decaying through the freewheel diode.",
+                "To coast: compare 0, or disable the output.",
+            ],
+        ),
+        "half-bridge" => (
+            0,
+            true,
+            vec![
+                "Duty 0 (compare 0) means the low side is on for the whole period: the motor terminals are shorted through it, and a turning motor brakes (its back-EMF drives a braking current).",
+                "To coast: disable the outputs (both switches off); duty 0 is not coasting.",
+            ],
+        ),
+        "h-bridge-bipolar" => (
+            mid,
+            false,
+            vec![
+                "Duty 0 (compare 0) means FULL REVERSE: the first leg's low side and the second leg's high side on for the whole period.",
+                "50 % (the init compare) is zero volts on average; the legs still switch and ripple current flows.",
+                "To coast: disable the outputs (all four switches off).",
+            ],
+        ),
+        "h-bridge-unipolar" => (
+            0,
+            true,
+            vec![
+                "Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.",
+                "To coast: disable the outputs (all four switches off); duty 0 is not coasting.",
+            ],
+        ),
+        _ => (
+            0,
+            true,
+            vec![
+                "Duty 0 on all three channels (compare 0) means all three low sides are on: the windings are shorted and a turning motor brakes; equal compares on all channels give zero line-to-line volts.",
+                "To coast: disable the outputs (all six switches off); duty 0 is not coasting.",
+            ],
+        ),
+    };
+    let enable_note = if plan.topology == "h-bridge-bipolar" {
+        "enabling with compare 0 would drive full reverse; the init compare is 50 %, zero volts"
+    } else if brakes {
+        "enabling with compare 0 turns the low sides on and brakes a turning motor"
+    } else {
+        "enabling with compare 0 keeps the switch off"
+    };
+    let init_compare_meaning = match plan.topology.as_str() {
+        "low-side" => "0: the switch stays off",
+        "h-bridge-bipolar" => "50 %: zero volts on average; 0 would be full reverse",
+        "half-bridge" => "0: the low side on, braking a turning motor, once enabled",
+        _ => "0: the low sides on, braking a turning motor, once enabled",
+    };
+    StageLiterals {
+        topology: plan.topology.clone(),
+        init_compare_meaning: init_compare_meaning.into(),
+        init_compare: init.to_string(),
+        duty_zero_brakes: brakes,
+        pwm_mode,
+        duty_zero_lines: lines.into_iter().map(String::from).collect(),
+        enable_note: enable_note.into(),
+    }
 }
 
 /// The rationale block as plain lines (for C and Rust comment blocks).

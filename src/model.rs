@@ -167,8 +167,83 @@ fn driver_resistance(e: &Either2<Ohm, Ampere>, v_drive_v: f64) -> f64 {
     if e.is_first() { e.si } else { v_drive_v / e.si }
 }
 
-/// Switch model at typical values.
+/// Share by which a C_rss curve's Miller charge over the gate-charge test
+/// swing may differ from the datasheet Q_gd before pwmplan reports the
+/// disagreement as a warning (own choice: a curve read off a log-log plot
+/// and a typical Q_gd agree within about this much on consistent data).
+pub const C_RSS_Q_GD_TOLERANCE: f64 = 0.25;
+
+/// How a C_rss curve was reconciled with the datasheet Q_gd.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CrssReconciliation {
+    /// Miller charge of the curve as written over the test swing, C.
+    pub curve_q_gd_c: f64,
+    /// The datasheet Q_gd (typical), C.
+    pub q_gd_c: f64,
+    /// Drain voltage of the gate-charge test, V, and whether the switch
+    /// file gave it (else half of V_DSS).
+    pub v_test_v: f64,
+    pub v_test_given: bool,
+    /// The factor the curve is scaled by: `q_gd_c / curve_q_gd_c`.
+    pub factor: f64,
+}
+
+impl CrssReconciliation {
+    /// The curve and Q_gd disagree by more than [`C_RSS_Q_GD_TOLERANCE`].
+    pub fn disagrees(&self) -> bool {
+        (self.factor - 1.0).abs() > C_RSS_Q_GD_TOLERANCE
+    }
+}
+
+/// Reconcile a C_rss curve with Q_gd: the Miller charge the curve gives
+/// over the datasheet's gate-charge test swing, Q = ∫C_gd dV with the drain
+/// falling from the test voltage to the on state (≈ 0 V) and the gate on the
+/// plateau (`switching::miller_integrals`, the same integral the switching
+/// model uses; Q = ∫C dV is the definition of charge on a nonlinear
+/// capacitance, common practice), against the datasheet Q_gd, which is that
+/// same charge measured. `None` without a curve or when the curve gives no charge.
+///
+/// The plateau is the datasheet plateau, else V_th (own choice: the test
+/// current is not in the switch file); the test voltage is `q_g.at_v_ds`,
+/// else half of V_DSS (own choice: datasheets test gate charge at about
+/// 50–80 % of V_DSS; the lower end gives the smaller curve integral).
+pub fn c_rss_reconciliation(s: &SwitchSpec) -> Option<CrssReconciliation> {
+    let sw = switch_model_as_written(s);
+    if sw.c_rss_curve.is_empty() {
+        return None;
+    }
+    let (v_test_v, v_test_given) = match s.q_g.at_v_ds {
+        Some(v) => (v.si, true),
+        None => (0.5 * s.v_dss.si, false),
+    };
+    let plateau = sw.v_plateau_v.unwrap_or(sw.v_th_v);
+    let (q, _) = switching::miller_integrals(&sw, 0.0, v_test_v, plateau)?;
+    (q.is_finite() && q > 0.0 && sw.q_gd_c > 0.0).then(|| CrssReconciliation {
+        curve_q_gd_c: q,
+        q_gd_c: sw.q_gd_c,
+        v_test_v,
+        v_test_given,
+        factor: sw.q_gd_c / q,
+    })
+}
+
+/// Switch model at typical values. A C_rss curve is scaled so that its
+/// Miller charge over the gate-charge test swing equals Q_gd
+/// ([`c_rss_reconciliation`]): the curve gives the shape of C_gd(V), Q_gd
+/// its size, so a larger Q_gd (a slower part) always means slower Miller
+/// edges, more switching loss and a longer dead time (issue 14, defect 6).
 pub fn switch_model(s: &SwitchSpec) -> SwitchModel {
+    let mut m = switch_model_as_written(s);
+    if let Some(r) = c_rss_reconciliation(s) {
+        for p in &mut m.c_rss_curve {
+            p.1 *= r.factor;
+        }
+    }
+    m
+}
+
+/// Switch model at typical values with the C_rss curve as written.
+fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
     SwitchModel {
         v_th_v: s.v_th.typ.si,
         g_fs_s: s.g_fs.map(|g| g.si),
@@ -322,6 +397,7 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
             DeadTimeSpec::Linear {
                 clock_divider,
                 max_ticks,
+                ..
             } => DeadTimeGenerator::Linear {
                 clock_divider: *clock_divider,
                 max_ticks: *max_ticks,
@@ -329,6 +405,7 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
             DeadTimeSpec::Segmented {
                 clock_divider,
                 segments,
+                ..
             } => DeadTimeGenerator::Segmented {
                 clock_divider: *clock_divider,
                 segments: segments
@@ -797,7 +874,11 @@ impl Evaluator {
         let sw = &self.stage.switch;
         StageDrops {
             v_bus_v: case.v_bus_v,
-            t_dead_s: if self.needs_dead_time() { t_dead_s } else { 0.0 },
+            t_dead_s: if self.needs_dead_time() {
+                t_dead_s
+            } else {
+                0.0
+            },
             f_sw_hz: f_hz,
             r_ds_on_ohm: thermal::r_ds_on_ohm(sw, self.limits.t_j_max_c),
             v_sd_v: sw.v_sd_v,
@@ -833,21 +914,23 @@ impl Evaluator {
         let i_on = ideal.i_at_switch_on_a().unwrap_or(ideal.i_min_a());
         let i_off = ideal.i_at_switch_off_a().unwrap_or(ideal.i_max_a());
         let (v, vd, drive) = (case.v_bus_v, drops.v_sd_v, self.ripple_drive());
-        let level = |high_v, low_v, diode_v, switches_in_path, switches_in_clamp, edges_per_period| {
-            StageLevels {
-                high_v,
-                low_v,
-                diode_v,
-                switches_in_path,
-                switches_in_clamp,
-                edges_per_period,
-            }
-        };
+        let level =
+            |high_v, low_v, diode_v, switches_in_path, switches_in_clamp, edges_per_period| {
+                StageLevels {
+                    high_v,
+                    low_v,
+                    diode_v,
+                    switches_in_path,
+                    switches_in_clamp,
+                    edges_per_period,
+                }
+            };
         let levels = match drive {
             Drive::LowSideFreewheel { v_f_v } => {
                 let v_on = v - 0.5 * (i_on + i_off) * drops.r_ds_on_ohm;
                 let d = m * (v + v_f_v) / (v_on + v_f_v);
-                let w = ripple::steady_state(&self.motor(case), drive, v_on, d.clamp(0.0, 1.0), f_hz);
+                let w =
+                    ripple::steady_state(&self.motor(case), drive, v_on, d.clamp(0.0, 1.0), f_hz);
                 return (d, w.unwrap_or(ideal));
             }
             Drive::HalfBridgeSynchronous => level(v, 0.0, vd, 1.0, 0.0, 1.0),
@@ -874,13 +957,17 @@ impl Evaluator {
         let mut high = leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges);
         let mut best = None;
         for step in 0..60 {
-            let Some(states) = leg_voltage::period_states(high, &levels, &conditions, &edges) else {
+            let Some(states) = leg_voltage::period_states(high, &levels, &conditions, &edges)
+            else {
                 break;
             };
             let Ok(w) = ripple::piecewise_steady_state(&self.motor(case), &states, (0, 3)) else {
                 break;
             };
-            let (s, e) = (w.i_at_switch_on_a().unwrap_or(0.0), w.i_at_switch_off_a().unwrap_or(0.0));
+            let (s, e) = (
+                w.i_at_switch_on_a().unwrap_or(0.0),
+                w.i_at_switch_off_a().unwrap_or(0.0),
+            );
             let moved = (s - edges.at_start_a).abs().max((e - edges.at_end_a).abs());
             best = Some((to_duty(high), w));
             if moved <= 1e-9 * case.load_current_a.abs().max(1e-3) {
@@ -893,7 +980,12 @@ impl Evaluator {
             high = leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges);
         }
         best.unwrap_or_else(|| {
-            let d = to_duty(leg_voltage::fraction_for_voltage(m * v, &levels, &conditions, &edges));
+            let d = to_duty(leg_voltage::fraction_for_voltage(
+                m * v,
+                &levels,
+                &conditions,
+                &edges,
+            ));
             (d, ideal)
         })
     }
@@ -1123,8 +1215,8 @@ impl Evaluator {
         }?;
         let drops = self.leg_drops(case, f_hz, t_dead_s);
         let i_peak = r.ripple.max_a.abs().max(case.load_current_a.abs());
-        r.compare_duty = tp.modulation.leg_duty_max(r.modulation)
-            + three_phase_duty_allowance(&drops, i_peak);
+        r.compare_duty =
+            tp.modulation.leg_duty_max(r.modulation) + three_phase_duty_allowance(&drops, i_peak);
         Some(r)
     }
 

@@ -74,9 +74,13 @@ pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
-    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0",
+    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0",
     "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
 ];
+
+/// The PWM mode and output polarity a three-phase plan's compare values and
+/// ADC trigger assume (the emitted code's convention).
+pub const THREE_PHASE_PWM_MODE: &str = "centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time";
 
 /// The three-phase block of a plan.
 fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
@@ -127,7 +131,9 @@ fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePha
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: sensing.map(|x| x.sample_time.si).unwrap_or(tp.sample_s),
             trigger_compare: w.trigger_compare,
-            trigger_before_bottom_s: w.trigger_before_bottom_s,
+            trigger_count: "up".into(),
+            trigger_before_top_s: w.trigger_before_top_s,
+            pwm_mode: THREE_PHASE_PWM_MODE.into(),
             period_s,
             min_low_side_on_s: w.min_low_side_on_s,
             min_low_side_gate_on_s: w.min_low_side_gate_on_s,
@@ -392,11 +398,15 @@ pub struct ThreePhaseOut {
 pub struct SamplingPlan {
     pub settle_time_s: f64,
     pub sample_time_s: f64,
-    /// Compare value on the DOWN-count that starts the ADC conversion.
+    /// Compare value matched on the UP-count that starts the ADC conversion.
     pub trigger_compare: u64,
-    /// Time from the trigger to the counter bottom (the window is centred
-    /// on the bottom, the middle of the low-side on-time).
-    pub trigger_before_bottom_s: f64,
+    /// Which count direction's match triggers: `up`.
+    pub trigger_count: String,
+    /// Time from the trigger to the counter top (the window is centred on
+    /// the top, the middle of the low-side on-time under `pwm_mode`).
+    pub trigger_before_top_s: f64,
+    /// The PWM mode and output polarity the trigger assumes.
+    pub pwm_mode: String,
     pub period_s: f64,
     /// Shortest low-side time the window needs (reference, and gate on-time).
     pub min_low_side_on_s: f64,
@@ -475,6 +485,11 @@ pub struct Thermal {
     pub r_th_ja_k_per_w: f64,
 }
 
+/// The motor-current ripple. The top-level figures keep their keys: the
+/// peak to peak is the worst of the rated and high-bus cases (the case named
+/// by `peak_to_peak_case`), `continuous` holds for both, and the mean, rms,
+/// ac rms and frequency are the rated case's (`case`). `by_case` gives every
+/// figure of each case.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct Ripple {
     /// Worst of the rated and high-bus cases, A.
@@ -484,6 +499,41 @@ pub struct Ripple {
     pub rms_a: f64,
     pub ac_rms_a: f64,
     pub frequency_hz: f64,
+    /// The case of `mean_a`, `rms_a`, `ac_rms_a` and `frequency_hz`.
+    #[serde(default)]
+    pub case: String,
+    /// The case whose peak to peak is `peak_to_peak_a` (the larger).
+    #[serde(default)]
+    pub peak_to_peak_case: String,
+    /// Every figure per case: rated, then high-bus.
+    #[serde(default)]
+    pub by_case: Vec<RippleCase>,
+}
+
+/// The ripple figures of one operating case.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct RippleCase {
+    pub case: String,
+    pub v_bus_v: f64,
+    pub peak_to_peak_a: f64,
+    pub continuous: bool,
+    pub mean_a: f64,
+    pub rms_a: f64,
+    pub ac_rms_a: f64,
+    pub frequency_hz: f64,
+}
+
+fn ripple_case(r: &model::CaseResult) -> RippleCase {
+    RippleCase {
+        case: r.case.name.into(),
+        v_bus_v: r.case.v_bus_v,
+        peak_to_peak_a: r.ripple.peak_to_peak_a,
+        continuous: r.ripple.continuous,
+        mean_a: r.ripple.mean_a,
+        rms_a: r.ripple.rms_a,
+        ac_rms_a: r.ripple.ac_rms_a,
+        frequency_hz: r.ripple.frequency_hz,
+    }
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -492,6 +542,9 @@ pub struct Acoustic {
     /// A-weighted level of the in-band ripple lines, dB(A) re 1 A rms.
     pub a_weighted_db: Option<f64>,
     pub verdict: String,
+    /// The operating case these figures are from.
+    #[serde(default)]
+    pub case: String,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -698,6 +751,42 @@ fn findings(
     for w in worst_case_findings(worst, d.spec.constraints.worst_case, worst_case_basis) {
         add(&w.severity, &w.code, w.message);
     }
+    if let Some(r) = model::c_rss_reconciliation(&d.switch) {
+        let nc = |q: f64| format_quantity(q, Dimension::Charge, 3);
+        let swing = format!(
+            "the gate-charge test swing from {}{} down to the on state",
+            format_quantity(r.v_test_v, Dimension::Voltage, 3),
+            if r.v_test_given {
+                ""
+            } else {
+                " (half of V_DSS; q_g.at_v_ds not given)"
+            }
+        );
+        if r.disagrees() {
+            add(
+                "warning",
+                "c-rss-q-gd-disagree",
+                format!(
+                    "the C_rss curve gives a Miller charge of {} over {swing}, against Q_gd {}: they differ by more than {:.0} %; check both datasheet values (the curve is scaled by ×{:.2} to Q_gd)",
+                    nc(r.curve_q_gd_c),
+                    nc(r.q_gd_c),
+                    100.0 * model::C_RSS_Q_GD_TOLERANCE,
+                    r.factor
+                ),
+            );
+        } else {
+            add(
+                "info",
+                "c-rss-scaled-to-q-gd",
+                format!(
+                    "the C_rss curve gives a Miller charge of {} over {swing}; it is scaled by ×{:.2} to Q_gd {} (the curve sets the shape of C_gd, Q_gd its size)",
+                    nc(r.curve_q_gd_c),
+                    r.factor,
+                    nc(r.q_gd_c)
+                ),
+            );
+        }
+    }
     if !c.rated.ripple.continuous {
         add("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into());
     }
@@ -872,11 +961,15 @@ pub fn build_on(
             rms_a: c.rated.ripple.rms_a,
             ac_rms_a: c.rated.ripple.ac_rms_a,
             frequency_hz: c.rated.ripple.frequency_hz,
+            case: c.rated.case.name.into(),
+            peak_to_peak_case: worst_ripple.case.name.into(),
+            by_case: vec![ripple_case(&c.rated), ripple_case(&c.high_bus)],
         },
         acoustic: Acoustic {
             lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
             a_weighted_db: c.rated.acoustic.a_weighted_db,
             verdict: c.rated.acoustic.reason.to_string(),
+            case: c.rated.case.name.into(),
         },
         constraints: c
             .checks

@@ -128,7 +128,8 @@ pub fn check(plan: &Plan) -> RegisterCheck {
 /// The registers as written.
 fn registers(plan: &Plan) -> Option<TimerRegisters> {
     let t = &plan.timer;
-    if t.period_ticks < 2 || t.divider == 0 || !(plan.timer.clock_hz > 0.0) {
+    let clock_ok = plan.timer.clock_hz.is_finite() && plan.timer.clock_hz > 0.0;
+    if t.period_ticks < 2 || t.divider == 0 || !clock_ok {
         return None;
     }
     Some(TimerRegisters {
@@ -188,9 +189,15 @@ fn check_pulses(plan: &Plan, regs: &TimerRegisters, out: &mut RegisterCheck) {
             verify::Output::Low(_) if !high => t.shortest_pulse_s(),
             _ => None,
         };
-        Ok(timings.iter().filter_map(pick).fold(f64::INFINITY, f64::min))
+        Ok(timings
+            .iter()
+            .filter_map(pick)
+            .fold(f64::INFINITY, f64::min))
     };
-    match (shortest(p.compare_min, true), shortest(p.compare_max, false)) {
+    match (
+        shortest(p.compare_min, true),
+        shortest(p.compare_max, false),
+    ) {
         (Ok(hi), Ok(lo)) => {
             out.shortest_high_pulse_s = hi;
             out.shortest_low_pulse_s = lo;
@@ -212,10 +219,25 @@ fn check_pulses(plan: &Plan, regs: &TimerRegisters, out: &mut RegisterCheck) {
             ));
         }
     };
-    need("shortest high-side pulse at compare_min", out.shortest_high_pulse_s, floor, true);
-    need("shortest low-side pulse at compare_max", out.shortest_low_pulse_s, floor, true);
+    need(
+        "shortest high-side pulse at compare_min",
+        out.shortest_high_pulse_s,
+        floor,
+        true,
+    );
+    need(
+        "shortest low-side pulse at compare_max",
+        out.shortest_low_pulse_s,
+        floor,
+        true,
+    );
     if let Some(r) = p.refresh_s {
-        need("bootstrap refresh (low-side on-time) at compare_max", out.shortest_low_pulse_s, r, false);
+        need(
+            "bootstrap refresh (low-side on-time) at compare_max",
+            out.shortest_low_pulse_s,
+            r,
+            false,
+        );
     }
 }
 
@@ -286,7 +308,10 @@ fn lowest_audible_line(v: &Verification, limit_hz: f64) -> (Option<f64>, bool) {
     let audible = lines
         .iter()
         .filter(|l| l.frequency_hz <= limit_hz * (1.0 + 1e-12));
-    let lowest = audible.clone().find(|l| l.rms_a >= floor).map(|l| l.frequency_hz);
+    let lowest = audible
+        .clone()
+        .find(|l| l.rms_a >= floor)
+        .map(|l| l.frequency_hz);
     let ambiguous = audible
         .clone()
         .any(|l| l.rms_a > floor / guard && l.rms_a < floor * guard);

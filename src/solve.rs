@@ -226,10 +226,10 @@ pub struct Candidate {
 /// The low-side shunt sampling window of a three-phase setting.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct SamplingOut {
-    /// Compare value on the down-count at which the ADC starts.
+    /// Compare value matched on the up-count at which the ADC starts.
     pub trigger_compare: u64,
-    /// Time from the trigger to the counter bottom.
-    pub trigger_before_bottom_s: f64,
+    /// Time from the trigger to the counter top.
+    pub trigger_before_top_s: f64,
     /// Shortest low-side reference time that holds the window.
     pub min_low_side_on_s: f64,
     /// The same as low-side gate on-time (one dead time shorter).
@@ -376,10 +376,11 @@ impl Evaluator {
     }
 
     /// The alignments the search may use. A three-phase bridge samples its
-    /// currents in the low-side on-time of an up-down count, and unipolar
-    /// switching needs the two legs' pulses placed symmetrically on an
-    /// up-down count (on one shared up-counter both legs start together and
-    /// the load sees one pulse per period, not two): centre-aligned only.
+    /// currents in the low-side on-time around the top of an up-down count,
+    /// and unipolar switching needs the two legs' pulses placed
+    /// symmetrically on an up-down count (on one shared up-counter both legs
+    /// start together and the load sees one pulse per period, not two):
+    /// centre-aligned only.
     pub fn alignments(&self) -> Vec<Alignment> {
         let centre_only = self.three_phase.is_some()
             || matches!(
@@ -582,15 +583,12 @@ impl Evaluator {
         // The band the design allows (the solver searches only inside it;
         // a sweep or a pinned frequency may step outside).
         let in_band = f >= l.f_min_hz * (1.0 - 1e-12) && f <= l.f_max_hz * (1.0 + 1e-12);
+        let (band_limit, band_margin) = band_bound(f, l.f_min_hz, l.f_max_hz);
         checks.push(ConstraintCheck {
             name: "frequency-band",
-            limit: if f < l.f_min_hz {
-                l.f_min_hz
-            } else {
-                l.f_max_hz
-            },
+            limit: band_limit,
             value: Some(f),
-            margin: Some((f - l.f_min_hz).min(l.f_max_hz - f)),
+            margin: Some(band_margin),
             unit: "Hz",
             pass: in_band,
             binding: false,
@@ -611,7 +609,7 @@ impl Evaluator {
             feasible,
             sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
                 trigger_compare: u64::from(w.trigger_compare),
-                trigger_before_bottom_s: w.trigger_before_bottom_s,
+                trigger_before_top_s: w.trigger_before_top_s,
                 min_low_side_on_s: w.min_low_side_on_s,
                 min_low_side_gate_on_s: w.min_low_side_gate_on_s,
                 max_high_side_duty: w.max_high_side_duty,
@@ -679,7 +677,7 @@ impl Evaluator {
                     Some(high_bus.modulation),
                     "",
                     format!(
-                        "the chopping low side must stay on {} around the counter bottom (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
+                        "the chopping low side must stay on {} around the counter top (settle, dead time, sample); its duty at the highest supply must be at least {:.1} %",
                         fmt_t(win.min_low_side_on_s),
                         100.0 * need
                     )
@@ -692,7 +690,7 @@ impl Evaluator {
                 Some(sampled(m_low_bus)),
                 "",
                 format!(
-                    "the sampled leg's low side must stay on {} around the counter bottom (settle, dead time, sample), so its high-side duty at most {:.1} %",
+                    "the sampled leg's low side must stay on {} around the counter top (settle, dead time, sample), so its high-side duty at most {:.1} %",
                     fmt_t(win.min_low_side_on_s),
                     100.0 * win.max_high_side_duty
                 )
@@ -751,6 +749,18 @@ fn bound(
         pass: margin.is_some_and(|m| m >= -EPS),
         binding: false,
         detail,
+    }
+}
+
+/// The bound of the band `[f_min, f_max]` a frequency is measured against
+/// and its margin: the nearer bound (the one that binds when the band
+/// binds, and the one crossed when outside), margin positive inside.
+pub fn band_bound(f_hz: f64, f_min_hz: f64, f_max_hz: f64) -> (f64, f64) {
+    let (below, above) = (f_hz - f_min_hz, f_max_hz - f_hz);
+    if below <= above {
+        (f_min_hz, below)
+    } else {
+        (f_max_hz, above)
     }
 }
 
@@ -1271,7 +1281,7 @@ fn finish(
         mark_binding(&ctx, &mut chosen, b, &evaluated, &idx);
     }
     let alternatives = if feasible {
-        alternatives(obj, &chosen, &evaluated, &feasible_idx)
+        alternatives(judge, obj, &chosen, &evaluated, &feasible_idx, band)
     } else {
         Vec::new()
     };
@@ -1368,38 +1378,104 @@ fn outside_neighbour(ctx: &BindCtx, c: &Candidate, step: i64) -> Option<Candidat
     None
 }
 
+/// Most `nearest_setting` look-ups and evaluations the rounder-frequency
+/// search spends (own choice: bounds the time on wide bands; the search
+/// goes roundest first, so what it skips is the least round).
+const ROUND_LOOKUPS: usize = 4000;
+const ROUND_EVALUATIONS: usize = 48;
+
+/// The round frequencies in `[lo, hi]` with exactly `digits` significant
+/// decimal digits in Hz, nearest `f0` first: k·10^e for integers k.
+fn round_frequencies(lo: f64, hi: f64, digits: u32, f0: f64, cap: usize) -> Vec<f64> {
+    let mut out = Vec::new();
+    if !(lo > 0.0 && hi >= lo && lo.is_finite() && hi.is_finite()) {
+        return out;
+    }
+    let (e_lo, e_hi) = (lo.log10().floor() as i32, hi.log10().floor() as i32);
+    for e in e_lo..=e_hi {
+        let unit = 10f64.powi(e + 1 - digits as i32);
+        let (k_lo, k_hi) = ((lo / unit).ceil() as i64, (hi / unit).floor() as i64);
+        for k in k_lo..=k_hi {
+            let f = k as f64 * unit;
+            if f >= lo && f <= hi && roundness_digits(f) == digits {
+                out.push(f);
+            }
+            if out.len() > cap {
+                break;
+            }
+        }
+    }
+    out.sort_by(|a, b| {
+        (a - f0)
+            .abs()
+            .total_cmp(&(b - f0).abs())
+            .then(a.total_cmp(b))
+    });
+    out.dedup();
+    out
+}
+
+/// The roundest realisable setting in the feasible band that passes every
+/// check, or `None` when none is rounder than the chosen frequency.
+///
+/// Roundness (own choice): the fewest significant decimal digits of the
+/// frequency in Hz ([`roundness_digits`]: 24 000 Hz has 2, 24 500 Hz 3,
+/// 20 006.67 Hz 7); ties go to the frequency nearest the chosen one. The
+/// search does not stop at the settings the solver happened to evaluate: for
+/// each digit count from 1 up it lists the round frequencies in the band,
+/// asks the timer for the setting nearest each (exactly realisable when its
+/// frequency equals the round one), evaluates those, and offers the first
+/// that passes.
+fn roundest_in_band(judge: &Judge, chosen: &Candidate, band: (f64, f64)) -> Option<Candidate> {
+    let f0 = chosen.setting.frequency_hz;
+    let ev = judge.ev;
+    let (mut lookups, mut evaluations) = (0usize, 0usize);
+    for digits in 1..roundness_digits(f0) {
+        for f in round_frequencies(band.0, band.1, digits, f0, ROUND_LOOKUPS) {
+            for a in ev.alignments() {
+                lookups += 1;
+                if lookups > ROUND_LOOKUPS || evaluations >= ROUND_EVALUATIONS {
+                    return None;
+                }
+                let Ok(Some(s)) = ev.timer.nearest_setting(f, a) else {
+                    continue;
+                };
+                if (s.frequency_hz - f).abs() > 1e-12 * f
+                    || roundness_digits(s.frequency_hz) != digits
+                {
+                    continue;
+                }
+                evaluations += 1;
+                if let Some(c) = judge.candidate(&s).filter(|c| c.feasible) {
+                    return Some(c);
+                }
+            }
+        }
+    }
+    None
+}
+
 fn alternatives(
+    judge: &Judge,
     obj: Objective,
     chosen: &Candidate,
     evaluated: &[Option<Box<Candidate>>],
     feasible_idx: &[usize],
+    band: Option<(f64, f64)>,
 ) -> Vec<Alternative> {
     let cands: Vec<&Candidate> = feasible_idx
         .iter()
         .filter_map(|&i| evaluated[i].as_deref())
         .collect();
     let mut out = Vec::new();
-    // A rounder frequency: the feasible one with the fewest significant digits,
-    // nearest the chosen one.
+    // A rounder frequency: the roundest realisable setting in the feasible
+    // band that passes, nearest the chosen one (evaluated or not).
     let f0 = chosen.setting.frequency_hz;
-    if let Some(r) = cands
-        .iter()
-        .filter(|c| c.setting.frequency_hz != f0)
-        .min_by(|a, b| {
-            roundness_digits(a.setting.frequency_hz)
-                .cmp(&roundness_digits(b.setting.frequency_hz))
-                .then(
-                    (a.setting.frequency_hz - f0)
-                        .abs()
-                        .total_cmp(&(b.setting.frequency_hz - f0).abs()),
-                )
-        })
-        .filter(|c| roundness_digits(c.setting.frequency_hz) < roundness_digits(f0))
-    {
+    if let Some(r) = band.and_then(|b| roundest_in_band(judge, chosen, b)) {
         out.push(Alternative {
             label: "rounder-frequency",
-            trade: trade(chosen, r),
-            candidate: (*r).clone(),
+            trade: trade(chosen, &r),
+            candidate: r,
         });
     }
     // The top of the feasible band: furthest from the audible range, least ripple.

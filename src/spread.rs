@@ -325,7 +325,9 @@ fn scale(value: f64, typ: f64) -> f64 {
 /// Mappings beyond "field = value" (own choices, no published source):
 /// - Q_gd: with a C_rss curve the Miller charge comes from the curve, so
 ///   the curve is scaled by Q_gd/Q_gd,typ (the Miller charge is the
-///   integral of C_gd over the swing).
+///   integral of C_gd over the swing). The typical curve is already scaled
+///   to Q_gd,typ over the gate-charge test swing (`model::switch_model`),
+///   so a corner's curve integrates to the corner's Q_gd.
 /// - Q_gs: Q_g(th), when given, scales with Q_gs (both are charge on the
 ///   same input capacitance), so Q_gs2 = Q_gs − Q_g(th) stays positive.
 /// - V_th: a datasheet plateau moves with the threshold, since
@@ -1224,7 +1226,13 @@ pub struct WorstDeadTime {
     pub applicable: bool,
     /// The dead time the timer was given.
     pub chosen_s: f64,
-    /// The solver's need at typical values.
+    /// The need the timer's dead time was encoded from (`DeadTimeChoice::need_s`):
+    /// the worst-case need over the spreads when `worst_dead_time_need` has
+    /// one (`Evaluator::dead_time_need_override_s`), else the need at typical values.
+    pub encoded_need_s: f64,
+    /// Whether `encoded_need_s` is the worst-case need (else typical).
+    pub encoded_from_worst_case: bool,
+    /// The need at typical values (rated and high-bus cases), for comparison.
     pub typical_need_s: f64,
     /// The need of the slowest turn-off against the fastest turn-on.
     pub worst_need_s: Option<f64>,
@@ -1393,7 +1401,16 @@ fn worst_dead(d: &Design, ev: &Evaluator, dead: &DeadTimeChoice) -> WorstDeadTim
     WorstDeadTime {
         applicable,
         chosen_s: dead.seconds,
-        typical_need_s: dead.need_s,
+        encoded_need_s: dead.need_s,
+        encoded_from_worst_case: ev.dead_time_need_override_s.is_some(),
+        typical_need_s: if applicable {
+            [ev.rated, ev.high_bus]
+                .iter()
+                .filter_map(|c| ev.dead_time_need_s(c))
+                .fold(0.0, f64::max)
+        } else {
+            0.0
+        },
         worst_need_s: worst.map(|w| w.0),
         v_bus_v: worst.map(|w| w.1).unwrap_or(ev.rated.v_bus_v),
         slow_turn_off: "R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max".into(),
@@ -1601,11 +1618,17 @@ fn worst_text(o: &mut String, wc: &WorstCase) {
         ));
         o.push_str(&wrap(
             &format!(
-                "slowest turn-off ({}) against the fastest turn-on ({}) at {}, with the ×{} margin of AN2007-04; typical need {}",
+                "slowest turn-off ({}) against the fastest turn-on ({}) at {}, with the ×{} margin of AN2007-04; the chosen dead time is encoded from the {} need {} (typical need {})",
                 dt.slow_turn_off,
                 dt.fast_turn_on,
                 q(dt.v_bus_v, Dimension::Voltage),
                 dt.margin,
+                if dt.encoded_from_worst_case {
+                    "worst-case"
+                } else {
+                    "typical"
+                },
+                q(dt.encoded_need_s, Dimension::Time),
                 q(dt.typical_need_s, Dimension::Time)
             ),
             "    ",

@@ -873,11 +873,11 @@ pub struct PulseRules {
 /// `c·count_s`. With dead-time insertion each output's turn-on is delayed by the dead time, so
 /// the high-side output is on for `c·count_s − t_dead` and the low-side output for
 /// `(steps − c)·count_s − t_dead` (common practice for complementary outputs with dead-time
-/// insertion). Every output pulse must last at least `max(min_pulse_s, count_s)` (never empty:
-/// a bound of our own choice) and the low side at least the bootstrap refresh, both after the
-/// dead time:
-/// `min_counts = ⌈(max(min_pulse, count) + t_dead)/count_s⌉`,
-/// `max_counts = steps − ⌈(max(min_pulse, count, t_refresh) + t_dead)/count_s⌉`
+/// insertion). Every output pulse must last at least `min_pulse_s` and be non-empty (at least
+/// one count beyond the dead time's whole counts), the low side at least the bootstrap
+/// refresh, both after the dead time:
+/// `min_counts = max(⌈(min_pulse + t_dead)/count_s⌉, ⌊t_dead/count_s⌋ + 1)`,
+/// `max_counts = steps − max(⌈(max(min_pulse, t_refresh) + t_dead)/count_s⌉, ⌊t_dead/count_s⌋ + 1)`
 /// (rounded inwards). A single switch (`complementary = false`) has no dead time; its off-pulse
 /// obeys the same minimum. Compare 0 (off) and, where allowed, full scale are outside this
 /// range on purpose: the helpers map an explicit 0 to off. Infeasible when `min_counts >
@@ -898,11 +898,13 @@ pub fn duty_limits(setting: &PwmSetting, rules: &PulseRules) -> Result<DutyLimit
     } else {
         0.0
     };
-    let pulse = rules.min_pulse_s.max(count_s);
-    let low_pulse = pulse.max(rules.refresh_s.unwrap_or(0.0));
+    let low_pulse = rules.min_pulse_s.max(rules.refresh_s.unwrap_or(0.0));
     // f64 → u64 casts saturate, so an absurd time yields an infeasible result, not a wrap.
-    let min_counts = ceil_tol((pulse + t_dead) / count_s) as u64;
-    let max_counts = steps.saturating_sub(ceil_tol((low_pulse + t_dead) / count_s) as u64);
+    // A pulse must also be non-empty: at least one count beyond the dead time's whole counts.
+    let non_empty = floor_tol(t_dead / count_s) as u64 + 1;
+    let counts_for = |t: f64| (ceil_tol((t + t_dead) / count_s) as u64).max(non_empty);
+    let min_counts = counts_for(rules.min_pulse_s);
+    let max_counts = steps.saturating_sub(counts_for(low_pulse));
     if min_counts > max_counts {
         return Err(DutyError::Infeasible {
             min_counts,
@@ -1077,6 +1079,16 @@ fn ceil_tol(x: f64) -> f64 {
         r.max(0.0)
     } else {
         x.ceil().max(0.0)
+    }
+}
+
+/// `⌊x⌋` with the same tolerance as [`ceil_tol`].
+fn floor_tol(x: f64) -> f64 {
+    let r = x.round();
+    if (x - r).abs() <= ROUND_REL_TOL * x.abs().max(1.0) {
+        r.max(0.0)
+    } else {
+        x.floor().max(0.0)
     }
 }
 
@@ -1726,27 +1738,42 @@ mod tests {
             divider in 1u64..8,
             q in 2u64..5000,
             al in alignment(),
+            complementary in any::<bool>(),
             dead_s in 0.0f64..20e-6,
             pulse_s in 0.0f64..20e-6,
-            boot in prop::option::of(0.0f64..=1.0),
+            refresh in prop::option::of(0.0f64..20e-6),
         ) {
             let t = timer(f64::from(clock), 16, linear(1, 8, 1), DeadTimeGenerator::None);
             let s = t.setting(divider, q * unit(al), al).unwrap();
             let steps = s.duty_steps;
             let count_s = 1.0 / (s.frequency_hz * steps as f64);
-            let t_min = dead_s.max(pulse_s);
+            let dead = if complementary { dead_s } else { 0.0 };
             let tol = 1e-9;
-            // Independent reference: linear scan over all counts 0..=steps.
-            let on_ok = |c: u64| c as f64 * count_s >= t_min * (1.0 - tol);
-            let off_ok = |c: u64| (steps - c) as f64 * count_s >= t_min * (1.0 - tol);
-            let boot_ok = |c: u64| boot.is_none_or(|b| c as f64 <= b * steps as f64 * (1.0 + tol));
+            // Independent reference: a scan over every compare of the output pulses after the
+            // dead time (high: c counts less the dead time; low: the rest less the dead time).
+            // Non-empty: longer than nothing by more than rounding.
+            let long = |t: f64, min: f64| {
+                t >= min * (1.0 - tol) - 1e-18 && t > tol * count_s
+            };
+            let pulse = pulse_s;
+            let on_ok = |c: u64| long(c as f64 * count_s - dead, pulse);
+            let off_ok = |c: u64| {
+                long((steps - c) as f64 * count_s - dead, pulse.max(refresh.unwrap_or(0.0)))
+            };
             let min_c = (0..=steps).find(|&c| on_ok(c));
-            let max_c = (0..=steps).rev().find(|&c| off_ok(c) && boot_ok(c));
-            match (duty_limits(&s, dead_s, pulse_s, boot), min_c, max_c) {
+            let max_c = (0..=steps).rev().find(|&c| off_ok(c));
+            let rules = PulseRules {
+                complementary,
+                dead_time_s: dead_s,
+                min_pulse_s: pulse_s,
+                refresh_s: refresh,
+            };
+            match (duty_limits(&s, &rules), min_c, max_c) {
                 (Ok(l), Some(lo), Some(hi)) => {
                     prop_assert_eq!((l.min_counts, l.max_counts), (lo, hi));
                     prop_assert!(lo <= hi);
                     prop_assert!((l.count_s - count_s).abs() <= 1e-12 * count_s);
+                    prop_assert!(l.shortest_high_pulse_s >= pulse * (1.0 - tol) - 1e-18);
                 }
                 (Err(DutyError::Infeasible { min_counts, max_counts }), lo, hi) => {
                     prop_assert!(min_counts > max_counts);

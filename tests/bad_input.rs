@@ -1422,6 +1422,69 @@ error: wren-hb24.yaml:16:27: board.timer.dead_time.segmented.segments[2].first_c
     );
 }
 
+/// Issue 14, defect 11: the board declares an 8-bit dead-time register and
+/// the last segment's codes run to 0x100, past it.
+#[test]
+fn dead_time_segment_past_the_register_width() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[
+            case(
+                "wren-hb24.yaml",
+                "clock_divider: 1\n        segments:",
+                "clock_divider: 1\n        code_bits: 8\n        segments:",
+            ),
+            case(
+                "wren-hb24.yaml",
+                "{ first_code: 0xE0, count: 32,",
+                "{ first_code: 0xE0, count: 33,",
+            ),
+        ],
+        r#"
+error: wren-hb24.yaml:18:40: board.timer.dead_time.segmented.segments[3].count: codes 0xE0 to 0x100 run past the 8-bit dead-time register (codes 0x0 to 0xFF); expected first_code + count ≤ 0x100
+ 18 |           - { first_code: 0xE0, count: 33, base: 32, step: 16 }
+    |                                        ^
+"#,
+    );
+}
+
+/// Issue 14, defect 11: a linear dead-time code of up to 1023 ticks on a
+/// board that declares a 9-bit register.
+#[test]
+fn dead_time_linear_range_past_the_register_width() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "max_ticks: 1023, code_bits: 10 }",
+            "max_ticks: 1023, code_bits: 9 }",
+        )],
+        r#"
+error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: code 1023 does not fit the 9-bit dead-time register (codes 0 to 511); expected max_ticks ≤ 511
+ 11 |       linear: { clock_divider: 1, max_ticks: 1023, code_bits: 9 }
+    |                                              ^
+"#,
+    );
+}
+
+/// Issue 14, defect 6: the gate-charge test's drain voltage above V_DSS.
+#[test]
+fn gate_charge_test_voltage_above_v_dss() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            "at_v_gs: \"10 V\" }\n  q_gs",
+            "at_v_gs: \"10 V\", at_v_ds: \"60 V\" }\n  q_gs",
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:64: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_v_ds: "60 V" }
+    |                                                                ^
+"#,
+    );
+}
+
 /// A linear prescaler range upside down.
 #[test]
 fn prescaler_max_below_min() {

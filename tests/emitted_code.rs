@@ -367,6 +367,9 @@ fn c_host_program(f: &Facts) -> String {
             ("-0.25f", 0),
             ("NAN", 0),
             ("0.5f", f.mid()),
+            // Issue 14, defect 9: a tiny non-zero request is a pulse.
+            ("1e-9f", f.compare_min),
+            ("1e-6f", f.compare_min),
             ("1.0f", f.compare_max),
             ("2.0f", f.compare_max),
         ] {
@@ -551,6 +554,33 @@ fn c_header_cross_compiles() {
             &format!("{}: {ARM_GCC} use.c", case.name),
         );
         assert!(obj.is_file(), "{}: no object written", case.name);
+        // Issue 14, defect 11: no helper calls pull in a 64-bit division
+        // (the permille conversion fits 32 bits).
+        if have("arm-none-eabi-nm", &["--version"]) {
+            let o = Command::new("arm-none-eabi-nm")
+                .arg(&obj)
+                .output()
+                .expect("run arm-none-eabi-nm");
+            assert!(
+                o.status.success(),
+                "{}: nm failed\n{}",
+                case.name,
+                describe(&o)
+            );
+            let symbols = String::from_utf8_lossy(&o.stdout);
+            for helper in [
+                "__aeabi_uldivmod",
+                "__aeabi_ldivmod",
+                "__udivdi3",
+                "__divdi3",
+            ] {
+                assert!(
+                    !symbols.contains(helper),
+                    "{}: the emitted C calls the 64-bit division helper {helper}:\n{symbols}",
+                    case.name
+                );
+            }
+        }
     }
 }
 

@@ -128,7 +128,10 @@ fn board_text(r: &mut Rng, topology: &str, modulation: &str, three_phase: bool) 
     let clock_mhz = r.range(16.0, 200.0).round();
     let counter_bits = *r.pick(&[16u32, 16, 32]);
     let prescaler = if r.chance(0.6) {
-        format!("linear: {{ min: 1, max: {} }}", r.pick(&[16u32, 256, 65536]))
+        format!(
+            "linear: {{ min: 1, max: {} }}",
+            r.pick(&[16u32, 256, 65536])
+        )
     } else {
         "ratios: [1, 2, 4, 8, 16, 32, 64]".to_string()
     };
@@ -309,7 +312,13 @@ fn random_plan(r: &mut Rng, dir: &Path, kind: usize) -> Result<Option<Plan>, Str
         Err(e) => return Err(format!("{e}\n--- board\n{board}\n--- design\n{design}")),
     };
     let ev = Evaluator::new(&d);
-    let obj = objective(design.lines().last().unwrap_or("").trim_start_matches("  objective: "));
+    let obj = objective(
+        design
+            .lines()
+            .last()
+            .unwrap_or("")
+            .trim_start_matches("  objective: "),
+    );
     let sol = solve::solve(&ev, obj);
     Ok(plan::build(&d, &ev, &sol, None).filter(|p| p.feasible))
 }
@@ -404,14 +413,15 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         100.0 * worst_mean,
         100.0 * worst_ripple
     );
-    eprintln!(
-        "seconds per kind {spent:?}; {refused} refused as input"
-    );
+    eprintln!("seconds per kind {spent:?}; {refused} refused as input");
     assert!(
         refused * 50 <= n,
         "{refused} of {n} random designs refused as input (the generator should draw valid ones), e.g.\n{refused_text}"
     );
-    assert!(failures.is_empty(), "the registers contradict the plan:\n{failures}");
+    assert!(
+        failures.is_empty(),
+        "the registers contradict the plan:\n{failures}"
+    );
     for (kind, n) in &drawn {
         let ok = feasible.get(kind).copied().unwrap_or(0);
         assert!(

@@ -13,10 +13,10 @@
 //!    search and a forced grid-then-bracket search:
 //!    - [`solver_matches_brute_force_over_listed_settings`]: against every
 //!      setting the solver lists (each frequency with its most duty steps);
-//!    - [`solver_matches_brute_force`] (ignored, src bug): against every
-//!      (divider, period, alignment) setting, pinned by
-//!      [`fewer_duty_steps_can_be_the_only_feasible_setting`];
-//!    - [`quietest_grid_path_matches_brute_force`] (ignored, src bug), pinned
+//!    - [`solver_matches_brute_force`]: against every (divider, period,
+//!      alignment) setting the design allows, where fewer duty steps can be
+//!      the only feasible setting of a frequency;
+//!    - [`quietest_grid_path_matches_brute_force`], pinned
 //!      by [`quietest_grid_floor_misses_the_least_loss`].
 //! 2. [`distinct_products_are_exact_and_complete`], [`settings_in_band_obey_the_closed_form`]
 //!    and [`dead_time_is_the_next_encodable_value_up`]: timer identities on
@@ -127,7 +127,7 @@ fn every_candidate(ev: &Evaluator) -> Vec<Candidate> {
     let dead = ev.dead_time_choice();
     let (f_min, f_max) = (ev.limits.f_min_hz, ev.limits.f_max_hz);
     let mut out = Vec::new();
-    for &a in &ev.timer.alignments {
+    for &a in &ev.alignments() {
         let settings = ev
             .timer
             .settings_in_band(f_min, f_max, a)
@@ -408,54 +408,6 @@ proptest! {
         let ev = perturbed(&c);
         check_case(&c, &ev, &every_candidate(&ev), &every_listed_candidate(&ev), true)?;
     }
-}
-
-/// Regression for the duty-quantisation bug: the belt feeder (half-bridge,
-/// bootstrap refresh 500 ns) on a 5.442 MHz, 8-bit timer with dividers 2–3,
-/// 24.29–30.58 kHz, motor R × 1.385, no ripple or resolution limit.
-///
-/// At 24 513.5 Hz (product 222) the solver lists only divider 2 × 111 ticks.
-/// Its bootstrap limit D_max = 1 − 500 ns · f = 0.98774 rounds down to
-/// 109/111 = 0.98198, short of the 0.98232 the load needs; divider 3 × 74
-/// ticks rounds to 73/74 = 0.98649 and passes. Same frequency, same loss:
-/// the brute force takes 3 × 74 (0.23405 W); the solver settles for
-/// 24 849 Hz (3 × 73, 0.23672 W).
-#[test]
-fn fewer_duty_steps_can_be_the_only_feasible_setting() {
-    let ev = perturbed(&Case {
-        design: 0,
-        clock_hz: 5_442_000.0,
-        counter_bits: 8,
-        prescaler: Prescaler::Linear {
-            min_divider: 2,
-            max_divider: 3,
-            register_offset: 1,
-        },
-        alignments: vec![Alignment::Edge, Alignment::Centre],
-        l_scale: 1.0,
-        r_scale: 1.385_427_670_391_602_9,
-        ripple_share: None,
-        t_j_shift_k: 0.0,
-        min_resolution_bits: None,
-        f_min_hz: 24_291.584_358_623_197,
-        f_max_hz: 30_581.292_841_812_46,
-        objective: Objective::LeastLoss,
-    });
-    let dead = ev.dead_time_choice();
-    let at = |d, n| {
-        let s = ev.timer.setting(d, n, Alignment::Edge).expect("valid");
-        ev.candidate(&s, &dead).expect("evaluates")
-    };
-    let (more_steps, fewer_steps) = (at(2, 111), at(3, 74));
-    assert!(!more_steps.feasible && fewer_steps.feasible, "premise");
-    let sol = solve::solve(&ev, Objective::LeastLoss);
-    let chosen = sol.chosen.expect("a choice");
-    assert_eq!(
-        (chosen.setting.divider, chosen.setting.period_ticks),
-        (3, 74),
-        "solver chose {:?}",
-        chosen.setting
-    );
 }
 
 /// Regression for the quietest-floor bug: the vent fan on a 6.325 MHz, 8-bit,
@@ -779,4 +731,108 @@ fn solution_invariants_on_bundled_designs() {
     // The demo binds on the hearing limit, the winch on ripple (least loss)
     // and the vent fan on the band's top (quietest).
     assert!(bindings >= 3, "only {bindings} binding constraints seen");
+}
+
+/// Issue 14, defect 8: the frequency-band row shows the bound it is
+/// measured against, the nearer one, with its margin; when the band binds at
+/// its bottom (least loss pushed up against a raised lower edge) the limit
+/// shown is the lower edge, not the upper.
+#[test]
+fn frequency_band_row_shows_the_binding_bound() {
+    let mut bottom_binds = 0;
+    for (name, base) in DESIGNS.iter().zip(evaluators()) {
+        let free = solve::solve(base, Objective::LeastLoss);
+        let f0 = free.chosen.as_ref().expect("a choice").setting.frequency_hz;
+        let mut ev = base.clone();
+        ev.limits.f_min_hz = (f0 * 1.3).min(0.5 * (f0 + ev.limits.f_max_hz));
+        let sol = solve::solve(&ev, Objective::LeastLoss);
+        let Some(c) = sol.chosen.as_ref() else {
+            continue;
+        };
+        let f = c.setting.frequency_hz;
+        let k = c
+            .checks
+            .iter()
+            .find(|k| k.name == "frequency-band")
+            .expect("a band row");
+        let (lo, hi) = (ev.limits.f_min_hz, ev.limits.f_max_hz);
+        let nearer = if f - lo <= hi - f { lo } else { hi };
+        assert_eq!(k.limit, nearer, "{name}: band row limit");
+        let margin = k.margin.expect("a margin");
+        assert!(
+            (margin - (f - nearer).abs()).abs() <= 1e-9 * f,
+            "{name}: margin {margin} for {f} Hz against {nearer} Hz"
+        );
+        if k.binding && k.limit == lo {
+            bottom_binds += 1;
+        }
+        assert!(
+            !(k.binding && k.limit == hi && f - lo < hi - f),
+            "{name}: the upper edge is shown while the lower binds"
+        );
+    }
+    assert!(bottom_binds >= 1, "no design bound at the band's bottom");
+}
+
+/// Issue 14, defect 10: the rounder-frequency alternative is the roundest
+/// realisable setting in the feasible band that passes (fewest significant
+/// digits in Hz, then nearest the choice), found also when the search never
+/// evaluated it (the forced grid search evaluates a few settings only).
+/// Brute force: every realisable setting in the band, roundest first.
+#[test]
+fn rounder_frequency_is_the_roundest_feasible_setting_in_the_band() {
+    let roundest = |ev: &Evaluator, sol: &Solution| -> Option<f64> {
+        let f0 = sol.chosen.as_ref()?.setting.frequency_hz;
+        let (lo, hi) = sol.feasible_band_hz?;
+        let dead = ev.dead_time_choice();
+        let mut all: Vec<_> = solve::realisable(ev)
+            .into_iter()
+            .filter(|s| s.frequency_hz >= lo && s.frequency_hz <= hi)
+            .collect();
+        all.sort_by(|a, b| {
+            solve::roundness_digits(a.frequency_hz)
+                .cmp(&solve::roundness_digits(b.frequency_hz))
+                .then(
+                    (a.frequency_hz - f0)
+                        .abs()
+                        .total_cmp(&(b.frequency_hz - f0).abs()),
+                )
+        });
+        all.into_iter()
+            .take_while(|s| solve::roundness_digits(s.frequency_hz) < solve::roundness_digits(f0))
+            .find(|s| ev.candidate(s, &dead).is_some_and(|c| c.feasible))
+            .map(|s| s.frequency_hz)
+    };
+    let offered = |sol: &Solution| {
+        sol.alternatives
+            .iter()
+            .find(|a| a.label == "rounder-frequency")
+            .map(|a| a.candidate.setting.frequency_hz)
+    };
+    for (name, ev) in DESIGNS.iter().zip(evaluators()) {
+        let sol = solve::solve_with(ev, Objective::LeastLoss, GRID);
+        let want = roundest(ev, &sol);
+        let got = offered(&sol);
+        match (want, got) {
+            (Some(w), Some(g)) => assert_eq!(
+                solve::roundness_digits(g),
+                solve::roundness_digits(w),
+                "{name}: offered {g} Hz, the roundest is {w} Hz"
+            ),
+            _ => assert_eq!(want, got, "{name}: rounder frequency"),
+        }
+    }
+    // The trial's case: a 72 MHz clock and a 21–27 kHz band. 24.000 kHz
+    // (3000 ticks) is the roundest realisable frequency nearest the
+    // least-loss choice at the band's bottom; 25.000 kHz is as round but
+    // further away.
+    let mut ev = evaluators()[0].clone();
+    ev.timer.clock_hz = 72e6;
+    ev.limits.f_min_hz = 21_000.0;
+    ev.limits.f_max_hz = 27_000.0;
+    let sol = solve::solve_with(&ev, Objective::LeastLoss, GRID);
+    let f0 = sol.chosen.as_ref().expect("a choice").setting.frequency_hz;
+    assert!(f0 < 22_000.0, "least loss sits at the bottom: {f0} Hz");
+    assert_eq!(offered(&sol), Some(24_000.0), "{:?}", sol.alternatives);
+    assert_eq!(roundest(&ev, &sol), Some(24_000.0));
 }

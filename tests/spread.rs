@@ -430,6 +430,17 @@ fn report_fits_80_columns_and_serialises() {
     ] {
         assert!(text.contains(needle), "missing {needle:?} in\n{text}");
     }
+    // Issue 14, defect 11: the need the dead time is encoded from is the
+    // worst-case one and is called so; the typical need is named apart.
+    let worst = wc.dead_time.worst_need_s.expect("a worst-case need");
+    assert!(wc.dead_time.encoded_from_worst_case);
+    assert!(wc.dead_time.typical_need_s <= worst + 1e-15);
+    let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(
+        flat.contains("encoded from the worst-case need"),
+        "the encoded need is not called worst-case in\n{text}"
+    );
+    assert!(!flat.contains("; typical need"), "{text}");
     let json = serde_json::to_value((&mc, &wc)).expect("serialises");
     assert!(json[0]["yield"]["point"].is_number());
     assert!(json[0]["junction_c"]["p99"].is_number());
@@ -471,4 +482,89 @@ fn tolerances_section_parses() {
     assert!((v.low - 11.4).abs() < 1e-12 && (v.high - 12.6).abs() < 1e-12);
     let src = s.range(Param::DriverSink);
     assert!((src.high / src.typ - 1.2).abs() < 1e-12);
+}
+
+/// Issue 14, defect 6: over random switches (with a random C_rss curve, and
+/// without one), raising Q_gd (typical and maximum together, or the typical
+/// alone within its maximum) never lowers E_on + E_off at the rated case and
+/// never shortens the worst-case dead-time need; with a curve the energy
+/// strictly rises (the curve is scaled to Q_gd, no longer ignoring it).
+#[test]
+fn raising_q_gd_never_lowers_switching_energy_or_shortens_the_dead_time() {
+    use pwmplan::physics::switching;
+    let base = demo();
+    let mut state = 0x2545_F491_4F6C_DD1Du64;
+    let mut unit = move || {
+        state = spread::splitmix64_at(state, 1);
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let figures = |d: &Design| {
+        let ev = Evaluator::new(d);
+        let st = &ev.stage;
+        let i = ev.rated.load_current_a;
+        let tr = switching::transitions(
+            &st.switch,
+            &st.drive,
+            ev.rated.v_bus_v,
+            i,
+            i,
+            st.switch.r_ds_on_25_ohm,
+        )
+        .expect("transitions");
+        let (need, _) = spread::worst_dead_time_need(d, &ev).expect("a dead-time need");
+        (tr.e_on_j + tr.e_off_j, need)
+    };
+    let mut strict = 0;
+    for case in 0..48 {
+        let mut d = base.clone();
+        let with_curve = case % 2 == 0;
+        let s = &mut d.switch;
+        let q_gd = 4e-9 + 30e-9 * unit();
+        let q_gd_max = q_gd * (1.0 + 0.6 * unit());
+        s.q_gd.typ = Q::new(q_gd);
+        s.q_gd.min = Some(Q::new(q_gd * (1.0 - 0.3 * unit())));
+        s.q_gd.max = Some(Q::new(q_gd_max));
+        // Room above Q_gs + Q_gd for every raise below.
+        let q_g = s.q_gs.typ.si + 4.0 * q_gd_max + 10e-9;
+        s.q_g.typ = Q::new(q_g);
+        s.q_g.max = Some(Q::new(1.2 * q_g));
+        if with_curve {
+            let c1 = 0.3e-9 + 2.5e-9 * unit();
+            let n = 0.3 + 1.2 * unit();
+            s.capacitance.c_rss_curve = [1.0, 4.0, 12.0, 32.0]
+                .iter()
+                .map(|&v: &f64| (Q::new(v), Q::new(c1 * v.powf(-n))))
+                .collect();
+        } else {
+            s.capacitance.c_rss_curve.clear();
+        }
+        let (e0, n0) = figures(&d);
+        let k = 1.05 + unit();
+        // Typical and maximum together (a slower part).
+        let mut slower = d.clone();
+        let sp = &mut slower.switch.q_gd;
+        sp.typ = Q::new(q_gd * k);
+        sp.max = Some(Q::new(q_gd_max * k));
+        let (e1, n1) = figures(&slower);
+        // The typical alone, within the unchanged maximum.
+        let mut typ_only = d.clone();
+        typ_only.switch.q_gd.typ = Q::new(q_gd + (q_gd_max - q_gd) * unit());
+        let (e2, n2) = figures(&typ_only);
+        let what = format!("case {case} (curve {with_curve}), Q_gd {q_gd:e} ×{k:.2}");
+        assert!(e1 >= e0 * (1.0 - 1e-12), "{what}: E {e0:e} -> {e1:e}");
+        assert!(n1 >= n0 * (1.0 - 1e-12), "{what}: need {n0:e} -> {n1:e}");
+        assert!(
+            e2 >= e0 * (1.0 - 1e-12),
+            "{what}: typ only, E {e0:e} -> {e2:e}"
+        );
+        assert!(
+            n2 >= n0 * (1.0 - 1e-12),
+            "{what}: typ only, need {n0:e} -> {n2:e}"
+        );
+        if with_curve {
+            assert!(e1 > e0 * (1.0 + 1e-6), "{what}: E unchanged with a curve");
+            strict += 1;
+        }
+    }
+    assert_eq!(strict, 24);
 }

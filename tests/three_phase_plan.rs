@@ -69,25 +69,25 @@ fn check(p: &serde_json::Value, modulation: &str) {
     // 3000 rpm × 4 pole pairs = 200 Hz electrical.
     assert!((f(&tp["electrical_frequency_hz"]) - 200.0).abs() < 1e-9);
 
-    // Trigger: a counter value within the up-down period, C·t_tick before
-    // the bottom, with C = round(t_sample / (2·t_tick)).
+    // Trigger: a counter value within the up-down period matched on the
+    // up-count, c·t_tick before the top (P), with c = round(t_sample / (2·t_tick)).
     let s = &tp["sampling"];
     let steps = p["timer"]["duty_steps"].as_u64().expect("duty steps");
     let trigger = s["trigger_compare"].as_u64().expect("trigger");
+    assert_eq!(s["trigger_count"], "up");
     assert!(trigger > 0 && trigger <= p["timer"]["period_register"].as_u64().expect("reg"));
     let tick = p["timer"]["divider"].as_f64().expect("divider") / f(&p["timer"]["clock_hz"]);
     assert_eq!(
         trigger,
-        (0.5 * f(&s["sample_time_s"]) / tick).round() as u64
+        steps - (0.5 * f(&s["sample_time_s"]) / tick).round() as u64
     );
     let period = f(&s["period_s"]);
     assert!((period - 2.0 * steps as f64 * tick).abs() < 1e-15);
-    assert!(f(&s["trigger_before_bottom_s"]) < 0.5 * period);
+    assert!(f(&s["trigger_before_top_s"]) < 0.5 * period);
+    assert!((f(&s["trigger_before_top_s"]) - (steps - trigger) as f64 * tick).abs() < 1e-15);
     // t_ls,min = 2·(t_c + t_dead + t_settle) here (the start of the window binds).
     let t_ls = 2.0
-        * (f(&s["trigger_before_bottom_s"])
-            + f(&p["timer"]["dead_time_s"])
-            + f(&s["settle_time_s"]));
+        * (f(&s["trigger_before_top_s"]) + f(&p["timer"]["dead_time_s"]) + f(&s["settle_time_s"]));
     assert!((f(&s["min_low_side_on_s"]) - t_ls).abs() < 1e-15);
     assert!((f(&s["max_high_side_duty"]) - (1.0 - t_ls / period)).abs() < 1e-12);
     let k = p["constraints"]

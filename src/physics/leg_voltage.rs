@@ -121,11 +121,17 @@ pub fn offset_v(levels: &StageLevels, c: &DeadTimeConditions, i: &EdgeCurrents) 
         + edge_volt_seconds(levels, c, i.at_end_a, false);
     let x = c.t_dead_s * c.f_sw_hz;
     let k = levels.edges_per_period;
-    k * c.f_sw_hz * per_edge - levels.switches_in_path * i.mean_a * c.r_ds_on_ohm * (1.0 - 2.0 * k * x)
+    k * c.f_sw_hz * per_edge
+        - levels.switches_in_path * i.mean_a * c.r_ds_on_ohm * (1.0 - 2.0 * k * x)
 }
 
 /// Mean load voltage at high-state reference fraction `d`.
-pub fn mean_voltage_v(d: f64, levels: &StageLevels, c: &DeadTimeConditions, i: &EdgeCurrents) -> f64 {
+pub fn mean_voltage_v(
+    d: f64,
+    levels: &StageLevels,
+    c: &DeadTimeConditions,
+    i: &EdgeCurrents,
+) -> f64 {
     d * levels.high_v + (1.0 - d) * levels.low_v + offset_v(levels, c, i)
 }
 
@@ -231,7 +237,10 @@ mod tests {
             let t: f64 = states.iter().map(|x| x.1).sum();
             let mean = states.iter().map(|x| x.0 * x.1).sum::<f64>() / t;
             assert!((t - 1.0 / 40e3).abs() < 1e-18);
-            assert!((mean - mean_voltage_v(0.4, &l, &c, &i)).abs() < 1e-12, "{s} {e}");
+            assert!(
+                (mean - mean_voltage_v(0.4, &l, &c, &i)).abs() < 1e-12,
+                "{s} {e}"
+            );
         }
     }
 
@@ -246,7 +255,7 @@ mod tests {
         assert!((v_s - (-1.0 - 24.0) * 500e-9).abs() < 1e-15);
         let t0 = 1e-3 * 0.1 / 11.0;
         let v_l = edge_volt_seconds(&l, &long, 0.1, true);
-        let hand = -1.0 * t0 + 10.0 * (10e-6 - t0) - 24.0 * 10e-6;
+        let hand = -t0 + 10.0 * (10e-6 - t0) - 24.0 * 10e-6;
         assert!((v_l - hand).abs() < 1e-15);
     }
 }

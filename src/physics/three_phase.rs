@@ -1384,11 +1384,11 @@ pub fn six_step_losses(
 /// Low-side shunt sampling window of a centre-aligned timer.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SamplingWindow {
-    /// Counter value, on the down-count, at which to start the conversion so the sampling
-    /// window is centred on the counter bottom: round(t_s/(2·t_tick)).
+    /// Counter value, matched on the UP-count, at which to start the conversion so the
+    /// sampling window is centred on the counter top: P − round(t_s/(2·t_tick)).
     pub trigger_compare: u32,
-    /// Time from the trigger to the counter bottom, trigger_compare·t_tick.
-    pub trigger_before_bottom_s: f64,
+    /// Time from the trigger to the counter top, (P − trigger_compare)·t_tick.
+    pub trigger_before_top_s: f64,
     /// Shortest low-side (complementary reference) time (1 − d)·T that still fits settling,
     /// dead time and sampling.
     pub min_low_side_on_s: f64,
@@ -1400,13 +1400,16 @@ pub struct SamplingWindow {
 
 /// Sampling window for low-side shunt current sensing with a centre-aligned (up-down) counter.
 ///
-/// Timer model (common practice): the counter counts 0 → P → 0 (P = `period_ticks`), so
-/// T = 2·P·t_tick; the high-side reference is high for d·T centred on the top; the complementary
-/// outputs get the dead time t_d as a delay of each rising edge. So, with the bottom at t = 0,
-/// the low side is on over [−(1 − d)T/2 + t_d, +(1 − d)T/2] (its gate on-time is (1 − d)T − t_d).
+/// Timer model and output convention (the emitted code's; common practice): the counter
+/// counts 0 → P → 0 (P = `period_ticks`, the duty steps), so T = 2·P·t_tick; a channel's
+/// high-side reference is active while the counter is below its compare value C_x (compare 0:
+/// always off, P: always on), so it is high for d·T centred on the counter BOTTOM and the low
+/// side conducts around the counter TOP; the complementary outputs get the dead time t_d as a
+/// delay of each rising edge. So, with the top at t = 0, the low side is on over
+/// [−(1 − d)T/2 + t_d, +(1 − d)T/2] (its gate on-time is (1 − d)T − t_d).
 ///
-/// The conversion starts at the down-count compare C, t_c = C·t_tick before the bottom, and
-/// samples for t_s: window [−t_c, t_s − t_c], centred on the bottom when t_c = t_s/2. It must
+/// The conversion starts at the up-count match of C = P − c, t_c = c·t_tick before the top,
+/// and samples for t_s: window [−t_c, t_s − t_c], centred on the top when t_c = t_s/2. It must
 /// start after the low side has turned on and the shunt amplifier has settled, and end before
 /// the low side turns off:
 ///   (1 − d)T/2 ≥ t_c + t_d + t_settle   and   (1 − d)T/2 ≥ t_s − t_c,
@@ -1414,7 +1417,7 @@ pub struct SamplingWindow {
 ///   t_ls,min = 2·max(t_c + t_d + t_settle, t_s − t_c)  (= 2·(t_settle + t_d) + t_s when
 ///   t_c = t_s/2), its gate on-time t_ls,min − t_d, and d_max = 1 − t_ls,min/T (own derivation).
 ///
-/// Errors: invalid inputs; C > P; `NoSamplingWindow` when t_ls,min ≥ T.
+/// Errors: invalid inputs; c > P; `NoSamplingWindow` when t_ls,min ≥ T.
 pub fn sampling_window(
     period_ticks: u32,
     clock_per_tick_s: f64,
@@ -1429,7 +1432,7 @@ pub fn sampling_window(
     check("t_dead_s", t_dead_s, t_dead_s >= 0.0)?;
     let period_s = 2.0 * f64::from(period_ticks) * clock_per_tick_s;
     let c = (0.5 * t_sample_s / clock_per_tick_s).round();
-    check("trigger_compare", c, c <= f64::from(period_ticks))?;
+    check("trigger_lead_ticks", c, c <= f64::from(period_ticks))?;
     let t_c = c * clock_per_tick_s;
     let half = (t_c + t_dead_s + t_settle_s).max(t_sample_s - t_c);
     let min_ls = 2.0 * half;
@@ -1440,8 +1443,8 @@ pub fn sampling_window(
         });
     }
     Ok(SamplingWindow {
-        trigger_compare: c as u32,
-        trigger_before_bottom_s: t_c,
+        trigger_compare: period_ticks - c as u32,
+        trigger_before_top_s: t_c,
         min_low_side_on_s: min_ls,
         min_low_side_gate_on_s: min_ls - t_dead_s,
         max_high_side_duty: 1.0 - min_ls / period_s,
@@ -2099,20 +2102,21 @@ mod tests {
         assert!(matches!(r, Err(ThreePhaseError::DutyUnreachable { .. })));
     }
 
-    /// Sampling window by hand. T = 2·1000·12.5 ns = 25 µs; t_s = 1 µs → C = 40 (0.5 µs);
+    /// Sampling window by hand. T = 2·1000·12.5 ns = 25 µs; t_s = 1 µs → lead 40 ticks (0.5 µs)
+    /// before the top, trigger compare 1000 − 40 = 960 on the up-count;
     /// t_ls,min = 2·(0.5 + 0.5 + 2) µs = 6 µs; gate on 5.5 µs; d_max = 1 − 6/25 = 0.76.
     #[test]
     fn sampling_window_hand_numbers() {
         let s = sampling_window(1000, 12.5e-9, 2e-6, 1e-6, 0.5e-6).unwrap();
-        assert_eq!(s.trigger_compare, 40);
-        assert!((s.trigger_before_bottom_s - 0.5e-6).abs() < 1e-15);
+        assert_eq!(s.trigger_compare, 1000 - 40);
+        assert!((s.trigger_before_top_s - 0.5e-6).abs() < 1e-15);
         assert!((s.min_low_side_on_s - 6.0e-6).abs() < 1e-15);
         assert!((s.min_low_side_gate_on_s - 5.5e-6).abs() < 1e-15);
         assert!((s.max_high_side_duty - 0.76).abs() < 1e-12);
         // t_s = 1.01 µs → C = round(40.4) = 40; no settling/dead time: the end of the window
         // binds, t_ls,min = 2·(1.01 − 0.5) = 1.02 µs; d_max = 1 − 1.02/25 = 0.9592.
         let s = sampling_window(1000, 12.5e-9, 0.0, 1.01e-6, 0.0).unwrap();
-        assert_eq!(s.trigger_compare, 40);
+        assert_eq!(s.trigger_compare, 960);
         assert!((s.min_low_side_on_s - 1.02e-6).abs() < 1e-15);
         assert!((s.max_high_side_duty - 0.9592).abs() < 1e-12);
         // Settling 12 µs cannot fit: 2·(0.5 + 0.5 + 12) = 26 µs ≥ 25 µs.

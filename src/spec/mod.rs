@@ -92,6 +92,12 @@ pub struct GateChargeSpec {
     pub max: Option<Q<Coulomb>>,
     /// Gate-source voltage the total gate charge is given at.
     pub at_v_gs: Q<Volt>,
+    /// Drain-source (supply) voltage of the datasheet's gate-charge test
+    /// (optional; half of `v_dss` when absent). The Miller charge Q_gd is
+    /// the drain swing from this voltage down to the on state; a C_rss curve
+    /// is reconciled with Q_gd over that swing.
+    #[serde(default)]
+    pub at_v_ds: Option<Q<Volt>>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -186,11 +192,22 @@ pub enum DeadTimeSpec {
     /// No dead-time generator: complementary outputs need external delay.
     None,
     /// Dead time = ticks / (clock / clock_divider), ticks 0..=max_ticks.
-    Linear { clock_divider: u64, max_ticks: u64 },
+    Linear {
+        clock_divider: u64,
+        max_ticks: u64,
+        /// Width of the dead-time register field in bits (optional): the
+        /// code (= ticks) must fit, max_ticks ≤ 2^code_bits − 1.
+        #[serde(default)]
+        code_bits: Option<u32>,
+    },
     /// A register code split into segments with their own tick multipliers.
     Segmented {
         clock_divider: u64,
         segments: Vec<DeadTimeSegmentSpec>,
+        /// Width of the dead-time register field in bits (optional): every
+        /// segment's codes must fit, first_code + count ≤ 2^code_bits.
+        #[serde(default)]
+        code_bits: Option<u32>,
     },
 }
 

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:44f32b67b94fa7efb47fe891e254de51624a61cb763faee3ec2615f80a1503d6)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:f3fd4b3866a034b76878b1b9261eafbb3ca5371811686b50346f9191cd42e5e3)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -9,8 +9,8 @@
 //!   frequency      20.013 kHz, centre-aligned
 //!   timer          clock 64.00 MHz; divider 1 (register 0); period 3198 ticks (register 1599)
 //!   resolution     1599 duty steps (10.6 bits)
-//!   dead time      156 ns = 10 ticks (code 0x0A); needed 150 ns
-//!   duty limits    compare 10 to 1583 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+//!   dead time      156 ns = 10 ticks (code 0x0A); needed 152 ns
+//!   duty limits    compare 15 to 1578 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
 //!   feasible band  20.013 kHz to 31.250 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
@@ -19,41 +19,44 @@
 //!   ripple                 875 mA      363 mA     512 mA  ok
 //!   audible            20.000 kHz  20.013 kHz    12.5 Hz  binds
 //!   resolution         10.00 bits  10.64 bits  0.64 bits  ok
-//!   dead-time              156 ns      150 ns    5.85 ns  ok
-//!   duty-range            99.00 %     94.05 %     4.95 %  ok
-//!   frequency-band     60.000 kHz  20.013 kHz   4.01 kHz  ok
+//!   dead-time              156 ns      152 ns    3.85 ns  ok
+//!   duty-range            98.69 %     94.45 %     4.23 %  ok
+//!   frequency-band     16.000 kHz  20.013 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
-//!   switching            20.2 mW
+//!   switching            20.8 mW
 //!   output capacitance   9.13 mW
 //!   reverse recovery     25.2 mW
 //!   dead-time diode      18.6 mW
 //!   gate drive           32.5 mW
-//!   motor ripple copper  2.95 mW
-//!   total                142 mW
+//!   motor ripple copper  2.94 mW
+//!   total                143 mW
 //!
 //! Operating figures
-//!   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
-//!   junction    57.0 °C (limit 135 °C); 57.1 °C at the highest supply
-//!   ripple      363 mA peak to peak at 20.013 kHz (continuous), 69.0 mA rms
-//!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+//!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
+//!   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
+//!   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
+//!   ripple, rated case      239 mA peak to peak at 20.013 kHz (continuous), 68.9 mA rms
+//!   ripple, high-bus case   363 mA peak to peak at 20.013 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
-//!   junction    58.1 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
-//!   total-loss  209 mW; ok; hot: V_th max, supply 28.0 V
+//!   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
+//!   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
-//!   duty-range  94.05 % (limit 99.00 %); ok; hot: V_th min, supply 20.0 V
-//!   dead-time   needs 150 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   duty-range  94.47 % (limit 98.69 %); ok; hot: V_th min, supply 20.0 V
+//!   dead-time   needs 152 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
 //!   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.32 bits resolution
-//!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
+//!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -130 mA ripple, -0.64 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
 //!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
 //!
 //! Assumptions
@@ -76,27 +79,34 @@
 //!   wren-hb24.yaml         sha256 32a1c1b866e4c85707be1d9a3a2674e898e2eceb947b28a87e8875609a518c51
 //!   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
 //!
+//! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!
+//! What duty 0 means on this half-bridge stage, and how to coast:
+//!   Duty 0 (compare 0) means the low side is on for the whole period: the motor terminals are shorted through it, and a turning motor brakes (its back-EMF drives a braking current).
+//!   To coast: disable the outputs (both switches off); duty 0 is not coasting.
+//!
 //! Init sequence (register names differ per MCU; values are the constants below):
-//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- CONVEYOR_CENTRE_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- CONVEYOR_CENTRE_PWM_PERIOD_REG (3198 ticks per period).
-//!   4. Counting mode <- up-down (centre-aligned) (see CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED).
-//!   5. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before enabling complementary outputs.
-//!   6. Compare register(s) <- 0, then values from conveyor_centre_pwm_compare_from_q16() only.
-//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
-//!   8. Start the counter, then enable the outputs.
+//!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+//!   2. Divider register <- DIVIDER_REG (divider 1).
+//!   3. Period register <- PERIOD_REG (3198 ticks per period).
+//!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
+//!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!   6. Dead-time register <- DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before the complementary outputs are ever enabled.
+//!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
+//!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 64000000;
-/// Prescaler ratio.
+/// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 3198;
-/// Value of the period (auto-reload) register.
+/// Value of the period register.
 pub const PERIOD_REG: u32 = 1599;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
@@ -109,9 +119,15 @@ pub const DEAD_TIME_CODE: u32 = 0x0A;
 /// Dead-time ticks the code gives.
 pub const DEAD_TIME_TICKS: u32 = 10;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 10;
+pub const COMPARE_MIN: u32 = 15;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 1583;
+pub const COMPARE_MAX: u32 = 1578;
+/// The compare the init sequence loads while the outputs are disabled
+/// (0: the low side on, braking a turning motor, once enabled).
+pub const INIT_COMPARE: u32 = 0;
+/// True when compare 0 with the outputs enabled turns the low side(s) on and
+/// shorts the motor (braking). Coasting is outputs disabled.
+pub const DUTY_ZERO_BRAKES: bool = true;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
@@ -159,7 +175,8 @@ impl Duty {
         if permille >= 1000 {
             return Duty::MAX;
         }
-        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+        // permille < 1000 here, so the product fits 32 bits.
+        Duty::from_q16((permille * 65536 + 500) / 1000)
     }
 
     /// The compare value.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:8308626001eaf90723b5a53ddcbfa3f5f38e0c21c7e6c5859aabc55c845566c6)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:72220063f0ed267a53b0ab378be5130f69bbe70c86e3ceb19e832a50543200c4)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -11,9 +11,9 @@
  *   timer             clock 120.0 MHz; divider 1 (register 0); period 5998 ticks (register 2999)
  *   resolution        2999 duty steps (11.6 bits)
  *   dead time         125 ns = 15 ticks (code 0x0F); needed 124 ns
- *   duty limits       compare 12 to 2951 (0.4 % to 98.4 %); the load needs 24.0 % to 76.0 %
+ *   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.3 % to 76.7 %
  *   three-phase       sinusoidal, zero sequence min-max; m 0.500, cos φ 0.965 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
- *   current sampling  The ADC starts at compare 48 on the down-count, 400 ns before the counter bottom, so the 800 ns sample is centred on the bottom, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
+ *   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
  *   feasible band     20.007 kHz to 40.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
@@ -22,9 +22,9 @@
  *   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
  *   resolution         10.00 bits  11.55 bits  1.55 bits  ok
  *   dead-time              125 ns      124 ns     550 ps  ok
- *   duty-range            98.40 %     76.00 %    22.40 %  ok
+ *   duty-range            98.13 %     76.70 %    21.43 %  ok
  *   sampling-window       91.90 %     72.52 %    19.38 %  ok
- *   frequency-band     40.000 kHz  20.007 kHz   4.01 kHz  ok
+ *   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           1.68 W
@@ -37,23 +37,25 @@
  *   total                2.63 W
  *
  * Operating figures
- *   rated case  48.0 V supply, 45.0 °C ambient, 10.0 A load
- *   junction    49.0 °C (limit 145 °C); 49.1 °C at the highest supply
- *   ripple      800 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
- *   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+ *   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
+ *   high-bus case           54.0 V supply, 45.0 °C ambient, 10.0 A load
+ *   junction                49.0 °C at the rated case, 49.1 °C at the high-bus case (limit 145 °C)
+ *   ripple, rated case      750 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
+ *   ripple, high-bus case   800 mA peak to peak at 20.007 kHz (continuous), 169 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
  *   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
  *   total-loss  3.70 W; ok; hot: V_th min, supply 54.0 V
  *   ripple      800 mA; ok; hot: V_th min, supply 54.0 V
- *   duty-range  76.00 % (limit 98.40 %); ok; hot: V_th min, supply 40.0 V
+ *   duty-range  76.84 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
  *   dead-time   needs 124 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
- *   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
+ *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution
+ *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
  *
  * Findings
  *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225.0 A: above the I_D rating 60.0 A, and 992.3 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
@@ -65,7 +67,7 @@
  *   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
  *   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
  *   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
- *   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0
+ *   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0
  *   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
  *
  * Cautions
@@ -77,7 +79,7 @@
  *
  * Inputs
  *   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
- *   osprey-3p48.yaml          sha256 8fdf4ba77702dbe74aca8d6613230d1c8849920f3c80f2e03b97fd7a538d52a9
+ *   osprey-3p48.yaml          sha256 151aaadf91bc53ae976a3f2a5b573cfa3d8f4a4404dc26e8310ca45043e6ffc9
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef PUMP_BLDC_PWM_H
@@ -85,12 +87,20 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/*
+ * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *
+ * What duty 0 means on this three-phase stage, and how to coast:
+ *   Duty 0 on all three channels (compare 0) means all three low sides are on: the windings are shorted and a turning motor brakes; equal compares on all channels give zero line-to-line volts.
+ *   To coast: disable the outputs (all six switches off); duty 0 is not coasting.
+ */
+
+/* Timer input clock, before the divider. */
 #define PUMP_BLDC_PWM_CLOCK_HZ 120000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider (prescaler) ratio and the value the divider register takes. */
 #define PUMP_BLDC_PWM_DIVIDER 1U
 #define PUMP_BLDC_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
+/* Counter ticks per PWM period and the period register value. */
 #define PUMP_BLDC_PWM_PERIOD_TICKS 5998U
 #define PUMP_BLDC_PWM_PERIOD_REG 2999U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -103,31 +113,39 @@
 #define PUMP_BLDC_PWM_DEAD_TIME_CODE 0x0FU
 #define PUMP_BLDC_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define PUMP_BLDC_PWM_COMPARE_MIN 12U
-#define PUMP_BLDC_PWM_COMPARE_MAX 2951U
+#define PUMP_BLDC_PWM_COMPARE_MIN 20U
+#define PUMP_BLDC_PWM_COMPARE_MAX 2943U
+/* The compare the init sequence loads while the outputs are disabled
+ * (0: the low sides on, braking a turning motor, once enabled). */
+#define PUMP_BLDC_PWM_INIT_COMPARE 0U
+/* 1: compare 0 with the outputs enabled turns the low side(s) on and shorts
+ * the motor (braking); 0: it does not. Coasting is outputs disabled. */
+#define PUMP_BLDC_PWM_DUTY_ZERO_BRAKES 1
 /* Three-phase bridge: channels A, B and C share the period, the compare
  * limits and the dead time above; the same compare functions serve all three. */
 #define PUMP_BLDC_PWM_CHANNELS 3U
-/* ADC trigger: the compare value matched on the DOWN-count, 400.0 ns
- * before the counter bottom, so the sample is centred on the bottom (the
- * middle of the low-side on-time, where the low-side shunts carry the phase
- * currents). */
-#define PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE 48U
+/* ADC trigger: the compare value matched on the UP-count, 400.0 ns
+ * before the counter top, so the sample is centred on the top. Under the PWM
+ * mode above (high side on while the counter is below the compare) each high-
+ * side pulse is centred on the counter bottom, so the top is the middle of
+ * the low-side on-time, where the low-side shunts carry the phase currents. */
+#define PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE 2951U
 /* Largest compare of a sampled leg that still leaves the sampling window
  * (settling, dead time, sample); above it that leg's current is not valid. */
 #define PUMP_BLDC_PWM_SAMPLING_COMPARE_MAX 2756U
 
 /*
  * Init sequence (register names differ per MCU; values are above):
- *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
+ *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+ *   2. Divider register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
- *   6. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from pump_bldc_pwm_compare_from_q16() only (one call per channel).
- *   7. ADC trigger: a fourth compare <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
- *   8. Enable preload of period and compare registers so updates take effect at the period boundary.
- *   9. Start the counter, then enable the outputs.
+ *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *   6. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
+ *   7. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- PUMP_BLDC_PWM_INIT_COMPARE (outputs still disabled), then values from pump_bldc_pwm_compare_from_q16() only (one per channel).
+ *   8. ADC trigger: a spare compare channel <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the UP-count match only (just before the counter top, where the low sides conduct).
+ *   9. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   10. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
  */
 
 /*
@@ -155,7 +173,9 @@ static inline uint32_t pump_bldc_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. 32-bit
+ * arithmetic: permille < 1000 here, so permille * 65536 + 500 < 2^32 (no
+ * 64-bit division on a 32-bit target). */
 static inline uint32_t pump_bldc_pwm_compare_from_permille(uint32_t permille)
 {
     if (permille == 0U) {
@@ -164,7 +184,7 @@ static inline uint32_t pump_bldc_pwm_compare_from_permille(uint32_t permille)
     if (permille >= 1000U) {
         return pump_bldc_pwm_compare_from_q16(65536U);
     }
-    return pump_bldc_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+    return pump_bldc_pwm_compare_from_q16((uint32_t)((permille * 65536U + 500U) / 1000U));
 }
 
 /* Compare values of channels A, B and C from three q16 duties (the same
@@ -177,16 +197,20 @@ static inline void pump_bldc_pwm_compare_abc_from_q16(const uint32_t duty_q16[3]
     }
 }
 
-/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU): 0 (or
+ * less, or NaN) is off; any other request gives at least COMPARE_MIN, also
+ * one below half a 16-bit step that rounds to 0. */
 static inline uint32_t pump_bldc_pwm_compare_from_fraction(float duty)
 {
+    uint32_t q;
     if (!(duty > 0.0f)) {
         return 0U;
     }
     if (duty >= 1.0f) {
         return pump_bldc_pwm_compare_from_q16(65536U);
     }
-    return pump_bldc_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+    q = (uint32_t)(duty * 65536.0f + 0.5f);
+    return pump_bldc_pwm_compare_from_q16(q == 0U ? 1U : q);
 }
 
 #endif /* PUMP_BLDC_PWM_H */

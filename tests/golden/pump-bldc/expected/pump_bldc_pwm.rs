@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:f26061c7e95a5330090b3fef5e01cb943a00ae208d132200b3080e03180d2644)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:70ba6434ad7f02ba741b114a99c9286ac7dac96318a5f20b2375ee169b3b22cb)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -10,9 +10,9 @@
 //!   timer             clock 120.0 MHz; divider 1 (register 0); period 5998 ticks (register 2999)
 //!   resolution        2999 duty steps (11.6 bits)
 //!   dead time         125 ns = 15 ticks (code 0x0F); needed 124 ns
-//!   duty limits       compare 12 to 2951 (0.4 % to 98.4 %); the load needs 24.0 % to 76.0 %
+//!   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.3 % to 76.7 %
 //!   three-phase       sinusoidal, zero sequence min-max; m 0.500, cos φ 0.965 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
-//!   current sampling  The ADC starts at compare 48 on the down-count, 400 ns before the counter bottom, so the 800 ns sample is centred on the bottom, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
+//!   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
 //!   feasible band     20.007 kHz to 40.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
@@ -21,9 +21,9 @@
 //!   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
 //!   resolution         10.00 bits  11.55 bits  1.55 bits  ok
 //!   dead-time              125 ns      124 ns     550 ps  ok
-//!   duty-range            98.40 %     76.00 %    22.40 %  ok
+//!   duty-range            98.13 %     76.70 %    21.43 %  ok
 //!   sampling-window       91.90 %     72.52 %    19.38 %  ok
-//!   frequency-band     40.000 kHz  20.007 kHz   4.01 kHz  ok
+//!   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           1.68 W
@@ -36,23 +36,25 @@
 //!   total                2.63 W
 //!
 //! Operating figures
-//!   rated case  48.0 V supply, 45.0 °C ambient, 10.0 A load
-//!   junction    49.0 °C (limit 145 °C); 49.1 °C at the highest supply
-//!   ripple      800 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
-//!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
+//!   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
+//!   high-bus case           54.0 V supply, 45.0 °C ambient, 10.0 A load
+//!   junction                49.0 °C at the rated case, 49.1 °C at the high-bus case (limit 145 °C)
+//!   ripple, rated case      750 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
+//!   ripple, high-bus case   800 mA peak to peak at 20.007 kHz (continuous), 169 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
 //!   total-loss  3.70 W; ok; hot: V_th min, supply 54.0 V
 //!   ripple      800 mA; ok; hot: V_th min, supply 54.0 V
-//!   duty-range  76.00 % (limit 98.40 %); ok; hot: V_th min, supply 40.0 V
+//!   duty-range  76.84 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
 //!   dead-time   needs 124 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
-//!   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
+//!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution
+//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
 //!
 //! Findings
 //!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225.0 A: above the I_D rating 60.0 A, and 992.3 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
@@ -64,7 +66,7 @@
 //!   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
 //!   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
 //!   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
-//!   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time, the third from i_a + i_b + i_c = 0
+//!   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0
 //!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
 //!
 //! Cautions
@@ -76,31 +78,38 @@
 //!
 //! Inputs
 //!   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
-//!   osprey-3p48.yaml          sha256 8fdf4ba77702dbe74aca8d6613230d1c8849920f3c80f2e03b97fd7a538d52a9
+//!   osprey-3p48.yaml          sha256 151aaadf91bc53ae976a3f2a5b573cfa3d8f4a4404dc26e8310ca45043e6ffc9
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
+//! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!
+//! What duty 0 means on this three-phase stage, and how to coast:
+//!   Duty 0 on all three channels (compare 0) means all three low sides are on: the windings are shorted and a turning motor brakes; equal compares on all channels give zero line-to-line volts.
+//!   To coast: disable the outputs (all six switches off); duty 0 is not coasting.
+//!
 //! Init sequence (register names differ per MCU; values are the constants below):
-//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
-//!   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
-//!   5. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
-//!   6. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from pump_bldc_pwm_compare_from_q16() only (one call per channel).
-//!   7. ADC trigger: a fourth compare <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
-//!   8. Enable preload of period and compare registers so updates take effect at the period boundary.
-//!   9. Start the counter, then enable the outputs.
+//!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+//!   2. Divider register <- DIVIDER_REG (divider 1).
+//!   3. Period register <- PERIOD_REG (5998 ticks per period).
+//!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
+//!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
+//!   7. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only (one per channel).
+//!   8. ADC trigger: a spare compare channel <- ADC_TRIGGER_COMPARE, triggering on the UP-count match only (just before the counter top, where the low sides conduct).
+//!   9. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   10. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 120000000;
-/// Prescaler ratio.
+/// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 5998;
-/// Value of the period (auto-reload) register.
+/// Value of the period register.
 pub const PERIOD_REG: u32 = 2999;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
@@ -113,16 +122,24 @@ pub const DEAD_TIME_CODE: u32 = 0x0F;
 /// Dead-time ticks the code gives.
 pub const DEAD_TIME_TICKS: u32 = 15;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 12;
+pub const COMPARE_MIN: u32 = 20;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 2951;
+pub const COMPARE_MAX: u32 = 2943;
+/// The compare the init sequence loads while the outputs are disabled
+/// (0: the low sides on, braking a turning motor, once enabled).
+pub const INIT_COMPARE: u32 = 0;
+/// True when compare 0 with the outputs enabled turns the low side(s) on and
+/// shorts the motor (braking). Coasting is outputs disabled.
+pub const DUTY_ZERO_BRAKES: bool = true;
 /// Three-phase bridge: channels A, B and C share the period, the compare
 /// limits and the dead time; the same [`Duty`] conversion serves all three.
 pub const CHANNELS: usize = 3;
-/// ADC trigger: the compare value matched on the DOWN-count, 400.0 ns before
-/// the counter bottom, so the sample is centred on the bottom (the middle of
-/// the low-side on-time, where the low-side shunts carry the phase currents).
-pub const ADC_TRIGGER_COMPARE: u32 = 48;
+/// ADC trigger: the compare value matched on the UP-count, 400.0 ns before
+/// the counter top, so the sample is centred on the top. Under the PWM mode
+/// above (high side on while the counter is below the compare) each high-side
+/// pulse is centred on the counter bottom, so the top is the middle of the
+/// low-side on-time, where the low-side shunts carry the phase currents.
+pub const ADC_TRIGGER_COMPARE: u32 = 2951;
 /// Largest compare of a sampled leg that still leaves the sampling window
 /// (settling, dead time, sample); above it that leg's current is not valid.
 pub const SAMPLING_COMPARE_MAX: u32 = 2756;
@@ -173,7 +190,8 @@ impl Duty {
         if permille >= 1000 {
             return Duty::MAX;
         }
-        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+        // permille < 1000 here, so the product fits 32 bits.
+        Duty::from_q16((permille * 65536 + 500) / 1000)
     }
 
     /// The compare value.

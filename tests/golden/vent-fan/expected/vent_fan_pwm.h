@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:f3b4c38793e8a4eda65be4a03683011fdce45e0cbc9fb2d6ed78b525562d9890)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9e89b06e08da189624f88bc8cb68520c8c1a4e0aa9a4a4923861a92e0ad43328)
  *
  * Chosen setting
  *   design         vent-fan
@@ -7,49 +7,51 @@
  *   switch         Scree 60 V, 7.5 mΩ (invented)
  *   topology       low-side
  *   objective      least-loss at typical values
- *   frequency      13.400 kHz, edge-aligned
- *   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
- *   resolution     3582 duty steps (11.8 bits)
- *   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
- *   feasible band  8.1370 kHz to 25.000 kHz
+ *   frequency      13.311 kHz, edge-aligned
+ *   timer          clock 48.00 MHz; divider 1 (register 0); period 3606 ticks (register 3605)
+ *   resolution     3606 duty steps (11.8 bits)
+ *   duty limits    compare 10 to 3596 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+ *   feasible band  8.0985 kHz to 25.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         110 °C     48.3 °C     61.7 K  ok
  *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
- *   ripple                 600 mA      365 mA     235 mA  ok
+ *   ripple                 600 mA      366 mA     234 mA  ok
  *   audible               0 lines     0 lines    0 lines  ok
- *   resolution          8.00 bits  11.81 bits  3.81 bits  ok
- *   duty-range            99.72 %     98.94 %     0.78 %  ok
- *   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+ *   resolution          8.00 bits  11.82 bits  3.82 bits  ok
+ *   duty-range            99.72 %     99.07 %     0.65 %  ok
+ *   frequency-band     25.000 kHz  13.311 kHz   11.7 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           10.9 mW
- *   switching            10.2 mW
- *   output capacitance   366 µW
- *   reverse recovery     322 µW
+ *   switching            10.1 mW
+ *   output capacitance   364 µW
+ *   reverse recovery     319 µW
  *   dead-time diode      0.00 W
- *   gate drive           3.22 mW
+ *   gate drive           3.19 mW
  *   freewheel diode      73.3 mW
- *   motor ripple copper  6.96 mW
+ *   motor ripple copper  6.92 mW
  *   total                105 mW
  *
  * Operating figures
- *   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
- *   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
- *   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
- *   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+ *   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
+ *   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
+ *   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
+ *   ripple, rated case      209 mA peak to peak at 13.311 kHz (continuous), 60.3 mA rms
+ *   ripple, high-bus case   366 mA peak to peak at 13.311 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
  *
  * Worst case over part and operating spreads
  *   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
  *   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
  *   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
- *   duty-range  98.94 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+ *   duty-range  99.11 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
- *   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
+ *   rounder-frequency  10.000 kHz (divider 1, 4800 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
+ *   highest-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
  *
  * Findings
  *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -79,36 +81,51 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/*
+ * PWM mode and polarity these constants assume: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
+ *
+ * What duty 0 means on this low-side stage, and how to coast:
+ *   Duty 0 (compare 0) means the switch is off: the motor coasts, its current decaying through the freewheel diode.
+ *   To coast: compare 0, or disable the output.
+ */
+
+/* Timer input clock, before the divider. */
 #define VENT_FAN_PWM_CLOCK_HZ 48000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider (prescaler) ratio and the value the divider register takes. */
 #define VENT_FAN_PWM_DIVIDER 1U
 #define VENT_FAN_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
-#define VENT_FAN_PWM_PERIOD_TICKS 3582U
-#define VENT_FAN_PWM_PERIOD_REG 3581U
+/* Counter ticks per PWM period and the period register value. */
+#define VENT_FAN_PWM_PERIOD_TICKS 3606U
+#define VENT_FAN_PWM_PERIOD_REG 3605U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define VENT_FAN_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (13.400 kHz). */
-#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13400335ULL
+/* PWM frequency in millihertz (13.311 kHz). */
+#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13311148ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define VENT_FAN_PWM_DUTY_STEPS 3582U
+#define VENT_FAN_PWM_DUTY_STEPS 3606U
 /* Dead-time register code and the ticks it gives (0.0 ns). */
 #define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
 #define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define VENT_FAN_PWM_COMPARE_MIN 10U
-#define VENT_FAN_PWM_COMPARE_MAX 3572U
+#define VENT_FAN_PWM_COMPARE_MAX 3596U
+/* The compare the init sequence loads while the outputs are disabled
+ * (0: the switch stays off). */
+#define VENT_FAN_PWM_INIT_COMPARE 0U
+/* 1: compare 0 with the outputs enabled turns the low side(s) on and shorts
+ * the motor (braking); 0: it does not. Coasting is outputs disabled. */
+#define VENT_FAN_PWM_DUTY_ZERO_BRAKES 0
 
 /*
  * Init sequence (register names differ per MCU; values are above):
- *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
+ *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+ *   2. Divider register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register <- VENT_FAN_PWM_PERIOD_REG (3606 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
- *   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
- *   6. Enable preload of period and compare registers so updates take effect at the period boundary.
- *   7. Start the counter, then enable the outputs.
+ *   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
+ *   6. Compare register(s) <- VENT_FAN_PWM_INIT_COMPARE (outputs still disabled), then values from vent_fan_pwm_compare_from_q16() only.
+ *   7. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   8. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 keeps the switch off).
  */
 
 /*
@@ -136,7 +153,9 @@ static inline uint32_t vent_fan_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. 32-bit
+ * arithmetic: permille < 1000 here, so permille * 65536 + 500 < 2^32 (no
+ * 64-bit division on a 32-bit target). */
 static inline uint32_t vent_fan_pwm_compare_from_permille(uint32_t permille)
 {
     if (permille == 0U) {
@@ -145,7 +164,7 @@ static inline uint32_t vent_fan_pwm_compare_from_permille(uint32_t permille)
     if (permille >= 1000U) {
         return vent_fan_pwm_compare_from_q16(65536U);
     }
-    return vent_fan_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+    return vent_fan_pwm_compare_from_q16((uint32_t)((permille * 65536U + 500U) / 1000U));
 }
 
 #endif /* VENT_FAN_PWM_H */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:cc449b8b474790d2cf27735ad3e2a932090543c34066c04520112d50237bce87)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9d3653ec67b90bd760d57af57d3336ab3743044b74f3b89783866e1f103d8a58)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -6,49 +6,51 @@
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
 //!   objective      least-loss at typical values
-//!   frequency      13.400 kHz, edge-aligned
-//!   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
-//!   resolution     3582 duty steps (11.8 bits)
-//!   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
-//!   feasible band  8.1370 kHz to 25.000 kHz
+//!   frequency      13.311 kHz, edge-aligned
+//!   timer          clock 48.00 MHz; divider 1 (register 0); period 3606 ticks (register 3605)
+//!   resolution     3606 duty steps (11.8 bits)
+//!   duty limits    compare 10 to 3596 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+//!   feasible band  8.0985 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         110 °C     48.3 °C     61.7 K  ok
 //!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
-//!   ripple                 600 mA      365 mA     235 mA  ok
+//!   ripple                 600 mA      366 mA     234 mA  ok
 //!   audible               0 lines     0 lines    0 lines  ok
-//!   resolution          8.00 bits  11.81 bits  3.81 bits  ok
-//!   duty-range            99.72 %     98.94 %     0.78 %  ok
-//!   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+//!   resolution          8.00 bits  11.82 bits  3.82 bits  ok
+//!   duty-range            99.72 %     99.07 %     0.65 %  ok
+//!   frequency-band     25.000 kHz  13.311 kHz   11.7 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
-//!   switching            10.2 mW
-//!   output capacitance   366 µW
-//!   reverse recovery     322 µW
+//!   switching            10.1 mW
+//!   output capacitance   364 µW
+//!   reverse recovery     319 µW
 //!   dead-time diode      0.00 W
-//!   gate drive           3.22 mW
+//!   gate drive           3.19 mW
 //!   freewheel diode      73.3 mW
-//!   motor ripple copper  6.96 mW
+//!   motor ripple copper  6.92 mW
 //!   total                105 mW
 //!
 //! Operating figures
-//!   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
-//!   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
-//!   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
-//!   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+//!   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
+//!   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
+//!   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
+//!   ripple, rated case      209 mA peak to peak at 13.311 kHz (continuous), 60.3 mA rms
+//!   ripple, high-bus case   366 mA peak to peak at 13.311 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
 //!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
 //!   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
-//!   duty-range  98.94 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+//!   duty-range  99.11 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
-//!   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
+//!   rounder-frequency  10.000 kHz (divider 1, 4800 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
+//!   highest-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -73,33 +75,40 @@
 //!   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
 //!   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
 //!
+//! PWM mode and polarity these constants assume: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
+//!
+//! What duty 0 means on this low-side stage, and how to coast:
+//!   Duty 0 (compare 0) means the switch is off: the motor coasts, its current decaying through the freewheel diode.
+//!   To coast: compare 0, or disable the output.
+//!
 //! Init sequence (register names differ per MCU; values are the constants below):
-//!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
-//!   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
-//!   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
-//!   6. Enable preload of period and compare registers so updates take effect at the period boundary.
-//!   7. Start the counter, then enable the outputs.
+//!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+//!   2. Divider register <- DIVIDER_REG (divider 1).
+//!   3. Period register <- PERIOD_REG (3606 ticks per period).
+//!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
+//!   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
+//!   6. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
+//!   7. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   8. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 keeps the switch off).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 48000000;
-/// Prescaler ratio.
+/// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3582;
-/// Value of the period (auto-reload) register.
-pub const PERIOD_REG: u32 = 3581;
+pub const PERIOD_TICKS: u32 = 3606;
+/// Value of the period register.
+pub const PERIOD_REG: u32 = 3605;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (13.400 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 13400335;
+/// PWM frequency in millihertz (13.311 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13311148;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3582;
+pub const DUTY_STEPS: u32 = 3606;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
 /// Dead-time ticks the code gives.
@@ -107,7 +116,13 @@ pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 10;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3572;
+pub const COMPARE_MAX: u32 = 3596;
+/// The compare the init sequence loads while the outputs are disabled
+/// (0: the switch stays off).
+pub const INIT_COMPARE: u32 = 0;
+/// True when compare 0 with the outputs enabled turns the low side(s) on and
+/// shorts the motor (braking). Coasting is outputs disabled.
+pub const DUTY_ZERO_BRAKES: bool = false;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
@@ -155,7 +170,8 @@ impl Duty {
         if permille >= 1000 {
             return Duty::MAX;
         }
-        Duty::from_q16(((permille as u64 * 65536 + 500) / 1000) as u32)
+        // permille < 1000 here, so the product fits 32 bits.
+        Duty::from_q16((permille * 65536 + 500) / 1000)
     }
 
     /// The compare value.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:182849a43db40f91987e562e0a4083cfc5818bb081d1cb90f468111e5de22914)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:aad7b3a1f0a22963203bfd7bc05f1e912830bbd0e652b792694e459b4a939ae3)
  *
  * Chosen setting
  *   design         winch
@@ -7,55 +7,57 @@
  *   switch         Corrie 100 V, 9.8 mΩ (invented)
  *   topology       h-bridge-unipolar
  *   objective      least-loss at typical values
- *   frequency      10.311 kHz, edge-aligned
- *   timer          clock 120.0 MHz; divider 1 (register 0); period 11638 ticks (register 11637)
- *   resolution     11638 duty steps (13.5 bits)
+ *   frequency      10.183 kHz, centre-aligned
+ *   timer          clock 120.0 MHz; divider 1 (register 0); period 11784 ticks (register 5892)
+ *   resolution     5892 duty steps (12.5 bits)
  *   dead time      125 ns = 15 ticks (code 0x0F); needed 123 ns
- *   duty limits    compare 48 to 11542 (0.4 % to 99.2 %); the load needs 4.5 % to 95.5 %
- *   feasible band  10.311 kHz to 40.000 kHz
+ *   duty limits    compare 32 to 5836 (0.5 % to 99.0 %); the load needs 3.9 % to 96.1 %
+ *   feasible band  10.183 kHz to 37.879 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         145 °C     62.4 °C     82.6 K  ok
  *   junction-high-bus      145 °C     62.0 °C     83.0 K  ok
- *   ripple                 1.80 A      1.80 A     135 µA  binds
- *   audible            18.000 kHz  20.622 kHz   2.62 kHz  ok
- *   resolution         10.00 bits  13.51 bits  3.51 bits  ok
+ *   ripple                 1.80 A      1.80 A     151 µA  binds
+ *   audible            18.000 kHz  20.367 kHz   2.37 kHz  ok
+ *   resolution         10.00 bits  12.52 bits  2.52 bits  ok
  *   dead-time              125 ns      123 ns    1.98 ns  ok
- *   duty-range            99.18 %     95.45 %     3.73 %  ok
- *   frequency-band     40.000 kHz  10.311 kHz     311 Hz  ok
+ *   duty-range            99.05 %     96.11 %     2.94 %  ok
+ *   frequency-band     10.000 kHz  10.183 kHz     183 Hz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           3.44 W
- *   switching            232 mW
- *   output capacitance   27.2 mW
- *   reverse recovery     118 mW
- *   dead-time diode      55.7 mW
- *   gate drive           28.3 mW
- *   motor ripple copper  26.8 mW
+ *   switching            229 mW
+ *   output capacitance   26.9 mW
+ *   reverse recovery     116 mW
+ *   dead-time diode      55.0 mW
+ *   gate drive           28.0 mW
+ *   motor ripple copper  26.1 mW
  *   total                3.92 W
  *
  * Operating figures
- *   rated case  48.0 V supply, 50.0 °C ambient, 12.0 A load
- *   junction    62.4 °C (limit 145 °C); 62.0 °C at the highest supply
- *   ripple      1.80 A peak to peak at 20.622 kHz (continuous), 386 mA rms
- *   audibility  no significant line at or below 18.00 kHz; A-weighted in-band level none
+ *   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   high-bus case           54.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   junction                62.4 °C at the rated case, 62.0 °C at the high-bus case (limit 145 °C)
+ *   ripple, rated case      1.32 A peak to peak at 20.367 kHz (continuous), 381 mA rms
+ *   ripple, high-bus case   1.80 A peak to peak at 20.367 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
- *   junction    67.5 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
- *   total-loss  5.26 W; ok; hot: V_th min, supply 54.0 V
- *   ripple      1.80 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
- *   duty-range  95.45 % (limit 99.18 %); ok; hot: V_th min, supply 40.0 V
+ *   junction    67.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
+ *   total-loss  5.25 W; ok; hot: V_th min, supply 54.0 V
+ *   ripple      1.79 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
+ *   duty-range  96.25 % (limit 99.05 %); ok; hot: V_th min, supply 40.0 V
  *   dead-time   needs 123 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 3000 ticks, edge): +1364 mW total loss, +4.0 K junction, -1336 mA ripple, -1.96 bits resolution
- *   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
+ *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +439 mW total loss, +1.3 K junction, -883 mA ripple, -0.97 bits resolution
+ *   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1272 mW total loss, +3.7 K junction, -1316 mA ripple, -1.90 bits resolution
  *
  * Findings
  *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300.0 A: above the I_D rating 60.0 A, and 1764.0 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used (R_th(j-a) 7.30 K/W), 50 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
- *   info     the dead time costs 124 mV of mean output voltage (0.26 % of the nominal supply), opposing the current
+ *   info     the dead time costs 122 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -74,7 +76,7 @@
  *
  * Inputs
  *   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
- *   heron-hb48.yaml           sha256 367681d8e3d1eed9498d2faf9132a69fde983edac637c05e716acf22c0e13669
+ *   heron-hb48.yaml           sha256 ce518ea7920ed93ec2f984833776be60a7dde6659acb848337b34d6df0528510
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef WINCH_PWM_H
@@ -82,37 +84,52 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/*
+ * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *
+ * What duty 0 means on this h-bridge-unipolar stage, and how to coast:
+ *   Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.
+ *   To coast: disable the outputs (all four switches off); duty 0 is not coasting.
+ */
+
+/* Timer input clock, before the divider. */
 #define WINCH_PWM_CLOCK_HZ 120000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider (prescaler) ratio and the value the divider register takes. */
 #define WINCH_PWM_DIVIDER 1U
 #define WINCH_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
-#define WINCH_PWM_PERIOD_TICKS 11638U
-#define WINCH_PWM_PERIOD_REG 11637U
+/* Counter ticks per PWM period and the period register value. */
+#define WINCH_PWM_PERIOD_TICKS 11784U
+#define WINCH_PWM_PERIOD_REG 5892U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
-#define WINCH_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (10.311 kHz). */
-#define WINCH_PWM_FREQUENCY_MILLIHZ 10311050ULL
+#define WINCH_PWM_CENTRE_ALIGNED 1
+/* PWM frequency in millihertz (10.183 kHz). */
+#define WINCH_PWM_FREQUENCY_MILLIHZ 10183299ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define WINCH_PWM_DUTY_STEPS 11638U
+#define WINCH_PWM_DUTY_STEPS 5892U
 /* Dead-time register code and the ticks it gives (125.0 ns). */
 #define WINCH_PWM_DEAD_TIME_CODE 0x0FU
 #define WINCH_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define WINCH_PWM_COMPARE_MIN 48U
-#define WINCH_PWM_COMPARE_MAX 11542U
+#define WINCH_PWM_COMPARE_MIN 32U
+#define WINCH_PWM_COMPARE_MAX 5836U
+/* The compare the init sequence loads while the outputs are disabled
+ * (0: the low sides on, braking a turning motor, once enabled). */
+#define WINCH_PWM_INIT_COMPARE 0U
+/* 1: compare 0 with the outputs enabled turns the low side(s) on and shorts
+ * the motor (braking); 0: it does not. Coasting is outputs disabled. */
+#define WINCH_PWM_DUTY_ZERO_BRAKES 1
 
 /*
  * Init sequence (register names differ per MCU; values are above):
- *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
- *   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
- *   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
- *   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
- *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
- *   8. Start the counter, then enable the outputs.
+ *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
+ *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register <- WINCH_PWM_PERIOD_REG (11784 ticks per period).
+ *   4. Counting mode <- up-down (centre-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
+ *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *   6. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
+ *   7. Compare register(s) <- WINCH_PWM_INIT_COMPARE (outputs still disabled), then values from winch_pwm_compare_from_q16() only.
+ *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
  */
 
 /*
@@ -140,7 +157,9 @@ static inline uint32_t winch_pwm_compare_from_q16(uint32_t duty_q16)
     return (uint32_t)c;
 }
 
-/* The same for a duty in permille (1000 = 100 %); 0 is off. */
+/* The same for a duty in permille (1000 = 100 %); 0 is off. 32-bit
+ * arithmetic: permille < 1000 here, so permille * 65536 + 500 < 2^32 (no
+ * 64-bit division on a 32-bit target). */
 static inline uint32_t winch_pwm_compare_from_permille(uint32_t permille)
 {
     if (permille == 0U) {
@@ -149,19 +168,23 @@ static inline uint32_t winch_pwm_compare_from_permille(uint32_t permille)
     if (permille >= 1000U) {
         return winch_pwm_compare_from_q16(65536U);
     }
-    return winch_pwm_compare_from_q16((uint32_t)(((uint64_t)permille * 65536U + 500U) / 1000U));
+    return winch_pwm_compare_from_q16((uint32_t)((permille * 65536U + 500U) / 1000U));
 }
 
-/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU). */
+/* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU): 0 (or
+ * less, or NaN) is off; any other request gives at least COMPARE_MIN, also
+ * one below half a 16-bit step that rounds to 0. */
 static inline uint32_t winch_pwm_compare_from_fraction(float duty)
 {
+    uint32_t q;
     if (!(duty > 0.0f)) {
         return 0U;
     }
     if (duty >= 1.0f) {
         return winch_pwm_compare_from_q16(65536U);
     }
-    return winch_pwm_compare_from_q16((uint32_t)(duty * 65536.0f + 0.5f));
+    q = (uint32_t)(duty * 65536.0f + 0.5f);
+    return winch_pwm_compare_from_q16(q == 0U ? 1U : q);
 }
 
 #endif /* WINCH_PWM_H */
