@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6053ed9f772db4c66fcb304f9090c16120db6282e5016644cbef6376f5a02366)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:5cfc9778e46f3324e2d7fd217c3762a326de4176946b02cff8f4182a80b6233d)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -54,7 +54,7 @@
  *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
- *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
  *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
  *
  * Assumptions

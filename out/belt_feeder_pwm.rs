@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:17a476303403fa2b468655b58e60834426c8fec86ab545fa9b14c7d4d64c1a6c)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:a0715b15c3c0867be7589302c206344594bd7087622b7943463c0bc53b7c8865)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -53,7 +53,7 @@
 //!   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings
-//!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
 //!
 //! Assumptions

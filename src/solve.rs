@@ -135,9 +135,9 @@ impl std::fmt::Display for Detail {
                 t_ambient_c,
             } => write!(
                 f,
-                "hottest junction at {} and {:.0} °C ambient",
+                "hottest junction at {} and {} ambient",
                 fmt_v(*v_bus_v),
-                t_ambient_c
+                fmt_c(*t_ambient_c)
             ),
             Detail::Ripple { v_bus_v } => {
                 write!(
@@ -403,7 +403,9 @@ impl Evaluator {
     }
 
     /// Highest duty the bootstrap refresh leaves: D_max = 1 − t_refresh·f
-    /// (physics brief §7; TI SLUA887, 2018, from memory).
+    /// (*Bootstrap Circuitry Selection for Half-Bridge Configurations*,
+    /// application report, 2018; from memory; see
+    /// [`crate::physics::bootstrap::max_duty_from_refresh`]).
     fn bootstrap_max_duty(&self, f_hz: f64) -> Option<f64> {
         self.stage
             .bootstrap_refresh_s
@@ -695,6 +697,14 @@ fn fmt_t(t: f64) -> String {
 
 fn fmt_v(v: f64) -> String {
     crate::units::format_quantity(v, crate::units::Dimension::Voltage, 3)
+}
+
+fn fmt_c(t_c: f64) -> String {
+    crate::units::format_quantity(t_c, crate::units::Dimension::Temperature, 3)
+}
+
+fn fmt_a(i_a: f64) -> String {
+    crate::units::format_quantity(i_a, crate::units::Dimension::Current, 3)
 }
 
 /// A check that `value` stays at or below `limit`.
@@ -1241,8 +1251,9 @@ fn finish(
             feasible_band_hz: None,
             alternatives: Vec::new(),
             conflict: vec![format!(
-                "no realisable timer setting between {:.0} Hz and {:.0} Hz could be evaluated; widen the frequency band or check the timer clock",
-                ev.limits.f_min_hz, ev.limits.f_max_hz
+                "no realisable timer setting between {} and {} could be evaluated; widen the frequency band or check the timer clock",
+                fmt_f(ev.limits.f_min_hz),
+                fmt_f(ev.limits.f_max_hz)
             )],
             evaluated: count,
             realisable,
@@ -1508,10 +1519,10 @@ fn explain_conflict(
     for k in &failing {
         let advice = match k.name {
             "junction-rated" | "junction-high-bus" => match k.value {
-                Some(v) => format!("raise the junction limit from {:.0} °C to {:.0} °C, or fit a switch with lower R_ds(on) and Q_gd, or a better heat path", k.limit, v.ceil()),
+                Some(v) => format!("raise the junction limit from {} to {}, or fit a switch with lower R_ds(on) and Q_gd, or a better heat path", fmt_c(k.limit), fmt_c(v.ceil())),
                 None => "the stage runs away thermally: fit a switch with lower R_ds(on), a better heat path, or reduce the load".into(),
             },
-            "ripple" => format!("allow {:.2} A ripple instead of {:.2} A, or add inductance in series with the motor", k.value.unwrap_or(0.0), k.limit),
+            "ripple" => format!("allow {} ripple instead of {}, or add inductance in series with the motor", fmt_a(k.value.unwrap_or(0.0)), fmt_a(k.limit)),
             "audible" => "allow audible PWM (audible: allowed) or lower the hearing limit, or raise the frequency band".into(),
             "resolution" => format!("accept {:.1} bits instead of {:.1}, or clock the timer faster", k.value.unwrap_or(0.0), k.limit),
             "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:186687aed239b8c1db6058add7995908c1c54b1acc035f30bd685b4c31e037f1)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d454222a9156fb6ae601e14684c7bb4cada746e5b6d2b0e70f39092af327c776)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -54,7 +54,7 @@
  *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
- *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
  *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
  *
  * Assumptions

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6bf5cf6bbf89479b8305073f36b85985212d84276cb7361a89023cc7777fd965)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6ccbc4ccaabe31bce2d9f51a6bdad1ed32a7026bbe8bea4a433a3b9783b69f72)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -53,7 +53,7 @@
 //!   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings
-//!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
 //!
 //! Assumptions

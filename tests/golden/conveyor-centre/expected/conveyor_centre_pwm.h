@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:75f8cfa362fec4c4417b3af712694c78647a96bc673099b565ea9db7fc763ca4)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:3f2c65cb7fcad36f9e9357b01ffdb543c5bb8de3883a72b9911a3a5886a7770a)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -54,7 +54,7 @@
  *   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
  *
  * Findings
- *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
  *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
  *
  * Assumptions

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:44f32b67b94fa7efb47fe891e254de51624a61cb763faee3ec2615f80a1503d6)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:3a34a30cf781d90f04aa842b2f0ecd3ffcd9725efa7f35c9093354c6fc1f1252)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -53,7 +53,7 @@
 //!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
 //!
 //! Findings
-//!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
 //!
 //! Assumptions

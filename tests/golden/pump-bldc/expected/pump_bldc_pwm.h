@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:a289ba38166dffe591d9d23a9df1874cf14c6b7352249b63a627cb96dc18dfc8)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:46c25650057dbd06f74c2116ad9584185ec2390e5370389a576210d368cf75b6)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -56,8 +56,8 @@
  *   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
  *
  * Findings
- *   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
- *   error  At stall (225.0 A, 992.25 W at hot R_ds(on) 19.6 mOhm) the junction reaches 9273 C after steady stall, above T_j,max 175 C.
+ *   error  Stall current 225 A (V/R_winding) exceeds the I_D rating 60.0 A.
+ *   error  At stall (225 A, 992 W at hot R_ds(on) 19.6 mΩ) the junction reaches 9270 °C after steady stall, above T_j,max 175 °C.
  *   info   the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
  *
  * Assumptions

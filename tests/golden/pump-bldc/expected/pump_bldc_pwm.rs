@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:69aba2964c0e3b34f18f159e80b75eef33e71caca3d5ce5ce23b895a98fff52e)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:7690811df4df9b15f15c91760b029e27b388e74066d35596f705516097910632)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -55,8 +55,8 @@
 //!   mid-band           28.275 kHz (divider 1, 4244 ticks, centre): +388 mW total loss, +0.6 K junction, -234 mA ripple, -0.50 bits resolution
 //!
 //! Findings
-//!   error  Stall current 225.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
-//!   error  At stall (225.0 A, 992.25 W at hot R_ds(on) 19.6 mOhm) the junction reaches 9273 C after steady stall, above T_j,max 175 C.
+//!   error  Stall current 225 A (V/R_winding) exceeds the I_D rating 60.0 A.
+//!   error  At stall (225 A, 992 W at hot R_ds(on) 19.6 mΩ) the junction reaches 9270 °C after steady stall, above T_j,max 175 °C.
 //!   info   the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
 //!
 //! Assumptions

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c73836613919d5ac588f64762ba3a16178c542b8257d7429aab2a4ac221c6132)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c55cf569a2e3e308197ccadd6262361359263984d92bd9ce751b466f4e251855)
 //!
 //! Chosen setting
 //!   design         winch
@@ -53,8 +53,8 @@
 //!   mid-band           20.443 kHz (divider 1, 5870 ticks, edge): +452 mW total loss, +1.3 K junction, -892 mA ripple, -0.99 bits resolution
 //!
 //! Findings
-//!   error  Stall current 300.0 A (V/R_winding) exceeds the I_D rating 60.0 A.
-//!   error  At stall (300.0 A, 1764.00 W at hot R_ds(on) 19.6 mOhm) the junction reaches 12927 C after 0.50 s stall, above T_j,max 175 C.
+//!   error  Stall current 300 A (V/R_winding) exceeds the I_D rating 60.0 A.
+//!   error  At stall (300 A, 1.76 kW at hot R_ds(on) 19.6 mΩ) the junction reaches 12900 °C after 500 ms stall, above T_j,max 175 °C.
 //!   info   the dead time costs 124 mV of mean output voltage (0.26 % of the nominal supply), opposing the current
 //!
 //! Assumptions
