@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:a0715b15c3c0867be7589302c206344594bd7087622b7943463c0bc53b7c8865)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:0d6f9ad06ce150b6f455913d7c053d9fbc813aa75be180c6a2104239230437f2)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -6,29 +6,29 @@
 //!   switch         Tarn 40 V, 2.4 mΩ (invented)
 //!   topology       half-bridge
 //!   objective      least-loss at typical values
-//!   frequency      20.006 kHz, edge-aligned
-//!   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
-//!   resolution     3199 duty steps (11.6 bits)
-//!   dead time      156 ns = 10 ticks (code 0x0A); needed 150 ns
-//!   duty limits    compare 20 to 3167 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
-//!   feasible band  20.006 kHz to 59.981 kHz
+//!   frequency      20.005 kHz, edge-aligned
+//!   timer          clock 88.00 MHz; divider 1 (register 0); period 4399 ticks (register 4398)
+//!   resolution     4399 duty steps (12.1 bits)
+//!   dead time      159 ns = 14 ticks (code 0x0E); needed 150 ns
+//!   duty limits    compare 27 to 4355 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+//!   feasible band  20.005 kHz to 59.986 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         135 °C     57.0 °C     78.0 K  ok
 //!   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
-//!   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
-//!   resolution         10.00 bits  11.64 bits  1.64 bits  ok
-//!   dead-time              156 ns      150 ns    5.85 ns  ok
+//!   audible            20.000 kHz  20.005 kHz    4.55 Hz  binds
+//!   resolution         10.00 bits  12.10 bits  2.10 bits  ok
+//!   dead-time              159 ns      150 ns    8.69 ns  ok
 //!   duty-range            99.00 %     94.05 %     4.95 %  ok
-//!   frequency-band     60.000 kHz  20.006 kHz   4.01 kHz  ok
+//!   frequency-band     60.000 kHz  20.005 kHz   4.00 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
 //!   switching            20.2 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     25.2 mW
-//!   dead-time diode      18.6 mW
+//!   dead-time diode      18.9 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.96 mW
 //!   total                142 mW
@@ -36,7 +36,7 @@
 //! Operating figures
 //!   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   junction    57.0 °C (limit 135 °C); 57.1 °C at the highest supply
-//!   ripple      363 mA peak to peak at 20.006 kHz (continuous), 69.0 mA rms
+//!   ripple      363 mA peak to peak at 20.005 kHz (continuous), 69.1 mA rms
 //!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
@@ -44,17 +44,17 @@
 //!   total-loss  209 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.05 % (limit 99.00 %); ok; hot: V_th min, supply 20.0 V
-//!   dead-time   needs 150 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   dead-time   needs 150 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  20.480 kHz (divider 1, 3125 ticks, edge): +2 mW total loss, ±0 K junction, -8 mA ripple, -0.03 bits resolution
-//!   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
+//!   rounder-frequency  42.969 kHz (divider 1, 2048 ticks, edge): +120 mW total loss, +1.6 K junction, -194 mA ripple, -1.10 bits resolution
+//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +209 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
-//!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
+//!   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -73,45 +73,45 @@
 //!
 //! Inputs
 //!   bundled:belt-feeder       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
-//!   bundled:wren-hb24         sha256 1a237f7132eb02177cc7aad4eaa53f9e189c62da9d7a5fc0290fabb93cb2e5db
+//!   bundled:wren-hb24         sha256 38d1a65b1e934eebd35e6be6a01ac800ee2ae0753edd1982503afa734ca03aa9
 //!   bundled:switches/tarn-40  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
 //!
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
+//!   2. Divider register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
+//!   3. Period register (counter top) <- BELT_FEEDER_PWM_PERIOD_REG (4399 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
-//!   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before enabling complementary outputs.
+//!   5. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before enabling complementary outputs.
 //!   6. Compare register(s) <- 0, then values from belt_feeder_pwm_compare_from_q16() only.
-//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   7. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
 //!   8. Start the counter, then enable the outputs.
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
-pub const CLOCK_HZ: u64 = 64000000;
-/// Prescaler ratio.
+/// Timer input clock, before the divider, Hz.
+pub const CLOCK_HZ: u64 = 88000000;
+/// Divider ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3199;
-/// Value of the period (auto-reload) register.
-pub const PERIOD_REG: u32 = 3198;
+pub const PERIOD_TICKS: u32 = 4399;
+/// Value of the period register (counter top).
+pub const PERIOD_REG: u32 = 4398;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (20.006 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 20006252;
+/// PWM frequency in millihertz (20.005 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 20004546;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3199;
-/// Dead-time register code (156.2 ns).
-pub const DEAD_TIME_CODE: u32 = 0x0A;
+pub const DUTY_STEPS: u32 = 4399;
+/// Dead-time register code (159.1 ns).
+pub const DEAD_TIME_CODE: u32 = 0x0E;
 /// Dead-time ticks the code gives.
-pub const DEAD_TIME_TICKS: u32 = 10;
+pub const DEAD_TIME_TICKS: u32 = 14;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 20;
+pub const COMPARE_MIN: u32 = 27;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3167;
+pub const COMPARE_MAX: u32 = 4355;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.

@@ -685,11 +685,11 @@ fn init_steps(n: &Names, t: &TimerLiterals, dead: bool, three_phase: bool) -> Ve
     let mut s = vec![
         "Stop the timer and hold the bridge outputs in their safe (off) state.".to_string(),
         format!(
-            "Prescaler register <- {m}_DIVIDER_REG (divider {}).",
+            "Divider register <- {m}_DIVIDER_REG (divider {}).",
             t.divider
         ),
         format!(
-            "Period (auto-reload) register <- {m}_PERIOD_REG ({} ticks per period).",
+            "Period register (counter top) <- {m}_PERIOD_REG ({} ticks per period).",
             t.period_ticks
         ),
         format!(
@@ -713,7 +713,7 @@ fn init_steps(n: &Names, t: &TimerLiterals, dead: bool, three_phase: bool) -> Ve
             n.c_function
         ));
         s.push(format!(
-            "ADC trigger: a fourth compare <- {m}_ADC_TRIGGER_COMPARE, triggering on the down-count match only."
+            "ADC trigger: a spare compare channel <- {m}_ADC_TRIGGER_COMPARE, triggering on the down-count match only."
         ));
     } else {
         s.push(format!(
@@ -721,7 +721,7 @@ fn init_steps(n: &Names, t: &TimerLiterals, dead: bool, three_phase: bool) -> Ve
             n.c_function
         ));
     }
-    s.push("Enable preload of period and compare registers so updates take effect at the period boundary.".into());
+    s.push("Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.".into());
     s.push("Start the counter, then enable the outputs.".into());
     s.into_iter()
         .enumerate()

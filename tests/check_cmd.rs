@@ -158,8 +158,8 @@ fn hand_edited_output_is_named() {
     edit(
         dir.path(),
         &format!("out/{HEADER}"),
-        "COMPARE_MAX 3167U",
-        "COMPARE_MAX 3199U",
+        "COMPARE_MAX 4355U",
+        "COMPARE_MAX 4399U",
     );
     let before = out_files(dir.path());
     let o = check(dir.path());
@@ -170,11 +170,11 @@ fn hand_edited_output_is_named() {
         "names the edited file\n{text}"
     );
     assert!(
-        text.contains("-#define BELT_FEEDER_PWM_COMPARE_MAX 3199U"),
+        text.contains("-#define BELT_FEEDER_PWM_COMPARE_MAX 4399U"),
         "{text}"
     );
     assert!(
-        text.contains("+#define BELT_FEEDER_PWM_COMPARE_MAX 3167U"),
+        text.contains("+#define BELT_FEEDER_PWM_COMPARE_MAX 4355U"),
         "{text}"
     );
     assert_eq!(
@@ -226,8 +226,8 @@ fn plan_refuses_to_overwrite_a_hand_edit_unless_forced() {
     edit(
         dir.path(),
         &format!("out/{HEADER}"),
-        "COMPARE_MAX 3167U",
-        "COMPARE_MAX 3199U",
+        "COMPARE_MAX 4355U",
+        "COMPARE_MAX 4399U",
     );
     edit(
         dir.path(),

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:3a34a30cf781d90f04aa842b2f0ecd3ffcd9725efa7f35c9093354c6fc1f1252)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:cd0073ceb953bca16d59646d10f37db41912a47b98fe5285ad385b856b734ddd)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -6,37 +6,37 @@
 //!   switch         Tarn 40 V, 2.4 mΩ (invented)
 //!   topology       half-bridge
 //!   objective      least-loss at typical values
-//!   frequency      20.013 kHz, centre-aligned
-//!   timer          clock 64.00 MHz; divider 1 (register 0); period 3198 ticks (register 1599)
-//!   resolution     1599 duty steps (10.6 bits)
-//!   dead time      156 ns = 10 ticks (code 0x0A); needed 150 ns
-//!   duty limits    compare 10 to 1583 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
-//!   feasible band  20.013 kHz to 31.250 kHz
+//!   frequency      20.009 kHz, centre-aligned
+//!   timer          clock 88.00 MHz; divider 1 (register 0); period 4398 ticks (register 2199)
+//!   resolution     2199 duty steps (11.1 bits)
+//!   dead time      159 ns = 14 ticks (code 0x0E); needed 150 ns
+//!   duty limits    compare 14 to 2177 (0.6 % to 99.0 %); the load needs 67.2 % to 94.1 %
+//!   feasible band  20.009 kHz to 42.969 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         135 °C     57.0 °C     78.0 K  ok
 //!   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
-//!   audible            20.000 kHz  20.013 kHz    12.5 Hz  binds
-//!   resolution         10.00 bits  10.64 bits  0.64 bits  ok
-//!   dead-time              156 ns      150 ns    5.85 ns  ok
+//!   audible            20.000 kHz  20.009 kHz    9.10 Hz  binds
+//!   resolution         10.00 bits  11.10 bits  1.10 bits  ok
+//!   dead-time              159 ns      150 ns    8.69 ns  ok
 //!   duty-range            99.00 %     94.05 %     4.95 %  ok
-//!   frequency-band     60.000 kHz  20.013 kHz   4.01 kHz  ok
+//!   frequency-band     60.000 kHz  20.009 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
 //!   switching            20.2 mW
-//!   output capacitance   9.13 mW
+//!   output capacitance   9.12 mW
 //!   reverse recovery     25.2 mW
-//!   dead-time diode      18.6 mW
+//!   dead-time diode      18.9 mW
 //!   gate drive           32.5 mW
-//!   motor ripple copper  2.95 mW
+//!   motor ripple copper  2.96 mW
 //!   total                142 mW
 //!
 //! Operating figures
 //!   rated case  24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   junction    57.0 °C (limit 135 °C); 57.1 °C at the highest supply
-//!   ripple      363 mA peak to peak at 20.013 kHz (continuous), 69.0 mA rms
+//!   ripple      363 mA peak to peak at 20.009 kHz (continuous), 69.0 mA rms
 //!   audibility  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
@@ -44,17 +44,17 @@
 //!   total-loss  209 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.05 % (limit 99.00 %); ok; hot: V_th min, supply 20.0 V
-//!   dead-time   needs 150 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   dead-time   needs 150 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.32 bits resolution
-//!   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -131 mA ripple, -0.64 bits resolution
+//!   rounder-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +119 mW total loss, +1.6 K junction, -194 mA ripple, -1.10 bits resolution
+//!   mid-band           29.255 kHz (divider 1, 3008 ticks, centre): +47 mW total loss, +0.6 K junction, -115 mA ripple, -0.55 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
-//!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
+//!   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -73,45 +73,45 @@
 //!
 //! Inputs
 //!   conveyor-centre.yaml   sha256 a3570c61c199a289d93fb96502a4b8d4dd03685b8a8dd455f5c4a53cf0e79222
-//!   wren-hb24.yaml         sha256 32a1c1b866e4c85707be1d9a3a2674e898e2eceb947b28a87e8875609a518c51
+//!   wren-hb24.yaml         sha256 15f203d6d468c9f181ee09a55f6c5a5b17a259432b040956b9080e54de6176f6
 //!   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
 //!
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- CONVEYOR_CENTRE_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- CONVEYOR_CENTRE_PWM_PERIOD_REG (3198 ticks per period).
+//!   2. Divider register <- CONVEYOR_CENTRE_PWM_DIVIDER_REG (divider 1).
+//!   3. Period register (counter top) <- CONVEYOR_CENTRE_PWM_PERIOD_REG (4398 ticks per period).
 //!   4. Counting mode <- up-down (centre-aligned) (see CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED).
-//!   5. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before enabling complementary outputs.
+//!   5. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before enabling complementary outputs.
 //!   6. Compare register(s) <- 0, then values from conveyor_centre_pwm_compare_from_q16() only.
-//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   7. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
 //!   8. Start the counter, then enable the outputs.
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
-pub const CLOCK_HZ: u64 = 64000000;
-/// Prescaler ratio.
+/// Timer input clock, before the divider, Hz.
+pub const CLOCK_HZ: u64 = 88000000;
+/// Divider ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3198;
-/// Value of the period (auto-reload) register.
-pub const PERIOD_REG: u32 = 1599;
+pub const PERIOD_TICKS: u32 = 4398;
+/// Value of the period register (counter top).
+pub const PERIOD_REG: u32 = 2199;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
-/// PWM frequency in millihertz (20.013 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 20012508;
+/// PWM frequency in millihertz (20.009 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 20009095;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 1599;
-/// Dead-time register code (156.2 ns).
-pub const DEAD_TIME_CODE: u32 = 0x0A;
+pub const DUTY_STEPS: u32 = 2199;
+/// Dead-time register code (159.1 ns).
+pub const DEAD_TIME_CODE: u32 = 0x0E;
 /// Dead-time ticks the code gives.
-pub const DEAD_TIME_TICKS: u32 = 10;
+pub const DEAD_TIME_TICKS: u32 = 14;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 10;
+pub const COMPARE_MIN: u32 = 14;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 1583;
+pub const COMPARE_MAX: u32 = 2177;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:46c25650057dbd06f74c2116ad9584185ec2390e5370389a576210d368cf75b6)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:8e7ee779037292f7c8152d2c8c9130d4f2cfc6c7c02e0d4c2d9c1534580d7488)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -78,7 +78,7 @@
  *
  * Inputs
  *   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
- *   osprey-3p48.yaml          sha256 8fdf4ba77702dbe74aca8d6613230d1c8849920f3c80f2e03b97fd7a538d52a9
+ *   osprey-3p48.yaml          sha256 14f647e1699a5105fad7e0739a7973b32a25921717ffbecea3042e0d8178edd5
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef PUMP_BLDC_PWM_H
@@ -86,12 +86,12 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/* Timer input clock, before the divider. */
 #define PUMP_BLDC_PWM_CLOCK_HZ 120000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider ratio and the value the divider register takes. */
 #define PUMP_BLDC_PWM_DIVIDER 1U
 #define PUMP_BLDC_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
+/* Counter ticks per PWM period and the period register value (counter top). */
 #define PUMP_BLDC_PWM_PERIOD_TICKS 5998U
 #define PUMP_BLDC_PWM_PERIOD_REG 2999U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -109,7 +109,7 @@
 /* Three-phase bridge: channels A, B and C share the period, the compare
  * limits and the dead time above; the same compare functions serve all three. */
 #define PUMP_BLDC_PWM_CHANNELS 3U
-/* ADC trigger: the compare value matched on the DOWN-count, 400.0 ns
+/* ADC trigger (a spare compare channel): the value matched on the DOWN-count, 400.0 ns
  * before the counter bottom, so the sample is centred on the bottom (the
  * middle of the low-side on-time, where the low-side shunts carry the phase
  * currents). */
@@ -121,13 +121,13 @@
 /*
  * Init sequence (register names differ per MCU; values are above):
  *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
+ *   2. Divider register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register (counter top) <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
  *   5. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
  *   6. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from pump_bldc_pwm_compare_from_q16() only (one call per channel).
- *   7. ADC trigger: a fourth compare <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
- *   8. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   7. ADC trigger: a spare compare channel <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
+ *   8. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
  *   9. Start the counter, then enable the outputs.
  */
 

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:7690811df4df9b15f15c91760b029e27b388e74066d35596f705516097910632)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:c1d940308ee851ef2a45f3aa89c256d862b13908f870b47380f420e841d69968)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -77,31 +77,31 @@
 //!
 //! Inputs
 //!   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
-//!   osprey-3p48.yaml          sha256 8fdf4ba77702dbe74aca8d6613230d1c8849920f3c80f2e03b97fd7a538d52a9
+//!   osprey-3p48.yaml          sha256 14f647e1699a5105fad7e0739a7973b32a25921717ffbecea3042e0d8178edd5
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
+//!   2. Divider register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
+//!   3. Period register (counter top) <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
 //!   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
 //!   5. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
 //!   6. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- 0, then values from pump_bldc_pwm_compare_from_q16() only (one call per channel).
-//!   7. ADC trigger: a fourth compare <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
-//!   8. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   7. ADC trigger: a spare compare channel <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the down-count match only.
+//!   8. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
 //!   9. Start the counter, then enable the outputs.
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 120000000;
-/// Prescaler ratio.
+/// Divider ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 5998;
-/// Value of the period (auto-reload) register.
+/// Value of the period register (counter top).
 pub const PERIOD_REG: u32 = 2999;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
@@ -120,7 +120,7 @@ pub const COMPARE_MAX: u32 = 2951;
 /// Three-phase bridge: channels A, B and C share the period, the compare
 /// limits and the dead time; the same [`Duty`] conversion serves all three.
 pub const CHANNELS: usize = 3;
-/// ADC trigger: the compare value matched on the DOWN-count, 400.0 ns before
+/// ADC trigger (a spare compare channel): the value matched on the DOWN-count, 400.0 ns before
 /// the counter bottom, so the sample is centred on the bottom (the middle of
 /// the low-side on-time, where the low-side shunts carry the phase currents).
 pub const ADC_TRIGGER_COMPARE: u32 = 48;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:f3b4c38793e8a4eda65be4a03683011fdce45e0cbc9fb2d6ed78b525562d9890)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:a158f6af96cf1ea4760223236ce74ce57ecf671c4828b0bbf5417b5114f0e1ea)
  *
  * Chosen setting
  *   design         vent-fan
@@ -7,20 +7,20 @@
  *   switch         Scree 60 V, 7.5 mΩ (invented)
  *   topology       low-side
  *   objective      least-loss at typical values
- *   frequency      13.400 kHz, edge-aligned
- *   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
- *   resolution     3582 duty steps (11.8 bits)
- *   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
- *   feasible band  8.1370 kHz to 25.000 kHz
+ *   frequency      13.398 kHz, edge-aligned
+ *   timer          clock 44.00 MHz; divider 1 (register 0); period 3284 ticks (register 3283)
+ *   resolution     3284 duty steps (11.7 bits)
+ *   duty limits    compare 9 to 3275 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
+ *   feasible band  8.1361 kHz to 25.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         110 °C     48.3 °C     61.7 K  ok
  *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
  *   ripple                 600 mA      365 mA     235 mA  ok
  *   audible               0 lines     0 lines    0 lines  ok
- *   resolution          8.00 bits  11.81 bits  3.81 bits  ok
- *   duty-range            99.72 %     98.94 %     0.78 %  ok
- *   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+ *   resolution          8.00 bits  11.68 bits  3.68 bits  ok
+ *   duty-range            99.73 %     98.94 %     0.78 %  ok
+ *   frequency-band     25.000 kHz  13.398 kHz   11.6 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           10.9 mW
@@ -36,20 +36,20 @@
  * Operating figures
  *   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
  *   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
- *   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
+ *   ripple      365 mA peak to peak at 13.398 kHz (continuous), 60.5 mA rms
  *   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
  *
  * Worst case over part and operating spreads
  *   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
  *   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
  *   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
- *   duty-range  98.94 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+ *   duty-range  98.94 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
- *   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
+ *   rounder-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
+ *   lowest-frequency   8.1361 kHz (divider 1, 5408 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
  *
  * Findings
  *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -71,7 +71,7 @@
  *
  * Inputs
  *   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
- *   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+ *   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
  *   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
  */
 #ifndef VENT_FAN_PWM_H
@@ -79,35 +79,35 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
-#define VENT_FAN_PWM_CLOCK_HZ 48000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Timer input clock, before the divider. */
+#define VENT_FAN_PWM_CLOCK_HZ 44000000UL
+/* Divider ratio and the value the divider register takes. */
 #define VENT_FAN_PWM_DIVIDER 1U
 #define VENT_FAN_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
-#define VENT_FAN_PWM_PERIOD_TICKS 3582U
-#define VENT_FAN_PWM_PERIOD_REG 3581U
+/* Counter ticks per PWM period and the period register value (counter top). */
+#define VENT_FAN_PWM_PERIOD_TICKS 3284U
+#define VENT_FAN_PWM_PERIOD_REG 3283U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define VENT_FAN_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (13.400 kHz). */
-#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13400335ULL
+/* PWM frequency in millihertz (13.398 kHz). */
+#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13398295ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define VENT_FAN_PWM_DUTY_STEPS 3582U
+#define VENT_FAN_PWM_DUTY_STEPS 3284U
 /* Dead-time register code and the ticks it gives (0.0 ns). */
 #define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
 #define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define VENT_FAN_PWM_COMPARE_MIN 10U
-#define VENT_FAN_PWM_COMPARE_MAX 3572U
+#define VENT_FAN_PWM_COMPARE_MIN 9U
+#define VENT_FAN_PWM_COMPARE_MAX 3275U
 
 /*
  * Init sequence (register names differ per MCU; values are above):
  *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
+ *   2. Divider register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register (counter top) <- VENT_FAN_PWM_PERIOD_REG (3284 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
  *   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
- *   6. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   6. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
  *   7. Start the counter, then enable the outputs.
  */
 

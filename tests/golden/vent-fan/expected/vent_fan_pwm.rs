@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:cc449b8b474790d2cf27735ad3e2a932090543c34066c04520112d50237bce87)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:c016bd5ca2ca97c08c3b6a0441b6f9b9dc581911d039524a06b7465d9282363b)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -6,20 +6,20 @@
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
 //!   objective      least-loss at typical values
-//!   frequency      13.400 kHz, edge-aligned
-//!   timer          clock 48.00 MHz; divider 1 (register 0); period 3582 ticks (register 3581)
-//!   resolution     3582 duty steps (11.8 bits)
-//!   duty limits    compare 10 to 3572 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
-//!   feasible band  8.1370 kHz to 25.000 kHz
+//!   frequency      13.398 kHz, edge-aligned
+//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3284 ticks (register 3283)
+//!   resolution     3284 duty steps (11.7 bits)
+//!   duty limits    compare 9 to 3275 (0.3 % to 99.7 %); the load needs 81.7 % to 98.9 %
+//!   feasible band  8.1361 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         110 °C     48.3 °C     61.7 K  ok
 //!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
 //!   ripple                 600 mA      365 mA     235 mA  ok
 //!   audible               0 lines     0 lines    0 lines  ok
-//!   resolution          8.00 bits  11.81 bits  3.81 bits  ok
-//!   duty-range            99.72 %     98.94 %     0.78 %  ok
-//!   frequency-band     25.000 kHz  13.400 kHz   11.6 kHz  ok
+//!   resolution          8.00 bits  11.68 bits  3.68 bits  ok
+//!   duty-range            99.73 %     98.94 %     0.78 %  ok
+//!   frequency-band     25.000 kHz  13.398 kHz   11.6 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
@@ -35,20 +35,20 @@
 //! Operating figures
 //!   rated case  12.0 V supply, 45.0 °C ambient, 1.20 A load
 //!   junction    48.3 °C (limit 110 °C); 50.7 °C at the highest supply
-//!   ripple      365 mA peak to peak at 13.400 kHz (continuous), 60.5 mA rms
+//!   ripple      365 mA peak to peak at 13.398 kHz (continuous), 60.5 mA rms
 //!   audibility  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
 //!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
 //!   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
-//!   duty-range  98.94 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+//!   duty-range  98.94 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
-//!   lowest-frequency   8.1370 kHz (divider 1, 5899 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
+//!   rounder-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -169 mA ripple, -0.90 bits resolution
+//!   lowest-frequency   8.1361 kHz (divider 1, 5408 ticks, edge): +6 mW total loss, ±0 K junction, +235 mA ripple, +0.72 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -70,44 +70,44 @@
 //!
 //! Inputs
 //!   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
-//!   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+//!   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
 //!   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
 //!
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- VENT_FAN_PWM_PERIOD_REG (3582 ticks per period).
+//!   2. Divider register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
+//!   3. Period register (counter top) <- VENT_FAN_PWM_PERIOD_REG (3284 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
 //!   5. Compare register(s) <- 0, then values from vent_fan_pwm_compare_from_q16() only.
-//!   6. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   6. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
 //!   7. Start the counter, then enable the outputs.
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
-pub const CLOCK_HZ: u64 = 48000000;
-/// Prescaler ratio.
+/// Timer input clock, before the divider, Hz.
+pub const CLOCK_HZ: u64 = 44000000;
+/// Divider ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3582;
-/// Value of the period (auto-reload) register.
-pub const PERIOD_REG: u32 = 3581;
+pub const PERIOD_TICKS: u32 = 3284;
+/// Value of the period register (counter top).
+pub const PERIOD_REG: u32 = 3283;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (13.400 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 13400335;
+/// PWM frequency in millihertz (13.398 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13398295;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3582;
+pub const DUTY_STEPS: u32 = 3284;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
 /// Dead-time ticks the code gives.
 pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 10;
+pub const COMPARE_MIN: u32 = 9;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3572;
+pub const COMPARE_MAX: u32 = 3275;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.

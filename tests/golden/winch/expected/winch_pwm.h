@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:74c62ef0389b2dbf363165033061fbd8302f2961346469fbebebf5e621a64211)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:0facd3e64514a73ada5dc61895eaef1f5383c11f9566e6bd5f39aa03b75a1a1e)
  *
  * Chosen setting
  *   design         winch
@@ -75,7 +75,7 @@
  *
  * Inputs
  *   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
- *   heron-hb48.yaml           sha256 367681d8e3d1eed9498d2faf9132a69fde983edac637c05e716acf22c0e13669
+ *   heron-hb48.yaml           sha256 87f09d0aaf1fc46f7f982774f76fd78ee38dd8256493bbc4d9c8476ff8e95e96
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef WINCH_PWM_H
@@ -83,12 +83,12 @@
 
 #include <stdint.h>
 
-/* Timer input clock, before the prescaler. */
+/* Timer input clock, before the divider. */
 #define WINCH_PWM_CLOCK_HZ 120000000UL
-/* Prescaler ratio and the value its register takes. */
+/* Divider ratio and the value the divider register takes. */
 #define WINCH_PWM_DIVIDER 1U
 #define WINCH_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period (auto-reload) register value. */
+/* Counter ticks per PWM period and the period register value (counter top). */
 #define WINCH_PWM_PERIOD_TICKS 11638U
 #define WINCH_PWM_PERIOD_REG 11637U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -107,12 +107,12 @@
 /*
  * Init sequence (register names differ per MCU; values are above):
  *   1. Stop the timer and hold the bridge outputs in their safe (off) state.
- *   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
- *   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
+ *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
+ *   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
  *   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
  *   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
- *   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+ *   7. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
  *   8. Start the counter, then enable the outputs.
  */
 

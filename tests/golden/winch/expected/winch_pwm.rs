@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c55cf569a2e3e308197ccadd6262361359263984d92bd9ce751b466f4e251855)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:032f4a888c2ea3114c07fe8186427b87f25d3b8658c5d7fecdd876ce676dee28)
 //!
 //! Chosen setting
 //!   design         winch
@@ -74,30 +74,30 @@
 //!
 //! Inputs
 //!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
-//!   heron-hb48.yaml           sha256 367681d8e3d1eed9498d2faf9132a69fde983edac637c05e716acf22c0e13669
+//!   heron-hb48.yaml           sha256 87f09d0aaf1fc46f7f982774f76fd78ee38dd8256493bbc4d9c8476ff8e95e96
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Stop the timer and hold the bridge outputs in their safe (off) state.
-//!   2. Prescaler register <- WINCH_PWM_DIVIDER_REG (divider 1).
-//!   3. Period (auto-reload) register <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
+//!   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
+//!   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (11638 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
 //!   5. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before enabling complementary outputs.
 //!   6. Compare register(s) <- 0, then values from winch_pwm_compare_from_q16() only.
-//!   7. Enable preload of period and compare registers so updates take effect at the period boundary.
+//!   7. Enable buffered (shadow) update of period and compare so new values take effect at the period boundary.
 //!   8. Start the counter, then enable the outputs.
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
-/// Timer input clock, before the prescaler, Hz.
+/// Timer input clock, before the divider, Hz.
 pub const CLOCK_HZ: u64 = 120000000;
-/// Prescaler ratio.
+/// Divider ratio.
 pub const DIVIDER: u32 = 1;
-/// Value of the prescaler register.
+/// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 11638;
-/// Value of the period (auto-reload) register.
+/// Value of the period register (counter top).
 pub const PERIOD_REG: u32 = 11637;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
