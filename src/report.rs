@@ -96,7 +96,12 @@ pub fn what_changed(old: &Plan, new: &Plan) -> Vec<String> {
     if let (Some(a), Some(b)) = (old.thermal.junction_c, new.thermal.junction_c)
         && (a - b).abs() >= 0.05
     {
-        moved.push(format!("junction {a:.1} °C -> {b:.1} °C ({:+.1} K)", b - a));
+        moved.push(format!(
+            "junction {} -> {} ({:+.1} K)",
+            format_quantity(a, Dimension::Temperature, 4),
+            format_quantity(b, Dimension::Temperature, 4),
+            b - a
+        ));
     }
     let binds = |p: &Plan| -> Vec<String> {
         p.constraints
