@@ -129,11 +129,7 @@ fn main() {
     let (d, sol) = median_of(|| solve::solve(&ev, Objective::LeastLoss));
     row("(a) solve, demo", d, Some(&sol));
     let (d, sol) = median_of(|| solve::solve(&fast, Objective::LeastLoss));
-    row(
-        "(b) solve, demo on 136 MHz/20-bit/12-bit divider",
-        d,
-        Some(&sol),
-    );
+    row("(b) solve, demo, 136 MHz/20-bit/12-bit div", d, Some(&sol));
     // Built by cargo for benchmarks with the bench (release) profile:
     // target/release/pwmplan.
     let exe = Path::new(env!("CARGO_BIN_EXE_pwmplan"));

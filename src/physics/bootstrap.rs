@@ -40,8 +40,8 @@ pub struct BootstrapSizing {
 
 /// Bootstrap capacitor: C_boot ≥ Q_total/ΔV with
 /// Q_total = Q_g + I_leak·D_max/f + I_q/f (*Bootstrap Circuitry Selection for
-/// Half-Bridge Configurations*, application report, 2018, no author named; from
-/// memory). The quiescent term over the whole period is conservative. Rule of thumb C_boot ≥ 10·Q_g/V_drv (common
+/// Half-Bridge Configurations*, application report, 2018; title and year, author
+/// not checked; from memory). The quiescent term over the whole period is conservative. Rule of thumb C_boot ≥ 10·Q_g/V_drv (common
 /// practice). `None` for non-positive f, ΔV, V_drv or a duty outside 0..=1.
 pub fn bootstrap_sizing(inp: &BootstrapInputs) -> Option<BootstrapSizing> {
     let ok = inp.f_sw_hz > 0.0

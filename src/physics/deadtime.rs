@@ -2,8 +2,8 @@
 //!
 //! Owns: the minimum dead time from switching times (*How to calculate and
 //! minimize the dead time requirement for IGBTs properly*, application note,
-//! 2007, no author named; "the dead-time note" below; from memory), the
-//! output-voltage error it causes and the duty range it leaves.
+//! 2007; title and year, author not checked; "the dead-time note" below; from
+//! memory), the output-voltage error it causes and the duty range it leaves.
 //! Rounding up to the timer's encodable dead time belongs to the timer module.
 
 use super::params::{GateDrive, Topology};

@@ -294,7 +294,7 @@ pub fn junction_temperature_linear_closed_form(
 
 /// Transient thermal impedance of a Foster network,
 /// Z_th(t) = Σ R_i·(1 − e^(−t/τ_i)) (*Thermal equivalent circuit models*,
-/// application note, 2008, no author named; from memory). With no Foster pairs it falls back to the
+/// application note, 2008; title and year, author not checked; from memory). With no Foster pairs it falls back to the
 /// steady-state R_th(j-a) for every t > 0 (conservative: no thermal mass). Pairs
 /// with τ ≤ 0 count as instantaneous (their full R). Z(t ≤ 0) = 0 and Z(NaN) = 0.
 /// For t → ∞ Z tends to ΣR_i, which equals R_th(j-a) only if the network
