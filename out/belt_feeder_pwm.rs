@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:9dcde92f30dd108410df2ccc1d5b87f38d08a62cce740da1801353fcd7b5fd08)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:e121d0310288147f190e6d0f913a507d2014da3d676dded5071463fee5a973cf)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -6,29 +6,29 @@
 //!   switch         Tarn 40 V, 2.4 mΩ (invented)
 //!   topology       half-bridge
 //!   objective      least-loss at typical values
-//!   frequency      20.006 kHz, edge-aligned
-//!   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
-//!   resolution     3199 duty steps (11.6 bits)
-//!   dead time      156 ns = 10 ticks (code 0x0A); needed 152 ns
-//!   duty limits    compare 30 to 3157 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
-//!   feasible band  20.006 kHz to 59.981 kHz
+//!   frequency      20.005 kHz, edge-aligned
+//!   timer          clock 88.00 MHz; divider 1 (register 0); period 4399 ticks (register 4398)
+//!   resolution     4399 duty steps (12.1 bits)
+//!   dead time      159 ns = 14 ticks (code 0x0E); needed 152 ns
+//!   duty limits    compare 41 to 4341 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
+//!   feasible band  20.005 kHz to 59.986 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         135 °C     57.0 °C     78.0 K  ok
 //!   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
-//!   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
-//!   resolution         10.00 bits  11.64 bits  1.64 bits  ok
-//!   dead-time              156 ns      152 ns    3.85 ns  ok
-//!   duty-range            98.69 %     94.45 %     4.23 %  ok
-//!   frequency-band     16.000 kHz  20.006 kHz   4.01 kHz  ok
+//!   audible            20.000 kHz  20.005 kHz    4.55 Hz  binds
+//!   resolution         10.00 bits  12.10 bits  2.10 bits  ok
+//!   dead-time              159 ns      152 ns    6.69 ns  ok
+//!   duty-range            98.68 %     94.46 %     4.22 %  ok
+//!   frequency-band     16.000 kHz  20.005 kHz   4.00 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
 //!   switching            20.8 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     25.2 mW
-//!   dead-time diode      18.6 mW
+//!   dead-time diode      18.9 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.95 mW
 //!   total                143 mW
@@ -37,27 +37,27 @@
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
-//!   ripple, rated case      239 mA peak to peak at 20.006 kHz (continuous), 68.9 mA rms
-//!   ripple, high-bus case   363 mA peak to peak at 20.006 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
+//!   ripple, rated case      239 mA peak to peak at 20.005 kHz (continuous), 68.9 mA rms
+//!   ripple, high-bus case   363 mA peak to peak at 20.005 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
 //!   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
 //!   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
-//!   duty-range  94.47 % (limit 98.69 %); ok; hot: V_th min, supply 20.0 V
-//!   dead-time   needs 152 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
+//!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 1600 ticks, edge): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +210 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
+//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +211 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings
-//!   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
-//!   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
+//!   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -76,7 +76,7 @@
 //!
 //! Inputs
 //!   bundled:belt-feeder       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
-//!   bundled:wren-hb24         sha256 1a237f7132eb02177cc7aad4eaa53f9e189c62da9d7a5fc0290fabb93cb2e5db
+//!   bundled:wren-hb24         sha256 38d1a65b1e934eebd35e6be6a01ac800ee2ae0753edd1982503afa734ca03aa9
 //!   bundled:switches/tarn-40  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
@@ -88,10 +88,10 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register <- PERIOD_REG (3199 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (4399 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
-//!   6. Dead-time register <- DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before the complementary outputs are ever enabled.
+//!   6. Dead-time register <- DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before the complementary outputs are ever enabled.
 //!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
 //!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
 //!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
@@ -99,29 +99,29 @@
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
 /// Timer input clock, before the divider, Hz.
-pub const CLOCK_HZ: u64 = 64000000;
+pub const CLOCK_HZ: u64 = 88000000;
 /// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
 /// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3199;
-/// Value of the period register.
-pub const PERIOD_REG: u32 = 3198;
+pub const PERIOD_TICKS: u32 = 4399;
+/// Value of the period register (counter top).
+pub const PERIOD_REG: u32 = 4398;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (20.006 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 20006252;
+/// PWM frequency in millihertz (20.005 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 20004546;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3199;
-/// Dead-time register code (156.2 ns).
-pub const DEAD_TIME_CODE: u32 = 0x0A;
+pub const DUTY_STEPS: u32 = 4399;
+/// Dead-time register code (159.1 ns).
+pub const DEAD_TIME_CODE: u32 = 0x0E;
 /// Dead-time ticks the code gives.
-pub const DEAD_TIME_TICKS: u32 = 10;
+pub const DEAD_TIME_TICKS: u32 = 14;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 30;
+pub const COMPARE_MIN: u32 = 41;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3157;
+pub const COMPARE_MAX: u32 = 4341;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the low side on, braking a turning motor, once enabled).
 pub const INIT_COMPARE: u32 = 0;

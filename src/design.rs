@@ -264,9 +264,14 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     if s.name.trim().is_empty() {
         return Err(c.fail("name", "expected a name for the switch"));
     }
-    c.within("v_dss", s.v_dss.si, 0.0, 2000.0, V)?;
+    // The numeric ranges in this function (V_DSS and I_D ≤ 2 000, R_ds(on) ≤ 10 Ω,
+    // Q_g ≤ 10 µC, coefficient ≤ 0.03/K, curve factor 0.1–10, V_GS max ≤ 50 V,
+    // T_j max 25–300 °C and the like) are plausibility bounds of our own choice,
+    // not from a source: wide enough for any discrete MOSFET we know of, narrow
+    // enough to catch a wrong unit prefix.
+    c.within("v_dss", s.v_dss.si, 0.0, 2000.0, V)?; // bound of our own choice
     c.within("i_d", s.i_d.si, 0.0, 2000.0, A)?;
-    c.within("r_ds_on.typ", s.r_ds_on.typ.si, 0.0, 10.0, OHM)?;
+    c.within("r_ds_on.typ", s.r_ds_on.typ.si, 0.0, 10.0, OHM)?; // bound of our own choice
     if let Some(max) = s.r_ds_on.max {
         c.within("r_ds_on.max", max.si, 0.0, 10.0, OHM)?;
         if max.si < s.r_ds_on.typ.si {
@@ -285,6 +290,7 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             for (i, (t, k)) in points.iter().enumerate() {
                 let f = format!("r_ds_on_vs_temperature.points[{i}]");
                 c.within(&format!("{f}[0]"), t.si, -100.0, 300.0, DEG)?;
+                // Factor 0.1–10: a plausibility bound of our own choice.
                 if !(k.is_finite() && *k > 0.1 && *k < 10.0) {
                     return Err(c.fail(&format!("{f}[1]"), format!("factor {k} is out of range; expected a factor relative to 25 °C between 0.1 and 10")));
                 }
@@ -301,7 +307,7 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
                 "r_ds_on_vs_temperature.coefficient",
                 k.si,
                 0.0,
-                0.03,
+                0.03, // ≤ 3 %/K: a plausibility bound of our own choice
                 Dimension::TemperatureCoefficient,
             )?;
         }
@@ -331,7 +337,7 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             "missing; give g_fs or v_plateau so the Miller plateau can be found",
         ));
     }
-    c.within("q_g.typ", s.q_g.typ.si, 0.0, 1e-5, C)?;
+    c.within("q_g.typ", s.q_g.typ.si, 0.0, 1e-5, C)?; // ≤ 10 µC: bound of our own choice
     if let Some(max) = s.q_g.max
         && max.si < s.q_g.typ.si
     {
@@ -428,7 +434,7 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     c.spread("body_diode.q_rr", &s.body_diode.q_rr)?;
     c.non_negative("body_diode.q_rr", s.body_diode.q_rr.typ.si, 1e-4, C)?;
     c.non_negative("body_diode.t_rr", s.body_diode.t_rr.si, 1e-4, S)?;
-    c.within("v_gs_max", s.v_gs_max.si, 0.0, 50.0, V)?;
+    c.within("v_gs_max", s.v_gs_max.si, 0.0, 50.0, V)?; // bound of our own choice
     if s.v_th.typ.si >= s.v_gs_max.si {
         return Err(c.fail(
             "v_th.typ",
@@ -439,7 +445,7 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
-    c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?;
+    c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?; // bounds of our own choice
     c.within("r_th_jc", s.r_th_jc.si, 0.0, 100.0, KW)?;
     c.within("r_th_ja", s.r_th_ja.si, 0.0, 1000.0, KW)?;
     if s.r_th_jc.si >= s.r_th_ja.si {
@@ -717,6 +723,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
     }
 
     let g = &b.gate_driver;
+    // ≤ 50 V: a plausibility bound of our own choice (as for the other ranges here).
     c.within("gate_driver.supply", g.supply.si, 0.0, 50.0, V)?;
     if g.supply.si <= sw.v_th.typ.si {
         return Err(c.fail(
@@ -1322,7 +1329,8 @@ fn check_tolerances(
     if let Some(tol) = t.driver_supply {
         let v_drive = b.gate_driver.supply.si;
         // Highest plateau: the threshold at its max, the plateau moving with
-        // it (V_plt = V_th + I/g_fs, AN608A), at the rated current.
+        // it (V_plt = V_th + I/g_fs, the gate-charge note, see
+        // `physics::switching`), at the rated current.
         let v_th_rise = sw.v_th.max.map(|x| x.si - sw.v_th.typ.si).unwrap_or(0.0);
         let v_plt_max = match (sw.v_plateau, sw.g_fs) {
             (Some(p), _) => p.si + v_th_rise,

@@ -774,7 +774,7 @@ fn init_steps(
             t.divider
         ),
         format!(
-            "Period register <- {} ({} ticks per period).",
+            "Period register (counter top) <- {} ({} ticks per period).",
             k("PERIOD_REG"),
             t.period_ticks
         ),

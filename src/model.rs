@@ -851,7 +851,8 @@ impl Evaluator {
     /// Dead time the stage needs at this case's turn-off current: the
     /// gate-charge turn-off (delay + voltage rise + current fall) against
     /// the turn-on delay, plus driver mismatch, times the margin
-    /// (Infineon AN2007-04 form, see [`deadtime::dead_time_need_s`]).
+    /// (the published dead-time form plus the fall time, our own
+    /// conservative choice; see [`deadtime::dead_time_need_s`]).
     pub fn dead_time_need_s(&self, case: &OperatingCase) -> Option<f64> {
         let st = &self.stage;
         let i = case.load_current_a.abs().max(1e-3);

@@ -135,9 +135,9 @@ impl std::fmt::Display for Detail {
                 t_ambient_c,
             } => write!(
                 f,
-                "hottest junction at {} and {:.0} °C ambient",
+                "hottest junction at {} and {} ambient",
                 fmt_v(*v_bus_v),
-                t_ambient_c
+                fmt_c(*t_ambient_c)
             ),
             Detail::Ripple { v_bus_v } => {
                 write!(
@@ -708,6 +708,14 @@ fn fmt_v(v: f64) -> String {
     crate::units::format_quantity(v, crate::units::Dimension::Voltage, 3)
 }
 
+fn fmt_c(t_c: f64) -> String {
+    crate::units::format_quantity(t_c, crate::units::Dimension::Temperature, 3)
+}
+
+fn fmt_a(i_a: f64) -> String {
+    crate::units::format_quantity(i_a, crate::units::Dimension::Current, 3)
+}
+
 /// A check that `value` stays at or below `limit`.
 fn upper(
     name: &'static str,
@@ -1076,6 +1084,7 @@ fn search_list(
                     if inside(evaluated[hi].as_deref()) {
                         lo = hi;
                     }
+                    let next_grid = hi;
                     while hi - lo > 1 {
                         let mid = (lo + hi) / 2;
                         count += eval(mid, &mut evaluated);
@@ -1083,6 +1092,17 @@ fn search_list(
                             lo = mid
                         } else {
                             hi = mid
+                        }
+                    }
+                    // Coarse duty counts can make feasibility flicker from one
+                    // setting to the next, so the bisection may stop short:
+                    // look at the settings up to the next grid point (at most
+                    // QUIET_EDGE_SCAN of them, a bound of our own choice).
+                    let end = next_grid.min(lo + QUIET_EDGE_SCAN);
+                    for i in lo + 1..=end {
+                        count += eval(i, &mut evaluated);
+                        if inside(evaluated[i].as_deref()) {
+                            lo = i;
                         }
                     }
                 }
@@ -1184,6 +1204,9 @@ fn grid_indices(settings: &[PwmSetting], points: usize) -> Vec<usize> {
     idx
 }
 
+/// Settings past the bisected quiet edge looked at one by one (our own bound).
+const QUIET_EDGE_SCAN: usize = 64;
+
 fn loss_floor<'a>(obj: Objective, cands: impl Iterator<Item = &'a Candidate>) -> Option<f64> {
     if obj != Objective::Quietest {
         return None;
@@ -1264,8 +1287,9 @@ fn finish(
             feasible_band_hz: None,
             alternatives: Vec::new(),
             conflict: vec![format!(
-                "no realisable timer setting between {:.0} Hz and {:.0} Hz could be evaluated; widen the frequency band or check the timer clock",
-                ev.limits.f_min_hz, ev.limits.f_max_hz
+                "no realisable timer setting between {} and {} could be evaluated; widen the frequency band or check the timer clock",
+                fmt_f(ev.limits.f_min_hz),
+                fmt_f(ev.limits.f_max_hz)
             )],
             evaluated: count,
             realisable,
@@ -1597,10 +1621,10 @@ fn explain_conflict(
     for k in &failing {
         let advice = match k.name {
             "junction-rated" | "junction-high-bus" => match k.value {
-                Some(v) => format!("raise the junction limit from {:.0} °C to {:.0} °C, or fit a switch with lower R_ds(on) and Q_gd, or a better heat path", k.limit, v.ceil()),
+                Some(v) => format!("raise the junction limit from {} to {}, or fit a switch with lower R_ds(on) and Q_gd, or a better heat path", fmt_c(k.limit), fmt_c(v.ceil())),
                 None => "the stage runs away thermally: fit a switch with lower R_ds(on), a better heat path, or reduce the load".into(),
             },
-            "ripple" => format!("allow {:.2} A ripple instead of {:.2} A, or add inductance in series with the motor", k.value.unwrap_or(0.0), k.limit),
+            "ripple" => format!("allow {} ripple instead of {}, or add inductance in series with the motor", fmt_a(k.value.unwrap_or(0.0)), fmt_a(k.limit)),
             "audible" => "allow audible PWM (audible: allowed) or lower the hearing limit, or raise the frequency band".into(),
             "resolution" => format!("accept {:.1} bits instead of {:.1}, or clock the timer faster", k.value.unwrap_or(0.0), k.limit),
             "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),

@@ -331,7 +331,8 @@ fn scale(value: f64, typ: f64) -> f64 {
 /// - Q_gs: Q_g(th), when given, scales with Q_gs (both are charge on the
 ///   same input capacitance), so Q_gs2 = Q_gs − Q_g(th) stays positive.
 /// - V_th: a datasheet plateau moves with the threshold, since
-///   V_plt = V_th + I/g_fs (AN608A).
+///   V_plt = V_th + I/g_fs (the gate-charge note, see
+///   [`crate::physics::switching`]).
 pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     let (b, s) = (&base.stage.switch, &mut out.stage.switch);
     let v = |p: Param| x[p as usize];
@@ -1039,9 +1040,10 @@ fn hot_points(s: &Spreads, both: &[Param]) -> Vec<(String, Values)> {
 /// The slowest turn-off: t_off = t_d(off) + t_rv + t_fi with
 /// t_d(off) = R_off·C_iss·ln(V_drv/V_plt) (from memory, as in
 /// [`crate::physics::switching`]), t_rv = Q_gd·R_off/V_plt and
-/// t_fi = Q_gs2·R_off/V_plt (gate-charge model, Graovac 2006; Balogh,
-/// SLUA618). Every term grows with R_off = R_sink + R_g,ext,off + R_g,int
-/// and falls as the plateau rises, and V_plt = V_th + I/g_fs (AN608A), so
+/// t_fi = Q_gs2·R_off/V_plt (gate-charge model: Graovac, Pürschel, Kiep,
+/// 2006; L. Balogh, 2002; sources in [`crate::physics::switching`]). Every
+/// term grows with R_off = R_sink + R_g,ext,off + R_g,int and falls as the
+/// plateau rises, and V_plt = V_th + I/g_fs (the gate-charge note, 2016), so
 /// the slowest turn-off takes max R_sink, max R_g,int, max Q_gd, max Q_gs,
 /// min V_th and max V_drv (t_d(off) grows with V_drv). R_ds(on) stays typ:
 /// it enters only through the on-state drop of the two-point C_gd.
@@ -1064,7 +1066,7 @@ fn slow_turn_off(s: &Spreads) -> Values {
 }
 
 /// The fastest turn-on: conduction starts after
-/// t_d(on) = R_on·C_iss·ln(V_drv/(V_drv − V_th)) (Balogh, SLUA618), which
+/// t_d(on) = R_on·C_iss·ln(V_drv/(V_drv − V_th)) (L. Balogh, 2002), which
 /// falls with a smaller R_on = R_source + R_g,ext,on + R_g,int, a lower
 /// V_th and a higher V_drv. So the fastest turn-on takes min R_source,
 /// min R_g,int, min V_th and max V_drv; the gate charges do not enter.
@@ -1149,7 +1151,8 @@ pub fn corner_evaluators(d: &Design, ev: &Evaluator) -> Vec<(String, Evaluator)>
 /// Dead time the stage needs with `off` turning off against `on` turning
 /// on at `v_bus_v` and the rated current: the mapping of
 /// [`DeadTimeInputs::from_transitions`] with the turn-off times from one
-/// device and the turn-on delay from the other (AN2007-04 form, see
+/// device and the turn-on delay from the other (the published dead-time
+/// form plus the fall time, our own conservative choice; see
 /// [`deadtime::dead_time_need_s`]), R_ds(on) hot at the junction limit as
 /// the solver takes it.
 fn pair_need_s(base: &Evaluator, off: &Evaluator, on: &Evaluator, v_bus_v: f64) -> Option<f64> {
@@ -1618,7 +1621,7 @@ fn worst_text(o: &mut String, wc: &WorstCase) {
         ));
         o.push_str(&wrap(
             &format!(
-                "slowest turn-off ({}) against the fastest turn-on ({}) at {}, with the ×{} margin of AN2007-04; the chosen dead time is encoded from the {} need {} (typical need {})",
+                "slowest turn-off ({}) against the fastest turn-on ({}) at {}, with a ×{} safety margin; the chosen dead time is encoded from the {} need {} (typical need {})",
                 dt.slow_turn_off,
                 dt.fast_turn_on,
                 q(dt.v_bus_v, Dimension::Voltage),

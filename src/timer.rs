@@ -10,16 +10,18 @@
 //! - `divider` = the prescaler ratio (counter clock = `clock_hz / divider`).
 //! - `period_ticks` = counter-clock ticks per PWM period, so
 //!   `f = clock_hz / (divider · period_ticks)`.
-//! - Edge-aligned: period register (auto-reload) = `period_ticks − 1`, duty steps = `period_ticks`,
-//!   compare values `0..=period_ticks` (`period_ticks` = 100 % on).
+//! - Edge-aligned: period register (counter top) = `period_ticks − 1`, duty steps =
+//!   `period_ticks`, compare values `0..=period_ticks` (`period_ticks` = 100 % on).
 //! - Centre-aligned (up-down): period register = `period_ticks / 2` (`period_ticks` must be even),
 //!   duty steps = `period_ticks / 2`, compare `0..=period_ticks / 2`.
 //! - Resolution bits = `log2(duty steps)` (a real number; the floor is also given).
 //! - Counter width limits the period register to `≤ 2^counter_bits − 1`.
+//! - Linear divider: divider register = `divider − register_offset` (usually `divider − 1`).
 //!
-//! These are the generic timer relations f = f_clk/((PSC + 1)·(ARR + 1)) (edge) and
-//! f = f_clk/(2·(PSC + 1)·ARR) (centre), resolution log2(ARR + 1) resp. log2(ARR) bits:
-//! common practice (no published source; physics brief §9).
+//! In register terms, with divider register `R_d = divider − 1` and period register `R_p`:
+//! f = f_clk/((R_d + 1)·(R_p + 1)) (edge) and f = f_clk/(2·(R_d + 1)·R_p) (centre), resolution
+//! log2(R_p + 1) resp. log2(R_p) bits. These are counting arithmetic, common practice (no
+//! published source).
 //!
 //! Internally a setting is handled as (divider `d`, duty steps `q`) with
 //! `period_ticks = u·q`, where `u` = 1 (edge) or 2 (centre); the product
@@ -775,7 +777,7 @@ impl TimerModel {
 
     /// Smallest encodable dead time not below `need_s` (among all codes; equal ticks → smaller
     /// code). Ticks needed = `⌈need_s · clock_hz / clock_divider⌉` (common practice: always
-    /// round a dead time up to the encodable value, physics brief §8).
+    /// round a dead time up to the encodable value, so the gap is never shorter than the need).
     pub fn encode_dead_time(&self, need_s: f64) -> Result<DeadTimeCode, DeadTimeError> {
         self.validate().map_err(DeadTimeError::InvalidModel)?;
         if !(need_s.is_finite() && need_s >= 0.0) {
@@ -1101,10 +1103,10 @@ mod tests {
     // Fixtures
     // -----------------------------------------------------------------------------------------
 
-    /// The 8-bit segmented dead-time code of physics brief §9 (from memory there):
-    /// 0xxxxxxx → code·t (0–127); 10xxxxxx → (64 + low6)·2t; 110xxxxx → (32 + low5)·8t;
-    /// 111xxxxx → (32 + low5)·16t.
-    fn brief_segments() -> Vec<DeadTimeSegment> {
+    /// An invented 8-bit segmented dead-time code (three segments, our own test table):
+    /// 0x00–0x6F → code·t (0–111); 0x70–0xBF → (56 + k)·2t (112–270);
+    /// 0xC0–0xFF → (28 + k)·10t (280–910), k = code − first code of the segment.
+    fn test_segments() -> Vec<DeadTimeSegment> {
         let seg = |first_code, count, base, step| DeadTimeSegment {
             first_code,
             count,
@@ -1112,24 +1114,19 @@ mod tests {
             step,
         };
         vec![
-            seg(0x00, 128, 0, 1),
-            seg(0x80, 64, 64, 2),
-            seg(0xC0, 32, 32, 8),
-            seg(0xE0, 32, 32, 16),
+            seg(0x00, 112, 0, 1),
+            seg(0x70, 80, 56, 2),
+            seg(0xC0, 64, 28, 10),
         ]
     }
 
-    /// Independent decoder of the same bit layout, written from the bit patterns.
-    fn brief_decode_bits(code: u32) -> u64 {
+    /// Independent decoder of the same table, written as closed forms per code range.
+    fn test_decode(code: u32) -> u64 {
         let c = u64::from(code);
-        if c & 0x80 == 0 {
-            c
-        } else if c & 0xC0 == 0x80 {
-            (64 + (c & 0x3F)) * 2
-        } else if c & 0xE0 == 0xC0 {
-            (32 + (c & 0x1F)) * 8
-        } else {
-            (32 + (c & 0x1F)) * 16
+        match c {
+            0x00..=0x6F => c,
+            0x70..=0xBF => 2 * c - 112,
+            _ => 10 * c - 1640,
         }
     }
 
@@ -1157,12 +1154,12 @@ mod tests {
         }
     }
 
-    fn brief_timer(clock_hz: f64) -> TimerModel {
+    fn segmented_timer(clock_hz: f64) -> TimerModel {
         let dead = DeadTimeGenerator::Segmented {
             clock_divider: 1,
-            segments: brief_segments(),
+            segments: test_segments(),
         };
-        timer(clock_hz, 16, linear(1, 65536, 1), dead)
+        timer(clock_hz, 16, linear(1, 4096, 1), dead)
     }
 
     fn dividers_of(p: &Prescaler) -> Vec<u64> {
@@ -1177,51 +1174,53 @@ mod tests {
     }
 
     // -----------------------------------------------------------------------------------------
-    // Dead time: brief examples (computed from the code description, physics brief §9)
+    // Dead time: the invented test table, values worked out by hand from its description
     // -----------------------------------------------------------------------------------------
 
     #[test]
-    fn segment_table_matches_brief_bit_layout() {
-        // Every 8-bit code: table decode == bit-pattern decode.
-        let t = brief_timer(100e6);
+    fn segment_table_matches_independent_decoder() {
+        // Every 8-bit code: table decode == closed-form decode.
+        let t = segmented_timer(100e6);
         for code in 0..=255u32 {
-            assert_eq!(
-                t.dead_time_ticks_for_code(code),
-                Some(brief_decode_bits(code))
-            );
+            assert_eq!(t.dead_time_ticks_for_code(code), Some(test_decode(code)));
         }
         assert_eq!(t.dead_time_ticks_for_code(256), None);
     }
 
     #[test]
-    fn brief_dead_time_100mhz() {
-        // Computed from the code description (brief §9): 500 ns → 0x32, 2 µs → 0xA4.
-        let t = brief_timer(100e6);
+    fn segmented_dead_time_100mhz() {
+        // By hand: 500 ns = 50 t → 0x32 (first segment).
+        let t = segmented_timer(100e6);
         let c = t.encode_dead_time(500e-9).unwrap();
         assert_eq!((c.code, c.ticks), (0x32, 50));
+        // 2 µs = 200 t = (56 + 44)·2 t → 0x70 + 44 = 0x9C.
         let c = t.encode_dead_time(2e-6).unwrap();
-        assert_eq!((c.code, c.ticks), (0xA4, 200));
-        // Computed by hand here (not in the brief): 8 µs = 800 t = (32 + 18)·16 t → 0xF2.
+        assert_eq!((c.code, c.ticks), (0x9C, 200));
+        // 8 µs = 800 t = (28 + 52)·10 t → 0xC0 + 52 = 0xF4.
         let c = t.encode_dead_time(8e-6).unwrap();
-        assert_eq!((c.code, c.ticks), (0xF2, 800));
+        assert_eq!((c.code, c.ticks), (0xF4, 800));
     }
 
     #[test]
-    fn brief_dead_time_170mhz() {
-        // Computed from the code description (brief §9): 2 µs → 0xCB, 344 ticks, 2023.5 ns.
-        let t = brief_timer(170e6);
+    fn segmented_dead_time_136mhz() {
+        // By hand: 1.55 µs = 210.8 t → 211 t; second segment ⌈211/2⌉ − 56 = 50 → 0xA2, 212 t,
+        // 1558.82 ns.
+        let t = segmented_timer(136e6);
+        let c = t.encode_dead_time(1.55e-6).unwrap();
+        assert_eq!((c.code, c.ticks), (0xA2, 212));
+        assert!((c.seconds - 1558.824e-9).abs() < 0.001e-9, "{}", c.seconds);
+        // 2 µs = 272 t: past the second segment (≤ 270 t), so (28 + 0)·10 t → 0xC0, 280 t.
         let c = t.encode_dead_time(2e-6).unwrap();
-        assert_eq!((c.code, c.ticks), (0xCB, 344));
-        assert!((c.seconds - 2023.5e-9).abs() < 0.05e-9, "{}", c.seconds);
-        // 8 µs = 1360 t > 1008 t: out of range (brief §9, which holds at this tick rate).
+        assert_eq!((c.code, c.ticks), (0xC0, 280));
+        // 8 µs = 1088 t > 910 t (the longest code): out of range.
         match t.encode_dead_time(8e-6) {
             Err(DeadTimeError::OutOfRange { max_s }) => {
-                assert!((max_s - 1008.0 / 170e6).abs() < 1e-15)
+                assert!((max_s - 910.0 / 136e6).abs() < 1e-15)
             }
             other => panic!("{other:?}"),
         }
         let r = t.dead_time_range().unwrap();
-        assert_eq!((r.max.code, r.max.ticks), (0xFF, 1008)); // brief: max 1008 t
+        assert_eq!((r.max.code, r.max.ticks), (0xFF, 910)); // (28 + 63)·10
         assert_eq!((r.min.code, r.min.ticks), (0, 0));
     }
 
@@ -1291,7 +1290,7 @@ mod tests {
             linear(1, 1, 0),
             DeadTimeGenerator::Segmented {
                 clock_divider: 0,
-                segments: brief_segments(),
+                segments: test_segments(),
             },
         );
         assert_eq!(
@@ -1303,37 +1302,40 @@ mod tests {
     }
 
     // -----------------------------------------------------------------------------------------
-    // Settings: hand-computed cases against the brief §9 register formulas
+    // Settings: hand-computed cases against the register relations of the module doc
     // -----------------------------------------------------------------------------------------
 
     #[test]
     fn edge_and_centre_conventions_by_hand() {
-        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
-        // Edge, PSC = 0, ARR = 3199: f = 64 MHz/((0+1)(3199+1)) = 20 kHz, log2(3200) = 11.64.
-        let e = t.setting(1, 3200, Alignment::Edge).unwrap();
+        let t = timer(88e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        // Edge, divider register 0, period register 4399:
+        // f = 88 MHz/((0+1)(4399+1)) = 20 kHz, log2(4400) = 12.10.
+        let e = t.setting(1, 4400, Alignment::Edge).unwrap();
         assert_eq!(
             (e.period_register, e.duty_steps, e.divider_register),
-            (3199, 3200, 0)
+            (4399, 4400, 0)
         );
         assert_eq!(e.frequency_hz, 20_000.0);
-        assert!((e.resolution_bits - 11.643_856_189_774_725).abs() < 1e-12);
-        assert_eq!(e.resolution_bits_floor, 11);
-        // Centre, PSC = 0, ARR = 1600: f = 64 MHz/(2·1·1600) = 20 kHz, log2(1600) = 10.64.
-        let c = t.setting(1, 3200, Alignment::Centre).unwrap();
-        assert_eq!((c.period_register, c.duty_steps), (1600, 1600));
+        assert!((e.resolution_bits - 12.103_287_808_412_022).abs() < 1e-12);
+        assert_eq!(e.resolution_bits_floor, 12);
+        // Centre, divider register 0, period register 2200:
+        // f = 88 MHz/(2·1·2200) = 20 kHz, log2(2200) = 11.10.
+        let c = t.setting(1, 4400, Alignment::Centre).unwrap();
+        assert_eq!((c.period_register, c.duty_steps), (2200, 2200));
         assert_eq!(c.frequency_hz, 20_000.0);
-        assert!((c.resolution_bits - 10.643_856_189_774_725).abs() < 1e-12);
-        assert_eq!(c.resolution_bits_floor, 10);
-        // PSC = 7 (divider 8), centre ARR = 250: 64 MHz/(2·8·250) = 16 kHz, 250 steps.
-        let c = t.setting(8, 500, Alignment::Centre).unwrap();
+        assert!((c.resolution_bits - 11.103_287_808_412_022).abs() < 1e-12);
+        assert_eq!(c.resolution_bits_floor, 11);
+        // Divider register 10 (divider 11), centre period register 250:
+        // 88 MHz/(2·11·250) = 16 kHz, 250 steps.
+        let c = t.setting(11, 500, Alignment::Centre).unwrap();
         assert_eq!(
             (c.divider_register, c.period_register, c.duty_steps),
-            (7, 250, 250)
+            (10, 250, 250)
         );
         assert_eq!(c.frequency_hz, 16_000.0);
         assert_eq!(
-            t.setting(1, 3201, Alignment::Centre),
-            Err(TimerError::OddCentrePeriod { period_ticks: 3201 })
+            t.setting(1, 4401, Alignment::Centre),
+            Err(TimerError::OddCentrePeriod { period_ticks: 4401 })
         );
     }
 
@@ -1388,11 +1390,11 @@ mod tests {
 
     #[test]
     fn nearest_prefers_resolution_on_ties() {
-        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
-        // 20 kHz is exact for d = 1, 2, 4, ... (p = 3200/d): d = 1 has the most steps.
+        let t = timer(88e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        // 20 kHz is exact for d = 1, 2, 4, 5, 8, ... (p = 4400/d): d = 1 has the most steps.
         let s = t.nearest_setting(20e3, Alignment::Edge).unwrap().unwrap();
-        assert_eq!((s.divider, s.period_ticks), (1, 3200));
-        // Above the fastest setting (64 MHz/2 = 32 MHz): the fastest setting.
+        assert_eq!((s.divider, s.period_ticks), (1, 4400));
+        // Above the fastest setting (88 MHz/2 = 44 MHz): the fastest setting.
         let s = t.nearest_setting(1e9, Alignment::Edge).unwrap().unwrap();
         assert_eq!((s.divider, s.period_ticks), (1, 2));
         // Below the slowest: 65536·65536 ticks.
@@ -1400,14 +1402,15 @@ mod tests {
         assert_eq!((s.divider, s.period_ticks), (65536, 65536));
     }
 
-    /// 170 MHz, 16-bit linear prescaler, 16-bit counter, 1–100 kHz (the brief's large case):
+    /// An invented 136 MHz timer, 12-bit linear divider, 16-bit counter, 1–100 kHz (a large
+    /// search space):
     /// the per-product search equals an independent sieve over all divider × period pairs.
     #[test]
     fn large_space_distinct_products_match_sieve() {
-        let t = brief_timer(170e6);
-        let (n_lo, n_hi) = (1700u64, 170_000u64); // 170 MHz/100 kHz, 170 MHz/1 kHz (exact)
+        let t = segmented_timer(136e6);
+        let (n_lo, n_hi) = (1360u64, 136_000u64); // 136 MHz/100 kHz, 136 MHz/1 kHz (exact)
         let mut sieve = vec![0u64; (n_hi - n_lo + 1) as usize];
-        for d in 1..=65536u64 {
+        for d in 1..=4096u64 {
             let q_lo = n_lo.div_ceil(d).max(2);
             let q_hi = (n_hi / d).min(65536);
             for q in q_lo..=q_hi {
@@ -1433,15 +1436,15 @@ mod tests {
             .map(|s| (s.divider * s.period_ticks, s.divider))
             .collect();
         assert_eq!(got_pairs, expected);
-        // 65537 is prime (a Fermat prime): no divider ≤ 65536 with period ≤ 65536 makes it.
+        // 65537 is prime (a Fermat prime): no divider ≤ 4096 with period ≤ 65536 makes it.
         assert!(!got_pairs.iter().any(|&(n, _)| n == 65537));
-        // Hand-checked ends: 1 kHz ⇒ n = 170000 = 4·42500 (2 and 3 fail: 85000, 56666.7).
-        assert_eq!((got[0].divider, got[0].period_ticks), (4, 42500));
+        // Hand-checked ends: 1 kHz ⇒ n = 136000 = 4·34000 (2 and 3 fail: 68000, 45333.3).
+        assert_eq!((got[0].divider, got[0].period_ticks), (4, 34000));
         assert_eq!(got[0].frequency_hz, 1000.0);
         let last = got[got.len() - 1];
         assert_eq!(
             (last.divider, last.period_ticks, last.frequency_hz),
-            (1, 1700, 100e3)
+            (1, 1360, 100e3)
         );
     }
 
@@ -1458,31 +1461,31 @@ mod tests {
     /// and the low side on for the refresh time (by hand: 15.625 ns per count).
     #[test]
     fn duty_limits_by_hand() {
-        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
-        let s = t.setting(1, 3200, Alignment::Edge).unwrap(); // 15.625 ns per count
-        // Bridge: 0.5 µs pulse + 1 µs dead time = 96 counts each side; max = 3200 − 96.
+        let t = timer(88e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        let s = t.setting(1, 4400, Alignment::Edge).unwrap(); // 1/88 µs per count
+        // Bridge: 0.5 µs pulse + 1 µs dead time = 132 counts each side; max = 4400 − 132.
         let l = duty_limits(&s, &rules(true, 1e-6, 0.5e-6, None)).unwrap();
-        assert_eq!((l.min_counts, l.max_counts), (96, 3104));
+        assert_eq!((l.min_counts, l.max_counts), (132, 4268));
         assert_eq!((l.min_duty, l.max_duty), (0.03, 0.97));
         assert!((l.shortest_high_pulse_s - 0.5e-6).abs() < 1e-15);
         assert!((l.shortest_low_pulse_s - 0.5e-6).abs() < 1e-15);
-        // Bootstrap refresh 2.5 µs after the 1 µs dead time: 224 counts off → 2976.
+        // Bootstrap refresh 2.5 µs after the 1 µs dead time: 308 counts off → 4092.
         let l = duty_limits(&s, &rules(true, 1e-6, 0.5e-6, Some(2.5e-6))).unwrap();
-        assert_eq!(l.max_counts, 2976);
+        assert_eq!(l.max_counts, 4092);
         assert!((l.shortest_low_pulse_s - 2.5e-6).abs() < 1e-15);
-        // No minimum pulse: a compare equal to the dead time (64) would be an empty pulse;
+        // No minimum pulse: a compare equal to the dead time (88) would be an empty pulse;
         // the limit is one count more.
         let l = duty_limits(&s, &rules(true, 1e-6, 0.0, None)).unwrap();
-        assert_eq!((l.min_counts, l.max_counts), (65, 3135));
-        // A single switch has no dead time: 1.01 µs = 64.64 counts → 65 on, off ≥ 65 → 3135.
+        assert_eq!((l.min_counts, l.max_counts), (89, 4311));
+        // A single switch has no dead time: 1.01 µs = 88.88 counts → 89 on, off ≥ 89 → 4311.
         let l = duty_limits(&s, &rules(false, 1e-6, 1.01e-6, None)).unwrap();
-        assert_eq!((l.min_counts, l.max_counts), (65, 3135));
-        // 30 µs dead time of a 50 µs period: 1921 counts min, 1279 max → infeasible.
+        assert_eq!((l.min_counts, l.max_counts), (89, 4311));
+        // 30 µs dead time of a 50 µs period: 2641 counts min, 1759 max → infeasible.
         assert_eq!(
             duty_limits(&s, &rules(true, 30e-6, 0.0, None)),
             Err(DutyError::Infeasible {
-                min_counts: 1921,
-                max_counts: 1279
+                min_counts: 2641,
+                max_counts: 1759
             })
         );
         assert_eq!(
@@ -1498,27 +1501,27 @@ mod tests {
     /// Centre alignment: one count is two ticks; the dead time counts in seconds.
     #[test]
     fn duty_limits_centre_by_hand() {
-        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
-        let s = t.setting(1, 3200, Alignment::Centre).unwrap(); // 1600 steps, 31.25 ns each
-        // 400 ns pulse + 156.25 ns dead time = 556.25 ns = 17.8 counts → 18.
-        let l = duty_limits(&s, &rules(true, 156.25e-9, 400e-9, None)).unwrap();
-        assert_eq!((l.min_counts, l.max_counts), (18, 1582));
+        let t = timer(88e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        let s = t.setting(1, 4400, Alignment::Centre).unwrap(); // 2200 steps, 1/44 µs each
+        // 400 ns pulse + 14 ticks (7 counts) of dead time = 17.6 + 7 = 24.6 counts → 25.
+        let l = duty_limits(&s, &rules(true, 14.0 / 88e6, 400e-9, None)).unwrap();
+        assert_eq!((l.min_counts, l.max_counts), (25, 2175));
         assert!(l.shortest_high_pulse_s >= 400e-9);
     }
 
     #[test]
     fn compare_for_duty_by_hand() {
-        let t = timer(64e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
-        let e = t.setting(1, 3200, Alignment::Edge).unwrap();
-        let c = t.setting(1, 3200, Alignment::Centre).unwrap();
-        assert_eq!(compare_for_duty(&e, 0.5), 1600);
-        assert_eq!(compare_for_duty(&c, 0.5), 800);
-        assert_eq!(compare_for_duty(&e, 1.0), 3200); // 100 % on (edge: period_ticks)
-        assert_eq!(compare_for_duty(&e, 1.2), 3200);
+        let t = timer(88e6, 16, linear(1, 65536, 1), DeadTimeGenerator::None);
+        let e = t.setting(1, 4400, Alignment::Edge).unwrap();
+        let c = t.setting(1, 4400, Alignment::Centre).unwrap();
+        assert_eq!(compare_for_duty(&e, 0.5), 2200);
+        assert_eq!(compare_for_duty(&c, 0.5), 1100);
+        assert_eq!(compare_for_duty(&e, 1.0), 4400); // 100 % on (edge: period_ticks)
+        assert_eq!(compare_for_duty(&e, 1.2), 4400);
         assert_eq!(compare_for_duty(&e, -0.1), 0);
         assert_eq!(compare_for_duty(&e, f64::NAN), 0);
-        assert_eq!(compare_for_duty(&e, 0.1 / 3200.0), 0);
-        assert_eq!(compare_for_duty(&e, 0.6 / 3200.0), 1);
+        assert_eq!(compare_for_duty(&e, 0.1 / 4400.0), 0);
+        assert_eq!(compare_for_duty(&e, 0.6 / 4400.0), 1);
     }
 
     #[test]

@@ -313,7 +313,7 @@ fn board_missing_field() {
         &[case("wren-hb24.yaml", "    counter_bits: 16\n", "")],
         r#"
 error: wren-hb24.yaml:5:5: board.timer.counter_bits: missing; this field is required
- 5 |     clock: "64 MHz"             # timer input clock, before the prescaler
+ 5 |     clock: "88 MHz"             # timer input clock, before the prescaler
    |     ^
 "#,
     );
@@ -570,12 +570,12 @@ fn unit_in_wrong_case_suggests_both() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            r#"clock: "64 MHz""#,
-            r#"clock: "64 mhz""#,
+            r#"clock: "88 MHz""#,
+            r#"clock: "88 mhz""#,
         )],
         r#"
 error: wren-hb24.yaml:5:12: board.timer.clock: unknown unit "mhz" (expected a frequency such as "20 kHz"); did you mean "mHz" or "MHz"?
- 5 |     clock: "64 mhz"             # timer input clock, before the prescaler
+ 5 |     clock: "88 mhz"             # timer input clock, before the prescaler
    |            ^
 "#,
     );
@@ -678,7 +678,7 @@ fn inf_text() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            r#"clock: "64 MHz""#,
+            r#"clock: "88 MHz""#,
             r#"clock: "inf MHz""#,
         )],
         r#"
@@ -1411,12 +1411,12 @@ fn dead_time_segments_overlap() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            "{ first_code: 0xC0, count: 32",
-            "{ first_code: 0xB0, count: 32",
+            "{ first_code: 0xA0, count: 64",
+            "{ first_code: 0x90, count: 64",
         )],
         r#"
 error: wren-hb24.yaml:16:27: board.timer.dead_time.segmented.segments[2].first_code: codes overlap segment 1; expected each code in one segment only
- 16 |           - { first_code: 0xB0, count: 32, base: 32, step: 8 }
+ 16 |           - { first_code: 0x90, count: 64, base: 56, step: 4 }
     |                           ^
 "#,
     );
@@ -1442,7 +1442,7 @@ fn dead_time_segment_past_the_register_width() {
         ],
         r#"
 error: wren-hb24.yaml:18:40: board.timer.dead_time.segmented.segments[3].count: codes 0xE0 to 0x100 run past the 8-bit dead-time register (codes 0x0 to 0xFF); expected first_code + count ≤ 0x100
- 18 |           - { first_code: 0xE0, count: 33, base: 32, step: 16 }
+ 18 |           - { first_code: 0xE0, count: 33, base: 40, step: 12 }
     |                                        ^
 "#,
     );
@@ -1492,12 +1492,12 @@ fn prescaler_max_below_min() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            "linear: { min: 1, max: 65536 }",
+            "linear: { min: 1, max: 1024 }",
             "linear: { min: 8, max: 4 }",
         )],
         r#"
 error: wren-hb24.yaml:8:30: board.timer.prescaler.linear.max: 4 is below min 8; expected max ≥ min
- 8 |       linear: { min: 8, max: 4 }     # register = divider - 1
+ 8 |       linear: { min: 8, max: 4 }      # register = divider - 1
    |                              ^
 "#,
     );
@@ -1510,12 +1510,12 @@ fn prescaler_min_zero() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            "linear: { min: 1, max: 65536 }",
-            "linear: { min: 0, max: 65536 }",
+            "linear: { min: 1, max: 1024 }",
+            "linear: { min: 0, max: 1024 }",
         )],
         r#"
 error: wren-hb24.yaml:8:22: board.timer.prescaler.linear.min: expected a divider of at least 1
- 8 |       linear: { min: 0, max: 65536 }     # register = divider - 1
+ 8 |       linear: { min: 0, max: 1024 }      # register = divider - 1
    |                      ^
 "#,
     );
@@ -1644,12 +1644,12 @@ fn yaml_unclosed_quote() {
         "belt-feeder.yaml",
         &[case(
             "wren-hb24.yaml",
-            r#"clock: "64 MHz""#,
-            r#"clock: "64 MHz"#,
+            r#"clock: "88 MHz""#,
+            r#"clock: "88 MHz"#,
         )],
         r#"
 error: wren-hb24.yaml:5:12: board.timer.clock: unclosed quoted string; close it with `"`
- 5 |     clock: "64 MHz             # timer input clock, before the prescaler
+ 5 |     clock: "88 MHz             # timer input clock, before the prescaler
    |            ^
 "#,
     );

@@ -513,8 +513,8 @@ proptest! {
     }
 
     /// Every setting of `settings_in_band` obeys the closed form and its
-    /// register conventions (edge: ARR = N − 1, steps = N; centre: ARR = N/2,
-    /// steps = N/2; common practice, module conventions).
+    /// register conventions (edge: period register = N − 1, steps = N; centre:
+    /// period register = N/2, steps = N/2; common practice, module conventions).
     #[test]
     fn settings_in_band_obey_the_closed_form((t, f_min, f_max) in band_strategy()) {
         let timer = board_timer(t);

@@ -101,7 +101,7 @@ fn an_error_finding_stops_the_plan_and_writes_nothing() {
     );
     assert!(
         text.contains(
-            "error finding vdss-below-bus: V_DSS 40 V is below the highest bus voltage 42.0 V."
+            "error finding vdss-below-bus: V_DSS 40.0 V is below the highest bus voltage 42.0 V."
         ),
         "{text}"
     );

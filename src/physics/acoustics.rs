@@ -181,8 +181,9 @@ pub fn a_weighting_db(f_hz: f64) -> Option<f64> {
 }
 
 /// Threshold of hearing (free field, binaural, otologically normal young adults), dB SPL.
-/// 20 Hz–12.5 kHz: ISO 226:2003 threshold column (values below 8 kHz from memory; 8, 10 and
-/// 12.5 kHz as given in the project brief); 14, 16, 18 kHz: ISO 389-7:2005 (as given in the brief).
+/// 20 Hz–12.5 kHz: ISO 226:2003, threshold of hearing (8, 10 and 12.5 kHz: 12.6, 13.9,
+/// 12.3 dB; the values below 8 kHz from memory); 14, 16, 18 kHz: ISO 389-7:2005, free-field
+/// reference threshold (18.4, 40.2, 73.2 dB).
 const HEARING_THRESHOLD_TABLE: [(f64, f64); 32] = [
     (20.0, 78.5),
     (25.0, 68.7),
@@ -527,10 +528,10 @@ mod tests {
     }
 
     /// IEC 61672-1:2013 Table 3, A-weighting at the exact frequencies 1000·10^(n/10), table values
-    /// rounded to 0.1 dB so the formula must land within ±0.05 dB. `true` = value given in the
-    /// project brief as the check; `false` = recalled from the table (from memory) and consistent
-    /// with the Annex E formula. 160 Hz (−13.4) is left out: the formula gives −13.350, exactly on
-    /// the rounding edge.
+    /// rounded to 0.1 dB so the formula must land within ±0.05 dB. `true` = a Table 3 value the
+    /// check was first written against; `false` = recalled from the table (from memory) and
+    /// consistent with the Annex E formula. 160 Hz (−13.4) is left out: the formula gives
+    /// −13.350, exactly on the rounding edge.
     #[test]
     fn a_weighting_matches_iec_61672_table_3() {
         let table: [(i32, f64, bool); 26] = [
@@ -561,7 +562,7 @@ mod tests {
             (12, -6.6, true),
             (13, -9.3, true),
         ];
-        for (n, expected_db, _from_brief) in table {
+        for (n, expected_db, _first_set) in table {
             let f = 1000.0 * 10f64.powf(f64::from(n) / 10.0);
             let a = a_weighting_db(f).expect("f > 0");
             assert!(
@@ -573,8 +574,8 @@ mod tests {
         assert_eq!(a_weighting_db(-5.0), None);
     }
 
-    /// ISO 226:2003 / ISO 389-7:2005 values from the brief at the table points, and log-frequency
-    /// interpolation (closed form: midpoint in log f gives the mean of the two levels).
+    /// ISO 226:2003 (8–12.5 kHz) / ISO 389-7:2005 (14–18 kHz) values at the table points, and
+    /// log-frequency interpolation (closed form: midpoint in log f gives the mean of the two levels).
     #[test]
     fn hearing_threshold_table_and_interpolation() {
         for (f, l) in [

@@ -40,8 +40,8 @@ pub struct BootstrapSizing {
 
 /// Bootstrap capacitor: C_boot ≥ Q_total/ΔV with
 /// Q_total = Q_g + I_leak·D_max/f + I_q/f (*Bootstrap Circuitry Selection for
-/// Half-Bridge Configurations*, TI SLUA887, 2018; from memory). The quiescent term over the
-/// whole period is conservative. Rule of thumb C_boot ≥ 10·Q_g/V_drv (common
+/// Half-Bridge Configurations*, application report, 2018; title and year, author
+/// not checked; from memory). The quiescent term over the whole period is conservative. Rule of thumb C_boot ≥ 10·Q_g/V_drv (common
 /// practice). `None` for non-positive f, ΔV, V_drv or a duty outside 0..=1.
 pub fn bootstrap_sizing(inp: &BootstrapInputs) -> Option<BootstrapSizing> {
     let ok = inp.f_sw_hz > 0.0
@@ -70,7 +70,8 @@ pub fn bootstrap_sizing(inp: &BootstrapInputs) -> Option<BootstrapSizing> {
 }
 
 /// Highest duty that leaves the low side on for `t_refresh_s` each period:
-/// D_max = 1 − t_refresh·f (brief §7; from memory). `None` when no duty is left
+/// D_max = 1 − t_refresh·f (the bootstrap report above, 2018; from memory: the low
+/// side must conduct `t_refresh` of every period `1/f`). `None` when no duty is left
 /// (the bootstrap cannot refresh) or inputs are invalid; 100 % duty needs a
 /// charge pump.
 pub fn max_duty_from_refresh(t_refresh_s: f64, f_sw_hz: f64) -> Option<f64> {

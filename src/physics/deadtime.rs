@@ -1,14 +1,15 @@
 //! Dead time of a complementary leg.
 //!
-//! Owns: the minimum dead time from switching times (Infineon AN2007-04, *How to
-//! calculate and minimize the dead time requirement for IGBTs*, 2007; from
+//! Owns: the minimum dead time from switching times (*How to calculate and
+//! minimize the dead time requirement for IGBTs properly*, application note,
+//! 2007; title and year, author not checked; "the dead-time note" below; from
 //! memory), the output-voltage error it causes and the duty range it leaves.
 //! Rounding up to the timer's encodable dead time belongs to the timer module.
 
 use super::params::{GateDrive, Topology};
 use super::switching::Transitions;
 
-/// Safety margin on the dead-time need (AN2007-04 uses 1.2; from memory).
+/// Safety margin on the dead-time need (the dead-time note uses 1.2; from memory).
 pub const DEFAULT_DEAD_TIME_MARGIN: f64 = 1.2;
 
 /// Inputs of the dead-time need; worst-case datasheet or model values.
@@ -53,9 +54,14 @@ impl DeadTimeInputs {
 }
 
 /// Minimum dead time
-/// t_need = (t_d(off),max + t_f,max − t_d(on),min + mismatch)·margin, floored at 0
-/// (AN2007-04; from memory). `None` if any input is not finite or the margin is
-/// below 1.
+/// t_need = (t_d(off),max + t_f,max − t_d(on),min + mismatch)·margin, floored at 0.
+///
+/// The published form (the dead-time note, 2007; from memory) is
+/// t_dead = [(t_d(off),max − t_d(on),min) + (t_pd,max − t_pd,min)]·1.2, the last
+/// term being the driver's propagation-delay mismatch. Adding the fall time
+/// t_f,max (the device has stopped conducting, not only begun to turn off) is
+/// our own conservative choice, not the note's. `None` if any input is not
+/// finite or the margin is below 1.
 pub fn dead_time_need_s(inp: &DeadTimeInputs) -> Option<f64> {
     let vals = [
         inp.t_d_off_max_s,
@@ -105,7 +111,8 @@ mod tests {
     use crate::physics::params::fixtures::{example_drive, example_switch};
     use crate::physics::switching::transitions;
 
-    /// The AN2007-04 form by hand: (400 + 200 − 100 + 50) ns × 1.2 = 660 ns.
+    /// Our form (the published one plus the fall time) by hand:
+    /// (400 + 200 − 100 + 50) ns × 1.2 = 660 ns.
     #[test]
     fn need_by_hand() {
         let inp = DeadTimeInputs::new(400e-9, 200e-9, 100e-9, 50e-9);

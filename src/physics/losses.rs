@@ -206,8 +206,9 @@ pub fn ramp_mean_square_a2(d: f64, i_start_a: f64, i_end_a: f64) -> f64 {
 }
 
 /// Dead-time body-diode conduction for one dead time per period:
-/// V_sd·|I|·t_dead·f (brief §2; two dead times per leg give the usual
-/// V_sd·I·2·t_dead·f when the current is the same at both).
+/// V_sd·|I|·t_dead·f (common practice: the diode carries I at V_sd for t_dead
+/// once a period; two dead times per leg give the usual V_sd·I·2·t_dead·f when
+/// the current is the same at both).
 pub fn dead_time_diode_w(v_sd_v: f64, i_a: f64, t_dead_s: f64, f_sw_hz: f64) -> f64 {
     v_sd_v * i_a.abs() * t_dead_s * f_sw_hz
 }
@@ -249,11 +250,12 @@ pub enum OssBasis {
 ///    capacitance C ∝ V^(−1/2) (Sze, Ng, *Physics of Semiconductor Devices*, 3rd
 ///    ed., 2007, ch. 2; from memory) gives ∫v·C dv ∝ V^(3/2). As given if no V_spec.
 /// 2. Q_oss given: E = ½·Q_oss·V, the charge-equivalent linear capacitance
-///    C_o(tr) = Q_oss/V (brief §2 "½·C_oss(tr)·V²"; from memory, no published
-///    source checked). Q_oss is taken at the bus voltage; for a capacitance
+///    C_o(tr) = Q_oss/V (the "½·C_oss(tr)·V²" form is common practice; from
+///    memory, no published source checked). Q_oss is taken at the bus voltage; for a capacitance
 ///    falling with voltage this overestimates the stored energy (conservative).
 /// 3. Otherwise ½·C_oss(V)·V² with C_oss(V) = C_oss,spec·√(V_spec/V) (same junction
-///    scaling; the ½·C·V² plain form is brief §2).
+///    scaling; the ½·C·V² plain form is the energy of a linear capacitor,
+///    common practice).
 pub fn output_capacitance_energy_j(sw: &SwitchModel, v_bus_v: f64) -> (f64, OssBasis) {
     let v = v_bus_v.max(0.0);
     if let Some(e) = sw.e_oss_j {
@@ -286,11 +288,12 @@ pub struct GateDriveLoss {
     pub internal_w: f64,
 }
 
-/// Gate-drive loss P = Q_g·V_drv·f (TI SLVAED3A eq. 4), with Q_g scaled to the
-/// actual drive voltage by `switching::total_gate_charge_c`. Half the energy is
-/// spent on each edge and splits in proportion to resistance in that edge's
-/// loop: on R_src : R_ext,on : R_int, off R_snk : R_ext,off : R_int (Balogh,
-/// *Fundamentals of MOSFET and IGBT Gate Driver Circuits*, SLUA618; from memory).
+/// Gate-drive loss P = Q_g·V_drv·f (L. Balogh, *Fundamentals of MOSFET and IGBT
+/// Gate Driver Circuits*, 2002, gate-drive power; from memory), with Q_g scaled
+/// to the actual drive voltage by `switching::total_gate_charge_c`. Half the
+/// energy is spent on each edge and splits in proportion to resistance in that
+/// edge's loop: on R_src : R_ext,on : R_int, off R_snk : R_ext,off : R_int
+/// (Balogh, the same paper; from memory).
 pub fn gate_drive_loss(
     sw: &SwitchModel,
     drive: &GateDrive,
@@ -681,10 +684,11 @@ mod tests {
         ));
     }
 
-    /// Published worked example: Texas Instruments SLVA504A, *Calculating
-    /// Motor Driver Power Dissipation* (2012, rev. 2021), §2.1.1 "High-Side
-    /// Recirculation Example": R_DS(on) 100 mΩ, 1 A load, 20 kHz, 50 % duty,
-    /// 1 V body-diode drop, 100 ns dead time. Its PWM-ing half bridge gives the
+    /// Published worked example: *Calculating Motor Driver Power Dissipation*,
+    /// application report, 2012, revised 2021 (title and year, author not
+    /// checked), §2.1.1 "High-Side Recirculation Example": R_DS(on) 100 mΩ, 1 A
+    /// load, 20 kHz, 50 % duty, 1 V body-diode drop, 100 ns dead time. Its
+    /// PWM-ing half bridge gives the
     /// recirculating switch 100 mΩ·1 A²·(1 − 0.5) + 2·1 V·1 A·100 ns·20 kHz =
     /// 0.054 W and the switching one a conduction part of 100 mΩ·1 A²·0.5 =
     /// 0.05 W (its switching part comes from a given slew rate, which this
@@ -801,7 +805,8 @@ mod tests {
     }
 
     /// Half-bridge: conduction splits I_rms²·R by D and 1 − D; the HS hard-
-    /// switches with the brief §1 energies; LS recovery and dead time by formula.
+    /// switches with the regression-case energies of `switching`; LS recovery and
+    /// dead time by formula.
     #[test]
     fn half_bridge_split_and_lines() {
         let (d, i) = (0.6, 10.0);
@@ -825,7 +830,7 @@ mod tests {
             i * i * 5e-3,
             1e-12
         ));
-        // Brief §1 regression (computed): 74.78 mW at 20 kHz in the HS.
+        // Regression value (computed from the formulas): 74.78 mW at 20 kHz in the HS.
         assert!((hs.switching_w * 1e3 - 74.78).abs() < 5e-3);
         assert_eq!(ls.switching_w, 0.0);
         // Q_rr·V·f into the HS, ¼ of it in the LS body diode.
@@ -1087,7 +1092,7 @@ mod tests {
     }
 
     /// Gate split: with equal loop resistances on both edges the shares are the
-    /// resistance ratios; total Q_g·V_drv·f (TI SLVAED3A eq. 4).
+    /// resistance ratios; total Q_g·V_drv·f (Balogh 2002, gate-drive power).
     #[test]
     fn gate_drive_split_ratios() {
         let sw = example_switch();

@@ -225,7 +225,7 @@ pub(crate) mod fixtures {
         }
     }
 
-    /// The brief's regression drive: 10 V, 2 Ω source, 1 Ω sink, 3 Ω external.
+    /// The regression drive: 10 V, 2 Ω source, 1 Ω sink, 3 Ω external.
     pub(crate) fn example_drive() -> GateDrive {
         GateDrive {
             v_drive_v: 10.0,

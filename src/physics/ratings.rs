@@ -8,6 +8,14 @@
 use super::params::{DiodeModel, GateDrive, SwitchModel, ThermalPath, Topology};
 use super::switching;
 use super::thermal;
+use crate::units::{Dimension, format_quantity};
+
+/// A quantity in a finding's words, through the one formatter of `units`
+/// (three significant digits, engineering prefix, the same symbols as every
+/// other output: °C, mΩ).
+fn q(value_si: f64, dim: Dimension) -> String {
+    format_quantity(value_si, dim, 3)
+}
 
 /// Severity of a finding.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
@@ -60,8 +68,9 @@ pub fn check_voltage_rating(sw: &SwitchModel, v_bus_max_v: f64) -> Option<Findin
             Severity::Error,
             "vdss-below-bus",
             format!(
-                "V_DSS {:.0} V is below the highest bus voltage {:.1} V.",
-                sw.v_dss_v, v_bus_max_v
+                "V_DSS {} is below the highest bus voltage {}.",
+                q(sw.v_dss_v, Dimension::Voltage),
+                q(v_bus_max_v, Dimension::Voltage)
             ),
         ))
     } else if ratio < VDSS_WARN_RATIO {
@@ -69,8 +78,10 @@ pub fn check_voltage_rating(sw: &SwitchModel, v_bus_max_v: f64) -> Option<Findin
             Severity::Warning,
             "vdss-margin-low",
             format!(
-                "V_DSS {:.0} V is only {:.2}x the highest bus {:.1} V; 1.5-2x is usual for ringing and back-EMF spikes.",
-                sw.v_dss_v, ratio, v_bus_max_v
+                "V_DSS {} is only {:.2}x the highest bus {}; 1.5-2x is usual for ringing and back-EMF spikes.",
+                q(sw.v_dss_v, Dimension::Voltage),
+                ratio,
+                q(v_bus_max_v, Dimension::Voltage)
             ),
         ))
     } else {
@@ -89,8 +100,9 @@ pub fn check_gate_voltage(sw: &SwitchModel, drive: &GateDrive) -> Vec<Finding> {
             Severity::Error,
             "vgs-max-exceeded",
             format!(
-                "Gate drive {v:.1} V exceeds V_GS,max {:.1} V.",
-                sw.v_gs_max_v
+                "Gate drive {} exceeds V_GS,max {}.",
+                q(v, Dimension::Voltage),
+                q(sw.v_gs_max_v, Dimension::Voltage)
             ),
         ));
     }
@@ -101,7 +113,9 @@ pub fn check_gate_voltage(sw: &SwitchModel, drive: &GateDrive) -> Vec<Finding> {
             Severity::Warning,
             "drive-below-ztc",
             format!(
-                "Gate drive {v:.1} V is below the zero-temperature-coefficient point {ztc:.1} V; current crowds into hot cells (runaway risk)."
+                "Gate drive {} is below the zero-temperature-coefficient point {}; current crowds into hot cells (runaway risk).",
+                q(v, Dimension::Voltage),
+                q(ztc, Dimension::Voltage)
             ),
         ));
     }
@@ -110,8 +124,9 @@ pub fn check_gate_voltage(sw: &SwitchModel, drive: &GateDrive) -> Vec<Finding> {
             Severity::Warning,
             "drive-below-rdson-spec",
             format!(
-                "Gate drive {v:.1} V is below the {:.1} V at which R_ds(on) is specified; on-resistance will be higher than rated.",
-                sw.r_ds_on_spec_v_gs_v
+                "Gate drive {} is below the {} at which R_ds(on) is specified; on-resistance will be higher than rated.",
+                q(v, Dimension::Voltage),
+                q(sw.r_ds_on_spec_v_gs_v, Dimension::Voltage)
             ),
         ));
     }
@@ -137,15 +152,16 @@ pub fn check_gate_driver_strength(sw: &SwitchModel, drive: &GateDrive) -> Option
     let edge = switching::plateau_voltage_v(sw, 0.0)
         .ok()
         .and_then(|v_plt| switching::charge_time_s(sw.q_gd_c, (drive.v_drive_v - v_plt) / r_on))
-        .map(|t| format!("; Miller edge about {:.0} ns", t * 1e9))
+        .map(|t| format!("; Miller edge about {}", q(t, Dimension::Time)))
         .unwrap_or_default();
     Some(finding(
         Severity::Warning,
         "weak-gate-driver",
         format!(
-            "Gate driver peaks at {:.0} mA source / {:.0} mA sink{edge}; use a gate driver for edges under 100 ns.",
-            i_src * 1e3,
-            i_snk * 1e3
+            "Gate driver peaks at {} source / {} sink{edge}; use a gate driver for edges under {}.",
+            q(i_src, Dimension::Current),
+            q(i_snk, Dimension::Current),
+            q(100e-9, Dimension::Time)
         ),
     ))
 }
@@ -349,7 +365,7 @@ mod tests {
     }
 
     /// A 3.3 V pin with 25 mA peak (132 Ω) is weak (common practice); its Miller
-    /// edge Q_gd/I_g with I_g = (3.3 − 3.0)/133 A is about 5320 ns for 12 nC.
+    /// edge Q_gd/I_g with I_g = (3.3 − 3.0)/133 A is about 5.32 µs for 12 nC.
     #[test]
     fn weak_driver() {
         let sw = example_switch();
@@ -364,7 +380,7 @@ mod tests {
         };
         let f = check_gate_driver_strength(&sw, &pin).unwrap();
         assert_eq!(f.code, "weak-gate-driver");
-        assert!(f.message.contains("5320 ns"), "{}", f.message);
+        assert!(f.message.contains("5.32 µs"), "{}", f.message);
         assert!(!f.message.contains('\n'));
         assert!(check_gate_driver_strength(&sw, &example_drive()).is_none());
     }

@@ -684,7 +684,9 @@ pub fn small_ripple_worst_pp_a(
 }
 
 /// Extra winding copper loss due to ripple: `P = R·I_ac,rms²`, W. For a triangular (small-ripple)
-/// current `I_ac,rms² = ΔI²/12`, so `P = R·ΔI²/12` (brief §5; triangle RMS, closed form).
+/// current `I_ac,rms² = ΔI²/12`, so `P = R·ΔI²/12` (RMS of a triangle wave, closed form;
+/// Erickson, Maksimović, *Fundamentals of Power Electronics*, 2nd ed., 2001, Appendix A; from
+/// memory).
 pub fn ripple_copper_loss_w(r_ohm: f64, ripple_rms_a: f64) -> f64 {
     r_ohm * ripple_rms_a * ripple_rms_a
 }
@@ -814,7 +816,8 @@ mod tests {
         assert!((w.i_avg_a() - 22.0).abs() < 1e-9);
     }
 
-    /// Brief §5 closed forms with back-EMF (Rashid, RL-load chopper, from memory):
+    /// Closed forms with back-EMF (Rashid, *Power Electronics: Circuits, Devices and
+    /// Applications*, step-down converter with RL load; from memory):
     /// I_max = (V/R)(1 − e^(−DT/τ))/(1 − e^(−T/τ)) − E/R, I_min = (V/R)(e^(DT/τ) − 1)/(e^(T/τ) − 1) − E/R.
     #[test]
     fn textbook_closed_form_with_back_emf() {

@@ -6,10 +6,11 @@
 //! total gate charge to the actual drive voltage.
 //!
 //! Sources: Graovac, Pürschel, Kiep, *MOSFET Power Losses Calculation Using the
-//! Data-Sheet Parameters*, 2006 (Graovac 2006 below); Balogh, *Fundamentals of
-//! MOSFET and IGBT Gate Driver Circuits*, SLUA618 (Balogh below); *Power MOSFET
-//! Basics: Understanding Gate Charge and Using it to Assess Switching
-//! Performance*, AN608A, 2016 (AN608A below).
+//! Data-Sheet Parameters*, 2006 (Graovac 2006 below); L. Balogh, *Fundamentals
+//! of MOSFET and IGBT Gate Driver Circuits*, 2002, revised 2017 (Balogh below;
+//! the revision year from memory); *Power MOSFET Basics: Understanding Gate
+//! Charge and Using it to Assess Switching Performance*, application note, 2016
+//! revision, no author named (the gate-charge note below).
 //!
 //! A weak driver (a microcontroller pin of a few mA to 25 mA) is not an error
 //! here: it gives long edges and large energies; `ratings` raises the warning.
@@ -108,7 +109,7 @@ fn finite_positive(name: &'static str, value: f64) -> Result<f64, SwitchingError
 /// Plateau voltage at drain current `i_a`.
 ///
 /// The datasheet plateau is preferred when given; otherwise
-/// V_plt ≈ V_th + I/g_fs (AN608A). Errors when neither is available.
+/// V_plt ≈ V_th + I/g_fs (the gate-charge note). Errors when neither is available.
 pub fn plateau_voltage_v(sw: &SwitchModel, i_a: f64) -> Result<f64, SwitchingError> {
     if let Some(v) = sw.v_plateau_v {
         return finite_positive("v_plateau_v", v);
@@ -405,7 +406,8 @@ fn power_law_integrals(p0: (f64, f64), p1: (f64, f64), a: f64, b: f64) -> (f64, 
 /// on the plateau V_DG = V_DS − V_plt, and below V_DS = V_plt the gate-drain
 /// overlap is accumulated and C_gd is at its largest (the curve's low-voltage
 /// end is used there). This is own reasoning from the definition of C_rss
-/// (AN608A gives the curve at V_GS = 0), confirmed by the ngspice reference.
+/// (the gate-charge note gives the curve at V_GS = 0), confirmed by the ngspice
+/// reference.
 ///
 /// The curve is the one `c_gd_f` interpolates (log-log between points, i.e. a
 /// power law per segment, integrated in closed form; constant beyond the end
@@ -416,7 +418,7 @@ fn power_law_integrals(p0: (f64, f64), p1: (f64, f64), a: f64, b: f64) -> (f64, 
 /// Zhou, Lee, *Analytical Loss Model of Power MOSFET*, IEEE Trans. Power
 /// Electronics 21(2), 2006, model the nonlinear C_gd for the same reason (from
 /// memory). Q = ∫C(v) dv is the definition of charge on a nonlinear
-/// capacitance (AN608A).
+/// capacitance (the gate-charge note).
 pub fn miller_integrals(
     sw: &SwitchModel,
     v_lo_v: f64,
@@ -464,7 +466,7 @@ pub fn miller_integrals(
 
 /// Input capacitance at low V_DS (after the Miller plateau), from the slope of
 /// the datasheet gate-charge curve above the plateau:
-/// C_iss,on = (Q_g − Q_gs − Q_gd)/(V_GS,spec − V_plt) (AN608A describes this
+/// C_iss,on = (Q_g − Q_gs − Q_gd)/(V_GS,spec − V_plt) (the gate-charge note describes this
 /// segment; its slope is C_gs + C_gd at low V_DS, larger than the tabulated
 /// C_iss taken at a high V_DS). The turn-off delay starts from this state.
 ///
@@ -521,7 +523,7 @@ pub fn plateau_at_current_v(sw: &SwitchModel, i_a: f64) -> Result<f64, Switching
 /// plateau at the switched current): Q_gs2 scaled by the gate swing,
 /// Q = Q_gs2·(V_plt(I) − V_th)/(V_plt,ds − V_th), i.e. the input capacitance
 /// between threshold and plateau taken as constant (the same assumption as
-/// `q_gs2_c`; AN608A for the segment). Without a datasheet plateau, Q_gs2.
+/// `q_gs2_c`; the gate-charge note for the segment). Without a datasheet plateau, Q_gs2.
 pub fn current_transition_charge_c(
     sw: &SwitchModel,
     v_plateau_at_i_v: f64,
@@ -682,7 +684,7 @@ pub fn transitions(
 
 /// Total gate charge at the actual drive voltage.
 ///
-/// Piecewise-linear gate-charge curve (AN608A describes the three segments; the
+/// Piecewise-linear gate-charge curve (the gate-charge note describes the three segments; the
 /// linear extension above the plateau is from memory):
 /// Q_g(V_drv) = (Q_gs + Q_gd) + (Q_g − Q_gs − Q_gd)·(V_drv − V_plt)/(V_spec − V_plt)
 /// for V_drv above the plateau. Falls back to the proportional form Q_g·V_drv/V_spec when the data do
@@ -712,10 +714,10 @@ mod tests {
         ((a - b) / b).abs()
     }
 
-    /// Brief §1 computed regression case (regression value, computed from the
+    /// Computed regression case (regression value, worked out from the
     /// formulas, not an external check): Q_gs2 = 3.0 − 1.75 = 1.25 nC, Q_gd 12 nC.
     #[test]
-    fn regression_case_brief_section_1() {
+    fn regression_case_hard_switching() {
         let sw = example_switch();
         let tr = transitions(&sw, &example_drive(), 24.0, 10.0, 10.0, 5e-3).unwrap();
         assert!((tr.v_plateau_on_v - 3.5).abs() < 1e-12);

@@ -103,19 +103,30 @@ pub enum RunawayReason {
     InvalidInput,
 }
 
+/// A temperature in words, through the one formatter of `units`.
+fn celsius(t_c: f64) -> String {
+    crate::units::format_quantity(t_c, crate::units::Dimension::Temperature, 3)
+}
+
 impl std::fmt::Display for RunawayReason {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
             RunawayReason::LoopGainAtLeastOne { t_c, loop_gain } => write!(
                 f,
-                "thermal runaway: loop gain R_th·dP/dT = {loop_gain:.2} at {t_c:.1} °C (needs < 1)"
+                "thermal runaway: loop gain R_th·dP/dT = {loop_gain:.2} at {} (needs < 1)",
+                celsius(*t_c)
             ),
             RunawayReason::NoFixedPointBelowTjMax { t_j_max_c } => write!(
                 f,
-                "thermal runaway: no steady junction temperature below T_j max {t_j_max_c:.0} °C"
+                "thermal runaway: no steady junction temperature below T_j max {}",
+                celsius(*t_j_max_c)
             ),
             RunawayReason::NonFinitePower { t_c } => {
-                write!(f, "the loss model gave no finite power at {t_c:.1} °C")
+                write!(
+                    f,
+                    "the loss model gave no finite power at {}",
+                    celsius(*t_c)
+                )
             }
             RunawayReason::InvalidInput => {
                 f.write_str("ambient, R_th or T_j max is not a usable number")
@@ -164,7 +175,8 @@ pub fn loop_gain<F: Fn(f64) -> f64>(r_th_k_per_w: f64, power_w: &F, t_c: f64) ->
 }
 
 /// Steady junction temperature: the fixed point T = T_a + R_th·P(T) (JEDEC
-/// JESD51 series for R_th(j-a); the fixed-point statement is brief §4).
+/// JESD51 series for the definition of R_th(j-a); solving the steady energy
+/// balance as a fixed point in T is common practice).
 ///
 /// Iterates T ← T_a + R_th·P(T) from T_a, which for a power rising with
 /// temperature climbs monotonically to the lowest fixed point; every second
@@ -281,8 +293,8 @@ pub fn junction_temperature_linear_closed_form(
 }
 
 /// Transient thermal impedance of a Foster network,
-/// Z_th(t) = Σ R_i·(1 − e^(−t/τ_i)) (Infineon AN2008-03, *Thermal equivalent
-/// circuit models*, 2008; from memory). With no Foster pairs it falls back to the
+/// Z_th(t) = Σ R_i·(1 − e^(−t/τ_i)) (*Thermal equivalent circuit models*,
+/// application note, 2008; title and year, author not checked; from memory). With no Foster pairs it falls back to the
 /// steady-state R_th(j-a) for every t > 0 (conservative: no thermal mass). Pairs
 /// with τ ≤ 0 count as instantaneous (their full R). Z(t ≤ 0) = 0 and Z(NaN) = 0.
 /// For t → ∞ Z tends to ΣR_i, which equals R_th(j-a) only if the network
@@ -307,7 +319,8 @@ pub fn z_th_k_per_w(path: &ThermalPath, t_s: f64) -> f64 {
 }
 
 /// Temperature rise at the end of a single rectangular power pulse of `p_w`
-/// lasting `t_s` (stall, start-up): ΔT = P·Z_th(t) (AN2008-03, from memory). With
+/// lasting `t_s` (stall, start-up): ΔT = P·Z_th(t) (*Thermal equivalent circuit
+/// models*, 2008; from memory). With
 /// no Foster pairs this is the steady-state rise P·R_th(j-a).
 pub fn single_pulse_rise_k(path: &ThermalPath, p_w: f64, t_s: f64) -> f64 {
     p_w * z_th_k_per_w(path, t_s)
@@ -367,11 +380,11 @@ mod tests {
     use super::*;
     use crate::physics::params::fixtures::{Lcg, example_drive, example_switch, triangular_load};
 
-    /// Brief §4 computed regression case (regression value, computed from the
+    /// Computed regression case (regression value, worked out from the
     /// formula, not an external check): I_rms² 60.45 A², R25 5 mΩ, linear
     /// α 0.005/K, P_sw 74.78 mW, T_a 40 °C, R_th 40 K/W → 57.017 °C, 0.4254 W.
     #[test]
-    fn regression_case_brief_section_4() {
+    fn regression_case_junction_fixed_point() {
         let p = |t: f64| 0.07478 + 60.45 * 5e-3 * (1.0 + 0.005 * (t - 25.0));
         let res = junction_temperature(40.0, 40.0, 175.0, p);
         let JunctionTemperature::Settled {

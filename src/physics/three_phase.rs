@@ -332,9 +332,10 @@ impl MotorParams {
     }
 
     /// Line-to-line equivalent for six-step: 2R + `r_path_ohm`, 2L, the sector-mean line EMF.
-    /// `r_path_ohm` adds the switches in the current path (2·R_ds(on) is a good value; the
-    /// off-state path holds one channel and one diode or two channels, so 2·R_ds(on) is exact
-    /// for `Chop::Complementary` and a slight overestimate otherwise; 0 ignores them).
+    /// `r_path_ohm` adds the switches in the current path (2·R_ds(on) is our own choice, from
+    /// counting the devices: the off-state path holds one channel and one diode or two channels,
+    /// so 2·R_ds(on) is exact for `Chop::Complementary` and a slight overestimate otherwise; 0
+    /// ignores them).
     pub fn line_line_load(&self, omega_e_rad_s: f64, r_path_ohm: f64) -> MotorLoad {
         MotorLoad {
             r_ohm: 2.0 * self.r_phase_ohm + r_path_ohm,

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:145880bbd3212e49149a80d7619664801fcf8ae3f072af464423d37590af3d5d)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6a0ba0ef04f3f435ac98f2899508b34d475c1ef17d43cca3c8433cb6ff621a91)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -7,29 +7,29 @@
  *   switch         Tarn 40 V, 2.4 mΩ (invented)
  *   topology       half-bridge
  *   objective      least-loss at typical values
- *   frequency      20.006 kHz, edge-aligned
- *   timer          clock 64.00 MHz; divider 1 (register 0); period 3199 ticks (register 3198)
- *   resolution     3199 duty steps (11.6 bits)
- *   dead time      156 ns = 10 ticks (code 0x0A); needed 152 ns
- *   duty limits    compare 30 to 3157 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
- *   feasible band  20.006 kHz to 59.981 kHz
+ *   frequency      20.005 kHz, edge-aligned
+ *   timer          clock 88.00 MHz; divider 1 (register 0); period 4399 ticks (register 4398)
+ *   resolution     4399 duty steps (12.1 bits)
+ *   dead time      159 ns = 14 ticks (code 0x0E); needed 152 ns
+ *   duty limits    compare 41 to 4341 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
+ *   feasible band  20.005 kHz to 59.986 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         135 °C     57.0 °C     78.0 K  ok
  *   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
  *   ripple                 875 mA      363 mA     512 mA  ok
- *   audible            20.000 kHz  20.006 kHz    6.25 Hz  binds
- *   resolution         10.00 bits  11.64 bits  1.64 bits  ok
- *   dead-time              156 ns      152 ns    3.85 ns  ok
- *   duty-range            98.69 %     94.45 %     4.23 %  ok
- *   frequency-band     16.000 kHz  20.006 kHz   4.01 kHz  ok
+ *   audible            20.000 kHz  20.005 kHz    4.55 Hz  binds
+ *   resolution         10.00 bits  12.10 bits  2.10 bits  ok
+ *   dead-time              159 ns      152 ns    6.69 ns  ok
+ *   duty-range            98.68 %     94.46 %     4.22 %  ok
+ *   frequency-band     16.000 kHz  20.005 kHz   4.00 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           33.5 mW
  *   switching            20.8 mW
  *   output capacitance   9.12 mW
  *   reverse recovery     25.2 mW
- *   dead-time diode      18.6 mW
+ *   dead-time diode      18.9 mW
  *   gate drive           32.5 mW
  *   motor ripple copper  2.95 mW
  *   total                143 mW
@@ -38,27 +38,27 @@
  *   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
  *   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
  *   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
- *   ripple, rated case      239 mA peak to peak at 20.006 kHz (continuous), 68.9 mA rms
- *   ripple, high-bus case   363 mA peak to peak at 20.006 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
+ *   ripple, rated case      239 mA peak to peak at 20.005 kHz (continuous), 68.9 mA rms
+ *   ripple, high-bus case   363 mA peak to peak at 20.005 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
  *   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
  *   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
  *   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
  *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
- *   duty-range  94.47 % (limit 98.69 %); ok; hot: V_th min, supply 20.0 V
- *   dead-time   needs 152 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
+ *   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  40.000 kHz (divider 1, 1600 ticks, edge): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
- *   highest-frequency  59.981 kHz (divider 1, 1067 ticks, edge): +210 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
+ *   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +211 mW total loss, +2.7 K junction, -242 mA ripple, -1.58 bits resolution
  *
  * Findings
- *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
  *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
- *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
+ *   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -77,7 +77,7 @@
  *
  * Inputs
  *   belt-feeder.yaml       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
- *   wren-hb24.yaml         sha256 1a237f7132eb02177cc7aad4eaa53f9e189c62da9d7a5fc0290fabb93cb2e5db
+ *   wren-hb24.yaml         sha256 38d1a65b1e934eebd35e6be6a01ac800ee2ae0753edd1982503afa734ca03aa9
  *   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
  */
 #ifndef BELT_FEEDER_PWM_H
@@ -94,25 +94,25 @@
  */
 
 /* Timer input clock, before the divider. */
-#define BELT_FEEDER_PWM_CLOCK_HZ 64000000UL
+#define BELT_FEEDER_PWM_CLOCK_HZ 88000000UL
 /* Divider (prescaler) ratio and the value the divider register takes. */
 #define BELT_FEEDER_PWM_DIVIDER 1U
 #define BELT_FEEDER_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period register value. */
-#define BELT_FEEDER_PWM_PERIOD_TICKS 3199U
-#define BELT_FEEDER_PWM_PERIOD_REG 3198U
+/* Counter ticks per PWM period and the period register value (counter top). */
+#define BELT_FEEDER_PWM_PERIOD_TICKS 4399U
+#define BELT_FEEDER_PWM_PERIOD_REG 4398U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define BELT_FEEDER_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (20.006 kHz). */
-#define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20006252ULL
+/* PWM frequency in millihertz (20.005 kHz). */
+#define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20004546ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define BELT_FEEDER_PWM_DUTY_STEPS 3199U
-/* Dead-time register code and the ticks it gives (156.2 ns). */
-#define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0AU
-#define BELT_FEEDER_PWM_DEAD_TIME_TICKS 10U
+#define BELT_FEEDER_PWM_DUTY_STEPS 4399U
+/* Dead-time register code and the ticks it gives (159.1 ns). */
+#define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0EU
+#define BELT_FEEDER_PWM_DEAD_TIME_TICKS 14U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define BELT_FEEDER_PWM_COMPARE_MIN 30U
-#define BELT_FEEDER_PWM_COMPARE_MAX 3157U
+#define BELT_FEEDER_PWM_COMPARE_MIN 41U
+#define BELT_FEEDER_PWM_COMPARE_MAX 4341U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low side on, braking a turning motor, once enabled). */
 #define BELT_FEEDER_PWM_INIT_COMPARE 0U
@@ -124,10 +124,10 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- BELT_FEEDER_PWM_DIVIDER_REG (divider 1).
- *   3. Period register <- BELT_FEEDER_PWM_PERIOD_REG (3199 ticks per period).
+ *   3. Period register (counter top) <- BELT_FEEDER_PWM_PERIOD_REG (4399 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see BELT_FEEDER_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
- *   6. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before the complementary outputs are ever enabled.
+ *   6. Dead-time register <- BELT_FEEDER_PWM_DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before the complementary outputs are ever enabled.
  *   7. Compare register(s) <- BELT_FEEDER_PWM_INIT_COMPARE (outputs still disabled), then values from belt_feeder_pwm_compare_from_q16() only.
  *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
  *   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).

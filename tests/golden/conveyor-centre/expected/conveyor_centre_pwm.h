@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:7deeade8d0b34f323e60c9b007c446e401d8673a0c865c806ce79505b16d5f68)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:fc6ebd0ac769bcef27683cc4abfe5614dda03ebc4bbf9147a3391911b9d7f79a)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -7,29 +7,29 @@
  *   switch         Tarn 40 V, 2.4 mΩ (invented)
  *   topology       half-bridge
  *   objective      least-loss at typical values
- *   frequency      20.013 kHz, centre-aligned
- *   timer          clock 64.00 MHz; divider 1 (register 0); period 3198 ticks (register 1599)
- *   resolution     1599 duty steps (10.6 bits)
- *   dead time      156 ns = 10 ticks (code 0x0A); needed 152 ns
- *   duty limits    compare 15 to 1578 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
- *   feasible band  20.013 kHz to 31.250 kHz
+ *   frequency      20.009 kHz, centre-aligned
+ *   timer          clock 88.00 MHz; divider 1 (register 0); period 4398 ticks (register 2199)
+ *   resolution     2199 duty steps (11.1 bits)
+ *   dead time      159 ns = 14 ticks (code 0x0E); needed 152 ns
+ *   duty limits    compare 21 to 2170 (1.0 % to 98.7 %); the load needs 67.6 % to 94.5 %
+ *   feasible band  20.009 kHz to 42.969 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         135 °C     57.0 °C     78.0 K  ok
  *   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
  *   ripple                 875 mA      363 mA     512 mA  ok
- *   audible            20.000 kHz  20.013 kHz    12.5 Hz  binds
- *   resolution         10.00 bits  10.64 bits  0.64 bits  ok
- *   dead-time              156 ns      152 ns    3.85 ns  ok
- *   duty-range            98.69 %     94.45 %     4.23 %  ok
- *   frequency-band     16.000 kHz  20.013 kHz   4.01 kHz  ok
+ *   audible            20.000 kHz  20.009 kHz    9.10 Hz  binds
+ *   resolution         10.00 bits  11.10 bits  1.10 bits  ok
+ *   dead-time              159 ns      152 ns    6.69 ns  ok
+ *   duty-range            98.68 %     94.46 %     4.22 %  ok
+ *   frequency-band     16.000 kHz  20.009 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           33.5 mW
  *   switching            20.8 mW
- *   output capacitance   9.13 mW
+ *   output capacitance   9.12 mW
  *   reverse recovery     25.2 mW
- *   dead-time diode      18.6 mW
+ *   dead-time diode      18.9 mW
  *   gate drive           32.5 mW
  *   motor ripple copper  2.94 mW
  *   total                143 mW
@@ -38,27 +38,27 @@
  *   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
  *   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
  *   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
- *   ripple, rated case      239 mA peak to peak at 20.013 kHz (continuous), 68.9 mA rms
- *   ripple, high-bus case   363 mA peak to peak at 20.013 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
+ *   ripple, rated case      239 mA peak to peak at 20.009 kHz (continuous), 68.9 mA rms
+ *   ripple, high-bus case   363 mA peak to peak at 20.009 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
  *   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
  * Worst case over part and operating spreads
  *   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
  *   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
  *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
- *   duty-range  94.47 % (limit 98.69 %); ok; hot: V_th min, supply 20.0 V
- *   dead-time   needs 152 ns against 156 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
+ *   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  25.000 kHz (divider 1, 2560 ticks, centre): +25 mW total loss, +0.3 K junction, -72 mA ripple, -0.32 bits resolution
- *   highest-frequency  31.250 kHz (divider 1, 2048 ticks, centre): +58 mW total loss, +0.8 K junction, -130 mA ripple, -0.64 bits resolution
+ *   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
+ *   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +120 mW total loss, +1.6 K junction, -194 mA ripple, -1.10 bits resolution
  *
  * Findings
- *   warning  V_DSS 40 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
  *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
- *   info     the dead time costs 75.0 mV of mean output voltage (0.31 % of the nominal supply), opposing the current
+ *   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
@@ -77,7 +77,7 @@
  *
  * Inputs
  *   conveyor-centre.yaml   sha256 a3570c61c199a289d93fb96502a4b8d4dd03685b8a8dd455f5c4a53cf0e79222
- *   wren-hb24.yaml         sha256 32a1c1b866e4c85707be1d9a3a2674e898e2eceb947b28a87e8875609a518c51
+ *   wren-hb24.yaml         sha256 15f203d6d468c9f181ee09a55f6c5a5b17a259432b040956b9080e54de6176f6
  *   switches/tarn-40.yaml  sha256 ddaf7d2d8d9b62f26d8c2e1897217078e60643829b1b9152b17c9916735e7376
  */
 #ifndef CONVEYOR_CENTRE_PWM_H
@@ -94,25 +94,25 @@
  */
 
 /* Timer input clock, before the divider. */
-#define CONVEYOR_CENTRE_PWM_CLOCK_HZ 64000000UL
+#define CONVEYOR_CENTRE_PWM_CLOCK_HZ 88000000UL
 /* Divider (prescaler) ratio and the value the divider register takes. */
 #define CONVEYOR_CENTRE_PWM_DIVIDER 1U
 #define CONVEYOR_CENTRE_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period register value. */
-#define CONVEYOR_CENTRE_PWM_PERIOD_TICKS 3198U
-#define CONVEYOR_CENTRE_PWM_PERIOD_REG 1599U
+/* Counter ticks per PWM period and the period register value (counter top). */
+#define CONVEYOR_CENTRE_PWM_PERIOD_TICKS 4398U
+#define CONVEYOR_CENTRE_PWM_PERIOD_REG 2199U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED 1
-/* PWM frequency in millihertz (20.013 kHz). */
-#define CONVEYOR_CENTRE_PWM_FREQUENCY_MILLIHZ 20012508ULL
+/* PWM frequency in millihertz (20.009 kHz). */
+#define CONVEYOR_CENTRE_PWM_FREQUENCY_MILLIHZ 20009095ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define CONVEYOR_CENTRE_PWM_DUTY_STEPS 1599U
-/* Dead-time register code and the ticks it gives (156.2 ns). */
-#define CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE 0x0AU
-#define CONVEYOR_CENTRE_PWM_DEAD_TIME_TICKS 10U
+#define CONVEYOR_CENTRE_PWM_DUTY_STEPS 2199U
+/* Dead-time register code and the ticks it gives (159.1 ns). */
+#define CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE 0x0EU
+#define CONVEYOR_CENTRE_PWM_DEAD_TIME_TICKS 14U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define CONVEYOR_CENTRE_PWM_COMPARE_MIN 15U
-#define CONVEYOR_CENTRE_PWM_COMPARE_MAX 1578U
+#define CONVEYOR_CENTRE_PWM_COMPARE_MIN 21U
+#define CONVEYOR_CENTRE_PWM_COMPARE_MAX 2170U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low side on, braking a turning motor, once enabled). */
 #define CONVEYOR_CENTRE_PWM_INIT_COMPARE 0U
@@ -124,10 +124,10 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- CONVEYOR_CENTRE_PWM_DIVIDER_REG (divider 1).
- *   3. Period register <- CONVEYOR_CENTRE_PWM_PERIOD_REG (3198 ticks per period).
+ *   3. Period register (counter top) <- CONVEYOR_CENTRE_PWM_PERIOD_REG (4398 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see CONVEYOR_CENTRE_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
- *   6. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (10 ticks, 156.2 ns); write it before the complementary outputs are ever enabled.
+ *   6. Dead-time register <- CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before the complementary outputs are ever enabled.
  *   7. Compare register(s) <- CONVEYOR_CENTRE_PWM_INIT_COMPARE (outputs still disabled), then values from conveyor_centre_pwm_compare_from_q16() only.
  *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
  *   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:72220063f0ed267a53b0ab378be5130f69bbe70c86e3ceb19e832a50543200c4)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:25d69f11577cda783298cfb6cef7bbab15e4e98f21aec6e1e17a70b6ab2a46d8)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -79,7 +79,7 @@
  *
  * Inputs
  *   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
- *   osprey-3p48.yaml          sha256 151aaadf91bc53ae976a3f2a5b573cfa3d8f4a4404dc26e8310ca45043e6ffc9
+ *   osprey-3p48.yaml          sha256 3fd448f55930a4e71577835d929b781c9d700d347a59ec5bd33b03bb2f50c69c
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef PUMP_BLDC_PWM_H
@@ -100,7 +100,7 @@
 /* Divider (prescaler) ratio and the value the divider register takes. */
 #define PUMP_BLDC_PWM_DIVIDER 1U
 #define PUMP_BLDC_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period register value. */
+/* Counter ticks per PWM period and the period register value (counter top). */
 #define PUMP_BLDC_PWM_PERIOD_TICKS 5998U
 #define PUMP_BLDC_PWM_PERIOD_REG 2999U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -124,7 +124,7 @@
 /* Three-phase bridge: channels A, B and C share the period, the compare
  * limits and the dead time above; the same compare functions serve all three. */
 #define PUMP_BLDC_PWM_CHANNELS 3U
-/* ADC trigger: the compare value matched on the UP-count, 400.0 ns
+/* ADC trigger (a spare compare channel): the compare value matched on the UP-count, 400.0 ns
  * before the counter top, so the sample is centred on the top. Under the PWM
  * mode above (high side on while the counter is below the compare) each high-
  * side pulse is centred on the counter bottom, so the top is the middle of
@@ -138,7 +138,7 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- PUMP_BLDC_PWM_DIVIDER_REG (divider 1).
- *   3. Period register <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
+ *   3. Period register (counter top) <- PUMP_BLDC_PWM_PERIOD_REG (5998 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
  *   6. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.

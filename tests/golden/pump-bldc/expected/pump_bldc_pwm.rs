@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:70ba6434ad7f02ba741b114a99c9286ac7dac96318a5f20b2375ee169b3b22cb)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:8adea48fadfd5d50f3c8794fe4a820d96b7ae418455ce692c3361e46a19511cd)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -78,7 +78,7 @@
 //!
 //! Inputs
 //!   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
-//!   osprey-3p48.yaml          sha256 151aaadf91bc53ae976a3f2a5b573cfa3d8f4a4404dc26e8310ca45043e6ffc9
+//!   osprey-3p48.yaml          sha256 3fd448f55930a4e71577835d929b781c9d700d347a59ec5bd33b03bb2f50c69c
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
@@ -90,7 +90,7 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register <- PERIOD_REG (5998 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (5998 ticks per period).
 //!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
 //!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
@@ -109,7 +109,7 @@ pub const DIVIDER: u32 = 1;
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 5998;
-/// Value of the period register.
+/// Value of the period register (counter top).
 pub const PERIOD_REG: u32 = 2999;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
@@ -134,7 +134,7 @@ pub const DUTY_ZERO_BRAKES: bool = true;
 /// Three-phase bridge: channels A, B and C share the period, the compare
 /// limits and the dead time; the same [`Duty`] conversion serves all three.
 pub const CHANNELS: usize = 3;
-/// ADC trigger: the compare value matched on the UP-count, 400.0 ns before
+/// ADC trigger (a spare compare channel): the compare value matched on the UP-count, 400.0 ns before
 /// the counter top, so the sample is centred on the top. Under the PWM mode
 /// above (high side on while the counter is below the compare) each high-side
 /// pulse is centred on the counter bottom, so the top is the middle of the

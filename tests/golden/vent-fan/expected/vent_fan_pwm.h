@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9e89b06e08da189624f88bc8cb68520c8c1a4e0aa9a4a4923861a92e0ad43328)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:80233021ebe3c43fa37ad61aa9df91a281cb6ee62e491c7c5af57628eb35e120)
  *
  * Chosen setting
  *   design         vent-fan
@@ -7,51 +7,51 @@
  *   switch         Scree 60 V, 7.5 mΩ (invented)
  *   topology       low-side
  *   objective      least-loss at typical values
- *   frequency      13.311 kHz, edge-aligned
- *   timer          clock 48.00 MHz; divider 1 (register 0); period 3606 ticks (register 3605)
- *   resolution     3606 duty steps (11.8 bits)
- *   duty limits    compare 10 to 3596 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
- *   feasible band  8.0985 kHz to 25.000 kHz
+ *   frequency      13.313 kHz, edge-aligned
+ *   timer          clock 44.00 MHz; divider 1 (register 0); period 3305 ticks (register 3304)
+ *   resolution     3305 duty steps (11.7 bits)
+ *   duty limits    compare 9 to 3296 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+ *   feasible band  8.0987 kHz to 25.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         110 °C     48.3 °C     61.7 K  ok
  *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
  *   ripple                 600 mA      366 mA     234 mA  ok
  *   audible               0 lines     0 lines    0 lines  ok
- *   resolution          8.00 bits  11.82 bits  3.82 bits  ok
- *   duty-range            99.72 %     99.07 %     0.65 %  ok
- *   frequency-band     25.000 kHz  13.311 kHz   11.7 kHz  ok
+ *   resolution          8.00 bits  11.69 bits  3.69 bits  ok
+ *   duty-range            99.73 %     99.07 %     0.66 %  ok
+ *   frequency-band     25.000 kHz  13.313 kHz   11.7 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           10.9 mW
  *   switching            10.1 mW
  *   output capacitance   364 µW
- *   reverse recovery     319 µW
+ *   reverse recovery     320 µW
  *   dead-time diode      0.00 W
- *   gate drive           3.19 mW
+ *   gate drive           3.20 mW
  *   freewheel diode      73.3 mW
- *   motor ripple copper  6.92 mW
+ *   motor ripple copper  6.91 mW
  *   total                105 mW
  *
  * Operating figures
  *   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
  *   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
  *   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
- *   ripple, rated case      209 mA peak to peak at 13.311 kHz (continuous), 60.3 mA rms
- *   ripple, high-bus case   366 mA peak to peak at 13.311 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+ *   ripple, rated case      209 mA peak to peak at 13.313 kHz (continuous), 60.3 mA rms
+ *   ripple, high-bus case   366 mA peak to peak at 13.313 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
  *   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
  *
  * Worst case over part and operating spreads
  *   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
  *   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
  *   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
- *   duty-range  99.11 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+ *   duty-range  99.11 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Alternatives
- *   rounder-frequency  10.000 kHz (divider 1, 4800 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
- *   highest-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
+ *   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
+ *   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
  *
  * Findings
  *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -73,7 +73,7 @@
  *
  * Inputs
  *   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
- *   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+ *   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
  *   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
  */
 #ifndef VENT_FAN_PWM_H
@@ -90,25 +90,25 @@
  */
 
 /* Timer input clock, before the divider. */
-#define VENT_FAN_PWM_CLOCK_HZ 48000000UL
+#define VENT_FAN_PWM_CLOCK_HZ 44000000UL
 /* Divider (prescaler) ratio and the value the divider register takes. */
 #define VENT_FAN_PWM_DIVIDER 1U
 #define VENT_FAN_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period register value. */
-#define VENT_FAN_PWM_PERIOD_TICKS 3606U
-#define VENT_FAN_PWM_PERIOD_REG 3605U
+/* Counter ticks per PWM period and the period register value (counter top). */
+#define VENT_FAN_PWM_PERIOD_TICKS 3305U
+#define VENT_FAN_PWM_PERIOD_REG 3304U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define VENT_FAN_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (13.311 kHz). */
-#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13311148ULL
+/* PWM frequency in millihertz (13.313 kHz). */
+#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13313162ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define VENT_FAN_PWM_DUTY_STEPS 3606U
+#define VENT_FAN_PWM_DUTY_STEPS 3305U
 /* Dead-time register code and the ticks it gives (0.0 ns). */
 #define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
 #define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
-#define VENT_FAN_PWM_COMPARE_MIN 10U
-#define VENT_FAN_PWM_COMPARE_MAX 3596U
+#define VENT_FAN_PWM_COMPARE_MIN 9U
+#define VENT_FAN_PWM_COMPARE_MAX 3296U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the switch stays off). */
 #define VENT_FAN_PWM_INIT_COMPARE 0U
@@ -120,7 +120,7 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
- *   3. Period register <- VENT_FAN_PWM_PERIOD_REG (3606 ticks per period).
+ *   3. Period register (counter top) <- VENT_FAN_PWM_PERIOD_REG (3305 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
  *   6. Compare register(s) <- VENT_FAN_PWM_INIT_COMPARE (outputs still disabled), then values from vent_fan_pwm_compare_from_q16() only.

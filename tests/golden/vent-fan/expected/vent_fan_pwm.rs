@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9d3653ec67b90bd760d57af57d3336ab3743044b74f3b89783866e1f103d8a58)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:15ff75172f93eb23cba1a93175a4cdc92357d2755514496d5d82fc9ccfd7fd7e)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -6,51 +6,51 @@
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
 //!   objective      least-loss at typical values
-//!   frequency      13.311 kHz, edge-aligned
-//!   timer          clock 48.00 MHz; divider 1 (register 0); period 3606 ticks (register 3605)
-//!   resolution     3606 duty steps (11.8 bits)
-//!   duty limits    compare 10 to 3596 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
-//!   feasible band  8.0985 kHz to 25.000 kHz
+//!   frequency      13.313 kHz, edge-aligned
+//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3305 ticks (register 3304)
+//!   resolution     3305 duty steps (11.7 bits)
+//!   duty limits    compare 9 to 3296 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+//!   feasible band  8.0987 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         110 °C     48.3 °C     61.7 K  ok
 //!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
 //!   ripple                 600 mA      366 mA     234 mA  ok
 //!   audible               0 lines     0 lines    0 lines  ok
-//!   resolution          8.00 bits  11.82 bits  3.82 bits  ok
-//!   duty-range            99.72 %     99.07 %     0.65 %  ok
-//!   frequency-band     25.000 kHz  13.311 kHz   11.7 kHz  ok
+//!   resolution          8.00 bits  11.69 bits  3.69 bits  ok
+//!   duty-range            99.73 %     99.07 %     0.66 %  ok
+//!   frequency-band     25.000 kHz  13.313 kHz   11.7 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
 //!   switching            10.1 mW
 //!   output capacitance   364 µW
-//!   reverse recovery     319 µW
+//!   reverse recovery     320 µW
 //!   dead-time diode      0.00 W
-//!   gate drive           3.19 mW
+//!   gate drive           3.20 mW
 //!   freewheel diode      73.3 mW
-//!   motor ripple copper  6.92 mW
+//!   motor ripple copper  6.91 mW
 //!   total                105 mW
 //!
 //! Operating figures
 //!   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
 //!   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
 //!   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
-//!   ripple, rated case      209 mA peak to peak at 13.311 kHz (continuous), 60.3 mA rms
-//!   ripple, high-bus case   366 mA peak to peak at 13.311 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+//!   ripple, rated case      209 mA peak to peak at 13.313 kHz (continuous), 60.3 mA rms
+//!   ripple, high-bus case   366 mA peak to peak at 13.313 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
 //!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
 //!   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
-//!   duty-range  99.11 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
+//!   duty-range  99.11 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Alternatives
-//!   rounder-frequency  10.000 kHz (divider 1, 4800 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
-//!   highest-frequency  25.000 kHz (divider 1, 1920 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
+//!   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
+//!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -72,7 +72,7 @@
 //!
 //! Inputs
 //!   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
-//!   kite-ls12.yaml          sha256 ff2b3493711ff073c7276a662b0e38e02f13fc005c79bf92c0ef5918472d0011
+//!   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
 //!   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
 //!
 //! PWM mode and polarity these constants assume: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
@@ -84,7 +84,7 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register <- PERIOD_REG (3606 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (3305 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
 //!   6. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
@@ -94,29 +94,29 @@
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
 /// Timer input clock, before the divider, Hz.
-pub const CLOCK_HZ: u64 = 48000000;
+pub const CLOCK_HZ: u64 = 44000000;
 /// Divider (prescaler) ratio.
 pub const DIVIDER: u32 = 1;
 /// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3606;
-/// Value of the period register.
-pub const PERIOD_REG: u32 = 3605;
+pub const PERIOD_TICKS: u32 = 3305;
+/// Value of the period register (counter top).
+pub const PERIOD_REG: u32 = 3304;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (13.311 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 13311148;
+/// PWM frequency in millihertz (13.313 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13313162;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3606;
+pub const DUTY_STEPS: u32 = 3305;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
 /// Dead-time ticks the code gives.
 pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 10;
+pub const COMPARE_MIN: u32 = 9;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3596;
+pub const COMPARE_MAX: u32 = 3296;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the switch stays off).
 pub const INIT_COMPARE: u32 = 0;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:aad7b3a1f0a22963203bfd7bc05f1e912830bbd0e652b792694e459b4a939ae3)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:eab97bb01d1da5bc0c1d08907266e3580895809effd784fa28ad96240a58ce2a)
  *
  * Chosen setting
  *   design         winch
@@ -76,7 +76,7 @@
  *
  * Inputs
  *   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
- *   heron-hb48.yaml           sha256 ce518ea7920ed93ec2f984833776be60a7dde6659acb848337b34d6df0528510
+ *   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
  *   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
  */
 #ifndef WINCH_PWM_H
@@ -97,7 +97,7 @@
 /* Divider (prescaler) ratio and the value the divider register takes. */
 #define WINCH_PWM_DIVIDER 1U
 #define WINCH_PWM_DIVIDER_REG 0U
-/* Counter ticks per PWM period and the period register value. */
+/* Counter ticks per PWM period and the period register value (counter top). */
 #define WINCH_PWM_PERIOD_TICKS 11784U
 #define WINCH_PWM_PERIOD_REG 5892U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
@@ -123,7 +123,7 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
- *   3. Period register <- WINCH_PWM_PERIOD_REG (11784 ticks per period).
+ *   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (11784 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
  *   6. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:5ed96758f93b1a667e969da6aaa381a0bdf7427e80df41d762e2b1863bde7bb7)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:ecbdccd4d53cfd1bd2431ef41b29f1637965b2c073b1cccda679f9168cf43832)
 //!
 //! Chosen setting
 //!   design         winch
@@ -75,7 +75,7 @@
 //!
 //! Inputs
 //!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
-//!   heron-hb48.yaml           sha256 ce518ea7920ed93ec2f984833776be60a7dde6659acb848337b34d6df0528510
+//!   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
@@ -87,7 +87,7 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register <- PERIOD_REG (11784 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (11784 ticks per period).
 //!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
 //!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
@@ -105,7 +105,7 @@ pub const DIVIDER: u32 = 1;
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
 pub const PERIOD_TICKS: u32 = 11784;
-/// Value of the period register.
+/// Value of the period register (counter top).
 pub const PERIOD_REG: u32 = 5892;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = true;
