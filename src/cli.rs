@@ -174,6 +174,9 @@ pub enum Failure {
     Input(InputError),
     /// A usage or output problem the user must fix: exit 2.
     Usage(String),
+    /// The register-level check contradicts the model: an internal error,
+    /// exit 3, nothing written.
+    Internal(String),
 }
 
 impl From<InputError> for Failure {
@@ -209,6 +212,10 @@ pub fn main() -> ExitCode {
         Err(Failure::Usage(m)) => {
             let _ = writeln!(stderr, "error: {m}");
             ExitCode::from(2)
+        }
+        Err(Failure::Internal(m)) => {
+            let _ = writeln!(stderr, "internal error: {m}");
+            ExitCode::from(3)
         }
     }
 }
@@ -269,6 +276,14 @@ pub fn solve_design(
                 .unwrap_or_else(|| "no timer setting could be evaluated".into()),
         )
     })?;
+    let mut plan = plan;
+    plan.register_check = crate::register_check::check_solution(&design, &ev, &solution);
+    if !plan.register_check.disagreements.is_empty() {
+        return Err(Failure::Internal(format!(
+            "the registers this plan would write do not do what its model says, so nothing was written; please report it with the input files:\n  {}",
+            plan.register_check.disagreements.join("\n  ")
+        )));
+    }
     Ok(Solved {
         feasible: plan.feasible,
         setting_found: solution.feasible,

@@ -861,6 +861,17 @@ fn stage_literals(plan: &Plan) -> StageLiterals {
         "the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on)."
     }
     .to_string();
+    // How the second leg of an H-bridge is wired to the same counter (the model and the
+    // register check assume exactly this; README "Leg duties and carrier").
+    let pwm_mode = match plan.topology.as_str() {
+        "h-bridge-bipolar" => format!(
+            "{pwm_mode} Leg A takes the compare; leg B takes the SAME compare with its output polarity inverted (its high side active while the counter is at or above the compare), so the diagonals alternate: +V_bus while leg A's high side is on, −V_bus otherwise."
+        ),
+        "h-bridge-unipolar" => format!(
+            "{pwm_mode} Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency)."
+        ),
+        _ => pwm_mode,
+    };
     let (init, brakes, lines): (u64, bool, Vec<&str>) = match plan.topology.as_str() {
         "low-side" => (
             0,

@@ -11,6 +11,7 @@ use sha2::{Digest, Sha256};
 
 use crate::design::Design;
 use crate::model::{self, DeviceFigures, Evaluator, LossFigures, ThreePhaseCase};
+use crate::physics::acoustics::AudibleMode;
 use crate::physics::bootstrap::{self, BootstrapInputs};
 use crate::physics::deadtime;
 use crate::physics::params::Topology;
@@ -186,6 +187,10 @@ pub struct Plan {
     pub conflict: Vec<String>,
     pub cases: Vec<CaseOut>,
     pub load: LoadOut,
+    /// What the register-level verifier measured on the written registers
+    /// (chosen setting; alternatives' disagreements included): filled by
+    /// `register_check::check_solution` before anything is written.
+    pub register_check: RegisterCheck,
     pub assumptions: Vec<String>,
     pub cautions: Vec<String>,
     pub inputs: Vec<InputOut>,
@@ -443,6 +448,37 @@ pub struct Pwm {
     pub shortest_low_pulse_s: f64,
 }
 
+/// What the verifier measured on the written registers.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct RegisterCheck {
+    /// Shortest high-side output pulse at `compare_min` (a single switch: its on-pulse), s.
+    pub shortest_high_pulse_s: f64,
+    /// Shortest low-side output pulse at `compare_max` (a single switch: its off-time), s.
+    pub shortest_low_pulse_s: f64,
+    pub cases: Vec<CaseCheck>,
+    /// What was not checked, and why.
+    pub not_checked: Vec<String>,
+    /// Each claim the verifier contradicts, with both figures.
+    pub disagreements: Vec<String>,
+}
+
+/// One operating case on the registers.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct CaseCheck {
+    pub name: String,
+    /// The compare duty simulated (the plan's, to 1/4096 of a count).
+    pub compare_duty: f64,
+    /// Mean motor current, A.
+    pub mean_a: f64,
+    /// Ripple peak to peak, A.
+    pub ripple_pp_a: f64,
+    pub continuous: bool,
+    /// Lowest significant line at or below the hearing limit, Hz.
+    pub lowest_audible_line_hz: Option<f64>,
+    /// A line lies within the guard band of the significance threshold: not compared.
+    pub line_near_threshold: bool,
+}
+
 /// The load and the conduction drops the plan's duties account for.
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct LoadOut {
@@ -694,7 +730,7 @@ pub fn flatten_fields(text: &str) -> BTreeMap<String, String> {
     out
 }
 
-fn topology_name(d: &Design) -> String {
+pub fn topology_name(d: &Design) -> String {
     match (d.board.stage.topology, d.board.stage.modulation) {
         (TopologySpec::LowSide, _) => "low-side".into(),
         (TopologySpec::HalfBridge, _) => "half-bridge".into(),
@@ -857,6 +893,90 @@ fn findings(
     out
 }
 
+/// The PWM record of a candidate (`v_err`: the dead-time voltage error).
+pub fn pwm_out(ev: &Evaluator, c: &Candidate, v_err: f64) -> Pwm {
+    let limits = c.duty_limits;
+    Pwm {
+        frequency_hz: c.setting.frequency_hz,
+        alignment: c.setting.alignment.into(),
+        duty_min: limits.map(|l| l.min_duty).unwrap_or(0.0),
+        duty_max: limits.map(|l| l.max_duty).unwrap_or(0.0),
+        compare_min: limits.map(|l| l.min_counts).unwrap_or(0),
+        compare_max: limits.map(|l| l.max_counts).unwrap_or(0),
+        duty_needed: [c.duty_needed.0, c.duty_needed.1],
+        dead_time_voltage_error_v: v_err,
+        min_pulse_s: ev.timer.compare.min_pulse_s,
+        refresh_s: ev.stage.bootstrap_refresh_s,
+        shortest_high_pulse_s: limits.map(|l| l.shortest_high_pulse_s).unwrap_or(0.0),
+        shortest_low_pulse_s: limits.map(|l| l.shortest_low_pulse_s).unwrap_or(0.0),
+    }
+}
+
+/// The timer record of a candidate.
+pub fn timer_out(ev: &Evaluator, c: &Candidate) -> TimerOut {
+    TimerOut {
+        clock_hz: ev.timer.clock_hz,
+        counter_bits: ev.timer.counter_bits,
+        divider: c.setting.divider,
+        divider_register: c.setting.divider_register,
+        period_ticks: c.setting.period_ticks,
+        period_register: c.setting.period_register,
+        duty_steps: c.setting.duty_steps,
+        resolution_bits: c.setting.resolution_bits,
+        dead_time_ticks: c.dead_time.ticks,
+        dead_time_code: c.dead_time.code,
+        dead_time_s: c.dead_time.seconds,
+        dead_time_need_s: c.dead_time.need_s,
+    }
+}
+
+/// The operating cases of a candidate.
+pub fn cases_out(c: &Candidate) -> Vec<CaseOut> {
+    [&c.rated, &c.high_bus]
+        .iter()
+        .map(|r| CaseOut {
+            name: r.case.name.into(),
+            v_bus_v: r.case.v_bus_v,
+            t_ambient_c: r.case.t_ambient_c,
+            load_current_a: r.case.load_current_a,
+            back_emf_v: r.case.back_emf_v,
+            modulation: r.modulation,
+            compare_duty: r.compare_duty,
+            compare: crate::timer::compare_for_duty(
+                &crate::spread::pwm_setting(&c.setting),
+                r.compare_duty,
+            ),
+            losses_w: r.losses.clone(),
+            junction_c: r.junction_c,
+            ripple_peak_to_peak_a: r.ripple.peak_to_peak_a,
+            lowest_audible_line_hz: r.acoustic.lowest_audible_line_hz,
+        })
+        .collect()
+}
+
+/// The load and drops a candidate's duties account for.
+pub fn load_out(ev: &Evaluator, c: &Candidate) -> LoadOut {
+    let drops = ev.leg_drops(&ev.rated, c.setting.frequency_hz, c.dead_time.seconds);
+    LoadOut {
+        r_ohm: ev.motor_r_ohm,
+        l_h: ev.motor_l_h,
+        r_ds_on_ohm: drops.r_ds_on_ohm,
+        v_sd_v: drops.v_sd_v,
+        freewheel_v_f_v: ev.stage.diode.as_ref().map(|d| d.v_f_v),
+    }
+}
+
+/// The hearing limit the audibility verdict used, Hz.
+pub fn hearing_limit_hz(ev: &Evaluator) -> f64 {
+    match &ev.audible {
+        AudibleMode::Inaudible { hearing_limit_hz }
+        | AudibleMode::AvoidBands {
+            hearing_limit_hz, ..
+        } => *hearing_limit_hz,
+        AudibleMode::Allowed => crate::physics::acoustics::DEFAULT_HEARING_LIMIT_HZ,
+    }
+}
+
 /// Build the plan of a solved design. `None` when the solution has no
 /// candidate at all (nothing in the band could be evaluated).
 pub fn build(d: &Design, ev: &Evaluator, sol: &Solution, pinned_hz: Option<f64>) -> Option<Plan> {
@@ -890,7 +1010,6 @@ pub fn build_on(
     } else {
         &c.rated
     };
-    let limits = c.duty_limits;
     let v_err = if ev.needs_dead_time() {
         deadtime::dead_time_voltage_error_v(
             ev.stage.topology,
@@ -918,34 +1037,8 @@ pub fn build_on(
             .iter()
             .map(|(k, v)| (k.to_string(), v.to_string()))
             .collect(),
-        pwm: Pwm {
-            frequency_hz: c.setting.frequency_hz,
-            alignment: c.setting.alignment.into(),
-            duty_min: limits.map(|l| l.min_duty).unwrap_or(0.0),
-            duty_max: limits.map(|l| l.max_duty).unwrap_or(0.0),
-            compare_min: limits.map(|l| l.min_counts).unwrap_or(0),
-            compare_max: limits.map(|l| l.max_counts).unwrap_or(0),
-            duty_needed: [c.duty_needed.0, c.duty_needed.1],
-            dead_time_voltage_error_v: v_err,
-            min_pulse_s: ev.timer.compare.min_pulse_s,
-            refresh_s: ev.stage.bootstrap_refresh_s,
-            shortest_high_pulse_s: limits.map(|l| l.shortest_high_pulse_s).unwrap_or(0.0),
-            shortest_low_pulse_s: limits.map(|l| l.shortest_low_pulse_s).unwrap_or(0.0),
-        },
-        timer: TimerOut {
-            clock_hz: ev.timer.clock_hz,
-            counter_bits: ev.timer.counter_bits,
-            divider: c.setting.divider,
-            divider_register: c.setting.divider_register,
-            period_ticks: c.setting.period_ticks,
-            period_register: c.setting.period_register,
-            duty_steps: c.setting.duty_steps,
-            resolution_bits: c.setting.resolution_bits,
-            dead_time_ticks: c.dead_time.ticks,
-            dead_time_code: c.dead_time.code,
-            dead_time_s: c.dead_time.seconds,
-            dead_time_need_s: c.dead_time.need_s,
-        },
+        pwm: pwm_out(ev, c, v_err),
+        timer: timer_out(ev, c),
         losses_w: c.rated.losses.clone(),
         thermal: Thermal {
             junction_c: c.rated.junction_c,
@@ -1005,36 +1098,9 @@ pub fn build_on(
             })
             .collect(),
         conflict: sol.conflict.clone(),
-        cases: [&c.rated, &c.high_bus]
-            .iter()
-            .map(|r| CaseOut {
-                name: r.case.name.into(),
-                v_bus_v: r.case.v_bus_v,
-                t_ambient_c: r.case.t_ambient_c,
-                load_current_a: r.case.load_current_a,
-                back_emf_v: r.case.back_emf_v,
-                modulation: r.modulation,
-                compare_duty: r.compare_duty,
-                compare: crate::timer::compare_for_duty(
-                    &crate::spread::pwm_setting(&c.setting),
-                    r.compare_duty,
-                ),
-                losses_w: r.losses.clone(),
-                junction_c: r.junction_c,
-                ripple_peak_to_peak_a: r.ripple.peak_to_peak_a,
-                lowest_audible_line_hz: r.acoustic.lowest_audible_line_hz,
-            })
-            .collect(),
-        load: {
-            let drops = ev.leg_drops(&ev.rated, c.setting.frequency_hz, c.dead_time.seconds);
-            LoadOut {
-                r_ohm: ev.motor_r_ohm,
-                l_h: ev.motor_l_h,
-                r_ds_on_ohm: drops.r_ds_on_ohm,
-                v_sd_v: drops.v_sd_v,
-                freewheel_v_f_v: ev.stage.diode.as_ref().map(|d| d.v_f_v),
-            }
-        },
+        cases: cases_out(c),
+        load: load_out(ev, c),
+        register_check: RegisterCheck::default(),
         assumptions: if ev.three_phase.is_some() {
             THREE_PHASE_ASSUMPTIONS
         } else {

@@ -21,9 +21,10 @@
 //! **Invariant:** pure; a disagreement is data ([`RegisterCheck::disagreements`]), the caller
 //! decides (the command line refuses to write the plan).
 
-use serde::{Deserialize, Serialize};
-
-use crate::plan::{CaseOut, Plan};
+use crate::design::Design;
+use crate::model::Evaluator;
+use crate::plan::{self, CaseCheck, CaseOut, LoadOut, Plan, Pwm, RegisterCheck, TimerOut};
+use crate::solve::{Candidate, Solution};
 use crate::timer::Alignment;
 use crate::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verification};
 
@@ -57,40 +58,65 @@ const SIGNIFICANCE_GUARD_DB: f64 = 0.5;
 /// Hearing limit when the design gives none (the plan's default, README).
 const DEFAULT_HEARING_LIMIT_HZ: f64 = 20_000.0;
 
-/// What the verifier measured on the written registers.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct RegisterCheck {
-    /// Shortest high-side output pulse at `compare_min` (a single switch: its on-pulse), s.
-    pub shortest_high_pulse_s: f64,
-    /// Shortest low-side output pulse at `compare_max` (a single switch: its off-time), s.
-    pub shortest_low_pulse_s: f64,
-    pub cases: Vec<CaseCheck>,
-    /// What was not checked, and why.
-    pub not_checked: Vec<String>,
-    /// Each claim the verifier contradicts, with both figures.
-    pub disagreements: Vec<String>,
+/// The parts of a plan the registers are checked against.
+pub struct RegisterView<'a> {
+    pub topology: &'a str,
+    pub pwm: &'a Pwm,
+    pub timer: &'a TimerOut,
+    pub cases: &'a [CaseOut],
+    pub load: &'a LoadOut,
+    /// The hearing limit the audibility verdict used, Hz.
+    pub hearing_limit_hz: f64,
 }
 
-/// One operating case on the registers.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct CaseCheck {
-    pub name: String,
-    /// The compare duty simulated (the plan's, to 1/4096 of a count).
-    pub compare_duty: f64,
-    /// Mean motor current, A.
-    pub mean_a: f64,
-    /// Ripple peak to peak, A.
-    pub ripple_pp_a: f64,
-    pub continuous: bool,
-    /// Lowest significant line at or below the hearing limit, Hz.
-    pub lowest_audible_line_hz: Option<f64>,
-    /// A line lies within the guard band of the significance threshold: not compared.
-    pub line_near_threshold: bool,
+impl<'a> RegisterView<'a> {
+    /// A plan record as written (`plan.json`), as a firmware engineer reads it.
+    pub fn of(plan: &'a Plan) -> Self {
+        RegisterView {
+            topology: &plan.topology,
+            pwm: &plan.pwm,
+            timer: &plan.timer,
+            cases: &plan.cases,
+            load: &plan.load,
+            hearing_limit_hz: hearing_limit_of(plan),
+        }
+    }
 }
 
-/// Check `plan` on its registers. A plan without a timer setting (nothing chosen) has nothing
+/// The check of a solution's chosen setting and of every alternative (each alternative's
+/// disagreements named with its label), from the same records the plan writes.
+pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterCheck {
+    let topology = plan::topology_name(d);
+    let check_one = |c: &Candidate| {
+        let (pwm, timer) = (plan::pwm_out(ev, c, 0.0), plan::timer_out(ev, c));
+        let (cases, load) = (plan::cases_out(c), plan::load_out(ev, c));
+        check(&RegisterView {
+            topology: &topology,
+            pwm: &pwm,
+            timer: &timer,
+            cases: &cases,
+            load: &load,
+            hearing_limit_hz: plan::hearing_limit_hz(ev),
+        })
+    };
+    let Some(chosen) = &sol.chosen else {
+        return RegisterCheck::default();
+    };
+    let mut out = check_one(chosen);
+    for a in &sol.alternatives {
+        let alt = check_one(&a.candidate);
+        out.disagreements.extend(
+            alt.disagreements
+                .into_iter()
+                .map(|m| format!("alternative {}: {m}", a.label)),
+        );
+    }
+    out
+}
+
+/// Check a plan's claims on its registers. A plan without a timer setting (nothing chosen) has nothing
 /// to check.
-pub fn check(plan: &Plan) -> RegisterCheck {
+pub fn check(v: &RegisterView) -> RegisterCheck {
     let mut out = RegisterCheck {
         shortest_high_pulse_s: 0.0,
         shortest_low_pulse_s: 0.0,
@@ -98,23 +124,23 @@ pub fn check(plan: &Plan) -> RegisterCheck {
         not_checked: Vec::new(),
         disagreements: Vec::new(),
     };
-    let Some(regs) = registers(plan) else {
+    let Some(regs) = registers(v) else {
         out.not_checked
             .push("no realisable timer setting in the plan".into());
         return out;
     };
-    check_pulses(plan, &regs, &mut out);
-    if plan.topology == "three-phase" {
+    check_pulses(v, &regs, &mut out);
+    if v.topology == "three-phase" {
         out.not_checked.push(
             "three-phase currents: the register-level verifier covers single-phase stages only"
                 .into(),
         );
         return out;
     }
-    for case in &plan.cases {
-        match check_case(plan, &regs, case) {
+    for case in v.cases {
+        match check_case(v, &regs, case) {
             Ok(c) => {
-                compare_case(plan, case, &c, &mut out.disagreements);
+                compare_case(v, case, &c, &mut out.disagreements);
                 out.cases.push(c);
             }
             Err(e) => out
@@ -126,21 +152,21 @@ pub fn check(plan: &Plan) -> RegisterCheck {
 }
 
 /// The registers as written.
-fn registers(plan: &Plan) -> Option<TimerRegisters> {
-    let t = &plan.timer;
-    let clock_ok = plan.timer.clock_hz.is_finite() && plan.timer.clock_hz > 0.0;
+fn registers(v: &RegisterView) -> Option<TimerRegisters> {
+    let t = &v.timer;
+    let clock_ok = v.timer.clock_hz.is_finite() && v.timer.clock_hz > 0.0;
     if t.period_ticks < 2 || t.divider == 0 || !clock_ok {
         return None;
     }
     Some(TimerRegisters {
         tick_s: t.divider as f64 / t.clock_hz,
-        alignment: if plan.pwm.alignment == "centre" {
+        alignment: if v.pwm.alignment == "centre" {
             Alignment::Centre
         } else {
             Alignment::Edge
         },
         period_ticks: t.period_ticks,
-        dead_time_s: if plan.topology == "low-side" {
+        dead_time_s: if v.topology == "low-side" {
             0.0
         } else {
             t.dead_time_s
@@ -151,9 +177,9 @@ fn registers(plan: &Plan) -> Option<TimerRegisters> {
 /// The stage the topology wires, with leg A at `compare`: bipolar drives leg B with the
 /// inverse reference (same compare, polarity inverted); unipolar with the complementary
 /// compare `duty_steps − compare` (the README's leg conventions).
-fn stage(plan: &Plan, regs: &TimerRegisters, compare: u64) -> Stage {
+fn stage(v: &RegisterView, regs: &TimerRegisters, compare: u64) -> Stage {
     let a = LegCompare::new(compare);
-    match plan.topology.as_str() {
+    match v.topology {
         "low-side" => Stage::LowSide(a),
         "h-bridge-bipolar" => Stage::HBridge {
             a,
@@ -168,10 +194,10 @@ fn stage(plan: &Plan, regs: &TimerRegisters, compare: u64) -> Stage {
 }
 
 /// Every output's pulses at the two compare limits.
-fn check_pulses(plan: &Plan, regs: &TimerRegisters, out: &mut RegisterCheck) {
-    let p = &plan.pwm;
+fn check_pulses(v: &RegisterView, regs: &TimerRegisters, out: &mut RegisterCheck) {
+    let p = &v.pwm;
     // The pulse checks are per leg: a leg of any bridge is a half-bridge leg.
-    let leg = |c: u64| match plan.topology.as_str() {
+    let leg = |c: u64| match v.topology {
         "low-side" => Stage::LowSide(LegCompare::new(c)),
         _ => Stage::HalfBridge(LegCompare::new(c)),
     };
@@ -241,15 +267,15 @@ fn check_pulses(plan: &Plan, regs: &TimerRegisters, out: &mut RegisterCheck) {
     }
 }
 
-fn circuit(plan: &Plan, case: &CaseOut) -> Circuit {
+fn circuit(v: &RegisterView, case: &CaseOut) -> Circuit {
     Circuit {
-        r_ohm: plan.load.r_ohm,
-        l_h: plan.load.l_h,
+        r_ohm: v.load.r_ohm,
+        l_h: v.load.l_h,
         back_emf_v: case.back_emf_v,
         v_bus_v: case.v_bus_v,
-        r_ds_on_ohm: plan.load.r_ds_on_ohm,
-        v_sd_v: plan.load.v_sd_v,
-        v_f_v: plan.load.freewheel_v_f_v.unwrap_or(0.0),
+        r_ds_on_ohm: v.load.r_ds_on_ohm,
+        v_sd_v: v.load.v_sd_v,
+        v_f_v: v.load.freewheel_v_f_v.unwrap_or(0.0),
     }
 }
 
@@ -263,7 +289,7 @@ const SUB_TICKS: u64 = 4096;
 /// (the compare quantised to 1/4096 of a count), so that quantisation does not mask the
 /// physics; the compare limits are checked on the written registers ([`check_pulses`]).
 fn check_case(
-    plan: &Plan,
+    v: &RegisterView,
     regs: &TimerRegisters,
     case: &CaseOut,
 ) -> Result<CaseCheck, verify::VerifyError> {
@@ -274,14 +300,14 @@ fn check_case(
     };
     let steps = fine.duty_steps();
     let compare = ((case.compare_duty * steps as f64).round().max(0.0) as u64).min(steps);
-    let v = verify::verify(&fine, &stage(plan, &fine, compare), &circuit(plan, case))?;
-    let (line, near) = lowest_audible_line(&v, hearing_limit_hz(plan));
+    let sim = verify::verify(&fine, &stage(v, &fine, compare), &circuit(v, case))?;
+    let (line, near) = lowest_audible_line(&sim, v.hearing_limit_hz);
     Ok(CaseCheck {
         name: case.name.clone(),
         compare_duty: compare as f64 / steps as f64,
-        mean_a: v.mean_a,
-        ripple_pp_a: v.ripple_pp_a,
-        continuous: v.continuous,
+        mean_a: sim.mean_a,
+        ripple_pp_a: sim.ripple_pp_a,
+        continuous: sim.continuous,
         lowest_audible_line_hz: line,
         line_near_threshold: near,
     })
@@ -289,7 +315,7 @@ fn check_case(
 
 /// The hearing limit the plan judged against: the `audible` constraint's limit in hertz when
 /// it has one, else the default.
-fn hearing_limit_hz(plan: &Plan) -> f64 {
+fn hearing_limit_of(plan: &Plan) -> f64 {
     plan.constraints
         .iter()
         .find(|c| c.name == "audible" && c.unit == "Hz" && c.limit > 0.0)
@@ -319,9 +345,9 @@ fn lowest_audible_line(v: &Verification, limit_hz: f64) -> (Option<f64>, bool) {
 }
 
 /// The case's claims against the verifier's figures.
-fn compare_case(plan: &Plan, case: &CaseOut, c: &CaseCheck, out: &mut Vec<String>) {
+fn compare_case(v: &RegisterView, case: &CaseOut, c: &CaseCheck, out: &mut Vec<String>) {
     let t = &TOLERANCES;
-    let rated = plan
+    let rated = v
         .cases
         .first()
         .map(|r| r.load_current_a.abs())

@@ -21,7 +21,7 @@ use pwmplan::design::load_design;
 use pwmplan::load::Origin;
 use pwmplan::model::Evaluator;
 use pwmplan::plan::{self, Plan};
-use pwmplan::register_check;
+use pwmplan::register_check::{self, RegisterView};
 use pwmplan::solve::{self, Objective};
 
 /// SplitMix64 (Steele, Lea, Flood, *Fast splittable pseudorandom number generators*, OOPSLA
@@ -377,7 +377,7 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
             }
         };
         *feasible.entry(kind).or_default() += 1;
-        let check = register_check::check(&plan);
+        let check = register_check::check(&RegisterView::of(&plan));
         for c in &check.cases {
             let case = plan.cases.iter().find(|k| k.name == c.name).expect("case");
             worst_mean = worst_mean

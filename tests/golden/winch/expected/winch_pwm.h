@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:eab97bb01d1da5bc0c1d08907266e3580895809effd784fa28ad96240a58ce2a)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:3a38e03750e51485f7f10f3c524dc2a0ca6d75d586de862535bbbb7c1898a259)
  *
  * Chosen setting
  *   design         winch
@@ -85,7 +85,7 @@
 #include <stdint.h>
 
 /*
- * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ * PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
  *
  * What duty 0 means on this h-bridge-unipolar stage, and how to coast:
  *   Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.
@@ -125,7 +125,7 @@
  *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
  *   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (11784 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
- *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+ *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
  *   6. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
  *   7. Compare register(s) <- WINCH_PWM_INIT_COMPARE (outputs still disabled), then values from winch_pwm_compare_from_q16() only.
  *   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:ecbdccd4d53cfd1bd2431ef41b29f1637965b2c073b1cccda679f9168cf43832)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:9df5cd201b919f8378255f839564b47923d2b5abf1bd9987093b933f299069ee)
 //!
 //! Chosen setting
 //!   design         winch
@@ -78,7 +78,7 @@
 //!   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
 //!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
 //!
-//! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!
 //! What duty 0 means on this h-bridge-unipolar stage, and how to coast:
 //!   Duty 0 on both legs (compare 0) means both low sides are on: the motor is shorted through them and a turning motor brakes; equal compares on both legs give zero volts.
@@ -89,7 +89,7 @@
 //!   2. Divider register <- DIVIDER_REG (divider 1).
 //!   3. Period register (counter top) <- PERIOD_REG (11784 ticks per period).
 //!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
-//!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
+//!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
 //!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
 //!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
