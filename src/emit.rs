@@ -194,6 +194,8 @@ pub struct Context {
     pub findings: Vec<Row>,
     /// The chosen setting at the worst corners: rows `{label, value}`.
     pub worst_case: Vec<Row>,
+    /// What the register-level verifier measured on the written registers.
+    pub register_check: Vec<Row>,
     pub assumptions: Vec<String>,
     pub cautions: Vec<String>,
     pub inputs: Vec<Row>,
@@ -531,6 +533,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         alternatives,
         findings,
         worst_case,
+        register_check: register_check_rows(plan),
         assumptions: plan.assumptions.clone(),
         cautions: plan.cautions.clone(),
         inputs,
@@ -601,6 +604,52 @@ fn operating_figures(plan: &Plan) -> Vec<Row> {
                 .unwrap_or_else(|| "none".into())
         ),
     });
+    rows
+}
+
+/// The register-level check's rows: the pulses at the compare limits and,
+/// per case, the verifier's mean current and ripple at the case's duty.
+fn register_check_rows(plan: &Plan) -> Vec<Row> {
+    let r = &plan.register_check;
+    let t = |s: f64| format_quantity(s, Dimension::Time, 3);
+    let a = |i: f64| format_quantity(i, Dimension::Current, 4);
+    let mut pulses = format!(
+        "shortest high-side pulse {} at COMPARE_MIN, shortest low-side on-time {} at COMPARE_MAX (minimum pulse {}",
+        t(r.shortest_high_pulse_s),
+        t(r.shortest_low_pulse_s),
+        t(plan.pwm.min_pulse_s)
+    );
+    if let Some(refresh) = plan.pwm.refresh_s {
+        pulses.push_str(&format!(", bootstrap refresh {}", t(refresh)));
+    }
+    pulses.push(')');
+    let mut rows = vec![Row {
+        label: "pulses".into(),
+        value: pulses,
+    }];
+    for c in &r.cases {
+        let plan_case = plan.cases.iter().find(|k| k.name == c.name);
+        let (load, ripple) = plan_case.map_or((f64::NAN, f64::NAN), |k| {
+            (k.load_current_a, k.ripple_peak_to_peak_a)
+        });
+        rows.push(Row {
+            label: format!("{} case", c.name),
+            value: format!(
+                "at compare duty {:.3} %: mean current {} (plan {}), ripple {} peak to peak (plan {})",
+                100.0 * c.compare_duty,
+                a(c.mean_a),
+                a(load),
+                a(c.ripple_pp_a),
+                a(ripple)
+            ),
+        });
+    }
+    for n in &r.not_checked {
+        rows.push(Row {
+            label: "not checked".into(),
+            value: n.clone(),
+        });
+    }
     rows
 }
 
@@ -1005,6 +1054,11 @@ fn rationale_lines(c: &Context) -> Vec<String> {
         &mut out,
         "Worst case over part and operating spreads",
         &c.worst_case,
+    );
+    table(
+        &mut out,
+        "Checked on the registers (independent simulation of the written values)",
+        &c.register_check,
     );
     table(&mut out, "Alternatives", &c.alternatives);
     table(&mut out, "Findings", &c.findings);

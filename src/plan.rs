@@ -62,7 +62,8 @@ pub const CAUTIONS: &[&str] = &[
 pub const ASSUMPTIONS: &[&str] = &[
     "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
     "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
-    "motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage",
+    "motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it",
+    "checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line",
     "devices thermally independent, each with the board's junction-to-ambient path",
     "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
     "audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms",
@@ -838,7 +839,7 @@ fn findings(
             "info",
             "dead-time-voltage-error",
             format!(
-                "the dead time costs {} of mean output voltage ({:.2} % of the nominal supply), opposing the current",
+                "the dead time costs about {} of mean output voltage ({:.2} % of the nominal supply) where it opposes the current; the compare duties above already make it up",
                 format_quantity(v_err, Dimension::Voltage, 3),
                 100.0 * v_err / ev.rated.v_bus_v
             ),

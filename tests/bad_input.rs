@@ -2090,3 +2090,23 @@ error: pump-bldc.yaml:10:24: design.motor.back_emf_constant: "6 V rms/krpm" is a
 "#,
     );
 }
+
+/// Unipolar switching on a timer without an up-down count: one shared up-counter would give
+/// one output pulse per period (ripple and sound at f), which the plan's model does not
+/// describe, so it is refused (issue: registers contradicting the rationale, defect 1).
+#[test]
+fn unipolar_without_centre_alignment() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "alignments: [edge, centre]",
+            "alignments: [edge]",
+        )],
+        r#"
+error: heron-hb48.yaml:9:17: board.timer.alignments: unipolar switching places the two legs' pulses symmetrically on an up-down (centre-aligned) count, which doubles the ripple frequency; add `centre`, or use `modulation: bipolar`
+ 9 |     alignments: [edge]
+   |                 ^
+"#,
+    );
+}

@@ -214,14 +214,16 @@ pub fn check_stall(
             (
                 z,
                 format!(
-                    "Computed over the {t:.2} s stall through the board's transient thermal impedance Z_th = {z:.3} K/W"
+                    "Computed over the {} stall through the board's transient thermal impedance Z_th = {z:.3} K/W",
+                    q(t, Dimension::Time)
                 ),
             )
         }
         Some(t) => (
             thermal_path.r_th_ja_k_per_w,
             format!(
-                "Computed in steady state: the board gives no thermal transient data, so the {t:.2} s stall time is not used (R_th(j-a) {:.2} K/W)",
+                "Computed in steady state: the board gives no thermal transient data, so the {} stall time is not used (R_th(j-a) {:.2} K/W)",
+                q(t, Dimension::Time),
                 thermal_path.r_th_ja_k_per_w
             ),
         ),
@@ -257,21 +259,28 @@ pub fn check_stall(
     };
     let mut beyond = Vec::new();
     if over_id {
-        beyond.push(format!("above the I_D rating {:.1} A", sw.i_d_a));
+        beyond.push(format!(
+            "above the I_D rating {}",
+            q(sw.i_d_a, Dimension::Current)
+        ));
     }
     if over_t {
         beyond.push(format!(
-            "{p_hot:.1} W at hot R_ds(on) {:.1} mOhm would take the junction past T_j,max {:.0} °C",
-            r_hot * 1e3,
-            sw.t_j_max_c
+            "{} at hot R_ds(on) {} would take the junction past T_j,max {}",
+            q(p_hot, Dimension::Power),
+            q(r_hot, Dimension::Resistance),
+            q(sw.t_j_max_c, Dimension::Temperature)
         ));
     }
     out.push(finding(
         Severity::Warning,
         "stall-needs-current-limit",
         format!(
-            "A stalled motor on a drive without a current limit draws V/R_winding = {i_stall:.1} A: {}. {basis}, {t_ambient_c:.0} °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most {i_limit:.1} A ({why}).",
-            beyond.join(", and ")
+            "A stalled motor on a drive without a current limit draws V/R_winding = {}: {}. {basis}, {} ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most {} ({why}).",
+            q(i_stall, Dimension::Current),
+            beyond.join(", and "),
+            q(t_ambient_c, Dimension::Temperature),
+            q(i_limit, Dimension::Current)
         ),
     ));
     out

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:73f72abf847f8e6a8e83ab574f8c831da1a5b5b2e6565de47e3a37a5801f80da)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:14c2f69316c23a93d15ba2ed2b412aade3d4d45ee887de252a8681978d8a782f)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -50,6 +50,11 @@
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
+//! Checked on the registers (independent simulation of the written values)
+//!   pulses         shortest high-side pulse 318 ns at COMPARE_MIN, shortest low-side on-time 500 ns at COMPARE_MAX (minimum pulse 300 ns, bootstrap refresh 500 ns)
+//!   rated case     at compare duty 78.769 %: mean current 3.500 A (plan 3.500 A), ripple 238.8 mA peak to peak (plan 238.8 mA)
+//!   high-bus case  at compare duty 67.562 %: mean current 3.500 A (plan 3.500 A), ripple 362.8 mA peak to peak (plan 362.8 mA)
+//!
 //! Alternatives
 //!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
 //!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +120 mW total loss, +1.6 K junction, -194 mA ripple, -1.10 bits resolution
@@ -57,12 +62,13 @@
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
-//!   info     the dead time costs 76.4 mV of mean output voltage (0.32 % of the nominal supply), opposing the current
+//!   info     the dead time costs about 76.4 mV of mean output voltage (0.32 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
 //!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
-//!   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+//!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
+//!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
 //!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
 //!   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:25d69f11577cda783298cfb6cef7bbab15e4e98f21aec6e1e17a70b6ab2a46d8)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:93068aefe430d9486d6326ab658d87b07b18a2ff8b6d851b18f312b16978ed95)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -53,13 +53,17 @@
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
+ * Checked on the registers (independent simulation of the written values)
+ *   pulses       shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
+ *   not checked  three-phase currents: the register-level verifier covers single-phase stages only
+ *
  * Alternatives
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution
  *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
  *
  * Findings
- *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225.0 A: above the I_D rating 60.0 A, and 992.3 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
- *   info     the dead time costs 120 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
+ *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225 A: above the I_D rating 60.0 A, and 992 W at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
+ *   info     the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:15ff75172f93eb23cba1a93175a4cdc92357d2755514496d5d82fc9ccfd7fd7e)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:63107a3ec33f92201ecc7dff116cfd3284a5780a8d7f1ee1dde19820d298d6e2)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -48,6 +48,11 @@
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
+//! Checked on the registers (independent simulation of the written values)
+//!   pulses         shortest high-side pulse 205 ns at COMPARE_MIN, shortest low-side on-time 205 ns at COMPARE_MAX (minimum pulse 200 ns)
+//!   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.0 mA peak to peak (plan 209.0 mA)
+//!   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 365.9 mA peak to peak (plan 365.9 mA)
+//!
 //! Alternatives
 //!   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
 //!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
@@ -58,7 +63,8 @@
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
 //!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
-//!   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+//!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
+//!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
 //!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
 //!   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms

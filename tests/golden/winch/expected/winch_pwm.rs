@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:9df5cd201b919f8378255f839564b47923d2b5abf1bd9987093b933f299069ee)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:c10b8be7092b69d8d5181a046997ca34c6cb15b917f202157b0d440abb4c0f59)
 //!
 //! Chosen setting
 //!   design         winch
@@ -50,18 +50,24 @@
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
+//! Checked on the registers (independent simulation of the written values)
+//!   pulses         shortest high-side pulse 408 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 400 ns, bootstrap refresh 800 ns)
+//!   rated case     at compare duty 88.442 %: mean current 12.00 A (plan 12.00 A), ripple 1.319 A peak to peak (plan 1.319 A)
+//!   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
+//!
 //! Alternatives
 //!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +439 mW total loss, +1.3 K junction, -883 mA ripple, -0.97 bits resolution
 //!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1272 mW total loss, +3.7 K junction, -1316 mA ripple, -1.90 bits resolution
 //!
 //! Findings
-//!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300.0 A: above the I_D rating 60.0 A, and 1764.0 W at hot R_ds(on) 19.6 mOhm would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used (R_th(j-a) 7.30 K/W), 50 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
-//!   info     the dead time costs 122 mV of mean output voltage (0.25 % of the nominal supply), opposing the current
+//!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A, and 1.76 kW at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W), 50.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
+//!   info     the dead time costs about 122 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
 //!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
-//!   - motor current: exact periodic R-L-back-EMF solution with ideal switches; the freewheel diode holds its forward voltage
+//!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
+//!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
 //!   - rated load at the hottest ambient; ripple and switching loss checked again at the highest supply
 //!   - audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms

@@ -1,0 +1,136 @@
+//! Regressions of the user trial that found the written registers contradicting the
+//! rationale: a 36 V brushed hub motor on a unipolar H-bridge, a 72 MHz 16-bit timer with a
+//! two-segment dead-time code, 400 ns minimum pulse, 1 µs bootstrap refresh, a switch with a
+//! C_rss curve and a slow gate drive (the fixture in `tests/fixtures/hub36/`, invented parts).
+//!
+//! Every figure here is checked against the register-level verifier (`pwmplan::verify`, an
+//! event-based simulation of the written values), never against the model itself.
+
+mod common;
+
+use std::path::{Path, PathBuf};
+
+use common::{describe, run};
+use pwmplan::plan::Plan;
+use pwmplan::timer::Alignment;
+use pwmplan::verify::{self, Circuit, LegCompare, Stage, TimerRegisters};
+
+fn fixture() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/hub36")
+}
+
+/// `plan --json --no-write` of the fixture (with `extra` arguments).
+fn plan_json(dir: &Path, extra: &[&str]) -> Plan {
+    let mut args = vec!["plan", "design.yaml", "--json", "--no-write"];
+    args.extend_from_slice(extra);
+    let o = run(dir, &args);
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+    serde_json::from_slice(&o.stdout).expect("plan.json parses")
+}
+
+fn registers(p: &Plan) -> TimerRegisters {
+    TimerRegisters {
+        tick_s: p.timer.divider as f64 / p.timer.clock_hz,
+        alignment: if p.pwm.alignment == "centre" {
+            Alignment::Centre
+        } else {
+            Alignment::Edge
+        },
+        period_ticks: p.timer.period_ticks,
+        dead_time_s: p.timer.dead_time_s,
+    }
+}
+
+/// The unipolar wiring the header states: leg B at DUTY_STEPS − compare.
+fn unipolar(regs: &TimerRegisters, compare: u64) -> Stage {
+    Stage::HBridge {
+        a: LegCompare::new(compare),
+        b: LegCompare::new(regs.duty_steps() - compare),
+    }
+}
+
+/// Defect 1: the plan is centre-aligned, and on the written registers the ripple has no line
+/// at f (two output pulses per period), as the plan's audibility verdict assumes.
+#[test]
+fn unipolar_plan_is_centre_aligned_with_no_line_at_f() {
+    let p = plan_json(&fixture(), &[]);
+    assert_eq!(p.pwm.alignment, "centre");
+    let regs = registers(&p);
+    let rated = &p.cases[0];
+    let c = Circuit {
+        r_ohm: p.load.r_ohm,
+        l_h: p.load.l_h,
+        back_emf_v: rated.back_emf_v,
+        v_bus_v: rated.v_bus_v,
+        r_ds_on_ohm: p.load.r_ds_on_ohm,
+        v_sd_v: p.load.v_sd_v,
+        v_f_v: 0.0,
+    };
+    let v = verify::verify(&regs, &unipolar(&regs, rated.compare), &c).expect("verifies");
+    let (f1, f2) = (v.harmonic_rms_a(1), v.harmonic_rms_a(2));
+    assert!(f1 < 1e-6 * f2, "line at f {f1} A against 2f {f2} A");
+    assert!(p.register_check.disagreements.is_empty());
+}
+
+/// Defect 2: at the compare limits every output pulse, after the dead time, lasts the
+/// minimum pulse, and the low side stays on for the refresh time, on the registers.
+#[test]
+fn compare_limits_hold_the_pulses_after_the_dead_time() {
+    let p = plan_json(&fixture(), &[]);
+    let regs = registers(&p);
+    let leg = |c: u64| Stage::HalfBridge(LegCompare::new(c));
+    let at_min = verify::output_timings(&regs, &leg(p.pwm.compare_min)).expect("timings");
+    let at_max = verify::output_timings(&regs, &leg(p.pwm.compare_max)).expect("timings");
+    let high = verify::shortest_pulse_s(&at_min[..1]).expect("high side switches");
+    let low_on = verify::low_side_on_s(&at_max).expect("low side switches");
+    assert!(high >= 400e-9 - 1e-12, "high-side pulse {high} s");
+    assert!(low_on >= 1e-6 - 1e-12, "low-side on-time {low_on} s");
+    // The limit is not padded beyond one count: one count less would break a promise.
+    let one_less = verify::output_timings(&regs, &leg(p.pwm.compare_min - 1)).expect("timings");
+    let shorter = verify::shortest_pulse_s(&one_less[..1]).expect("switches");
+    assert!(
+        shorter < 400e-9,
+        "compare_min is the smallest that holds: {shorter} s"
+    );
+}
+
+/// Defect 3: the duty the plan gives for the rated load makes up the dead time (here a slow
+/// gate drive and a long dead time): on the registers the mean current at that duty is the
+/// rated current within 1 %, while the duty without the correction falls well short.
+#[test]
+fn needed_duty_makes_up_the_dead_time() {
+    let p = plan_json(&fixture(), &["--at", "24 kHz"]);
+    let regs = registers(&p);
+    let rated = &p.cases[0];
+    let c = Circuit {
+        r_ohm: p.load.r_ohm,
+        l_h: p.load.l_h,
+        back_emf_v: rated.back_emf_v,
+        v_bus_v: rated.v_bus_v,
+        r_ds_on_ohm: p.load.r_ds_on_ohm,
+        v_sd_v: p.load.v_sd_v,
+        v_f_v: 0.0,
+    };
+    let steps = regs.duty_steps() as f64;
+    let mean_at = |duty: f64| {
+        let compare = (duty * steps).round() as u64;
+        verify::verify(&regs, &unipolar(&regs, compare), &c)
+            .expect("verifies")
+            .mean_a
+    };
+    // Ideal unipolar leg duty for the modulation: (1 + m)/2, no dead time, no drops.
+    let ideal = mean_at(0.5 * (1.0 + rated.modulation));
+    let planned = mean_at(rated.compare_duty);
+    // One count of quantisation moves the current by |ΔI| per count; allow it.
+    let per_count = (mean_at(rated.compare_duty + 1.0 / steps) - planned).abs();
+    assert!(
+        (planned - rated.load_current_a).abs() <= 0.01 * rated.load_current_a + per_count,
+        "planned duty gives {planned} A for {} A",
+        rated.load_current_a
+    );
+    assert!(
+        ideal < 0.8 * rated.load_current_a,
+        "without the dead-time correction the current would be {ideal} A"
+    );
+    assert!(p.register_check.disagreements.is_empty());
+}
