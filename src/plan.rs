@@ -85,7 +85,7 @@ pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
 pub const THREE_PHASE_PWM_MODE: &str = "centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time";
 
 /// The three-phase block of a plan.
-fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
+pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
     use crate::model::ThreePhaseModulation as M;
     use crate::physics::three_phase::{Chop, ZeroSequence};
     let tp = ev.three_phase.as_ref()?;
@@ -457,6 +457,12 @@ pub struct RegisterCheck {
     /// Shortest low-side output pulse at `compare_max` (a single switch: its off-time), s.
     pub shortest_low_pulse_s: f64,
     pub cases: Vec<CaseCheck>,
+    /// Sinusoidal three-phase: at the current-sampling trigger, the shortest time the sampled
+    /// legs' low sides have been on, and will stay on, over the compares the plan allows, s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sample_low_on_before_s: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sample_low_on_after_s: Option<f64>,
     /// What was not checked, and why.
     pub not_checked: Vec<String>,
     /// Each claim the verifier contradicts, with both figures.

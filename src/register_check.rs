@@ -23,7 +23,9 @@
 
 use crate::design::Design;
 use crate::model::Evaluator;
-use crate::plan::{self, CaseCheck, CaseOut, LoadOut, Plan, Pwm, RegisterCheck, TimerOut};
+use crate::plan::{
+    self, CaseCheck, CaseOut, LoadOut, Plan, Pwm, RegisterCheck, SamplingPlan, TimerOut,
+};
 use crate::solve::{Candidate, Solution};
 use crate::timer::Alignment;
 use crate::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verification};
@@ -67,6 +69,8 @@ pub struct RegisterView<'a> {
     pub load: &'a LoadOut,
     /// The hearing limit the audibility verdict used, Hz.
     pub hearing_limit_hz: f64,
+    /// A sinusoidal three-phase bridge's current-sampling trigger and window.
+    pub sampling: Option<&'a SamplingPlan>,
 }
 
 impl<'a> RegisterView<'a> {
@@ -79,6 +83,7 @@ impl<'a> RegisterView<'a> {
             cases: &plan.cases,
             load: &plan.load,
             hearing_limit_hz: hearing_limit_of(plan),
+            sampling: sinusoidal_sampling(plan.three_phase.as_ref()),
         }
     }
 }
@@ -90,6 +95,7 @@ pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterChe
     let check_one = |c: &Candidate| {
         let (pwm, timer) = (plan::pwm_out(ev, c, 0.0), plan::timer_out(ev, c));
         let (cases, load) = (plan::cases_out(c), plan::load_out(ev, c));
+        let three_phase = plan::three_phase_out(d, ev, c);
         check(&RegisterView {
             topology: &topology,
             pwm: &pwm,
@@ -97,6 +103,7 @@ pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterChe
             cases: &cases,
             load: &load,
             hearing_limit_hz: plan::hearing_limit_hz(ev),
+            sampling: sinusoidal_sampling(three_phase.as_ref()),
         })
     };
     let Some(chosen) = &sol.chosen else {
@@ -117,13 +124,7 @@ pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterChe
 /// Check a plan's claims on its registers. A plan without a timer setting (nothing chosen) has nothing
 /// to check.
 pub fn check(v: &RegisterView) -> RegisterCheck {
-    let mut out = RegisterCheck {
-        shortest_high_pulse_s: 0.0,
-        shortest_low_pulse_s: 0.0,
-        cases: Vec::new(),
-        not_checked: Vec::new(),
-        disagreements: Vec::new(),
-    };
+    let mut out = RegisterCheck::default();
     let Some(regs) = registers(v) else {
         out.not_checked
             .push("no realisable timer setting in the plan".into());
@@ -131,10 +132,14 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
     };
     check_pulses(v, &regs, &mut out);
     if v.topology == "three-phase" {
-        out.not_checked.push(
-            "three-phase currents: the register-level verifier covers single-phase stages only"
-                .into(),
-        );
+        match v.sampling {
+            Some(s) => check_sampling(&regs, s, &mut out),
+            None => out
+                .not_checked
+                .push("the current-sampling window (six-step sampling)".into()),
+        }
+        out.not_checked
+            .push("three-phase currents against the averaged model (not compared yet)".into());
         return out;
     }
     for case in v.cases {
@@ -282,6 +287,59 @@ fn circuit(v: &RegisterView, case: &CaseOut) -> Circuit {
 /// Sub-ticks per tick of the finer timer the case claims are checked on (our own choice: one
 /// compare step becomes 1/4096 of a count, far below any tolerance here).
 const SUB_TICKS: u64 = 4096;
+
+/// The sampling plan of a sinusoidal three-phase bridge (six-step samples otherwise).
+fn sinusoidal_sampling(t: Option<&plan::ThreePhaseOut>) -> Option<&SamplingPlan> {
+    t.filter(|t| t.modulation == "sinusoidal")
+        .and_then(|t| t.sampling.as_ref())
+}
+
+/// At the trigger the plan writes, with a sampled leg at its highest allowed high-side
+/// compare (and at the lowest compare), the leg's low side must have been on for the
+/// settling time and stay on through the sample: the low-side shunt then carries the phase
+/// current (defect 13 of the trial: the trigger sat where no low side conducted).
+fn check_sampling(regs: &TimerRegisters, s: &SamplingPlan, out: &mut RegisterCheck) {
+    let trigger = verify::SampleTrigger {
+        counter: s.trigger_compare,
+        counting_up: s.trigger_count == "up",
+    };
+    let periods = [
+        [s.max_high_side_compare; 3],
+        [0, s.max_high_side_compare / 2, 1],
+    ];
+    let samples = match verify::three_phase_samples(regs, &periods, trigger) {
+        Ok(v) => v,
+        Err(e) => {
+            out.disagreements
+                .push(format!("sampling: the verifier refused the trigger: {e}"));
+            return;
+        }
+    };
+    let slack = TOLERANCES.time_abs_s;
+    let mut worst = (f64::INFINITY, f64::INFINITY);
+    for (period, legs) in periods.iter().zip(&samples) {
+        for (compare, leg) in period.iter().zip(legs) {
+            let (since, until) = match (leg.state, leg.low_on_since_s, leg.low_on_until_s) {
+                (verify::LegState::Low, Some(a), Some(b)) => (a, b),
+                _ => (0.0, 0.0),
+            };
+            worst = (worst.0.min(since), worst.1.min(until));
+            if since + slack < s.settle_time_s || until + slack < s.sample_time_s {
+                out.disagreements.push(format!(
+                    "sampling: at compare {compare} the trigger (compare {} counting {}) finds the low side on for {} s before and {} s after, the plan promises {} s settling and {} s sampling",
+                    s.trigger_compare,
+                    s.trigger_count,
+                    fmt_g(since),
+                    fmt_g(until),
+                    fmt_g(s.settle_time_s),
+                    fmt_g(s.sample_time_s)
+                ));
+            }
+        }
+    }
+    out.sample_low_on_before_s = Some(worst.0);
+    out.sample_low_on_after_s = Some(worst.1);
+}
 
 /// The verifier at the case's compare duty. The duty is a real number and the compare an
 /// integer: the claims "this duty gives the load current, with this ripple and these lines"

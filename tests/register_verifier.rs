@@ -342,8 +342,11 @@ fn single_phase_registers_do_what_the_plans_say() {
 }
 
 /// The same over 150 random three-phase designs (sinusoidal with and without min-max
-/// injection, six-step with each chop): the compare limits' pulses (the three-phase currents
-/// need the three-phase verifier: stated in each plan's check).
+/// injection, six-step with each chop): the compare limits' pulses, and for sinusoidal
+/// modulation the current-sampling trigger: at the written trigger the sampled legs' low
+/// sides have been on for the settling time and stay on through the sample, up to the
+/// highest compare the plan allows a sampled leg (the phase currents against the averaged
+/// model are not compared yet: stated in each plan's check).
 #[test]
 fn three_phase_registers_do_what_the_plans_say() {
     check_random_designs(0x5EED_2026_1203, 4..TOPOLOGIES.len(), designs_to_run(150));
@@ -359,6 +362,7 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     let mut worst_ripple = 0.0_f64;
     let mut spent: BTreeMap<usize, f64> = BTreeMap::new();
     let (mut refused, mut refused_text) = (0usize, String::new());
+    let mut sampled = 0usize;
     for i in 0..n {
         let kind = kinds.start + i % kinds.len();
         *drawn.entry(kind).or_default() += 1;
@@ -378,6 +382,9 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         };
         *feasible.entry(kind).or_default() += 1;
         let check = register_check::check(&RegisterView::of(&plan));
+        if check.sample_low_on_before_s.is_some() {
+            sampled += 1;
+        }
         for c in &check.cases {
             let case = plan.cases.iter().find(|k| k.name == c.name).expect("case");
             worst_mean = worst_mean
@@ -413,7 +420,17 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         100.0 * worst_mean,
         100.0 * worst_ripple
     );
-    eprintln!("seconds per kind {spent:?}; {refused} refused as input");
+    eprintln!(
+        "seconds per kind {spent:?}; {refused} refused as input; {sampled} sampling windows checked"
+    );
+    let sinusoidal = kinds
+        .clone()
+        .filter(|k| TOPOLOGIES[*k].1.starts_with("sinusoidal"))
+        .count();
+    assert!(
+        sinusoidal == 0 || sampled * 10 >= n * sinusoidal,
+        "only {sampled} sampling windows were checked"
+    );
     assert!(
         refused * 50 <= n,
         "{refused} of {n} random designs refused as input (the generator should draw valid ones), e.g.\n{refused_text}"

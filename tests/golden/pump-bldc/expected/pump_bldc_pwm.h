@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:93068aefe430d9486d6326ab658d87b07b18a2ff8b6d851b18f312b16978ed95)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:ce259ad27172c2de0984f0f9a31e9f506ffc97dc545a9b91247af4fdd701653b)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -55,7 +55,7 @@
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses       shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
- *   not checked  three-phase currents: the register-level verifier covers single-phase stages only
+ *   not checked  three-phase currents against the averaged model (not compared yet)
  *
  * Alternatives
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution

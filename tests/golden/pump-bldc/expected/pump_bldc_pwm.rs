@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:33ac85d232336de33c5846bb266c22a1bcf51d993d08845fa63204b8d81fd266)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:6661fef8eadd32f3a2e831688f6dc90c91fc3e51309003ea855a44c4b37bf4f0)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -54,7 +54,7 @@
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses       shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
-//!   not checked  three-phase currents: the register-level verifier covers single-phase stages only
+//!   not checked  three-phase currents against the averaged model (not compared yet)
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution
