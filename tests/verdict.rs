@@ -211,8 +211,8 @@ fn a_stall_beyond_the_ratings_asks_for_a_current_limit() {
     assert_eq!(stall["severity"], "warning");
     let m = stall["message"].as_str().expect("message");
     for part in [
-        "A stalled motor on a drive without a current limit draws V/R_winding = 300.0 A: above the I_D rating 60.0 A",
-        "Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used",
+        "A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A",
+        "Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used",
         "The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most",
     ] {
         assert!(m.contains(part), "{part:?} not in {m}");

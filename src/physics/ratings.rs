@@ -456,7 +456,7 @@ mod tests {
         let f = check_stall(&sw, 24.0, 1.0, &no_transient, 25.0, Some(0.5));
         assert_eq!(f.len(), 1);
         assert!(
-            f[0].message.contains("Computed in steady state: the board gives no thermal transient data, so the 0.50 s stall time is not used"),
+            f[0].message.contains("Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used"),
             "{}",
             f[0].message
         );
