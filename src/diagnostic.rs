@@ -84,10 +84,11 @@ impl fmt::Display for InputError {
         if let (Some(p), Some(src)) = (self.position, &self.source_line) {
             let gutter = p.line.to_string();
             let pad = " ".repeat(gutter.len());
+            let (src, column) = shown_line(src, p.column);
             // The caret sits under the column; tabs are kept so it lines up.
             let lead: String = src
                 .chars()
-                .take(p.column.saturating_sub(1))
+                .take(column.saturating_sub(1))
                 .map(|c| if c == '\t' { '\t' } else { ' ' })
                 .collect();
             write!(f, "\n {gutter} | {src}\n {pad} | {lead}^")?;
@@ -97,6 +98,44 @@ impl fmt::Display for InputError {
 }
 
 impl std::error::Error for InputError {}
+
+/// Widest source line echoed under a message, in characters: 120, a bound
+/// of our own choice (a terminal's width; a 10 MB line is no help).
+pub const MAX_SHOWN_CHARS: usize = 120;
+
+/// The part of `line` to echo, at most [`MAX_SHOWN_CHARS`] characters with
+/// `…` where it was cut, keeping `column` (1-based) in view; and the
+/// column within the shown text.
+fn shown_line(line: &str, column: usize) -> (String, usize) {
+    let chars: Vec<char> = line
+        .chars()
+        .map(|c| {
+            if c.is_control() && c != '\t' {
+                '\u{FFFD}'
+            } else {
+                c
+            }
+        })
+        .collect();
+    if chars.len() <= MAX_SHOWN_CHARS {
+        return (chars.into_iter().collect(), column);
+    }
+    let width = MAX_SHOWN_CHARS - 2; // room for an ellipsis at each end
+    let col0 = column.saturating_sub(1).min(chars.len());
+    let start = if col0 < width { 0 } else { col0 - width / 2 };
+    let end = (start + width).min(chars.len());
+    let mut shown = String::new();
+    let mut column = col0 - start + 1;
+    if start > 0 {
+        shown.push('…');
+        column += 1;
+    }
+    shown.extend(&chars[start..end]);
+    if end < chars.len() {
+        shown.push('…');
+    }
+    (shown, column)
+}
 
 /// The closest of `candidates` to `word`, when close enough to be a likely
 /// slip (edit distance ≤ a third of the word, at least 1). A swap of two

@@ -62,7 +62,26 @@ impl Origin {
         match self {
             Origin::Disk(p) => {
                 let dir = p.parent().unwrap_or(Path::new(""));
-                Ok(Origin::Disk(dir.join(rel)))
+                let joined = dir.join(rel);
+                // A symbolic link may lead out of the folder without `..`:
+                // the file actually reached must lie in this file's folder.
+                // (A missing file is reported when it is read.)
+                let here = if dir.as_os_str().is_empty() {
+                    Path::new(".")
+                } else {
+                    dir
+                };
+                if let (Ok(target), Ok(folder)) =
+                    (std::fs::canonicalize(&joined), std::fs::canonicalize(here))
+                    && !target.starts_with(&folder)
+                {
+                    return Err(format!(
+                        "\"{reference}\" leads through a symbolic link to {}, outside this file's folder; keep the {} beside or below it (or use \"bundled:NAME\")",
+                        target.display(),
+                        kind.noun()
+                    ));
+                }
+                Ok(Origin::Disk(joined))
             }
             Origin::Bundled(p) => {
                 let dir = Path::new(p).parent().unwrap_or(Path::new(""));
@@ -114,19 +133,63 @@ pub struct SourceFile {
     pub locator: Locator,
 }
 
+/// Largest input file read: 1 MiB, a bound of our own choice (the bundled
+/// files are a few kilobytes; the cap keeps every later step fast and a
+/// device such as `/dev/zero` from filling memory). Templates share it.
+pub const MAX_FILE_BYTES: u64 = 1 << 20;
+
+/// Why [`read_text`] refused a file, worded for the user.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ReadRefusal(pub String);
+
+/// Read a regular file of at most [`MAX_FILE_BYTES`] as UTF-8 text. A FIFO,
+/// device, socket or folder is refused without being opened for reading
+/// (opening a FIFO would block), and the read stops one byte past the cap,
+/// so nothing waits or grows without bound.
+pub fn read_text(path: &Path) -> Result<String, ReadRefusal> {
+    use std::io::Read;
+    let meta = std::fs::metadata(path).map_err(|e| {
+        ReadRefusal(match e.kind() {
+            std::io::ErrorKind::NotFound => "no such file".to_string(),
+            _ => format!("cannot read it: {e}"),
+        })
+    })?;
+    if meta.is_dir() {
+        return Err(ReadRefusal("is a folder; expected a YAML file".to_string()));
+    }
+    if !meta.is_file() {
+        return Err(ReadRefusal(
+            "is not a regular file (a pipe, socket or device); expected a YAML file".to_string(),
+        ));
+    }
+    let too_big = || {
+        ReadRefusal(format!(
+            "is larger than {} bytes (1 MiB), the largest input pwmplan reads",
+            MAX_FILE_BYTES
+        ))
+    };
+    if meta.len() > MAX_FILE_BYTES {
+        return Err(too_big());
+    }
+    let file =
+        std::fs::File::open(path).map_err(|e| ReadRefusal(format!("cannot read it: {e}")))?;
+    let mut bytes = Vec::new();
+    file.take(MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| ReadRefusal(format!("cannot read it: {e}")))?;
+    if bytes.len() as u64 > MAX_FILE_BYTES {
+        return Err(too_big());
+    }
+    String::from_utf8(bytes)
+        .map_err(|_| ReadRefusal("not UTF-8 text; expected a YAML file".to_string()))
+}
+
 impl SourceFile {
     pub fn read(origin: Origin) -> Result<SourceFile, InputError> {
         let text = match &origin {
-            Origin::Disk(p) => std::fs::read_to_string(p).map_err(|e| {
-                let why = match e.kind() {
-                    std::io::ErrorKind::NotFound => "no such file".to_string(),
-                    std::io::ErrorKind::InvalidData => {
-                        "not UTF-8 text; expected a YAML file".to_string()
-                    }
-                    _ => format!("cannot read it: {e}"),
-                };
-                InputError::file(origin.display(), why)
-            })?,
+            Origin::Disk(p) => {
+                read_text(p).map_err(|ReadRefusal(why)| InputError::file(origin.display(), why))?
+            }
             Origin::Bundled(p) => bundled::text(p)
                 .ok_or_else(|| InputError::file(origin.display(), "no such bundled file"))?
                 .to_string(),

@@ -103,7 +103,13 @@ fn bad_input(design: &str, edits: &[Edit], expected: &str) {
     for edit in edits {
         apply(dir.path(), edit);
     }
-    let out = plan(dir.path(), design);
+    refused(dir.path(), design, expected);
+}
+
+/// Run `plan DESIGN` in `dir` and check the bad-input promise with the
+/// whole of standard error equal to `expected`.
+fn refused(dir: &Path, design: &str, expected: &str) {
+    let out = plan(dir, design);
     let stderr = String::from_utf8_lossy(&out.stderr);
     let expected = expected.strip_prefix('\n').unwrap_or(expected);
     assert_eq!(
@@ -117,7 +123,7 @@ fn bad_input(design: &str, edits: &[Edit], expected: &str) {
         "nothing may reach standard output on bad input"
     );
     assert!(
-        !dir.path().join("out").exists(),
+        !dir.join("out").exists(),
         "no out/ folder may be written on bad input"
     );
     assert_eq!(stderr, expected);
@@ -610,7 +616,7 @@ fn negative_resistance() {
             r#"resistance: "-0.62 ohm""#,
         )],
         r#"
-error: belt-feeder.yaml:8:17: design.motor.resistance: -620 mΩ is out of range; expected above 0.00 Ω and at most 1.00 kΩ
+error: belt-feeder.yaml:8:17: design.motor.resistance: -620 mΩ is out of range; expected above 1.00 µΩ and at most 1.00 kΩ
  8 |     resistance: "-0.62 ohm"
    |                 ^
 "#,
@@ -628,7 +634,7 @@ fn zero_inductance() {
             r#"inductance: "0 mH""#,
         )],
         r#"
-error: belt-feeder.yaml:9:17: design.motor.inductance: 0.00 H is out of range; expected above 0.00 H and at most 10.0 H
+error: belt-feeder.yaml:9:17: design.motor.inductance: 0.00 H is out of range; expected above 1.00 nH and at most 10.0 H
  9 |     inductance: "0 mH"
    |                 ^
 "#,
@@ -1969,5 +1975,342 @@ error: belt-feeder.yaml:21:32: design.tolerances.driver_supply: at +20.0 % the g
  21 |   tolerances: { driver_supply: "20 %" }
     |                                ^
 "#,
+    );
+}
+
+// ------------------------------------------- hostile and absurd input (#22)
+
+/// A dead-time clock divider so large that one tick lasts minutes: every
+/// need would round to zero ticks (shoot-through on a bridge).
+#[test]
+fn dead_time_divider_rounds_every_need_to_zero() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "clock_divider: 1",
+            "clock_divider: 15000000000",
+        )],
+        r#"
+error: wren-hb24.yaml:12:24: board.timer.dead_time.segmented.clock_divider: 15000000000 makes one dead-time tick 234 s at the timer clock 64.0 MHz; expected a tick of at most 10.0 µs (clock_divider at most 640)
+ 12 |         clock_divider: 15000000000
+    |                        ^
+"#,
+    );
+}
+
+/// Just above the tick bound: a precise refusal, not a vague one later.
+#[test]
+fn dead_time_divider_above_the_tick_bound() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "clock_divider: 1",
+            "clock_divider: 700",
+        )],
+        r#"
+error: wren-hb24.yaml:12:24: board.timer.dead_time.segmented.clock_divider: 700 makes one dead-time tick 10.9 µs at the timer clock 64.0 MHz; expected a tick of at most 10.0 µs (clock_divider at most 640)
+ 12 |         clock_divider: 700
+    |                        ^
+"#,
+    );
+}
+
+/// A segment whose tick count overflows 64 bits.
+#[test]
+fn dead_time_segment_ticks_overflow() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "base: 32, step: 16",
+            "base: 9223372036854775808, step: 16",
+        )],
+        r#"
+error: wren-hb24.yaml:17:50: board.timer.dead_time.segmented.segments[3].base: (base + count − 1) · step overflows a tick count; expected a longest dead time of at most 1 ms
+ 17 |           - { first_code: 0xE0, count: 32, base: 9223372036854775808, step: 16 }
+    |                                                  ^
+"#,
+    );
+}
+
+/// A linear generator whose longest code is far beyond any dead time.
+#[test]
+fn dead_time_linear_longest_beyond_bound() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "max_ticks: 1023",
+            "max_ticks: 99999999999",
+        )],
+        r#"
+error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: the longest code counts 99999999999 ticks, 833 s; expected a longest dead time of at most 1.00 ms
+ 11 |       linear: { clock_divider: 1, max_ticks: 99999999999 }
+    |                                              ^
+"#,
+    );
+}
+
+/// The smallest positive double as a winding resistance.
+#[test]
+fn motor_resistance_absurdly_small() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#""0.62 ohm""#,
+            r#""4.9e-324 ohm""#,
+        )],
+        r#"
+error: belt-feeder.yaml:8:17: design.motor.resistance: 4.94e-324 Ω is out of range; expected above 1.00 µΩ and at most 1.00 kΩ
+ 8 |     resistance: "4.9e-324 ohm"
+   |                 ^
+"#,
+    );
+}
+
+/// A motor at standstill has no operating point to plan.
+#[test]
+fn operating_speed_zero() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", r#""3200 rpm""#, r#""0 rpm""#)],
+        r#"
+error: belt-feeder.yaml:12:22: design.motor.operating_speed: 0.00 rpm is out of range; expected above 0.00 rpm and at most 955000 rpm
+ 12 |     operating_speed: "0 rpm"
+    |                      ^
+"#,
+    );
+}
+
+/// Q_g quoted at a gate voltage the gate cannot take.
+#[test]
+fn gate_charge_at_v_gs_above_v_gs_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"max: "76 nC", at_v_gs: "10 V""#,
+            r#"max: "76 nC", at_v_gs: "25 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 25.0 V is above v_gs_max (20.0 V); expected the gate voltage of the datasheet's gate-charge figure, within the gate rating
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "25 V" }
+    |                                               ^
+"#,
+    );
+}
+
+/// One point is no C_rss curve.
+#[test]
+fn c_rss_curve_of_one_point() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"[["1 V", "1.6 nF"], ["5 V", "420 pF"], ["20 V", "62 pF"], ["32 V", "48 pF"]]"#,
+            r#"[["1 V", "1.6 nF"]]"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:22:18: switch.capacitance.c_rss_curve: one point is no curve; expected at least two [v_ds, c_rss] points, or no c_rss_curve
+ 22 |     c_rss_curve: [["1 V", "1.6 nF"]]
+    |                  ^
+"#,
+    );
+}
+
+/// C_rss falls with drain voltage; a rising point is a typo.
+#[test]
+fn c_rss_curve_rising() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"["32 V", "48 pF"]"#,
+            r#"["32 V", "480 pF"]"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:22:85: switch.capacitance.c_rss_curve[3][1]: 480 pF is above the previous point's 62.0 pF; expected C_rss to fall (or stay) as the drain voltage rises
+ 22 |     c_rss_curve: [["1 V", "1.6 nF"], ["5 V", "420 pF"], ["20 V", "62 pF"], ["32 V", "480 pF"]]
+    |                                                                                     ^
+"#,
+    );
+}
+
+/// Output charge and output energy both given: which one counts?
+#[test]
+fn q_oss_and_e_oss_both() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_oss: "38 nC""#,
+            "q_oss: \"38 nC\"\n  e_oss: { value: \"1 uJ\", at_v_ds: \"20 V\" }",
+        )],
+        r#"
+error: switches/tarn-40.yaml:24:12: switch.e_oss: give either q_oss or e_oss for the output-capacitance loss, not both
+ 24 |   e_oss: { value: "1 uJ", at_v_ds: "20 V" }
+    |            ^
+"#,
+    );
+}
+
+/// A low-side stage without its freewheel diode: named, not "nothing
+/// could be evaluated".
+#[test]
+fn low_side_without_freewheel_diode() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            "    freewheel_diode:",
+            "    #freewheel_diode:",
+        )],
+        r#"
+error: kite-ls12.yaml:14:5: board.stage.freewheel_diode: missing; a low-side stage needs the diode the motor current freewheels through while the switch is off (`freewheel_diode: { v_f: ..., q_rr: ..., t_rr: ..., i_f: ..., v_rrm: ... }`)
+ 14 |     topology: low-side
+    |     ^
+"#,
+    );
+}
+
+/// A gate drive above the threshold but below the Miller plateau.
+#[test]
+fn gate_drive_below_the_plateau() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"supply: "12 V""#,
+            r#"supply: "4.2 V""#,
+        )],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: 4.20 V does not exceed the switch's Miller plateau 4.40 V at the design's rated current 3.50 A; expected a drive voltage above the plateau, so the switch turns fully on
+ 24 |     supply: "4.2 V"
+    |             ^
+"#,
+    );
+}
+
+/// A name too long for a file name is refused before anything is written.
+#[test]
+fn design_name_too_long() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "name: belt-feeder",
+            "name: belt-feeder-with-a-name-far-longer-than-any-file-system-would-like-to-hold-as-a-file-name",
+        )],
+        r#"
+error: belt-feeder.yaml:3:9: design.name: 89 characters; expected at most 64 (the name becomes the generated files' names)
+ 3 |   name: belt-feeder-with-a-name-far-longer-than-any-file-system-would-like-to-hold-as-a-file-name
+   |         ^
+"#,
+    );
+}
+
+/// A board reached through a symbolic link that leads out of the design's
+/// folder: the no-`..` rule holds for links too.
+#[cfg(unix)]
+#[test]
+fn board_through_a_link_out_of_the_folder() {
+    let dir = fixture();
+    let elsewhere = tempfile::tempdir().expect("a second folder");
+    let outside = elsewhere.path().join("wren-hb24.yaml");
+    fs::rename(dir.path().join("wren-hb24.yaml"), &outside).expect("move the board out");
+    std::os::unix::fs::symlink(&outside, dir.path().join("wren-hb24.yaml")).expect("link");
+    let target = fs::canonicalize(&outside).expect("canonical path");
+    refused(
+        dir.path(),
+        "belt-feeder.yaml",
+        &format!(
+            r#"error: belt-feeder.yaml:4:10: design.board: "wren-hb24.yaml" leads through a symbolic link to {}, outside this file's folder; keep the board beside or below it (or use "bundled:NAME")
+ 4 |   board: wren-hb24.yaml
+   |          ^
+"#,
+            target.display()
+        ),
+    );
+}
+
+/// The same for a switch reached from the board through a linked folder.
+#[cfg(unix)]
+#[test]
+fn switch_through_a_linked_folder() {
+    let dir = fixture();
+    let elsewhere = tempfile::tempdir().expect("a second folder");
+    let outside = elsewhere.path().join("switches");
+    fs::rename(dir.path().join("switches"), &outside).expect("move the switches out");
+    std::os::unix::fs::symlink(&outside, dir.path().join("switches")).expect("link");
+    let target = fs::canonicalize(outside.join("tarn-40.yaml")).expect("canonical path");
+    refused(
+        dir.path(),
+        "belt-feeder.yaml",
+        &format!(
+            r#"error: wren-hb24.yaml:22:13: board.stage.switch: "switches/tarn-40.yaml" leads through a symbolic link to {}, outside this file's folder; keep the switch beside or below it (or use "bundled:NAME")
+ 22 |     switch: switches/tarn-40.yaml
+    |             ^
+"#,
+            target.display()
+        ),
+    );
+}
+
+/// A FIFO as the design file is refused without opening it (opening would
+/// block until a writer came).
+#[cfg(unix)]
+#[test]
+fn design_is_a_fifo() {
+    let dir = fixture();
+    let fifo = dir.path().join("pipe.yaml");
+    let status = Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .expect("run mkfifo");
+    assert!(status.success());
+    refused(
+        dir.path(),
+        "pipe.yaml",
+        "error: pipe.yaml: is not a regular file (a pipe, socket or device); expected a YAML file\n",
+    );
+}
+
+/// A device that never ends is not read.
+#[cfg(unix)]
+#[test]
+fn design_is_a_device() {
+    let dir = fixture();
+    refused(
+        dir.path(),
+        "/dev/zero",
+        "error: /dev/zero: is not a regular file (a pipe, socket or device); expected a YAML file\n",
+    );
+}
+
+/// A folder as the design file.
+#[test]
+fn design_is_a_folder() {
+    let dir = fixture();
+    refused(
+        dir.path(),
+        "switches",
+        "error: switches: is a folder; expected a YAML file\n",
+    );
+}
+
+/// A file over the size cap is refused before it is parsed.
+#[test]
+fn design_over_the_size_cap() {
+    let dir = fixture();
+    let text = fs::read_to_string(dir.path().join("belt-feeder.yaml")).expect("read");
+    let padding = "# padding\n".repeat(110_000);
+    fs::write(dir.path().join("big.yaml"), format!("{text}{padding}")).expect("write");
+    refused(
+        dir.path(),
+        "big.yaml",
+        "error: big.yaml: is larger than 1048576 bytes (1 MiB), the largest input pwmplan reads\n",
     );
 }
