@@ -502,7 +502,7 @@ fn check_dead_time_ticks(c: &Check, t: &TimerSpec) -> Result<(), InputError> {
         ));
     }
     let tick_s = divider as f64 / t.clock.si;
-    if !(tick_s <= MAX_DEAD_TIME_TICK_S) {
+    if tick_s.is_nan() || tick_s > MAX_DEAD_TIME_TICK_S {
         return Err(c.fail(
             &format!("{base}.clock_divider"),
             format!(

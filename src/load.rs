@@ -146,7 +146,8 @@ pub struct ReadRefusal(pub String);
 /// device, socket or folder is refused without being opened for reading
 /// (opening a FIFO would block), and the read stops one byte past the cap,
 /// so nothing waits or grows without bound.
-pub fn read_text(path: &Path) -> Result<String, ReadRefusal> {
+/// `kind` names what the file should be ("a YAML file").
+pub fn read_text(path: &Path, kind: &str) -> Result<String, ReadRefusal> {
     use std::io::Read;
     let meta = std::fs::metadata(path).map_err(|e| {
         ReadRefusal(match e.kind() {
@@ -158,9 +159,9 @@ pub fn read_text(path: &Path) -> Result<String, ReadRefusal> {
         return Err(ReadRefusal("is a folder; expected a YAML file".to_string()));
     }
     if !meta.is_file() {
-        return Err(ReadRefusal(
-            "is not a regular file (a pipe, socket or device); expected a YAML file".to_string(),
-        ));
+        return Err(ReadRefusal(format!(
+            "is not a regular file (a pipe, socket or device); expected {kind}"
+        )));
     }
     let too_big = || {
         ReadRefusal(format!(
@@ -180,16 +181,14 @@ pub fn read_text(path: &Path) -> Result<String, ReadRefusal> {
     if bytes.len() as u64 > MAX_FILE_BYTES {
         return Err(too_big());
     }
-    String::from_utf8(bytes)
-        .map_err(|_| ReadRefusal("not UTF-8 text; expected a YAML file".to_string()))
+    String::from_utf8(bytes).map_err(|_| ReadRefusal(format!("not UTF-8 text; expected {kind}")))
 }
 
 impl SourceFile {
     pub fn read(origin: Origin) -> Result<SourceFile, InputError> {
         let text = match &origin {
-            Origin::Disk(p) => {
-                read_text(p).map_err(|ReadRefusal(why)| InputError::file(origin.display(), why))?
-            }
+            Origin::Disk(p) => read_text(p, "a YAML file")
+                .map_err(|ReadRefusal(why)| InputError::file(origin.display(), why))?,
             Origin::Bundled(p) => bundled::text(p)
                 .ok_or_else(|| InputError::file(origin.display(), "no such bundled file"))?
                 .to_string(),

@@ -2314,3 +2314,166 @@ fn design_over_the_size_cap() {
         "error: big.yaml: is larger than 1048576 bytes (1 MiB), the largest input pwmplan reads\n",
     );
 }
+
+// ------------------------------------------------ hostile templates (#22)
+
+/// A copy of the bundled templates in `dir/tpl` with `extra` appended to
+/// the C header template (or the whole of it replaced when `replace`).
+fn templates_with(dir: &Path, extra: &str, replace: bool) {
+    let tpl = dir.join("tpl");
+    fs::create_dir_all(&tpl).expect("templates folder");
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("templates");
+    for name in ["c_header.h.hbs", "rust_module.rs.hbs", "rationale.md.hbs"] {
+        fs::copy(src.join(name), tpl.join(name)).expect("copy a template");
+    }
+    let header = tpl.join("c_header.h.hbs");
+    let text = if replace {
+        extra.to_string()
+    } else {
+        format!("{}{extra}", fs::read_to_string(&header).expect("read"))
+    };
+    fs::write(&header, text).expect("write the template");
+}
+
+/// Run `plan --templates tpl` on the demo and check exit 2, empty stdout,
+/// no `out/`, and the whole of standard error.
+fn template_refused(dir: &Path, expected: &str) {
+    let out = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .args(["plan", "--templates", "tpl"])
+        .current_dir(dir)
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "stderr:\n{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert_eq!(String::from_utf8_lossy(&out.stdout), "");
+    assert!(!dir.join("out").exists());
+    assert_eq!(String::from_utf8_lossy(&out.stderr), expected);
+}
+
+fn header_lines() -> usize {
+    fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("templates/c_header.h.hbs"))
+        .expect("read")
+        .lines()
+        .count()
+}
+
+/// A template that includes itself would recurse until the stack overflows.
+#[test]
+fn template_including_itself() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "{{> c_header.h.hbs}}\n", false);
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: a partial or inline partial; expected each template to stand alone (pwmplan templates include no other template)\n",
+            header_lines() + 1
+        ),
+    );
+}
+
+/// 5000 nested blocks would overflow the parser's stack.
+#[test]
+fn template_nested_5000_deep() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let deep = format!(
+        "{}{}\n",
+        "{{#if tool}}".repeat(5000),
+        "{{/if}}".repeat(5000)
+    );
+    templates_with(dir.path(), &deep, false);
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: blocks nested more than 16 deep; expected at most 16\n",
+            header_lines() + 1
+        ),
+    );
+}
+
+/// Loops inside loops inside loops multiply the output without bound.
+#[test]
+fn template_loops_nested_three_deep() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(
+        dir.path(),
+        "{{#each rationale_lines}}\n{{#each ../rationale_lines}}\n{{#each ../../rationale_lines}}{{this}}{{/each}}{{/each}}{{/each}}\n",
+        false,
+    );
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: `{{{{#each}}}}` loops nested more than 2 deep; expected at most 2\n",
+            header_lines() + 3
+        ),
+    );
+}
+
+/// Within the nesting bounds, a template can still render too much: the
+/// rendering stops at the output cap.
+#[test]
+fn template_output_over_the_cap() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let body = format!(
+        "{{{{#each rationale_lines}}}}{{{{#each ../rationale_lines}}}}{}{{{{/each}}}}{{{{/each}}}}\n",
+        "{{this}}".repeat(40)
+    );
+    templates_with(dir.path(), &body.repeat(20), false);
+    template_refused(
+        dir.path(),
+        "error: template c_header.h.hbs: renders more than 1048576 bytes (1 MiB), the largest file pwmplan writes; expected loops that each go over one list once\n",
+    );
+}
+
+/// A replacement template without the content-hash marker: the next run
+/// could not tell its own file from an edited one.
+#[test]
+fn template_without_the_marker() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "int x;\n", true);
+    template_refused(
+        dir.path(),
+        "error: template c_header.h.hbs: writes the content-hash marker `{{marker}}` 0 times; expected it exactly once (the next `plan` reads it to tell its own files from edited ones)\n",
+    );
+}
+
+/// A template that is a link to a file outside the templates folder.
+#[cfg(unix)]
+#[test]
+fn template_linked_out_of_the_folder() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "", false);
+    let elsewhere = tempfile::tempdir().expect("second temp dir");
+    let secret = elsewhere.path().join("secret.txt");
+    fs::write(&secret, "not a template\n").expect("write");
+    let link = dir.path().join("tpl/rust_module.rs.hbs");
+    fs::remove_file(&link).expect("remove");
+    std::os::unix::fs::symlink(&secret, &link).expect("link");
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/rust_module.rs.hbs: leads through a symbolic link to {}, outside the templates folder; expected the template itself in tpl\n",
+            fs::canonicalize(&secret).expect("canonical").display()
+        ),
+    );
+}
+
+/// A template that is a device is not read.
+#[cfg(unix)]
+#[test]
+fn template_is_a_device() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "", false);
+    let t = dir.path().join("tpl/rationale.md.hbs");
+    fs::remove_file(&t).expect("remove");
+    // A device inside the folder (a link to it is refused as outside).
+    let status = Command::new("mkfifo").arg(&t).status().expect("mkfifo");
+    assert!(status.success());
+    template_refused(
+        dir.path(),
+        "error: tpl/rationale.md.hbs: is not a regular file (a pipe, socket or device); expected a template file\n",
+    );
+}
