@@ -211,6 +211,25 @@ pub fn solve_design(
 ) -> Result<Solved, Failure> {
     let design = load(design)?;
     let ev = Evaluator::new(&design);
+    if let Some(f) = at {
+        // Refuse a pinned frequency the timer cannot come near before
+        // searching for it (a search towards 1 mHz visits every divider).
+        let (lo, hi) = ev
+            .alignments()
+            .iter()
+            .map(|a| ev.timer.frequency_range(*a))
+            .fold((f64::INFINITY, 0.0f64), |(l, h), (a, b)| {
+                (l.min(a), h.max(b))
+            });
+        if !(f >= lo * (1.0 - 1e-9) && f <= hi * (1.0 + 1e-9)) {
+            return Err(Failure::Usage(format!(
+                "--at {}: outside what the timer can make ({} to {}); expected a frequency in that range",
+                fmt_hz(f),
+                fmt_hz(lo),
+                fmt_hz(hi)
+            )));
+        }
+    }
     let objective = objective_of(&design);
     let corners = if worst_case {
         crate::spread::corner_evaluators(&design, &ev)

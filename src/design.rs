@@ -207,6 +207,14 @@ impl Check<'_> {
         Ok(())
     }
 
+    /// A list no longer than `cap` (see [`LIST_CAPS`]).
+    fn max_len(&self, field: &str, len: usize, cap: usize, items: &str) -> Result<(), InputError> {
+        if len > cap {
+            return Err(self.fail(field, format!("{len} {items}; expected at most {cap}")));
+        }
+        Ok(())
+    }
+
     /// min ≤ typ ≤ max for a datasheet spread.
     fn spread<D: Dim>(&self, field: &str, s: &Spread<D>) -> Result<(), InputError> {
         let dim = D::DIM;
@@ -238,6 +246,32 @@ impl Check<'_> {
     }
 }
 
+/// The longest lists accepted, each a bound of our own choice: several
+/// times what a real datasheet, timer or design needs, and small enough
+/// that every check and search stays linear-time in practice (README,
+/// input reference).
+pub const LIST_CAPS: ListCaps = ListCaps {
+    curve_points: 32,
+    prescaler_ratios: 64,
+    dead_time_segments: 16,
+    foster_pairs: 16,
+    avoided_bands: 16,
+};
+
+/// See [`LIST_CAPS`].
+pub struct ListCaps {
+    /// `r_ds_on_vs_temperature.points`, `capacitance.c_rss_curve`.
+    pub curve_points: usize,
+    /// `timer.prescaler.ratios`.
+    pub prescaler_ratios: usize,
+    /// `timer.dead_time.segmented.segments`.
+    pub dead_time_segments: usize,
+    /// `thermal.foster`.
+    pub foster_pairs: usize,
+    /// `constraints.audible.avoid`.
+    pub avoided_bands: usize,
+}
+
 const V: Dimension = Dimension::Voltage;
 const A: Dimension = Dimension::Current;
 const OHM: Dimension = Dimension::Resistance;
@@ -266,6 +300,12 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     c.within("r_ds_on.at_v_gs", s.r_ds_on.at_v_gs.si, 0.0, 30.0, V)?;
     match &s.r_ds_on_vs_temperature {
         Some(RdsOnTemperatureSpec::Points(points)) => {
+            c.max_len(
+                "r_ds_on_vs_temperature.points",
+                points.len(),
+                LIST_CAPS.curve_points,
+                "points",
+            )?;
             if points.len() < 2 {
                 return Err(c.fail(
                     "r_ds_on_vs_temperature.points",
@@ -391,6 +431,12 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
+    c.max_len(
+        "capacitance.c_rss_curve",
+        cap.c_rss_curve.len(),
+        LIST_CAPS.curve_points,
+        "points",
+    )?;
     if cap.c_rss_curve.len() == 1 {
         return Err(c.fail(
             "capacitance.c_rss_curve",
@@ -602,6 +648,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             }
         }
         PrescalerSpec::Ratios(r) => {
+            c.max_len(
+                "timer.prescaler.ratios",
+                r.len(),
+                LIST_CAPS.prescaler_ratios,
+                "ratios",
+            )?;
             if r.is_empty() {
                 return Err(c.fail("timer.prescaler.ratios", "expected at least one ratio"));
             }
@@ -631,6 +683,14 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         if t.alignments[..i].contains(a) {
             return Err(c.fail(&format!("timer.alignments[{i}]"), "listed twice"));
         }
+    }
+    if let DeadTimeSpec::Segmented { segments, .. } = &t.dead_time {
+        c.max_len(
+            "timer.dead_time.segmented.segments",
+            segments.len(),
+            LIST_CAPS.dead_time_segments,
+            "segments",
+        )?;
     }
     check_dead_time_ticks(&c, t)?;
     match &t.dead_time {
@@ -906,6 +966,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             ));
         }
     }
+    c.max_len(
+        "thermal.foster",
+        th.foster.len(),
+        LIST_CAPS.foster_pairs,
+        "pairs",
+    )?;
     for (i, (r, tau)) in th.foster.iter().enumerate() {
         c.within(&format!("thermal.foster[{i}][0]"), r.si, 0.0, 1000.0, KW)?;
         c.within(&format!("thermal.foster[{i}][1]"), tau.si, 0.0, 1e5, S)?;
@@ -915,7 +981,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
 
 /// The board's gate drive against the design's load: the drive must rise
 /// above the Miller plateau at the rated current (the datasheet plateau, or
-/// V_th + I/g_fs, AN608A), or the switch never turns fully on and no
+/// V_th + I/g_fs as in `check_tolerances`), or the switch never turns fully on and no
 /// setting can be evaluated. Reported at the board's `gate_driver.supply`.
 fn check_drive_at_load(
     d: &DesignSpec,
@@ -1149,6 +1215,12 @@ fn check_design(
             c.within("constraints.audible.inaudible_above", f.si, 1e3, 30e3, HZ)?
         }
         AudibleSpec::Avoid(bands) => {
+            c.max_len(
+                "constraints.audible.avoid",
+                bands.len(),
+                LIST_CAPS.avoided_bands,
+                "bands",
+            )?;
             if bands.is_empty() {
                 return Err(c.fail(
                     "constraints.audible.avoid",

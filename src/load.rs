@@ -184,6 +184,117 @@ pub fn read_text(path: &Path, kind: &str) -> Result<String, ReadRefusal> {
     String::from_utf8(bytes).map_err(|_| ReadRefusal(format!("not UTF-8 text; expected {kind}")))
 }
 
+/// Deepest nesting of flow collections (`[` and `{`) accepted: 64, a
+/// bound of our own choice (a design nests three deep; the YAML parsers
+/// recurse once per level and slow down on thousands).
+pub const MAX_FLOW_DEPTH: usize = 64;
+
+/// Problems found by one cheap linear pass before any parser runs: a NUL
+/// or other control character (named as such), an alias to an anchor not
+/// defined above it, and flow collections
+/// nested deeper than [`MAX_FLOW_DEPTH`]. Returns the place, the field path
+/// of the block keys above it, and the message.
+pub fn shape_problem(text: &str) -> Option<(Position, String, String)> {
+    // Block keys by indentation, for the field path of a problem.
+    let mut keys: Vec<(usize, String)> = Vec::new();
+    let mut depth = 0usize;
+    let mut quote: Option<char> = None;
+    let mut anchors = std::collections::BTreeSet::new();
+    for (i, line) in text.split('\n').enumerate() {
+        if depth == 0 && quote.is_none() {
+            let body = line.trim_start_matches([' ', '-']);
+            let indent = line.len() - body.len();
+            if let Some((key, _)) = body.split_once(':')
+                && !key.is_empty()
+                && key
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+            {
+                keys.retain(|(at, _)| *at < indent);
+                keys.push((indent, key.to_string()));
+            }
+        }
+        let path = |keys: &[(usize, String)]| {
+            keys.iter()
+                .map(|(_, k)| k.as_str())
+                .collect::<Vec<_>>()
+                .join(".")
+        };
+        let mut comment = false;
+        let chars: Vec<char> = line.chars().collect();
+        for (col, &ch) in chars.iter().enumerate() {
+            let at = Position {
+                line: i + 1,
+                column: col + 1,
+            };
+            if ch == '\0' {
+                return Some((
+                    at,
+                    path(&keys),
+                    "a NUL byte (character 0) in the text; expected YAML text without control characters".into(),
+                ));
+            }
+            if ch.is_control() && ch != '\t' && ch != '\r' {
+                return Some((
+                    at,
+                    path(&keys),
+                    format!(
+                        "a control character (U+{:04X}) in the text; expected YAML text without control characters",
+                        u32::from(ch)
+                    ),
+                ));
+            }
+            if comment {
+                continue;
+            }
+            match (quote, ch) {
+                (Some(q), c) if c == q => quote = None,
+                (Some(_), _) => {}
+                (None, '"' | '\'') if depth > 0 => quote = Some(ch),
+                (None, '#') => comment = true,
+                (None, '&' | '*')
+                    if col == 0 || matches!(chars[col - 1], ' ' | '\t' | '[' | '{' | ',') =>
+                {
+                    let name: String = chars[col + 1..]
+                        .iter()
+                        .take_while(|c| {
+                            !c.is_whitespace() && !matches!(c, ',' | '[' | ']' | '{' | '}')
+                        })
+                        .collect();
+                    if ch == '&' {
+                        anchors.insert(name);
+                    } else if !anchors.contains(&name) {
+                        return Some((
+                            at,
+                            path(&keys),
+                            format!(
+                                "the alias `*{name}` names no anchor: no `&{name}` is defined above it; expected a value, or an anchor defined before its alias"
+                            ),
+                        ));
+                    }
+                }
+                (None, '[' | '{') => {
+                    depth += 1;
+                    if depth > MAX_FLOW_DEPTH {
+                        return Some((
+                            at,
+                            path(&keys),
+                            format!(
+                                "`{ch}` nested more than {MAX_FLOW_DEPTH} deep; expected at most {MAX_FLOW_DEPTH} levels of `[` and `{{`"
+                            ),
+                        ));
+                    }
+                }
+                (None, ']' | '}') => depth = depth.saturating_sub(1),
+                _ => {}
+            }
+        }
+        // A quote does not run past its line in a flow collection here.
+        quote = None;
+    }
+    None
+}
+
 impl SourceFile {
     pub fn read(origin: Origin) -> Result<SourceFile, InputError> {
         let text = match &origin {
@@ -193,6 +304,15 @@ impl SourceFile {
                 .ok_or_else(|| InputError::file(origin.display(), "no such bundled file"))?
                 .to_string(),
         };
+        if let Some((position, field, message)) = shape_problem(&text) {
+            return Err(InputError::at(
+                origin.display(),
+                &text,
+                Some(position),
+                field,
+                message,
+            ));
+        }
         Ok(SourceFile::from_text(origin, text))
     }
 

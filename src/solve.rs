@@ -1588,8 +1588,12 @@ fn nearest(ev: &Evaluator, f_hz: f64) -> Option<PwmSetting> {
     // (the most duty steps), widened until the band holds some: cheaper
     // than visiting every divider, and the same nearest setting.
     let near = |a: Alignment| -> Option<PwmSetting> {
+        // Products per band grow with clock/f: at a low frequency the band
+        // holds too many to factor one by one (a bound of our own choice:
+        // 4096 products), and the direct search visits fewer dividers.
+        let products = ev.timer.clock_hz / f_hz.max(f64::MIN_POSITIVE);
         let mut width = 1e-3;
-        while width < 1e3 {
+        while width < 1e3 && products * width <= 4096.0 {
             let (lo, hi) = (f_hz / (1.0 + width), f_hz * (1.0 + width));
             if let Ok(it) = ev.timer.distinct_products_in_band(lo, hi, a) {
                 let best = it.min_by(|x, y| {

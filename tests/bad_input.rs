@@ -2477,3 +2477,158 @@ fn template_is_a_device() {
         "error: tpl/rationale.md.hbs: is not a regular file (a pipe, socket or device); expected a template file\n",
     );
 }
+
+// ------------------------------------------- hangs and vague messages (#22)
+
+/// 100 000 unclosed `[`: refused by a linear pre-scan at the 65th level.
+#[test]
+fn flow_nesting_too_deep() {
+    let deep: &'static str =
+        Box::leak(format!("ambient: {}", "[".repeat(100_000)).into_boxed_str());
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"ambient: { min: "-10 °C", max: "55 °C" }"#,
+            deep,
+        )],
+        r#"
+error: belt-feeder.yaml:13:76: design.ambient: `[` nested more than 64 deep; expected at most 64 levels of `[` and `{`
+ 13 |   ambient: [[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[…
+    |                                                                            ^
+"#,
+    );
+}
+
+/// A NUL byte is named as such, at its place.
+#[test]
+fn nul_byte_named() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "kind: brushed-dc",
+            "kind: brushed\0-dc",
+        )],
+        r#"
+error: belt-feeder.yaml:7:18: design.motor.kind: a NUL byte (character 0) in the text; expected YAML text without control characters
+ 7 |     kind: brushed�-dc
+   |                  ^
+"#,
+    );
+}
+
+/// An alias to an anchor that does not exist is named as such (not as bad
+/// indentation).
+#[test]
+fn alias_to_a_missing_anchor() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", "kind: brushed-dc", "kind: *nope")],
+        r#"
+error: belt-feeder.yaml:7:11: design.motor.kind: the alias `*nope` names no anchor: no `&nope` is defined above it; expected a value, or an anchor defined before its alias
+ 7 |     kind: *nope
+   |           ^
+"#,
+    );
+}
+
+/// A very long line is echoed cut to a readable width around the column,
+/// with an ellipsis at each cut.
+#[test]
+fn long_line_echoed_cut() {
+    let long: &'static str = Box::leak(
+        format!(
+            "operating_speed:{}\"0 rpm\" # {}",
+            " ".repeat(200),
+            "x".repeat(10_000)
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"operating_speed: "3200 rpm""#,
+            long,
+        )],
+        r#"
+error: belt-feeder.yaml:12:221: design.motor.operating_speed: 0.00 rpm is out of range; expected above 0.00 rpm and at most 955000 rpm
+ 12 | …                                                           "0 rpm" # xxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxx…
+    |                                                             ^
+"#,
+    );
+}
+
+/// A list longer than any design needs.
+#[test]
+fn too_many_avoided_bands() {
+    let bands: &'static str = Box::leak(
+        format!(
+            "avoid: [{}]",
+            (0..17)
+                .map(|i| format!("[\"{} kHz\", \"{}.5 kHz\"]", i + 1, i + 1))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "vent-fan.yaml",
+            "avoid: [[\"2.2 kHz\", \"2.8 kHz\"]]",
+            bands,
+        )],
+        r#"
+error: vent-fan.yaml:17:14: design.constraints.audible.avoid: 17 bands; expected at most 16
+ 17 |       avoid: [["1 kHz", "1.5 kHz"], ["2 kHz", "2.5 kHz"], ["3 kHz", "3.5 kHz"], ["4 kHz", "4.5 kHz"], ["5 kHz", "5.5 k…
+    |              ^
+"#,
+    );
+}
+
+/// A prescaler list far longer than a timer has.
+#[test]
+fn too_many_prescaler_ratios() {
+    let ratios: &'static str = Box::leak(
+        format!(
+            "ratios: [{}]",
+            (1..=65)
+                .map(|i| i.to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            "ratios: [1, 2, 4, 8, 16, 32, 64, 128]",
+            ratios,
+        )],
+        r#"
+error: kite-ls12.yaml:8:15: board.timer.prescaler.ratios: 65 ratios; expected at most 64
+ 8 |       ratios: [1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21, 22, 23, 24, 25, 26, 27, 28, …
+   |               ^
+"#,
+    );
+}
+
+/// `--at` outside what the timer can realise is refused before searching.
+#[test]
+fn pinned_frequency_outside_the_timer() {
+    let dir = fixture();
+    let out = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .args(["plan", "belt-feeder.yaml", "--at", "1 mHz"])
+        .current_dir(dir.path())
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(!dir.path().join("out").exists());
+    assert_eq!(
+        String::from_utf8_lossy(&out.stderr),
+        "error: --at 1.000 mHz: outside what the timer can make (7.451 mHz to 32.00 MHz); expected a frequency in that range\n"
+    );
+}
