@@ -648,7 +648,7 @@ fn read_output(path: &Path) -> Result<Option<String>, String> {
         Ok(m) if !m.is_file() => Err("it is not a regular file".into()),
         Ok(_) => crate::load::read_text(path, "a file pwmplan wrote")
             .map(Some)
-            .map_err(|crate::load::ReadRefusal(why)| why),
+            .map_err(|crate::load::ReadRefusal(why, _)| why),
     }
 }
 

@@ -69,6 +69,7 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
     check_board(&board, &switch, &sources[1])?;
     let derived = check_design(&spec, &board, &switch, &sources[0])?;
     check_drive_at_load(&spec, &board, &switch, &sources[1])?;
+    check_search_span(&spec, &board, &sources[0], &sources[1])?;
     Ok(Design {
         spec,
         board,
@@ -87,6 +88,7 @@ pub fn with_switch(d: &Design, switch: SwitchSpec, src: SourceFile) -> Result<De
     check_board(&d.board, &switch, &d.sources[1])?;
     let derived = check_design(&d.spec, &d.board, &switch, &d.sources[0])?;
     check_drive_at_load(&d.spec, &d.board, &switch, &d.sources[1])?;
+    check_search_span(&d.spec, &d.board, &d.sources[0], &d.sources[1])?;
     let mut sources = vec![d.sources[0].clone(), d.sources[1].clone(), src];
     sources.truncate(3);
     Ok(Design {
@@ -1016,6 +1018,52 @@ fn check_drive_at_load(
 /// Longest design name: 64 characters, a bound of our own choice (the name
 /// becomes file names and C identifiers; file systems allow 255 bytes).
 pub const MAX_NAME_CHARS: usize = 64;
+
+/// Most timer products (`clock / f`, one per realisable frequency) the
+/// search may span: 2^19 = 524 288, a bound of our own choice (the search
+/// lists every realisable frequency in the band; at 64 MHz this allows a
+/// band down to 122 Hz).
+pub const MAX_SEARCH_PRODUCTS: f64 = 524_288.0;
+
+/// The band's lowest frequency against the timer clock: the search lists
+/// one setting per product `clock / f`, so a band reaching far below the
+/// clock would take minutes. Reported at `constraints.frequency.min`, or at
+/// the board's clock when the design leaves the band at its default.
+fn check_search_span(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    design_src: &SourceFile,
+    board_src: &SourceFile,
+) -> Result<(), InputError> {
+    let given = d.constraints.frequency.as_ref().and_then(|f| f.min);
+    let f_min = given.map_or(crate::model::DEFAULT_F_MIN_HZ, |f| f.si);
+    let clock = b.timer.clock.si;
+    if clock / f_min <= MAX_SEARCH_PRODUCTS {
+        return Ok(());
+    }
+    let lowest = clock / MAX_SEARCH_PRODUCTS;
+    Err(match given {
+        Some(_) => design_src.error(
+            "design.constraints.frequency.min",
+            format!(
+                "{} is too far below the timer clock {} to search; expected at least {} (clock / {MAX_SEARCH_PRODUCTS})",
+                fmt(f_min, HZ),
+                fmt(clock, HZ),
+                fmt(lowest, HZ)
+            ),
+        ),
+        None => board_src.error(
+            "board.timer.clock",
+            format!(
+                "{} is too fast to search down to the default lowest frequency {}; expected at most {}, or give the design a `constraints.frequency.min` of at least {}",
+                fmt(clock, HZ),
+                fmt(f_min, HZ),
+                fmt(f_min * MAX_SEARCH_PRODUCTS, HZ),
+                fmt(lowest, HZ)
+            ),
+        ),
+    })
+}
 
 /// Smallest motor winding resistance accepted: 1 µΩ, a bound of our own
 /// choice (a real winding with its leads has milliohms; below this the rated

@@ -845,7 +845,7 @@ impl Templates {
                         )));
                     }
                     let text = crate::load::read_text(&p, "a template file").map_err(
-                        |crate::load::ReadRefusal(why)| {
+                        |crate::load::ReadRefusal(why, _)| {
                             refuse(if why == "no such file" {
                                 format!(
                                     "missing; a template folder must hold all of {}",

@@ -138,9 +138,14 @@ pub struct SourceFile {
 /// device such as `/dev/zero` from filling memory). Templates share it.
 pub const MAX_FILE_BYTES: u64 = 1 << 20;
 
-/// Why [`read_text`] refused a file, worded for the user.
+/// Why [`read_text`] refused a file, worded for the user, with the place
+/// when there is one (the first byte that is not UTF-8).
 #[derive(Debug, Clone, PartialEq, Eq)]
-pub struct ReadRefusal(pub String);
+pub struct ReadRefusal(pub String, pub Option<Position>);
+
+fn refusal(message: String) -> ReadRefusal {
+    ReadRefusal(message, None)
+}
 
 /// Read a regular file of at most [`MAX_FILE_BYTES`] as UTF-8 text. A FIFO,
 /// device, socket or folder is refused without being opened for reading
@@ -150,21 +155,21 @@ pub struct ReadRefusal(pub String);
 pub fn read_text(path: &Path, kind: &str) -> Result<String, ReadRefusal> {
     use std::io::Read;
     let meta = std::fs::metadata(path).map_err(|e| {
-        ReadRefusal(match e.kind() {
+        refusal(match e.kind() {
             std::io::ErrorKind::NotFound => "no such file".to_string(),
             _ => format!("cannot read it: {e}"),
         })
     })?;
     if meta.is_dir() {
-        return Err(ReadRefusal("is a folder; expected a YAML file".to_string()));
+        return Err(refusal(format!("is a folder; expected {kind}")));
     }
     if !meta.is_file() {
-        return Err(ReadRefusal(format!(
+        return Err(refusal(format!(
             "is not a regular file (a pipe, socket or device); expected {kind}"
         )));
     }
     let too_big = || {
-        ReadRefusal(format!(
+        refusal(format!(
             "is larger than {} bytes (1 MiB), the largest input pwmplan reads",
             MAX_FILE_BYTES
         ))
@@ -172,16 +177,25 @@ pub fn read_text(path: &Path, kind: &str) -> Result<String, ReadRefusal> {
     if meta.len() > MAX_FILE_BYTES {
         return Err(too_big());
     }
-    let file =
-        std::fs::File::open(path).map_err(|e| ReadRefusal(format!("cannot read it: {e}")))?;
+    let file = std::fs::File::open(path).map_err(|e| refusal(format!("cannot read it: {e}")))?;
     let mut bytes = Vec::new();
     file.take(MAX_FILE_BYTES + 1)
         .read_to_end(&mut bytes)
-        .map_err(|e| ReadRefusal(format!("cannot read it: {e}")))?;
+        .map_err(|e| refusal(format!("cannot read it: {e}")))?;
     if bytes.len() as u64 > MAX_FILE_BYTES {
         return Err(too_big());
     }
-    String::from_utf8(bytes).map_err(|_| ReadRefusal(format!("not UTF-8 text; expected {kind}")))
+    String::from_utf8(bytes).map_err(|e| {
+        // The place of the first byte that is not UTF-8.
+        let head = &e.as_bytes()[..e.utf8_error().valid_up_to()];
+        let line_start = head.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
+        let column = String::from_utf8_lossy(&head[line_start..]).chars().count() + 1;
+        let line = head.iter().filter(|b| **b == b'\n').count() + 1;
+        ReadRefusal(
+            format!("not UTF-8 text (a byte here is not UTF-8); expected {kind}"),
+            Some(Position { line, column }),
+        )
+    })
 }
 
 /// Deepest nesting of flow collections (`[` and `{`) accepted: 64, a
@@ -298,8 +312,18 @@ pub fn shape_problem(text: &str) -> Option<(Position, String, String)> {
 impl SourceFile {
     pub fn read(origin: Origin) -> Result<SourceFile, InputError> {
         let text = match &origin {
-            Origin::Disk(p) => read_text(p, "a YAML file")
-                .map_err(|ReadRefusal(why)| InputError::file(origin.display(), why))?,
+            Origin::Disk(p) => {
+                read_text(p, "a YAML file").map_err(|ReadRefusal(why, at)| match at {
+                    // Not UTF-8: the place, under the keys it lies in.
+                    Some(at) => {
+                        let lossy = std::fs::read(p)
+                            .map(|b| String::from_utf8_lossy(&b).to_string())
+                            .unwrap_or_default();
+                        InputError::at(origin.display(), &lossy, Some(at), "", why)
+                    }
+                    None => InputError::file(origin.display(), why),
+                })?
+            }
             Origin::Bundled(p) => bundled::text(p)
                 .ok_or_else(|| InputError::file(origin.display(), "no such bundled file"))?
                 .to_string(),
@@ -346,8 +370,11 @@ impl SourceFile {
             format!("expected a top-level `{k}:` key")
         });
         if self.text.trim().is_empty() {
-            return Err(InputError::file(
+            return Err(InputError::at(
                 self.origin.display(),
+                &self.text,
+                Some(Position { line: 1, column: 1 }),
+                top.as_deref().unwrap_or("(top level)"),
                 format!("the file is empty; {expect_top}"),
             ));
         }
@@ -363,8 +390,11 @@ impl SourceFile {
             ));
         }
         if self.locator.problem().is_none() && !self.locator.has_content() {
-            return Err(InputError::file(
+            return Err(InputError::at(
                 self.origin.display(),
+                &self.text,
+                Some(Position { line: 1, column: 1 }),
+                top.as_deref().unwrap_or("(top level)"),
                 format!("the file has no content; {expect_top}"),
             ));
         }
@@ -406,6 +436,28 @@ impl SourceFile {
             line: l.line(),
             column: l.column(),
         });
+        if position.is_none() && e.to_string().contains("more than one document") {
+            // The second document's start: a `---` after the first content.
+            let second = self
+                .text
+                .lines()
+                .enumerate()
+                .skip_while(|(_, l)| {
+                    l.trim().is_empty() || l.trim_start().starts_with('#') || l.starts_with("---")
+                })
+                .find(|(_, l)| l.starts_with("---") || l.starts_with("..."))
+                .map(|(i, _)| Position {
+                    line: i + 1,
+                    column: 1,
+                });
+            return InputError::at(
+                self.origin.display(),
+                &self.text,
+                second.or(Some(Position { line: 1, column: 1 })),
+                "",
+                "a second YAML document (`---` or `...`) begins here; expected one document per file",
+            );
+        }
         let (path, message) = split_yaml_message(&e.to_string());
         let present = self.locator.children(&path);
         let (field, message) = refine(&path, &message, &present);

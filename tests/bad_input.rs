@@ -218,7 +218,7 @@ fn yaml_key_indented_too_deep() {
             "      counter_bits: 16",
         )],
         r#"
-error: wren-hb24.yaml:6:7: bad indentation: `counter_bits` is indented 6 spaces, which lines up with no key above it; indent it 4 (a key of `timer`), 2 (a key of `board`) or 0 (a top-level key)
+error: wren-hb24.yaml:6:7: board.timer.clock.counter_bits: bad indentation: `counter_bits` is indented 6 spaces, which lines up with no key above it; indent it 4 (a key of `timer`), 2 (a key of `board`) or 0 (a top-level key)
  6 |       counter_bits: 16
    |       ^
 "#,
@@ -236,7 +236,7 @@ fn yaml_key_indented_between_levels() {
             " objective: least-loss",
         )],
         r#"
-error: belt-feeder.yaml:21:2: bad indentation: `objective` is indented 1 space, which lines up with no key above it; indent it 4 (a key of `constraints`), 2 (a key of `design`) or 0 (a top-level key)
+error: belt-feeder.yaml:21:2: design.objective: bad indentation: `objective` is indented 1 space, which lines up with no key above it; indent it 4 (a key of `constraints`), 2 (a key of `design`) or 0 (a top-level key)
  21 |  objective: least-loss
     |  ^
 "#,
@@ -253,7 +253,7 @@ fn yaml_tab_in_indentation() {
             r#"    resistance: "0.62 ohm""#,
             "\tresistance: \"0.62 ohm\"",
         )],
-        "error: belt-feeder.yaml:8:1: a tab in the indentation; YAML indents with spaces only\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
+        "error: belt-feeder.yaml:8:1: design.motor.resistance: a tab in the indentation; YAML indents with spaces only\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
     );
 }
 
@@ -1489,7 +1489,7 @@ fn board_file_given_to_plan() {
         "wren-hb24.yaml",
         &[],
         r#"
-error: wren-hb24.yaml:2:1: this is a board file; expected a design file (top-level key `design:`)
+error: wren-hb24.yaml:2:1: board: this is a board file; expected a design file (top-level key `design:`)
  2 | board:
    | ^
 "#,
@@ -1515,7 +1515,7 @@ fn design_file_empty() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"")],
         r#"
-error: belt-feeder.yaml: the file is empty; expected a top-level `design:` key
+error: belt-feeder.yaml:1:1: design: the file is empty; expected a top-level `design:` key
 "#,
     );
 }
@@ -1527,7 +1527,7 @@ fn board_file_empty() {
         "belt-feeder.yaml",
         &[write("wren-hb24.yaml", b"")],
         r#"
-error: wren-hb24.yaml: the file is empty; expected a top-level `board:` key
+error: wren-hb24.yaml:1:1: board: the file is empty; expected a top-level `board:` key
 "#,
     );
 }
@@ -1539,7 +1539,9 @@ fn design_file_not_utf8() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"design:\n  name: caf\xe9\n")],
         r#"
-error: belt-feeder.yaml: not UTF-8 text; expected a YAML file
+error: belt-feeder.yaml:2:12: design.name: not UTF-8 text (a byte here is not UTF-8); expected a YAML file
+ 2 |   name: caf�
+   |            ^
 "#,
     );
 }
@@ -1551,9 +1553,9 @@ fn switch_file_not_utf8() {
         "vent-fan.yaml",
         &[write("switches/scree-60.yaml", b"\xff\xfe")],
         r#"
-error: kite-ls12.yaml:15:13: board.stage.switch: switches/scree-60.yaml: not UTF-8 text; expected a YAML file
- 15 |     switch: switches/scree-60.yaml
-    |             ^
+error: switches/scree-60.yaml:1:1: (top level): not UTF-8 text (a byte here is not UTF-8); expected a YAML file
+ 1 | ��
+   | ^
 "#,
     );
 }
@@ -1572,7 +1574,7 @@ fn yaml_key_indented_one_short() {
             "   inductance:",
         )],
         r#"
-error: belt-feeder.yaml:9:4: bad indentation: `inductance` is indented 3 spaces, which lines up with no key above it; indent it 4 (a key of `motor`), 2 (a key of `design`) or 0 (a top-level key)
+error: belt-feeder.yaml:9:4: design.motor.inductance: bad indentation: `inductance` is indented 3 spaces, which lines up with no key above it; indent it 4 (a key of `motor`), 2 (a key of `design`) or 0 (a top-level key)
  9 |    inductance: "0.85 mH"
    |    ^
 "#,
@@ -1642,7 +1644,7 @@ fn yaml_key_without_colon() {
             "board wren-hb24.yaml",
         )],
         r#"
-error: belt-feeder.yaml:4:3: expected `key: value`; `board wren-hb24.yaml` has no `:`
+error: belt-feeder.yaml:4:3: design.name: expected `key: value`; `board wren-hb24.yaml` has no `:`
  4 |   board wren-hb24.yaml
    |   ^
 "#,
@@ -1659,7 +1661,9 @@ fn design_file_only_comments() {
             b"# pwmplan design: to be written\n\n# design:\n",
         )],
         r#"
-error: belt-feeder.yaml: the file has no content; expected a top-level `design:` key
+error: belt-feeder.yaml:1:1: design: the file has no content; expected a top-level `design:` key
+ 1 | # pwmplan design: to be written
+   | ^
 "#,
     );
 }
@@ -1671,7 +1675,9 @@ fn board_file_only_comments() {
         "belt-feeder.yaml",
         &[write("wren-hb24.yaml", b"# board: to be written\n")],
         r#"
-error: wren-hb24.yaml: the file has no content; expected a top-level `board:` key
+error: wren-hb24.yaml:1:1: board: the file has no content; expected a top-level `board:` key
+ 1 | # board: to be written
+   | ^
 "#,
     );
 }
@@ -1837,7 +1843,7 @@ fn design_file_is_a_list() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"- design\n")],
         r#"
-error: belt-feeder.yaml:1:1: expected a mapping with the top-level key `design:`, found a list
+error: belt-feeder.yaml:1:1: (top level): expected a mapping with the top-level key `design:`, found a list
  1 | - design
    | ^
 "#,
@@ -1851,7 +1857,7 @@ fn switch_file_given_to_plan() {
         "switches/tarn-40.yaml",
         &[],
         r#"
-error: switches/tarn-40.yaml:3:1: this is a switch file; expected a design file (top-level key `design:`)
+error: switches/tarn-40.yaml:3:1: switch: this is a switch file; expected a design file (top-level key `design:`)
  3 | switch:
    | ^
 "#,
