@@ -496,6 +496,20 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
+    // Q_g is the charge to a drive voltage above the Miller plateau; at a
+    // V_GS at or below it the figure is not the total gate charge.
+    let plateau_floor = s.v_plateau.map_or(s.v_th.typ.si, |p| p.si);
+    if s.q_g.at_v_gs.si <= plateau_floor {
+        return Err(c.fail(
+            "q_g.at_v_gs",
+            format!(
+                "{} is not above the {} {}; expected the drive voltage of the datasheet's total gate charge, above the Miller plateau",
+                fmt(s.q_g.at_v_gs.si, V),
+                if s.v_plateau.is_some() { "plateau" } else { "threshold V_th typ" },
+                fmt(plateau_floor, V)
+            ),
+        ));
+    }
     if s.q_g.at_v_gs.si > s.v_gs_max.si {
         return Err(c.fail(
             "q_g.at_v_gs",
@@ -1065,6 +1079,10 @@ fn check_search_span(
     })
 }
 
+/// Smallest ripple limit accepted, as a share of the rated current: 0.1 %,
+/// a bound of our own choice.
+const MIN_RIPPLE_SHARE: f64 = 1e-3;
+
 /// Smallest motor winding resistance accepted: 1 µΩ, a bound of our own
 /// choice (a real winding with its leads has milliohms; below this the rated
 /// current's I·R and the stall current lose meaning).
@@ -1290,10 +1308,20 @@ fn check_design(
         AudibleSpec::Inaudible | AudibleSpec::Allowed => {}
     }
     if let Some(r) = k.max_ripple {
+        // At least 0.1 % of the rated current, a bound of our own choice:
+        // no PWM gets below it, and a far smaller limit only makes every
+        // setting fail after a long search for the reason.
         if r.is_first() {
-            c.within("constraints.max_ripple", r.si, 0.0, 2000.0, A)?;
+            let lo = MIN_RIPPLE_SHARE * m.rated_current.si;
+            c.within("constraints.max_ripple", r.si, lo, 2000.0, A)?;
         } else {
-            c.within("constraints.max_ripple", r.si, 0.0, 2.0, Dimension::Ratio)?;
+            c.within(
+                "constraints.max_ripple",
+                r.si,
+                MIN_RIPPLE_SHARE,
+                2.0,
+                Dimension::Ratio,
+            )?;
         }
     }
     let t_j_limit = match &k.junction {

@@ -351,10 +351,23 @@ impl SourceFile {
 
     /// An error about the value at `field`.
     pub fn error(&self, field: &str, message: impl Into<String>) -> InputError {
+        // The value's place; else its key's; else the nearest enclosing
+        // field the locator found (a mangled key may hide the field itself).
+        let mut position = self
+            .locator
+            .value(field)
+            .or_else(|| self.locator.key(field));
+        let mut up = field;
+        while position.is_none()
+            && let Some((parent, _)) = up.rsplit_once(['.', '['])
+        {
+            up = parent;
+            position = self.locator.value(up).or_else(|| self.locator.key(up));
+        }
         InputError::at(
             self.origin.display(),
             &self.text,
-            self.locator.value(field),
+            position.or(Some(Position { line: 1, column: 1 })),
             field,
             message,
         )

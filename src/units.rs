@@ -841,8 +841,8 @@ pub fn format_quantity(value_si: f64, dim: Dimension, significant: usize) -> Str
     let sign = if negative { "-" } else { "" };
     // Far outside the prefixes (a value such as 4.9e-324 in an absurd
     // input) the digits go into an exponent rather than hundreds of zeros
-    // (beyond 24 places, a bound of our own choice).
-    if (exp10 - prefix.exp).abs() > 24 {
+    // (beyond 15 places, a bound of our own choice).
+    if (exp10 - prefix.exp).abs() > 15 {
         let mantissa = place_point(&digits, 0);
         return format!("{sign}{mantissa}e{exp10} {}", st.unit);
     }

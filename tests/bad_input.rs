@@ -760,7 +760,7 @@ fn ripple_percent_out_of_range() {
             r#"max_ripple: "250 %""#,
         )],
         r#"
-error: belt-feeder.yaml:16:17: design.constraints.max_ripple: 250 % is out of range; expected above 0.00 % and at most 200 %
+error: belt-feeder.yaml:16:17: design.constraints.max_ripple: 250 % is out of range; expected above 0.100 % and at most 200 %
  16 |     max_ripple: "250 %"          # of the rated current, peak to peak
     |                 ^
 "#,
@@ -2636,5 +2636,43 @@ fn pinned_frequency_outside_the_timer() {
     assert_eq!(
         String::from_utf8_lossy(&out.stderr),
         "error: --at 1.000 mHz: outside what the timer can make (7.451 mHz to 32.00 MHz); expected a frequency in that range\n"
+    );
+}
+
+/// Q_g quoted at a gate voltage below the plateau is no total gate charge
+/// (1e-30 V made every setting's switching absurd and slow to search).
+#[test]
+fn gate_charge_at_v_gs_below_the_plateau() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"max: "76 nC", at_v_gs: "10 V""#,
+            r#"max: "76 nC", at_v_gs: "1e-30 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 1.00e-30 V is not above the plateau 4.40 V; expected the drive voltage of the datasheet's total gate charge, above the Miller plateau
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "1e-30 V" }
+    |                                               ^
+"#,
+    );
+}
+
+/// A ripple limit no PWM can meet (1e-30 A) is refused at its field rather
+/// than searched for a long time.
+#[test]
+fn ripple_limit_absurdly_small() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "vent-fan.yaml",
+            r#"max_ripple: "0.6 A""#,
+            r#"max_ripple: "1e-30 A""#,
+        )],
+        r#"
+error: vent-fan.yaml:18:17: design.constraints.max_ripple: 1.00e-30 A is out of range; expected above 1.20 mA and at most 2.00 kA
+ 18 |     max_ripple: "1e-30 A"
+    |                 ^
+"#,
     );
 }

@@ -569,9 +569,17 @@ fn mutated_inputs_keep_every_promise() {
                 scope.spawn(move || {
                     let work = work_folder();
                     let mut tally = Tally::default();
+                    // PWMPLAN_FUZZ_ONLY=N runs case N alone (with
+                    // PWMPLAN_FUZZ_TRACE its input is kept beside the work
+                    // folder).
+                    let only: Option<u64> = std::env::var("PWMPLAN_FUZZ_ONLY")
+                        .ok()
+                        .and_then(|v| v.parse().ok());
                     let mut i = t;
                     while i < cases {
-                        run_case(i, seed, work.path(), &mut tally);
+                        if only.is_none_or(|n| n == i) {
+                            run_case(i, seed, work.path(), &mut tally);
+                        }
                         i += threads;
                     }
                     tally
