@@ -68,6 +68,8 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
     };
     check_board(&board, &switch, &sources[1])?;
     let derived = check_design(&spec, &board, &switch, &sources[0])?;
+    check_drive_at_load(&spec, &board, &switch, &sources[1])?;
+    check_search_span(&spec, &board, &sources[0], &sources[1])?;
     Ok(Design {
         spec,
         board,
@@ -85,6 +87,8 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
 pub fn with_switch(d: &Design, switch: SwitchSpec, src: SourceFile) -> Result<Design, InputError> {
     check_board(&d.board, &switch, &d.sources[1])?;
     let derived = check_design(&d.spec, &d.board, &switch, &d.sources[0])?;
+    check_drive_at_load(&d.spec, &d.board, &switch, &d.sources[1])?;
+    check_search_span(&d.spec, &d.board, &d.sources[0], &d.sources[1])?;
     let mut sources = vec![d.sources[0].clone(), d.sources[1].clone(), src];
     sources.truncate(3);
     Ok(Design {
@@ -217,6 +221,14 @@ impl Check<'_> {
         Ok(())
     }
 
+    /// A list no longer than `cap` (see [`LIST_CAPS`]).
+    fn max_len(&self, field: &str, len: usize, cap: usize, items: &str) -> Result<(), InputError> {
+        if len > cap {
+            return Err(self.fail(field, format!("{len} {items}; expected at most {cap}")));
+        }
+        Ok(())
+    }
+
     /// min ≤ typ ≤ max for a datasheet spread.
     fn spread<D: Dim>(&self, field: &str, s: &Spread<D>) -> Result<(), InputError> {
         let dim = D::DIM;
@@ -246,6 +258,32 @@ impl Check<'_> {
         }
         Ok(())
     }
+}
+
+/// The longest lists accepted, each a bound of our own choice: several
+/// times what a real datasheet, timer or design needs, and small enough
+/// that every check and search stays linear-time in practice (README,
+/// input reference).
+pub const LIST_CAPS: ListCaps = ListCaps {
+    curve_points: 32,
+    prescaler_ratios: 64,
+    dead_time_segments: 16,
+    foster_pairs: 16,
+    avoided_bands: 16,
+};
+
+/// See [`LIST_CAPS`].
+pub struct ListCaps {
+    /// `r_ds_on_vs_temperature.points`, `capacitance.c_rss_curve`.
+    pub curve_points: usize,
+    /// `timer.prescaler.ratios`.
+    pub prescaler_ratios: usize,
+    /// `timer.dead_time.segmented.segments`.
+    pub dead_time_segments: usize,
+    /// `thermal.foster`.
+    pub foster_pairs: usize,
+    /// `constraints.audible.avoid`.
+    pub avoided_bands: usize,
 }
 
 const V: Dimension = Dimension::Voltage;
@@ -281,6 +319,12 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     c.within("r_ds_on.at_v_gs", s.r_ds_on.at_v_gs.si, 0.0, 30.0, V)?;
     match &s.r_ds_on_vs_temperature {
         Some(RdsOnTemperatureSpec::Points(points)) => {
+            c.max_len(
+                "r_ds_on_vs_temperature.points",
+                points.len(),
+                LIST_CAPS.curve_points,
+                "points",
+            )?;
             if points.len() < 2 {
                 return Err(c.fail(
                     "r_ds_on_vs_temperature.points",
@@ -410,6 +454,18 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
+    c.max_len(
+        "capacitance.c_rss_curve",
+        cap.c_rss_curve.len(),
+        LIST_CAPS.curve_points,
+        "points",
+    )?;
+    if cap.c_rss_curve.len() == 1 {
+        return Err(c.fail(
+            "capacitance.c_rss_curve",
+            "one point is no curve; expected at least two [v_ds, c_rss] points, or no c_rss_curve",
+        ));
+    }
     for (i, (v, cr)) in cap.c_rss_curve.iter().enumerate() {
         let f = format!("capacitance.c_rss_curve[{i}]");
         c.within(&format!("{f}[0]"), v.si, 0.0, s.v_dss.si, V)?;
@@ -420,11 +476,27 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
                 "drain voltages must increase from point to point",
             ));
         }
+        if i > 0 && cr.si > cap.c_rss_curve[i - 1].1.si {
+            return Err(c.fail(
+                &format!("{f}[1]"),
+                format!(
+                    "{} is above the previous point's {}; expected C_rss to fall (or stay) as the drain voltage rises",
+                    fmt(cr.si, F),
+                    fmt(cap.c_rss_curve[i - 1].1.si, F)
+                ),
+            ));
+        }
     }
     if let Some(q) = s.q_oss {
         c.within("q_oss", q.si, 0.0, 1e-5, C)?;
     }
     if let Some(e) = &s.e_oss {
+        if s.q_oss.is_some() {
+            return Err(c.fail(
+                "e_oss",
+                "give either q_oss or e_oss for the output-capacitance loss, not both",
+            ));
+        }
         c.within("e_oss.value", e.value.si, 0.0, 1e-3, Dimension::Energy)?;
         c.within("e_oss.at_v_ds", e.at_v_ds.si, 0.0, s.v_dss.si, V)?;
     }
@@ -445,6 +517,30 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
+    // Q_g is the charge to a drive voltage above the Miller plateau; at a
+    // V_GS at or below it the figure is not the total gate charge.
+    let plateau_floor = s.v_plateau.map_or(s.v_th.typ.si, |p| p.si);
+    if s.q_g.at_v_gs.si <= plateau_floor {
+        return Err(c.fail(
+            "q_g.at_v_gs",
+            format!(
+                "{} is not above the {} {}; expected the drive voltage of the datasheet's total gate charge, above the Miller plateau",
+                fmt(s.q_g.at_v_gs.si, V),
+                if s.v_plateau.is_some() { "plateau" } else { "threshold V_th typ" },
+                fmt(plateau_floor, V)
+            ),
+        ));
+    }
+    if s.q_g.at_v_gs.si > s.v_gs_max.si {
+        return Err(c.fail(
+            "q_g.at_v_gs",
+            format!(
+                "{} is above v_gs_max ({}); expected the gate voltage of the datasheet's gate-charge figure, within the gate rating",
+                fmt(s.q_g.at_v_gs.si, V),
+                fmt(s.v_gs_max.si, V)
+            ),
+        ));
+    }
     c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?; // bounds of our own choice
     c.within("r_th_jc", s.r_th_jc.si, 0.0, 100.0, KW)?;
     c.within("r_th_ja", s.r_th_ja.si, 0.0, 1000.0, KW)?;
@@ -460,6 +556,92 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     }
     if let Some(z) = s.v_ztc {
         c.within("v_ztc", z.si, 0.0, s.v_gs_max.si, V)?;
+    }
+    Ok(())
+}
+
+/// Longest dead-time tick accepted (`clock_divider / clock`): 10 µs, a
+/// bound of our own choice (a dead time is tens of nanoseconds to a few
+/// microseconds; a slower tick rounds every need to zero or one tick).
+const MAX_DEAD_TIME_TICK_S: f64 = 10e-6;
+/// Longest encodable dead time accepted: 1 ms, a bound of our own choice
+/// (far beyond any PWM period the solver considers).
+const MAX_DEAD_TIME_S: f64 = 1e-3;
+
+/// The dead-time generator counts in ticks a timer can hold: a tick no
+/// longer than [`MAX_DEAD_TIME_TICK_S`], every code's ticks without overflow
+/// and no longer than [`MAX_DEAD_TIME_S`], every code within 32 bits.
+fn check_dead_time_ticks(c: &Check, t: &TimerSpec) -> Result<(), InputError> {
+    let (kind, divider) = match &t.dead_time {
+        DeadTimeSpec::None => return Ok(()),
+        DeadTimeSpec::Linear { clock_divider, .. } => ("linear", *clock_divider),
+        DeadTimeSpec::Segmented { clock_divider, .. } => ("segmented", *clock_divider),
+    };
+    let base = format!("timer.dead_time.{kind}");
+    if divider < 1 {
+        return Err(c.fail(
+            &format!("{base}.clock_divider"),
+            "expected a divider of at least 1",
+        ));
+    }
+    let tick_s = divider as f64 / t.clock.si;
+    if tick_s.is_nan() || tick_s > MAX_DEAD_TIME_TICK_S {
+        return Err(c.fail(
+            &format!("{base}.clock_divider"),
+            format!(
+                "{divider} makes one dead-time tick {} at the timer clock {}; expected a tick of at most {} (clock_divider at most {:.0})",
+                fmt(tick_s, S),
+                fmt(t.clock.si, HZ),
+                fmt(MAX_DEAD_TIME_TICK_S, S),
+                (MAX_DEAD_TIME_TICK_S * t.clock.si).floor()
+            ),
+        ));
+    }
+    let too_long = |field: String, ticks: f64| {
+        c.fail(
+            &field,
+            format!(
+                "the longest code counts {} ticks, {}; expected a longest dead time of at most {}",
+                ticks,
+                fmt(ticks * tick_s, S),
+                fmt(MAX_DEAD_TIME_S, S)
+            ),
+        )
+    };
+    match &t.dead_time {
+        DeadTimeSpec::Linear { max_ticks, .. } => {
+            if *max_ticks as f64 * tick_s > MAX_DEAD_TIME_S {
+                return Err(too_long(format!("{base}.max_ticks"), *max_ticks as f64));
+            }
+        }
+        DeadTimeSpec::Segmented { segments, .. } => {
+            for (i, s) in segments.iter().enumerate() {
+                let f = format!("{base}.segments[{i}]");
+                if u64::from(s.first_code) + u64::from(s.count) > 1 << 32 {
+                    return Err(c.fail(
+                        &format!("{f}.count"),
+                        "the segment's last code passes 4294967295; expected codes that fit 32 bits",
+                    ));
+                }
+                let last = s
+                    .base
+                    .checked_add(u64::from(s.count.saturating_sub(1)))
+                    .and_then(|n| n.checked_mul(s.step));
+                match last {
+                    None => {
+                        return Err(c.fail(
+                            &format!("{f}.base"),
+                            "(base + count − 1) · step overflows a tick count; expected a longest dead time of at most 1 ms",
+                        ));
+                    }
+                    Some(n) if n as f64 * tick_s > MAX_DEAD_TIME_S => {
+                        return Err(too_long(format!("{f}.base"), n as f64));
+                    }
+                    Some(_) => {}
+                }
+            }
+        }
+        DeadTimeSpec::None => {}
     }
     Ok(())
 }
@@ -503,6 +685,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             }
         }
         PrescalerSpec::Ratios(r) => {
+            c.max_len(
+                "timer.prescaler.ratios",
+                r.len(),
+                LIST_CAPS.prescaler_ratios,
+                "ratios",
+            )?;
             if r.is_empty() {
                 return Err(c.fail("timer.prescaler.ratios", "expected at least one ratio"));
             }
@@ -533,6 +721,15 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             return Err(c.fail(&format!("timer.alignments[{i}]"), "listed twice"));
         }
     }
+    if let DeadTimeSpec::Segmented { segments, .. } = &t.dead_time {
+        c.max_len(
+            "timer.dead_time.segmented.segments",
+            segments.len(),
+            LIST_CAPS.dead_time_segments,
+            "segments",
+        )?;
+    }
+    check_dead_time_ticks(&c, t)?;
     match &t.dead_time {
         DeadTimeSpec::None => {}
         DeadTimeSpec::Linear {
@@ -711,6 +908,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
     if st.topology != TopologySpec::LowSide && st.freewheel_diode.is_some() {
         return Err(c.fail("stage.freewheel_diode", "a bridge freewheels through its own switches; a freewheel diode belongs to `low-side` only"));
     }
+    if st.topology == TopologySpec::LowSide && st.freewheel_diode.is_none() {
+        return Err(c.fail(
+            "stage.freewheel_diode",
+            "missing; a low-side stage needs the diode the motor current freewheels through while the switch is off (`freewheel_diode: { v_f: ..., q_rr: ..., t_rr: ..., i_f: ..., v_rrm: ... }`)",
+        ));
+    }
     if let Some(d) = &st.freewheel_diode {
         c.within("stage.freewheel_diode.v_f", d.v_f.si, 0.0, 5.0, V)?;
         if let Some(r) = d.r_d {
@@ -839,12 +1042,115 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             ));
         }
     }
+    c.max_len(
+        "thermal.foster",
+        th.foster.len(),
+        LIST_CAPS.foster_pairs,
+        "pairs",
+    )?;
     for (i, (r, tau)) in th.foster.iter().enumerate() {
         c.within(&format!("thermal.foster[{i}][0]"), r.si, 0.0, 1000.0, KW)?;
         c.within(&format!("thermal.foster[{i}][1]"), tau.si, 0.0, 1e5, S)?;
     }
     Ok(())
 }
+
+/// The board's gate drive against the design's load: the drive must rise
+/// above the Miller plateau at the rated current (the datasheet plateau, or
+/// V_th + I/g_fs as in `check_tolerances`), or the switch never turns fully on and no
+/// setting can be evaluated. Reported at the board's `gate_driver.supply`.
+fn check_drive_at_load(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    sw: &SwitchSpec,
+    board_src: &SourceFile,
+) -> Result<(), InputError> {
+    let c = Check {
+        src: board_src,
+        prefix: "board",
+    };
+    let i = d.motor.rated_current.si;
+    let plateau = match (sw.v_plateau, sw.g_fs) {
+        (Some(p), _) => p.si,
+        (None, Some(g)) => sw.v_th.typ.si + i / g.si,
+        (None, None) => sw.v_th.typ.si,
+    };
+    if b.gate_driver.supply.si <= plateau {
+        return Err(c.fail(
+            "gate_driver.supply",
+            format!(
+                "{} does not exceed the switch's Miller plateau {} at the design's rated current {}; expected a drive voltage above the plateau, so the switch turns fully on",
+                fmt(b.gate_driver.supply.si, V),
+                fmt(plateau, V),
+                fmt(i, A)
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// Longest design name: 64 characters, a bound of our own choice (the name
+/// becomes file names and C identifiers; file systems allow 255 bytes).
+pub const MAX_NAME_CHARS: usize = 64;
+
+/// Most timer products (`clock / f`, one per realisable frequency) the
+/// search may span: 2^19 = 524 288, a bound of our own choice (the search
+/// lists every realisable frequency in the band; at 64 MHz this allows a
+/// band down to 122 Hz).
+pub const MAX_SEARCH_PRODUCTS: f64 = 524_288.0;
+
+/// The band's lowest frequency against the timer clock: the search lists
+/// one setting per product `clock / f`, so a band reaching far below the
+/// clock would take minutes. Reported at `constraints.frequency.min`, or at
+/// the board's clock when the design leaves the band at its default.
+fn check_search_span(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    design_src: &SourceFile,
+    board_src: &SourceFile,
+) -> Result<(), InputError> {
+    let given = d.constraints.frequency.as_ref().and_then(|f| f.min);
+    let f_min = given.map_or(crate::model::DEFAULT_F_MIN_HZ, |f| f.si);
+    let clock = b.timer.clock.si;
+    if clock / f_min <= MAX_SEARCH_PRODUCTS {
+        return Ok(());
+    }
+    let lowest = clock / MAX_SEARCH_PRODUCTS;
+    Err(match given {
+        Some(_) => design_src.error(
+            "design.constraints.frequency.min",
+            format!(
+                "{} is too far below the timer clock {} to search; expected at least {} (clock / {MAX_SEARCH_PRODUCTS})",
+                fmt(f_min, HZ),
+                fmt(clock, HZ),
+                fmt(lowest, HZ)
+            ),
+        ),
+        None => board_src.error(
+            "board.timer.clock",
+            format!(
+                "{} is too fast to search down to the default lowest frequency {}; expected at most {}, or give the design a `constraints.frequency.min` of at least {}",
+                fmt(clock, HZ),
+                fmt(f_min, HZ),
+                fmt(f_min * MAX_SEARCH_PRODUCTS, HZ),
+                fmt(lowest, HZ)
+            ),
+        ),
+    })
+}
+
+/// Smallest ripple limit accepted, as a share of the rated current: 0.1 %,
+/// a bound of our own choice.
+const MIN_RIPPLE_SHARE: f64 = 1e-3;
+
+/// Smallest motor winding resistance accepted: 1 µΩ, a bound of our own
+/// choice (a real winding with its leads has milliohms; below this the rated
+/// current's I·R and the stall current lose meaning).
+const MIN_MOTOR_RESISTANCE_OHM: f64 = 1e-6;
+/// Smallest motor winding inductance accepted: 1 nH, a bound of our own
+/// choice (a real winding has microhenries; below this the ripple at any
+/// PWM frequency is a short circuit).
+const MIN_MOTOR_INDUCTANCE_H: f64 = 1e-9;
 
 /// Checks on the design file; returns (back-EMF at the operating speed,
 /// k_e in V·s/rad, junction limit in °C).
@@ -860,6 +1166,15 @@ fn check_design(
     };
     if d.name.trim().is_empty() {
         return Err(c.fail("name", "expected a name for the design"));
+    }
+    if d.name.len() > MAX_NAME_CHARS {
+        return Err(c.fail(
+            "name",
+            format!(
+                "{} characters; expected at most {MAX_NAME_CHARS} (the name becomes the generated files' names)",
+                d.name.len()
+            ),
+        ));
     }
     if !d
         .name
@@ -894,18 +1209,27 @@ fn check_design(
         ));
     }
     let m = &d.motor;
-    c.within("motor.resistance", m.resistance.si, 0.0, 1000.0, OHM)?;
+    c.within(
+        "motor.resistance",
+        m.resistance.si,
+        MIN_MOTOR_RESISTANCE_OHM,
+        1000.0,
+        OHM,
+    )?;
     c.within(
         "motor.inductance",
         m.inductance.si,
-        0.0,
+        MIN_MOTOR_INDUCTANCE_H,
         10.0,
         Dimension::Inductance,
     )?;
-    c.within("motor.rated_current", m.rated_current.si, 0.0, 2000.0, A)?;
-    c.non_negative(
+    // 1 mA to 2 kA: plausibility bounds of our own choice (below 1 mA the
+    // ripple and line figures sit under their 1 mA significance floor).
+    c.within("motor.rated_current", m.rated_current.si, 1e-3, 2000.0, A)?;
+    c.within(
         "motor.operating_speed",
         m.operating_speed.si,
+        0.0,
         1e5,
         Dimension::AngularSpeed,
     )?;
@@ -1019,6 +1343,12 @@ fn check_design(
             c.within("constraints.audible.inaudible_above", f.si, 1e3, 30e3, HZ)?
         }
         AudibleSpec::Avoid(bands) => {
+            c.max_len(
+                "constraints.audible.avoid",
+                bands.len(),
+                LIST_CAPS.avoided_bands,
+                "bands",
+            )?;
             if bands.is_empty() {
                 return Err(c.fail(
                     "constraints.audible.avoid",
@@ -1040,10 +1370,20 @@ fn check_design(
         AudibleSpec::Inaudible | AudibleSpec::Allowed => {}
     }
     if let Some(r) = k.max_ripple {
+        // At least 0.1 % of the rated current, a bound of our own choice:
+        // no PWM gets below it, and a far smaller limit only makes every
+        // setting fail after a long search for the reason.
         if r.is_first() {
-            c.within("constraints.max_ripple", r.si, 0.0, 2000.0, A)?;
+            let lo = MIN_RIPPLE_SHARE * m.rated_current.si;
+            c.within("constraints.max_ripple", r.si, lo, 2000.0, A)?;
         } else {
-            c.within("constraints.max_ripple", r.si, 0.0, 2.0, Dimension::Ratio)?;
+            c.within(
+                "constraints.max_ripple",
+                r.si,
+                MIN_RIPPLE_SHARE,
+                2.0,
+                Dimension::Ratio,
+            )?;
         }
     }
     let t_j_limit = match &k.junction {

@@ -46,14 +46,54 @@ impl InputError {
     ) -> InputError {
         let position = position.map(|p| clamp_to_text(text, p));
         let source_line = position.and_then(|p| text.lines().nth(p.line.saturating_sub(1)));
+        let mut field = field.into();
+        if field.is_empty()
+            && let Some(p) = position
+        {
+            // A syntax problem has no field of its own: name the keys the
+            // place lies under, so every refusal names a field.
+            field = enclosing_keys(text, p.line);
+        }
         InputError {
             file: file.into(),
             position,
-            field: field.into(),
+            field,
             message: message.into(),
             source_line: source_line.map(|s| s.trim_end().to_string()),
         }
     }
+}
+
+/// The dotted path of the block keys that line `line` (1-based) lies under
+/// or holds, read from indentation alone (a cheap guess that needs no
+/// valid YAML); `(top level)` when there are none.
+pub fn enclosing_keys(text: &str, line: usize) -> String {
+    let mut keys: Vec<(usize, &str)> = Vec::new();
+    for l in text.lines().take(line) {
+        let body = l.trim_start_matches([' ', '\t', '-']);
+        // A tab counts as four spaces here: a guess for a line that
+        // mixes them.
+        let indent = l[..l.len() - body.len()]
+            .chars()
+            .map(|c| if c == '\t' { 4 } else { 1 })
+            .sum::<usize>();
+        if body.starts_with('#') || body.is_empty() {
+            continue;
+        }
+        if let Some((key, _)) = body.split_once(':')
+            && !key.is_empty()
+            && key
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+        {
+            keys.retain(|(at, _)| *at < indent);
+            keys.push((indent, key));
+        }
+    }
+    if keys.is_empty() {
+        return "(top level)".into();
+    }
+    keys.iter().map(|(_, k)| *k).collect::<Vec<_>>().join(".")
 }
 
 /// `p`, or just after the last non-blank line's text when `p` lies past it.
@@ -78,16 +118,17 @@ impl fmt::Display for InputError {
             write!(f, ":{}:{}", p.line, p.column)?;
         }
         if !self.field.is_empty() {
-            write!(f, ": {}", self.field)?;
+            write!(f, ": {}", shortened(&self.field, MAX_SHOWN_CHARS))?;
         }
-        write!(f, ": {}", self.message)?;
+        write!(f, ": {}", shortened(&self.message, MAX_MESSAGE_CHARS))?;
         if let (Some(p), Some(src)) = (self.position, &self.source_line) {
             let gutter = p.line.to_string();
             let pad = " ".repeat(gutter.len());
+            let (src, column) = shown_line(src, p.column);
             // The caret sits under the column; tabs are kept so it lines up.
             let lead: String = src
                 .chars()
-                .take(p.column.saturating_sub(1))
+                .take(column.saturating_sub(1))
                 .map(|c| if c == '\t' { '\t' } else { ' ' })
                 .collect();
             write!(f, "\n {gutter} | {src}\n {pad} | {lead}^")?;
@@ -97,6 +138,58 @@ impl fmt::Display for InputError {
 }
 
 impl std::error::Error for InputError {}
+
+/// Longest message shown, in characters: 600, a bound of our own choice
+/// (a message that quotes a junk key or value stays readable).
+pub const MAX_MESSAGE_CHARS: usize = 600;
+
+/// `text` cut to `max` characters with `…` at the cut.
+fn shortened(text: &str, max: usize) -> std::borrow::Cow<'_, str> {
+    if text.chars().count() <= max {
+        return text.into();
+    }
+    let mut s: String = text.chars().take(max - 1).collect();
+    s.push('…');
+    s.into()
+}
+
+/// Widest source line echoed under a message, in characters: 120, a bound
+/// of our own choice (a terminal's width; a 10 MB line is no help).
+pub const MAX_SHOWN_CHARS: usize = 120;
+
+/// The part of `line` to echo, at most [`MAX_SHOWN_CHARS`] characters with
+/// `…` where it was cut, keeping `column` (1-based) in view; and the
+/// column within the shown text.
+fn shown_line(line: &str, column: usize) -> (String, usize) {
+    let chars: Vec<char> = line
+        .chars()
+        .map(|c| {
+            if c.is_control() && c != '\t' {
+                '\u{FFFD}'
+            } else {
+                c
+            }
+        })
+        .collect();
+    if chars.len() <= MAX_SHOWN_CHARS {
+        return (chars.into_iter().collect(), column);
+    }
+    let width = MAX_SHOWN_CHARS - 2; // room for an ellipsis at each end
+    let col0 = column.saturating_sub(1).min(chars.len());
+    let start = if col0 < width { 0 } else { col0 - width / 2 };
+    let end = (start + width).min(chars.len());
+    let mut shown = String::new();
+    let mut column = col0 - start + 1;
+    if start > 0 {
+        shown.push('…');
+        column += 1;
+    }
+    shown.extend(&chars[start..end]);
+    if end < chars.len() {
+        shown.push('…');
+    }
+    (shown, column)
+}
 
 /// The closest of `candidates` to `word`, when close enough to be a likely
 /// slip (edit distance ≤ a third of the word, at least 1). A swap of two

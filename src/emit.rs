@@ -1092,17 +1092,38 @@ impl Templates {
                 None => text.to_string(),
                 Some(d) => {
                     let p = d.join(name);
-                    std::fs::read_to_string(&p).map_err(|e| EmitError::Template {
+                    let refuse = |message: String| EmitError::Template {
                         file: p.display().to_string(),
-                        message: if e.kind() == std::io::ErrorKind::NotFound {
-                            format!(
-                                "missing; a template folder must hold all of {}",
-                                bundled_names()
-                            )
-                        } else {
-                            format!("cannot read it: {e}")
+                        message,
+                    };
+                    // A symbolic link may lead out of the folder: the file
+                    // actually read must lie in it.
+                    if let (Ok(target), Ok(folder)) =
+                        (std::fs::canonicalize(&p), std::fs::canonicalize(d))
+                        && !target.starts_with(&folder)
+                    {
+                        return Err(refuse(format!(
+                            "leads through a symbolic link to {}, outside the templates folder; expected the template itself in {}",
+                            target.display(),
+                            d.display()
+                        )));
+                    }
+                    let text = crate::load::read_text(&p, "a template file").map_err(
+                        |crate::load::ReadRefusal(why, _)| {
+                            refuse(if why == "no such file" {
+                                format!(
+                                    "missing; a template folder must hold all of {}",
+                                    bundled_names()
+                                )
+                            } else {
+                                why
+                            })
                         },
-                    })?
+                    )?;
+                    if let Err((line, message)) = template_shape(&text) {
+                        return Err(refuse(format!("line {line}: {message}")));
+                    }
+                    text
                 }
             };
             hb.register_template_string(name, text)
@@ -1116,12 +1137,133 @@ impl Templates {
         Ok(Templates { hb })
     }
 
+    /// Render `name`, stopping with an error once the text passes
+    /// [`MAX_RENDERED_BYTES`].
     fn render(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
-        self.hb.render(name, ctx).map_err(|e| EmitError::Render {
-            template: name.to_string(),
-            message: e.to_string(),
-        })
+        let mut out = CappedWriter::default();
+        match self.hb.render_to_write(name, ctx, &mut out) {
+            Ok(()) => String::from_utf8(out.bytes).map_err(|_| EmitError::Render {
+                template: name.to_string(),
+                message: "the rendered text is not UTF-8".into(),
+            }),
+            Err(_) if out.overflowed => Err(EmitError::Render {
+                template: name.to_string(),
+                message: format!(
+                    "renders more than {MAX_RENDERED_BYTES} bytes (1 MiB), the largest file pwmplan writes; expected loops that each go over one list once"
+                ),
+            }),
+            Err(e) => Err(EmitError::Render {
+                template: name.to_string(),
+                message: e.to_string(),
+            }),
+        }
     }
+}
+
+impl Templates {
+    /// Render `name` and seal it; the text must carry the marker exactly
+    /// once, or the hand-edit guard could not recognise the file later.
+    fn render_sealed(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
+        let text = self.render(name, ctx)?;
+        match text.matches(MARKER_PLACEHOLDER).count() {
+            1 => Ok(seal(&text)),
+            n => Err(EmitError::Render {
+                template: name.to_string(),
+                message: format!(
+                    "writes the content-hash marker `{{{{marker}}}}` {n} times; expected it exactly once (the next `plan` reads it to tell its own files from edited ones)"
+                ),
+            }),
+        }
+    }
+}
+
+/// Largest rendered template: 1 MiB, a bound of our own choice (the
+/// bundled templates render a few tens of kilobytes).
+pub const MAX_RENDERED_BYTES: usize = 1 << 20;
+
+/// Deepest nesting of blocks (`{{#if}}`, `{{#each}}`, ...) in a template:
+/// 16, a bound of our own choice (the bundled templates nest 3 deep); the
+/// template parser recurses once per level.
+pub const MAX_BLOCK_DEPTH: usize = 16;
+
+/// Deepest nesting of `{{#each}}` loops: 2, a bound of our own choice (the
+/// context's lists are flat; a loop inside a loop inside a loop only
+/// multiplies text).
+pub const MAX_EACH_DEPTH: usize = 2;
+
+/// A writer that keeps at most [`MAX_RENDERED_BYTES`] and then fails.
+#[derive(Default)]
+struct CappedWriter {
+    bytes: Vec<u8>,
+    overflowed: bool,
+}
+
+impl std::io::Write for CappedWriter {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        if self.bytes.len() + buf.len() > MAX_RENDERED_BYTES {
+            self.overflowed = true;
+            return Err(std::io::Error::other("rendered text too large"));
+        }
+        self.bytes.extend_from_slice(buf);
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        Ok(())
+    }
+}
+
+/// A cheap linear scan of a template's text before the parser sees it:
+/// no partials (`{{> name}}`, `{{#> name}}`, `{{#*inline}}`: a template
+/// stands alone, so none can include itself), blocks nested at most
+/// [`MAX_BLOCK_DEPTH`] deep, `{{#each}}` at most [`MAX_EACH_DEPTH`] deep.
+/// The error is the 1-based line and what is wrong.
+pub fn template_shape(text: &str) -> Result<(), (usize, String)> {
+    let mut stack: Vec<bool> = Vec::new(); // one entry per open block: is it `each`
+    let mut rest = text;
+    let mut line = 1;
+    while let Some(at) = rest.find("{{") {
+        line += rest[..at].matches('\n').count();
+        let tag = rest[at + 2..].trim_start_matches(['{', '~']).trim_start();
+        if tag.starts_with('!') {
+            // A comment: skip to its end.
+            let end = rest[at..]
+                .find(if tag.starts_with("!--") { "--}}" } else { "}}" })
+                .map_or(rest.len(), |e| at + e);
+            line += rest[at..end].matches('\n').count();
+            rest = &rest[end..];
+            continue;
+        }
+        if tag.starts_with('>') || tag.starts_with("#>") || tag.starts_with("#*") {
+            return Err((
+                line,
+                "a partial or inline partial; expected each template to stand alone (pwmplan templates include no other template)".into(),
+            ));
+        }
+        if let Some(block) = tag.strip_prefix('#').or_else(|| tag.strip_prefix('^')) {
+            let is_each = block.trim_start().starts_with("each");
+            stack.push(is_each);
+            if stack.len() > MAX_BLOCK_DEPTH {
+                return Err((
+                    line,
+                    format!(
+                        "blocks nested more than {MAX_BLOCK_DEPTH} deep; expected at most {MAX_BLOCK_DEPTH}"
+                    ),
+                ));
+            }
+            if stack.iter().filter(|e| **e).count() > MAX_EACH_DEPTH {
+                return Err((
+                    line,
+                    format!(
+                        "`{{{{#each}}}}` loops nested more than {MAX_EACH_DEPTH} deep; expected at most {MAX_EACH_DEPTH}"
+                    ),
+                ));
+            }
+        } else if tag.starts_with('/') {
+            stack.pop();
+        }
+        rest = &rest[at + 2..];
+    }
+    Ok(())
 }
 
 fn bundled_names() -> String {
@@ -1147,18 +1289,18 @@ pub fn generate(
     if c {
         files.push(GeneratedFile {
             name: format!("{stem}.h").into(),
-            text: seal(&templates.render("c_header.h.hbs", &ctx)?),
+            text: templates.render_sealed("c_header.h.hbs", &ctx)?,
         });
     }
     if rust {
         files.push(GeneratedFile {
             name: format!("{stem}.rs").into(),
-            text: seal(&templates.render("rust_module.rs.hbs", &ctx)?),
+            text: templates.render_sealed("rust_module.rs.hbs", &ctx)?,
         });
     }
     files.push(GeneratedFile {
         name: "rationale.md".into(),
-        text: seal(&templates.render("rationale.md.hbs", &ctx)?),
+        text: templates.render_sealed("rationale.md.hbs", &ctx)?,
     });
     files.push(GeneratedFile {
         name: "plan.json".into(),
@@ -1213,6 +1355,20 @@ pub fn plan_json(plan: &Plan) -> String {
 
 #[cfg(test)]
 mod tests {
+    /// The bundled templates are within the shape bounds; comments may
+    /// mention anything.
+    #[test]
+    fn bundled_templates_pass_the_shape_scan() {
+        for (name, text) in BUNDLED_TEMPLATES {
+            assert_eq!(template_shape(text), Ok(()), "{name}");
+        }
+        assert_eq!(
+            template_shape("{{!-- {{> x}} --}}\n{{! {{#each}} }}"),
+            Ok(())
+        );
+        assert_eq!(template_shape("a\n\n{{~> x}}").map_err(|e| e.0), Err(3));
+    }
+
     use super::*;
 
     #[test]

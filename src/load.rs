@@ -62,7 +62,26 @@ impl Origin {
         match self {
             Origin::Disk(p) => {
                 let dir = p.parent().unwrap_or(Path::new(""));
-                Ok(Origin::Disk(dir.join(rel)))
+                let joined = dir.join(rel);
+                // A symbolic link may lead out of the folder without `..`:
+                // the file actually reached must lie in this file's folder.
+                // (A missing file is reported when it is read.)
+                let here = if dir.as_os_str().is_empty() {
+                    Path::new(".")
+                } else {
+                    dir
+                };
+                if let (Ok(target), Ok(folder)) =
+                    (std::fs::canonicalize(&joined), std::fs::canonicalize(here))
+                    && !target.starts_with(&folder)
+                {
+                    return Err(format!(
+                        "\"{reference}\" leads through a symbolic link to {}, outside this file's folder; keep the {} beside or below it (or use \"bundled:NAME\")",
+                        target.display(),
+                        kind.noun()
+                    ));
+                }
+                Ok(Origin::Disk(joined))
             }
             Origin::Bundled(p) => {
                 let dir = Path::new(p).parent().unwrap_or(Path::new(""));
@@ -114,23 +133,210 @@ pub struct SourceFile {
     pub locator: Locator,
 }
 
+/// Largest input file read: 1 MiB, a bound of our own choice (the bundled
+/// files are a few kilobytes; the cap keeps every later step fast and a
+/// device such as `/dev/zero` from filling memory). Templates share it.
+pub const MAX_FILE_BYTES: u64 = 1 << 20;
+
+/// Why [`read_text`] refused a file, worded for the user, with the place
+/// when there is one (the first byte that is not UTF-8).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ReadRefusal(pub String, pub Option<Position>);
+
+fn refusal(message: String) -> ReadRefusal {
+    ReadRefusal(message, None)
+}
+
+/// Read a regular file of at most [`MAX_FILE_BYTES`] as UTF-8 text. A FIFO,
+/// device, socket or folder is refused without being opened for reading
+/// (opening a FIFO would block), and the read stops one byte past the cap,
+/// so nothing waits or grows without bound.
+/// `kind` names what the file should be ("a YAML file").
+pub fn read_text(path: &Path, kind: &str) -> Result<String, ReadRefusal> {
+    use std::io::Read;
+    let meta = std::fs::metadata(path).map_err(|e| {
+        refusal(match e.kind() {
+            std::io::ErrorKind::NotFound => "no such file".to_string(),
+            _ => format!("cannot read it: {e}"),
+        })
+    })?;
+    if meta.is_dir() {
+        return Err(refusal(format!("is a folder; expected {kind}")));
+    }
+    if !meta.is_file() {
+        return Err(refusal(format!(
+            "is not a regular file (a pipe, socket or device); expected {kind}"
+        )));
+    }
+    let too_big = || {
+        refusal(format!(
+            "is larger than {} bytes (1 MiB), the largest input pwmplan reads",
+            MAX_FILE_BYTES
+        ))
+    };
+    if meta.len() > MAX_FILE_BYTES {
+        return Err(too_big());
+    }
+    let file = std::fs::File::open(path).map_err(|e| refusal(format!("cannot read it: {e}")))?;
+    let mut bytes = Vec::new();
+    file.take(MAX_FILE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| refusal(format!("cannot read it: {e}")))?;
+    if bytes.len() as u64 > MAX_FILE_BYTES {
+        return Err(too_big());
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        // The place of the first byte that is not UTF-8.
+        let head = &e.as_bytes()[..e.utf8_error().valid_up_to()];
+        let line_start = head.iter().rposition(|b| *b == b'\n').map_or(0, |i| i + 1);
+        let column = String::from_utf8_lossy(&head[line_start..]).chars().count() + 1;
+        let line = head.iter().filter(|b| **b == b'\n').count() + 1;
+        ReadRefusal(
+            format!("not UTF-8 text (a byte here is not UTF-8); expected {kind}"),
+            Some(Position { line, column }),
+        )
+    })
+}
+
+/// Deepest nesting of flow collections (`[` and `{`) accepted: 64, a
+/// bound of our own choice (a design nests three deep; the YAML parsers
+/// recurse once per level and slow down on thousands).
+pub const MAX_FLOW_DEPTH: usize = 64;
+
+/// Problems found by one cheap linear pass before any parser runs: a NUL
+/// or other control character (named as such), an alias to an anchor not
+/// defined above it, and flow collections
+/// nested deeper than [`MAX_FLOW_DEPTH`]. Returns the place, the field path
+/// of the block keys above it, and the message.
+pub fn shape_problem(text: &str) -> Option<(Position, String, String)> {
+    // Block keys by indentation, for the field path of a problem.
+    let mut keys: Vec<(usize, String)> = Vec::new();
+    let mut depth = 0usize;
+    let mut quote: Option<char> = None;
+    let mut anchors = std::collections::BTreeSet::new();
+    for (i, line) in text.split('\n').enumerate() {
+        if depth == 0 && quote.is_none() {
+            let body = line.trim_start_matches([' ', '-']);
+            let indent = line.len() - body.len();
+            if let Some((key, _)) = body.split_once(':')
+                && !key.is_empty()
+                && key
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+            {
+                keys.retain(|(at, _)| *at < indent);
+                keys.push((indent, key.to_string()));
+            }
+        }
+        let path = |keys: &[(usize, String)]| {
+            keys.iter()
+                .map(|(_, k)| k.as_str())
+                .collect::<Vec<_>>()
+                .join(".")
+        };
+        let mut comment = false;
+        let chars: Vec<char> = line.chars().collect();
+        for (col, &ch) in chars.iter().enumerate() {
+            let at = Position {
+                line: i + 1,
+                column: col + 1,
+            };
+            if ch == '\0' {
+                return Some((
+                    at,
+                    path(&keys),
+                    "a NUL byte (character 0) in the text; expected YAML text without control characters".into(),
+                ));
+            }
+            if ch.is_control() && ch != '\t' && ch != '\r' {
+                return Some((
+                    at,
+                    path(&keys),
+                    format!(
+                        "a control character (U+{:04X}) in the text; expected YAML text without control characters",
+                        u32::from(ch)
+                    ),
+                ));
+            }
+            if comment {
+                continue;
+            }
+            match (quote, ch) {
+                (Some(q), c) if c == q => quote = None,
+                (Some(_), _) => {}
+                (None, '"' | '\'') if depth > 0 => quote = Some(ch),
+                (None, '#') => comment = true,
+                (None, '&' | '*')
+                    if col == 0 || matches!(chars[col - 1], ' ' | '\t' | '[' | '{' | ',') =>
+                {
+                    let name: String = chars[col + 1..]
+                        .iter()
+                        .take_while(|c| {
+                            !c.is_whitespace() && !matches!(c, ',' | '[' | ']' | '{' | '}')
+                        })
+                        .collect();
+                    if ch == '&' {
+                        anchors.insert(name);
+                    } else if !anchors.contains(&name) {
+                        return Some((
+                            at,
+                            path(&keys),
+                            format!(
+                                "the alias `*{name}` names no anchor: no `&{name}` is defined above it; expected a value, or an anchor defined before its alias"
+                            ),
+                        ));
+                    }
+                }
+                (None, '[' | '{') => {
+                    depth += 1;
+                    if depth > MAX_FLOW_DEPTH {
+                        return Some((
+                            at,
+                            path(&keys),
+                            format!(
+                                "`{ch}` nested more than {MAX_FLOW_DEPTH} deep; expected at most {MAX_FLOW_DEPTH} levels of `[` and `{{`"
+                            ),
+                        ));
+                    }
+                }
+                (None, ']' | '}') => depth = depth.saturating_sub(1),
+                _ => {}
+            }
+        }
+        // A quote does not run past its line in a flow collection here.
+        quote = None;
+    }
+    None
+}
+
 impl SourceFile {
     pub fn read(origin: Origin) -> Result<SourceFile, InputError> {
         let text = match &origin {
-            Origin::Disk(p) => std::fs::read_to_string(p).map_err(|e| {
-                let why = match e.kind() {
-                    std::io::ErrorKind::NotFound => "no such file".to_string(),
-                    std::io::ErrorKind::InvalidData => {
-                        "not UTF-8 text; expected a YAML file".to_string()
+            Origin::Disk(p) => {
+                read_text(p, "a YAML file").map_err(|ReadRefusal(why, at)| match at {
+                    // Not UTF-8: the place, under the keys it lies in.
+                    Some(at) => {
+                        let lossy = std::fs::read(p)
+                            .map(|b| String::from_utf8_lossy(&b).to_string())
+                            .unwrap_or_default();
+                        InputError::at(origin.display(), &lossy, Some(at), "", why)
                     }
-                    _ => format!("cannot read it: {e}"),
-                };
-                InputError::file(origin.display(), why)
-            })?,
+                    None => InputError::file(origin.display(), why),
+                })?
+            }
             Origin::Bundled(p) => bundled::text(p)
                 .ok_or_else(|| InputError::file(origin.display(), "no such bundled file"))?
                 .to_string(),
         };
+        if let Some((position, field, message)) = shape_problem(&text) {
+            return Err(InputError::at(
+                origin.display(),
+                &text,
+                Some(position),
+                field,
+                message,
+            ));
+        }
         Ok(SourceFile::from_text(origin, text))
     }
 
@@ -145,10 +351,23 @@ impl SourceFile {
 
     /// An error about the value at `field`.
     pub fn error(&self, field: &str, message: impl Into<String>) -> InputError {
+        // The value's place; else its key's; else the nearest enclosing
+        // field the locator found (a mangled key may hide the field itself).
+        let mut position = self
+            .locator
+            .value(field)
+            .or_else(|| self.locator.key(field));
+        let mut up = field;
+        while position.is_none()
+            && let Some((parent, _)) = up.rsplit_once(['.', '['])
+        {
+            up = parent;
+            position = self.locator.value(up).or_else(|| self.locator.key(up));
+        }
         InputError::at(
             self.origin.display(),
             &self.text,
-            self.locator.value(field),
+            position.or(Some(Position { line: 1, column: 1 })),
             field,
             message,
         )
@@ -164,8 +383,11 @@ impl SourceFile {
             format!("expected a top-level `{k}:` key")
         });
         if self.text.trim().is_empty() {
-            return Err(InputError::file(
+            return Err(InputError::at(
                 self.origin.display(),
+                &self.text,
+                Some(Position { line: 1, column: 1 }),
+                top.as_deref().unwrap_or("(top level)"),
                 format!("the file is empty; {expect_top}"),
             ));
         }
@@ -181,8 +403,11 @@ impl SourceFile {
             ));
         }
         if self.locator.problem().is_none() && !self.locator.has_content() {
-            return Err(InputError::file(
+            return Err(InputError::at(
                 self.origin.display(),
+                &self.text,
+                Some(Position { line: 1, column: 1 }),
+                top.as_deref().unwrap_or("(top level)"),
                 format!("the file has no content; {expect_top}"),
             ));
         }
@@ -224,6 +449,28 @@ impl SourceFile {
             line: l.line(),
             column: l.column(),
         });
+        if position.is_none() && e.to_string().contains("more than one document") {
+            // The second document's start: a `---` after the first content.
+            let second = self
+                .text
+                .lines()
+                .enumerate()
+                .skip_while(|(_, l)| {
+                    l.trim().is_empty() || l.trim_start().starts_with('#') || l.starts_with("---")
+                })
+                .find(|(_, l)| l.starts_with("---") || l.starts_with("..."))
+                .map(|(i, _)| Position {
+                    line: i + 1,
+                    column: 1,
+                });
+            return InputError::at(
+                self.origin.display(),
+                &self.text,
+                second.or(Some(Position { line: 1, column: 1 })),
+                "",
+                "a second YAML document (`---` or `...`) begins here; expected one document per file",
+            );
+        }
         let (path, message) = split_yaml_message(&e.to_string());
         let present = self.locator.children(&path);
         let (field, message) = refine(&path, &message, &present);

@@ -174,12 +174,27 @@ struct Walker<'a> {
     keys: HashMap<String, Position>,
     duplicate: Option<Duplicate>,
     nodes: usize,
+    /// The characters of each line longer than [`LONG_LINE`] bytes, so a
+    /// lookup by column on a long line is not a walk from its start (which
+    /// made a 1 MB one-line file quadratic).
+    long_lines: HashMap<usize, Vec<char>>,
 }
+
+/// A line longer than this many bytes gets its characters indexed.
+const LONG_LINE: usize = 256;
 
 impl<'a> Walker<'a> {
     fn new(text: &'a str) -> Walker<'a> {
+        let lines: Vec<&'a str> = text.lines().collect();
+        let long_lines = lines
+            .iter()
+            .enumerate()
+            .filter(|(_, l)| l.len() > LONG_LINE)
+            .map(|(i, l)| (i, l.chars().collect()))
+            .collect();
         Walker {
-            lines: text.lines().collect(),
+            long_lines,
+            lines,
             stack: Vec::new(),
             values: HashMap::new(),
             keys: HashMap::new(),
@@ -190,8 +205,12 @@ impl<'a> Walker<'a> {
 
     /// The character at a 1-based position, if the text has one there.
     fn char_at(&self, pos: Position) -> Option<char> {
-        let line = self.lines.get(pos.line.checked_sub(1)?)?;
-        line.chars().nth(pos.column.checked_sub(1)?)
+        let index = pos.line.checked_sub(1)?;
+        let column = pos.column.checked_sub(1)?;
+        if let Some(chars) = self.long_lines.get(&index) {
+            return chars.get(column).copied();
+        }
+        self.lines.get(index)?.chars().nth(column)
     }
 
     /// The path a new node at this point of the stream gets, or `None` when

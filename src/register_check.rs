@@ -34,6 +34,8 @@ use crate::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verificati
 pub struct Tolerances {
     /// Mean current, as a fraction of the case's load current.
     pub mean_current_rel: f64,
+    /// Mean current, absolute floor, A.
+    pub mean_current_abs_a: f64,
     /// Ripple peak to peak, as a fraction of the plan's figure.
     pub ripple_rel: f64,
     /// Ripple peak to peak, absolute floor, A.
@@ -45,6 +47,7 @@ pub struct Tolerances {
 /// The tolerances `plan` holds the model to.
 pub const TOLERANCES: Tolerances = Tolerances {
     mean_current_rel: 0.01,
+    mean_current_abs_a: 1e-4,
     ripple_rel: 0.01,
     ripple_abs_a: 1e-3,
     time_abs_s: 1e-12,
@@ -410,7 +413,9 @@ fn compare_case(v: &RegisterView, case: &CaseOut, c: &CaseCheck, out: &mut Vec<S
         .first()
         .map(|r| r.load_current_a.abs())
         .unwrap_or(case.load_current_a.abs());
-    if (c.mean_a - case.load_current_a).abs() > t.mean_current_rel * rated {
+    if (c.mean_a - case.load_current_a).abs()
+        > (t.mean_current_rel * rated).max(t.mean_current_abs_a)
+    {
         out.push(format!(
             "{} case: at compare duty {:.6} the registers give a mean motor current of {} A, the plan {} A",
             case.name,

@@ -86,6 +86,30 @@ pub struct ConstraintCheck {
     pub detail: Detail,
 }
 
+impl ConstraintCheck {
+    /// Make the verdict follow the margin: a check whose margin is on the
+    /// wrong side of its limit never passes (whatever produced its verdict,
+    /// e.g. a dead time encoded as zero ticks), and a failing check whose
+    /// margin says it holds loses that margin (the margin does not say why
+    /// it fails). Afterwards `pass == margin_holds(margin, limit)` for
+    /// every check with a margin.
+    pub fn settle(&mut self) {
+        if let Some(m) = self.margin {
+            if !margin_holds(m, self.limit) {
+                self.pass = false;
+            } else if !self.pass {
+                self.margin = None;
+            }
+        }
+    }
+}
+
+/// Whether a margin (distance to the limit on the safe side) holds: not
+/// below zero by more than rounding, [`EPS`] absolute or 1e-12 of the limit.
+pub fn margin_holds(margin: f64, limit: f64) -> bool {
+    margin >= -EPS.max(1e-12 * limit.abs())
+}
+
 /// One line on what a constraint's value is, worded only when shown: the
 /// search builds thousands of checks and shows a few.
 #[derive(Debug, Clone, PartialEq)]
@@ -502,7 +526,12 @@ impl Evaluator {
         };
         match &self.audible {
             crate::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
-                audible.margin = a_value.map(|v| v - hearing_limit_hz);
+                // The verdict counts significant lines only: a fundamental
+                // below the limit whose lines are all too weak to hear passes,
+                // and then the distance to the limit is no margin.
+                audible.margin = a_value
+                    .map(|v| v - hearing_limit_hz)
+                    .filter(|m| margin_holds(*m, *hearing_limit_hz) == audible_pass);
             }
             crate::physics::acoustics::AudibleMode::AvoidBands { .. } => {
                 audible.unit = "lines";
@@ -520,7 +549,9 @@ impl Evaluator {
                 Detail::DutySteps(s.duty_steps),
             ));
         }
-        let dt_ok = dead.code.is_some();
+        // Encoded and at least as long as needed (a code whose ticks round
+        // to nothing is no dead time).
+        let dt_ok = dead.code.is_some() && margin_holds(dead.seconds - dead.need_s, dead.need_s);
         if self.needs_dead_time() {
             checks.push(ConstraintCheck {
                 name: "dead-time",
@@ -535,6 +566,8 @@ impl Evaluator {
                 binding: false,
                 detail: if dt_ok {
                     "dead time needed; the timer encodes the next value up".into()
+                } else if dead.code.is_some() {
+                    "the encoded dead time is shorter than needed".into()
                 } else if dead.max_s == Some(0.0) {
                     "the timer has no dead-time generator but the bridge needs one".into()
                 } else {
@@ -597,6 +630,9 @@ impl Evaluator {
                 max_hz: l.f_max_hz,
             },
         });
+        for k in &mut checks {
+            k.settle();
+        }
         let feasible = checks.iter().all(|c| c.pass);
         Some(Candidate {
             setting: s.into(),
@@ -1665,8 +1701,12 @@ fn nearest(ev: &Evaluator, f_hz: f64) -> Option<PwmSetting> {
     // (the most duty steps), widened until the band holds some: cheaper
     // than visiting every divider, and the same nearest setting.
     let near = |a: Alignment| -> Option<PwmSetting> {
+        // Products per band grow with clock/f: at a low frequency the band
+        // holds too many to factor one by one (a bound of our own choice:
+        // 4096 products), and the direct search visits fewer dividers.
+        let products = ev.timer.clock_hz / f_hz.max(f64::MIN_POSITIVE);
         let mut width = 1e-3;
-        while width < 1e3 {
+        while width < 1e3 && products * width <= 4096.0 {
             let (lo, hi) = (f_hz / (1.0 + width), f_hz * (1.0 + width));
             if let Ok(it) = ev.timer.distinct_products_in_band(lo, hi, a) {
                 let best = it.min_by(|x, y| {
@@ -1729,5 +1769,51 @@ pub fn pinned_judged(judge: &Judge, obj: Objective, f_hz: f64) -> Solution {
         conflict,
         evaluated: 1,
         realisable: 1,
+    }
+}
+
+#[cfg(test)]
+mod settle_tests {
+    use super::*;
+
+    fn check(margin: Option<f64>, pass: bool) -> ConstraintCheck {
+        ConstraintCheck {
+            name: "dead-time",
+            limit: 123e-9,
+            value: Some(123e-9),
+            margin,
+            unit: "s",
+            pass,
+            binding: false,
+            detail: "x".into(),
+        }
+    }
+
+    /// A verdict that says "pass" on a failing margin (the zero-tick dead
+    /// time of issue 22) is overruled; a failing verdict with a holding
+    /// margin drops the margin; afterwards verdict and margin agree.
+    #[test]
+    fn verdict_follows_margin() {
+        let mut k = check(Some(-123e-9), true);
+        k.settle();
+        assert!(!k.pass);
+        let mut k = check(Some(1e-9), false);
+        k.settle();
+        assert!(!k.pass && k.margin.is_none());
+        let mut k = check(Some(0.0), true);
+        k.settle();
+        assert!(k.pass);
+        for (m, p) in [
+            (Some(-1.0), true),
+            (Some(1.0), true),
+            (None, false),
+            (Some(-1.0), false),
+        ] {
+            let mut k = check(m, p);
+            k.settle();
+            if let Some(m) = k.margin {
+                assert_eq!(k.pass, margin_holds(m, k.limit));
+            }
+        }
     }
 }

@@ -521,6 +521,26 @@ impl TimerModel {
         }
     }
 
+    /// Lowest and highest PWM frequency the timer can realise with
+    /// `alignment`: the largest divider at the most duty steps, and the
+    /// smallest divider at [`MIN_DUTY_STEPS`] (`f = clock / (divider · u ·
+    /// steps)`, module conventions).
+    pub fn frequency_range(&self, alignment: Alignment) -> (f64, f64) {
+        let (d_min, d_max) = self.prescaler.sorted_set().bounds();
+        let (q_min, q_max) = self.duty_step_range(alignment);
+        let u = match alignment {
+            Alignment::Edge => 1.0,
+            Alignment::Centre => 2.0,
+        };
+        let lowest = self.clock_hz / (d_max as f64 * u * q_max as f64);
+        let highest = self.clock_hz / (d_min as f64 * u * q_min as f64);
+        // The band searches stop at products of 2^53 (module assumptions).
+        (
+            lowest.max(self.clock_hz / MAX_SEARCH_PRODUCT as f64),
+            highest,
+        )
+    }
+
     /// Period register value for a period in counter ticks.
     /// Edge: `period_ticks − 1`; centre: `period_ticks / 2` (module conventions).
     pub fn period_register(period_ticks: u64, alignment: Alignment) -> u64 {

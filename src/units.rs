@@ -893,8 +893,15 @@ pub fn format_quantity(value_si: f64, dim: Dimension, significant: usize) -> Str
         return format!("{value_si} {}", st.unit);
     };
     let prefix = choose_prefix(st.prefixes, exp10);
-    let body = place_point(&digits, exp10 - prefix.exp);
     let sign = if negative { "-" } else { "" };
+    // Far outside the prefixes (a value such as 4.9e-324 in an absurd
+    // input) the digits go into an exponent rather than hundreds of zeros
+    // (beyond 15 places, a bound of our own choice).
+    if (exp10 - prefix.exp).abs() > 15 {
+        let mantissa = place_point(&digits, 0);
+        return format!("{sign}{mantissa}e{exp10} {}", st.unit);
+    }
+    let body = place_point(&digits, exp10 - prefix.exp);
     format!("{sign}{body} {}{}", prefix.symbol, st.unit)
 }
 
@@ -1428,6 +1435,8 @@ mod tests {
             (-0.36, D::Current, 2, "-360 mA"),
             (f64::NAN, D::Voltage, 3, "NaN V"),
             (f64::NEG_INFINITY, D::Power, 3, "-inf W"),
+            (4.9e-324, D::Resistance, 3, "4.94e-324 \u{03A9}"),
+            (1e300, D::Temperature, 3, "1.00e300 °C"),
         ];
         for &(v, dim, sig, want) in cases {
             assert_eq!(format_quantity(v, dim, sig), want, "{v} {dim:?} {sig}");

@@ -103,7 +103,13 @@ fn bad_input(design: &str, edits: &[Edit], expected: &str) {
     for edit in edits {
         apply(dir.path(), edit);
     }
-    let out = plan(dir.path(), design);
+    refused(dir.path(), design, expected);
+}
+
+/// Run `plan DESIGN` in `dir` and check the bad-input promise with the
+/// whole of standard error equal to `expected`.
+fn refused(dir: &Path, design: &str, expected: &str) {
+    let out = plan(dir, design);
     let stderr = String::from_utf8_lossy(&out.stderr);
     let expected = expected.strip_prefix('\n').unwrap_or(expected);
     assert_eq!(
@@ -117,7 +123,7 @@ fn bad_input(design: &str, edits: &[Edit], expected: &str) {
         "nothing may reach standard output on bad input"
     );
     assert!(
-        !dir.path().join("out").exists(),
+        !dir.join("out").exists(),
         "no out/ folder may be written on bad input"
     );
     assert_eq!(stderr, expected);
@@ -212,7 +218,7 @@ fn yaml_key_indented_too_deep() {
             "      counter_bits: 16",
         )],
         r#"
-error: wren-hb24.yaml:6:7: bad indentation: `counter_bits` is indented 6 spaces, which lines up with no key above it; indent it 4 (a key of `timer`), 2 (a key of `board`) or 0 (a top-level key)
+error: wren-hb24.yaml:6:7: board.timer.clock.counter_bits: bad indentation: `counter_bits` is indented 6 spaces, which lines up with no key above it; indent it 4 (a key of `timer`), 2 (a key of `board`) or 0 (a top-level key)
  6 |       counter_bits: 16
    |       ^
 "#,
@@ -230,7 +236,7 @@ fn yaml_key_indented_between_levels() {
             " objective: least-loss",
         )],
         r#"
-error: belt-feeder.yaml:21:2: bad indentation: `objective` is indented 1 space, which lines up with no key above it; indent it 4 (a key of `constraints`), 2 (a key of `design`) or 0 (a top-level key)
+error: belt-feeder.yaml:21:2: design.objective: bad indentation: `objective` is indented 1 space, which lines up with no key above it; indent it 4 (a key of `constraints`), 2 (a key of `design`) or 0 (a top-level key)
  21 |  objective: least-loss
     |  ^
 "#,
@@ -247,7 +253,7 @@ fn yaml_tab_in_indentation() {
             r#"    resistance: "0.62 ohm""#,
             "\tresistance: \"0.62 ohm\"",
         )],
-        "error: belt-feeder.yaml:8:1: a tab in the indentation; YAML indents with spaces only\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
+        "error: belt-feeder.yaml:8:1: design.motor.resistance: a tab in the indentation; YAML indents with spaces only\n 8 | \tresistance: \"0.62 ohm\"\n   | ^\n",
     );
 }
 
@@ -610,7 +616,7 @@ fn negative_resistance() {
             r#"resistance: "-0.62 ohm""#,
         )],
         r#"
-error: belt-feeder.yaml:8:17: design.motor.resistance: -620 mΩ is out of range; expected above 0.00 Ω and at most 1.00 kΩ
+error: belt-feeder.yaml:8:17: design.motor.resistance: -620 mΩ is out of range; expected above 1.00 µΩ and at most 1.00 kΩ
  8 |     resistance: "-0.62 ohm"
    |                 ^
 "#,
@@ -628,7 +634,7 @@ fn zero_inductance() {
             r#"inductance: "0 mH""#,
         )],
         r#"
-error: belt-feeder.yaml:9:17: design.motor.inductance: 0.00 H is out of range; expected above 0.00 H and at most 10.0 H
+error: belt-feeder.yaml:9:17: design.motor.inductance: 0.00 H is out of range; expected above 1.00 nH and at most 10.0 H
  9 |     inductance: "0 mH"
    |                 ^
 "#,
@@ -754,7 +760,7 @@ fn ripple_percent_out_of_range() {
             r#"max_ripple: "250 %""#,
         )],
         r#"
-error: belt-feeder.yaml:16:17: design.constraints.max_ripple: 250 % is out of range; expected above 0.00 % and at most 200 %
+error: belt-feeder.yaml:16:17: design.constraints.max_ripple: 250 % is out of range; expected above 0.100 % and at most 200 %
  16 |     max_ripple: "250 %"          # of the rated current, peak to peak
     |                 ^
 "#,
@@ -1422,69 +1428,6 @@ error: wren-hb24.yaml:16:27: board.timer.dead_time.segmented.segments[2].first_c
     );
 }
 
-/// Issue 14, defect 11: the board declares an 8-bit dead-time register and
-/// the last segment's codes run to 0x100, past it.
-#[test]
-fn dead_time_segment_past_the_register_width() {
-    bad_input(
-        "belt-feeder.yaml",
-        &[
-            case(
-                "wren-hb24.yaml",
-                "clock_divider: 1\n        segments:",
-                "clock_divider: 1\n        code_bits: 8\n        segments:",
-            ),
-            case(
-                "wren-hb24.yaml",
-                "{ first_code: 0xE0, count: 32,",
-                "{ first_code: 0xE0, count: 33,",
-            ),
-        ],
-        r#"
-error: wren-hb24.yaml:18:40: board.timer.dead_time.segmented.segments[3].count: codes 0xE0 to 0x100 run past the 8-bit dead-time register (codes 0x0 to 0xFF); expected first_code + count ≤ 0x100
- 18 |           - { first_code: 0xE0, count: 33, base: 40, step: 12 }
-    |                                        ^
-"#,
-    );
-}
-
-/// Issue 14, defect 11: a linear dead-time code of up to 1023 ticks on a
-/// board that declares a 9-bit register.
-#[test]
-fn dead_time_linear_range_past_the_register_width() {
-    bad_input(
-        "winch.yaml",
-        &[case(
-            "heron-hb48.yaml",
-            "max_ticks: 1023, code_bits: 10 }",
-            "max_ticks: 1023, code_bits: 9 }",
-        )],
-        r#"
-error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: code 1023 does not fit the 9-bit dead-time register (codes 0 to 511); expected max_ticks ≤ 511
- 11 |       linear: { clock_divider: 1, max_ticks: 1023, code_bits: 9 }
-    |                                              ^
-"#,
-    );
-}
-
-/// Issue 14, defect 6: the gate-charge test's drain voltage above V_DSS.
-#[test]
-fn gate_charge_test_voltage_above_v_dss() {
-    bad_input(
-        "belt-feeder.yaml",
-        &[case(
-            "switches/tarn-40.yaml",
-            "at_v_gs: \"10 V\" }\n  q_gs",
-            "at_v_gs: \"10 V\", at_v_ds: \"60 V\" }\n  q_gs",
-        )],
-        r#"
-error: switches/tarn-40.yaml:13:64: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
- 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_v_ds: "60 V" }
-    |                                                                ^
-"#,
-    );
-}
-
 /// A linear prescaler range upside down.
 #[test]
 fn prescaler_max_below_min() {
@@ -1546,7 +1489,7 @@ fn board_file_given_to_plan() {
         "wren-hb24.yaml",
         &[],
         r#"
-error: wren-hb24.yaml:2:1: this is a board file; expected a design file (top-level key `design:`)
+error: wren-hb24.yaml:2:1: board: this is a board file; expected a design file (top-level key `design:`)
  2 | board:
    | ^
 "#,
@@ -1572,7 +1515,7 @@ fn design_file_empty() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"")],
         r#"
-error: belt-feeder.yaml: the file is empty; expected a top-level `design:` key
+error: belt-feeder.yaml:1:1: design: the file is empty; expected a top-level `design:` key
 "#,
     );
 }
@@ -1584,7 +1527,7 @@ fn board_file_empty() {
         "belt-feeder.yaml",
         &[write("wren-hb24.yaml", b"")],
         r#"
-error: wren-hb24.yaml: the file is empty; expected a top-level `board:` key
+error: wren-hb24.yaml:1:1: board: the file is empty; expected a top-level `board:` key
 "#,
     );
 }
@@ -1596,7 +1539,9 @@ fn design_file_not_utf8() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"design:\n  name: caf\xe9\n")],
         r#"
-error: belt-feeder.yaml: not UTF-8 text; expected a YAML file
+error: belt-feeder.yaml:2:12: design.name: not UTF-8 text (a byte here is not UTF-8); expected a YAML file
+ 2 |   name: caf�
+   |            ^
 "#,
     );
 }
@@ -1608,9 +1553,9 @@ fn switch_file_not_utf8() {
         "vent-fan.yaml",
         &[write("switches/scree-60.yaml", b"\xff\xfe")],
         r#"
-error: kite-ls12.yaml:15:13: board.stage.switch: switches/scree-60.yaml: not UTF-8 text; expected a YAML file
- 15 |     switch: switches/scree-60.yaml
-    |             ^
+error: switches/scree-60.yaml:1:1: (top level): not UTF-8 text (a byte here is not UTF-8); expected a YAML file
+ 1 | ��
+   | ^
 "#,
     );
 }
@@ -1629,7 +1574,7 @@ fn yaml_key_indented_one_short() {
             "   inductance:",
         )],
         r#"
-error: belt-feeder.yaml:9:4: bad indentation: `inductance` is indented 3 spaces, which lines up with no key above it; indent it 4 (a key of `motor`), 2 (a key of `design`) or 0 (a top-level key)
+error: belt-feeder.yaml:9:4: design.motor.inductance: bad indentation: `inductance` is indented 3 spaces, which lines up with no key above it; indent it 4 (a key of `motor`), 2 (a key of `design`) or 0 (a top-level key)
  9 |    inductance: "0.85 mH"
    |    ^
 "#,
@@ -1699,7 +1644,7 @@ fn yaml_key_without_colon() {
             "board wren-hb24.yaml",
         )],
         r#"
-error: belt-feeder.yaml:4:3: expected `key: value`; `board wren-hb24.yaml` has no `:`
+error: belt-feeder.yaml:4:3: design.name: expected `key: value`; `board wren-hb24.yaml` has no `:`
  4 |   board wren-hb24.yaml
    |   ^
 "#,
@@ -1716,7 +1661,9 @@ fn design_file_only_comments() {
             b"# pwmplan design: to be written\n\n# design:\n",
         )],
         r#"
-error: belt-feeder.yaml: the file has no content; expected a top-level `design:` key
+error: belt-feeder.yaml:1:1: design: the file has no content; expected a top-level `design:` key
+ 1 | # pwmplan design: to be written
+   | ^
 "#,
     );
 }
@@ -1728,7 +1675,9 @@ fn board_file_only_comments() {
         "belt-feeder.yaml",
         &[write("wren-hb24.yaml", b"# board: to be written\n")],
         r#"
-error: wren-hb24.yaml: the file has no content; expected a top-level `board:` key
+error: wren-hb24.yaml:1:1: board: the file has no content; expected a top-level `board:` key
+ 1 | # board: to be written
+   | ^
 "#,
     );
 }
@@ -1894,7 +1843,7 @@ fn design_file_is_a_list() {
         "belt-feeder.yaml",
         &[write("belt-feeder.yaml", b"- design\n")],
         r#"
-error: belt-feeder.yaml:1:1: expected a mapping with the top-level key `design:`, found a list
+error: belt-feeder.yaml:1:1: (top level): expected a mapping with the top-level key `design:`, found a list
  1 | - design
    | ^
 "#,
@@ -1908,7 +1857,7 @@ fn switch_file_given_to_plan() {
         "switches/tarn-40.yaml",
         &[],
         r#"
-error: switches/tarn-40.yaml:3:1: this is a switch file; expected a design file (top-level key `design:`)
+error: switches/tarn-40.yaml:3:1: switch: this is a switch file; expected a design file (top-level key `design:`)
  3 | switch:
    | ^
 "#,
@@ -2031,6 +1980,762 @@ fn tolerance_driver_supply_above_v_gs_max() {
 error: belt-feeder.yaml:21:32: design.tolerances.driver_supply: at +20.0 % the gate drive is 21.6 V, above the switch's V_GS max 20.0 V; expected a drive within the gate rating at every corner
  21 |   tolerances: { driver_supply: "20 %" }
     |                                ^
+"#,
+    );
+}
+
+// ------------------------------------------- hostile and absurd input (#22)
+
+/// A dead-time clock divider so large that one tick lasts minutes: every
+/// need would round to zero ticks (shoot-through on a bridge).
+#[test]
+fn dead_time_divider_rounds_every_need_to_zero() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "clock_divider: 1",
+            "clock_divider: 15000000000",
+        )],
+        r#"
+error: wren-hb24.yaml:12:24: board.timer.dead_time.segmented.clock_divider: 15000000000 makes one dead-time tick 170 s at the timer clock 88.0 MHz; expected a tick of at most 10.0 µs (clock_divider at most 880)
+ 12 |         clock_divider: 15000000000
+    |                        ^
+"#,
+    );
+}
+
+/// Just above the tick bound: a precise refusal, not a vague one later.
+#[test]
+fn dead_time_divider_above_the_tick_bound() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "clock_divider: 1",
+            "clock_divider: 900",
+        )],
+        r#"
+error: wren-hb24.yaml:12:24: board.timer.dead_time.segmented.clock_divider: 900 makes one dead-time tick 10.2 µs at the timer clock 88.0 MHz; expected a tick of at most 10.0 µs (clock_divider at most 880)
+ 12 |         clock_divider: 900
+    |                        ^
+"#,
+    );
+}
+
+/// A segment whose tick count overflows 64 bits.
+#[test]
+fn dead_time_segment_ticks_overflow() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "base: 40, step: 12",
+            "base: 9223372036854775808, step: 12",
+        )],
+        r#"
+error: wren-hb24.yaml:17:50: board.timer.dead_time.segmented.segments[3].base: (base + count − 1) · step overflows a tick count; expected a longest dead time of at most 1 ms
+ 17 |           - { first_code: 0xE0, count: 32, base: 9223372036854775808, step: 12 }
+    |                                                  ^
+"#,
+    );
+}
+
+/// A linear generator whose longest code is far beyond any dead time.
+#[test]
+fn dead_time_linear_longest_beyond_bound() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "max_ticks: 1023",
+            "max_ticks: 99999999999",
+        )],
+        r#"
+error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: the longest code counts 99999999999 ticks, 833 s; expected a longest dead time of at most 1.00 ms
+ 11 |       linear: { clock_divider: 1, max_ticks: 99999999999, code_bits: 10 }
+    |                                              ^
+"#,
+    );
+}
+
+/// The smallest positive double as a winding resistance.
+#[test]
+fn motor_resistance_absurdly_small() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#""0.62 ohm""#,
+            r#""4.9e-324 ohm""#,
+        )],
+        r#"
+error: belt-feeder.yaml:8:17: design.motor.resistance: 4.94e-324 Ω is out of range; expected above 1.00 µΩ and at most 1.00 kΩ
+ 8 |     resistance: "4.9e-324 ohm"
+   |                 ^
+"#,
+    );
+}
+
+/// A motor at standstill has no operating point to plan.
+#[test]
+fn operating_speed_zero() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", r#""3200 rpm""#, r#""0 rpm""#)],
+        r#"
+error: belt-feeder.yaml:12:22: design.motor.operating_speed: 0.00 rpm is out of range; expected above 0.00 rpm and at most 955000 rpm
+ 12 |     operating_speed: "0 rpm"
+    |                      ^
+"#,
+    );
+}
+
+/// Q_g quoted at a gate voltage the gate cannot take.
+#[test]
+fn gate_charge_at_v_gs_above_v_gs_max() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"max: "76 nC", at_v_gs: "10 V""#,
+            r#"max: "76 nC", at_v_gs: "25 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 25.0 V is above v_gs_max (20.0 V); expected the gate voltage of the datasheet's gate-charge figure, within the gate rating
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "25 V" }
+    |                                               ^
+"#,
+    );
+}
+
+/// One point is no C_rss curve.
+#[test]
+fn c_rss_curve_of_one_point() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"[["1 V", "1.6 nF"], ["5 V", "420 pF"], ["20 V", "62 pF"], ["32 V", "48 pF"]]"#,
+            r#"[["1 V", "1.6 nF"]]"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:22:18: switch.capacitance.c_rss_curve: one point is no curve; expected at least two [v_ds, c_rss] points, or no c_rss_curve
+ 22 |     c_rss_curve: [["1 V", "1.6 nF"]]
+    |                  ^
+"#,
+    );
+}
+
+/// C_rss falls with drain voltage; a rising point is a typo.
+#[test]
+fn c_rss_curve_rising() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"["32 V", "48 pF"]"#,
+            r#"["32 V", "480 pF"]"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:22:85: switch.capacitance.c_rss_curve[3][1]: 480 pF is above the previous point's 62.0 pF; expected C_rss to fall (or stay) as the drain voltage rises
+ 22 |     c_rss_curve: [["1 V", "1.6 nF"], ["5 V", "420 pF"], ["20 V", "62 pF"], ["32 V", "480 pF"]]
+    |                                                                                     ^
+"#,
+    );
+}
+
+/// Output charge and output energy both given: which one counts?
+#[test]
+fn q_oss_and_e_oss_both() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_oss: "38 nC""#,
+            "q_oss: \"38 nC\"\n  e_oss: { value: \"1 uJ\", at_v_ds: \"20 V\" }",
+        )],
+        r#"
+error: switches/tarn-40.yaml:24:12: switch.e_oss: give either q_oss or e_oss for the output-capacitance loss, not both
+ 24 |   e_oss: { value: "1 uJ", at_v_ds: "20 V" }
+    |            ^
+"#,
+    );
+}
+
+/// A low-side stage without its freewheel diode: named, not "nothing
+/// could be evaluated".
+#[test]
+fn low_side_without_freewheel_diode() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            "    freewheel_diode:",
+            "    #freewheel_diode:",
+        )],
+        r#"
+error: kite-ls12.yaml:14:5: board.stage.freewheel_diode: missing; a low-side stage needs the diode the motor current freewheels through while the switch is off (`freewheel_diode: { v_f: ..., q_rr: ..., t_rr: ..., i_f: ..., v_rrm: ... }`)
+ 14 |     topology: low-side
+    |     ^
+"#,
+    );
+}
+
+/// A gate drive above the threshold but below the Miller plateau.
+#[test]
+fn gate_drive_below_the_plateau() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            r#"supply: "12 V""#,
+            r#"supply: "4.2 V""#,
+        )],
+        r#"
+error: wren-hb24.yaml:24:13: board.gate_driver.supply: 4.20 V does not exceed the switch's Miller plateau 4.40 V at the design's rated current 3.50 A; expected a drive voltage above the plateau, so the switch turns fully on
+ 24 |     supply: "4.2 V"
+    |             ^
+"#,
+    );
+}
+
+/// A name too long for a file name is refused before anything is written.
+#[test]
+fn design_name_too_long() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "name: belt-feeder",
+            "name: belt-feeder-with-a-name-far-longer-than-any-file-system-would-like-to-hold-as-a-file-name",
+        )],
+        r#"
+error: belt-feeder.yaml:3:9: design.name: 89 characters; expected at most 64 (the name becomes the generated files' names)
+ 3 |   name: belt-feeder-with-a-name-far-longer-than-any-file-system-would-like-to-hold-as-a-file-name
+   |         ^
+"#,
+    );
+}
+
+/// A board reached through a symbolic link that leads out of the design's
+/// folder: the no-`..` rule holds for links too.
+#[cfg(unix)]
+#[test]
+fn board_through_a_link_out_of_the_folder() {
+    let dir = fixture();
+    let elsewhere = tempfile::tempdir().expect("a second folder");
+    let outside = elsewhere.path().join("wren-hb24.yaml");
+    fs::rename(dir.path().join("wren-hb24.yaml"), &outside).expect("move the board out");
+    std::os::unix::fs::symlink(&outside, dir.path().join("wren-hb24.yaml")).expect("link");
+    let target = fs::canonicalize(&outside).expect("canonical path");
+    refused(
+        dir.path(),
+        "belt-feeder.yaml",
+        &format!(
+            r#"error: belt-feeder.yaml:4:10: design.board: "wren-hb24.yaml" leads through a symbolic link to {}, outside this file's folder; keep the board beside or below it (or use "bundled:NAME")
+ 4 |   board: wren-hb24.yaml
+   |          ^
+"#,
+            target.display()
+        ),
+    );
+}
+
+/// The same for a switch reached from the board through a linked folder.
+#[cfg(unix)]
+#[test]
+fn switch_through_a_linked_folder() {
+    let dir = fixture();
+    let elsewhere = tempfile::tempdir().expect("a second folder");
+    let outside = elsewhere.path().join("switches");
+    fs::rename(dir.path().join("switches"), &outside).expect("move the switches out");
+    std::os::unix::fs::symlink(&outside, dir.path().join("switches")).expect("link");
+    let target = fs::canonicalize(outside.join("tarn-40.yaml")).expect("canonical path");
+    refused(
+        dir.path(),
+        "belt-feeder.yaml",
+        &format!(
+            r#"error: wren-hb24.yaml:22:13: board.stage.switch: "switches/tarn-40.yaml" leads through a symbolic link to {}, outside this file's folder; keep the switch beside or below it (or use "bundled:NAME")
+ 22 |     switch: switches/tarn-40.yaml
+    |             ^
+"#,
+            target.display()
+        ),
+    );
+}
+
+/// A FIFO as the design file is refused without opening it (opening would
+/// block until a writer came).
+#[cfg(unix)]
+#[test]
+fn design_is_a_fifo() {
+    let dir = fixture();
+    let fifo = dir.path().join("pipe.yaml");
+    let status = Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .expect("run mkfifo");
+    assert!(status.success());
+    refused(
+        dir.path(),
+        "pipe.yaml",
+        "error: pipe.yaml: is not a regular file (a pipe, socket or device); expected a YAML file\n",
+    );
+}
+
+/// A device that never ends is not read.
+#[cfg(unix)]
+#[test]
+fn design_is_a_device() {
+    let dir = fixture();
+    refused(
+        dir.path(),
+        "/dev/zero",
+        "error: /dev/zero: is not a regular file (a pipe, socket or device); expected a YAML file\n",
+    );
+}
+
+/// A folder as the design file.
+#[test]
+fn design_is_a_folder() {
+    let dir = fixture();
+    refused(
+        dir.path(),
+        "switches",
+        "error: switches: is a folder; expected a YAML file\n",
+    );
+}
+
+/// A file over the size cap is refused before it is parsed.
+#[test]
+fn design_over_the_size_cap() {
+    let dir = fixture();
+    let text = fs::read_to_string(dir.path().join("belt-feeder.yaml")).expect("read");
+    let padding = "# padding\n".repeat(110_000);
+    fs::write(dir.path().join("big.yaml"), format!("{text}{padding}")).expect("write");
+    refused(
+        dir.path(),
+        "big.yaml",
+        "error: big.yaml: is larger than 1048576 bytes (1 MiB), the largest input pwmplan reads\n",
+    );
+}
+
+// ------------------------------------------------ hostile templates (#22)
+
+/// A copy of the bundled templates in `dir/tpl` with `extra` appended to
+/// the C header template (or the whole of it replaced when `replace`).
+fn templates_with(dir: &Path, extra: &str, replace: bool) {
+    let tpl = dir.join("tpl");
+    fs::create_dir_all(&tpl).expect("templates folder");
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("templates");
+    for name in ["c_header.h.hbs", "rust_module.rs.hbs", "rationale.md.hbs"] {
+        fs::copy(src.join(name), tpl.join(name)).expect("copy a template");
+    }
+    let header = tpl.join("c_header.h.hbs");
+    let text = if replace {
+        extra.to_string()
+    } else {
+        format!("{}{extra}", fs::read_to_string(&header).expect("read"))
+    };
+    fs::write(&header, text).expect("write the template");
+}
+
+/// Run `plan --templates tpl` on the demo and check exit 2, empty stdout,
+/// no `out/`, and the whole of standard error.
+fn template_refused(dir: &Path, expected: &str) {
+    let out = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .args(["plan", "--templates", "tpl"])
+        .current_dir(dir)
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "stderr:\n{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert_eq!(String::from_utf8_lossy(&out.stdout), "");
+    assert!(!dir.join("out").exists());
+    assert_eq!(String::from_utf8_lossy(&out.stderr), expected);
+}
+
+fn header_lines() -> usize {
+    fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("templates/c_header.h.hbs"))
+        .expect("read")
+        .lines()
+        .count()
+}
+
+/// A template that includes itself would recurse until the stack overflows.
+#[test]
+fn template_including_itself() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "{{> c_header.h.hbs}}\n", false);
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: a partial or inline partial; expected each template to stand alone (pwmplan templates include no other template)\n",
+            header_lines() + 1
+        ),
+    );
+}
+
+/// 5000 nested blocks would overflow the parser's stack.
+#[test]
+fn template_nested_5000_deep() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let deep = format!(
+        "{}{}\n",
+        "{{#if tool}}".repeat(5000),
+        "{{/if}}".repeat(5000)
+    );
+    templates_with(dir.path(), &deep, false);
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: blocks nested more than 16 deep; expected at most 16\n",
+            header_lines() + 1
+        ),
+    );
+}
+
+/// Loops inside loops inside loops multiply the output without bound.
+#[test]
+fn template_loops_nested_three_deep() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(
+        dir.path(),
+        "{{#each rationale_lines}}\n{{#each ../rationale_lines}}\n{{#each ../../rationale_lines}}{{this}}{{/each}}{{/each}}{{/each}}\n",
+        false,
+    );
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/c_header.h.hbs: line {}: `{{{{#each}}}}` loops nested more than 2 deep; expected at most 2\n",
+            header_lines() + 3
+        ),
+    );
+}
+
+/// Within the nesting bounds, a template can still render too much: the
+/// rendering stops at the output cap.
+#[test]
+fn template_output_over_the_cap() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    let body = format!(
+        "{{{{#each rationale_lines}}}}{{{{#each ../rationale_lines}}}}{}{{{{/each}}}}{{{{/each}}}}\n",
+        "{{this}}".repeat(40)
+    );
+    templates_with(dir.path(), &body.repeat(20), false);
+    template_refused(
+        dir.path(),
+        "error: template c_header.h.hbs: renders more than 1048576 bytes (1 MiB), the largest file pwmplan writes; expected loops that each go over one list once\n",
+    );
+}
+
+/// A replacement template without the content-hash marker: the next run
+/// could not tell its own file from an edited one.
+#[test]
+fn template_without_the_marker() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "int x;\n", true);
+    template_refused(
+        dir.path(),
+        "error: template c_header.h.hbs: writes the content-hash marker `{{marker}}` 0 times; expected it exactly once (the next `plan` reads it to tell its own files from edited ones)\n",
+    );
+}
+
+/// A template that is a link to a file outside the templates folder.
+#[cfg(unix)]
+#[test]
+fn template_linked_out_of_the_folder() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "", false);
+    let elsewhere = tempfile::tempdir().expect("second temp dir");
+    let secret = elsewhere.path().join("secret.txt");
+    fs::write(&secret, "not a template\n").expect("write");
+    let link = dir.path().join("tpl/rust_module.rs.hbs");
+    fs::remove_file(&link).expect("remove");
+    std::os::unix::fs::symlink(&secret, &link).expect("link");
+    template_refused(
+        dir.path(),
+        &format!(
+            "error: tpl/rust_module.rs.hbs: leads through a symbolic link to {}, outside the templates folder; expected the template itself in tpl\n",
+            fs::canonicalize(&secret).expect("canonical").display()
+        ),
+    );
+}
+
+/// A template that is a device is not read.
+#[cfg(unix)]
+#[test]
+fn template_is_a_device() {
+    let dir = tempfile::tempdir().expect("temp dir");
+    templates_with(dir.path(), "", false);
+    let t = dir.path().join("tpl/rationale.md.hbs");
+    fs::remove_file(&t).expect("remove");
+    // A device inside the folder (a link to it is refused as outside).
+    let status = Command::new("mkfifo").arg(&t).status().expect("mkfifo");
+    assert!(status.success());
+    template_refused(
+        dir.path(),
+        "error: tpl/rationale.md.hbs: is not a regular file (a pipe, socket or device); expected a template file\n",
+    );
+}
+
+// ------------------------------------------- hangs and vague messages (#22)
+
+/// 100 000 unclosed `[`: refused by a linear pre-scan at the 65th level.
+#[test]
+fn flow_nesting_too_deep() {
+    let deep: &'static str =
+        Box::leak(format!("ambient: {}", "[".repeat(100_000)).into_boxed_str());
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"ambient: { min: "-10 °C", max: "55 °C" }"#,
+            deep,
+        )],
+        r#"
+error: belt-feeder.yaml:13:76: design.ambient: `[` nested more than 64 deep; expected at most 64 levels of `[` and `{`
+ 13 |   ambient: [[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[[…
+    |                                                                            ^
+"#,
+    );
+}
+
+/// A NUL byte is named as such, at its place.
+#[test]
+fn nul_byte_named() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            "kind: brushed-dc",
+            "kind: brushed\0-dc",
+        )],
+        r#"
+error: belt-feeder.yaml:7:18: design.motor.kind: a NUL byte (character 0) in the text; expected YAML text without control characters
+ 7 |     kind: brushed�-dc
+   |                  ^
+"#,
+    );
+}
+
+/// An alias to an anchor that does not exist is named as such (not as bad
+/// indentation).
+#[test]
+fn alias_to_a_missing_anchor() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case("belt-feeder.yaml", "kind: brushed-dc", "kind: *nope")],
+        r#"
+error: belt-feeder.yaml:7:11: design.motor.kind: the alias `*nope` names no anchor: no `&nope` is defined above it; expected a value, or an anchor defined before its alias
+ 7 |     kind: *nope
+   |           ^
+"#,
+    );
+}
+
+/// A very long line is echoed cut to a readable width around the column,
+/// with an ellipsis at each cut.
+#[test]
+fn long_line_echoed_cut() {
+    let long: &'static str = Box::leak(
+        format!(
+            "operating_speed:{}\"0 rpm\" # {}",
+            " ".repeat(200),
+            "x".repeat(10_000)
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"operating_speed: "3200 rpm""#,
+            long,
+        )],
+        r#"
+error: belt-feeder.yaml:12:221: design.motor.operating_speed: 0.00 rpm is out of range; expected above 0.00 rpm and at most 955000 rpm
+ 12 | …                                                           "0 rpm" # xxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxx…
+    |                                                             ^
+"#,
+    );
+}
+
+/// A list longer than any design needs.
+#[test]
+fn too_many_avoided_bands() {
+    let bands: &'static str = Box::leak(
+        format!(
+            "avoid: [{}]",
+            (0..17)
+                .map(|i| format!("[\"{} kHz\", \"{}.5 kHz\"]", i + 1, i + 1))
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "vent-fan.yaml",
+            "avoid: [[\"2.2 kHz\", \"2.8 kHz\"]]",
+            bands,
+        )],
+        r#"
+error: vent-fan.yaml:17:14: design.constraints.audible.avoid: 17 bands; expected at most 16
+ 17 |       avoid: [["1 kHz", "1.5 kHz"], ["2 kHz", "2.5 kHz"], ["3 kHz", "3.5 kHz"], ["4 kHz", "4.5 kHz"], ["5 kHz", "5.5 k…
+    |              ^
+"#,
+    );
+}
+
+/// A prescaler list far longer than a timer has.
+#[test]
+fn too_many_prescaler_ratios() {
+    let ratios: &'static str = Box::leak(
+        format!(
+            "ratios: [{}]",
+            (1..=65)
+                .map(|i| i.to_string())
+                .collect::<Vec<_>>()
+                .join(", ")
+        )
+        .into_boxed_str(),
+    );
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "kite-ls12.yaml",
+            "ratios: [1, 2, 3, 4, 6, 8, 12, 16]",
+            ratios,
+        )],
+        r#"
+error: kite-ls12.yaml:8:15: board.timer.prescaler.ratios: 65 ratios; expected at most 64
+ 8 |       ratios: [1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21, 22, 23, 24, 25, 26, 27, 28, …
+   |               ^
+"#,
+    );
+}
+
+/// `--at` outside what the timer can realise is refused before searching.
+#[test]
+fn pinned_frequency_outside_the_timer() {
+    let dir = fixture();
+    let out = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .args(["plan", "belt-feeder.yaml", "--at", "1 mHz"])
+        .current_dir(dir.path())
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(out.status.code(), Some(2));
+    assert!(!dir.path().join("out").exists());
+    assert_eq!(
+        String::from_utf8_lossy(&out.stderr),
+        "error: --at 1.000 mHz: outside what the timer can make (655.7 mHz to 44.00 MHz); expected a frequency in that range\n"
+    );
+}
+
+/// Q_g quoted at a gate voltage below the plateau is no total gate charge
+/// (1e-30 V made every setting's switching absurd and slow to search).
+#[test]
+fn gate_charge_at_v_gs_below_the_plateau() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"max: "76 nC", at_v_gs: "10 V""#,
+            r#"max: "76 nC", at_v_gs: "1e-30 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 1.00e-30 V is not above the plateau 4.40 V; expected the drive voltage of the datasheet's total gate charge, above the Miller plateau
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "1e-30 V" }
+    |                                               ^
+"#,
+    );
+}
+
+/// A ripple limit no PWM can meet (1e-30 A) is refused at its field rather
+/// than searched for a long time.
+#[test]
+fn ripple_limit_absurdly_small() {
+    bad_input(
+        "vent-fan.yaml",
+        &[case(
+            "vent-fan.yaml",
+            r#"max_ripple: "0.6 A""#,
+            r#"max_ripple: "1e-30 A""#,
+        )],
+        r#"
+error: vent-fan.yaml:18:17: design.constraints.max_ripple: 1.00e-30 A is out of range; expected above 1.20 mA and at most 2.00 kA
+ 18 |     max_ripple: "1e-30 A"
+    |                 ^
+"#,
+    );
+}
+
+/// Issue 14, defect 11: the board declares an 8-bit dead-time register and
+/// the last segment's codes run to 0x100, past it.
+#[test]
+fn dead_time_segment_past_the_register_width() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[
+            case(
+                "wren-hb24.yaml",
+                "clock_divider: 1\n        segments:",
+                "clock_divider: 1\n        code_bits: 8\n        segments:",
+            ),
+            case(
+                "wren-hb24.yaml",
+                "{ first_code: 0xE0, count: 32,",
+                "{ first_code: 0xE0, count: 33,",
+            ),
+        ],
+        r#"
+error: wren-hb24.yaml:18:40: board.timer.dead_time.segmented.segments[3].count: codes 0xE0 to 0x100 run past the 8-bit dead-time register (codes 0x0 to 0xFF); expected first_code + count ≤ 0x100
+ 18 |           - { first_code: 0xE0, count: 33, base: 40, step: 12 }
+    |                                        ^
+"#,
+    );
+}
+
+/// Issue 14, defect 11: a linear dead-time code of up to 1023 ticks on a
+/// board that declares a 9-bit register.
+#[test]
+fn dead_time_linear_range_past_the_register_width() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "max_ticks: 1023, code_bits: 10 }",
+            "max_ticks: 1023, code_bits: 9 }",
+        )],
+        r#"
+error: heron-hb48.yaml:11:46: board.timer.dead_time.linear.max_ticks: code 1023 does not fit the 9-bit dead-time register (codes 0 to 511); expected max_ticks ≤ 511
+ 11 |       linear: { clock_divider: 1, max_ticks: 1023, code_bits: 9 }
+    |                                              ^
+"#,
+    );
+}
+
+/// Issue 14, defect 6: the gate-charge test's drain voltage above V_DSS.
+#[test]
+fn gate_charge_test_voltage_above_v_dss() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            "at_v_gs: \"10 V\" }\n  q_gs",
+            "at_v_gs: \"10 V\", at_v_ds: \"60 V\" }\n  q_gs",
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:64: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_v_ds: "60 V" }
+    |                                                                ^
 "#,
     );
 }

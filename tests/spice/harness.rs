@@ -654,7 +654,8 @@ pub fn switch_yaml(dev: &Device, x: &Extracted) -> String {
         si(x.c_rss_f, "F"),
         curve.join(", ")
     );
-    let _ = writeln!(s, "  q_oss: {}", si(x.q_oss_c, "C"));
+    // A switch file gives q_oss or e_oss, not both; e_oss is the one the
+    // loss model prefers (q_oss stays in the measured record).
     let _ = writeln!(
         s,
         "  e_oss: {{ value: {}, at_v_ds: \"{} V\" }}",
