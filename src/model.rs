@@ -753,6 +753,13 @@ impl Evaluator {
         }
         let (m, ideal) = self.modulation_and_waveform(case, f_hz)?;
         let (compare_duty, w) = self.stage_duty_and_waveform(case, m, ideal, f_hz, t_dead_s);
+        // A duty outside 0..=1 means the stage cannot apply the voltage the
+        // load needs once the dead time and the drops are counted: the load is
+        // not reachable at this case (found by the register check on absurd
+        // inputs, where the written compare would have contradicted the plan).
+        if !(0.0..=1.0).contains(&compare_duty) {
+            return None;
+        }
         let load = load_current(&w);
         let st = &self.stage;
         let op = OperatingPoint {
@@ -1008,7 +1015,8 @@ impl Evaluator {
             );
         }
         let (m, w) = self.modulation_and_waveform(case, f_hz)?;
-        Some(self.stage_duty_and_waveform(case, m, w, f_hz, t_dead_s).0)
+        let d = self.stage_duty_and_waveform(case, m, w, f_hz, t_dead_s).0;
+        (0.0..=1.0).contains(&d).then_some(d)
     }
 
     /// Findings about ratings and drive that do not depend on the setting.
