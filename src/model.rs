@@ -753,11 +753,12 @@ impl Evaluator {
         }
         let (m, ideal) = self.modulation_and_waveform(case, f_hz)?;
         let (compare_duty, w) = self.stage_duty_and_waveform(case, m, ideal, f_hz, t_dead_s);
-        // A duty outside 0..=1 means the stage cannot apply the voltage the
-        // load needs once the dead time and the drops are counted: the load is
-        // not reachable at this case (found by the register check on absurd
-        // inputs, where the written compare would have contradicted the plan).
-        if !(0.0..=1.0).contains(&compare_duty) {
+        // A duty below 0 means the dead time and the drops alone push more
+        // than the load current: the load is not reachable at this case
+        // (found by the register check on absurd inputs, where the written
+        // compare would have contradicted the plan). Above 1 the case stands
+        // and the duty-range constraint fails on it.
+        if compare_duty.is_nan() || compare_duty < 0.0 {
             return None;
         }
         let load = load_current(&w);
@@ -1016,7 +1017,7 @@ impl Evaluator {
         }
         let (m, w) = self.modulation_and_waveform(case, f_hz)?;
         let d = self.stage_duty_and_waveform(case, m, w, f_hz, t_dead_s).0;
-        (0.0..=1.0).contains(&d).then_some(d)
+        (d >= 0.0).then_some(d)
     }
 
     /// Findings about ratings and drive that do not depend on the setting.
