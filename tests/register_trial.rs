@@ -11,7 +11,7 @@ mod common;
 use std::path::{Path, PathBuf};
 
 use common::{describe, run};
-use pwmplan::plan::Plan;
+use pwmplan::plan::{CaseOut, Plan};
 use pwmplan::timer::Alignment;
 use pwmplan::verify::{self, Circuit, LegCompare, Stage, TimerRegisters};
 
@@ -41,6 +41,19 @@ fn registers(p: &Plan) -> TimerRegisters {
     }
 }
 
+/// The load and drops the plan states, at one of its cases.
+fn circuit(p: &Plan, case: &CaseOut) -> Circuit {
+    Circuit {
+        r_ohm: p.load.r_ohm,
+        l_h: p.load.l_h,
+        back_emf_v: case.back_emf_v,
+        v_bus_v: case.v_bus_v,
+        r_ds_on_ohm: p.load.r_ds_on_ohm,
+        v_sd_v: p.load.v_sd_v,
+        v_f_v: 0.0,
+    }
+}
+
 /// The unipolar wiring the header states: leg B at DUTY_STEPS − compare.
 fn unipolar(regs: &TimerRegisters, compare: u64) -> Stage {
     Stage::HBridge {
@@ -57,15 +70,7 @@ fn unipolar_plan_is_centre_aligned_with_no_line_at_f() {
     assert_eq!(p.pwm.alignment, "centre");
     let regs = registers(&p);
     let rated = &p.cases[0];
-    let c = Circuit {
-        r_ohm: p.load.r_ohm,
-        l_h: p.load.l_h,
-        back_emf_v: rated.back_emf_v,
-        v_bus_v: rated.v_bus_v,
-        r_ds_on_ohm: p.load.r_ds_on_ohm,
-        v_sd_v: p.load.v_sd_v,
-        v_f_v: 0.0,
-    };
+    let c = circuit(&p, rated);
     let v = verify::verify(&regs, &unipolar(&regs, rated.compare), &c).expect("verifies");
     let (f1, f2) = (v.harmonic_rms_a(1), v.harmonic_rms_a(2));
     assert!(f1 < 1e-6 * f2, "line at f {f1} A against 2f {f2} A");
@@ -102,15 +107,7 @@ fn needed_duty_makes_up_the_dead_time() {
     let p = plan_json(&fixture(), &["--at", "24 kHz"]);
     let regs = registers(&p);
     let rated = &p.cases[0];
-    let c = Circuit {
-        r_ohm: p.load.r_ohm,
-        l_h: p.load.l_h,
-        back_emf_v: rated.back_emf_v,
-        v_bus_v: rated.v_bus_v,
-        r_ds_on_ohm: p.load.r_ds_on_ohm,
-        v_sd_v: p.load.v_sd_v,
-        v_f_v: 0.0,
-    };
+    let c = circuit(&p, rated);
     let steps = regs.duty_steps() as f64;
     let mean_at = |duty: f64| {
         let compare = (duty * steps).round() as u64;

@@ -1,7 +1,8 @@
 //! Bootstrap supply of a high-side gate driver.
 //!
-//! Owns: the minimum bootstrap capacitor from the charge drawn per period and the
-//! highest duty that still leaves the low side on long enough to refresh it.
+//! Owns: the minimum bootstrap capacitor from the charge drawn per period. The
+//! compare limit that leaves the low side on long enough to refresh it, after the
+//! dead time, is the timer module's (`timer::duty_limits`).
 
 /// Inputs of the bootstrap sizing.
 #[derive(Debug, Clone, PartialEq)]
@@ -69,16 +70,6 @@ pub fn bootstrap_sizing(inp: &BootstrapInputs) -> Option<BootstrapSizing> {
     out.c_recommended_f.is_finite().then_some(out)
 }
 
-/// Highest duty that leaves the low side on for `t_refresh_s` each period:
-/// D_max = 1 − t_refresh·f (the bootstrap report above, 2018; from memory: the low
-/// side must conduct `t_refresh` of every period `1/f`). `None` when no duty is left
-/// (the bootstrap cannot refresh) or inputs are invalid; 100 % duty needs a
-/// charge pump.
-pub fn max_duty_from_refresh(t_refresh_s: f64, f_sw_hz: f64) -> Option<f64> {
-    let d = 1.0 - t_refresh_s * f_sw_hz;
-    (d.is_finite() && t_refresh_s >= 0.0 && f_sw_hz > 0.0 && d > 0.0).then_some(d)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -116,11 +107,9 @@ mod tests {
         assert_eq!(s.c_recommended_f, s.c_min_f);
     }
 
-    /// Refresh: 2 µs at 20 kHz leaves 96 %; 60 µs leaves nothing.
+    /// No droop allowance: no capacitor can be sized.
     #[test]
-    fn refresh_limits_duty() {
-        assert!((max_duty_from_refresh(2e-6, 20e3).unwrap() - 0.96).abs() < 1e-12);
-        assert_eq!(max_duty_from_refresh(60e-6, 20e3), None);
+    fn zero_droop_is_refused() {
         let mut bad = inputs();
         bad.delta_v_v = 0.0;
         assert_eq!(bootstrap_sizing(&bad), None);

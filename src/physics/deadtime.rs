@@ -3,8 +3,9 @@
 //! Owns: the minimum dead time from switching times (*How to calculate and
 //! minimize the dead time requirement for IGBTs properly*, application note,
 //! 2007; title and year, author not checked; "the dead-time note" below; from
-//! memory), the output-voltage error it causes and the duty range it leaves.
-//! Rounding up to the timer's encodable dead time belongs to the timer module.
+//! memory) and the output-voltage error it causes. The duty range a dead time
+//! leaves (after the dead time, with the minimum pulse and the bootstrap refresh)
+//! and the rounding up to an encodable dead time belong to the timer module.
 
 use super::params::{GateDrive, Topology};
 use super::switching::Transitions;
@@ -95,15 +96,6 @@ pub fn dead_time_voltage_error_v(
     legs * t_dead_s * f_sw_hz * v_bus_v
 }
 
-/// Duty range left by the dead time of a complementary leg: each switch loses
-/// t_dead per period, so a commanded duty below t_dead·f gives no high-side
-/// pulse and above 1 − t_dead·f no low-side pulse (common practice). Returns
-/// `(d_min, d_max)`, or `None` when 2·t_dead·f ≥ 1 or inputs are invalid.
-pub fn duty_limits(t_dead_s: f64, f_sw_hz: f64) -> Option<(f64, f64)> {
-    let x = t_dead_s * f_sw_hz;
-    (x.is_finite() && x >= 0.0 && 2.0 * x < 1.0).then_some((x, 1.0 - x))
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -135,9 +127,9 @@ mod tests {
     }
 
     /// Voltage error: 500 ns at 20 kHz on 24 V is 0.24 V per leg, 0.48 V across
-    /// an H-bridge (Mohan §8-7 form, by hand); duty limits 0.01..0.99.
+    /// an H-bridge (Mohan §8-7 form, by hand).
     #[test]
-    fn voltage_error_and_duty_limits() {
+    fn voltage_error_by_hand() {
         let e = dead_time_voltage_error_v(Topology::HalfBridge, 500e-9, 20e3, 24.0);
         assert!((e - 0.24).abs() < 1e-12);
         let e2 = dead_time_voltage_error_v(
@@ -151,8 +143,5 @@ mod tests {
             dead_time_voltage_error_v(Topology::LowSide, 500e-9, 20e3, 24.0),
             0.0
         );
-        let (lo, hi) = duty_limits(500e-9, 20e3).unwrap();
-        assert!((lo - 0.01).abs() < 1e-15 && (hi - 0.99).abs() < 1e-15);
-        assert_eq!(duty_limits(30e-6, 20e3), None);
     }
 }
