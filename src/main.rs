@@ -2,5 +2,5 @@
 //! status (0 done, 1 infeasible or out of date, 2 bad input).
 
 fn main() -> std::process::ExitCode {
-    pwmplan::cli::main()
+    pwmplan::commands::main()
 }

@@ -7,7 +7,7 @@
 
 use std::fmt;
 
-use crate::locate::Position;
+use crate::input::locate::Position;
 
 /// One problem in one input file.
 #[derive(Debug, Clone, PartialEq, Eq)]

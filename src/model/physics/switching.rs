@@ -708,7 +708,7 @@ pub fn total_gate_charge_c(sw: &SwitchModel, v_drive_v: f64, v_plateau_v: f64) -
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::fixtures::{Lcg, example_drive, example_switch};
+    use crate::model::physics::params::fixtures::{Lcg, example_drive, example_switch};
 
     fn rel(a: f64, b: f64) -> f64 {
         ((a - b) / b).abs()

@@ -1455,7 +1455,7 @@ pub fn sampling_window(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::fixtures::{example_drive, example_switch};
+    use crate::model::physics::params::fixtures::{example_drive, example_switch};
 
     fn rel(a: f64, b: f64) -> f64 {
         ((a - b) / b).abs()

@@ -27,57 +27,57 @@ const FILES: &[(&str, Kind, &str)] = &[
     (
         "boards/belt-feeder.yaml",
         Kind::Design,
-        include_str!("../boards/belt-feeder.yaml"),
+        include_str!("../../boards/belt-feeder.yaml"),
     ),
     (
         "boards/vent-fan.yaml",
         Kind::Design,
-        include_str!("../boards/vent-fan.yaml"),
+        include_str!("../../boards/vent-fan.yaml"),
     ),
     (
         "boards/winch.yaml",
         Kind::Design,
-        include_str!("../boards/winch.yaml"),
+        include_str!("../../boards/winch.yaml"),
     ),
     (
         "boards/pump-bldc.yaml",
         Kind::Design,
-        include_str!("../boards/pump-bldc.yaml"),
+        include_str!("../../boards/pump-bldc.yaml"),
     ),
     (
         "boards/wren-hb24.yaml",
         Kind::Board,
-        include_str!("../boards/wren-hb24.yaml"),
+        include_str!("../../boards/wren-hb24.yaml"),
     ),
     (
         "boards/kite-ls12.yaml",
         Kind::Board,
-        include_str!("../boards/kite-ls12.yaml"),
+        include_str!("../../boards/kite-ls12.yaml"),
     ),
     (
         "boards/heron-hb48.yaml",
         Kind::Board,
-        include_str!("../boards/heron-hb48.yaml"),
+        include_str!("../../boards/heron-hb48.yaml"),
     ),
     (
         "boards/osprey-3p48.yaml",
         Kind::Board,
-        include_str!("../boards/osprey-3p48.yaml"),
+        include_str!("../../boards/osprey-3p48.yaml"),
     ),
     (
         "boards/switches/tarn-40.yaml",
         Kind::Switch,
-        include_str!("../boards/switches/tarn-40.yaml"),
+        include_str!("../../boards/switches/tarn-40.yaml"),
     ),
     (
         "boards/switches/scree-60.yaml",
         Kind::Switch,
-        include_str!("../boards/switches/scree-60.yaml"),
+        include_str!("../../boards/switches/scree-60.yaml"),
     ),
     (
         "boards/switches/corrie-100.yaml",
         Kind::Switch,
-        include_str!("../boards/switches/corrie-100.yaml"),
+        include_str!("../../boards/switches/corrie-100.yaml"),
     ),
 ];
 

@@ -6,12 +6,12 @@
 //! the model never meets a zero inductance, a plateau below the threshold or
 //! an ambient above T_j max.
 
-use crate::bundled::{self, Kind};
-use crate::diagnostic::InputError;
-use crate::load::{self, Origin, SourceFile};
-use crate::physics::three_phase::{self, BackEmfShape, MotorParams, ZeroSequence};
-use crate::spec::*;
-use crate::units::{Dimension, format_quantity};
+use crate::input::bundled::{self, Kind};
+use crate::input::diagnostic::InputError;
+use crate::input::load::{self, Origin, SourceFile};
+use crate::input::spec::*;
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::physics::three_phase::{self, BackEmfShape, MotorParams, ZeroSequence};
 
 /// The engineer's drive with its board and switch, all checked.
 #[derive(Debug, Clone)]
@@ -25,7 +25,7 @@ pub struct Design {
     pub back_emf_v: f64,
     /// Back-EMF constant in V·s/rad, whichever way the motor was described
     /// (brushless: line-to-neutral peak per electrical rad/s, the convention
-    /// of [`crate::physics::three_phase::MotorParams`]).
+    /// of [`crate::model::physics::three_phase::MotorParams`]).
     pub k_e_v_s_per_rad: f64,
     /// Hottest junction allowed by the design's constraint.
     pub t_j_limit_c: f64,
@@ -1110,7 +1110,7 @@ fn check_search_span(
     board_src: &SourceFile,
 ) -> Result<(), InputError> {
     let given = d.constraints.frequency.as_ref().and_then(|f| f.min);
-    let f_min = given.map_or(crate::model::DEFAULT_F_MIN_HZ, |f| f.si);
+    let f_min = given.map_or(crate::model::evaluate::DEFAULT_F_MIN_HZ, |f| f.si);
     let clock = b.timer.clock.si;
     if clock / f_min <= MAX_SEARCH_PRODUCTS {
         return Ok(());

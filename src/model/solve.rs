@@ -7,7 +7,7 @@
 //!
 //! Search: the realisable settings of each allowed alignment are listed as
 //! one per distinct frequency (the one with the most duty steps, see
-//! [`crate::timer::TimerModel::distinct_products_in_band`]). When they are
+//! [`crate::model::timer::TimerModel::distinct_products_in_band`]). When they are
 //! few ([`Search::exhaustive_limit`]) every one is evaluated. Otherwise a
 //! log-spaced grid of realisable settings is evaluated first and then every
 //! realisable setting in the bracket around the best grid point; this finds
@@ -21,10 +21,10 @@ use std::cmp::Ordering;
 
 use serde::Serialize;
 
-use crate::model::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
-use crate::physics::params::{HBridgeModulation, Topology};
-use crate::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
-use crate::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
+use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
+use crate::model::physics::params::{HBridgeModulation, Topology};
+use crate::model::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
+use crate::model::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
 
 /// What the solver optimises.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -124,7 +124,7 @@ pub enum Detail {
     Ripple {
         v_bus_v: f64,
     },
-    Audible(crate::physics::acoustics::AcousticReason),
+    Audible(crate::model::physics::acoustics::AcousticReason),
     DutySteps(u64),
     DutyRange {
         needed: (f64, f64),
@@ -195,7 +195,7 @@ impl DeadTimeChoice {
     /// The smallest dead time the timer encodes at or above `need_s`; when
     /// none is long enough (or the timer has no generator) the need itself,
     /// with no code and the longest encodable value in `max_s`.
-    pub fn encode(timer: &crate::timer::TimerModel, need_s: f64) -> DeadTimeChoice {
+    pub fn encode(timer: &crate::model::timer::TimerModel, need_s: f64) -> DeadTimeChoice {
         let unencoded = |max_s| DeadTimeChoice {
             need_s,
             code: None,
@@ -353,7 +353,7 @@ const EPS: f64 = 1e-9;
 impl Evaluator {
     /// Dead time for a frequency-independent need, encoded by the timer:
     /// the need over the part spreads when known (slowest turn-off against
-    /// fastest turn-on, see [`crate::spread::worst_dead_time_need`]), else
+    /// fastest turn-on, see [`crate::model::spread::worst_dead_time_need`]), else
     /// the rated and high-bus turn-off against turn-on at typical values.
     pub fn dead_time_choice(&self) -> DeadTimeChoice {
         let need = if let Some(worst) = self.dead_time_need_override_s {
@@ -494,10 +494,10 @@ impl Evaluator {
         }
         let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass;
         let (a_limit, a_value) = match &self.audible {
-            crate::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
+            crate::model::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
                 (*hearing_limit_hz, Some(rated.ripple.frequency_hz))
             }
-            crate::physics::acoustics::AudibleMode::AvoidBands { .. } => (
+            crate::model::physics::acoustics::AudibleMode::AvoidBands { .. } => (
                 0.0,
                 Some(
                     rated
@@ -508,7 +508,7 @@ impl Evaluator {
                         as f64,
                 ),
             ),
-            crate::physics::acoustics::AudibleMode::Allowed => (0.0, None),
+            crate::model::physics::acoustics::AudibleMode::Allowed => (0.0, None),
         };
         let mut audible = ConstraintCheck {
             name: "audible",
@@ -525,7 +525,7 @@ impl Evaluator {
             },
         };
         match &self.audible {
-            crate::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
+            crate::model::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
                 // The verdict counts significant lines only: a fundamental
                 // below the limit whose lines are all too weak to hear passes,
                 // and then the distance to the limit is no margin.
@@ -533,11 +533,11 @@ impl Evaluator {
                     .map(|v| v - hearing_limit_hz)
                     .filter(|m| margin_holds(*m, *hearing_limit_hz) == audible_pass);
             }
-            crate::physics::acoustics::AudibleMode::AvoidBands { .. } => {
+            crate::model::physics::acoustics::AudibleMode::AvoidBands { .. } => {
                 audible.unit = "lines";
                 audible.margin = a_value.map(|v| if v == 0.0 { 0.0 } else { -v });
             }
-            crate::physics::acoustics::AudibleMode::Allowed => audible.unit = "",
+            crate::model::physics::acoustics::AudibleMode::Allowed => audible.unit = "",
         }
         checks.push(audible);
         if let Some(bits) = l.min_resolution_bits {
@@ -737,19 +737,19 @@ impl Evaluator {
 }
 
 fn fmt_t(t: f64) -> String {
-    crate::units::format_quantity(t, crate::units::Dimension::Time, 3)
+    crate::input::units::format_quantity(t, crate::input::units::Dimension::Time, 3)
 }
 
 fn fmt_v(v: f64) -> String {
-    crate::units::format_quantity(v, crate::units::Dimension::Voltage, 3)
+    crate::input::units::format_quantity(v, crate::input::units::Dimension::Voltage, 3)
 }
 
 fn fmt_c(t_c: f64) -> String {
-    crate::units::format_quantity(t_c, crate::units::Dimension::Temperature, 3)
+    crate::input::units::format_quantity(t_c, crate::input::units::Dimension::Temperature, 3)
 }
 
 fn fmt_a(i_a: f64) -> String {
-    crate::units::format_quantity(i_a, crate::units::Dimension::Current, 3)
+    crate::input::units::format_quantity(i_a, crate::input::units::Dimension::Current, 3)
 }
 
 /// A check that `value` stays at or below `limit`.
@@ -1186,8 +1186,8 @@ fn candidate_at_frequency(judge: &Judge, s: &PwmSetting) -> (Option<Candidate>, 
 fn same_frequency_settings(ev: &Evaluator, s: &PwmSetting) -> Vec<PwmSetting> {
     let product = s.divider * s.period_ticks;
     let dividers: Vec<u64> = match &ev.timer.prescaler {
-        crate::timer::Prescaler::Ratios { ratios } => ratios.clone(),
-        crate::timer::Prescaler::Linear {
+        crate::model::timer::Prescaler::Ratios { ratios } => ratios.clone(),
+        crate::model::timer::Prescaler::Linear {
             min_divider,
             max_divider,
             ..
@@ -1686,7 +1686,7 @@ fn explain_conflict(
 }
 
 fn fmt_f(f: f64) -> String {
-    crate::units::format_quantity(f, crate::units::Dimension::Frequency, 4)
+    crate::input::units::format_quantity(f, crate::input::units::Dimension::Frequency, 4)
 }
 
 /// Evaluate the realisable setting nearest `f_hz` (for `plan --at`).

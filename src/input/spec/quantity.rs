@@ -8,7 +8,7 @@ use std::marker::PhantomData;
 use serde::Deserialize;
 use serde::de::{self, Deserializer, MapAccess, Visitor};
 
-use crate::units::{Dimension, UnitError, parse_any, parse_quantity};
+use crate::input::units::{Dimension, UnitError, parse_any, parse_quantity};
 
 /// A dimension known at compile time.
 pub trait Dim: Copy + Clone + fmt::Debug + PartialEq + 'static {

@@ -22,14 +22,14 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use crate::design::Design;
-use crate::model::{CaseResult, Evaluator, OperatingCase};
-use crate::physics::deadtime::{self, DeadTimeInputs};
-use crate::physics::{switching, thermal};
-use crate::solve::{DeadTimeChoice, Setting};
-use crate::spec::{Dim, DistributionSpec, Spread};
-use crate::timer::{self, Alignment, DutyLimits, PwmSetting};
-use crate::units::{Dimension, format_quantity};
+use crate::input::design::Design;
+use crate::input::spec::{Dim, DistributionSpec, Spread};
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase};
+use crate::model::physics::deadtime::{self, DeadTimeInputs};
+use crate::model::physics::{switching, thermal};
+use crate::model::solve::{DeadTimeChoice, Setting};
+use crate::model::timer::{self, Alignment, DutyLimits, PwmSetting};
 
 // ---------------------------------------------------------------- parameters
 
@@ -237,7 +237,7 @@ pub fn spreads(d: &Design, ev: &Evaluator) -> Spreads {
     let m = &ev.stage.switch;
     let drive = &ev.stage.drive;
     let tol = d.spec.tolerances.clone().unwrap_or_default();
-    let share = |q: Option<crate::spec::Q<crate::spec::Ratio>>| q.map(|q| q.si);
+    let share = |q: Option<crate::input::spec::Q<crate::input::spec::Ratio>>| q.map(|q| q.si);
     let s = &d.spec;
     let ranges = vec![
         datasheet_range(
@@ -332,7 +332,7 @@ fn scale(value: f64, typ: f64) -> f64 {
 ///   same input capacitance), so Q_gs2 = Q_gs − Q_g(th) stays positive.
 /// - V_th: a datasheet plateau moves with the threshold, since
 ///   V_plt = V_th + I/g_fs (the gate-charge note, see
-///   [`crate::physics::switching`]).
+///   [`crate::model::physics::switching`]).
 pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     let (b, s) = (&base.stage.switch, &mut out.stage.switch);
     let v = |p: Param| x[p as usize];
@@ -1039,9 +1039,9 @@ fn hot_points(s: &Spreads, both: &[Param]) -> Vec<(String, Values)> {
 
 /// The slowest turn-off: t_off = t_d(off) + t_rv + t_fi with
 /// t_d(off) = R_off·C_iss·ln(V_drv/V_plt) (from memory, as in
-/// [`crate::physics::switching`]), t_rv = Q_gd·R_off/V_plt and
+/// [`crate::model::physics::switching`]), t_rv = Q_gd·R_off/V_plt and
 /// t_fi = Q_gs2·R_off/V_plt (gate-charge model: Graovac, Pürschel, Kiep,
-/// 2006; L. Balogh, 2002; sources in [`crate::physics::switching`]). Every
+/// 2006; L. Balogh, 2002; sources in [`crate::model::physics::switching`]). Every
 /// term grows with R_off = R_sink + R_g,ext,off + R_g,int and falls as the
 /// plateau rises, and V_plt = V_th + I/g_fs (the gate-charge note, 2016), so
 /// the slowest turn-off takes max R_sink, max R_g,int, max Q_gd, max Q_gs,

@@ -8,7 +8,7 @@
 use super::params::{DiodeModel, GateDrive, SwitchModel, ThermalPath, Topology};
 use super::switching;
 use super::thermal;
-use crate::units::{Dimension, format_quantity};
+use crate::input::units::{Dimension, format_quantity};
 
 /// A quantity in a finding's words, through the one formatter of `units`
 /// (three significant digits, engineering prefix, the same symbols as every
@@ -333,7 +333,7 @@ pub fn check_all(inp: &RatingInputs<'_>) -> Vec<Finding> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::fixtures::{example_drive, example_switch};
+    use crate::model::physics::params::fixtures::{example_drive, example_switch};
 
     fn codes(f: &[Finding]) -> Vec<&'static str> {
         f.iter().map(|x| x.code).collect()

@@ -105,7 +105,7 @@ pub enum RunawayReason {
 
 /// A temperature in words, through the one formatter of `units`.
 fn celsius(t_c: f64) -> String {
-    crate::units::format_quantity(t_c, crate::units::Dimension::Temperature, 3)
+    crate::input::units::format_quantity(t_c, crate::input::units::Dimension::Temperature, 3)
 }
 
 impl std::fmt::Display for RunawayReason {
@@ -378,7 +378,9 @@ pub fn stage_junction_temperatures(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::fixtures::{Lcg, example_drive, example_switch, triangular_load};
+    use crate::model::physics::params::fixtures::{
+        Lcg, example_drive, example_switch, triangular_load,
+    };
 
     /// Computed regression case (regression value, worked out from the
     /// formula, not an external check): I_rms² 60.45 A², R25 5 mΩ, linear

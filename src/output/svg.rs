@@ -11,9 +11,9 @@
 
 use std::fmt::Write as _;
 
-use crate::model::LossFigures;
-use crate::sweep::SweepRow;
-use crate::units::{Dimension, format_quantity};
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::LossFigures;
+use crate::model::sweep::SweepRow;
 
 /// The SVG namespace, needed by a standalone `.svg` file; the HTML report
 /// strips it (inline SVG in HTML5 is in that namespace already).

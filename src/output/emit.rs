@@ -14,8 +14,8 @@ use handlebars::Handlebars;
 use heck::{ToShoutySnakeCase, ToSnakeCase};
 use serde::Serialize;
 
-use crate::plan::{Plan, sha256_hex};
-use crate::units::{Dimension, format_quantity};
+use crate::input::units::{Dimension, format_quantity};
+use crate::output::plan::{Plan, sha256_hex};
 
 /// Where the content hash goes; replaced by the real hash when sealed.
 pub const MARKER_PLACEHOLDER: &str =
@@ -26,15 +26,15 @@ const MARKER_PREFIX: &str = "pwmplan-hash:";
 pub const BUNDLED_TEMPLATES: &[(&str, &str)] = &[
     (
         "c_header.h.hbs",
-        include_str!("../templates/c_header.h.hbs"),
+        include_str!("../../templates/c_header.h.hbs"),
     ),
     (
         "rust_module.rs.hbs",
-        include_str!("../templates/rust_module.rs.hbs"),
+        include_str!("../../templates/rust_module.rs.hbs"),
     ),
     (
         "rationale.md.hbs",
-        include_str!("../templates/rationale.md.hbs"),
+        include_str!("../../templates/rationale.md.hbs"),
     ),
 ];
 
@@ -692,7 +692,7 @@ fn worst_case_rows(plan: &Plan) -> Vec<Row> {
 }
 
 /// The three-phase summary line: modulation, operating point, channels.
-fn three_phase_summary(tp: &crate::plan::ThreePhaseOut) -> String {
+fn three_phase_summary(tp: &crate::output::plan::ThreePhaseOut) -> String {
     let how = match (&tp.zero_sequence, &tp.chop) {
         (Some(z), _) => format!("{}, zero sequence {z}", tp.modulation),
         (_, Some(c)) => format!("{}, {c} chopping", tp.modulation),
@@ -1108,8 +1108,8 @@ impl Templates {
                             d.display()
                         )));
                     }
-                    let text = crate::load::read_text(&p, "a template file").map_err(
-                        |crate::load::ReadRefusal(why, _)| {
+                    let text = crate::input::load::read_text(&p, "a template file").map_err(
+                        |crate::input::load::ReadRefusal(why, _)| {
                             refuse(if why == "no such file" {
                                 format!(
                                     "missing; a template folder must hold all of {}",
@@ -1277,7 +1277,7 @@ fn bundled_names() -> String {
 /// Everything `plan` writes for a feasible plan.
 pub fn generate(
     plan: &Plan,
-    rows: &[crate::sweep::SweepRow],
+    rows: &[crate::model::sweep::SweepRow],
     fpu: bool,
     c: bool,
     rust: bool,
@@ -1312,10 +1312,14 @@ pub fn generate(
         .iter()
         .find(|k| k.name == "ripple")
         .map(|k| k.limit);
-    let loss_svg = crate::svg::loss_plot_svg(rows, chosen, plan.feasible_band_hz);
-    let thermal_svg =
-        crate::svg::thermal_ripple_plot_svg(rows, plan.thermal.limit_c, ripple_limit, chosen);
-    let html = crate::html::report_html(plan, &ctx, &loss_svg, &thermal_svg);
+    let loss_svg = crate::output::svg::loss_plot_svg(rows, chosen, plan.feasible_band_hz);
+    let thermal_svg = crate::output::svg::thermal_ripple_plot_svg(
+        rows,
+        plan.thermal.limit_c,
+        ripple_limit,
+        chosen,
+    );
+    let html = crate::output::html::report_html(plan, &ctx, &loss_svg, &thermal_svg);
     files.push(GeneratedFile {
         name: "loss.svg".into(),
         text: svg_with_marker(&loss_svg),

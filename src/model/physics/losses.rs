@@ -635,8 +635,10 @@ fn assemble(parts: Vec<(DeviceLoss, Option<GateDriveLoss>)>) -> StageLosses {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::RdsOnTemperature;
-    use crate::physics::params::fixtures::{Lcg, example_drive, example_switch, triangular_load};
+    use crate::model::physics::params::RdsOnTemperature;
+    use crate::model::physics::params::fixtures::{
+        Lcg, example_drive, example_switch, triangular_load,
+    };
 
     fn close(a: f64, b: f64, tol: f64) -> bool {
         (a - b).abs() <= tol * b.abs().max(1e-30)

@@ -99,9 +99,9 @@ pub fn dead_time_voltage_error_v(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::params::HBridgeModulation;
-    use crate::physics::params::fixtures::{example_drive, example_switch};
-    use crate::physics::switching::transitions;
+    use crate::model::physics::params::HBridgeModulation;
+    use crate::model::physics::params::fixtures::{example_drive, example_switch};
+    use crate::model::physics::switching::transitions;
 
     /// Our form (the published one plus the fall time) by hand:
     /// (400 + 200 − 100 + 50) ns × 1.2 = 660 ns.

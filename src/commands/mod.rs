@@ -11,18 +11,18 @@ use std::time::{Duration, Instant};
 
 use clap::{Parser, Subcommand};
 
-use crate::bundled::{self, Kind};
-use crate::design::{Design, load_design};
-use crate::diagnostic::InputError;
-use crate::emit::{self, EmitError, GeneratedFile, Templates};
-use crate::load::{Origin, SourceFile};
-use crate::model::Evaluator;
-use crate::plan::{self, Plan};
-use crate::report;
-use crate::solve::{self, Objective};
-use crate::spec::{BoardFile, DesignFile, ObjectiveSpec, SwitchFile};
-use crate::sweep;
-use crate::units::{Dimension, parse_quantity};
+use crate::input::bundled::{self, Kind};
+use crate::input::design::{Design, load_design};
+use crate::input::diagnostic::InputError;
+use crate::input::load::{Origin, SourceFile};
+use crate::input::spec::{BoardFile, DesignFile, ObjectiveSpec, SwitchFile};
+use crate::input::units::{Dimension, parse_quantity};
+use crate::model::evaluate::Evaluator;
+use crate::model::solve::{self, Objective};
+use crate::model::sweep;
+use crate::output::emit::{self, EmitError, GeneratedFile, Templates};
+use crate::output::plan::{self, Plan};
+use crate::output::report;
 
 #[derive(Debug, Parser)]
 #[command(
@@ -272,7 +272,7 @@ pub fn solve_design(
     }
     let objective = objective_of(&design);
     let corners = if worst_case {
-        crate::spread::corner_evaluators(&design, &ev)
+        crate::model::spread::corner_evaluators(&design, &ev)
     } else {
         Vec::new()
     };
@@ -305,7 +305,7 @@ pub fn solve_design(
         }
     })?;
     let mut plan = plan;
-    plan.register_check = crate::register_check::check_solution(&design, &ev, &solution);
+    plan.register_check = crate::model::register_check::check_solution(&design, &ev, &solution);
     if !plan.register_check.disagreements.is_empty() {
         return Err(Failure::Internal(format!(
             "the registers this plan would write do not do what its model says, so nothing was written; please report it with the input files:\n  {}",
@@ -336,7 +336,7 @@ fn parse_frequency(text: &str, option: &str) -> Result<f64, Failure> {
 }
 
 fn fmt_hz(f: f64) -> String {
-    crate::units::format_quantity(f, Dimension::Frequency, 4)
+    crate::input::units::format_quantity(f, Dimension::Frequency, 4)
 }
 
 fn objective_of(d: &Design) -> Objective {
@@ -581,7 +581,8 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 .collect();
             let rows = sweep::sweep(ev, &sweep::log_space(from, to, points), chosen);
             if let Some(path) = &svg {
-                let plot = crate::svg::loss_plot_svg(&rows, chosen, solved.plan.feasible_band_hz);
+                let plot =
+                    crate::output::svg::loss_plot_svg(&rows, chosen, solved.plan.feasible_band_hz);
                 write_atomically(path, plot.as_bytes())?;
             }
             if json {
@@ -628,9 +629,9 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
             let base = load(design.as_deref())?;
             let mut entries = Vec::new();
             for arg in &switches {
-                let origin = crate::design::switch_origin(arg)?;
-                let (spec, src) = crate::design::load_switch(origin)?;
-                let d = crate::design::with_switch(&base, spec, src)?;
+                let origin = crate::input::design::switch_origin(arg)?;
+                let (spec, src) = crate::input::design::load_switch(origin)?;
+                let d = crate::input::design::with_switch(&base, spec, src)?;
                 let ev = Evaluator::new(&d);
                 let sol = solve::solve(&ev, objective_of(&d));
                 // Column label: the file's stem (names are long).
@@ -687,7 +688,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 Failure::Usage("the chosen setting could not be evaluated again".into())
             })?;
             let mut bar = ProgressDisplay::new();
-            let mc = crate::spread::monte_carlo_with_progress(
+            let mc = crate::model::spread::monte_carlo_with_progress(
                 d,
                 ev,
                 &c.setting,
@@ -697,7 +698,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 &mut |a, b| bar.update(a, b),
             );
             bar.finish();
-            let wc = crate::spread::worst_case(d, ev, &c.setting, &c.dead_time);
+            let wc = crate::model::spread::worst_case(d, ev, &c.setting, &c.dead_time);
             if json {
                 let mut text = serde_json::to_string_pretty(
                     &serde_json::json!({ "worst_case": wc, "monte_carlo": mc }),
@@ -706,7 +707,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
                 text.push('\n');
                 write_text(out, &text)?;
             } else {
-                write_text(out, &crate::spread::text_report(&mc, &wc))?;
+                write_text(out, &crate::model::spread::text_report(&mc, &wc))?;
             }
             if !solved.feasible {
                 let mut note = report::infeasible_text(&solved.plan);
@@ -742,9 +743,9 @@ fn read_output(path: &Path) -> Result<Option<String>, String> {
         Err(e) => Err(e.to_string()),
         Ok(m) if m.file_type().is_symlink() => Err("it is a symbolic link".into()),
         Ok(m) if !m.is_file() => Err("it is not a regular file".into()),
-        Ok(_) => crate::load::read_text(path, "a file pwmplan wrote")
+        Ok(_) => crate::input::load::read_text(path, "a file pwmplan wrote")
             .map(Some)
-            .map_err(|crate::load::ReadRefusal(why, _)| why),
+            .map_err(|crate::input::load::ReadRefusal(why, _)| why),
     }
 }
 
@@ -1043,10 +1044,10 @@ fn list_bundled() -> Result<String, Failure> {
 
 /// What `pwmplan new` writes: the half-bridge starter (the default), and
 /// one per other topology.
-const STARTER_DESIGN: &str = include_str!("../templates/starter-design.yaml");
-const STARTER_H_BRIDGE: &str = include_str!("../templates/starter-h-bridge.yaml");
-const STARTER_LOW_SIDE: &str = include_str!("../templates/starter-low-side.yaml");
-const STARTER_THREE_PHASE: &str = include_str!("../templates/starter-three-phase.yaml");
+const STARTER_DESIGN: &str = include_str!("../../templates/starter-design.yaml");
+const STARTER_H_BRIDGE: &str = include_str!("../../templates/starter-h-bridge.yaml");
+const STARTER_LOW_SIDE: &str = include_str!("../../templates/starter-low-side.yaml");
+const STARTER_THREE_PHASE: &str = include_str!("../../templates/starter-three-phase.yaml");
 
 /// The emitted constants (C `#define`s, or Rust `pub const`s when no
 /// header is written) that differ between the files in `dir` and the

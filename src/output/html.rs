@@ -9,15 +9,15 @@
 //! fonts, no `url(…)`). The markup is also well-formed XML (void elements
 //! self-closed, no named entities), so it can be checked with an XML
 //! parser. The content-hash placeholder appears once, in a comment, for
-//! [`crate::emit::seal`].
+//! [`crate::output::emit::seal`].
 
 use std::fmt::Write as _;
 
-use crate::emit::{Context, MARKER_PLACEHOLDER, Row};
-use crate::model::LossFigures;
-use crate::plan::Plan;
-use crate::svg::{SVG_NAMESPACE_ATTR, escape, loss_colour};
-use crate::units::{Dimension, format_quantity};
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::LossFigures;
+use crate::output::emit::{Context, MARKER_PLACEHOLDER, Row};
+use crate::output::plan::Plan;
+use crate::output::svg::{SVG_NAMESPACE_ATTR, escape, loss_colour};
 
 const STYLE: &str = r#"
 :root { --ink: #1d1d1f; --muted: #5a5a60; --rule: #d6d6db; --band: #f5f5f7;
@@ -431,7 +431,7 @@ fn conventions(out: &mut String, ctx: &Context) {
 }
 
 /// The report page. `loss_svg` and `thermal_svg` are the outputs of
-/// [`crate::svg::loss_plot_svg`] and [`crate::svg::thermal_ripple_plot_svg`];
+/// [`crate::output::svg::loss_plot_svg`] and [`crate::output::svg::thermal_ripple_plot_svg`];
 /// the page carries [`MARKER_PLACEHOLDER`] once, in a comment, for sealing.
 pub fn report_html(plan: &Plan, ctx: &Context, loss_svg: &str, thermal_svg: &str) -> String {
     let mut out = String::new();

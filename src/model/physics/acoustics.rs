@@ -459,7 +459,7 @@ pub fn assess(
 
 /// A frequency as people read it ("20.0 kHz").
 fn hz(f: f64) -> String {
-    crate::units::format_quantity(f, crate::units::Dimension::Frequency, 4)
+    crate::input::units::format_quantity(f, crate::input::units::Dimension::Frequency, 4)
 }
 
 /// Verdict from a given set of lines (the lowest line is taken from the lines, never assumed).
@@ -517,7 +517,7 @@ pub fn assess_lines(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::physics::ripple::{Drive, MotorLoad, steady_state};
+    use crate::model::physics::ripple::{Drive, MotorLoad, steady_state};
 
     fn load(r_ohm: f64, l_h: f64, back_emf_v: f64) -> MotorLoad {
         MotorLoad {

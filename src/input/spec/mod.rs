@@ -6,7 +6,7 @@
 //! board it uses, supply, motor, ambient, constraints, objective). Every
 //! struct denies unknown fields; every dimensioned value is a [`Q`] or
 //! [`Spread`] text with its unit. Cross-field checks live in
-//! [`crate::design`], not here.
+//! [`crate::input::design`], not here.
 
 pub mod quantity;
 

@@ -9,15 +9,17 @@ use std::collections::BTreeMap;
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
-use crate::design::Design;
-use crate::model::{self, DeviceFigures, Evaluator, LossFigures, ThreePhaseCase};
-use crate::physics::acoustics::AudibleMode;
-use crate::physics::bootstrap::{self, BootstrapInputs};
-use crate::physics::deadtime;
-use crate::physics::params::Topology;
-use crate::solve::{Candidate, Objective, Solution};
-use crate::spec::{HighSideSupplySpec, TopologySpec, WorstCasePolicySpec};
-use crate::units::{Dimension, format_quantity};
+use crate::input::design::Design;
+use crate::input::spec::{HighSideSupplySpec, TopologySpec, WorstCasePolicySpec};
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::{
+    self as model, DeviceFigures, Evaluator, LossFigures, ThreePhaseCase,
+};
+use crate::model::physics::acoustics::AudibleMode;
+use crate::model::physics::bootstrap::{self, BootstrapInputs};
+use crate::model::physics::deadtime;
+use crate::model::physics::params::Topology;
+use crate::model::solve::{Candidate, Objective, Solution};
 
 /// The conventions behind `timer.*`, stated once (also in the README).
 pub const CONVENTIONS: &[(&str, &str)] = &[
@@ -86,8 +88,8 @@ pub const THREE_PHASE_PWM_MODE: &str = "centre-aligned (up-down) counter; each c
 
 /// The three-phase block of a plan.
 pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
-    use crate::model::ThreePhaseModulation as M;
-    use crate::physics::three_phase::{Chop, ZeroSequence};
+    use crate::model::evaluate::ThreePhaseModulation as M;
+    use crate::model::physics::three_phase::{Chop, ZeroSequence};
     let tp = ev.three_phase.as_ref()?;
     let (modulation, zero_sequence, chop, current_meaning) = match tp.modulation {
         M::Sinusoidal { zero_sequence, .. } => (
@@ -251,8 +253,8 @@ pub struct WorstRow {
     pub pass: bool,
 }
 
-fn worst_case_out(w: &crate::spread::WorstCase) -> WorstCaseOut {
-    let row = |name: &str, v: &crate::spread::WorstValue| WorstRow {
+fn worst_case_out(w: &crate::model::spread::WorstCase) -> WorstCaseOut {
+    let row = |name: &str, v: &crate::model::spread::WorstValue| WorstRow {
         name: name.into(),
         value: v.value,
         limit: v.limit,
@@ -666,8 +668,8 @@ pub struct SearchOut {
 /// How an input file is named in the plan: bundled files by their bundled
 /// name; files on disk relative to the design file's folder, so the record
 /// does not depend on the working directory or on how the path was typed.
-fn record_name(origin: &crate::load::Origin, design: &crate::load::Origin) -> String {
-    use crate::load::Origin;
+fn record_name(origin: &crate::input::load::Origin, design: &crate::input::load::Origin) -> String {
+    use crate::input::load::Origin;
     use std::path::{Component, PathBuf};
     let normal = |p: &std::path::Path| -> PathBuf {
         p.components()
@@ -741,7 +743,7 @@ pub fn topology_name(d: &Design) -> String {
     match (d.board.stage.topology, d.board.stage.modulation) {
         (TopologySpec::LowSide, _) => "low-side".into(),
         (TopologySpec::HalfBridge, _) => "half-bridge".into(),
-        (TopologySpec::HBridge, Some(crate::spec::ModulationSpec::Bipolar)) => {
+        (TopologySpec::HBridge, Some(crate::input::spec::ModulationSpec::Bipolar)) => {
             "h-bridge-bipolar".into()
         }
         (TopologySpec::HBridge, _) => "h-bridge-unipolar".into(),
@@ -949,8 +951,8 @@ pub fn cases_out(c: &Candidate) -> Vec<CaseOut> {
             back_emf_v: r.case.back_emf_v,
             modulation: r.modulation,
             compare_duty: r.compare_duty,
-            compare: crate::timer::compare_for_duty(
-                &crate::spread::pwm_setting(&c.setting),
+            compare: crate::model::timer::compare_for_duty(
+                &crate::model::spread::pwm_setting(&c.setting),
                 r.compare_duty,
             ),
             losses_w: r.losses.clone(),
@@ -980,7 +982,7 @@ pub fn hearing_limit_hz(ev: &Evaluator) -> f64 {
         | AudibleMode::AvoidBands {
             hearing_limit_hz, ..
         } => *hearing_limit_hz,
-        AudibleMode::Allowed => crate::physics::acoustics::DEFAULT_HEARING_LIMIT_HZ,
+        AudibleMode::Allowed => crate::model::physics::acoustics::DEFAULT_HEARING_LIMIT_HZ,
     }
 }
 
@@ -1000,7 +1002,12 @@ pub fn build_on(
     worst_case_basis: bool,
 ) -> Option<Plan> {
     let c = sol.chosen.as_ref()?;
-    let worst = worst_case_out(&crate::spread::worst_case(d, ev, &c.setting, &c.dead_time));
+    let worst = worst_case_out(&crate::model::spread::worst_case(
+        d,
+        ev,
+        &c.setting,
+        &c.dead_time,
+    ));
     let findings = findings(d, ev, c, &worst, worst_case_basis);
     // Infeasibility is data: every error finding blocks the plan and is
     // named as a reason.
@@ -1031,7 +1038,7 @@ pub fn build_on(
         generated: format!(
             "pwmplan {} {}",
             env!("CARGO_PKG_VERSION"),
-            crate::emit::MARKER_PLACEHOLDER
+            crate::output::emit::MARKER_PLACEHOLDER
         ),
         design: d.spec.name.clone(),
         board: d.board.name.clone(),

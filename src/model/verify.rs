@@ -81,7 +81,7 @@
 //! taken with the new period's compare (assumption). Two phases blocked at once (deep
 //! discontinuous conduction) is refused, not simulated.
 
-use crate::timer::Alignment;
+use crate::model::timer::Alignment;
 use std::fmt;
 
 /// Fixed-point iterations before the solver gives up (bisection alone needs ~110 on `f64`).

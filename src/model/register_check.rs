@@ -1,5 +1,5 @@
 //! The plan's claims checked on the registers it writes, by the register-level verifier
-//! ([`crate::verify`]), before anything is written.
+//! ([`crate::model::verify`]), before anything is written.
 //!
 //! Owns: reading a [`Plan`] record as a firmware engineer would (divider, period, alignment,
 //! dead time, compare limits, the compare at each operating case, the load and drops it
@@ -21,14 +21,14 @@
 //! **Invariant:** pure; a disagreement is data ([`RegisterCheck::disagreements`]), the caller
 //! decides (the command line refuses to write the plan).
 
-use crate::design::Design;
-use crate::model::Evaluator;
-use crate::plan::{
+use crate::input::design::Design;
+use crate::model::evaluate::Evaluator;
+use crate::model::solve::{Candidate, Solution};
+use crate::model::timer::Alignment;
+use crate::model::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verification};
+use crate::output::plan::{
     self, CaseCheck, CaseOut, LoadOut, Plan, Pwm, RegisterCheck, SamplingPlan, TimerOut,
 };
-use crate::solve::{Candidate, Solution};
-use crate::timer::Alignment;
-use crate::verify::{self, Circuit, LegCompare, Stage, TimerRegisters, Verification};
 
 /// Agreement required between the plan and the verifier (bounds of our own choice).
 pub struct Tolerances {

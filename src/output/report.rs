@@ -1,9 +1,9 @@
 //! The terminal report of `plan`, and the "what changed" summary between
 //! two plans.
 
-use crate::emit::Context;
-use crate::plan::Plan;
-use crate::units::{Dimension, format_quantity};
+use crate::input::units::{Dimension, format_quantity};
+use crate::output::emit::Context;
+use crate::output::plan::Plan;
 
 /// The report `plan` prints: the rationale block without the input hashes.
 pub fn plan_text(ctx: &Context) -> String {
@@ -474,8 +474,8 @@ fn mw(w: f64) -> String {
 /// The sweep as two tables that each fit 80 columns: settings with the
 /// constraint figures, then the loss split. Row marks: `*` the chosen
 /// setting, `+` feasible, blank infeasible.
-pub fn sweep_table(rows: &[crate::sweep::SweepRow], style: Style) -> String {
-    let mark = |r: &crate::sweep::SweepRow| {
+pub fn sweep_table(rows: &[crate::model::sweep::SweepRow], style: Style) -> String {
+    let mark = |r: &crate::model::sweep::SweepRow| {
         if r.chosen {
             '*'
         } else if r.feasible {
@@ -484,7 +484,7 @@ pub fn sweep_table(rows: &[crate::sweep::SweepRow], style: Style) -> String {
             ' '
         }
     };
-    let paint_row = |r: &crate::sweep::SweepRow, line: String| {
+    let paint_row = |r: &crate::model::sweep::SweepRow, line: String| {
         if r.chosen {
             style.paint("1;32", &line)
         } else if !r.feasible {
@@ -573,7 +573,7 @@ fn short_constraint(name: &str) -> &str {
 }
 
 /// The sweep as CSV: one header line, SI units in the column names.
-pub fn sweep_csv(rows: &[crate::sweep::SweepRow]) -> String {
+pub fn sweep_csv(rows: &[crate::model::sweep::SweepRow]) -> String {
     let mut out = String::from(
         "requested_hz,frequency_hz,alignment,divider,period_ticks,resolution_bits,conduction_w,switching_w,output_capacitance_w,reverse_recovery_w,dead_time_diode_w,gate_drive_w,freewheel_diode_w,motor_ripple_copper_w,total_w,junction_c,junction_high_bus_c,ripple_pp_a,lowest_audible_line_hz,a_weighted_db,feasible,chosen,failing\n",
     );
@@ -819,7 +819,7 @@ mod tests {
     #[test]
     fn figures_beyond_the_threshold_are_listed() {
         let old: Plan = serde_json::from_str(include_str!(
-            "../tests/golden/belt-feeder/expected/plan.json"
+            "../../tests/golden/belt-feeder/expected/plan.json"
         ))
         .expect("the golden plan parses");
         let mut new = old.clone();

@@ -9,9 +9,9 @@ use std::path::{Component, Path, PathBuf};
 use serde::Deserialize;
 use serde::de::DeserializeOwned;
 
-use crate::bundled;
-use crate::diagnostic::{InputError, did_you_mean, suggest_field};
-use crate::locate::{Locator, Position};
+use crate::input::bundled;
+use crate::input::diagnostic::{InputError, did_you_mean, suggest_field};
+use crate::input::locate::{Locator, Position};
 
 /// Where a file comes from.
 #[derive(Debug, Clone, PartialEq, Eq)]

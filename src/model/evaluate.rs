@@ -7,24 +7,24 @@
 
 use serde::{Deserialize, Serialize};
 
-use crate::design::Design;
-use crate::physics::acoustics::{self, AcousticVerdict, AudibleMode, Significance};
-use crate::physics::deadtime::{self, DeadTimeInputs};
-use crate::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents, StageLevels};
-use crate::physics::losses::{self, DeviceRole, StageLosses};
-use crate::physics::params::{
+use crate::input::design::Design;
+use crate::input::spec::*;
+use crate::model::physics::acoustics::{self, AcousticVerdict, AudibleMode, Significance};
+use crate::model::physics::deadtime::{self, DeadTimeInputs};
+use crate::model::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents, StageLevels};
+use crate::model::physics::losses::{self, DeviceRole, StageLosses};
+use crate::model::physics::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
     SwitchModel, ThermalPath, Topology,
 };
-use crate::physics::ratings::{self, Finding, RatingInputs, Severity};
-use crate::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
-use crate::physics::switching;
-use crate::physics::thermal::{self, JunctionTemperature};
-use crate::physics::three_phase::{
+use crate::model::physics::ratings::{self, Finding, RatingInputs, Severity};
+use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
+use crate::model::physics::switching;
+use crate::model::physics::thermal::{self, JunctionTemperature};
+use crate::model::physics::three_phase::{
     self, BackEmfShape, Chop, LossLines, MotorParams, SixStepPoint, ThreePhaseStage, ZeroSequence,
 };
-use crate::spec::*;
-use crate::timer::{
+use crate::model::timer::{
     self, Alignment, CompareLimits, DeadTimeGenerator, DeadTimeSegment, Prescaler, PwmSetting,
     TimerModel,
 };
@@ -344,11 +344,11 @@ fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
     if d.board.stage.topology != TopologySpec::ThreePhase {
         return None;
     }
-    let motor = crate::design::brushless_motor(&d.spec.motor)?;
+    let motor = crate::input::design::brushless_motor(&d.spec.motor)?;
     let sensing = d.board.current_sensing.as_ref()?;
     let modulation = match d.board.stage.modulation? {
         ModulationSpec::Sinusoidal { zero_sequence } => ThreePhaseModulation::Sinusoidal {
-            zero_sequence: crate::design::zero_sequence(zero_sequence),
+            zero_sequence: crate::input::design::zero_sequence(zero_sequence),
             current_advance_rad: d.spec.motor.current_advance_deg.unwrap_or(0.0).to_radians(),
         },
         ModulationSpec::SixStep { chop } => ThreePhaseModulation::SixStep {
@@ -431,7 +431,7 @@ impl Evaluator {
     pub fn new(d: &Design) -> Evaluator {
         let mut ev = Evaluator::with_switch(d, &d.switch);
         ev.dead_time_need_override_s =
-            crate::spread::worst_dead_time_need(d, &ev).map(|(need, _)| need);
+            crate::model::spread::worst_dead_time_need(d, &ev).map(|(need, _)| need);
         ev
     }
 
@@ -705,7 +705,7 @@ pub struct AcousticFigures {
     pub a_weighted_db: Option<f64>,
     pub lines_in_avoided_bands_hz: Vec<f64>,
     pub pass: bool,
-    pub reason: crate::physics::acoustics::AcousticReason,
+    pub reason: crate::model::physics::acoustics::AcousticReason,
 }
 
 impl From<AcousticVerdict> for AcousticFigures {

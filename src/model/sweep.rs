@@ -2,13 +2,13 @@
 //! requested frequency, evaluated like the solver does, one row each.
 //!
 //! **Invariant:** pure; the rows are the same numbers `plan --at` gives at
-//! the same frequency (both go through [`crate::solve::evaluate_at`]).
+//! the same frequency (both go through [`crate::model::solve::evaluate_at`]).
 
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-use crate::model::{Evaluator, LossFigures};
-use crate::solve::{self, Candidate};
+use crate::model::evaluate::{Evaluator, LossFigures};
+use crate::model::solve::{self, Candidate};
 
 /// One row of the sweep.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

@@ -1,0 +1,24 @@
+//! Model: the pure engineering of a checked design.
+//!
+//! Owns the power-stage physics ([`physics`]), the timer's arithmetic
+//! ([`timer`]), the evaluator that turns a `Design` into operating cases and
+//! evaluates one case at one setting ([`evaluate`]), the search ([`solve`]),
+//! part spreads and the Monte Carlo ([`spread`]), the frequency sweep
+//! ([`sweep`]), the register-level verifier ([`verify`]) and the comparison
+//! of its figures with a plan's claims ([`register_check`]).
+//!
+//! Must never: read a file, write a file, print, or format words for a
+//! person (details are data, formatted by `Display` when shown).
+
+pub mod evaluate;
+pub mod physics;
+pub mod register_check;
+pub mod solve;
+pub mod spread;
+pub mod sweep;
+pub mod timer;
+pub mod verify;
+
+// The evaluator was the top-level `model` module; its public names stay
+// reachable as `pwmplan::model::...`.
+pub use evaluate::*;
