@@ -13,6 +13,11 @@ use crate::input::spec::*;
 use crate::input::units::{Dimension, format_quantity};
 use crate::model::physics::three_phase::{self, BackEmfShape, MotorParams, ZeroSequence};
 
+/// Default lower edge of the frequency search when the design gives none
+/// (below this a motor's electrical time constant no longer filters the PWM;
+/// common practice).
+pub const DEFAULT_F_MIN_HZ: f64 = 1_000.0;
+
 /// The engineer's drive with its board and switch, all checked.
 #[derive(Debug, Clone)]
 pub struct Design {
@@ -1110,7 +1115,7 @@ fn check_search_span(
     board_src: &SourceFile,
 ) -> Result<(), InputError> {
     let given = d.constraints.frequency.as_ref().and_then(|f| f.min);
-    let f_min = given.map_or(crate::model::evaluate::DEFAULT_F_MIN_HZ, |f| f.si);
+    let f_min = given.map_or(DEFAULT_F_MIN_HZ, |f| f.si);
     let clock = b.timer.clock.si;
     if clock / f_min <= MAX_SEARCH_PRODUCTS {
         return Ok(());

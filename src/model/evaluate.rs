@@ -153,10 +153,8 @@ pub struct Limits {
     pub f_max_hz: f64,
 }
 
-/// Default lower edge of the frequency search when the design gives none
-/// (below this a motor's electrical time constant no longer filters the PWM;
-/// common practice).
-pub const DEFAULT_F_MIN_HZ: f64 = 1_000.0;
+// The default lower edge is the design's (its checks use it); kept here too.
+pub use crate::input::design::DEFAULT_F_MIN_HZ;
 /// Default upper edge when the design gives none (common practice for
 /// hard-switched silicon motor stages).
 pub const DEFAULT_F_MAX_HZ: f64 = 100_000.0;
@@ -426,14 +424,8 @@ pub fn timer_model(t: &TimerSpec) -> TimerModel {
 }
 
 impl Evaluator {
-    /// Derive the evaluator of a design: typical part values, with the
-    /// dead time sized for the worst pair of devices.
-    pub fn new(d: &Design) -> Evaluator {
-        let mut ev = Evaluator::with_switch(d, &d.switch);
-        ev.dead_time_need_override_s =
-            crate::model::spread::worst_dead_time_need(d, &ev).map(|(need, _)| need);
-        ev
-    }
+    // `Evaluator::new` (typical values, dead time sized over the part
+    // spreads) is in `spread`, which this module must not import.
 
     /// The same design with another switch fitted.
     pub fn with_switch(d: &Design, sw: &SwitchSpec) -> Evaluator {

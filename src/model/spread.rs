@@ -26,8 +26,7 @@ use crate::input::design::Design;
 use crate::input::spec::{Dim, DistributionSpec, Spread};
 use crate::input::units::{Dimension, format_quantity};
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase};
-use crate::model::physics::deadtime::{self, DeadTimeInputs};
-use crate::model::physics::{switching, thermal};
+use crate::model::physics::deadtime::{self, PairDevice};
 use crate::model::solve::{DeadTimeChoice, Setting};
 use crate::model::timer::{self, Alignment, DutyLimits, PwmSetting};
 
@@ -1149,27 +1148,20 @@ pub fn corner_evaluators(d: &Design, ev: &Evaluator) -> Vec<(String, Evaluator)>
 }
 
 /// Dead time the stage needs with `off` turning off against `on` turning
-/// on at `v_bus_v` and the rated current: the mapping of
-/// [`DeadTimeInputs::from_transitions`] with the turn-off times from one
-/// device and the turn-on delay from the other (the published dead-time
-/// form plus the fall time, our own conservative choice; see
-/// [`deadtime::dead_time_need_s`]), R_ds(on) hot at the junction limit as
-/// the solver takes it.
-fn pair_need_s(base: &Evaluator, off: &Evaluator, on: &Evaluator, v_bus_v: f64) -> Option<f64> {
-    let i = base.rated.load_current_a.abs().max(1e-3);
-    let tr = |e: &Evaluator| {
-        let r_hot = thermal::r_ds_on_ohm(&e.stage.switch, e.limits.t_j_max_c);
-        switching::transitions(&e.stage.switch, &e.stage.drive, v_bus_v, i, i, r_hot).ok()
+/// on at `v_bus_v` and the rated current ([`deadtime::pair_need_s`]).
+fn pair_need_s<'a>(
+    base: &Evaluator,
+    off: &'a Evaluator,
+    on: &'a Evaluator,
+    v_bus_v: f64,
+) -> Option<f64> {
+    let device = |e: &'a Evaluator| PairDevice {
+        switch: &e.stage.switch,
+        drive: &e.stage.drive,
+        t_j_max_c: e.limits.t_j_max_c,
     };
-    let slow = tr(off)?;
-    let fast = tr(on)?;
-    deadtime::dead_time_need_s(&DeadTimeInputs {
-        t_d_off_max_s: slow.t_d_off_s,
-        t_f_max_s: slow.t_rv_s + slow.t_fi_s,
-        t_d_on_min_s: fast.t_d_on_s,
-        mismatch_s: off.stage.drive.mismatch_s,
-        margin: base.dead_time_margin,
-    })
+    let i = base.rated.load_current_a.abs().max(1e-3);
+    deadtime::pair_need_s(&device(off), &device(on), i, v_bus_v, base.dead_time_margin)
 }
 
 /// Worst dead-time need: the slowest turn-off against the fastest turn-on
@@ -1184,20 +1176,22 @@ pub fn worst_dead_time_need(d: &Design, ev: &Evaluator) -> Option<(f64, f64)> {
     let off = evaluator_at(ev, &slow_turn_off(&s));
     let on = evaluator_at(ev, &fast_turn_on(&s));
     let sup = s.range(Param::Supply);
-    let mut worst: Option<(f64, f64)> = None;
-    // The need is not monotonic in the supply (the plateau and the Miller
-    // charge both move with it), so a grid of supplies, ends included.
-    let grid: Vec<f64> = (0..=16)
-        .map(|k| sup.low + (sup.high - sup.low) * f64::from(k) / 16.0)
-        .chain([sup.typ])
-        .collect();
-    for v in grid {
-        let need = pair_need_s(ev, &off, &on, v)?;
-        if worst.is_none_or(|(w, _)| need > w) {
-            worst = Some((need, v));
-        }
+    deadtime::worst_need_over_supply(sup.low, sup.typ, sup.high, |v| {
+        pair_need_s(ev, &off, &on, v)
+    })
+}
+
+// The evaluator's constructor lives here, not in `evaluate`: the dead time
+// it fixes is sized over the part spreads, and `evaluate` must not import
+// this module (which builds on it).
+impl Evaluator {
+    /// Derive the evaluator of a design: typical part values, with the
+    /// dead time sized for the worst pair of devices.
+    pub fn new(d: &Design) -> Evaluator {
+        let mut ev = Evaluator::with_switch(d, &d.switch);
+        ev.dead_time_need_override_s = worst_dead_time_need(d, &ev).map(|(need, _)| need);
+        ev
     }
-    worst
 }
 
 /// The dead time to give `Evaluator::candidate` for a worst-case plan: the

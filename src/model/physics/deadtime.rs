@@ -7,8 +7,9 @@
 //! leaves (after the dead time, with the minimum pulse and the bootstrap refresh)
 //! and the rounding up to an encodable dead time belong to the timer module.
 
-use super::params::{GateDrive, Topology};
-use super::switching::Transitions;
+use super::losses::r_ds_on_ohm;
+use super::params::{GateDrive, SwitchModel, Topology};
+use super::switching::{self, Transitions};
 
 /// Safety margin on the dead-time need (the dead-time note uses 1.2; from memory).
 pub const DEFAULT_DEAD_TIME_MARGIN: f64 = 1.2;
@@ -76,6 +77,65 @@ pub fn dead_time_need_s(inp: &DeadTimeInputs) -> Option<f64> {
     }
     let raw = inp.t_d_off_max_s + inp.t_f_max_s - inp.t_d_on_min_s + inp.mismatch_s;
     Some((raw * inp.margin).max(0.0))
+}
+
+/// One device of the worst pair: its model and drive, and the junction
+/// limit its on-resistance is taken at (the hottest, slowest edge).
+#[derive(Debug, Clone, Copy)]
+pub struct PairDevice<'a> {
+    pub switch: &'a SwitchModel,
+    pub drive: &'a GateDrive,
+    pub t_j_max_c: f64,
+}
+
+/// The dead-time need of a slow turn-off (`off`) against a fast turn-on
+/// (`on`) at supply `v_bus_v` and load current `i_a`, from their gate-charge
+/// transitions ([`dead_time_need_s`]); the mismatch is the turn-off driver's.
+/// `None` when a transition or the need does not exist.
+pub fn pair_need_s(
+    off: &PairDevice,
+    on: &PairDevice,
+    i_a: f64,
+    v_bus_v: f64,
+    margin: f64,
+) -> Option<f64> {
+    let tr = |d: &PairDevice| {
+        let r_hot = r_ds_on_ohm(d.switch, d.t_j_max_c);
+        switching::transitions(d.switch, d.drive, v_bus_v, i_a, i_a, r_hot).ok()
+    };
+    let slow = tr(off)?;
+    let fast = tr(on)?;
+    dead_time_need_s(&DeadTimeInputs {
+        t_d_off_max_s: slow.t_d_off_s,
+        t_f_max_s: slow.t_rv_s + slow.t_fi_s,
+        t_d_on_min_s: fast.t_d_on_s,
+        mismatch_s: off.drive.mismatch_s,
+        margin,
+    })
+}
+
+/// The largest need over the supply range `low..=high` (and `typ`), with
+/// the supply it occurs at. The need is not monotonic in the supply (the
+/// plateau and the Miller charge both move with it), so a grid of supplies,
+/// ends included. `None` when the need fails at any supply.
+pub fn worst_need_over_supply(
+    low: f64,
+    typ: f64,
+    high: f64,
+    mut need_at: impl FnMut(f64) -> Option<f64>,
+) -> Option<(f64, f64)> {
+    let mut worst: Option<(f64, f64)> = None;
+    let grid: Vec<f64> = (0..=16)
+        .map(|k| low + (high - low) * f64::from(k) / 16.0)
+        .chain([typ])
+        .collect();
+    for v in grid {
+        let need = need_at(v)?;
+        if worst.is_none_or(|(w, _)| need > w) {
+            worst = Some((need, v));
+        }
+    }
+    worst
 }
 
 /// Average output-voltage error from dead time, opposing the current:

@@ -29,10 +29,78 @@
 //! small conservative overlap).
 
 use super::params::{
-    DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, SwitchModel, Topology,
+    DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
+    SwitchModel, Topology,
 };
 use super::switching::{self, SwitchingError};
-use super::thermal;
+
+/// 0 °C in kelvin.
+pub const ZERO_CELSIUS_K: f64 = 273.15;
+
+/// On-resistance factor relative to 25 °C at junction temperature `t_j_c`.
+///
+/// - `Curve`: linear interpolation between the datasheet points; above the last
+///   point the last segment is extrapolated linearly (hot side matters for
+///   losses), below the first point the first factor is held (conservative).
+///   An empty curve gives 1; a single point gives its factor everywhere.
+/// - `CoefficientPerK(α)`: (1 + α)^(T − 25) (Graovac, Pürschel, Kiep, *MOSFET
+///   Power Losses Calculation Using the Data-Sheet Parameters*, 2006, where α is
+///   given in %/K and the form is (1 + α/100)^(T − 25)).
+/// - `PowerLaw`: (T_K/298.15)^2.3 (from memory; exponent not checked in a source).
+///
+/// The result is never below 1e-3 (guards an extrapolated curve).
+pub fn r_ds_on_factor(model: &RdsOnTemperature, t_j_c: f64) -> f64 {
+    let factor = match model {
+        RdsOnTemperature::Curve(points) => curve_factor(points, t_j_c),
+        RdsOnTemperature::CoefficientPerK(alpha) => (1.0 + alpha).powf(t_j_c - 25.0),
+        RdsOnTemperature::PowerLaw => ((t_j_c + ZERO_CELSIUS_K) / 298.15).max(0.0).powf(2.3),
+    };
+    if factor.is_finite() {
+        factor.max(1e-3)
+    } else {
+        f64::MAX
+    }
+}
+
+fn curve_factor(points: &[(f64, f64)], t_c: f64) -> f64 {
+    // Validated curves arrive finite and sorted: use them as they are.
+    let usable = points.iter().all(|&(t, k)| t.is_finite() && k.is_finite())
+        && points.windows(2).all(|w| w[0].0 <= w[1].0);
+    let owned: Vec<(f64, f64)>;
+    let pts: &[(f64, f64)] = if usable {
+        points
+    } else {
+        let mut v: Vec<(f64, f64)> = points
+            .iter()
+            .copied()
+            .filter(|&(t, k)| t.is_finite() && k.is_finite())
+            .collect();
+        v.sort_by(|a, b| a.0.total_cmp(&b.0));
+        owned = v;
+        &owned
+    };
+    match pts.len() {
+        0 => 1.0,
+        1 => pts[0].1,
+        n => {
+            if t_c <= pts[0].0 {
+                return pts[0].1;
+            }
+            // Segment containing t_c, or the last one for extrapolation.
+            let idx = pts.windows(2).position(|w| t_c <= w[1].0).unwrap_or(n - 2);
+            let ((t0, k0), (t1, k1)) = (pts[idx], pts[idx + 1]);
+            if t1 - t0 <= 0.0 {
+                return k1;
+            }
+            k0 + (k1 - k0) * (t_c - t0) / (t1 - t0)
+        }
+    }
+}
+
+/// On-resistance of `sw` at junction temperature `t_j_c`: R25·factor(T).
+pub fn r_ds_on_ohm(sw: &SwitchModel, t_j_c: f64) -> f64 {
+    sw.r_ds_on_25_ohm * r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
+}
 
 /// Position of a device in the stage.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -111,7 +179,7 @@ pub struct DeviceLoss {
 
 /// A device's loss as a function of its junction temperature,
 /// P(T) = `fixed_w` + `resistive_25_w`·k(T), with k the R_ds(on) temperature
-/// factor (1 at 25 °C; `thermal::r_ds_on_factor`).
+/// factor (1 at 25 °C; `r_ds_on_factor`).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LossVsTemperature {
     /// Lines that do not depend on T_j.
@@ -126,7 +194,7 @@ impl LossVsTemperature {
         if self.resistive_25_w == 0.0 {
             return self.fixed_w;
         }
-        self.fixed_w + self.resistive_25_w * thermal::r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
+        self.fixed_w + self.resistive_25_w * r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
     }
 }
 
@@ -146,7 +214,7 @@ impl DeviceLoss {
                 resistive_25_w: 0.0,
             };
         }
-        let k = thermal::r_ds_on_factor(&sw.r_ds_on_temperature, t_eval_c);
+        let k = r_ds_on_factor(&sw.r_ds_on_temperature, t_eval_c);
         LossVsTemperature {
             fixed_w: self.total_w - self.conduction_w,
             resistive_25_w: self.conduction_w / k,
@@ -380,7 +448,7 @@ fn mosfet_loss(
 ) -> Result<(DeviceLoss, GateDriveLoss), StageError> {
     let (sw, op) = (ctx.sw, ctx.op);
     let f = op.f_sw_hz;
-    let r = thermal::r_ds_on_ohm(sw, t_j_c);
+    let r = r_ds_on_ohm(sw, t_j_c);
     // The switching edges take R_ds(on) at 25 °C for the bottom of the
     // voltage swing (R_ds(on)·I, a few mV against the bus): the switching
     // energy then does not depend on the junction temperature the thermal

@@ -1,83 +1,19 @@
 //! Temperature side of the power stage.
 //!
-//! Owns: R_ds(on)(T_j); the junction-temperature fixed point T = T_a + R_th·P(T)
-//! with runaway detection; its closed form for a linear on-resistance (the test
-//! oracle); the Foster transient thermal impedance and single-pulse rise; and the
-//! per-device iteration of a whole stage (`stage_junction_temperatures`).
+//! Owns: the junction-temperature fixed point T = T_a + R_th·P(T) with
+//! runaway detection; its closed form for a linear on-resistance (the test
+//! oracle); the Foster transient thermal impedance and single-pulse rise; and
+//! the per-device iteration of a whole stage (`stage_junction_temperatures`).
+//! R_ds(on)(T_j) is in `losses` (which needs it), re-exported here.
 
 use super::losses::{DeviceRole, StageError, stage_losses};
 use super::params::{
-    DiodeModel, GateDrive, LoadCurrent, OperatingPoint, RdsOnTemperature, SwitchModel, ThermalPath,
-    Topology,
+    DiodeModel, GateDrive, LoadCurrent, OperatingPoint, SwitchModel, ThermalPath, Topology,
 };
 
-/// 0 °C in kelvin.
-pub const ZERO_CELSIUS_K: f64 = 273.15;
-
-/// On-resistance factor relative to 25 °C at junction temperature `t_j_c`.
-///
-/// - `Curve`: linear interpolation between the datasheet points; above the last
-///   point the last segment is extrapolated linearly (hot side matters for
-///   losses), below the first point the first factor is held (conservative).
-///   An empty curve gives 1; a single point gives its factor everywhere.
-/// - `CoefficientPerK(α)`: (1 + α)^(T − 25) (Graovac, Pürschel, Kiep, *MOSFET
-///   Power Losses Calculation Using the Data-Sheet Parameters*, 2006, where α is
-///   given in %/K and the form is (1 + α/100)^(T − 25)).
-/// - `PowerLaw`: (T_K/298.15)^2.3 (from memory; exponent not checked in a source).
-///
-/// The result is never below 1e-3 (guards an extrapolated curve).
-pub fn r_ds_on_factor(model: &RdsOnTemperature, t_j_c: f64) -> f64 {
-    let factor = match model {
-        RdsOnTemperature::Curve(points) => curve_factor(points, t_j_c),
-        RdsOnTemperature::CoefficientPerK(alpha) => (1.0 + alpha).powf(t_j_c - 25.0),
-        RdsOnTemperature::PowerLaw => ((t_j_c + ZERO_CELSIUS_K) / 298.15).max(0.0).powf(2.3),
-    };
-    if factor.is_finite() {
-        factor.max(1e-3)
-    } else {
-        f64::MAX
-    }
-}
-
-fn curve_factor(points: &[(f64, f64)], t_c: f64) -> f64 {
-    // Validated curves arrive finite and sorted: use them as they are.
-    let usable = points.iter().all(|&(t, k)| t.is_finite() && k.is_finite())
-        && points.windows(2).all(|w| w[0].0 <= w[1].0);
-    let owned: Vec<(f64, f64)>;
-    let pts: &[(f64, f64)] = if usable {
-        points
-    } else {
-        let mut v: Vec<(f64, f64)> = points
-            .iter()
-            .copied()
-            .filter(|&(t, k)| t.is_finite() && k.is_finite())
-            .collect();
-        v.sort_by(|a, b| a.0.total_cmp(&b.0));
-        owned = v;
-        &owned
-    };
-    match pts.len() {
-        0 => 1.0,
-        1 => pts[0].1,
-        n => {
-            if t_c <= pts[0].0 {
-                return pts[0].1;
-            }
-            // Segment containing t_c, or the last one for extrapolation.
-            let idx = pts.windows(2).position(|w| t_c <= w[1].0).unwrap_or(n - 2);
-            let ((t0, k0), (t1, k1)) = (pts[idx], pts[idx + 1]);
-            if t1 - t0 <= 0.0 {
-                return k1;
-            }
-            k0 + (k1 - k0) * (t_c - t0) / (t1 - t0)
-        }
-    }
-}
-
-/// On-resistance of `sw` at junction temperature `t_j_c`: R25·factor(T).
-pub fn r_ds_on_ohm(sw: &SwitchModel, t_j_c: f64) -> f64 {
-    sw.r_ds_on_25_ohm * r_ds_on_factor(&sw.r_ds_on_temperature, t_j_c)
-}
+// R_ds(on)(T) lives with the losses (they need it and this module needs the
+// losses); the old paths stay.
+pub use super::losses::{ZERO_CELSIUS_K, r_ds_on_factor, r_ds_on_ohm};
 
 /// Why no junction temperature is returned.
 #[derive(Debug, Clone, PartialEq)]
@@ -378,6 +314,7 @@ pub fn stage_junction_temperatures(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::model::physics::params::RdsOnTemperature;
     use crate::model::physics::params::fixtures::{
         Lcg, example_drive, example_switch, triangular_load,
     };
