@@ -9,14 +9,15 @@
 //! fonts, no `url(…)`). The markup is also well-formed XML (void elements
 //! self-closed, no named entities), so it can be checked with an XML
 //! parser. The content-hash placeholder appears once, in a comment, for
-//! [`crate::output::emit::seal`].
+//! [`crate::output::seal::seal`].
 
 use std::fmt::Write as _;
 
 use crate::input::units::{Dimension, format_quantity};
 use crate::model::evaluate::LossFigures;
-use crate::output::emit::{Context, MARKER_PLACEHOLDER, Row};
+use crate::output::context::{Context, Row};
 use crate::output::plan::Plan;
+use crate::output::seal::MARKER_PLACEHOLDER;
 use crate::output::svg::{SVG_NAMESPACE_ATTR, escape, loss_colour};
 
 const STYLE: &str = r#"

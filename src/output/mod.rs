@@ -1,14 +1,17 @@
 //! Output: a solution turned into records and files, as data.
 //!
-//! Owns the [`plan`] record, the template context and rendering ([`emit`]),
+//! Owns the [`plan`] record, the template context ([`context`]) and
+//! rendering ([`emit`]), sealing files with their hash ([`seal`]),
 //! the terminal report ([`report`]), the plots ([`svg`]) and the report page
 //! ([`html`]). Every function returns text or bytes; the commands write them.
 //!
 //! Must never: compute physics or search settings (numbers arrive from the
 //! model and are only formatted here), read input files, or write a file.
 
+pub mod context;
 pub mod emit;
 pub mod html;
 pub mod plan;
 pub mod report;
+pub mod seal;
 pub mod svg;

@@ -7,7 +7,6 @@
 use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
-use sha2::{Digest, Sha256};
 
 use crate::input::design::Design;
 use crate::input::spec::{HighSideSupplySpec, TopologySpec, WorstCasePolicySpec};
@@ -690,11 +689,8 @@ fn record_name(origin: &crate::input::load::Origin, design: &crate::input::load:
     }
 }
 
-/// Hex SHA-256 of a text.
-pub fn sha256_hex(text: &str) -> String {
-    let digest = Sha256::digest(text.as_bytes());
-    digest.iter().map(|b| format!("{b:02x}")).collect()
-}
+// Hashing is the sealing module's; the old path stays.
+pub use crate::output::seal::sha256_hex;
 
 /// Flatten a YAML text into dotted paths → scalar texts.
 pub fn flatten_fields(text: &str) -> BTreeMap<String, String> {
@@ -1038,7 +1034,7 @@ pub fn build_on(
         generated: format!(
             "pwmplan {} {}",
             env!("CARGO_PKG_VERSION"),
-            crate::output::emit::MARKER_PLACEHOLDER
+            crate::output::seal::MARKER_PLACEHOLDER
         ),
         design: d.spec.name.clone(),
         board: d.board.name.clone(),

@@ -2,7 +2,7 @@
 //! two plans.
 
 use crate::input::units::{Dimension, format_quantity};
-use crate::output::emit::Context;
+use crate::output::context::Context;
 use crate::output::plan::Plan;
 
 /// The report `plan` prints: the rationale block without the input hashes.

@@ -1,0 +1,140 @@
+//! The typed context every template receives ([`Context`]) and its rows:
+//! data only, shared by the templates (`emit`) and the report page (`html`).
+
+use serde::Serialize;
+
+/// Names of the generated identifiers, by role (one table so templates
+/// never invent names).
+#[derive(Debug, Clone, Serialize)]
+pub struct Names {
+    /// Prefix of C macros, e.g. `BELT_FEEDER_PWM`.
+    pub c_macro: String,
+    /// Prefix of C functions, e.g. `belt_feeder_pwm`.
+    pub c_function: String,
+    /// Include guard of the header.
+    pub c_guard: String,
+    /// Rust module (file stem), e.g. `belt_feeder_pwm`.
+    pub rust_module: String,
+    /// File stem of both code files.
+    pub file_stem: String,
+}
+
+/// A label/value row.
+#[derive(Debug, Clone, Serialize)]
+pub struct Row {
+    pub label: String,
+    pub value: String,
+}
+
+/// One constraint, formatted.
+#[derive(Debug, Clone, Serialize)]
+pub struct ConstraintRow {
+    pub name: String,
+    pub limit: String,
+    pub value: String,
+    pub margin: String,
+    pub status: String,
+}
+
+/// Timer values as they go into code: decimal or hex literals.
+#[derive(Debug, Clone, Serialize)]
+pub struct TimerLiterals {
+    pub clock_hz: String,
+    pub divider: String,
+    pub divider_register: String,
+    pub period_ticks: String,
+    pub period_register: String,
+    pub duty_steps: String,
+    pub centre_aligned: bool,
+    pub alignment: String,
+    pub dead_time_code: String,
+    pub dead_time_ticks: String,
+    pub dead_time_ns: String,
+    pub compare_min: String,
+    pub compare_max: String,
+    /// PWM frequency in millihertz, an exact integer for code.
+    pub frequency_millihz: String,
+    pub frequency_text: String,
+    /// C type of the count constants and Rust type of the same.
+    pub c_count_type: String,
+    pub rust_count_type: String,
+    /// Rust literal suffix-free forms are used; the C forms carry `U`/`UL`.
+    pub c_clock_hz: String,
+}
+
+/// Three-phase values as they go into code and text (all "0"/empty for the
+/// single-phase stages, so strict templates always find them).
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct ThreePhaseLiterals {
+    /// `sinusoidal` or `six-step`, with its option.
+    pub modulation: String,
+    /// Compare value matched on the up-count that starts the ADC.
+    pub adc_trigger_compare: String,
+    /// Trigger lead before the counter top, ns.
+    pub trigger_ns: String,
+    /// Largest compare of a sampled leg that keeps the sampling window.
+    pub sampling_compare_max: String,
+    /// The sampling window explained, one line each.
+    pub sampling_lines: Vec<String>,
+}
+
+/// The one context every template receives.
+#[derive(Debug, Clone, Serialize)]
+pub struct Context {
+    pub tool: String,
+    /// The placeholder marker; sealed after rendering.
+    pub marker: String,
+    pub design: String,
+    pub names: Names,
+    pub timer: TimerLiterals,
+    /// The MCU has an FPU: emit the floating-point helper too.
+    pub fpu: bool,
+    pub has_dead_time: bool,
+    /// A three-phase bridge: emit the channel and ADC-trigger parts.
+    pub three_phase: bool,
+    pub three_phase_literals: ThreePhaseLiterals,
+    /// The rationale as plain text lines, for comment blocks.
+    pub rationale_lines: Vec<String>,
+    /// The register init sequence, one step per line (C names).
+    pub init_steps: Vec<String>,
+    /// The same sequence naming the Rust module's constants and helpers.
+    pub rust_init_steps: Vec<String>,
+    /// What duty 0 means for this topology, how to coast, the PWM mode.
+    pub stage: StageLiterals,
+    pub summary: Vec<Row>,
+    pub constraints: Vec<ConstraintRow>,
+    pub losses: Vec<Row>,
+    pub figures: Vec<Row>,
+    pub alternatives: Vec<Row>,
+    pub findings: Vec<Row>,
+    /// The chosen setting at the worst corners: rows `{label, value}`.
+    pub worst_case: Vec<Row>,
+    /// What the register-level verifier measured on the written registers.
+    pub register_check: Vec<Row>,
+    pub assumptions: Vec<String>,
+    pub cautions: Vec<String>,
+    pub inputs: Vec<Row>,
+    pub conventions: Vec<Row>,
+}
+
+/// What the stage does at duty 0 and how it coasts, per topology (text and
+/// literals for the templates).
+#[derive(Debug, Clone, Serialize)]
+pub struct StageLiterals {
+    /// The plan's topology name.
+    pub topology: String,
+    /// What the init compare does once the outputs are enabled.
+    pub init_compare_meaning: String,
+    /// The compare the init sequence loads while the outputs are disabled:
+    /// 0, or for a bipolar H-bridge the 50 % compare (zero volts).
+    pub init_compare: String,
+    /// Compare 0 with the outputs enabled turns the low side(s) on and
+    /// shorts the motor (braking): `true`/`false`.
+    pub duty_zero_brakes: bool,
+    /// The PWM mode and output polarity the constants assume.
+    pub pwm_mode: String,
+    /// What duty 0 means and how to coast, one sentence each.
+    pub duty_zero_lines: Vec<String>,
+    /// What the firmware must know before it enables the outputs.
+    pub enable_note: String,
+}
