@@ -1,0 +1,481 @@
+//! Six-step (block) commutation: the line-to-line ripple, the duty from the
+//! motor constants, and the device losses per position role.
+
+use super::inputs::*;
+use super::loss_lines::*;
+use crate::model::physics::params::SwitchModel;
+use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform, Segment};
+use crate::model::physics::thermal;
+
+// ---------------------------------------------------------------------------------------------
+// Six-step
+// ---------------------------------------------------------------------------------------------
+
+/// `ripple::Drive` equivalent of a six-step chop: the freewheel loop holds one body diode
+/// (`LowSideFreewheel { v_f_v: V_sd }`, the conducting channel's drop is in the load's
+/// resistance) or a channel (`HalfBridgeSynchronous`).
+pub fn six_step_drive(chop: Chop, sw: &SwitchModel) -> Drive {
+    match chop {
+        Chop::HighSide | Chop::LowSide => Drive::LowSideFreewheel { v_f_v: sw.v_sd_v },
+        Chop::Complementary => Drive::HalfBridgeSynchronous,
+    }
+}
+
+/// Line current of the two conducting phases over one PWM period (exact RL steady state of
+/// `ripple::steady_state` on the line-to-line equivalent `MotorParams::line_line_load`); use
+/// `acoustics::spectrum` / `assess` on it for the audibility.
+pub fn six_step_ripple(
+    stage: &ThreePhaseStage<'_>,
+    motor: &MotorParams,
+    omega_e_rad_s: f64,
+    duty: f64,
+    chop: Chop,
+    r_path_ohm: f64,
+) -> Result<RippleWaveform> {
+    stage.validate()?;
+    check("r_path_ohm", r_path_ohm, r_path_ohm >= 0.0)?;
+    let load = motor.line_line_load(omega_e_rad_s, r_path_ohm);
+    Ok(ripple::steady_state(
+        &load,
+        six_step_drive(chop, stage.sw),
+        stage.v_bus_v,
+        duty,
+        stage.f_sw_hz,
+    )?)
+}
+
+/// Averaged-model duty for a mean line current I in continuous conduction: complementary
+/// V·D = E_ll + R_ll·I; diode freewheel V·D − V_sd·(1 − D) = E_ll + R_ll·I (volt-second balance
+/// of L·di/dt = v − R·i − E over a period, common practice; Krishnan 2010 for the line-to-line
+/// picture, from memory). Not clamped; None when the denominator is not positive or the result
+/// is not finite.
+pub fn six_step_duty_estimate(
+    load: &MotorLoad,
+    chop: Chop,
+    v_bus_v: f64,
+    v_sd_v: f64,
+    i_a: f64,
+) -> Option<f64> {
+    let drop = load.back_emf_v + load.r_ohm * i_a;
+    let (num, den) = match chop {
+        Chop::Complementary => (drop, v_bus_v),
+        Chop::HighSide | Chop::LowSide => (drop + v_sd_v, v_bus_v + v_sd_v),
+    };
+    let d = num / den;
+    (den > 0.0 && d.is_finite()).then_some(d)
+}
+
+/// Duty at which the mean line current (exact waveform, `six_step_ripple`) equals `i_target_a`:
+/// bisection on D (the mean rises monotonically with D; in discontinuous conduction it depends on
+/// f, so no closed form), as the single-phase code does. 0 when even D = 0 gives at least the
+/// target; `DutyUnreachable` when D = 1 does not reach it.
+pub fn six_step_duty(
+    stage: &ThreePhaseStage<'_>,
+    motor: &MotorParams,
+    omega_e_rad_s: f64,
+    chop: Chop,
+    i_target_a: f64,
+    r_path_ohm: f64,
+) -> Result<f64> {
+    check("i_target_a", i_target_a, true)?;
+    let mean = |d: f64| {
+        six_step_ripple(stage, motor, omega_e_rad_s, d, chop, r_path_ohm).map(|w| w.i_avg_a())
+    };
+    let at_full = mean(1.0)?;
+    if at_full < i_target_a {
+        return Err(ThreePhaseError::DutyUnreachable {
+            i_target_a,
+            i_at_full_duty_a: at_full,
+        });
+    }
+    if mean(0.0)? >= i_target_a {
+        return Ok(0.0);
+    }
+    let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
+    for _ in 0..80 {
+        let mid = 0.5 * (lo + hi);
+        if mean(mid)? < i_target_a {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+        if hi - lo < 1e-13 {
+            break;
+        }
+    }
+    Ok(0.5 * (lo + hi))
+}
+
+/// Six-step operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SixStepPoint {
+    /// Chopping scheme.
+    pub chop: Chop,
+    /// Chopping duty D (on-time of the chopping switch / T).
+    pub duty: f64,
+    /// Electrical frequency f_e = ω_e/2π (commutations).
+    pub f_e_hz: f64,
+}
+
+/// Role of a switch position during its share of the electrical period.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum SixStepRole {
+    /// PWMs at D during its 120° (the chopping side).
+    Chopping,
+    /// On for 120° as the return path of the other conducting phase.
+    Conducting,
+    /// The partner of the chopping switch in the same leg during that leg's 120°: body diode
+    /// (`HighSide`/`LowSide` chop) or synchronous channel + dead-time diode (`Complementary`).
+    Freewheeling,
+}
+
+/// One role's losses, averaged over the electrical period (already × its 1/3 share).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RoleLoss {
+    /// Role.
+    pub role: SixStepRole,
+    /// Side of the switches that play it.
+    pub side: Side,
+    /// Loss lines.
+    pub lines: LossLines,
+    /// Gate charge/discharge cycles per second in this role.
+    pub gate_cycles_per_s: f64,
+}
+
+/// Six-step losses: per role and per physical switch (each switch plays the roles of its side).
+#[derive(Debug, Clone, PartialEq)]
+pub struct SixStepLosses {
+    /// Chopping, conducting and freewheeling.
+    pub roles: Vec<RoleLoss>,
+    /// Each high-side switch.
+    pub high_side: LossLines,
+    /// Each low-side switch.
+    pub low_side: LossLines,
+    /// Gate drive of all six switches: driver share.
+    pub gate_driver_w: f64,
+    /// Gate drive of all six switches: external resistor share.
+    pub gate_external_w: f64,
+}
+
+impl SixStepLosses {
+    /// Heat in the six switches.
+    pub fn devices_total_w(&self) -> f64 {
+        3.0 * (self.high_side.total_w() + self.low_side.total_w())
+    }
+
+    /// Switches + gate driver + external gate resistors.
+    pub fn stage_total_w(&self) -> f64 {
+        self.devices_total_w() + self.gate_driver_w + self.gate_external_w
+    }
+
+    /// The lines of a role, if present.
+    pub fn role(&self, role: SixStepRole) -> Option<&RoleLoss> {
+        self.roles.iter().find(|r| r.role == role)
+    }
+}
+
+/// Sign-split integrals of the line current over a time range.
+#[derive(Debug, Clone, Copy, Default)]
+pub(super) struct SignedIntegrals {
+    /// ∫ i dt where i > 0, A·s.
+    i_pos: f64,
+    /// ∫ |i| dt where i < 0, A·s.
+    i_neg: f64,
+    /// ∫ i² dt where i > 0, A²·s.
+    i2_pos: f64,
+    /// ∫ i² dt where i < 0, A²·s.
+    i2_neg: f64,
+}
+
+/// `1 − e^(−x)` without cancellation.
+pub(super) fn g1(x: f64) -> f64 {
+    -(-x).exp_m1()
+}
+
+/// ∫_0^x (1 − e^(−u)) du = x − (1 − e^(−x)); Taylor series below 0.5 (closed form).
+pub(super) fn h_int(x: f64) -> f64 {
+    if x >= 0.5 {
+        return x - g1(x);
+    }
+    let (mut term, mut sum) = (x * x / 2.0, 0.0);
+    for n in 2..30 {
+        sum += term;
+        term *= -x / (f64::from(n) + 1.0);
+    }
+    sum
+}
+
+/// ∫_0^x (1 − e^(−u))² du = x − 2(1 − e^(−x)) + (1 − e^(−2x))/2; series below 0.5:
+/// Σ_{n≥2} (−1)^n (2^n − 2) x^(n+1)/((n + 1)·n!) (closed form).
+pub(super) fn q_int(x: f64) -> f64 {
+    if x >= 0.5 {
+        return x - 2.0 * g1(x) + 0.5 * g1(2.0 * x);
+    }
+    let (mut p, mut r, mut sum) = (1.0, 1.0, 0.0);
+    for n in 1..32 {
+        let nf = f64::from(n);
+        p *= -x / nf;
+        r *= -2.0 * x / nf;
+        if n >= 2 {
+            sum += (r - 2.0 * p) * x / (nf + 1.0);
+        }
+    }
+    sum
+}
+
+/// (∫ i, ∫ i²) over local times [a, b] of a segment, with i = i_a + β·(1 − e^(−t/τ)),
+/// β = i_inf − i_a: ∫i = i_a·d + β·τ·h(d/τ), ∫i² = i_a²·d + 2·i_a·β·τ·h + β²·τ·q (closed form).
+pub(super) fn piece_moments(seg: &Segment, a: f64, b: f64) -> (f64, f64) {
+    match *seg {
+        Segment::Zero { .. } => (0.0, 0.0),
+        Segment::Exponential { i_inf_a, tau_s, .. } => {
+            let i0 = seg.value_at(a);
+            let beta = i_inf_a - i0;
+            let d = b - a;
+            let x = d / tau_s;
+            let (h, q) = (h_int(x), q_int(x));
+            (
+                i0 * d + beta * tau_s * h,
+                i0 * i0 * d + 2.0 * i0 * beta * tau_s * h + beta * beta * tau_s * q,
+            )
+        }
+    }
+}
+
+pub(super) fn add_piece(acc: &mut SignedIntegrals, seg: &Segment, a: f64, b: f64, sign_hint: f64) {
+    let (s1, s2) = piece_moments(seg, a, b);
+    if sign_hint >= 0.0 {
+        acc.i_pos += s1.max(0.0);
+        acc.i2_pos += s2;
+    } else {
+        acc.i_neg += (-s1).max(0.0);
+        acc.i2_neg += s2;
+    }
+}
+
+/// Sign-split ∫ i and ∫ i² of the waveform over [t0, t1] ⊂ [0, T]; each segment is monotonic,
+/// so it crosses zero at most once (root by bisection).
+pub(super) fn waveform_integrals(w: &RippleWaveform, t0: f64, t1: f64) -> SignedIntegrals {
+    let mut acc = SignedIntegrals::default();
+    let mut start = 0.0;
+    for seg in w.segments() {
+        let d = seg.duration_s();
+        let (a, b) = (t0.max(start) - start, t1.min(start + d) - start);
+        start += d;
+        if b <= a {
+            continue;
+        }
+        let (ia, ib) = (seg.value_at(a), seg.value_at(b));
+        if ia * ib < 0.0 {
+            let (mut lo, mut hi) = (a, b);
+            for _ in 0..100 {
+                let mid = 0.5 * (lo + hi);
+                if seg.value_at(mid) * ia > 0.0 {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            let tz = 0.5 * (lo + hi);
+            add_piece(&mut acc, seg, a, tz, ia);
+            add_piece(&mut acc, seg, tz, b, ib);
+        } else {
+            add_piece(&mut acc, seg, a, b, ia + ib);
+        }
+    }
+    acc
+}
+
+/// Per-role and per-switch losses of six-step at `point`, given the line-current waveform `w`
+/// of one PWM period (`six_step_ripple` at the same duty; t = 0 at the chopping switch's turn-on).
+///
+/// Sequence (Krishnan 2010; Hendershot, Miller, *Design of Brushless Permanent-Magnet Motors*,
+/// 1994; from memory): sectors of 60° with (+, −) phases A+B−, A+C−, B+C−, B+A−, C+A−, C+B−;
+/// each phase conducts 120° in each direction and floats 60° between. Each switch position
+/// therefore plays each role of its side for 1/3 of the electrical period:
+/// - `HighSide` chop: high side = chopping; low side = conducting + freewheeling (body diode).
+/// - `LowSide` chop: low side = chopping; high side = conducting + freewheeling (body diode).
+/// - `Complementary`: high side = chopping; low side = conducting + freewheeling (channel on in
+///   [D·T + t_dead, T − t_dead], body diode in the two dead times).
+///
+/// Lines (f_3 = f/3; F = f_3 − f_e counts the turn-ons that follow a freewheel, the first turn-on
+/// of each 120° block starts from a floating phase at zero current and is not counted):
+/// - chopping: conduction f_3·R·∫_0^{DT} i² dt; turn-on at i(0): hard if i(0) > 0 (E_on, Q_rr·V,
+///   E_oss at rate F; ¼·Q_rr·V·F in the freewheeling diode), E_oss·F only if i(0) = 0
+///   (discontinuous), soft if i(0) < 0; turn-off at i(DT): E_off·f_3 if i(DT) > 0.
+///   With the complementary freewheel reversed (i < 0) the chopping switch's body diode takes
+///   that dead time and the synchronous switch hard-switches (edge rule of the module docs).
+/// - freewheeling, diode: V_sd·f_3·∫_{DT}^{T} i dt (the published (1/3)(1 − D)·I·V_sd for a flat
+///   current); synchronous: f_3·R·∫ i² over its on-time (the (1/3)(1 − D)·I²·R of a flat
+///   current, less the dead times) + V_sd·f_3·∫ i over the two dead times.
+/// - conducting: f_3·R·∫_0^T i² dt (the (1/3)·I²·R of a flat current) and, once per electrical
+///   period, a hard turn-off when its phase is commutated out, f_e·E_off(i(T)) (`commutation_w`;
+///   the commutation is taken at a PWM period boundary, as timers apply it at the update event,
+///   common practice; the current's commutation transient is not modelled).
+/// - gate cycles: chopping f_3 (0 < D < 1), synchronous freewheel f_3, conducting f_e.
+///
+/// Assumes f ≥ 3·f_e (at least one PWM period per block).
+pub fn six_step_losses(
+    stage: &ThreePhaseStage<'_>,
+    point: &SixStepPoint,
+    w: &RippleWaveform,
+    t_j_high_c: f64,
+    t_j_low_c: f64,
+) -> Result<SixStepLosses> {
+    stage.validate()?;
+    let (d, f_e) = (point.duty, point.f_e_hz);
+    check("duty", d, (0.0..=1.0).contains(&d))?;
+    check("f_e_hz", f_e, f_e >= 0.0 && 3.0 * f_e <= stage.f_sw_hz)?;
+    check("t_j_high_c", t_j_high_c, true)?;
+    check("t_j_low_c", t_j_low_c, true)?;
+    let (sw, f, v) = (stage.sw, stage.f_sw_hz, stage.v_bus_v);
+    let t = 1.0 / f;
+    check(
+        "waveform period_s",
+        w.period_s(),
+        (w.period_s() * f - 1.0).abs() < 1e-9,
+    )?;
+    let side_r = |s: Side| {
+        thermal::r_ds_on_ohm(
+            sw,
+            if s == Side::High {
+                t_j_high_c
+            } else {
+                t_j_low_c
+            },
+        )
+    };
+    let chop_side = point.chop.chopping_side();
+    let (r_c, r_o) = (side_r(chop_side), side_r(chop_side.other()));
+    let (f3, f_first) = (f / 3.0, (f / 3.0 - f_e).max(0.0));
+    let (q_rr_v, e_oss, v_sd) = (sw.q_rr_c * v, stage.e_oss_j(), sw.v_sd_v);
+    let t_on = d * t;
+    let switching = d > 0.0 && d < 1.0;
+    let (mut chop, mut free, mut cond) = (
+        LossLines::default(),
+        LossLines::default(),
+        LossLines::default(),
+    );
+
+    // Chopping switch: channel during the on-time (line current i > 0 is forward).
+    let on = waveform_integrals(w, 0.0, t_on);
+    chop.conduction_forward_w = f3 * r_c * on.i2_pos;
+    chop.conduction_reverse_w = f3 * r_c * on.i2_neg;
+    let i0 = w.value_at(0.0);
+    if switching {
+        let i_off = w.value_at(t_on);
+        let (e_on, e_off) = stage.energies(i0, i_off, r_c)?;
+        if i0 > 0.0 {
+            chop.switching_w += f_first * e_on;
+            chop.reverse_recovery_w += f_first * q_rr_v;
+            chop.output_capacitance_w += f_first * e_oss;
+            free.reverse_recovery_w += f_first * 0.25 * q_rr_v;
+        } else if i0 == 0.0 {
+            chop.output_capacitance_w += f_first * e_oss;
+        }
+        if i_off > 0.0 {
+            chop.switching_w += f3 * e_off;
+        }
+    } else if d >= 1.0 && i0 > 0.0 {
+        // Always on: it leaves its block by a hard turn-off, like a conducting switch.
+        chop.commutation_w = f_e * stage.energies(i0, i0, r_c)?.1;
+    }
+
+    // Freewheeling partner of the chopping switch.
+    match point.chop {
+        Chop::HighSide | Chop::LowSide => {
+            let off = waveform_integrals(w, t_on, t);
+            free.body_diode_w = f3 * v_sd * off.i_pos;
+        }
+        Chop::Complementary => {
+            let td = stage.t_dead_s;
+            let (s1, s2) = (t_on + td, t - td);
+            let dead_ranges: Vec<(f64, f64)> = if s2 > s1 {
+                let ch = waveform_integrals(w, s1, s2);
+                // Line current i > 0 flows source→drain in this switch: reverse.
+                free.conduction_reverse_w = f3 * r_o * ch.i2_pos;
+                free.conduction_forward_w = f3 * r_o * ch.i2_neg;
+                let i_s1 = w.value_at(s1);
+                let i_s2 = w.value_at(s2);
+                let (e_on, e_off) = stage.energies(i_s1, i_s2, r_o)?;
+                if i_s1 < 0.0 {
+                    free.switching_w += f3 * e_on;
+                    free.reverse_recovery_w += f3 * q_rr_v;
+                    free.output_capacitance_w += f3 * e_oss;
+                    chop.reverse_recovery_w += f3 * 0.25 * q_rr_v;
+                } else if i_s1 == 0.0 {
+                    free.output_capacitance_w += f3 * e_oss;
+                }
+                if i_s2 < 0.0 {
+                    free.switching_w += f3 * e_off;
+                }
+                vec![(t_on, s1), (s2, t)]
+            } else {
+                vec![(t_on, t)]
+            };
+            for (a, b) in dead_ranges {
+                let di = waveform_integrals(w, a, b);
+                free.body_diode_w += f3 * v_sd * di.i_pos;
+                chop.body_diode_w += f3 * v_sd * di.i_neg;
+            }
+        }
+    }
+
+    // Conducting switch of the other phase: the whole period, then commutated out.
+    let full = waveform_integrals(w, 0.0, t);
+    cond.conduction_forward_w = f3 * r_o * full.i2_pos;
+    cond.conduction_reverse_w = f3 * r_o * full.i2_neg;
+    if i0 > 0.0 {
+        cond.commutation_w = f_e * stage.energies(i0, i0, r_o)?.1;
+    }
+
+    // Gate drive per role.
+    let i_plateau = w.i_avg_a().abs();
+    let chop_cycles = if switching {
+        f3
+    } else if d >= 1.0 {
+        f_e
+    } else {
+        0.0
+    };
+    let free_cycles = match point.chop {
+        Chop::Complementary if t - stage.t_dead_s > t_on + stage.t_dead_s => f3,
+        _ => 0.0,
+    };
+    let mut roles = Vec::with_capacity(3);
+    let (mut driver, mut external) = (0.0, 0.0);
+    for (role, side, mut lines, cycles) in [
+        (SixStepRole::Chopping, chop_side, chop, chop_cycles),
+        (SixStepRole::Conducting, chop_side.other(), cond, f_e),
+        (
+            SixStepRole::Freewheeling,
+            chop_side.other(),
+            free,
+            free_cycles,
+        ),
+    ] {
+        let g = stage.gate(cycles, i_plateau)?;
+        lines.gate_internal_w = g.internal_w;
+        driver += 3.0 * g.driver_w;
+        external += 3.0 * g.external_w;
+        roles.push(RoleLoss {
+            role,
+            side,
+            lines,
+            gate_cycles_per_s: cycles,
+        });
+    }
+    let side_sum = |s: Side| {
+        roles
+            .iter()
+            .filter(|r| r.side == s)
+            .fold(LossLines::default(), |acc, r| acc.plus(&r.lines))
+    };
+    Ok(SixStepLosses {
+        high_side: side_sum(Side::High),
+        low_side: side_sum(Side::Low),
+        roles,
+        gate_driver_w: driver,
+        gate_external_w: external,
+    })
+}
