@@ -307,11 +307,22 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     if s.name.trim().is_empty() {
         return Err(c.fail("name", "expected a name for the switch"));
     }
-    // The numeric ranges in this function (V_DSS and I_D ≤ 2 000, R_ds(on) ≤ 10 Ω,
+    // The numeric ranges in these checks (V_DSS and I_D ≤ 2 000, R_ds(on) ≤ 10 Ω,
     // Q_g ≤ 10 µC, coefficient ≤ 0.03/K, curve factor 0.1–10, V_GS max ≤ 50 V,
     // T_j max 25–300 °C and the like) are plausibility bounds of our own choice,
     // not from a source: wide enough for any discrete MOSFET we know of, narrow
     // enough to catch a wrong unit prefix.
+    check_switch_on_resistance(s, &c)?;
+    check_switch_threshold(s, &c)?;
+    check_switch_gate_charge(s, &c)?;
+    check_switch_capacitance(s, &c)?;
+    check_switch_diode_and_gate(s, &c)?;
+    check_switch_thermal(s, &c)?;
+    Ok(())
+}
+
+/// Ratings and the on-resistance with its temperature dependence.
+fn check_switch_on_resistance(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.within("v_dss", s.v_dss.si, 0.0, 2000.0, V)?; // bound of our own choice
     c.within("i_d", s.i_d.si, 0.0, 2000.0, A)?;
     c.within("r_ds_on.typ", s.r_ds_on.typ.si, 0.0, 10.0, OHM)?; // bound of our own choice
@@ -362,6 +373,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
         }
         None => {}
     }
+    Ok(())
+}
+
+/// Threshold, transconductance and plateau.
+fn check_switch_threshold(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.spread("v_th", &s.v_th)?;
     c.within("v_th.typ", s.v_th.typ.si, 0.0, 15.0, V)?;
     if let Some(g) = s.g_fs {
@@ -386,6 +402,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             "missing; give g_fs or v_plateau so the Miller plateau can be found",
         ));
     }
+    Ok(())
+}
+
+/// The gate charges and their split.
+fn check_switch_gate_charge(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.within("q_g.typ", s.q_g.typ.si, 0.0, 1e-5, C)?; // ≤ 10 µC: bound of our own choice
     if let Some(max) = s.q_g.max
         && max.si < s.q_g.typ.si
@@ -444,6 +465,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ));
         }
     }
+    Ok(())
+}
+
+/// The capacitances and output charge or energy.
+fn check_switch_capacitance(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     let cap = &s.capacitance;
     c.within("capacitance.at_v_ds", cap.at_v_ds.si, 0.0, s.v_dss.si, V)?;
     c.within("capacitance.c_iss", cap.c_iss.si, 0.0, 1e-6, F)?;
@@ -505,6 +531,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
         c.within("e_oss.value", e.value.si, 0.0, 1e-3, Dimension::Energy)?;
         c.within("e_oss.at_v_ds", e.at_v_ds.si, 0.0, s.v_dss.si, V)?;
     }
+    Ok(())
+}
+
+/// Gate resistance, body diode and gate voltage limits.
+fn check_switch_diode_and_gate(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.spread("r_g_int", &s.r_g_int)?;
     c.non_negative("r_g_int.typ", s.r_g_int.typ.si, 100.0, OHM)?;
     c.within("body_diode.v_sd", s.body_diode.v_sd.si, 0.0, 5.0, V)?;
@@ -546,6 +577,11 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
             ),
         ));
     }
+    Ok(())
+}
+
+/// Junction limit and thermal resistances.
+fn check_switch_thermal(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.within("t_j_max", s.t_j_max.si, 25.0, 300.0, DEG)?; // bounds of our own choice
     c.within("r_th_jc", s.r_th_jc.si, 0.0, 100.0, KW)?;
     c.within("r_th_ja", s.r_th_ja.si, 0.0, 1000.0, KW)?;
@@ -660,6 +696,16 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
     if b.name.trim().is_empty() {
         return Err(c.fail("name", "expected a name for the board"));
     }
+    check_board_timer(b, &c)?;
+    check_board_dead_time(b, &c)?;
+    check_board_stage(b, &c)?;
+    check_board_gate_driver(b, sw, &c)?;
+    check_board_thermal(b, &c)?;
+    Ok(())
+}
+
+/// The timer's clock, counter, prescaler and alignments.
+fn check_board_timer(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
     let t = &b.timer;
     c.within("timer.clock", t.clock.si, 1e3, 10e9, HZ)?;
     if !(8..=32).contains(&t.counter_bits) {
@@ -726,6 +772,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             return Err(c.fail(&format!("timer.alignments[{i}]"), "listed twice"));
         }
     }
+    Ok(())
+}
+
+/// The timer's dead-time generator and minimum pulse.
+fn check_board_dead_time(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
+    let t = &b.timer;
     if let DeadTimeSpec::Segmented { segments, .. } = &t.dead_time {
         c.max_len(
             "timer.dead_time.segmented.segments",
@@ -734,7 +786,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
             "segments",
         )?;
     }
-    check_dead_time_ticks(&c, t)?;
+    check_dead_time_ticks(c, t)?;
     match &t.dead_time {
         DeadTimeSpec::None => {}
         DeadTimeSpec::Linear {
@@ -755,7 +807,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
                 ));
             }
             if let Some(bits) = code_bits {
-                let top = dead_time_code_top(&c, "timer.dead_time.linear.code_bits", *bits)?;
+                let top = dead_time_code_top(c, "timer.dead_time.linear.code_bits", *bits)?;
                 if *max_ticks > top {
                     return Err(c.fail(
                         "timer.dead_time.linear.max_ticks",
@@ -799,7 +851,7 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
                 }
                 let end = u64::from(s.first_code) + u64::from(s.count);
                 if let Some(bits) = code_bits {
-                    let top = dead_time_code_top(&c, "timer.dead_time.segmented.code_bits", *bits)?;
+                    let top = dead_time_code_top(c, "timer.dead_time.segmented.code_bits", *bits)?;
                     if end - 1 > top {
                         return Err(c.fail(
                             &format!("{f}.count"),
@@ -830,6 +882,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         c.non_negative("timer.min_pulse", p.si, 1e-3, S)?;
     }
 
+    Ok(())
+}
+
+/// The power stage: topology, modulation, sensing, freewheel diode.
+fn check_board_stage(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
+    let t = &b.timer;
     let st = &b.stage;
     let three_phase_modulation = matches!(
         st.modulation,
@@ -930,6 +988,12 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         c.within("stage.freewheel_diode.v_rrm", d.v_rrm.si, 0.0, 5000.0, V)?;
     }
 
+    Ok(())
+}
+
+/// The gate driver against the switch.
+fn check_board_gate_driver(b: &BoardSpec, sw: &SwitchSpec, c: &Check) -> Result<(), InputError> {
+    let st = &b.stage;
     let g = &b.gate_driver;
     // ≤ 50 V: a plausibility bound of our own choice (as for the other ranges here).
     c.within("gate_driver.supply", g.supply.si, 0.0, 50.0, V)?;
@@ -1017,6 +1081,11 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
         _ => {}
     }
 
+    Ok(())
+}
+
+/// The thermal path.
+fn check_board_thermal(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
     let th = &b.thermal;
     match (th.r_th_ja, th.r_th_sa) {
         (Some(ja), None) => {
@@ -1189,6 +1258,16 @@ fn check_design(
     {
         return Err(c.fail("name", format!("\"{}\" cannot name the generated files; expected letters, digits, '-' or '_', starting with a letter", d.name)));
     }
+    check_design_supply(d, &c)?;
+    let (emf, k_e) = check_design_motor(d, b, &c)?;
+    check_design_ambient(d, sw, &c)?;
+    let t_j_limit = check_design_limits(d, sw, &c)?;
+    check_design_options(d, b, sw, &c, emf)?;
+    Ok((emf, k_e, t_j_limit))
+}
+
+/// The supply range.
+fn check_design_supply(d: &DesignSpec, c: &Check) -> Result<(), InputError> {
     let s = &d.supply;
     c.within("supply.nominal", s.nominal.si, 0.0, 2000.0, V)?;
     c.within("supply.min", s.min.si, 0.0, 2000.0, V)?;
@@ -1213,6 +1292,12 @@ fn check_design(
             ),
         ));
     }
+    Ok(())
+}
+
+/// The motor, and its back-EMF shape and constant.
+fn check_design_motor(d: &DesignSpec, b: &BoardSpec, c: &Check) -> Result<(f64, f64), InputError> {
+    let s = &d.supply;
     let m = &d.motor;
     c.within(
         "motor.resistance",
@@ -1255,7 +1340,7 @@ fn check_design(
         _ => {}
     }
     let (emf, k_e) = if m.kind == MotorKind::Brushless {
-        check_brushless(&c, m, b, s)?
+        check_brushless(c, m, b, s)?
     } else {
         for (field, given) in [
             ("motor.pole_pairs", m.pole_pairs.is_some()),
@@ -1330,6 +1415,11 @@ fn check_design(
         }
         (emf, k_e)
     };
+    Ok((emf, k_e))
+}
+
+/// The ambient range against the switch.
+fn check_design_ambient(d: &DesignSpec, sw: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     let a = &d.ambient;
     c.within("ambient.min", a.min.si, -100.0, 200.0, DEG)?;
     c.within("ambient.max", a.max.si, -100.0, 200.0, DEG)?;
@@ -1342,6 +1432,13 @@ fn check_design(
             format!("{} is not below the switch's T_j max {}; expected an ambient the switch can work in", fmt(a.max.si, DEG), fmt(sw.t_j_max.si, DEG)),
         ));
     }
+    Ok(())
+}
+
+/// The audibility, ripple and junction constraints; returns the junction limit.
+fn check_design_limits(d: &DesignSpec, sw: &SwitchSpec, c: &Check) -> Result<f64, InputError> {
+    let m = &d.motor;
+    let a = &d.ambient;
     let k = &d.constraints;
     match &k.audible {
         AudibleSpec::InaudibleAbove(f) => {
@@ -1418,6 +1515,18 @@ fn check_design(
             format!("the junction limit {} is not above the ambient max {}; no loss at all would meet it", fmt(t_j_limit, DEG), fmt(a.max.si, DEG)),
         ));
     }
+    Ok(t_j_limit)
+}
+
+/// The optional constraints (resolution, band, stall) and the tolerances.
+fn check_design_options(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    sw: &SwitchSpec,
+    c: &Check,
+    emf: f64,
+) -> Result<(), InputError> {
+    let k = &d.constraints;
     if let Some(bits) = k.min_resolution_bits {
         if !(bits.is_finite() && (1.0..=32.0).contains(&bits)) {
             return Err(c.fail(
@@ -1465,9 +1574,9 @@ fn check_design(
         c.within("constraints.stall_time", t.si, 0.0, 3600.0, S)?;
     }
     if let Some(t) = &d.tolerances {
-        check_tolerances(&c, t, d, b, sw, emf)?;
+        check_tolerances(c, t, d, b, sw, emf)?;
     }
-    Ok((emf, k_e, t_j_limit))
+    Ok(())
 }
 
 /// The three-phase model of a brushless motor: phase R and L as written,
