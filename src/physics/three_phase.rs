@@ -719,6 +719,71 @@ pub fn sinusoidal_point_from_motor(
     v_bus_v: f64,
     zero_sequence: ZeroSequence,
 ) -> Result<SinusoidalPoint> {
+    let ideal = BridgeDrops {
+        r_switch_ohm: 0.0,
+        dead_time_mean_v: 0.0,
+    };
+    sinusoidal_point_with_drops(
+        motor,
+        omega_e_rad_s,
+        i_peak_a,
+        current_advance_rad,
+        v_bus_v,
+        zero_sequence,
+        &ideal,
+    )
+    .map(|c| c.point)
+}
+
+/// The leg command of a sinusoidal operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SinusoidalCommand {
+    pub point: SinusoidalPoint,
+    /// Angle by which the commanded phase-voltage fundamental leads the back-EMF, rad.
+    pub voltage_lead_rad: f64,
+}
+
+/// What a real leg takes off the voltage its duty asks for, phase by phase.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BridgeDrops {
+    /// On-resistance of the conducting switch: the leg's output sits `i·R` below its ideal
+    /// level whichever side conducts, so it adds to the phase resistance, Ω.
+    pub r_switch_ohm: f64,
+    /// Mean leg-voltage loss over a PWM period from the dead time while the current flows out
+    /// of the leg (the reverse sign into it): `t_d·f·(V + 2·V_SD)`, V (the two edges of
+    /// [`crate::physics::leg_voltage::offset_v`] with the current of one sign at both).
+    pub dead_time_mean_v: f64,
+}
+
+/// [`sinusoidal_point_from_motor`] with the bridge's own losses made up, so that the
+/// modulation index is the one a leg must be commanded with for the motor to carry `I_pk`.
+///
+/// The switch drop adds `R·I` in phase with the current. The dead-time loss follows the
+/// current's sign, a square wave of height ΔV in phase with the current; its fundamental is
+/// (4/π)·ΔV (Fourier series of a square wave; Mohan, Undeland, Robbins, *Power Electronics*,
+/// 2003, ch. 8, the dead-time effect on the output voltage, from memory). Its odd triplen
+/// harmonics cancel in a star with an isolated neutral; the 5th and 7th remain (not made
+/// up). Near the current's zero crossings the ripple lets the current change sign within a
+/// period and the loss shrinks there (not modelled: a small excess of the made-up voltage).
+pub fn sinusoidal_point_with_drops(
+    motor: &MotorParams,
+    omega_e_rad_s: f64,
+    i_peak_a: f64,
+    current_advance_rad: f64,
+    v_bus_v: f64,
+    zero_sequence: ZeroSequence,
+    drops: &BridgeDrops,
+) -> Result<SinusoidalCommand> {
+    check(
+        "r_switch_ohm",
+        drops.r_switch_ohm,
+        drops.r_switch_ohm >= 0.0,
+    )?;
+    check(
+        "dead_time_mean_v",
+        drops.dead_time_mean_v,
+        drops.dead_time_mean_v >= 0.0,
+    )?;
     check("omega_e_rad_s", omega_e_rad_s, true)?;
     check("i_peak_a", i_peak_a, i_peak_a >= 0.0)?;
     check("current_advance_rad", current_advance_rad, true)?;
@@ -731,8 +796,15 @@ pub fn sinusoidal_point_from_motor(
         i_peak_a * current_advance_rad.sin(),
     );
     let x = omega_e_rad_s * motor.l_phase_h;
-    let re = motor.phase_emf_peak_v(omega_e_rad_s) + motor.r_phase_ohm * ic - x * is;
-    let im = motor.r_phase_ohm * is + x * ic;
+    let r = motor.r_phase_ohm + drops.r_switch_ohm;
+    // The dead-time fundamental per ampere of the current phasor (none without current).
+    let g = if i_peak_a > 0.0 {
+        4.0 / PI * drops.dead_time_mean_v / i_peak_a
+    } else {
+        0.0
+    };
+    let re = motor.phase_emf_peak_v(omega_e_rad_s) + (r + g) * ic - x * is;
+    let im = (r + g) * is + x * ic;
     let m = re.hypot(im) / (0.5 * v_bus_v);
     let phi = im.atan2(re) - current_advance_rad;
     let point = SinusoidalPoint {
@@ -742,7 +814,10 @@ pub fn sinusoidal_point_from_motor(
         i_peak_a,
     };
     point.validate()?;
-    Ok(point)
+    Ok(SinusoidalCommand {
+        point,
+        voltage_lead_rad: im.atan2(re),
+    })
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -852,6 +927,46 @@ pub fn sinusoidal_ripple(
     max_hz: f64,
     max_lines: usize,
 ) -> Result<PhaseRipple> {
+    sinusoidal_ripple_at(
+        stage,
+        l_phase_h,
+        &RippleCommand {
+            modulation_index,
+            zero_sequence,
+            current_lag_rad: None,
+        },
+        n_angles,
+        max_hz,
+        max_lines,
+    )
+}
+
+/// The leg command a ripple is computed for.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RippleCommand {
+    pub modulation_index: f64,
+    pub zero_sequence: ZeroSequence,
+    /// Angle by which the phase current lags the leg reference, rad. With it, each leg's
+    /// pulse is the one the dead time really leaves: `t_d·f` shorter while the current flows
+    /// out of the leg, longer while it flows in (the mean of the two edges of
+    /// [`crate::physics::leg_voltage::offset_v`], drops left out); without it, the commanded one.
+    pub current_lag_rad: Option<f64>,
+}
+
+/// [`sinusoidal_ripple`] of a [`RippleCommand`].
+pub fn sinusoidal_ripple_at(
+    stage: &ThreePhaseStage<'_>,
+    l_phase_h: f64,
+    command: &RippleCommand,
+    n_angles: usize,
+    max_hz: f64,
+    max_lines: usize,
+) -> Result<PhaseRipple> {
+    let RippleCommand {
+        modulation_index,
+        zero_sequence,
+        current_lag_rad,
+    } = *command;
     stage.validate()?;
     check("l_phase_h", l_phase_h, l_phase_h > 0.0)?;
     SinusoidalPoint {
@@ -872,7 +987,14 @@ pub fn sinusoidal_ripple(
     let (mut pp_max, mut at, mut ms_sum) = (0.0_f64, 0.0, 0.0);
     for j in 0..n_angles {
         let theta = 2.0 * PI * j as f64 / n_angles as f64;
-        let d = leg_duties(modulation_index, zero_sequence, theta);
+        let mut d = leg_duties(modulation_index, zero_sequence, theta);
+        if let Some(lag) = current_lag_rad {
+            let x = stage.t_dead_s * stage.f_sw_hz;
+            for (k, dk) in d.iter_mut().enumerate() {
+                let out_of_leg = (theta - 2.0 * PI * k as f64 / 3.0 - lag).sin() > 0.0;
+                *dk = (*dk + if out_of_leg { -x } else { x }).clamp(0.0, 1.0);
+            }
+        }
         let pattern = phase_voltage_pattern(d, stage.v_bus_v, t_s);
         let (pp, ms) = period_ripple(&pattern, l_phase_h, t_s);
         if pp > pp_max {
@@ -1658,6 +1780,38 @@ mod tests {
         let fast = motor.electrical_rad_s(12_000.0);
         let r = sinusoidal_point_from_motor(&motor, fast, 10.0, 0.0, 48.0, ZeroSequence::None);
         assert!(matches!(r, Err(ThreePhaseError::Overmodulation { .. })));
+    }
+
+    /// The bridge's losses made up by hand: R = L = 0, γ = 0, so V = E + R_sw·I + (4/π)·ΔV
+    /// on the real axis (the square wave's fundamental, 4/π of its height), no lead; with the
+    /// inductance the lead is atan(ωLI / (E + R_sw·I + (4/π)ΔV)).
+    #[test]
+    fn point_with_drops_by_hand() {
+        let mut motor = MotorParams {
+            r_phase_ohm: 0.0,
+            l_phase_h: 0.0,
+            ke_v_s_per_rad: 0.015,
+            pole_pairs: 4,
+            back_emf_shape: BackEmfShape::Sinusoidal,
+        };
+        let w = 400.0 * PI;
+        let drops = BridgeDrops {
+            r_switch_ohm: 0.02,
+            dead_time_mean_v: 0.3,
+        };
+        let zs = ZeroSequence::None;
+        let c = sinusoidal_point_with_drops(&motor, w, 10.0, 0.0, 48.0, zs, &drops).unwrap();
+        let want = 0.015 * w + 0.02 * 10.0 + 4.0 / PI * 0.3;
+        assert!(rel(c.point.modulation_index, want / 24.0) < 1e-12);
+        assert!(c.voltage_lead_rad.abs() < 1e-15);
+        motor.l_phase_h = 200e-6;
+        let c = sinusoidal_point_with_drops(&motor, w, 10.0, 0.0, 48.0, zs, &drops).unwrap();
+        let x = w * 200e-6 * 10.0;
+        assert!(rel(c.voltage_lead_rad, x.atan2(want)) < 1e-12);
+        assert!(rel(c.point.modulation_index, want.hypot(x) / 24.0) < 1e-12);
+        // No current, no dead-time make-up.
+        let c = sinusoidal_point_with_drops(&motor, w, 0.0, 0.0, 48.0, zs, &drops).unwrap();
+        assert!(rel(c.point.modulation_index, 0.015 * w / 24.0) < 1e-12);
     }
 
     /// Brute-force time simulation of phase A of a star-connected R-L-back-EMF load under the
