@@ -363,6 +363,8 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     let mut spent: BTreeMap<usize, f64> = BTreeMap::new();
     let (mut refused, mut refused_text) = (0usize, String::new());
     let mut sampled = 0usize;
+    // Three-phase plans whose phase currents the verifier compared.
+    let mut currents_checked = 0usize;
     for i in 0..n {
         let kind = kinds.start + i % kinds.len();
         *drawn.entry(kind).or_default() += 1;
@@ -384,6 +386,9 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         let check = register_check::check(&RegisterView::of(&plan));
         if check.sample_low_on_before_s.is_some() {
             sampled += 1;
+        }
+        if plan.topology == "three-phase" && !check.cases.is_empty() {
+            currents_checked += 1;
         }
         for c in &check.cases {
             let case = plan.cases.iter().find(|k| k.name == c.name).expect("case");
@@ -421,7 +426,7 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         100.0 * worst_ripple
     );
     eprintln!(
-        "seconds per kind {spent:?}; {refused} refused as input; {sampled} sampling windows checked"
+        "seconds per kind {spent:?}; {refused} refused as input; {sampled} sampling windows checked; {currents_checked} three-phase plans' phase currents compared"
     );
     let sinusoidal = kinds
         .clone()
@@ -430,6 +435,10 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     assert!(
         sinusoidal == 0 || sampled * 10 >= n * sinusoidal,
         "only {sampled} sampling windows were checked"
+    );
+    assert!(
+        sinusoidal == 0 || currents_checked * 10 >= n * sinusoidal,
+        "only {currents_checked} three-phase plans had their phase currents compared"
     );
     assert!(
         refused * 50 <= n,

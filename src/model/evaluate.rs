@@ -649,6 +649,11 @@ pub struct ThreePhaseCase {
     /// Sinusoidal: (closed form − sample average)/sample average of the
     /// per-switch loss.
     pub closed_form_deviation_rel: Option<f64>,
+    /// Sinusoidal: angle by which the commanded phase-voltage fundamental leads the back-EMF,
+    /// rad (the leg duties are `½(1 + m·sin θ + zero sequence)`, the back-EMF of phase a
+    /// `E·sin(θ − lead)`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub voltage_lead_rad: Option<f64>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -1000,6 +1005,10 @@ impl Evaluator {
         t_dead_s: f64,
     ) -> Option<f64> {
         if let Some(tp) = &self.three_phase {
+            if let ThreePhaseModulation::Sinusoidal { .. } = tp.modulation {
+                let m = self.three_phase_modulation(tp, case, f_hz, t_dead_s, 0.0)?;
+                return Some(tp.modulation.leg_duty_max(m));
+            }
             let m = self.modulation_for_load(case, f_hz)?;
             let drops = self.leg_drops(case, f_hz, t_dead_s);
             return Some(
@@ -1162,16 +1171,9 @@ impl Evaluator {
             ThreePhaseModulation::Sinusoidal {
                 zero_sequence,
                 current_advance_rad,
-            } => three_phase::sinusoidal_point_from_motor(
-                &motor,
-                tp.omega_e_rad_s,
-                case.load_current_a,
-                current_advance_rad,
-                case.v_bus_v,
-                zero_sequence,
-            )
-            .ok()
-            .map(|p| p.modulation_index),
+            } => self
+                .sinusoidal_command(tp, case, f_hz, t_dead_s, current_advance_rad, zero_sequence)
+                .map(|c| c.point.modulation_index),
             ThreePhaseModulation::SixStep { chop } => three_phase::six_step_duty(
                 &self.bridge(case, f_hz, t_dead_s),
                 &motor,
@@ -1182,6 +1184,35 @@ impl Evaluator {
             )
             .ok(),
         }
+    }
+
+    /// The sinusoidal leg command for the case's phase-current peak, with the bridge's switch
+    /// drop and dead-time loss made up (`sinusoidal_point_with_drops`; drops of
+    /// [`Self::leg_drops`], the same the plan records for the register check).
+    fn sinusoidal_command(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+        gamma_rad: f64,
+        zs: ZeroSequence,
+    ) -> Option<three_phase::SinusoidalCommand> {
+        let d = self.leg_drops(case, f_hz, t_dead_s);
+        let drops = three_phase::BridgeDrops {
+            r_switch_ohm: d.r_ds_on_ohm,
+            dead_time_mean_v: d.t_dead_s * d.f_sw_hz * (d.v_bus_v + 2.0 * d.v_sd_v),
+        };
+        three_phase::sinusoidal_point_with_drops(
+            &self.motor_params(tp),
+            tp.omega_e_rad_s,
+            case.load_current_a,
+            gamma_rad,
+            case.v_bus_v,
+            zs,
+            &drops,
+        )
+        .ok()
     }
 
     /// Top of the frequency range the acoustic verdict looks at.
@@ -1215,10 +1246,13 @@ impl Evaluator {
                 self.case_six_step(tp, case, f_hz, t_dead_s, chop)
             }
         }?;
-        let drops = self.leg_drops(case, f_hz, t_dead_s);
-        let i_peak = r.ripple.max_a.abs().max(case.load_current_a.abs());
-        r.compare_duty =
-            tp.modulation.leg_duty_max(r.modulation) + three_phase_duty_allowance(&drops, i_peak);
+        r.compare_duty = tp.modulation.leg_duty_max(r.modulation);
+        if let ThreePhaseModulation::SixStep { .. } = tp.modulation {
+            // Six-step's duty does not make up the bridge's losses: bound them.
+            let drops = self.leg_drops(case, f_hz, t_dead_s);
+            let i_peak = r.ripple.max_a.abs().max(case.load_current_a.abs());
+            r.compare_duty += three_phase_duty_allowance(&drops, i_peak);
+        }
         Some(r)
     }
 
@@ -1239,16 +1273,8 @@ impl Evaluator {
     ) -> Option<CaseResult> {
         let st = &self.stage;
         let bridge = self.bridge(case, f_hz, t_dead_s);
-        let motor = self.motor_params(tp);
-        let point = three_phase::sinusoidal_point_from_motor(
-            &motor,
-            tp.omega_e_rad_s,
-            case.load_current_a,
-            gamma_rad,
-            case.v_bus_v,
-            zs,
-        )
-        .ok()?;
+        let command = self.sinusoidal_command(tp, case, f_hz, t_dead_s, gamma_rad, zs)?;
+        let point = command.point;
         let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
         let closed = |t: f64| {
             three_phase::sinusoidal_losses_closed_form(&bridge, &point, t)
@@ -1273,11 +1299,14 @@ impl Evaluator {
             i_on_a: point.i_peak_a,
             i_off_a: point.i_peak_a,
         };
-        let ripple = three_phase::sinusoidal_ripple(
+        let ripple = three_phase::sinusoidal_ripple_at(
             &bridge,
             self.motor_l_h,
-            point.modulation_index,
-            zs,
+            &three_phase::RippleCommand {
+                modulation_index: point.modulation_index,
+                zero_sequence: zs,
+                current_lag_rad: Some(command.voltage_lead_rad - gamma_rad),
+            },
             three_phase::DEFAULT_RIPPLE_ANGLES,
             self.acoustic_top_hz(),
             self.significance.max_lines,
@@ -1317,6 +1346,7 @@ impl Evaluator {
             devices_total_w: 0.0,
             gate_outside_devices_w: 0.0,
             closed_form_deviation_rel: Some(report.closed_form_deviation_rel),
+            voltage_lead_rad: Some(command.voltage_lead_rad),
         };
         self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic.into(), extra)
     }
@@ -1411,6 +1441,7 @@ impl Evaluator {
             devices_total_w: 0.0,
             gate_outside_devices_w: 0.0,
             closed_form_deviation_rel: None,
+            voltage_lead_rad: None,
         };
         self.three_phase_result(case, d, sides, ripple_fig, copper, acoustic.into(), extra)
     }

@@ -1411,8 +1411,20 @@ pub struct ThreePhaseVerification {
     pub electrical_hz: f64,
     /// One sample per PWM period at the trigger instant.
     pub samples: Vec<ThreePhaseSample>,
+    /// The phase currents at every instant a leg changes state (and at the triggers), in time
+    /// order over the electrical period, `(time_s, currents_a)`: between two such instants
+    /// each current is one exponential segment, so the extremes of a PWM period lie here
+    /// (to within the back-EMF's change over one segment).
+    pub boundaries: Vec<(f64, [f64; 3])>,
     /// Largest phase-current change over one electrical period from the solution, A.
     pub residual_a: f64,
+}
+
+/// What a recording run of the three-phase solver collects.
+#[derive(Default)]
+struct Record {
+    samples: Vec<ThreePhaseSample>,
+    boundaries: Vec<(f64, [f64; 3])>,
 }
 
 /// Event-search grid points per interval for a floating leg (see [`verify_three_phase`]).
@@ -1685,17 +1697,21 @@ struct Watch {
 }
 
 impl Sim3<'_> {
-    fn run(
-        &self,
-        i0: [f64; 3],
-        mut samples: Option<&mut Vec<ThreePhaseSample>>,
-    ) -> Result<[f64; 3], VerifyError> {
+    /// Runs the intervals from `i0`; with `record`, the samples at the trigger and the currents
+    /// at every interval boundary.
+    fn run(&self, i0: [f64; 3], mut record: Option<&mut Record>) -> Result<[f64; 3], VerifyError> {
         let mut i = i0;
         for iv in self.intervals {
-            if let (Some(s), Some(legs)) = (samples.as_deref_mut(), iv.sample) {
-                s.push(three_phase_sample(legs, i, iv.t0_s));
+            if let Some(r) = record.as_deref_mut() {
+                if let Some(legs) = iv.sample {
+                    r.samples.push(three_phase_sample(legs, i, iv.t0_s));
+                }
+                r.boundaries.push((iv.t0_s, i));
             }
             i = self.advance(iv, i)?;
+        }
+        if let (Some(r), Some(last)) = (record, self.intervals.last()) {
+            r.boundaries.push((last.t1_s, i));
         }
         Ok(i)
     }
@@ -1890,14 +1906,15 @@ pub fn verify_three_phase(
     };
     let scale = (switches.v_bus_v + switches.v_sd_v + load.emf_peak_v.abs()) / load.r_ohm;
     let start = three_phase_fixed_point(&sim, scale)?;
-    let mut samples = Vec::with_capacity(compares.len());
-    let end = sim.run(start, Some(&mut samples))?;
+    let mut record = Record::default();
+    let end = sim.run(start, Some(&mut record))?;
     let residual_a = (0..3)
         .map(|k| (end[k] - start[k]).abs())
         .fold(0.0, f64::max);
     Ok(ThreePhaseVerification {
         electrical_hz: 1.0 / electrical_s,
-        samples,
+        samples: record.samples,
+        boundaries: record.boundaries,
         residual_a,
     })
 }

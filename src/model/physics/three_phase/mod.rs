@@ -262,6 +262,38 @@ mod tests {
         assert!(matches!(r, Err(ThreePhaseError::Overmodulation { .. })));
     }
 
+    /// The bridge's losses made up by hand: R = L = 0, γ = 0, so V = E + R_sw·I + (4/π)·ΔV
+    /// on the real axis (the square wave's fundamental, 4/π of its height), no lead; with the
+    /// inductance the lead is atan(ωLI / (E + R_sw·I + (4/π)ΔV)).
+    #[test]
+    fn point_with_drops_by_hand() {
+        let mut motor = MotorParams {
+            r_phase_ohm: 0.0,
+            l_phase_h: 0.0,
+            ke_v_s_per_rad: 0.015,
+            pole_pairs: 4,
+            back_emf_shape: BackEmfShape::Sinusoidal,
+        };
+        let w = 400.0 * PI;
+        let drops = BridgeDrops {
+            r_switch_ohm: 0.02,
+            dead_time_mean_v: 0.3,
+        };
+        let zs = ZeroSequence::None;
+        let c = sinusoidal_point_with_drops(&motor, w, 10.0, 0.0, 48.0, zs, &drops).unwrap();
+        let want = 0.015 * w + 0.02 * 10.0 + 4.0 / PI * 0.3;
+        assert!(rel(c.point.modulation_index, want / 24.0) < 1e-12);
+        assert!(c.voltage_lead_rad.abs() < 1e-15);
+        motor.l_phase_h = 200e-6;
+        let c = sinusoidal_point_with_drops(&motor, w, 10.0, 0.0, 48.0, zs, &drops).unwrap();
+        let x = w * 200e-6 * 10.0;
+        assert!(rel(c.voltage_lead_rad, x.atan2(want)) < 1e-12);
+        assert!(rel(c.point.modulation_index, want.hypot(x) / 24.0) < 1e-12);
+        // No current, no dead-time make-up.
+        let c = sinusoidal_point_with_drops(&motor, w, 0.0, 0.0, 48.0, zs, &drops).unwrap();
+        assert!(rel(c.point.modulation_index, 0.015 * w / 24.0) < 1e-12);
+    }
+
     /// Brute-force time simulation of phase A of a star-connected R-L-back-EMF load under the
     /// actual three-phase switching, written independently of the code under test: its own
     /// references and min-max offset, switching instants from comparing each reference with a

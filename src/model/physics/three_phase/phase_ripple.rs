@@ -114,6 +114,46 @@ pub fn sinusoidal_ripple(
     max_hz: f64,
     max_lines: usize,
 ) -> Result<PhaseRipple> {
+    sinusoidal_ripple_at(
+        stage,
+        l_phase_h,
+        &RippleCommand {
+            modulation_index,
+            zero_sequence,
+            current_lag_rad: None,
+        },
+        n_angles,
+        max_hz,
+        max_lines,
+    )
+}
+
+/// The leg command a ripple is computed for.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RippleCommand {
+    pub modulation_index: f64,
+    pub zero_sequence: ZeroSequence,
+    /// Angle by which the phase current lags the leg reference, rad. With it, each leg's
+    /// pulse is the one the dead time really leaves: `t_d·f` shorter while the current flows
+    /// out of the leg, longer while it flows in (the mean of the two edges of
+    /// [`crate::model::physics::leg_voltage::offset_v`], drops left out); without it, the commanded one.
+    pub current_lag_rad: Option<f64>,
+}
+
+/// [`sinusoidal_ripple`] of a [`RippleCommand`].
+pub fn sinusoidal_ripple_at(
+    stage: &ThreePhaseStage<'_>,
+    l_phase_h: f64,
+    command: &RippleCommand,
+    n_angles: usize,
+    max_hz: f64,
+    max_lines: usize,
+) -> Result<PhaseRipple> {
+    let RippleCommand {
+        modulation_index,
+        zero_sequence,
+        current_lag_rad,
+    } = *command;
     stage.validate()?;
     check("l_phase_h", l_phase_h, l_phase_h > 0.0)?;
     SinusoidalPoint {
@@ -134,7 +174,14 @@ pub fn sinusoidal_ripple(
     let (mut pp_max, mut at, mut ms_sum) = (0.0_f64, 0.0, 0.0);
     for j in 0..n_angles {
         let theta = 2.0 * PI * j as f64 / n_angles as f64;
-        let d = leg_duties(modulation_index, zero_sequence, theta);
+        let mut d = leg_duties(modulation_index, zero_sequence, theta);
+        if let Some(lag) = current_lag_rad {
+            let x = stage.t_dead_s * stage.f_sw_hz;
+            for (k, dk) in d.iter_mut().enumerate() {
+                let out_of_leg = (theta - 2.0 * PI * k as f64 / 3.0 - lag).sin() > 0.0;
+                *dk = (*dk + if out_of_leg { -x } else { x }).clamp(0.0, 1.0);
+            }
+        }
         let pattern = phase_voltage_pattern(d, stage.v_bus_v, t_s);
         let (pp, ms) = period_ripple(&pattern, l_phase_h, t_s);
         if pp > pp_max {

@@ -313,6 +313,71 @@ pub fn sinusoidal_point_from_motor(
     v_bus_v: f64,
     zero_sequence: ZeroSequence,
 ) -> Result<SinusoidalPoint> {
+    let ideal = BridgeDrops {
+        r_switch_ohm: 0.0,
+        dead_time_mean_v: 0.0,
+    };
+    sinusoidal_point_with_drops(
+        motor,
+        omega_e_rad_s,
+        i_peak_a,
+        current_advance_rad,
+        v_bus_v,
+        zero_sequence,
+        &ideal,
+    )
+    .map(|c| c.point)
+}
+
+/// The leg command of a sinusoidal operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SinusoidalCommand {
+    pub point: SinusoidalPoint,
+    /// Angle by which the commanded phase-voltage fundamental leads the back-EMF, rad.
+    pub voltage_lead_rad: f64,
+}
+
+/// What a real leg takes off the voltage its duty asks for, phase by phase.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BridgeDrops {
+    /// On-resistance of the conducting switch: the leg's output sits `i·R` below its ideal
+    /// level whichever side conducts, so it adds to the phase resistance, Ω.
+    pub r_switch_ohm: f64,
+    /// Mean leg-voltage loss over a PWM period from the dead time while the current flows out
+    /// of the leg (the reverse sign into it): `t_d·f·(V + 2·V_SD)`, V (the two edges of
+    /// [`crate::model::physics::leg_voltage::offset_v`] with the current of one sign at both).
+    pub dead_time_mean_v: f64,
+}
+
+/// [`sinusoidal_point_from_motor`] with the bridge's own losses made up, so that the
+/// modulation index is the one a leg must be commanded with for the motor to carry `I_pk`.
+///
+/// The switch drop adds `R·I` in phase with the current. The dead-time loss follows the
+/// current's sign, a square wave of height ΔV in phase with the current; its fundamental is
+/// (4/π)·ΔV (Fourier series of a square wave; Mohan, Undeland, Robbins, *Power Electronics*,
+/// 2003, ch. 8, the dead-time effect on the output voltage, from memory). Its odd triplen
+/// harmonics cancel in a star with an isolated neutral; the 5th and 7th remain (not made
+/// up). Near the current's zero crossings the ripple lets the current change sign within a
+/// period and the loss shrinks there (not modelled: a small excess of the made-up voltage).
+pub fn sinusoidal_point_with_drops(
+    motor: &MotorParams,
+    omega_e_rad_s: f64,
+    i_peak_a: f64,
+    current_advance_rad: f64,
+    v_bus_v: f64,
+    zero_sequence: ZeroSequence,
+    drops: &BridgeDrops,
+) -> Result<SinusoidalCommand> {
+    check(
+        "r_switch_ohm",
+        drops.r_switch_ohm,
+        drops.r_switch_ohm >= 0.0,
+    )?;
+    check(
+        "dead_time_mean_v",
+        drops.dead_time_mean_v,
+        drops.dead_time_mean_v >= 0.0,
+    )?;
     check("omega_e_rad_s", omega_e_rad_s, true)?;
     check("i_peak_a", i_peak_a, i_peak_a >= 0.0)?;
     check("current_advance_rad", current_advance_rad, true)?;
@@ -325,8 +390,15 @@ pub fn sinusoidal_point_from_motor(
         i_peak_a * current_advance_rad.sin(),
     );
     let x = omega_e_rad_s * motor.l_phase_h;
-    let re = motor.phase_emf_peak_v(omega_e_rad_s) + motor.r_phase_ohm * ic - x * is;
-    let im = motor.r_phase_ohm * is + x * ic;
+    let r = motor.r_phase_ohm + drops.r_switch_ohm;
+    // The dead-time fundamental per ampere of the current phasor (none without current).
+    let g = if i_peak_a > 0.0 {
+        4.0 / PI * drops.dead_time_mean_v / i_peak_a
+    } else {
+        0.0
+    };
+    let re = motor.phase_emf_peak_v(omega_e_rad_s) + (r + g) * ic - x * is;
+    let im = (r + g) * is + x * ic;
     let m = re.hypot(im) / (0.5 * v_bus_v);
     let phi = im.atan2(re) - current_advance_rad;
     let point = SinusoidalPoint {
@@ -336,5 +408,8 @@ pub fn sinusoidal_point_from_motor(
         i_peak_a,
     };
     point.validate()?;
-    Ok(point)
+    Ok(SinusoidalCommand {
+        point,
+        voltage_lead_rad: im.atan2(re),
+    })
 }

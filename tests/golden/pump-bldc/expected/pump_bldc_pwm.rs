@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:6661fef8eadd32f3a2e831688f6dc90c91fc3e51309003ea855a44c4b37bf4f0)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:a6a63d7adb2206b9db876918cf3473d6b2b978f1ccb76e11fac757a01f14dca2)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -10,9 +10,9 @@
 //!   timer             clock 120.0 MHz; divider 1 (register 0); period 5998 ticks (register 2999)
 //!   resolution        2999 duty steps (11.6 bits)
 //!   dead time         125 ns = 15 ticks (code 0x0F); needed 124 ns
-//!   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.3 % to 76.7 %
-//!   three-phase       sinusoidal, zero sequence min-max; m 0.500, cos φ 0.965 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
-//!   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.5 %.
+//!   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.4 % to 76.6 %
+//!   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
+//!   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.8 %.
 //!   feasible band     20.007 kHz to 40.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
@@ -21,8 +21,8 @@
 //!   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
 //!   resolution         10.00 bits  11.55 bits  1.55 bits  ok
 //!   dead-time              125 ns      124 ns     550 ps  ok
-//!   duty-range            98.13 %     76.70 %    21.43 %  ok
-//!   sampling-window       91.90 %     72.52 %    19.38 %  ok
+//!   duty-range            98.13 %     76.65 %    21.49 %  ok
+//!   sampling-window       91.90 %     72.84 %    19.06 %  ok
 //!   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
@@ -32,33 +32,35 @@
 //!   reverse recovery     342 mW
 //!   dead-time diode      86.0 mW
 //!   gate drive           82.4 mW
-//!   motor ripple copper  9.29 mW
+//!   motor ripple copper  9.43 mW
 //!   total                2.63 W
 //!
 //! Operating figures
 //!   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
 //!   high-bus case           54.0 V supply, 45.0 °C ambient, 10.0 A load
 //!   junction                49.0 °C at the rated case, 49.1 °C at the high-bus case (limit 145 °C)
-//!   ripple, rated case      750 mA peak to peak at 20.007 kHz (continuous), 161 mA rms
-//!   ripple, high-bus case   800 mA peak to peak at 20.007 kHz (continuous), 169 mA rms; the larger, checked against the ripple limit
+//!   ripple, rated case      754 mA peak to peak at 20.007 kHz (continuous), 162 mA rms
+//!   ripple, high-bus case   805 mA peak to peak at 20.007 kHz (continuous), 171 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
 //!   total-loss  3.70 W; ok; hot: V_th min, supply 54.0 V
-//!   ripple      800 mA; ok; hot: V_th min, supply 54.0 V
-//!   duty-range  76.84 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
+//!   ripple      807 mA; ok; hot: V_th min, supply 54.0 V
+//!   duty-range  76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
 //!   dead-time   needs 124 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Checked on the registers (independent simulation of the written values)
-//!   pulses       shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
-//!   not checked  three-phase currents against the averaged model (not compared yet)
+//!   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
+//!   rated case     at compare duty 72.249 %: mean current 9.994 A (plan 10.00 A), ripple 752.2 mA peak to peak (plan 754.0 mA)
+//!   high-bus case  at compare duty 69.806 %: mean current 9.994 A (plan 10.00 A), ripple 804.0 mA peak to peak (plan 805.3 mA)
+//!   not checked    three-phase phase currents are held to 8 % (peak) and 12 % (ripple), not the 1 % of single-phase plans: the averaged model's dead-time make-up is approximate
 //!
 //! Alternatives
-//!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -267 mA ripple, -0.58 bits resolution
-//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -400 mA ripple, -1.00 bits resolution
+//!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
+//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -403 mA ripple, -1.00 bits resolution
 //!
 //! Findings
 //!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225 A: above the I_D rating 60.0 A, and 992 W at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
