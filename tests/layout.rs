@@ -34,8 +34,43 @@ use std::path::{Path, PathBuf};
 const MAX_FN_LINES: usize = 120;
 
 /// Functions allowed over [`MAX_FN_LINES`], as (module, function, reason).
-/// Keep it short: a long function with named parts should be split.
-const LONG_FN_ALLOWED: &[(&str, &str, &str)] = &[];
+/// Keep it short: a long function with named parts should be split. None is
+/// a generated table; these are long functions not yet split (issue 23
+/// left them for a follow-up), listed so a new one cannot join them quietly.
+const LONG_FN_ALLOWED: &[(&str, &str, &str)] = &[
+    (
+        "model::physics::three_phase::six_step",
+        "six_step_losses",
+        "not yet split: one integral per role, sharing many locals",
+    ),
+    (
+        "model::solve",
+        "candidate",
+        "not yet split: one check per constraint",
+    ),
+    ("model::solve", "search_list", "not yet split"),
+    (
+        "output::emit",
+        "context",
+        "not yet split: one section per context field",
+    ),
+    (
+        "output::plan",
+        "findings",
+        "not yet split: one finding per rating",
+    ),
+    ("output::plan", "build_on", "not yet split"),
+    (
+        "output::report",
+        "compare_table",
+        "not yet split: one row per figure",
+    ),
+    (
+        "output::svg",
+        "thermal_ripple_plot_svg",
+        "not yet split: one panel after another",
+    ),
+];
 
 type Graph = BTreeMap<String, BTreeSet<String>>;
 
