@@ -74,6 +74,9 @@ const LONG_FN_ALLOWED: &[(&str, &str, &str)] = &[
 
 type Graph = BTreeMap<String, BTreeSet<String>>;
 
+/// The re-exports of declaring-only modules: module → (name → path, globs).
+type Reexports = BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)>;
+
 /// One source file, its text with comments, literals and test code blanked
 /// (newlines kept, so line numbers still hold).
 struct Source {
@@ -487,8 +490,7 @@ fn module_graph(sources: &[Source]) -> Layout {
     };
 
     // The re-exports of declaring-only modules: name → path, and globs.
-    let mut reexports: BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)> =
-        BTreeMap::new();
+    let mut reexports: Reexports = BTreeMap::new();
     let mut declaring = BTreeSet::new();
     for src in sources {
         let uses = use_declarations(&src.code);
@@ -517,7 +519,7 @@ fn module_graph(sources: &[Source]) -> Layout {
     fn resolve(
         path: &[String],
         modules: &BTreeSet<String>,
-        reexports: &BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)>,
+        reexports: &Reexports,
         depth: usize,
     ) -> Vec<String> {
         let mut k = path.len();
@@ -531,23 +533,24 @@ fn module_graph(sources: &[Source]) -> Layout {
             }
             k -= 1;
         };
-        if depth < 8 && k < path.len() {
-            if let Some((names, globs)) = reexports.get(&owner) {
-                if let Some(target) = names.get(&path[k]) {
-                    let mut next = target.clone();
-                    next.extend(path[k + 1..].iter().cloned());
-                    return resolve(&next, modules, reexports, depth + 1);
-                }
-                if !globs.is_empty() {
-                    return globs
-                        .iter()
-                        .flat_map(|g| {
-                            let mut next = g.clone();
-                            next.extend(path[k..].iter().cloned());
-                            resolve(&next, modules, reexports, depth + 1)
-                        })
-                        .collect();
-                }
+        if depth < 8
+            && k < path.len()
+            && let Some((names, globs)) = reexports.get(&owner)
+        {
+            if let Some(target) = names.get(&path[k]) {
+                let mut next = target.clone();
+                next.extend(path[k + 1..].iter().cloned());
+                return resolve(&next, modules, reexports, depth + 1);
+            }
+            if !globs.is_empty() {
+                return globs
+                    .iter()
+                    .flat_map(|g| {
+                        let mut next = g.clone();
+                        next.extend(path[k..].iter().cloned());
+                        resolve(&next, modules, reexports, depth + 1)
+                    })
+                    .collect();
             }
         }
         vec![owner]
@@ -647,10 +650,10 @@ fn find_cycle(graph: &Graph) -> Option<Vec<String>> {
     }
     let mut marks = BTreeMap::new();
     for node in graph.keys() {
-        if marks.get(node).copied().unwrap_or(Mark::New) == Mark::New {
-            if let Some(c) = visit(node, graph, &mut marks, &mut Vec::new()) {
-                return Some(c);
-            }
+        if marks.get(node).copied().unwrap_or(Mark::New) == Mark::New
+            && let Some(c) = visit(node, graph, &mut marks, &mut Vec::new())
+        {
+            return Some(c);
         }
     }
     None
