@@ -34,10 +34,53 @@ use std::path::{Path, PathBuf};
 const MAX_FN_LINES: usize = 120;
 
 /// Functions allowed over [`MAX_FN_LINES`], as (module, function, reason).
-/// Keep it short: a long function with named parts should be split.
-const LONG_FN_ALLOWED: &[(&str, &str, &str)] = &[];
+/// Keep it short: a long function with named parts should be split. None is
+/// a generated table; these are long functions not yet split (issue 23
+/// left them for a follow-up), listed so a new one cannot join them quietly.
+const LONG_FN_ALLOWED: &[(&str, &str, &str)] = &[
+    (
+        "model::physics::three_phase::six_step",
+        "six_step_losses",
+        "not yet split: one integral per role, sharing many locals",
+    ),
+    (
+        "model::solve",
+        "candidate",
+        "not yet split: one check per constraint",
+    ),
+    ("model::solve", "search_list", "not yet split"),
+    (
+        "output::emit",
+        "context",
+        "not yet split: one section per context field",
+    ),
+    (
+        "output::plan",
+        "findings",
+        "not yet split: one finding per rating",
+    ),
+    ("output::plan", "build_on", "not yet split"),
+    (
+        "output::svg",
+        "loss_plot_svg",
+        "not yet split: one layer after another",
+    ),
+    (
+        "output::report",
+        "compare_table",
+        "not yet split: one row per figure",
+    ),
+    (
+        "output::svg",
+        "thermal_ripple_plot_svg",
+        "not yet split: one panel after another",
+    ),
+];
 
 type Graph = BTreeMap<String, BTreeSet<String>>;
+
+/// The re-exports of declaring-only modules: module → (name → path, globs).
+type Reexports = BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)>;
 
 /// One source file, its text with comments, literals and test code blanked
 /// (newlines kept, so line numbers still hold).
@@ -452,8 +495,7 @@ fn module_graph(sources: &[Source]) -> Layout {
     };
 
     // The re-exports of declaring-only modules: name → path, and globs.
-    let mut reexports: BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)> =
-        BTreeMap::new();
+    let mut reexports: Reexports = BTreeMap::new();
     let mut declaring = BTreeSet::new();
     for src in sources {
         let uses = use_declarations(&src.code);
@@ -482,7 +524,7 @@ fn module_graph(sources: &[Source]) -> Layout {
     fn resolve(
         path: &[String],
         modules: &BTreeSet<String>,
-        reexports: &BTreeMap<String, (BTreeMap<String, Vec<String>>, Vec<Vec<String>>)>,
+        reexports: &Reexports,
         depth: usize,
     ) -> Vec<String> {
         let mut k = path.len();
@@ -496,23 +538,24 @@ fn module_graph(sources: &[Source]) -> Layout {
             }
             k -= 1;
         };
-        if depth < 8 && k < path.len() {
-            if let Some((names, globs)) = reexports.get(&owner) {
-                if let Some(target) = names.get(&path[k]) {
-                    let mut next = target.clone();
-                    next.extend(path[k + 1..].iter().cloned());
-                    return resolve(&next, modules, reexports, depth + 1);
-                }
-                if !globs.is_empty() {
-                    return globs
-                        .iter()
-                        .flat_map(|g| {
-                            let mut next = g.clone();
-                            next.extend(path[k..].iter().cloned());
-                            resolve(&next, modules, reexports, depth + 1)
-                        })
-                        .collect();
-                }
+        if depth < 8
+            && k < path.len()
+            && let Some((names, globs)) = reexports.get(&owner)
+        {
+            if let Some(target) = names.get(&path[k]) {
+                let mut next = target.clone();
+                next.extend(path[k + 1..].iter().cloned());
+                return resolve(&next, modules, reexports, depth + 1);
+            }
+            if !globs.is_empty() {
+                return globs
+                    .iter()
+                    .flat_map(|g| {
+                        let mut next = g.clone();
+                        next.extend(path[k..].iter().cloned());
+                        resolve(&next, modules, reexports, depth + 1)
+                    })
+                    .collect();
             }
         }
         vec![owner]
@@ -612,10 +655,10 @@ fn find_cycle(graph: &Graph) -> Option<Vec<String>> {
     }
     let mut marks = BTreeMap::new();
     for node in graph.keys() {
-        if marks.get(node).copied().unwrap_or(Mark::New) == Mark::New {
-            if let Some(c) = visit(node, graph, &mut marks, &mut Vec::new()) {
-                return Some(c);
-            }
+        if marks.get(node).copied().unwrap_or(Mark::New) == Mark::New
+            && let Some(c) = visit(node, graph, &mut marks, &mut Vec::new())
+        {
+            return Some(c);
         }
     }
     None
@@ -645,7 +688,17 @@ fn functions(src: &Source) -> Vec<(String, String, usize, usize)> {
             continue; // a function pointer type, `fn(f64) -> f64`
         }
         let name: String = code[s..j].iter().collect();
-        let Some(open) = (j..code.len()).find(|&k| code[k] == '{' || code[k] == ';') else {
+        // The body's `{`, or the `;` of a declaration, outside brackets (a
+        // signature may hold `[f64; 2]`).
+        let mut depth = 0i32;
+        let Some(open) = (j..code.len()).find(|&k| {
+            match code[k] {
+                '(' | '[' => depth += 1,
+                ')' | ']' => depth -= 1,
+                _ => {}
+            }
+            depth == 0 && (code[k] == '{' || code[k] == ';')
+        }) else {
             break;
         };
         if code[open] == ';' {
@@ -751,5 +804,19 @@ fn the_scanner_ignores_comments_literals_and_tests_and_expands_groups() {
     assert_eq!(
         inline_paths(&code, &heads),
         vec![path("crate::a"), path("crate::k::m")]
+    );
+}
+
+#[test]
+fn the_length_counter_sees_past_array_types_in_signatures() {
+    let text = "fn a(x: [f64; 2]) -> u8 {\n    1\n}\ntrait T { fn b(&self); }\n";
+    let src = Source {
+        module: "m".into(),
+        path: PathBuf::from("m.rs"),
+        code: blank_comments_and_literals(text),
+    };
+    assert_eq!(
+        functions(&src),
+        vec![("m".to_string(), "a".to_string(), 1, 3)]
     );
 }

@@ -1297,7 +1297,6 @@ fn check_design_supply(d: &DesignSpec, c: &Check) -> Result<(), InputError> {
 
 /// The motor, and its back-EMF shape and constant.
 fn check_design_motor(d: &DesignSpec, b: &BoardSpec, c: &Check) -> Result<(f64, f64), InputError> {
-    let s = &d.supply;
     let m = &d.motor;
     c.within(
         "motor.resistance",
@@ -1323,6 +1322,17 @@ fn check_design_motor(d: &DesignSpec, b: &BoardSpec, c: &Check) -> Result<(f64, 
         1e5,
         Dimension::AngularSpeed,
     )?;
+    check_design_motor_kind(d, b, c)
+}
+
+/// The motor kind against the stage, and its back-EMF shape and constant.
+fn check_design_motor_kind(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    c: &Check,
+) -> Result<(f64, f64), InputError> {
+    let s = &d.supply;
+    let m = &d.motor;
     let three_phase = b.stage.topology == TopologySpec::ThreePhase;
     match (m.kind, three_phase) {
         (MotorKind::Brushless, false) => {

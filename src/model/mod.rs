@@ -7,8 +7,8 @@
 //! ([`sweep`]), the register-level verifier ([`verify`]) and the comparison
 //! of its figures with a plan's claims ([`register_check`]).
 //!
-//! Must never: read a file, write a file, print, or format words for a
-//! person (details are data, formatted by `Display` when shown).
+//! Must never: read a file, write a file or print. The search and the
+//! Monte Carlo format no words (details are data, formatted when shown).
 
 pub mod evaluate;
 pub mod physics;

@@ -118,204 +118,13 @@ pub fn names(design: &str) -> Names {
 /// Build the template context of a plan.
 pub fn context(plan: &Plan, fpu: bool) -> Context {
     let t = &plan.timer;
-    let big = [t.duty_steps, t.period_ticks, t.period_register, t.divider]
-        .iter()
-        .any(|v| *v > u64::from(u32::MAX));
-    let dt_code = t.dead_time_code.unwrap_or(0);
-    let timer = TimerLiterals {
-        clock_hz: format!("{}", t.clock_hz.round() as u64),
-        c_clock_hz: format!("{}UL", t.clock_hz.round() as u64),
-        divider: t.divider.to_string(),
-        divider_register: t.divider_register.to_string(),
-        period_ticks: t.period_ticks.to_string(),
-        period_register: t.period_register.to_string(),
-        duty_steps: t.duty_steps.to_string(),
-        centre_aligned: plan.pwm.alignment == "centre",
-        alignment: plan.pwm.alignment.clone(),
-        dead_time_code: format!("0x{dt_code:02X}"),
-        dead_time_ticks: t.dead_time_ticks.unwrap_or(0).to_string(),
-        dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
-        compare_min: plan.pwm.compare_min.to_string(),
-        compare_max: plan.pwm.compare_max.to_string(),
-        frequency_millihz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
-        frequency_text: q(plan.pwm.frequency_hz, Dimension::Frequency, 5),
-        c_count_type: if big { "uint64_t" } else { "uint32_t" }.into(),
-        rust_count_type: if big { "u64" } else { "u32" }.into(),
-    };
+    let timer = timer_literals(plan);
     let has_dead_time = t.dead_time_ticks.is_some_and(|x| x > 0);
     let n = names(&plan.design);
-    let mut summary = Vec::new();
-    if !plan.feasible {
-        // Written only with `plan --force`: the reason leads every output.
-        summary.push(Row {
-            label: "VERDICT".into(),
-            value: format!(
-                "INFEASIBLE, do not use these settings: {}",
-                plan.infeasible_reasons().join("; ")
-            ),
-        });
-    }
-    summary.extend([
-        Row {
-            label: "design".into(),
-            value: plan.design.clone(),
-        },
-        Row {
-            label: "board".into(),
-            value: plan.board.clone(),
-        },
-        Row {
-            label: "switch".into(),
-            value: plan.switch.clone(),
-        },
-        Row {
-            label: "topology".into(),
-            value: plan.topology.clone(),
-        },
-        Row {
-            label: "objective".into(),
-            value: format!(
-                "{} at {} values",
-                plan.objective,
-                if plan.basis == "worst-case" {
-                    "worst-case"
-                } else {
-                    "typical"
-                }
-            ),
-        },
-        Row {
-            label: "frequency".into(),
-            value: format!("{}, {}-aligned", timer.frequency_text, plan.pwm.alignment),
-        },
-        Row {
-            label: "timer".into(),
-            value: format!(
-                "clock {}; divider {} (register {}); period {} ticks (register {})",
-                q(t.clock_hz, Dimension::Frequency, 4),
-                t.divider,
-                t.divider_register,
-                t.period_ticks,
-                t.period_register
-            ),
-        },
-        Row {
-            label: "resolution".into(),
-            value: format!(
-                "{} duty steps ({:.1} bits)",
-                t.duty_steps, t.resolution_bits
-            ),
-        },
-    ]);
-    if has_dead_time || t.dead_time_need_s > 0.0 {
-        summary.push(Row {
-            label: "dead time".into(),
-            value: format!(
-                "{} = {} ticks (code {}); needed {}",
-                q(t.dead_time_s, Dimension::Time, 3),
-                timer.dead_time_ticks,
-                timer.dead_time_code,
-                q(t.dead_time_need_s, Dimension::Time, 3)
-            ),
-        });
-    }
-    summary.push(Row {
-        label: "duty limits".into(),
-        value: format!(
-            "compare {} to {} ({:.1} % to {:.1} %); the load needs {:.1} % to {:.1} %",
-            plan.pwm.compare_min,
-            plan.pwm.compare_max,
-            100.0 * plan.pwm.duty_min,
-            100.0 * plan.pwm.duty_max,
-            100.0 * plan.pwm.duty_needed[0],
-            100.0 * plan.pwm.duty_needed[1]
-        ),
-    });
     let tpl = three_phase_literals(plan);
-    if let Some(tp) = &plan.three_phase {
-        summary.push(Row {
-            label: "three-phase".into(),
-            value: three_phase_summary(tp),
-        });
-        if !tpl.sampling_lines.is_empty() {
-            summary.push(Row {
-                label: "current sampling".into(),
-                value: tpl.sampling_lines.join(" "),
-            });
-        }
-    }
-    if let Some([a, b]) = plan.feasible_band_hz {
-        summary.push(Row {
-            label: "feasible band".into(),
-            value: format!(
-                "{} to {}",
-                q(a, Dimension::Frequency, 5),
-                q(b, Dimension::Frequency, 5)
-            ),
-        });
-    }
-    let constraints: Vec<ConstraintRow> = plan
-        .constraints
-        .iter()
-        .map(|c| ConstraintRow {
-            name: c.name.clone(),
-            limit: constraint_number(c.limit, &c.unit),
-            value: c
-                .value
-                .map(|v| constraint_number(v, &c.unit))
-                .unwrap_or_else(|| "none".into()),
-            margin: c
-                .margin
-                .map(|m| constraint_margin(m, &c.unit))
-                .unwrap_or_else(|| "none".into()),
-            status: match (c.pass, c.binding) {
-                (true, true) => "binds".into(),
-                (true, false) => "ok".into(),
-                (false, _) => "FAILS".into(),
-            },
-        })
-        .collect();
-    let l = &plan.losses_w;
-    let mut losses = vec![
-        Row {
-            label: "conduction".into(),
-            value: watts(l.conduction),
-        },
-        Row {
-            label: "switching".into(),
-            value: watts(l.switching),
-        },
-        Row {
-            label: "output capacitance".into(),
-            value: watts(l.output_capacitance),
-        },
-        Row {
-            label: "reverse recovery".into(),
-            value: watts(l.reverse_recovery),
-        },
-        Row {
-            label: "dead-time diode".into(),
-            value: watts(l.dead_time_diode),
-        },
-        Row {
-            label: "gate drive".into(),
-            value: watts(l.gate_drive),
-        },
-    ];
-    if plan.topology == "low-side" {
-        losses.push(Row {
-            label: "freewheel diode".into(),
-            value: watts(l.freewheel_diode),
-        });
-    }
-    losses.push(Row {
-        label: "motor ripple copper".into(),
-        value: watts(l.motor_ripple_copper),
-    });
-    losses.push(Row {
-        label: "total".into(),
-        value: watts(l.total),
-    });
+    let summary = summary_rows(plan, &timer, &tpl, has_dead_time);
+    let constraints = constraint_rows(plan);
+    let losses = loss_rows(plan);
     let figures = operating_figures(plan);
     let alternatives = plan
         .alternatives
@@ -403,6 +212,225 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
     };
     ctx.rationale_lines = rationale_lines(&ctx);
     ctx
+}
+
+/// The timer's literals, ready for code.
+fn timer_literals(plan: &Plan) -> TimerLiterals {
+    let t = &plan.timer;
+    let big = [t.duty_steps, t.period_ticks, t.period_register, t.divider]
+        .iter()
+        .any(|v| *v > u64::from(u32::MAX));
+    let dt_code = t.dead_time_code.unwrap_or(0);
+    TimerLiterals {
+        clock_hz: format!("{}", t.clock_hz.round() as u64),
+        c_clock_hz: format!("{}UL", t.clock_hz.round() as u64),
+        divider: t.divider.to_string(),
+        divider_register: t.divider_register.to_string(),
+        period_ticks: t.period_ticks.to_string(),
+        period_register: t.period_register.to_string(),
+        duty_steps: t.duty_steps.to_string(),
+        centre_aligned: plan.pwm.alignment == "centre",
+        alignment: plan.pwm.alignment.clone(),
+        dead_time_code: format!("0x{dt_code:02X}"),
+        dead_time_ticks: t.dead_time_ticks.unwrap_or(0).to_string(),
+        dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
+        compare_min: plan.pwm.compare_min.to_string(),
+        compare_max: plan.pwm.compare_max.to_string(),
+        frequency_millihz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
+        frequency_text: q(plan.pwm.frequency_hz, Dimension::Frequency, 5),
+        c_count_type: if big { "uint64_t" } else { "uint32_t" }.into(),
+        rust_count_type: if big { "u64" } else { "u32" }.into(),
+    }
+}
+
+/// The summary rows: the verdict when infeasible, then the setting.
+fn summary_rows(
+    plan: &Plan,
+    timer: &TimerLiterals,
+    tpl: &ThreePhaseLiterals,
+    has_dead_time: bool,
+) -> Vec<Row> {
+    let t = &plan.timer;
+    let mut summary = Vec::new();
+    if !plan.feasible {
+        // Written only with `plan --force`: the reason leads every output.
+        summary.push(Row {
+            label: "VERDICT".into(),
+            value: format!(
+                "INFEASIBLE, do not use these settings: {}",
+                plan.infeasible_reasons().join("; ")
+            ),
+        });
+    }
+    summary.extend([
+        Row {
+            label: "design".into(),
+            value: plan.design.clone(),
+        },
+        Row {
+            label: "board".into(),
+            value: plan.board.clone(),
+        },
+        Row {
+            label: "switch".into(),
+            value: plan.switch.clone(),
+        },
+        Row {
+            label: "topology".into(),
+            value: plan.topology.clone(),
+        },
+        Row {
+            label: "objective".into(),
+            value: format!(
+                "{} at {} values",
+                plan.objective,
+                if plan.basis == "worst-case" {
+                    "worst-case"
+                } else {
+                    "typical"
+                }
+            ),
+        },
+        Row {
+            label: "frequency".into(),
+            value: format!("{}, {}-aligned", timer.frequency_text, plan.pwm.alignment),
+        },
+        Row {
+            label: "timer".into(),
+            value: format!(
+                "clock {}; divider {} (register {}); period {} ticks (register {})",
+                q(t.clock_hz, Dimension::Frequency, 4),
+                t.divider,
+                t.divider_register,
+                t.period_ticks,
+                t.period_register
+            ),
+        },
+        Row {
+            label: "resolution".into(),
+            value: format!(
+                "{} duty steps ({:.1} bits)",
+                t.duty_steps, t.resolution_bits
+            ),
+        },
+    ]);
+    if has_dead_time || t.dead_time_need_s > 0.0 {
+        summary.push(Row {
+            label: "dead time".into(),
+            value: format!(
+                "{} = {} ticks (code {}); needed {}",
+                q(t.dead_time_s, Dimension::Time, 3),
+                timer.dead_time_ticks,
+                timer.dead_time_code,
+                q(t.dead_time_need_s, Dimension::Time, 3)
+            ),
+        });
+    }
+    summary.push(Row {
+        label: "duty limits".into(),
+        value: format!(
+            "compare {} to {} ({:.1} % to {:.1} %); the load needs {:.1} % to {:.1} %",
+            plan.pwm.compare_min,
+            plan.pwm.compare_max,
+            100.0 * plan.pwm.duty_min,
+            100.0 * plan.pwm.duty_max,
+            100.0 * plan.pwm.duty_needed[0],
+            100.0 * plan.pwm.duty_needed[1]
+        ),
+    });
+    if let Some(tp) = &plan.three_phase {
+        summary.push(Row {
+            label: "three-phase".into(),
+            value: three_phase_summary(tp),
+        });
+        if !tpl.sampling_lines.is_empty() {
+            summary.push(Row {
+                label: "current sampling".into(),
+                value: tpl.sampling_lines.join(" "),
+            });
+        }
+    }
+    if let Some([a, b]) = plan.feasible_band_hz {
+        summary.push(Row {
+            label: "feasible band".into(),
+            value: format!(
+                "{} to {}",
+                q(a, Dimension::Frequency, 5),
+                q(b, Dimension::Frequency, 5)
+            ),
+        });
+    }
+    summary
+}
+
+/// The constraint rows, numbers in their units.
+fn constraint_rows(plan: &Plan) -> Vec<ConstraintRow> {
+    plan.constraints
+        .iter()
+        .map(|c| ConstraintRow {
+            name: c.name.clone(),
+            limit: constraint_number(c.limit, &c.unit),
+            value: c
+                .value
+                .map(|v| constraint_number(v, &c.unit))
+                .unwrap_or_else(|| "none".into()),
+            margin: c
+                .margin
+                .map(|m| constraint_margin(m, &c.unit))
+                .unwrap_or_else(|| "none".into()),
+            status: match (c.pass, c.binding) {
+                (true, true) => "binds".into(),
+                (true, false) => "ok".into(),
+                (false, _) => "FAILS".into(),
+            },
+        })
+        .collect()
+}
+
+/// The loss rows, one per term, then the total.
+fn loss_rows(plan: &Plan) -> Vec<Row> {
+    let l = &plan.losses_w;
+    let mut losses = vec![
+        Row {
+            label: "conduction".into(),
+            value: watts(l.conduction),
+        },
+        Row {
+            label: "switching".into(),
+            value: watts(l.switching),
+        },
+        Row {
+            label: "output capacitance".into(),
+            value: watts(l.output_capacitance),
+        },
+        Row {
+            label: "reverse recovery".into(),
+            value: watts(l.reverse_recovery),
+        },
+        Row {
+            label: "dead-time diode".into(),
+            value: watts(l.dead_time_diode),
+        },
+        Row {
+            label: "gate drive".into(),
+            value: watts(l.gate_drive),
+        },
+    ];
+    if plan.topology == "low-side" {
+        losses.push(Row {
+            label: "freewheel diode".into(),
+            value: watts(l.freewheel_diode),
+        });
+    }
+    losses.push(Row {
+        label: "motor ripple copper".into(),
+        value: watts(l.motor_ripple_copper),
+    });
+    losses.push(Row {
+        label: "total".into(),
+        value: watts(l.total),
+    });
+    losses
 }
 
 /// The operating figures, each labelled with the case it is from: the

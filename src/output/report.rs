@@ -612,6 +612,104 @@ pub fn sweep_csv(rows: &[crate::model::sweep::SweepRow]) -> String {
 
 /// Switches side by side: one column per switch, the best value of each
 /// row marked with `<`.
+type Getter = fn(&Plan) -> Option<f64>;
+type Shower = fn(f64) -> String;
+/// Label, value, lower is better, display.
+type CompareRow = (&'static str, Getter, bool, Shower);
+/// The rows of `compare`, in order (a table, kept out of the function).
+const COMPARE_ROWS: &[CompareRow] = &[
+    (
+        "frequency",
+        |p| Some(p.pwm.frequency_hz),
+        false,
+        |v| format!("{:.3} kHz", v / 1e3),
+    ),
+    (
+        "divider x ticks",
+        |p| Some((p.timer.divider * p.timer.period_ticks) as f64),
+        false,
+        |v| format!("{v:.0}"),
+    ),
+    (
+        "dead time",
+        |p| Some(p.timer.dead_time_s),
+        true,
+        |v| format!("{:.1} ns", v * 1e9),
+    ),
+    (
+        "total loss",
+        |p| Some(p.losses_w.total),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  conduction",
+        |p| Some(p.losses_w.conduction),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  switching",
+        |p| Some(p.losses_w.switching),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  output capacitance",
+        |p| Some(p.losses_w.output_capacitance),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  reverse recovery",
+        |p| Some(p.losses_w.reverse_recovery),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  dead-time diode",
+        |p| Some(p.losses_w.dead_time_diode),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "  gate drive",
+        |p| Some(p.losses_w.gate_drive),
+        true,
+        |v| format!("{:.1} mW", v * 1e3),
+    ),
+    (
+        "junction",
+        |p| p.thermal.junction_c,
+        true,
+        |v| format!("{v:.1} °C"),
+    ),
+    (
+        "junction margin",
+        |p| p.thermal.junction_c.map(|t| p.thermal.limit_c - t),
+        false,
+        |v| format!("{v:.1} K"),
+    ),
+    (
+        "ripple p-p",
+        |p| Some(p.ripple.peak_to_peak_a),
+        true,
+        |v| format!("{v:.3} A"),
+    ),
+    (
+        "resolution",
+        |p| Some(p.timer.resolution_bits),
+        false,
+        |v| format!("{v:.1} bits"),
+    ),
+    (
+        "findings",
+        |p| Some(p.findings.iter().filter(|f| f.severity != "info").count() as f64),
+        true,
+        |v| format!("{v:.0}"),
+    ),
+];
+
 pub fn compare_table(entries: &[(String, Option<Plan>)]) -> String {
     let names: Vec<String> = entries.iter().map(|(n, _)| n.clone()).collect();
     let w = 16usize;
@@ -621,102 +719,7 @@ pub fn compare_table(entries: &[(String, Option<Plan>)]) -> String {
         out.push_str(&format!("{short:>w$}"));
     }
     out.push('\n');
-    type Getter = fn(&Plan) -> Option<f64>;
-    type Shower = fn(f64) -> String;
-    /// Label, value, lower is better, display.
-    type CompareRow = (&'static str, Getter, bool, Shower);
-    let rows: &[CompareRow] = &[
-        (
-            "frequency",
-            |p| Some(p.pwm.frequency_hz),
-            false,
-            |v| format!("{:.3} kHz", v / 1e3),
-        ),
-        (
-            "divider x ticks",
-            |p| Some((p.timer.divider * p.timer.period_ticks) as f64),
-            false,
-            |v| format!("{v:.0}"),
-        ),
-        (
-            "dead time",
-            |p| Some(p.timer.dead_time_s),
-            true,
-            |v| format!("{:.1} ns", v * 1e9),
-        ),
-        (
-            "total loss",
-            |p| Some(p.losses_w.total),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  conduction",
-            |p| Some(p.losses_w.conduction),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  switching",
-            |p| Some(p.losses_w.switching),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  output capacitance",
-            |p| Some(p.losses_w.output_capacitance),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  reverse recovery",
-            |p| Some(p.losses_w.reverse_recovery),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  dead-time diode",
-            |p| Some(p.losses_w.dead_time_diode),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "  gate drive",
-            |p| Some(p.losses_w.gate_drive),
-            true,
-            |v| format!("{:.1} mW", v * 1e3),
-        ),
-        (
-            "junction",
-            |p| p.thermal.junction_c,
-            true,
-            |v| format!("{v:.1} °C"),
-        ),
-        (
-            "junction margin",
-            |p| p.thermal.junction_c.map(|t| p.thermal.limit_c - t),
-            false,
-            |v| format!("{v:.1} K"),
-        ),
-        (
-            "ripple p-p",
-            |p| Some(p.ripple.peak_to_peak_a),
-            true,
-            |v| format!("{v:.3} A"),
-        ),
-        (
-            "resolution",
-            |p| Some(p.timer.resolution_bits),
-            false,
-            |v| format!("{v:.1} bits"),
-        ),
-        (
-            "findings",
-            |p| Some(p.findings.iter().filter(|f| f.severity != "info").count() as f64),
-            true,
-            |v| format!("{v:.0}"),
-        ),
-    ];
+    let rows = COMPARE_ROWS;
     for (label, get, lower_is_better, show) in rows {
         let vals: Vec<Option<f64>> = entries
             .iter()
