@@ -350,20 +350,72 @@ pub fn six_step_losses(
     let (f3, f_first) = (f / 3.0, (f / 3.0 - f_e).max(0.0));
     let (q_rr_v, e_oss, v_sd) = (sw.q_rr_c * v, stage.e_oss_j(), sw.v_sd_v);
     let t_on = d * t;
-    let switching = d > 0.0 && d < 1.0;
-    let (mut chop, mut free, mut cond) = (
-        LossLines::default(),
-        LossLines::default(),
-        LossLines::default(),
-    );
+    let k = SixStepRates {
+        d,
+        f_e,
+        t,
+        t_on,
+        f3,
+        f_first,
+        r_c,
+        r_o,
+        q_rr_v,
+        e_oss,
+        v_sd,
+        switching: d > 0.0 && d < 1.0,
+    };
+    let (mut chop, mut free) = chopping_lines(stage, w, &k)?;
+    freewheel_lines(stage, w, point.chop, &k, &mut chop, &mut free)?;
+    let cond = conducting_lines(stage, w, &k)?;
+    assemble_roles(stage, w, point.chop, &k, [chop, cond, free])
+}
 
-    // Chopping switch: channel during the on-time (line current i > 0 is forward).
-    let on = waveform_integrals(w, 0.0, t_on);
+/// The shared rates, times and device figures of one six-step loss
+/// evaluation (the locals of [`six_step_losses`], named once).
+struct SixStepRates {
+    /// Duty D of the chopping switch.
+    d: f64,
+    /// Electrical frequency f_e.
+    f_e: f64,
+    /// PWM period T = 1/f.
+    t: f64,
+    /// On-time D·T of the chopping switch.
+    t_on: f64,
+    /// f_3 = f/3, the rate of each role per switch position.
+    f3: f64,
+    /// F = f_3 − f_e (not below zero), the turn-ons that follow a freewheel.
+    f_first: f64,
+    /// Channel resistance of the chopping side at its junction temperature.
+    r_c: f64,
+    /// Channel resistance of the other side at its junction temperature.
+    r_o: f64,
+    /// Q_rr·V, the reverse-recovery energy per hard turn-on.
+    q_rr_v: f64,
+    /// E_oss at the supply voltage.
+    e_oss: f64,
+    /// Body-diode drop V_sd.
+    v_sd: f64,
+    /// Whether the chopping switch switches in the period (0 < D < 1).
+    switching: bool,
+}
+
+/// The chopping switch's lines over its on-time (line current i > 0 is
+/// forward), and the reverse-recovery share its hard turn-on puts in the
+/// freewheeling diode (the chopping rules of [`six_step_losses`]; Krishnan
+/// 2010; Hendershot, Miller 1994; from memory).
+fn chopping_lines(
+    stage: &ThreePhaseStage<'_>,
+    w: &RippleWaveform,
+    k: &SixStepRates,
+) -> Result<(LossLines, LossLines)> {
+    let (mut chop, mut free) = (LossLines::default(), LossLines::default());
+    let (f3, f_first, r_c, q_rr_v, e_oss) = (k.f3, k.f_first, k.r_c, k.q_rr_v, k.e_oss);
+    let on = waveform_integrals(w, 0.0, k.t_on);
     chop.conduction_forward_w = f3 * r_c * on.i2_pos;
     chop.conduction_reverse_w = f3 * r_c * on.i2_neg;
     let i0 = w.value_at(0.0);
-    if switching {
-        let i_off = w.value_at(t_on);
+    if k.switching {
+        let i_off = w.value_at(k.t_on);
         let (e_on, e_off) = stage.energies(i0, i_off, r_c)?;
         if i0 > 0.0 {
             chop.switching_w += f_first * e_on;
@@ -376,13 +428,28 @@ pub fn six_step_losses(
         if i_off > 0.0 {
             chop.switching_w += f3 * e_off;
         }
-    } else if d >= 1.0 && i0 > 0.0 {
+    } else if k.d >= 1.0 && i0 > 0.0 {
         // Always on: it leaves its block by a hard turn-off, like a conducting switch.
-        chop.commutation_w = f_e * stage.energies(i0, i0, r_c)?.1;
+        chop.commutation_w = k.f_e * stage.energies(i0, i0, r_c)?.1;
     }
+    Ok((chop, free))
+}
 
-    // Freewheeling partner of the chopping switch.
-    match point.chop {
+/// The freewheeling partner of the chopping switch over the off-time: a
+/// body diode, or with complementary chopping a synchronous channel between
+/// the dead times, whose body diodes (and the chopping switch's, for a
+/// reversed current) take the dead times (the freewheeling rules of
+/// [`six_step_losses`]; Krishnan 2010; Hendershot, Miller 1994; from memory).
+fn freewheel_lines(
+    stage: &ThreePhaseStage<'_>,
+    w: &RippleWaveform,
+    chop_kind: Chop,
+    k: &SixStepRates,
+    chop: &mut LossLines,
+    free: &mut LossLines,
+) -> Result<()> {
+    let (t, t_on, f3, v_sd) = (k.t, k.t_on, k.f3, k.v_sd);
+    match chop_kind {
         Chop::HighSide | Chop::LowSide => {
             let off = waveform_integrals(w, t_on, t);
             free.body_diode_w = f3 * v_sd * off.i_pos;
@@ -391,24 +458,7 @@ pub fn six_step_losses(
             let td = stage.t_dead_s;
             let (s1, s2) = (t_on + td, t - td);
             let dead_ranges: Vec<(f64, f64)> = if s2 > s1 {
-                let ch = waveform_integrals(w, s1, s2);
-                // Line current i > 0 flows source→drain in this switch: reverse.
-                free.conduction_reverse_w = f3 * r_o * ch.i2_pos;
-                free.conduction_forward_w = f3 * r_o * ch.i2_neg;
-                let i_s1 = w.value_at(s1);
-                let i_s2 = w.value_at(s2);
-                let (e_on, e_off) = stage.energies(i_s1, i_s2, r_o)?;
-                if i_s1 < 0.0 {
-                    free.switching_w += f3 * e_on;
-                    free.reverse_recovery_w += f3 * q_rr_v;
-                    free.output_capacitance_w += f3 * e_oss;
-                    chop.reverse_recovery_w += f3 * 0.25 * q_rr_v;
-                } else if i_s1 == 0.0 {
-                    free.output_capacitance_w += f3 * e_oss;
-                }
-                if i_s2 < 0.0 {
-                    free.switching_w += f3 * e_off;
-                }
+                synchronous_channel_lines(stage, w, k, (s1, s2), chop, free)?;
                 vec![(t_on, s1), (s2, t)]
             } else {
                 vec![(t_on, t)]
@@ -420,33 +470,96 @@ pub fn six_step_losses(
             }
         }
     }
+    Ok(())
+}
 
-    // Conducting switch of the other phase: the whole period, then commutated out.
-    let full = waveform_integrals(w, 0.0, t);
-    cond.conduction_forward_w = f3 * r_o * full.i2_pos;
-    cond.conduction_reverse_w = f3 * r_o * full.i2_neg;
-    if i0 > 0.0 {
-        cond.commutation_w = f_e * stage.energies(i0, i0, r_o)?.1;
+/// The synchronous freewheeling channel, on over [s1, s2]: its conduction
+/// (line current i > 0 flows source→drain in it: reverse) and its own edges,
+/// hard when the freewheel current is reversed (edge rule of the module
+/// docs), with the reverse-recovery share in the chopping switch's diode
+/// (Krishnan 2010; Hendershot, Miller 1994; from memory).
+fn synchronous_channel_lines(
+    stage: &ThreePhaseStage<'_>,
+    w: &RippleWaveform,
+    k: &SixStepRates,
+    (s1, s2): (f64, f64),
+    chop: &mut LossLines,
+    free: &mut LossLines,
+) -> Result<()> {
+    let (f3, r_o, q_rr_v, e_oss) = (k.f3, k.r_o, k.q_rr_v, k.e_oss);
+    let ch = waveform_integrals(w, s1, s2);
+    // Line current i > 0 flows source→drain in this switch: reverse.
+    free.conduction_reverse_w = f3 * r_o * ch.i2_pos;
+    free.conduction_forward_w = f3 * r_o * ch.i2_neg;
+    let i_s1 = w.value_at(s1);
+    let i_s2 = w.value_at(s2);
+    let (e_on, e_off) = stage.energies(i_s1, i_s2, r_o)?;
+    if i_s1 < 0.0 {
+        free.switching_w += f3 * e_on;
+        free.reverse_recovery_w += f3 * q_rr_v;
+        free.output_capacitance_w += f3 * e_oss;
+        chop.reverse_recovery_w += f3 * 0.25 * q_rr_v;
+    } else if i_s1 == 0.0 {
+        free.output_capacitance_w += f3 * e_oss;
     }
+    if i_s2 < 0.0 {
+        free.switching_w += f3 * e_off;
+    }
+    Ok(())
+}
 
-    // Gate drive per role.
+/// The conducting switch of the other phase: on the whole period, then
+/// commutated out by a hard turn-off once per electrical period (the
+/// conducting rules of [`six_step_losses`]; Krishnan 2010; Hendershot,
+/// Miller 1994; from memory; the commutation at a PWM period boundary is
+/// common practice).
+fn conducting_lines(
+    stage: &ThreePhaseStage<'_>,
+    w: &RippleWaveform,
+    k: &SixStepRates,
+) -> Result<LossLines> {
+    let mut cond = LossLines::default();
+    let full = waveform_integrals(w, 0.0, k.t);
+    cond.conduction_forward_w = k.f3 * k.r_o * full.i2_pos;
+    cond.conduction_reverse_w = k.f3 * k.r_o * full.i2_neg;
+    let i0 = w.value_at(0.0);
+    if i0 > 0.0 {
+        cond.commutation_w = k.f_e * stage.energies(i0, i0, k.r_o)?.1;
+    }
+    Ok(cond)
+}
+
+/// The gate drive per role (chopping f_3 when it switches, f_e when always
+/// on; synchronous freewheel f_3; conducting f_e), the roles with their
+/// sides, and the per-side sums: the result of [`six_step_losses`] from the
+/// chopping, conducting and freewheeling lines (each role 1/3 of the
+/// electrical period per switch position: Krishnan 2010; Hendershot, Miller
+/// 1994; from memory).
+fn assemble_roles(
+    stage: &ThreePhaseStage<'_>,
+    w: &RippleWaveform,
+    chop_kind: Chop,
+    k: &SixStepRates,
+    [chop, cond, free]: [LossLines; 3],
+) -> Result<SixStepLosses> {
+    let chop_side = chop_kind.chopping_side();
     let i_plateau = w.i_avg_a().abs();
-    let chop_cycles = if switching {
-        f3
-    } else if d >= 1.0 {
-        f_e
+    let chop_cycles = if k.switching {
+        k.f3
+    } else if k.d >= 1.0 {
+        k.f_e
     } else {
         0.0
     };
-    let free_cycles = match point.chop {
-        Chop::Complementary if t - stage.t_dead_s > t_on + stage.t_dead_s => f3,
+    let free_cycles = match chop_kind {
+        Chop::Complementary if k.t - stage.t_dead_s > k.t_on + stage.t_dead_s => k.f3,
         _ => 0.0,
     };
     let mut roles = Vec::with_capacity(3);
     let (mut driver, mut external) = (0.0, 0.0);
     for (role, side, mut lines, cycles) in [
         (SixStepRole::Chopping, chop_side, chop, chop_cycles),
-        (SixStepRole::Conducting, chop_side.other(), cond, f_e),
+        (SixStepRole::Conducting, chop_side.other(), cond, k.f_e),
         (
             SixStepRole::Freewheeling,
             chop_side.other(),
