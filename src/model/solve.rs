@@ -465,33 +465,74 @@ impl Evaluator {
         let mut checks = Vec::new();
         let l = &self.limits;
 
-        // Junction temperature at the rated and the high-bus case.
-        for (name, r) in [("junction-rated", &rated), ("junction-high-bus", &high_bus)] {
-            let detail = match (&r.runaway, r.junction_c) {
-                (Some(why), _) => why.clone().into(),
-                (None, Some(_)) => Detail::Junction {
-                    v_bus_v: r.case.v_bus_v,
-                    t_ambient_c: r.case.t_ambient_c,
-                },
-                (None, None) => "no junction temperature".into(),
-            };
-            checks.push(upper(name, l.t_j_max_c, r.junction_c, "°C", detail));
-        }
+        checks.extend(junction_checks(l.t_j_max_c, &rated, &high_bus));
         if let Some(max) = l.ripple_pp_max_a {
-            let worst = rated
-                .ripple
-                .peak_to_peak_a
-                .max(high_bus.ripple.peak_to_peak_a);
-            checks.push(upper(
-                "ripple",
-                max,
-                Some(worst),
-                "A",
-                Detail::Ripple {
-                    v_bus_v: self.high_bus.v_bus_v,
-                },
+            checks.push(self.ripple_check(max, &rated, &high_bus));
+        }
+        checks.push(self.audible_check(&rated, &high_bus));
+        if let Some(bits) = l.min_resolution_bits {
+            checks.push(lower(
+                "resolution",
+                bits,
+                Some(s.resolution_bits),
+                "bits",
+                Detail::DutySteps(s.duty_steps),
             ));
         }
+        if self.needs_dead_time() {
+            checks.push(dead_time_check(dead));
+        }
+        checks.push(self.duty_range_check(limits, duty_needed));
+        let sampling = self.sampling_window(s, dead.seconds);
+        if let Some(w) = &sampling {
+            checks.push(self.sampling_check(w, &high_bus, m_low_bus));
+        }
+        checks.push(self.frequency_band_check(f));
+        for k in &mut checks {
+            k.settle();
+        }
+        let feasible = checks.iter().all(|c| c.pass);
+        Some(Candidate {
+            setting: s.into(),
+            dead_time: *dead,
+            duty_limits: limits.map(Into::into),
+            duty_needed,
+            rated,
+            high_bus,
+            checks,
+            feasible,
+            sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
+                trigger_compare: u64::from(w.trigger_compare),
+                trigger_before_top_s: w.trigger_before_top_s,
+                min_low_side_on_s: w.min_low_side_on_s,
+                min_low_side_gate_on_s: w.min_low_side_gate_on_s,
+                max_high_side_duty: w.max_high_side_duty,
+            }),
+        })
+    }
+
+    /// The `ripple` constraint: the larger peak-to-peak ripple of the rated
+    /// and the high-bus case against the design's limit `max`.
+    fn ripple_check(&self, max: f64, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
+        let worst = rated
+            .ripple
+            .peak_to_peak_a
+            .max(high_bus.ripple.peak_to_peak_a);
+        upper(
+            "ripple",
+            max,
+            Some(worst),
+            "A",
+            Detail::Ripple {
+                v_bus_v: self.high_bus.v_bus_v,
+            },
+        )
+    }
+
+    /// The `audible` constraint under the design's audibility mode: the
+    /// ripple frequency against the hearing limit, or the count of lines in
+    /// avoided bands, or nothing to measure when sound is allowed.
+    fn audible_check(&self, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
         let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass;
         let (a_limit, a_value) = match &self.audible {
             crate::model::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
@@ -539,42 +580,17 @@ impl Evaluator {
             }
             crate::model::physics::acoustics::AudibleMode::Allowed => audible.unit = "",
         }
-        checks.push(audible);
-        if let Some(bits) = l.min_resolution_bits {
-            checks.push(lower(
-                "resolution",
-                bits,
-                Some(s.resolution_bits),
-                "bits",
-                Detail::DutySteps(s.duty_steps),
-            ));
-        }
-        // Encoded and at least as long as needed (a code whose ticks round
-        // to nothing is no dead time).
-        let dt_ok = dead.code.is_some() && margin_holds(dead.seconds - dead.need_s, dead.need_s);
-        if self.needs_dead_time() {
-            checks.push(ConstraintCheck {
-                name: "dead-time",
-                limit: dead.max_s.unwrap_or(dead.seconds),
-                value: Some(dead.need_s),
-                margin: dead
-                    .max_s
-                    .map(|m| m - dead.need_s)
-                    .or(Some(dead.seconds - dead.need_s)),
-                unit: "s",
-                pass: dt_ok,
-                binding: false,
-                detail: if dt_ok {
-                    "dead time needed; the timer encodes the next value up".into()
-                } else if dead.code.is_some() {
-                    "the encoded dead time is shorter than needed".into()
-                } else if dead.max_s == Some(0.0) {
-                    "the timer has no dead-time generator but the bridge needs one".into()
-                } else {
-                    "the dead time needed exceeds what the generator encodes".into()
-                },
-            });
-        }
+        audible
+    }
+
+    /// The `duty-range` constraint: the duties needed (`duty_needed`, low
+    /// and high end) inside the range the timer's `limits` leave, the lower
+    /// end checked only where [`Self::checks_min_duty`].
+    fn duty_range_check(
+        &self,
+        limits: Option<DutyLimits>,
+        duty_needed: (f64, f64),
+    ) -> ConstraintCheck {
         let (duty_pass, duty_margin, duty_detail) = match limits {
             Some(lim) => {
                 let hi_margin = lim.max_duty - duty_needed.1;
@@ -599,7 +615,7 @@ impl Evaluator {
                 "no duty range left between the minimum pulses and the bootstrap refresh".into(),
             ),
         };
-        checks.push(ConstraintCheck {
+        ConstraintCheck {
             name: "duty-range",
             limit: limits.map(|l| l.max_duty).unwrap_or(0.0),
             value: Some(duty_needed.1),
@@ -608,16 +624,17 @@ impl Evaluator {
             pass: duty_pass,
             binding: false,
             detail: duty_detail,
-        });
-        let sampling = self.sampling_window(s, dead.seconds);
-        if let Some(w) = &sampling {
-            checks.push(self.sampling_check(w, &high_bus, m_low_bus));
         }
-        // The band the design allows (the solver searches only inside it;
-        // a sweep or a pinned frequency may step outside).
+    }
+
+    /// The `frequency-band` constraint: the band the design allows (the
+    /// solver searches only inside it; a sweep or a pinned frequency may
+    /// step outside).
+    fn frequency_band_check(&self, f: f64) -> ConstraintCheck {
+        let l = &self.limits;
         let in_band = f >= l.f_min_hz * (1.0 - 1e-12) && f <= l.f_max_hz * (1.0 + 1e-12);
         let (band_limit, band_margin) = band_bound(f, l.f_min_hz, l.f_max_hz);
-        checks.push(ConstraintCheck {
+        ConstraintCheck {
             name: "frequency-band",
             limit: band_limit,
             value: Some(f),
@@ -629,28 +646,7 @@ impl Evaluator {
                 min_hz: l.f_min_hz,
                 max_hz: l.f_max_hz,
             },
-        });
-        for k in &mut checks {
-            k.settle();
         }
-        let feasible = checks.iter().all(|c| c.pass);
-        Some(Candidate {
-            setting: s.into(),
-            dead_time: *dead,
-            duty_limits: limits.map(Into::into),
-            duty_needed,
-            rated,
-            high_bus,
-            checks,
-            feasible,
-            sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
-                trigger_compare: u64::from(w.trigger_compare),
-                trigger_before_top_s: w.trigger_before_top_s,
-                min_low_side_on_s: w.min_low_side_on_s,
-                min_low_side_gate_on_s: w.min_low_side_gate_on_s,
-                max_high_side_duty: w.max_high_side_duty,
-            }),
-        })
     }
 
     /// The `sampling-window` constraint: the sampled leg's high-side duty
@@ -733,6 +729,53 @@ impl Evaluator {
                 .into(),
             ),
         }
+    }
+}
+
+/// The junction-temperature constraints at the rated and the high-bus
+/// case against the limit `t_j_max_c` (a runaway names itself).
+fn junction_checks(
+    t_j_max_c: f64,
+    rated: &CaseResult,
+    high_bus: &CaseResult,
+) -> [ConstraintCheck; 2] {
+    [("junction-rated", rated), ("junction-high-bus", high_bus)].map(|(name, r)| {
+        let detail = match (&r.runaway, r.junction_c) {
+            (Some(why), _) => why.clone().into(),
+            (None, Some(_)) => Detail::Junction {
+                v_bus_v: r.case.v_bus_v,
+                t_ambient_c: r.case.t_ambient_c,
+            },
+            (None, None) => "no junction temperature".into(),
+        };
+        upper(name, t_j_max_c, r.junction_c, "°C", detail)
+    })
+}
+
+/// The `dead-time` constraint: encoded, and at least as long as needed (a
+/// code whose ticks round to nothing is no dead time).
+fn dead_time_check(dead: &DeadTimeChoice) -> ConstraintCheck {
+    let dt_ok = dead.code.is_some() && margin_holds(dead.seconds - dead.need_s, dead.need_s);
+    ConstraintCheck {
+        name: "dead-time",
+        limit: dead.max_s.unwrap_or(dead.seconds),
+        value: Some(dead.need_s),
+        margin: dead
+            .max_s
+            .map(|m| m - dead.need_s)
+            .or(Some(dead.seconds - dead.need_s)),
+        unit: "s",
+        pass: dt_ok,
+        binding: false,
+        detail: if dt_ok {
+            "dead time needed; the timer encodes the next value up".into()
+        } else if dead.code.is_some() {
+            "the encoded dead time is shorter than needed".into()
+        } else if dead.max_s == Some(0.0) {
+            "the timer has no dead-time generator but the bridge needs one".into()
+        } else {
+            "the dead time needed exceeds what the generator encodes".into()
+        },
     }
 }
 
@@ -1001,47 +1044,94 @@ fn search_list(
     search: Search,
     settings: Vec<PwmSetting>,
 ) -> Solution {
-    // Boxed: a candidate is over a kilobyte and most settings are never
-    // evaluated.
-    let mut evaluated: Vec<Option<Box<Candidate>>> = vec![None; settings.len()];
-    let mut count = 0usize;
-    let eval = |i: usize, evaluated: &mut Vec<Option<Box<Candidate>>>| -> usize {
-        if evaluated[i].is_some() {
-            return 0;
+    let mut ev = Evaluations::new(judge, &settings);
+    if settings.len() <= search.exhaustive_limit {
+        let all: Vec<usize> = (0..settings.len()).collect();
+        ev.all(&all);
+        return finish(judge, obj, settings.len(), &settings, ev.cands, ev.count);
+    }
+    let n = settings.len();
+    let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
+    ev.all(&grid);
+    bracket_best_grid_point(&mut ev, obj, &grid);
+    refine_feasibility_edges(&mut ev, &grid);
+    // The grid found nothing feasible: feasibility may come in islands the
+    // grid stepped over, so look at every setting (when that is affordable)
+    // before calling the design infeasible.
+    if !ev.cands.iter().flatten().map(|c| &**c).any(|c| c.feasible)
+        && n <= search.infeasible_exhaustive_limit
+    {
+        let all: Vec<usize> = (0..n).collect();
+        ev.all(&all);
+    }
+    if obj == Objective::Quietest {
+        find_quiet_edge(&mut ev, &grid);
+    }
+    finish(judge, obj, settings.len(), &settings, ev.cands, ev.count)
+}
+
+/// The candidates of one list of settings as far as the search has
+/// evaluated them, and how many settings that took.
+struct Evaluations<'s, 'j> {
+    judge: &'s Judge<'j>,
+    settings: &'s [PwmSetting],
+    /// Boxed: a candidate is over a kilobyte and most settings are never
+    /// evaluated.
+    cands: Vec<Option<Box<Candidate>>>,
+    count: usize,
+}
+
+impl<'s, 'j> Evaluations<'s, 'j> {
+    /// Nothing evaluated yet.
+    fn new(judge: &'s Judge<'j>, settings: &'s [PwmSetting]) -> Self {
+        Evaluations {
+            judge,
+            settings,
+            cands: vec![None; settings.len()],
+            count: 0,
         }
-        let (c, n) = candidate_at_frequency(judge, &settings[i]);
-        evaluated[i] = c.map(Box::new);
-        n
-    };
-    // Independent settings are evaluated on every core; the results do not
-    // depend on the order, so the choice is the same on any machine.
-    let eval_all = |indices: &[usize], evaluated: &mut Vec<Option<Box<Candidate>>>| -> usize {
+    }
+
+    /// The candidate at index `i`, if evaluated and evaluable.
+    fn at(&self, i: usize) -> Option<&Candidate> {
+        self.cands[i].as_deref()
+    }
+
+    /// Evaluate the setting at index `i` unless it already is.
+    fn one(&mut self, i: usize) {
+        if self.cands[i].is_some() {
+            return;
+        }
+        let (c, n) = candidate_at_frequency(self.judge, &self.settings[i]);
+        self.cands[i] = c.map(Box::new);
+        self.count += n;
+    }
+
+    /// Evaluate the settings at `indices` not yet evaluated. Independent
+    /// settings are evaluated on every core; the results do not depend on
+    /// the order, so the choice is the same on any machine.
+    fn all(&mut self, indices: &[usize]) {
+        let (judge, settings, cands) = (self.judge, self.settings, &self.cands);
         let fresh: Vec<(usize, Option<Box<Candidate>>, usize)> = indices
             .par_iter()
-            .filter(|&&i| evaluated[i].is_none())
+            .filter(|&&i| cands[i].is_none())
             .map(|&i| {
                 let (c, n) = candidate_at_frequency(judge, &settings[i]);
                 (i, c.map(Box::new), n)
             })
             .collect();
-        let mut n_total = 0;
         for (i, c, n) in fresh {
-            evaluated[i] = c;
-            n_total += n;
+            self.cands[i] = c;
+            self.count += n;
         }
-        n_total
-    };
-    if settings.len() <= search.exhaustive_limit {
-        let all: Vec<usize> = (0..settings.len()).collect();
-        let count = eval_all(&all, &mut evaluated);
-        return finish(judge, obj, settings.len(), &settings, evaluated, count);
     }
-    let n = settings.len();
-    let grid: Vec<usize> = grid_indices(&settings, search.grid_points);
-    count += eval_all(&grid, &mut evaluated);
-    // Bracket the best grid point (feasible first, else least violation).
-    // The quietest objective needs the exact least loss first: bracket the
-    // least-loss point for it.
+}
+
+/// Evaluate every setting between the grid neighbours of the best grid
+/// point (feasible first, else least violation). The quietest objective
+/// needs the exact least loss first: it brackets the least-loss point.
+fn bracket_best_grid_point(ev: &mut Evaluations, obj: Objective, grid: &[usize]) {
+    let n = ev.settings.len();
     let bracket_obj = if obj == Objective::Quietest {
         Objective::LeastLoss
     } else {
@@ -1050,15 +1140,8 @@ fn search_list(
     let best_grid = grid
         .iter()
         .copied()
-        .filter(|&i| evaluated[i].is_some())
-        .min_by(|&a, &b| {
-            rank(
-                bracket_obj,
-                evaluated[a].as_deref(),
-                evaluated[b].as_deref(),
-                None,
-            )
-        });
+        .filter(|&i| ev.at(i).is_some())
+        .min_by(|&a, &b| rank(bracket_obj, ev.at(a), ev.at(b), None));
     if let Some(g) = best_grid {
         let pos = grid.iter().position(|&i| i == g).unwrap_or(0);
         let lo = if pos == 0 { 0 } else { grid[pos - 1] };
@@ -1068,20 +1151,23 @@ fn search_list(
             grid[pos + 1]
         };
         let bracket: Vec<usize> = (lo..=hi).collect();
-        count += eval_all(&bracket, &mut evaluated);
+        ev.all(&bracket);
     }
-    // Refine every feasibility edge between grid neighbours by bisection,
-    // so the feasible band, and an optimum on its edge, are exact.
+}
+
+/// Refine every feasibility edge between grid neighbours by bisection, so
+/// the feasible band, and an optimum on its edge, are exact.
+fn refine_feasibility_edges(ev: &mut Evaluations, grid: &[usize]) {
     for w in grid.windows(2) {
         let (a, b) = (w[0], w[1]);
-        let fa = evaluated[a].as_deref().map(|c| c.feasible);
-        let fb = evaluated[b].as_deref().map(|c| c.feasible);
+        let fa = ev.at(a).map(|c| c.feasible);
+        let fb = ev.at(b).map(|c| c.feasible);
         if fa != fb {
             let (mut lo, mut hi) = (a, b);
             while hi - lo > 1 {
                 let mid = (lo + hi) / 2;
-                count += eval(mid, &mut evaluated);
-                if evaluated[mid].as_deref().map(|c| c.feasible) == fa {
+                ev.one(mid);
+                if ev.at(mid).map(|c| c.feasible) == fa {
                     lo = mid
                 } else {
                     hi = mid
@@ -1089,67 +1175,59 @@ fn search_list(
             }
         }
     }
-    // The grid found nothing feasible: feasibility may come in islands the
-    // grid stepped over, so look at every setting (when that is affordable)
-    // before calling the design infeasible.
-    if !evaluated.iter().flatten().map(|c| &**c).any(|c| c.feasible)
-        && n <= search.infeasible_exhaustive_limit
-    {
-        let all: Vec<usize> = (0..n).collect();
-        count += eval_all(&all, &mut evaluated);
-    }
-    if obj == Objective::Quietest {
-        // Above the least-loss point the loss rises with frequency, so the
-        // settings within the allowance end at one edge: find it by
-        // bisection between the last grid point inside and the next.
-        let floor = loss_floor(
-            Objective::Quietest,
-            evaluated.iter().flatten().map(|c| &**c),
-        );
-        if let Some(floor) = floor {
-            let inside = |c: Option<&Candidate>| {
-                c.is_some_and(|c| {
-                    c.feasible && c.rated.losses.total <= floor * (1.0 + QUIET_LOSS_ALLOWANCE)
-                })
-            };
-            if let Some(pos) = grid.iter().rposition(|&i| inside(evaluated[i].as_deref())) {
-                let mut lo = grid[pos];
-                let mut hi = grid.get(pos + 1).copied().unwrap_or(n - 1);
-                if lo != hi {
-                    count += eval(hi, &mut evaluated);
-                    if inside(evaluated[hi].as_deref()) {
-                        lo = hi;
-                    }
-                    let next_grid = hi;
-                    while hi - lo > 1 {
-                        let mid = (lo + hi) / 2;
-                        count += eval(mid, &mut evaluated);
-                        if inside(evaluated[mid].as_deref()) {
-                            lo = mid
-                        } else {
-                            hi = mid
-                        }
-                    }
-                    // Coarse duty counts can make feasibility flicker from one
-                    // setting to the next, so the bisection may stop short:
-                    // look at the settings up to the next grid point (at most
-                    // QUIET_EDGE_SCAN of them, a bound of our own choice).
-                    let end = next_grid.min(lo + QUIET_EDGE_SCAN);
-                    for i in lo + 1..=end {
-                        count += eval(i, &mut evaluated);
-                        if inside(evaluated[i].as_deref()) {
-                            lo = i;
-                        }
-                    }
-                }
-                // The neighbours, for the binding marks.
-                for i in [lo.saturating_sub(1), (lo + 1).min(n - 1)] {
-                    count += eval(i, &mut evaluated);
-                }
+}
+
+/// For the quietest objective: above the least-loss point the loss rises
+/// with frequency, so the settings within the allowance end at one edge;
+/// find it by bisection between the last grid point inside and the next,
+/// then evaluate its neighbours for the binding marks.
+fn find_quiet_edge(ev: &mut Evaluations, grid: &[usize]) {
+    let n = ev.settings.len();
+    let floor = loss_floor(Objective::Quietest, ev.cands.iter().flatten().map(|c| &**c));
+    let Some(floor) = floor else {
+        return;
+    };
+    let inside = |c: Option<&Candidate>| {
+        c.is_some_and(|c| {
+            c.feasible && c.rated.losses.total <= floor * (1.0 + QUIET_LOSS_ALLOWANCE)
+        })
+    };
+    let Some(pos) = grid.iter().rposition(|&i| inside(ev.at(i))) else {
+        return;
+    };
+    let mut lo = grid[pos];
+    let mut hi = grid.get(pos + 1).copied().unwrap_or(n - 1);
+    if lo != hi {
+        ev.one(hi);
+        if inside(ev.at(hi)) {
+            lo = hi;
+        }
+        let next_grid = hi;
+        while hi - lo > 1 {
+            let mid = (lo + hi) / 2;
+            ev.one(mid);
+            if inside(ev.at(mid)) {
+                lo = mid
+            } else {
+                hi = mid
+            }
+        }
+        // Coarse duty counts can make feasibility flicker from one
+        // setting to the next, so the bisection may stop short: look at
+        // the settings up to the next grid point (at most QUIET_EDGE_SCAN
+        // of them, a bound of our own choice).
+        let end = next_grid.min(lo + QUIET_EDGE_SCAN);
+        for i in lo + 1..=end {
+            ev.one(i);
+            if inside(ev.at(i)) {
+                lo = i;
             }
         }
     }
-    finish(judge, obj, settings.len(), &settings, evaluated, count)
+    // The neighbours, for the binding marks.
+    for i in [lo.saturating_sub(1), (lo + 1).min(n - 1)] {
+        ev.one(i);
+    }
 }
 
 /// The candidate at a setting's frequency: the listed setting (the most
