@@ -773,121 +773,35 @@ fn findings(
             message: f.message,
         })
         .collect();
-    let mut add = |severity: &str, code: &str, message: String| {
-        out.push(FindingOut {
-            severity: severity.into(),
-            code: code.into(),
-            message,
-        })
-    };
     for r in [&c.rated, &c.high_bus] {
         if let Some(why) = &r.runaway {
-            add(
+            out.push(finding(
                 "error",
                 "thermal-runaway",
                 format!("{} case: {why}", r.case.name),
-            );
+            ));
         }
     }
     for w in worst_case_findings(worst, d.spec.constraints.worst_case, worst_case_basis) {
-        add(&w.severity, &w.code, w.message);
+        out.push(finding(&w.severity, &w.code, w.message));
     }
-    if let Some(r) = model::c_rss_reconciliation(&d.switch) {
-        let nc = |q: f64| format_quantity(q, Dimension::Charge, 3);
-        let swing = format!(
-            "the gate-charge test swing from {}{} down to the on state",
-            format_quantity(r.v_test_v, Dimension::Voltage, 3),
-            if r.v_test_given {
-                ""
-            } else {
-                " (half of V_DSS; q_g.at_v_ds not given)"
-            }
-        );
-        if r.disagrees() {
-            add(
-                "warning",
-                "c-rss-q-gd-disagree",
-                format!(
-                    "the C_rss curve gives a Miller charge of {} over {swing}, against Q_gd {}: they differ by more than {:.0} %; check both datasheet values (the curve is scaled by ×{:.2} to Q_gd)",
-                    nc(r.curve_q_gd_c),
-                    nc(r.q_gd_c),
-                    100.0 * model::C_RSS_Q_GD_TOLERANCE,
-                    r.factor
-                ),
-            );
-        } else {
-            add(
-                "info",
-                "c-rss-scaled-to-q-gd",
-                format!(
-                    "the C_rss curve gives a Miller charge of {} over {swing}; it is scaled by ×{:.2} to Q_gd {} (the curve sets the shape of C_gd, Q_gd its size)",
-                    nc(r.curve_q_gd_c),
-                    r.factor,
-                    nc(r.q_gd_c)
-                ),
-            );
-        }
-    }
+    out.extend(c_rss_finding(d));
     if !c.rated.ripple.continuous {
-        add("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into());
+        out.push(finding("info", "discontinuous-current", "motor current is discontinuous at the rated load: it falls to zero each period (the freewheel diode blocks)".into()));
     }
-    let f = c.setting.frequency_hz;
     if ev.needs_dead_time() {
-        let v_err = deadtime::dead_time_voltage_error_v(
-            ev.stage.topology,
-            c.dead_time.seconds,
-            f,
-            ev.rated.v_bus_v,
-        );
-        add(
-            "info",
-            "dead-time-voltage-error",
-            format!(
-                "the dead time costs about {} of mean output voltage ({:.2} % of the nominal supply) where it opposes the current; the compare duties above already make it up",
-                format_quantity(v_err, Dimension::Voltage, 3),
-                100.0 * v_err / ev.rated.v_bus_v
-            ),
-        );
+        out.push(dead_time_finding(ev, c));
     }
-    if let Some(HighSideSupplySpec::Bootstrap {
-        capacitor,
-        load_current,
-        ..
-    }) = &d.board.gate_driver.high_side
-    {
-        let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs {
-            q_g_c: ev.stage.switch.q_g_c * ev.stage.drive.v_drive_v / ev.stage.switch.q_g_at_v_gs_v,
-            i_leak_a: load_current.si,
-            i_quiescent_a: 0.0,
-            d_max: c.duty_needed.1.clamp(0.0, 1.0),
-            f_sw_hz: f,
-            // 10 % droop of the drive voltage (common practice).
-            delta_v_v: 0.1 * ev.stage.drive.v_drive_v,
-            v_drive_v: ev.stage.drive.v_drive_v,
-        });
-        if let Some(s) = sizing
-            && capacitor.si < s.c_recommended_f
-        {
-            add(
-                "warning",
-                "bootstrap-capacitor-small",
-                format!(
-                    "bootstrap capacitor {} is below the {} needed for 10 % droop at this frequency and duty",
-                    format_quantity(capacitor.si, Dimension::Capacitance, 3),
-                    format_quantity(s.c_recommended_f, Dimension::Capacitance, 3)
-                ),
-            );
-        }
-    }
+    out.extend(bootstrap_finding(d, ev, c));
     if matches!(ev.stage.topology, Topology::LowSide)
         && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
     {
-        add(
+        out.push(finding(
             "info",
             "no-full-on",
             "100 % duty is not used: the compare limit keeps a minimum off-pulse each period"
                 .into(),
-        );
+        ));
     }
     // Errors first, then warnings, then information; stable within each.
     out.sort_by_key(|f| match f.severity.as_str() {
@@ -896,6 +810,103 @@ fn findings(
         _ => 2,
     });
     out
+}
+
+/// One finding from its severity, code and message.
+fn finding(severity: &str, code: &str, message: String) -> FindingOut {
+    FindingOut {
+        severity: severity.into(),
+        code: code.into(),
+        message,
+    }
+}
+
+/// How the switch's C_rss curve compares with its Q_gd: a warning when
+/// they disagree, else a note of the scaling; none without a curve.
+fn c_rss_finding(d: &Design) -> Option<FindingOut> {
+    let r = model::c_rss_reconciliation(&d.switch)?;
+    let nc = |q: f64| format_quantity(q, Dimension::Charge, 3);
+    let swing = format!(
+        "the gate-charge test swing from {}{} down to the on state",
+        format_quantity(r.v_test_v, Dimension::Voltage, 3),
+        if r.v_test_given {
+            ""
+        } else {
+            " (half of V_DSS; q_g.at_v_ds not given)"
+        }
+    );
+    Some(if r.disagrees() {
+        finding(
+            "warning",
+            "c-rss-q-gd-disagree",
+            format!(
+                "the C_rss curve gives a Miller charge of {} over {swing}, against Q_gd {}: they differ by more than {:.0} %; check both datasheet values (the curve is scaled by ×{:.2} to Q_gd)",
+                nc(r.curve_q_gd_c),
+                nc(r.q_gd_c),
+                100.0 * model::C_RSS_Q_GD_TOLERANCE,
+                r.factor
+            ),
+        )
+    } else {
+        finding(
+            "info",
+            "c-rss-scaled-to-q-gd",
+            format!(
+                "the C_rss curve gives a Miller charge of {} over {swing}; it is scaled by ×{:.2} to Q_gd {} (the curve sets the shape of C_gd, Q_gd its size)",
+                nc(r.curve_q_gd_c),
+                r.factor,
+                nc(r.q_gd_c)
+            ),
+        )
+    })
+}
+
+/// The mean output voltage the dead time costs at the chosen setting (for
+/// a stage that needs a dead time).
+fn dead_time_finding(ev: &Evaluator, c: &Candidate) -> FindingOut {
+    let v_err = dead_time_error_v(ev, c);
+    finding(
+        "info",
+        "dead-time-voltage-error",
+        format!(
+            "the dead time costs about {} of mean output voltage ({:.2} % of the nominal supply) where it opposes the current; the compare duties above already make it up",
+            format_quantity(v_err, Dimension::Voltage, 3),
+            100.0 * v_err / ev.rated.v_bus_v
+        ),
+    )
+}
+
+/// A warning when a bootstrap capacitor is below the size needed for 10 %
+/// droop at the chosen frequency and duty; none otherwise.
+fn bootstrap_finding(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<FindingOut> {
+    let Some(HighSideSupplySpec::Bootstrap {
+        capacitor,
+        load_current,
+        ..
+    }) = &d.board.gate_driver.high_side
+    else {
+        return None;
+    };
+    let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs {
+        q_g_c: ev.stage.switch.q_g_c * ev.stage.drive.v_drive_v / ev.stage.switch.q_g_at_v_gs_v,
+        i_leak_a: load_current.si,
+        i_quiescent_a: 0.0,
+        d_max: c.duty_needed.1.clamp(0.0, 1.0),
+        f_sw_hz: c.setting.frequency_hz,
+        // 10 % droop of the drive voltage (common practice).
+        delta_v_v: 0.1 * ev.stage.drive.v_drive_v,
+        v_drive_v: ev.stage.drive.v_drive_v,
+    });
+    let s = sizing.filter(|s| capacitor.si < s.c_recommended_f)?;
+    Some(finding(
+        "warning",
+        "bootstrap-capacitor-small",
+        format!(
+            "bootstrap capacitor {} is below the {} needed for 10 % droop at this frequency and duty",
+            format_quantity(capacitor.si, Dimension::Capacitance, 3),
+            format_quantity(s.c_recommended_f, Dimension::Capacitance, 3)
+        ),
+    ))
 }
 
 /// The PWM record of a candidate (`v_err`: the dead-time voltage error).
@@ -1005,37 +1016,10 @@ pub fn build_on(
         &c.dead_time,
     ));
     let findings = findings(d, ev, c, &worst, worst_case_basis);
-    // Infeasibility is data: every error finding blocks the plan and is
-    // named as a reason.
-    let blocked_by: Vec<BlockerOut> = findings
-        .iter()
-        .filter(|f| f.severity == "error")
-        .map(|f| BlockerOut {
-            code: f.code.clone(),
-            message: f.message.clone(),
-        })
-        .collect();
-    let worst_ripple = if c.high_bus.ripple.peak_to_peak_a >= c.rated.ripple.peak_to_peak_a {
-        &c.high_bus
-    } else {
-        &c.rated
-    };
-    let v_err = if ev.needs_dead_time() {
-        deadtime::dead_time_voltage_error_v(
-            ev.stage.topology,
-            c.dead_time.seconds,
-            c.setting.frequency_hz,
-            ev.rated.v_bus_v,
-        )
-    } else {
-        0.0
-    };
+    let blocked_by = blockers(&findings);
+    let v_err = dead_time_error_v(ev, c);
     Some(Plan {
-        generated: format!(
-            "pwmplan {} {}",
-            env!("CARGO_PKG_VERSION"),
-            crate::output::seal::MARKER_PLACEHOLDER
-        ),
+        generated: generated_stamp(),
         design: d.spec.name.clone(),
         board: d.board.name.clone(),
         switch: d.switch.name.clone(),
@@ -1050,91 +1034,23 @@ pub fn build_on(
         pwm: pwm_out(ev, c, v_err),
         timer: timer_out(ev, c),
         losses_w: c.rated.losses.clone(),
-        thermal: Thermal {
-            junction_c: c.rated.junction_c,
-            junction_high_bus_c: c.high_bus.junction_c,
-            limit_c: ev.limits.t_j_max_c,
-            ambient_c: ev.rated.t_ambient_c,
-            r_th_ja_k_per_w: ev.stage.thermal.r_th_ja_k_per_w,
-        },
-        ripple: Ripple {
-            peak_to_peak_a: worst_ripple.ripple.peak_to_peak_a,
-            continuous: c.rated.ripple.continuous && c.high_bus.ripple.continuous,
-            mean_a: c.rated.ripple.mean_a,
-            rms_a: c.rated.ripple.rms_a,
-            ac_rms_a: c.rated.ripple.ac_rms_a,
-            frequency_hz: c.rated.ripple.frequency_hz,
-            case: c.rated.case.name.into(),
-            peak_to_peak_case: worst_ripple.case.name.into(),
-            by_case: vec![ripple_case(&c.rated), ripple_case(&c.high_bus)],
-        },
-        acoustic: Acoustic {
-            lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
-            a_weighted_db: c.rated.acoustic.a_weighted_db,
-            verdict: c.rated.acoustic.reason.to_string(),
-            case: c.rated.case.name.into(),
-        },
-        constraints: c
-            .checks
-            .iter()
-            .map(|k| ConstraintOut {
-                name: k.name.into(),
-                limit: k.limit,
-                value: k.value,
-                margin: k.margin,
-                unit: k.unit.into(),
-                pass: k.pass,
-                binding: k.binding,
-                detail: k.detail.to_string(),
-            })
-            .collect(),
+        thermal: thermal_out(ev, c),
+        ripple: ripple_out(c),
+        acoustic: acoustic_out(c),
+        constraints: constraints_out(c),
         findings,
         devices: c.rated.devices.clone(),
         three_phase: three_phase_out(d, ev, c),
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
-        alternatives: sol
-            .alternatives
-            .iter()
-            .map(|a| AlternativeOut {
-                label: a.label.into(),
-                frequency_hz: a.candidate.setting.frequency_hz,
-                alignment: a.candidate.setting.alignment.into(),
-                divider: a.candidate.setting.divider,
-                period_ticks: a.candidate.setting.period_ticks,
-                total_loss_w: a.candidate.rated.losses.total,
-                junction_c: a.candidate.rated.junction_c,
-                ripple_a: a.candidate.high_bus.ripple.peak_to_peak_a,
-                trade: a.trade.clone(),
-            })
-            .collect(),
+        alternatives: alternatives_out(sol),
         conflict: sol.conflict.clone(),
         cases: cases_out(c),
         load: load_out(ev, c),
         register_check: RegisterCheck::default(),
-        assumptions: if ev.three_phase.is_some() {
-            THREE_PHASE_ASSUMPTIONS
-        } else {
-            ASSUMPTIONS
-        }
-        .iter()
-        .map(|s| s.to_string())
-        .collect(),
+        assumptions: assumptions_out(ev),
         cautions: CAUTIONS.iter().map(|s| s.to_string()).collect(),
-        inputs: d
-            .sources
-            .iter()
-            .map(|s| InputOut {
-                file: record_name(&s.origin, &d.sources[0].origin),
-                sha256: sha256_hex(&s.text),
-                fields: flatten_fields(&s.text),
-            })
-            .collect(),
-        search: SearchOut {
-            realisable_settings: sol.realisable,
-            evaluated_settings: sol.evaluated,
-            pinned_frequency_hz: pinned_hz,
-            constraints_met: sol.feasible,
-        },
+        inputs: inputs_out(d),
+        search: search_out(sol, pinned_hz),
         basis: if worst_case_basis {
             "worst-case"
         } else {
@@ -1143,4 +1059,157 @@ pub fn build_on(
         .into(),
         worst_case: worst,
     })
+}
+
+/// The `generated` stamp: the program and version, and the placeholder the
+/// seal replaces.
+fn generated_stamp() -> String {
+    format!(
+        "pwmplan {} {}",
+        env!("CARGO_PKG_VERSION"),
+        crate::output::seal::MARKER_PLACEHOLDER
+    )
+}
+
+/// The mean output voltage the dead time costs at a candidate's setting
+/// and the nominal supply (`deadtime::dead_time_voltage_error_v`); zero
+/// when the stage needs no dead time.
+fn dead_time_error_v(ev: &Evaluator, c: &Candidate) -> f64 {
+    if ev.needs_dead_time() {
+        deadtime::dead_time_voltage_error_v(
+            ev.stage.topology,
+            c.dead_time.seconds,
+            c.setting.frequency_hz,
+            ev.rated.v_bus_v,
+        )
+    } else {
+        0.0
+    }
+}
+
+/// The reasons a plan is blocked. Infeasibility is data: every error
+/// finding blocks the plan and is named as a reason.
+fn blockers(findings: &[FindingOut]) -> Vec<BlockerOut> {
+    findings
+        .iter()
+        .filter(|f| f.severity == "error")
+        .map(|f| BlockerOut {
+            code: f.code.clone(),
+            message: f.message.clone(),
+        })
+        .collect()
+}
+
+/// The thermal record of a candidate: both junction temperatures against
+/// the limit.
+fn thermal_out(ev: &Evaluator, c: &Candidate) -> Thermal {
+    Thermal {
+        junction_c: c.rated.junction_c,
+        junction_high_bus_c: c.high_bus.junction_c,
+        limit_c: ev.limits.t_j_max_c,
+        ambient_c: ev.rated.t_ambient_c,
+        r_th_ja_k_per_w: ev.stage.thermal.r_th_ja_k_per_w,
+    }
+}
+
+/// The ripple record of a candidate: the larger peak to peak of the two
+/// cases, the rated case's other figures, and both cases on their own.
+fn ripple_out(c: &Candidate) -> Ripple {
+    let worst_ripple = if c.high_bus.ripple.peak_to_peak_a >= c.rated.ripple.peak_to_peak_a {
+        &c.high_bus
+    } else {
+        &c.rated
+    };
+    Ripple {
+        peak_to_peak_a: worst_ripple.ripple.peak_to_peak_a,
+        continuous: c.rated.ripple.continuous && c.high_bus.ripple.continuous,
+        mean_a: c.rated.ripple.mean_a,
+        rms_a: c.rated.ripple.rms_a,
+        ac_rms_a: c.rated.ripple.ac_rms_a,
+        frequency_hz: c.rated.ripple.frequency_hz,
+        case: c.rated.case.name.into(),
+        peak_to_peak_case: worst_ripple.case.name.into(),
+        by_case: vec![ripple_case(&c.rated), ripple_case(&c.high_bus)],
+    }
+}
+
+/// The acoustic record of a candidate, at the rated case.
+fn acoustic_out(c: &Candidate) -> Acoustic {
+    Acoustic {
+        lowest_audible_line_hz: c.rated.acoustic.lowest_audible_line_hz,
+        a_weighted_db: c.rated.acoustic.a_weighted_db,
+        verdict: c.rated.acoustic.reason.to_string(),
+        case: c.rated.case.name.into(),
+    }
+}
+
+/// The modelling assumptions a plan states: the three-phase list for a
+/// three-phase bridge, else the general one.
+fn assumptions_out(ev: &Evaluator) -> Vec<String> {
+    if ev.three_phase.is_some() {
+        THREE_PHASE_ASSUMPTIONS
+    } else {
+        ASSUMPTIONS
+    }
+    .iter()
+    .map(|s| s.to_string())
+    .collect()
+}
+
+/// The search record of a solution: how many settings were realisable and
+/// evaluated, the pinned frequency if any, whether the constraints hold.
+fn search_out(sol: &Solution, pinned_hz: Option<f64>) -> SearchOut {
+    SearchOut {
+        realisable_settings: sol.realisable,
+        evaluated_settings: sol.evaluated,
+        pinned_frequency_hz: pinned_hz,
+        constraints_met: sol.feasible,
+    }
+}
+
+/// The constraint records of a candidate, one per check.
+fn constraints_out(c: &Candidate) -> Vec<ConstraintOut> {
+    c.checks
+        .iter()
+        .map(|k| ConstraintOut {
+            name: k.name.into(),
+            limit: k.limit,
+            value: k.value,
+            margin: k.margin,
+            unit: k.unit.into(),
+            pass: k.pass,
+            binding: k.binding,
+            detail: k.detail.to_string(),
+        })
+        .collect()
+}
+
+/// The alternative settings of a solution with what each trades.
+fn alternatives_out(sol: &Solution) -> Vec<AlternativeOut> {
+    sol.alternatives
+        .iter()
+        .map(|a| AlternativeOut {
+            label: a.label.into(),
+            frequency_hz: a.candidate.setting.frequency_hz,
+            alignment: a.candidate.setting.alignment.into(),
+            divider: a.candidate.setting.divider,
+            period_ticks: a.candidate.setting.period_ticks,
+            total_loss_w: a.candidate.rated.losses.total,
+            junction_c: a.candidate.rated.junction_c,
+            ripple_a: a.candidate.high_bus.ripple.peak_to_peak_a,
+            trade: a.trade.clone(),
+        })
+        .collect()
+}
+
+/// The input files of a design: name, hash and flattened fields.
+fn inputs_out(d: &Design) -> Vec<InputOut> {
+    d.sources
+        .iter()
+        .map(|s| InputOut {
+            file: record_name(&s.origin, &d.sources[0].origin),
+            sha256: sha256_hex(&s.text),
+            fields: flatten_fields(&s.text),
+        })
+        .collect()
 }
