@@ -742,14 +742,7 @@ pub fn loss_plot_svg(
         .iter()
         .filter(|c| rows.iter().any(|r| (c.get)(&r.losses_w) > 0.0))
         .collect();
-    let tops: Vec<f64> = rows
-        .iter()
-        .map(|r| {
-            let stacked: f64 = comps.iter().map(|c| (c.get)(&r.losses_w).max(0.0)).sum();
-            stacked.max(r.losses_w.total)
-        })
-        .collect();
-    let max = tops.iter().copied().fold(0.0, f64::max);
+    let max = stack_max(&rows, &comps);
     let ay = LinAxis::spanning(&[0.0, max], true, fr.bottom, fr.top);
     let (factor, unit) = scaled_unit(ay.hi, "W");
 
@@ -765,11 +758,65 @@ pub fn loss_plot_svg(
     );
     x_grid(&mut out, &ax, fr, true);
     y_grid(&mut out, &ay, fr, factor, &format!("Power loss ({unit})"));
+    stacked_areas(&mut out, &rows, &comps, &ax, &ay);
+    total_line(&mut out, &rows, &ax, &ay);
 
-    // Stacked areas: each polygon runs along its top left to right and
-    // back along its base.
+    let runs = infeasible_runs(&rows, &ax, band_hz);
+    shade_infeasible(&mut out, &runs, &ax, fr, Some(fr.top + 18.0));
+    let band = band_edges(&mut out, band_hz, &ax, fr);
+    let mut chosen_drawn = false;
+    if let Some(f) = chosen_hz.filter(|f| ax.contains(*f)) {
+        chosen_line(&mut out, &ax, fr, f, Some(fr.top + 30.0));
+        if let Some(v) = interpolate(&rows, f, |r| Some(r.losses_w.total)) {
+            chosen_dot(&mut out, "chosen-total", ax.x(f), ay.y(v), v);
+            chosen_drawn = true;
+        }
+    }
+    frame_border(&mut out, fr);
+    x_title(&mut out, fr);
+    let entries = loss_legend_entries(&comps, chosen_drawn, !runs.is_empty(), !band.is_empty());
+    legend(&mut out, fr.right + 22.0, fr.top + 12.0, &entries);
+    out.push_str("</svg>\n");
+    out
+}
+
+/// The height the loss axis must reach: the larger of the stacked
+/// components and the total, over all rows.
+fn stack_max(rows: &[&SweepRow], comps: &[&Component]) -> f64 {
+    let tops: Vec<f64> = rows
+        .iter()
+        .map(|r| {
+            let stacked: f64 = comps.iter().map(|c| (c.get)(&r.losses_w).max(0.0)).sum();
+            stacked.max(r.losses_w.total)
+        })
+        .collect();
+    tops.iter().copied().fold(0.0, f64::max)
+}
+
+/// The total loss as one line over the stacked areas.
+fn total_line(out: &mut String, rows: &[&SweepRow], ax: &LogAxis, ay: &LinAxis) {
+    let total: Vec<String> = rows
+        .iter()
+        .map(|r| format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(r.losses_w.total))))
+        .collect();
+    let _ = writeln!(
+        out,
+        r#"<polyline id="loss-total" class="series total" points="{}" fill="none" stroke="{INK}" stroke-width="1.6"/>"#,
+        total.join(" ")
+    );
+}
+
+/// The stacked loss areas: each component's polygon runs along its top
+/// left to right and back along its base (the top of the ones below).
+fn stacked_areas(
+    out: &mut String,
+    rows: &[&SweepRow],
+    comps: &[&Component],
+    ax: &LogAxis,
+    ay: &LinAxis,
+) {
     let mut base = vec![0.0; rows.len()];
-    for c in &comps {
+    for c in comps {
         let top: Vec<f64> = rows
             .iter()
             .zip(&base)
@@ -795,18 +842,11 @@ pub fn loss_plot_svg(
         );
         base = top;
     }
-    let total: Vec<String> = rows
-        .iter()
-        .map(|r| format!("{},{}", n(ax.x(r.frequency_hz)), n(ay.y(r.losses_w.total))))
-        .collect();
-    let _ = writeln!(
-        out,
-        r#"<polyline id="loss-total" class="series total" points="{}" fill="none" stroke="{INK}" stroke-width="1.6"/>"#,
-        total.join(" ")
-    );
+}
 
-    let runs = infeasible_runs(&rows, &ax, band_hz);
-    shade_infeasible(&mut out, &runs, &ax, fr, Some(fr.top + 18.0));
+/// The solver's feasible band edges inside the axis, drawn dotted; returns
+/// the edges drawn.
+fn band_edges(out: &mut String, band_hz: Option<[f64; 2]>, ax: &LogAxis, fr: Frame) -> Vec<f64> {
     let band: Vec<f64> = band_hz
         .map(|b| b.to_vec())
         .unwrap_or_default()
@@ -816,24 +856,24 @@ pub fn loss_plot_svg(
     for f in &band {
         let x = ax.x(*f);
         line(
-            &mut out,
+            out,
             "band-edge",
             (x, fr.top),
             (x, fr.bottom),
             r##"stroke="#4d4d4d" stroke-width="1" stroke-dasharray="1 3""##,
         );
     }
-    let mut chosen_drawn = false;
-    if let Some(f) = chosen_hz.filter(|f| ax.contains(*f)) {
-        chosen_line(&mut out, &ax, fr, f, Some(fr.top + 30.0));
-        if let Some(v) = interpolate(&rows, f, |r| Some(r.losses_w.total)) {
-            chosen_dot(&mut out, "chosen-total", ax.x(f), ay.y(v), v);
-            chosen_drawn = true;
-        }
-    }
-    frame_border(&mut out, fr);
-    x_title(&mut out, fr);
+    band
+}
 
+/// The loss plot's legend: the total, the components top first, and the
+/// chosen dot, the wash and the band edges when drawn.
+fn loss_legend_entries(
+    comps: &[&Component],
+    chosen_drawn: bool,
+    washed: bool,
+    band_drawn: bool,
+) -> Vec<(Swatch<'static>, String)> {
     let mut entries: Vec<(Swatch, String)> = vec![(
         Swatch::Line {
             colour: INK,
@@ -850,10 +890,10 @@ pub fn loss_plot_svg(
     if chosen_drawn {
         entries.push((Swatch::Dot, "chosen setting".into()));
     }
-    if !runs.is_empty() {
+    if washed {
         entries.push((Swatch::Wash, "fails a constraint".into()));
     }
-    if !band.is_empty() {
+    if band_drawn {
         entries.push((
             Swatch::Line {
                 colour: "#4d4d4d",
@@ -862,9 +902,7 @@ pub fn loss_plot_svg(
             "feasible band edge".into(),
         ));
     }
-    legend(&mut out, fr.right + 22.0, fr.top + 12.0, &entries);
-    out.push_str("</svg>\n");
-    out
+    entries
 }
 
 /// Polyline segments through the rows where `get` has a value (a `None`,
@@ -987,9 +1025,14 @@ pub fn thermal_ripple_plot_svg(
     let mut ripples: Vec<f64> = rows.iter().map(|r| r.ripple_pp_a).collect();
     ripples.extend(ripple_limit_a);
     let ar = LinAxis::spanning(&ripples, true, low_fr.bottom, low_fr.top);
-    let (rf, ru) = scaled_unit(ar.hi, "A");
     let runs = infeasible_runs(&rows, &ax, None);
     let chosen = chosen_hz.filter(|f| ax.contains(*f));
+    let shared = SharedAxis {
+        rows,
+        ax,
+        runs,
+        chosen,
+    };
 
     let mut out = String::new();
     svg_open(&mut out, THERMAL_W, THERMAL_H, title);
@@ -1001,26 +1044,44 @@ pub fn thermal_ripple_plot_svg(
         r#" class="plot-title" font-size="15" font-weight="bold""#,
         title,
     );
+    junction_panel(&mut out, &shared, top_fr, &at, t_j_limit_c);
+    ripple_panel(&mut out, &shared, low_fr, &ar, ripple_limit_a);
+    out.push_str("</svg>\n");
+    out
+}
 
-    // Upper panel: junction temperatures.
+/// What the two panels of the thermal and ripple plot share: the sorted
+/// rows, the frequency axis, the infeasible runs and the chosen frequency
+/// (when on the axis).
+struct SharedAxis<'r> {
+    rows: Vec<&'r SweepRow>,
+    ax: LogAxis,
+    runs: Vec<(f64, f64, Vec<String>)>,
+    chosen: Option<f64>,
+}
+
+/// The upper panel: junction temperatures at the rated and the highest
+/// supply on axis `at`, the junction limit, the chosen setting, its legend.
+fn junction_panel(out: &mut String, p: &SharedAxis, top_fr: Frame, at: &LinAxis, t_j_limit_c: f64) {
+    let (rows, ax) = (&p.rows, &p.ax);
     let _ = writeln!(out, r#"<g class="panel junction">"#);
-    x_grid(&mut out, &ax, top_fr, false);
-    y_grid(&mut out, &at, top_fr, 1.0, "Junction temperature (°C)");
-    let rated = segments(&rows, &ax, &at, |r| r.junction_c);
-    let high = segments(&rows, &ax, &at, |r| r.junction_high_bus_c);
-    series(&mut out, "junction-rated", RATED, None, &rated);
-    series(&mut out, "junction-high-bus", HIGH_BUS, None, &high);
+    x_grid(out, ax, top_fr, false);
+    y_grid(out, at, top_fr, 1.0, "Junction temperature (°C)");
+    let rated = segments(rows, ax, at, |r| r.junction_c);
+    let high = segments(rows, ax, at, |r| r.junction_high_bus_c);
+    series(out, "junction-rated", RATED, None, &rated);
+    series(out, "junction-high-bus", HIGH_BUS, None, &high);
     shade_infeasible(
-        &mut out,
-        &runs,
-        &ax,
+        out,
+        &p.runs,
+        ax,
         top_fr,
         Some((top_fr.top + top_fr.bottom) / 2.0),
     );
     limit_line(
-        &mut out,
+        out,
         "junction-limit",
-        &at,
+        at,
         top_fr,
         t_j_limit_c,
         &format!(
@@ -1029,10 +1090,10 @@ pub fn thermal_ripple_plot_svg(
         ),
     );
     let mut dots = false;
-    if let Some(f) = chosen {
+    if let Some(f) = p.chosen {
         chosen_line(
-            &mut out,
-            &ax,
+            out,
+            ax,
             top_fr,
             f,
             Some(clear_of(at.y(t_j_limit_c), top_fr)),
@@ -1046,16 +1107,28 @@ pub fn thermal_ripple_plot_svg(
                 r.junction_high_bus_c
             }),
         ] {
-            if let Some(v) = interpolate(&rows, f, get) {
-                chosen_dot(&mut out, class, ax.x(f), at.y(v), v);
+            if let Some(v) = interpolate(rows, f, get) {
+                chosen_dot(out, class, ax.x(f), at.y(v), v);
                 dots = true;
             }
         }
     }
-    frame_border(&mut out, top_fr);
+    frame_border(out, top_fr);
     let runaway = rows
         .iter()
         .any(|r| r.junction_c.is_none() || r.junction_high_bus_c.is_none());
+    let entries = junction_legend_entries(dots, !p.runs.is_empty(), runaway);
+    legend(out, top_fr.right + 22.0, top_fr.top + 12.0, &entries);
+    let _ = writeln!(out, "</g>");
+}
+
+/// The junction panel's legend: both supplies and the limit, then the
+/// chosen dots, the wash and the runaway gaps when drawn.
+fn junction_legend_entries(
+    dots: bool,
+    washed: bool,
+    runaway: bool,
+) -> Vec<(Swatch<'static>, String)> {
     let mut entries = vec![
         (
             Swatch::Line {
@@ -1082,33 +1155,37 @@ pub fn thermal_ripple_plot_svg(
     if dots {
         entries.push((Swatch::Dot, "chosen setting".into()));
     }
-    if !runs.is_empty() {
+    if washed {
         entries.push((Swatch::Wash, "fails a constraint".into()));
     }
     if runaway {
         entries.push((Swatch::Wash, "gap: thermal runaway".into()));
     }
-    legend(&mut out, top_fr.right + 22.0, top_fr.top + 12.0, &entries);
-    let _ = writeln!(out, "</g>");
+    entries
+}
 
-    // Lower panel: ripple.
+/// The lower panel: the worst ripple of both supplies on axis `ar`, the
+/// ripple limit when there is one, the chosen setting, its legend.
+fn ripple_panel(
+    out: &mut String,
+    p: &SharedAxis,
+    low_fr: Frame,
+    ar: &LinAxis,
+    ripple_limit_a: Option<f64>,
+) {
+    let (rows, ax) = (&p.rows, &p.ax);
+    let (rf, ru) = scaled_unit(ar.hi, "A");
     let _ = writeln!(out, r#"<g class="panel ripple">"#);
-    x_grid(&mut out, &ax, low_fr, true);
-    y_grid(
-        &mut out,
-        &ar,
-        low_fr,
-        rf,
-        &format!("Ripple, peak to peak ({ru})"),
-    );
-    let rip = segments(&rows, &ax, &ar, |r| Some(r.ripple_pp_a));
-    series(&mut out, "ripple", RIPPLE, None, &rip);
-    shade_infeasible(&mut out, &runs, &ax, low_fr, None);
+    x_grid(out, ax, low_fr, true);
+    y_grid(out, ar, low_fr, rf, &format!("Ripple, peak to peak ({ru})"));
+    let rip = segments(rows, ax, ar, |r| Some(r.ripple_pp_a));
+    series(out, "ripple", RIPPLE, None, &rip);
+    shade_infeasible(out, &p.runs, ax, low_fr, None);
     if let Some(lim) = ripple_limit_a {
         limit_line(
-            &mut out,
+            out,
             "ripple-limit",
-            &ar,
+            ar,
             low_fr,
             lim,
             &format!(
@@ -1118,15 +1195,23 @@ pub fn thermal_ripple_plot_svg(
         );
     }
     let mut dot = false;
-    if let Some(f) = chosen {
-        chosen_line(&mut out, &ax, low_fr, f, None);
-        if let Some(v) = interpolate(&rows, f, |r| Some(r.ripple_pp_a)) {
-            chosen_dot(&mut out, "chosen-ripple", ax.x(f), ar.y(v), v);
+    if let Some(f) = p.chosen {
+        chosen_line(out, ax, low_fr, f, None);
+        if let Some(v) = interpolate(rows, f, |r| Some(r.ripple_pp_a)) {
+            chosen_dot(out, "chosen-ripple", ax.x(f), ar.y(v), v);
             dot = true;
         }
     }
-    frame_border(&mut out, low_fr);
-    x_title(&mut out, low_fr);
+    frame_border(out, low_fr);
+    x_title(out, low_fr);
+    let entries = ripple_legend_entries(ripple_limit_a.is_some(), dot);
+    legend(out, low_fr.right + 22.0, low_fr.top + 12.0, &entries);
+    let _ = writeln!(out, "</g>");
+}
+
+/// The ripple panel's legend: the ripple, then the limit and the chosen
+/// dot when drawn.
+fn ripple_legend_entries(limit_drawn: bool, dot: bool) -> Vec<(Swatch<'static>, String)> {
     let mut entries = vec![(
         Swatch::Line {
             colour: RIPPLE,
@@ -1134,7 +1219,7 @@ pub fn thermal_ripple_plot_svg(
         },
         "worst of both supplies".to_string(),
     )];
-    if ripple_limit_a.is_some() {
+    if limit_drawn {
         entries.push((
             Swatch::Line {
                 colour: LIMIT,
@@ -1146,10 +1231,7 @@ pub fn thermal_ripple_plot_svg(
     if dot {
         entries.push((Swatch::Dot, "chosen setting".into()));
     }
-    legend(&mut out, low_fr.right + 22.0, low_fr.top + 12.0, &entries);
-    let _ = writeln!(out, "</g>");
-    out.push_str("</svg>\n");
-    out
+    entries
 }
 
 #[cfg(test)]
