@@ -345,11 +345,42 @@ fn single_phase_registers_do_what_the_plans_say() {
 /// injection, six-step with each chop): the compare limits' pulses, and for sinusoidal
 /// modulation the current-sampling trigger: at the written trigger the sampled legs' low
 /// sides have been on for the settling time and stay on through the sample, up to the
-/// highest compare the plan allows a sampled leg (the phase currents against the averaged
-/// model are not compared yet: stated in each plan's check).
+/// highest compare the plan allows a sampled leg; and the sinusoidal plans' phase-current
+/// peak and ripple against the plan (within `register_check::PEAK_REL` and `RIPPLE_REL`).
+/// `PWMPLAN_TRACE=1` prints each compared case (with `--nocapture`), and with
+/// `PWMPLAN_KEEP_FAILURES=DIR` keeps every design's files.
 #[test]
 fn three_phase_registers_do_what_the_plans_say() {
     check_random_designs(0x5EED_2026_1203, 4..TOPOLOGIES.len(), designs_to_run(150));
+}
+
+/// One line per checked case for a closer look (`PWMPLAN_TRACE` set): the plan's and the
+/// verifier's current and ripple, with what the dead time and the ripple weigh.
+fn trace_case(i: usize, plan: &Plan, c: &pwmplan::plan::CaseCheck, case: &pwmplan::plan::CaseOut) {
+    let Some(t) = plan.three_phase.as_ref() else {
+        return;
+    };
+    let tpc = if c.name == "rated" {
+        &t.rated
+    } else {
+        &t.high_bus
+    };
+    let dt_v = plan.pwm.dead_time_voltage_error_v;
+    eprintln!(
+        "trace {i} {} {}: I {:.4} sim {:.4} err {:+.2} % | pp {:.4} sim {:.4} err {:+.2} % | pp/I {:.3} m {:.3} dtV/(mV/2) {:.4} f_e/f {:.4}",
+        t.zero_sequence.as_deref().unwrap_or("-"),
+        c.name,
+        tpc.current_a,
+        c.mean_a,
+        100.0 * (c.mean_a / tpc.current_a - 1.0),
+        case.ripple_peak_to_peak_a,
+        c.ripple_pp_a,
+        100.0 * (c.ripple_pp_a / case.ripple_peak_to_peak_a - 1.0),
+        case.ripple_peak_to_peak_a / tpc.current_a,
+        tpc.modulation_index.unwrap_or(f64::NAN),
+        dt_v / (tpc.modulation_index.unwrap_or(f64::NAN) * case.v_bus_v / 2.0),
+        t.electrical_frequency_hz / plan.pwm.frequency_hz,
+    );
 }
 
 fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
@@ -392,6 +423,9 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         }
         for c in &check.cases {
             let case = plan.cases.iter().find(|k| k.name == c.name).expect("case");
+            if std::env::var_os("PWMPLAN_TRACE").is_some() {
+                trace_case(i, &plan, c, case);
+            }
             worst_mean = worst_mean
                 .max((c.mean_a - case.load_current_a).abs() / plan.cases[0].load_current_a);
             if case.ripple_peak_to_peak_a > 1e-3 {
@@ -400,7 +434,8 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
                 );
             }
         }
-        if !check.disagreements.is_empty()
+        // With `PWMPLAN_TRACE` set, every design is kept.
+        if (!check.disagreements.is_empty() || std::env::var_os("PWMPLAN_TRACE").is_some())
             && let Ok(keep) = std::env::var("PWMPLAN_KEEP_FAILURES")
         {
             // Keep the failing design's files for a closer look.

@@ -1876,6 +1876,20 @@ pub fn verify_three_phase(
     load: &ThreePhaseLoad,
     switches: &BridgeSwitches,
 ) -> Result<ThreePhaseVerification, VerifyError> {
+    verify_three_phase_cycles(regs, compares, trigger, load, switches, 1)
+}
+
+/// [`verify_three_phase`] over `cycles` electrical periods in `compares.len()` PWM periods
+/// (so that a PWM frequency that is not a whole multiple of the electrical one can be kept
+/// within a small fraction: the compare sequence repeats after the `cycles` periods).
+pub fn verify_three_phase_cycles(
+    regs: &TimerRegisters,
+    compares: &[[u64; 3]],
+    trigger: SampleTrigger,
+    load: &ThreePhaseLoad,
+    switches: &BridgeSwitches,
+    cycles: u32,
+) -> Result<ThreePhaseVerification, VerifyError> {
     regs.validate()?;
     trigger.validate(regs)?;
     let circuit = Circuit {
@@ -1888,7 +1902,7 @@ pub fn verify_three_phase(
         v_f_v: 0.0,
     };
     circuit.validate()?;
-    if compares.is_empty() || !load.emf_angle_rad.is_finite() {
+    if compares.is_empty() || !load.emf_angle_rad.is_finite() || cycles == 0 {
         return Err(VerifyError::Circuit);
     }
     let period_s = regs.period_s();
@@ -1902,7 +1916,7 @@ pub fn verify_three_phase(
         intervals: &intervals,
         load,
         switches: circuit,
-        omega: 2.0 * std::f64::consts::PI / electrical_s,
+        omega: 2.0 * std::f64::consts::PI * f64::from(cycles) / electrical_s,
     };
     let scale = (switches.v_bus_v + switches.v_sd_v + load.emf_peak_v.abs()) / load.r_ohm;
     let start = three_phase_fixed_point(&sim, scale)?;
@@ -1912,7 +1926,7 @@ pub fn verify_three_phase(
         .map(|k| (end[k] - start[k]).abs())
         .fold(0.0, f64::max);
     Ok(ThreePhaseVerification {
-        electrical_hz: 1.0 / electrical_s,
+        electrical_hz: f64::from(cycles) / electrical_s,
         samples: record.samples,
         boundaries: record.boundaries,
         residual_a,
