@@ -1187,7 +1187,7 @@ impl Evaluator {
     }
 
     /// The sinusoidal leg command for the case's phase-current peak, with the bridge's switch
-    /// drop and dead-time loss made up (`sinusoidal_point_with_drops`; drops of
+    /// drop and dead times made up edge by edge (`sinusoidal_command_edge_by_edge`; drops of
     /// [`Self::leg_drops`], the same the plan records for the register check).
     fn sinusoidal_command(
         &self,
@@ -1199,20 +1199,22 @@ impl Evaluator {
         zs: ZeroSequence,
     ) -> Option<three_phase::SinusoidalCommand> {
         let d = self.leg_drops(case, f_hz, t_dead_s);
-        let drops = three_phase::BridgeDrops {
+        let legs = three_phase::LegConditions {
+            v_bus_v: d.v_bus_v,
+            f_sw_hz: d.f_sw_hz,
+            t_dead_s: d.t_dead_s,
             r_switch_ohm: d.r_ds_on_ohm,
-            dead_time_mean_v: d.t_dead_s * d.f_sw_hz * (d.v_bus_v + 2.0 * d.v_sd_v),
+            v_sd_v: d.v_sd_v,
+            l_phase_h: self.motor_l_h,
         };
-        three_phase::sinusoidal_point_with_drops(
-            &self.motor_params(tp),
-            tp.omega_e_rad_s,
-            case.load_current_a,
-            gamma_rad,
-            case.v_bus_v,
-            zs,
-            &drops,
-        )
-        .ok()
+        let at = three_phase::MotorOperatingPoint {
+            omega_e_rad_s: tp.omega_e_rad_s,
+            i_peak_a: case.load_current_a,
+            current_advance_rad: gamma_rad,
+            v_bus_v: case.v_bus_v,
+            zero_sequence: zs,
+        };
+        three_phase::sinusoidal_command_edge_by_edge(&self.motor_params(tp), &at, &legs).ok()
     }
 
     /// Top of the frequency range the acoustic verdict looks at.
@@ -1305,7 +1307,10 @@ impl Evaluator {
             &three_phase::RippleCommand {
                 modulation_index: point.modulation_index,
                 zero_sequence: zs,
-                current_lag_rad: Some(command.voltage_lead_rad - gamma_rad),
+                current: Some(three_phase::PhaseCurrent {
+                    peak_a: point.i_peak_a,
+                    lag_rad: command.voltage_lead_rad - gamma_rad,
+                }),
             },
             three_phase::DEFAULT_RIPPLE_ANGLES,
             self.acoustic_top_hz(),

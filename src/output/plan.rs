@@ -74,7 +74,7 @@ pub const ASSUMPTIONS: &[&str] = &[
 pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
     "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
-    "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
+    "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed); losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
     "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0",

@@ -32,19 +32,24 @@
 //!   the partner turns on at zero voltage. Q_rr is taken constant (datasheet value, independent of
 //!
 //! One file per modulation family ([`sinusoidal`], [`six_step`]), with the
-//! inputs ([`inputs`]), the loss lines both share ([`loss_lines`]), the
-//! phase ripple ([`phase_ripple`]) and the sampling window ([`sampling`]);
+//! inputs ([`inputs`]), the loss lines both share ([`loss_lines`]), the phase
+//! voltage pattern ([`pattern`]), the dead time edge by edge ([`dead_time`]),
+//! the phase ripple ([`phase_ripple`]) and the sampling window ([`sampling`]);
 //! this file only declares them and re-exports their public names.
 
+pub mod dead_time;
 pub mod inputs;
 pub mod loss_lines;
+pub mod pattern;
 pub mod phase_ripple;
 pub mod sampling;
 pub mod sinusoidal;
 pub mod six_step;
 
+pub use dead_time::*;
 pub use inputs::*;
 pub use loss_lines::*;
+pub use pattern::*;
 pub use phase_ripple::*;
 pub use sampling::*;
 pub use sinusoidal::*;

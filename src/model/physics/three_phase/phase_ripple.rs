@@ -3,7 +3,9 @@
 
 use std::f64::consts::PI;
 
+use super::dead_time::{LegConditions, PhaseCurrent, effective_edges};
 use super::inputs::*;
+use super::pattern::{phase_voltage_between, phase_voltage_pattern};
 use super::sinusoidal::*;
 use crate::model::physics::acoustics::Line;
 
@@ -23,37 +25,6 @@ pub struct PhaseRipple {
     /// Lines at n·f_sw, amplitude √(mean over angles of the per-period line amplitude²)
     /// (sidebands lumped on their carrier harmonic, see `sinusoidal_ripple`).
     pub lines: Vec<Line>,
-}
-
-/// Phase-A-to-neutral voltage over one switching period at leg duties `d`: intervals
-/// `(t_start_s, duration_s, v_an_v)`. Leg x's high side is on in [(1 − d_x)T/2, (1 + d_x)T/2)
-/// (centre-aligned); v_an = V·(s_a − (s_a + s_b + s_c)/3) for a balanced star with an isolated
-/// neutral (Mohan, Undeland, Robbins 2003, ch. 8, from memory), so v_an ∈ {0, ±V/3, ±2V/3}.
-pub(super) fn phase_voltage_pattern(d: [f64; 3], v_bus_v: f64, t_s: f64) -> Vec<(f64, f64, f64)> {
-    let on = d.map(|dx| 0.5 * (1.0 - dx) * t_s);
-    let off = d.map(|dx| 0.5 * (1.0 + dx) * t_s);
-    let mut cuts: Vec<f64> = vec![0.0, t_s];
-    cuts.extend_from_slice(&on);
-    cuts.extend_from_slice(&off);
-    cuts.sort_by(f64::total_cmp);
-    let mut out = Vec::with_capacity(7);
-    for w in cuts.windows(2) {
-        let (a, b) = (w[0], w[1]);
-        if b - a <= 0.0 {
-            continue;
-        }
-        let mid = 0.5 * (a + b);
-        let s = [0, 1, 2].map(|x| {
-            if mid >= on[x] && mid < off[x] {
-                1.0
-            } else {
-                0.0
-            }
-        });
-        let v_an = v_bus_v * (s[0] - (s[0] + s[1] + s[2]) / 3.0);
-        out.push((a, b - a, v_an));
-    }
-    out
 }
 
 /// Small-ripple ripple of one period: (peak-to-peak, mean square of the mean-removed ripple).
@@ -120,7 +91,7 @@ pub fn sinusoidal_ripple(
         &RippleCommand {
             modulation_index,
             zero_sequence,
-            current_lag_rad: None,
+            current: None,
         },
         n_angles,
         max_hz,
@@ -133,11 +104,10 @@ pub fn sinusoidal_ripple(
 pub struct RippleCommand {
     pub modulation_index: f64,
     pub zero_sequence: ZeroSequence,
-    /// Angle by which the phase current lags the leg reference, rad. With it, each leg's
-    /// pulse is the one the dead time really leaves: `t_d·f` shorter while the current flows
-    /// out of the leg, longer while it flows in (the mean of the two edges of
-    /// [`crate::model::physics::leg_voltage::offset_v`], drops left out); without it, the commanded one.
-    pub current_lag_rad: Option<f64>,
+    /// The phase current the legs carry. With it, each leg's pulse is the one the dead time
+    /// really leaves ([`effective_edges`]: an edge moves late by `t_d` where the current at
+    /// it keeps the old level); without it, the commanded one.
+    pub current: Option<PhaseCurrent>,
 }
 
 /// [`sinusoidal_ripple`] of a [`RippleCommand`].
@@ -152,7 +122,7 @@ pub fn sinusoidal_ripple_at(
     let RippleCommand {
         modulation_index,
         zero_sequence,
-        current_lag_rad,
+        current,
     } = *command;
     stage.validate()?;
     check("l_phase_h", l_phase_h, l_phase_h > 0.0)?;
@@ -174,15 +144,25 @@ pub fn sinusoidal_ripple_at(
     let (mut pp_max, mut at, mut ms_sum) = (0.0_f64, 0.0, 0.0);
     for j in 0..n_angles {
         let theta = 2.0 * PI * j as f64 / n_angles as f64;
-        let mut d = leg_duties(modulation_index, zero_sequence, theta);
-        if let Some(lag) = current_lag_rad {
-            let x = stage.t_dead_s * stage.f_sw_hz;
-            for (k, dk) in d.iter_mut().enumerate() {
-                let out_of_leg = (theta - 2.0 * PI * k as f64 / 3.0 - lag).sin() > 0.0;
-                *dk = (*dk + if out_of_leg { -x } else { x }).clamp(0.0, 1.0);
+        let d = leg_duties(modulation_index, zero_sequence, theta);
+        let pattern = match current {
+            None => phase_voltage_pattern(d, stage.v_bus_v, t_s),
+            Some(c) => {
+                let legs = LegConditions {
+                    v_bus_v: stage.v_bus_v,
+                    f_sw_hz: stage.f_sw_hz,
+                    t_dead_s: stage.t_dead_s,
+                    r_switch_ohm: 0.0,
+                    v_sd_v: 0.0,
+                    l_phase_h,
+                };
+                let edges = [0, 1, 2].map(|x| {
+                    let i = c.peak_a * (theta - 2.0 * PI * x as f64 / 3.0 - c.lag_rad).sin();
+                    effective_edges(d, x, i, &legs)
+                });
+                phase_voltage_between(edges.map(|e| e.0), edges.map(|e| e.1), stage.v_bus_v, t_s)
             }
-        }
-        let pattern = phase_voltage_pattern(d, stage.v_bus_v, t_s);
+        };
         let (pp, ms) = period_ripple(&pattern, l_phase_h, t_s);
         if pp > pp_max {
             pp_max = pp;

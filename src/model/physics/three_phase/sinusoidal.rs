@@ -378,6 +378,52 @@ pub fn sinusoidal_point_with_drops(
         drops.dead_time_mean_v,
         drops.dead_time_mean_v >= 0.0,
     )?;
+    // The dead-time fundamental per ampere of the current phasor (none without current).
+    let g = if i_peak_a > 0.0 {
+        4.0 / PI * drops.dead_time_mean_v / i_peak_a
+    } else {
+        0.0
+    };
+    let operating = MotorOperatingPoint {
+        omega_e_rad_s,
+        i_peak_a,
+        current_advance_rad,
+        v_bus_v,
+        zero_sequence,
+    };
+    sinusoidal_point_with_series(motor, &operating, drops.r_switch_ohm + g, 0.0)
+}
+
+/// Where a sinusoidal drive runs: speed, current and its advance, supply and zero sequence.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MotorOperatingPoint {
+    pub omega_e_rad_s: f64,
+    /// Phase-current peak, A.
+    pub i_peak_a: f64,
+    /// Current advance γ over the back-EMF, rad (0: i_d = 0).
+    pub current_advance_rad: f64,
+    pub v_bus_v: f64,
+    pub zero_sequence: ZeroSequence,
+}
+
+/// The leg command when the bridge adds an impedance `r_extra + j·x_extra` in series with
+/// each phase (what its legs take off, as a fraction of the current): the phasor equation of
+/// [`sinusoidal_point_from_motor`] with `R + r_extra` and `ω_e·L + x_extra`.
+pub fn sinusoidal_point_with_series(
+    motor: &MotorParams,
+    at: &MotorOperatingPoint,
+    r_extra_ohm: f64,
+    x_extra_ohm: f64,
+) -> Result<SinusoidalCommand> {
+    let MotorOperatingPoint {
+        omega_e_rad_s,
+        i_peak_a,
+        current_advance_rad,
+        v_bus_v,
+        zero_sequence,
+    } = *at;
+    check("r_extra_ohm", r_extra_ohm, true)?;
+    check("x_extra_ohm", x_extra_ohm, true)?;
     check("omega_e_rad_s", omega_e_rad_s, true)?;
     check("i_peak_a", i_peak_a, i_peak_a >= 0.0)?;
     check("current_advance_rad", current_advance_rad, true)?;
@@ -389,16 +435,10 @@ pub fn sinusoidal_point_with_drops(
         i_peak_a * current_advance_rad.cos(),
         i_peak_a * current_advance_rad.sin(),
     );
-    let x = omega_e_rad_s * motor.l_phase_h;
-    let r = motor.r_phase_ohm + drops.r_switch_ohm;
-    // The dead-time fundamental per ampere of the current phasor (none without current).
-    let g = if i_peak_a > 0.0 {
-        4.0 / PI * drops.dead_time_mean_v / i_peak_a
-    } else {
-        0.0
-    };
-    let re = motor.phase_emf_peak_v(omega_e_rad_s) + (r + g) * ic - x * is;
-    let im = (r + g) * is + x * ic;
+    let x = omega_e_rad_s * motor.l_phase_h + x_extra_ohm;
+    let r = motor.r_phase_ohm + r_extra_ohm;
+    let re = motor.phase_emf_peak_v(omega_e_rad_s) + r * ic - x * is;
+    let im = r * is + x * ic;
     let m = re.hypot(im) / (0.5 * v_bus_v);
     let phi = im.atan2(re) - current_advance_rad;
     let point = SinusoidalPoint {

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:200ab6c776a556e94c623d7d04069aade99fa7ca3fb019b8585325cde3cfa779)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:eb78d0123b82faa8961c891f8a589f99670cef964e085da443e578694ba1db12)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -55,9 +55,9 @@
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
- *   rated case     at compare duty 72.249 %: mean current 9.994 A (plan 10.00 A), ripple 752.2 mA peak to peak (plan 754.0 mA)
- *   high-bus case  at compare duty 69.806 %: mean current 9.994 A (plan 10.00 A), ripple 804.0 mA peak to peak (plan 805.3 mA)
- *   not checked    three-phase phase currents are held to 8 % (peak) and 12 % (ripple), not the 1 % of single-phase plans: the averaged model's dead-time make-up is approximate
+ *   rated case     at compare duty 72.247 %: mean current 9.992 A (plan 10.00 A), ripple 752.3 mA peak to peak (plan 753.9 mA)
+ *   high-bus case  at compare duty 69.805 %: mean current 9.992 A (plan 10.00 A), ripple 804.1 mA peak to peak (plan 805.3 mA)
+ *   not checked    three-phase phase currents are held to 8 % (peak) and 8 % (ripple), not the 1 % of single-phase plans: the averaged model's dead-time make-up is approximate where the dead time's voltage is large against the motor's impedance
  *
  * Alternatives
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
@@ -70,7 +70,7 @@
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
  *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
- *   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
+ *   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed); losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
  *   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
  *   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
  *   - current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0
