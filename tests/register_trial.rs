@@ -131,3 +131,29 @@ fn needed_duty_makes_up_the_dead_time() {
     );
     assert!(p.register_check.disagreements.is_empty());
 }
+
+/// A slow hub motor whose impedance (62 mΩ, 10 Hz electrical) is tiny against the dead time's
+/// voltage (`tests/fixtures/stiff-hub/`, invented parts): the dead time's harmonics distort
+/// the phase current so strongly that the plan's account of them does not settle. The plan
+/// must say so (a `dead-time-distortion` warning) and still be written, with the register
+/// check reporting the phase current it measured instead of holding it to the tolerance.
+#[test]
+fn strong_dead_time_distortion_is_flagged_and_measured() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/stiff-hub");
+    let p = plan_json(&dir, &[]);
+    assert!(
+        p.findings
+            .iter()
+            .any(|f| f.code == "dead-time-distortion" && f.severity == "warning"),
+        "{:?}",
+        p.findings
+    );
+    let measured = p
+        .register_check
+        .not_checked
+        .iter()
+        .filter(|n| n.contains("the registers drive") && n.contains("did not settle"))
+        .count();
+    assert_eq!(measured, 2, "{:?}", p.register_check.not_checked);
+    assert!(p.register_check.disagreements.is_empty());
+}

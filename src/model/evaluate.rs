@@ -654,6 +654,11 @@ pub struct ThreePhaseCase {
     /// `E·sin(θ − lead)`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub voltage_lead_rad: Option<f64>,
+    /// Sinusoidal: the account of the current harmonics the dead time drives did not settle,
+    /// so the modulation index makes up the dead time by its square-wave figure only
+    /// (written only when true).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub dead_time_harmonics_unsettled: bool,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -1352,6 +1357,7 @@ impl Evaluator {
             gate_outside_devices_w: 0.0,
             closed_form_deviation_rel: Some(report.closed_form_deviation_rel),
             voltage_lead_rad: Some(command.voltage_lead_rad),
+            dead_time_harmonics_unsettled: !command.harmonics_settled,
         };
         self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic.into(), extra)
     }
@@ -1447,6 +1453,7 @@ impl Evaluator {
             gate_outside_devices_w: 0.0,
             closed_form_deviation_rel: None,
             voltage_lead_rad: None,
+            dead_time_harmonics_unsettled: false,
         };
         self.three_phase_result(case, d, sides, ripple_fig, copper, acoustic.into(), extra)
     }

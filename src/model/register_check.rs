@@ -508,6 +508,8 @@ fn fmt_g(x: f64) -> String {
 // ripple within 0.2 % in the median and 5.9 % at worst (a dead time of 12 % of the phase
 // voltage). That is short of the 1 % single-phase plans meet: the check holds three-phase
 // plans to `PEAK_REL` and `RIPPLE_REL` (bounds of our own choice) and says so in its result.
+// Where the plan records that its harmonic account did not settle (and warns of it), the
+// measured peak is reported under `not_checked` instead of held.
 //
 // The finer timer of `SUB_TICKS` keeps the compare quantisation out of the figures;
 // its period is set so that a whole number of PWM periods makes a whole number of electrical
@@ -545,8 +547,20 @@ fn check_three_phase_currents(
             continue;
         };
         match three_phase_case(v, regs, t, tpc, case) {
+            Ok(c) if tpc.dead_time_harmonics_unsettled => {
+                // The plan itself warns that its current is approximate here
+                // (`dead-time-distortion`): the figure is reported, not held.
+                out.not_checked.push(format!(
+                    "{name} case phase current: the registers drive {:.4} A against the plan's {:.4} A, not held to {:.0} % because the plan's dead-time account did not settle (see the dead-time-distortion finding)",
+                    c.mean_a,
+                    tpc.current_a,
+                    100.0 * PEAK_REL
+                ));
+                compare_three_phase(case, tpc, &c, false, &mut out.disagreements);
+                out.cases.push(c);
+            }
             Ok(c) => {
-                compare_three_phase(case, tpc, &c, &mut out.disagreements);
+                compare_three_phase(case, tpc, &c, true, &mut out.disagreements);
                 out.cases.push(c);
             }
             Err(why) => out
@@ -742,11 +756,17 @@ fn ripple_pp_a(
     (0..3).map(|p| hi[p] - lo[p]).fold(worst, f64::max)
 }
 
-/// The plan's phase-current peak and ripple against the verifier's.
-fn compare_three_phase(case: &CaseOut, tpc: &ThreePhaseCase, c: &CaseCheck, out: &mut Vec<String>) {
+/// The plan's phase-current peak (when `hold_peak`) and ripple against the verifier's.
+fn compare_three_phase(
+    case: &CaseOut,
+    tpc: &ThreePhaseCase,
+    c: &CaseCheck,
+    hold_peak: bool,
+    out: &mut Vec<String>,
+) {
     let tol = &TOLERANCES;
     let allowed = (PEAK_REL * tpc.current_a).max(tol.mean_current_abs_a);
-    if (c.mean_a - tpc.current_a).abs() > allowed {
+    if hold_peak && (c.mean_a - tpc.current_a).abs() > allowed {
         out.push(format!(
             "{} case: at modulation index {:.4} the registers drive a phase-current peak of {:.4} A, the plan says {:.4} A",
             case.name,

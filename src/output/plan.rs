@@ -793,6 +793,7 @@ fn findings(
         out.push(dead_time_finding(ev, c));
     }
     out.extend(bootstrap_finding(d, ev, c));
+    out.extend(dead_time_harmonics_finding(c));
     if matches!(ev.stage.topology, Topology::LowSide)
         && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
     {
@@ -813,6 +814,32 @@ fn findings(
 }
 
 /// One finding from its severity, code and message.
+/// A warning where the dead time's current harmonics could not be accounted for: the motor's
+/// impedance is so low against the dead time's voltage that the phase current is strongly
+/// distorted and its fundamental rests on a first-order make-up.
+fn dead_time_harmonics_finding(c: &Candidate) -> Option<FindingOut> {
+    let unsettled: Vec<&str> = [&c.rated, &c.high_bus]
+        .into_iter()
+        .filter(|r| {
+            r.three_phase
+                .as_ref()
+                .is_some_and(|t| t.dead_time_harmonics_unsettled)
+        })
+        .map(|r| r.case.name)
+        .collect();
+    (!unsettled.is_empty()).then(|| {
+        finding(
+            "warning",
+            "dead-time-distortion",
+            format!(
+                "{} {}: the dead time's voltage is large against the motor's impedance, so it distorts the phase current strongly (5th, 7th, … harmonics) and the current at the written modulation index can be several per cent off the rated current (the register check reports the figure it measured); close the current loop in firmware, or shorten the dead time",
+                unsettled.join(" and "),
+                if unsettled.len() > 1 { "cases" } else { "case" }
+            ),
+        )
+    })
+}
+
 fn finding(severity: &str, code: &str, message: String) -> FindingOut {
     FindingOut {
         severity: severity.into(),

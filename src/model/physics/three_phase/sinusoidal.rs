@@ -335,6 +335,9 @@ pub struct SinusoidalCommand {
     pub point: SinusoidalPoint,
     /// Angle by which the commanded phase-voltage fundamental leads the back-EMF, rad.
     pub voltage_lead_rad: f64,
+    /// Whether the account of the dead time's current harmonics settled (always for the
+    /// first-order make-ups; see `dead_time::ErrorImpedance`).
+    pub harmonics_settled: bool,
 }
 
 /// What a real leg takes off the voltage its duty asks for, phase by phase.
@@ -451,5 +454,6 @@ pub fn sinusoidal_point_with_series(
     Ok(SinusoidalCommand {
         point,
         voltage_lead_rad: im.atan2(re),
+        harmonics_settled: true,
     })
 }
