@@ -390,7 +390,7 @@ pub fn effective_edges(d: [f64; 3], x: usize, i_mean_a: f64, c: &LegConditions) 
 
 /// Fixed-point steps of [`sinusoidal_command_edge_by_edge`] at most (our own bound; the error
 /// impedance depends on the command only through the duties and the current's lag, weakly,
-/// and three or four steps settle it to 1e-7 in the tests).
+/// so a few steps settle it to 1e-7).
 const MAX_COMMAND_STEPS: usize = 12;
 
 /// The sinusoidal leg command with the bridge's dead times and switch drops made up edge by
