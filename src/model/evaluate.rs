@@ -77,6 +77,8 @@ pub struct Evaluator {
     /// (`None` for the single-phase stages). `motor_r_ohm`/`motor_l_h` are
     /// then the phase values.
     pub three_phase: Option<ThreePhaseModel>,
+    /// Sinusoidal commands already solved (shared by clones; keyed on every input).
+    pub commands: three_phase::CommandMemo,
 }
 
 /// What a three-phase bridge adds to the evaluator.
@@ -491,6 +493,7 @@ impl Evaluator {
             dead_time_margin: deadtime::DEFAULT_DEAD_TIME_MARGIN,
             dead_time_need_override_s: None,
             three_phase: three_phase_model(d),
+            commands: three_phase::CommandMemo::default(),
         }
     }
 
@@ -1219,7 +1222,7 @@ impl Evaluator {
             v_bus_v: case.v_bus_v,
             zero_sequence: zs,
         };
-        three_phase::sinusoidal_command_edge_by_edge(&self.motor_params(tp), &at, &legs).ok()
+        self.commands.command(&self.motor_params(tp), &at, &legs)
     }
 
     /// Top of the frequency range the acoustic verdict looks at.

@@ -832,7 +832,7 @@ fn dead_time_harmonics_finding(c: &Candidate) -> Option<FindingOut> {
             "warning",
             "dead-time-distortion",
             format!(
-                "{} {}: the dead time's voltage is large against the motor's impedance, so it distorts the phase current strongly (5th, 7th, … harmonics) and the current at the written modulation index can be several per cent off the rated current (the register check reports the figure it measured); close the current loop in firmware, or shorten the dead time",
+                "{} {}: the dead time's voltage is large against the motor's impedance, so it distorts the phase current strongly (5th, 7th, … harmonics), neither the harmonic account nor the averaged bridge settled, and the current at the written modulation index can be several per cent off the rated current (the register check reports the figure it measured); close the current loop in firmware, or shorten the dead time",
                 unsettled.join(" and "),
                 if unsettled.len() > 1 { "cases" } else { "case" }
             ),

@@ -23,10 +23,7 @@ use std::f64::consts::PI;
 
 use super::inputs::*;
 use super::pattern::phase_voltage_pattern;
-use super::sinusoidal::{
-    BridgeDrops, MotorOperatingPoint, SinusoidalCommand, leg_duties, sinusoidal_point_with_drops,
-    sinusoidal_point_with_series,
-};
+use super::sinusoidal::leg_duties;
 
 /// What a leg's dead times and switches do to its output, for one operating case.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -41,6 +38,21 @@ pub struct LegConditions {
     pub v_sd_v: f64,
     /// Motor phase inductance, H.
     pub l_phase_h: f64,
+}
+
+#[cfg(test)]
+impl LegConditions {
+    /// A 48 V, 20 kHz bridge with 10 mΩ switches and 0.8 V diodes (invented, for the tests).
+    pub(crate) fn for_tests(t_dead_s: f64, l_phase_h: f64) -> Self {
+        LegConditions {
+            v_bus_v: 48.0,
+            f_sw_hz: 20e3,
+            t_dead_s,
+            r_switch_ohm: 0.01,
+            v_sd_v: 0.8,
+            l_phase_h,
+        }
+    }
 }
 
 /// Phase A's current `peak·sin(θ − lag)` against leg A's reference `sin θ`.
@@ -135,7 +147,13 @@ pub fn leg_error_v(d: [f64; 3], x: usize, i_mean_a: f64, c: &LegConditions) -> f
 }
 
 /// [`leg_error_v`] from the leg's duty, its edge excursion δ and floating level.
-fn error_at_edges_v(duty: f64, delta_a: f64, v_float_v: f64, i_a: f64, c: &LegConditions) -> f64 {
+pub fn error_at_edges_v(
+    duty: f64,
+    delta_a: f64,
+    v_float_v: f64,
+    i_a: f64,
+    c: &LegConditions,
+) -> f64 {
     if duty <= 0.0 || duty >= 1.0 {
         // No edge: one switch conducts all period.
         return -c.r_switch_ohm * i_a;
@@ -303,8 +321,10 @@ pub struct ErrorImpedance {
     pub r_ohm: f64,
     /// Leading the current by 90°, Ω.
     pub x_ohm: f64,
-    /// Whether the current's distortion by the dead time settled; when not, the undistorted
-    /// current was used (the figure is then approximate: see [`distorted_current_a`]).
+    /// Whether the account of the current's distortion by the dead time settled; when the
+    /// harmonic balance does not, it used the undistorted current (see
+    /// [`distorted_current_a`]) and the command follows the averaged bridge instead
+    /// (`averaged`, `command`).
     pub harmonics_settled: bool,
 }
 
@@ -388,76 +408,12 @@ pub fn effective_edges(d: [f64; 3], x: usize, i_mean_a: f64, c: &LegConditions) 
     (rise + rise_late, fall + fall_late)
 }
 
-/// Fixed-point steps of [`sinusoidal_command_edge_by_edge`] at most (our own bound; the error
-/// impedance depends on the command only through the duties and the current's lag, weakly,
-/// so a few steps settle it to 1e-7).
-const MAX_COMMAND_STEPS: usize = 12;
-
-/// The sinusoidal leg command with the bridge's dead times and switch drops made up edge by
-/// edge: the phasor equation with the error impedance of [`error_impedance_ohm`] in series,
-/// which itself depends on the command's modulation index and the current's lag behind it;
-/// solved by fixed-point iteration from the square-wave make-up of
-/// [`sinusoidal_point_with_drops`] (own method).
-pub fn sinusoidal_command_edge_by_edge(
-    motor: &MotorParams,
-    at: &MotorOperatingPoint,
-    legs: &LegConditions,
-) -> Result<SinusoidalCommand> {
-    check("t_dead_s", legs.t_dead_s, legs.t_dead_s >= 0.0)?;
-    check("f_sw_hz", legs.f_sw_hz, legs.f_sw_hz > 0.0)?;
-    check("l_phase_h", legs.l_phase_h, legs.l_phase_h > 0.0)?;
-    check("v_sd_v", legs.v_sd_v, legs.v_sd_v >= 0.0)?;
-    let square_wave = BridgeDrops {
-        r_switch_ohm: legs.r_switch_ohm,
-        dead_time_mean_v: legs.t_dead_s * legs.f_sw_hz * (legs.v_bus_v + 2.0 * legs.v_sd_v),
-    };
-    let mut command = sinusoidal_point_with_drops(
-        motor,
-        at.omega_e_rad_s,
-        at.i_peak_a,
-        at.current_advance_rad,
-        at.v_bus_v,
-        at.zero_sequence,
-        &square_wave,
-    )?;
-    // Once the harmonic account fails to settle it is not tried again (the undistorted
-    // current; the steps would only cost time).
-    let mut settled = true;
-    for _ in 0..MAX_COMMAND_STEPS {
-        let lag = command.voltage_lead_rad - at.current_advance_rad;
-        let m = command.point.modulation_index;
-        let motor_ohm = if settled {
-            (motor.r_phase_ohm, at.omega_e_rad_s * motor.l_phase_h)
-        } else {
-            (0.0, 0.0)
-        };
-        let z = error_impedance_ohm(m, at.zero_sequence, at.i_peak_a, lag, motor_ohm, legs);
-        settled &= z.harmonics_settled;
-        let mut next = sinusoidal_point_with_series(motor, at, z.r_ohm, z.x_ohm)?;
-        next.harmonics_settled = settled;
-        let settled = (next.point.modulation_index - m).abs() <= 1e-7 * m.max(1e-3)
-            && (next.voltage_lead_rad - command.voltage_lead_rad).abs() <= 1e-7;
-        command = next;
-        if settled {
-            break;
-        }
-    }
-    Ok(command)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
 
     fn legs(t_dead_s: f64, l_phase_h: f64) -> LegConditions {
-        LegConditions {
-            v_bus_v: 48.0,
-            f_sw_hz: 20e3,
-            t_dead_s,
-            r_switch_ohm: 0.01,
-            v_sd_v: 0.8,
-            l_phase_h,
-        }
+        LegConditions::for_tests(t_dead_s, l_phase_h)
     }
 
     /// A large current clamps for the whole dead time: the rising edge loses `(V + V_SD)·t_d`
@@ -553,38 +509,5 @@ mod tests {
             let apart = (coarse.r_ohm - fine.r_ohm).hypot(coarse.x_ohm - fine.x_ohm);
             assert!(apart < 2e-3 * size, "{coarse:?} vs {fine:?}");
         }
-    }
-
-    /// Without dead time and switch drop the edge-by-edge command is the ideal one.
-    #[test]
-    fn ideal_bridge_gives_the_ideal_command() {
-        let motor = MotorParams {
-            r_phase_ohm: 0.2,
-            l_phase_h: 4e-4,
-            ke_v_s_per_rad: 0.03,
-            pole_pairs: 4,
-            back_emf_shape: BackEmfShape::Sinusoidal,
-        };
-        let at = MotorOperatingPoint {
-            omega_e_rad_s: 600.0,
-            i_peak_a: 8.0,
-            current_advance_rad: 0.0,
-            v_bus_v: 48.0,
-            zero_sequence: ZeroSequence::MinMax,
-        };
-        let mut c = legs(0.0, motor.l_phase_h);
-        c.r_switch_ohm = 0.0;
-        c.v_sd_v = 0.0;
-        let edge = sinusoidal_command_edge_by_edge(&motor, &at, &c).expect("command");
-        let ideal = super::super::sinusoidal::sinusoidal_point_from_motor(
-            &motor,
-            600.0,
-            8.0,
-            0.0,
-            48.0,
-            ZeroSequence::MinMax,
-        )
-        .expect("ideal");
-        assert!((edge.point.modulation_index - ideal.modulation_index).abs() < 1e-9);
     }
 }

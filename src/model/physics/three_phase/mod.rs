@@ -37,6 +37,8 @@
 //! the phase ripple ([`phase_ripple`]) and the sampling window ([`sampling`]);
 //! this file only declares them and re-exports their public names.
 
+pub mod averaged;
+pub mod command;
 pub mod dead_time;
 pub mod inputs;
 pub mod loss_lines;
@@ -46,6 +48,8 @@ pub mod sampling;
 pub mod sinusoidal;
 pub mod six_step;
 
+pub use averaged::*;
+pub use command::*;
 pub use dead_time::*;
 pub use inputs::*;
 pub use loss_lines::*;

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:b6948d5d35ec7047455565d4cfcc1b3d12c9790f7bfbc25300318fef55523255)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:1994a0671ad6fcaaad1a6c42ec55286003760354414cbd909ed36c5b784fc7fa)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -21,7 +21,7 @@
 //!   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
 //!   resolution         10.00 bits  11.55 bits  1.55 bits  ok
 //!   dead-time              125 ns      124 ns     550 ps  ok
-//!   duty-range            98.13 %     76.65 %    21.49 %  ok
+//!   duty-range            98.13 %     76.65 %    21.48 %  ok
 //!   sampling-window       91.90 %     72.84 %    19.06 %  ok
 //!   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
 //!
@@ -54,9 +54,9 @@
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
-//!   rated case     at compare duty 72.247 %: mean current 9.992 A (plan 10.00 A), ripple 752.3 mA peak to peak (plan 753.9 mA)
-//!   high-bus case  at compare duty 69.805 %: mean current 9.992 A (plan 10.00 A), ripple 804.1 mA peak to peak (plan 805.3 mA)
-//!   not checked    three-phase phase currents are held to 8 % (peak) and 8 % (ripple), not the 1 % of single-phase plans: the averaged model's dead-time make-up is approximate where the dead time's voltage is large against the motor's impedance
+//!   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.3 mA peak to peak (plan 754.0 mA)
+//!   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 804.2 mA peak to peak (plan 805.4 mA)
+//!   not checked    three-phase phase currents are held to 2 % (peak) and 8 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
