@@ -504,11 +504,14 @@ fn fmt_g(x: f64) -> String {
 // after a current reaches zero, the 5th to 25th harmonics the dead time drives through the
 // motor). On 150 random designs (the register-verifier test) the phase-current peak agreed
 // within 0.03 % in the median and 0.82 % at worst (all 118 compared cases within 1 %, the
-// stiffest motors through the averaged bridge); the ripple within 0.2 % in the median and 5.9 %
-// at worst (a dead time of 12 % of the phase voltage, whose diode levels the ripple model
-// takes as whole edge shifts). The check holds three-phase plans to `PEAK_REL` and
-// `RIPPLE_REL` (bounds of our own choice: margin over those figures for designs the test has
-// not drawn) and says so in its result; the register-verifier test holds the peak to 1 %.
+// stiffest motors through the averaged bridge); the ripple, measured about the low-frequency
+// current (`LowFrequencyCurrent`), within 0.1 % in the median and 1.14 % at worst (115 of 118
+// within 1 %; the worst where the dead time is 12 % of the phase voltage, whose diode levels
+// the ripple model takes as whole edge shifts). An alternative setting of one design was seen
+// 2 % off on the peak (ripple larger than the current). The check holds three-phase plans to
+// `PEAK_REL` and `RIPPLE_REL` (bounds of our own choice: margin over those figures for the
+// alternatives and for designs the test has not drawn) and says so in its result; the
+// register-verifier test holds the chosen plans' peak to 1 %.
 // Where the plan records that its dead-time account did not settle (and warns of it), the
 // measured peak is reported under `not_checked` instead of held.
 //
@@ -525,9 +528,9 @@ fn fmt_g(x: f64) -> String {
 const PERIODS_PER_CYCLE: std::ops::RangeInclusive<f64> = 12.0..=6000.0;
 
 /// Agreement held on the phase-current peak, as a fraction of the plan's (our own bound).
-pub const PEAK_REL: f64 = 0.02;
+pub const PEAK_REL: f64 = 0.05;
 /// Agreement held on the phase-current ripple peak to peak (our own bound).
-pub const RIPPLE_REL: f64 = 0.08;
+pub const RIPPLE_REL: f64 = 0.05;
 
 /// Checks the rated and highest-supply cases of a sinusoidal bridge.
 fn check_three_phase_currents(
@@ -682,10 +685,9 @@ fn three_phase_case(
         let (amp, lag) = fundamental(&values, &thetas, p);
         (amp / window_gain, lag)
     });
-    let omega = 2.0 * PI * f_e;
+    let low = LowFrequencyCurrent::new(&means, &thetas, fundamentals, window_gain);
     let ripple = ripple_pp_a(&sim.boundaries, fine.period_s(), |p, time_s| {
-        let (amp, lag) = fundamentals[p];
-        amp * (omega * time_s - 2.0 * PI * p as f64 / 3.0 - lag).sin()
+        low.at(p, time_s / fine.period_s())
     });
     let peak = compares.iter().flatten().copied().max().unwrap_or(0);
     Ok(CaseCheck {
@@ -729,6 +731,59 @@ fn fundamental(values: &[f64], thetas: &[f64], p: usize) -> (f64, f64) {
         b += 2.0 / n * i * x.cos();
     }
     (a.hypot(b), (-b).atan2(a))
+}
+
+/// The low-frequency phase currents the ripple is measured about: the fundamental plus the
+/// dead time's low harmonics, the latter as each period's mean less the fundamental's (times
+/// the window's gain), interpolated linearly between period centres. The plan's ripple is
+/// about the period's mean; a baseline of the fundamental alone would count the harmonics'
+/// slope across a period as ripple (own method).
+struct LowFrequencyCurrent {
+    fundamentals: [(f64, f64); 3],
+    /// Angle per PWM period, rad.
+    step_rad: f64,
+    residual_a: Vec<[f64; 3]>,
+}
+
+impl LowFrequencyCurrent {
+    fn new(
+        means: &[[f64; 3]],
+        thetas: &[f64],
+        fundamentals: [(f64, f64); 3],
+        window_gain: f64,
+    ) -> Self {
+        let residual_a = means
+            .iter()
+            .zip(thetas)
+            .map(|(m, &th)| {
+                [0, 1, 2].map(|p| {
+                    let (amp, lag) = fundamentals[p];
+                    m[p] - window_gain * amp * (th - 2.0 * PI * p as f64 / 3.0 - lag).sin()
+                })
+            })
+            .collect();
+        let step_rad = thetas.get(1).map_or(0.0, |t1| t1 - thetas[0]);
+        LowFrequencyCurrent {
+            fundamentals,
+            step_rad,
+            residual_a,
+        }
+    }
+
+    /// Phase `p` at `periods` PWM periods from the start.
+    fn at(&self, p: usize, periods: f64) -> f64 {
+        let (amp, lag) = self.fundamentals[p];
+        let fundamental = amp * (self.step_rad * periods - 2.0 * PI * p as f64 / 3.0 - lag).sin();
+        let n = self.residual_a.len() as i64;
+        if n == 0 {
+            return fundamental;
+        }
+        let u = periods - 0.5;
+        let (k, w) = (u.floor(), u - u.floor());
+        let k0 = (k as i64).rem_euclid(n) as usize;
+        let k1 = (k as i64 + 1).rem_euclid(n) as usize;
+        fundamental + (1.0 - w) * self.residual_a[k0][p] + w * self.residual_a[k1][p]
+    }
 }
 
 /// Largest peak-to-peak swing, over the PWM periods and phases, of the phase currents about

@@ -303,6 +303,11 @@ fn distorted_current_a(
             return (current, true);
         }
         if residual > last_residual {
+            if damping <= MIN_DAMPING {
+                // Growing even at the smallest step: it will not settle (the averaged
+                // bridge takes over; more steps would only cost time).
+                return (fundamental, false);
+            }
             damping = (0.5 * damping).max(MIN_DAMPING);
         }
         last_residual = residual;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:345a29bc604b72f846e2ab5add0ad62fc8ce970c048595be4480c74b64ee2b1c)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:67fca98e37f478db86a901c6269988aa03ff874df81c2e104b5e5af8a8327bb5)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -55,9 +55,9 @@
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
- *   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.3 mA peak to peak (plan 754.0 mA)
- *   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 804.2 mA peak to peak (plan 805.4 mA)
- *   not checked    three-phase phase currents are held to 2 % (peak) and 8 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
+ *   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.0 mA peak to peak (plan 754.0 mA)
+ *   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 803.7 mA peak to peak (plan 805.4 mA)
+ *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
  *
  * Alternatives
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:1994a0671ad6fcaaad1a6c42ec55286003760354414cbd909ed36c5b784fc7fa)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:0ea2b1cf2766cb765a099104e1ef76cc5b9e2eca278669bd48f5eb5ae983c0d4)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -54,9 +54,9 @@
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
-//!   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.3 mA peak to peak (plan 754.0 mA)
-//!   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 804.2 mA peak to peak (plan 805.4 mA)
-//!   not checked    three-phase phase currents are held to 2 % (peak) and 8 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
+//!   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.0 mA peak to peak (plan 754.0 mA)
+//!   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 803.7 mA peak to peak (plan 805.4 mA)
+//!   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
