@@ -851,6 +851,46 @@ mod three_phase_tests {
     use super::*;
 
     /// A sine sampled at N angles: the DFT returns its peak and lag exactly.
+    /// A smooth current (fundamental plus a 5 % 7th harmonic, no switching) has no ripple
+    /// about the low-frequency current, while about the fundamental alone the harmonic's
+    /// swing across each period would count as ripple.
+    #[test]
+    fn low_harmonics_are_not_ripple() {
+        let (n, per_period) = (240usize, 20usize);
+        let period_s = 1.0 / 60.0 / n as f64;
+        let current = |p: usize, t: f64| {
+            let th = 2.0 * PI * 60.0 * t - 2.0 * PI * p as f64 / 3.0;
+            2.0 * (th - 0.3).sin() + 0.1 * (7.0 * th).sin()
+        };
+        let boundaries: Vec<(f64, [f64; 3])> = (0..=n * per_period)
+            .map(|k| {
+                let t = k as f64 * period_s / per_period as f64;
+                (t, [0, 1, 2].map(|p| current(p, t)))
+            })
+            .collect();
+        let means = period_means_a(&boundaries, period_s, n);
+        let thetas: Vec<f64> = (0..n)
+            .map(|k| 2.0 * PI * (k as f64 + 0.5) / n as f64)
+            .collect();
+        let x = PI / n as f64;
+        let gain = x.sin() / x;
+        let fundamentals = [0, 1, 2].map(|p| {
+            let values: Vec<f64> = means.iter().map(|m| m[p]).collect();
+            let (amp, lag) = fundamental(&values, &thetas, p);
+            (amp / gain, lag)
+        });
+        assert!((fundamentals[0].0 - 2.0).abs() < 1e-3, "{fundamentals:?}");
+        let low = LowFrequencyCurrent::new(&means, &thetas, fundamentals, gain);
+        let about_low = ripple_pp_a(&boundaries, period_s, |p, t| low.at(p, t / period_s));
+        let about_fundamental = ripple_pp_a(&boundaries, period_s, |p, t| {
+            let (amp, lag) = fundamentals[p];
+            amp * (2.0 * PI * 60.0 * t - 2.0 * PI * p as f64 / 3.0 - lag).sin()
+        });
+        // The 7th's swing over a period: 0.1·7·2π/240 ≈ 0.018 A.
+        assert!(about_fundamental > 0.015, "{about_fundamental}");
+        assert!(about_low < 0.05 * about_fundamental, "{about_low}");
+    }
+
     #[test]
     fn fundamental_of_a_sampled_sine() {
         let n = 40;
