@@ -11,7 +11,8 @@
 use std::f64::consts::PI;
 
 use super::dead_time::{
-    ErrorImpedance, LegConditions, error_at_edges_v, excursion_to_falling_edge_a, floating_level_v,
+    ErrorImpedance, LegConditions, error_at_edges_v, error_slope_at_edges,
+    excursion_to_falling_edge_a, floating_level_v,
 };
 use super::inputs::ZeroSequence;
 use super::sinusoidal::leg_duties;
@@ -93,6 +94,11 @@ impl LegTable {
         let j = self.row(k, x);
         error_at_edges_v(self.duty[j], self.excursion_a[j], self.float_v[j], i_a, c)
     }
+
+    fn error_slope(&self, k: usize, x: usize, i_a: f64, c: &LegConditions) -> f64 {
+        let j = self.row(k, x);
+        error_slope_at_edges(self.duty[j], self.excursion_a[j], self.float_v[j], i_a, c)
+    }
 }
 
 /// One electrical period of the averaged bridge.
@@ -123,9 +129,8 @@ impl Stepper<'_> {
     fn step(&self, k: usize, i: [f64; 3], last: [f64; 3]) -> ([f64; 3], f64) {
         let base = [0, 1, 2].map(|x| self.table.drive_v[self.table.row(k, x)]);
         let p = [0, 1, 2].map(|x| i[x] + 0.5 * last[x]);
-        let eps = 1e-7 * self.scale_a;
         let e0 = [0, 1, 2].map(|x| self.table.error_v(k, x, p[x], self.c));
-        let slope = [0, 1, 2].map(|x| (self.table.error_v(k, x, p[x] + eps, self.c) - e0[x]) / eps);
+        let slope = [0, 1, 2].map(|x| self.table.error_slope(k, x, p[x], self.c));
         // error_x ≈ a_x + b_x·j_x with the mean (i + j)/2.
         let a = [0, 1, 2].map(|x| e0[x] - slope[x] * p[x] + 0.5 * slope[x] * i[x]);
         let b = slope.map(|s| 0.5 * s);

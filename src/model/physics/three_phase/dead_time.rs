@@ -164,6 +164,38 @@ pub fn error_at_edges_v(
     c.f_sw_hz * edges - c.r_switch_ohm * i_a * conducting
 }
 
+/// d[`error_at_edges_v`]/di, Ω: each edge whose current reaches zero inside the dead time
+/// adds `−f·3/2·L` (its clamp time `3/2·L·|i|/|v_clamp − v_float|` grows with |i| while the
+/// clamp level's distance from the float level is the same drive; derivative of
+/// [`edge_volt_seconds`]), an edge clamped all the dead time adds nothing; the conducting
+/// switch adds `−R` over the time outside the dead times.
+pub fn error_slope_at_edges(
+    duty: f64,
+    delta_a: f64,
+    v_float_v: f64,
+    i_a: f64,
+    c: &LegConditions,
+) -> f64 {
+    if duty <= 0.0 || duty >= 1.0 {
+        return -c.r_switch_ohm;
+    }
+    let edge = |i: f64| {
+        let clamp_v = if i > 0.0 {
+            -c.v_sd_v
+        } else {
+            c.v_bus_v + c.v_sd_v
+        };
+        let drive = (clamp_v - v_float_v).abs();
+        if drive > 0.0 && 1.5 * c.l_phase_h * i.abs() < drive * c.t_dead_s {
+            -1.5 * c.l_phase_h
+        } else {
+            0.0
+        }
+    };
+    let conducting = 1.0 - 2.0 * c.t_dead_s * c.f_sw_hz;
+    c.f_sw_hz * (edge(i_a - delta_a) + edge(i_a + delta_a)) - c.r_switch_ohm * conducting
+}
+
 /// The highest current harmonic the dead time's distortion is followed to (our own bound:
 /// the harmonic currents fall as 1/h² above the motor's corner, and the 5th to the 13th carry
 /// nearly all of the shift they give the current's zero crossings).
@@ -435,6 +467,28 @@ mod tests {
         assert!((v - (48.0 + 0.8) * 500e-9).abs() < 1e-15, "{v}");
         let v = edge_volt_seconds(0.0, true, 20.0, &c);
         assert!((v - (20.0 - 48.0) * 500e-9).abs() < 1e-15, "{v}");
+    }
+
+    /// The slope against a central difference of the error away from its kinks.
+    #[test]
+    fn error_slope_matches_a_difference() {
+        let c = legs(500e-9, 2e-4);
+        for (duty, delta, v_float, i) in [
+            (0.4, 0.3, 20.0, 0.05),
+            (0.6, 0.2, 30.0, -0.02),
+            (0.5, 0.1, 24.0, 3.0),
+            (0.7, 0.5, 10.0, 0.45),
+        ] {
+            let h = 1e-6;
+            let diff = (error_at_edges_v(duty, delta, v_float, i + h, &c)
+                - error_at_edges_v(duty, delta, v_float, i - h, &c))
+                / (2.0 * h);
+            let slope = error_slope_at_edges(duty, delta, v_float, i, &c);
+            assert!(
+                (slope - diff).abs() < 1e-6 * (1.0 + diff.abs()),
+                "{slope} vs {diff}"
+            );
+        }
     }
 
     /// The excursion to a leg's falling edge against a brute-force integration of the three

@@ -26,9 +26,8 @@ pub fn phase_voltage_between(
 ) -> Vec<(f64, f64, f64)> {
     let on = on.map(|x| x * t_s);
     let off = off.map(|x| x * t_s);
-    let mut cuts: Vec<f64> = vec![0.0, t_s];
-    cuts.extend_from_slice(&on);
-    cuts.extend_from_slice(&off);
+    // On the stack: the dead-time account builds one pattern per angle and command.
+    let mut cuts = [0.0, t_s, on[0], on[1], on[2], off[0], off[1], off[2]];
     cuts.sort_by(f64::total_cmp);
     let mut out = Vec::with_capacity(7);
     for w in cuts.windows(2) {
