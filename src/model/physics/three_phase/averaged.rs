@@ -4,15 +4,15 @@
 //! where the current clamps near zero around its crossings).
 //!
 //! Owns: the periodic steady state of `L·di_x/dt = v_x − e_x − R·i_x + w_x` (ideal phase
-//! voltage, back-EMF, leg error less its common mode) stepped at fixed electrical angles, and
-//! the error impedance taken from it. Does not own the leg error (`dead_time`) nor the
+//! voltage, back-EMF, leg error less its common mode) stepped at fixed electrical angles, its
+//! fundamental, and the 2×2 Newton steps it and `command` take. Does not own the leg error (`dead_time`) nor the
 //! command that makes it up (`command`).
 
 use std::f64::consts::PI;
 
 use super::dead_time::{
-    ErrorImpedance, LegConditions, error_at_edges_v, error_slope_at_edges,
-    excursion_to_falling_edge_a, floating_level_v,
+    LegConditions, error_at_edges_v, error_slope_at_edges, excursion_to_falling_edge_a,
+    floating_level_v,
 };
 use super::inputs::ZeroSequence;
 use super::sinusoidal::leg_duties;
@@ -105,9 +105,8 @@ impl LegTable {
 struct Run {
     /// Currents at the period's end.
     end: [f64; 3],
-    /// Phase A's mean current and leg A's error per step.
+    /// Phase A's mean current per step (when kept).
     current_a: Vec<f64>,
-    error_v: Vec<f64>,
 }
 
 struct Stepper<'a> {
@@ -126,7 +125,7 @@ impl Stepper<'_> {
     /// `(i + j)/2` linearised about its prediction `i + Δ/2` (Δ the last step's change) and
     /// solved with the end currents `j` (implicit, so a steep error around zero current
     /// clamps instead of ringing; own method).
-    fn step(&self, k: usize, i: [f64; 3], last: [f64; 3]) -> ([f64; 3], f64) {
+    fn step(&self, k: usize, i: [f64; 3], last: [f64; 3]) -> [f64; 3] {
         let base = [0, 1, 2].map(|x| self.table.drive_v[self.table.row(k, x)]);
         let p = [0, 1, 2].map(|x| i[x] + 0.5 * last[x]);
         let e0 = [0, 1, 2].map(|x| self.table.error_v(k, x, p[x], self.c));
@@ -143,29 +142,23 @@ impl Stepper<'_> {
                 *v = own + self.gain * b[y] / 3.0;
             }
         }
-        let j = solve3(m, rhs);
-        (j, a[0] + b[0] * j[0])
+        solve3(m, rhs)
     }
 
     fn run(&self, start: [f64; 2], keep: bool) -> Run {
         let n = self.table.duty.len();
         let mut i = [start[0], start[1], -start[0] - start[1]];
-        let (mut current_a, mut error_v) = (Vec::new(), Vec::new());
+        let mut current_a = Vec::new();
         let mut last = [0.0; 3];
         for k in 0..n {
-            let (j, e) = self.step(k, i, last);
+            let j = self.step(k, i, last);
             last = [0, 1, 2].map(|x| j[x] - i[x]);
             if keep {
                 current_a.push(0.5 * (i[0] + j[0]));
-                error_v.push(e);
             }
             i = j;
         }
-        Run {
-            end: i,
-            current_a,
-            error_v,
-        }
+        Run { end: i, current_a }
     }
 
     /// `run(x) − x`, the periodicity residual.
@@ -189,6 +182,32 @@ fn solve3(m: [[f64; 3]; 3], r: [f64; 3]) -> [f64; 3] {
             row[col] = v;
         }
         det(a) / d
+    })
+}
+
+/// Columns `∂f/∂x_d` of `f` at `x` by forward differences of `h[d]`, given `f(x)`.
+pub fn difference_jacobian(
+    mut f: impl FnMut([f64; 2]) -> [f64; 2],
+    x: [f64; 2],
+    fx: [f64; 2],
+    h: [f64; 2],
+) -> Jacobian2 {
+    [0, 1].map(|d| {
+        let mut y = x;
+        y[d] += h[d];
+        let g = f(y);
+        [(g[0] - fx[0]) / h[d], (g[1] - fx[1]) / h[d]]
+    })
+}
+
+/// The Newton step `−J⁻¹·f` for a 2×2 Jacobian of columns `j`; `None` when it is singular.
+pub fn newton_step(j: Jacobian2, f: [f64; 2]) -> Option<[f64; 2]> {
+    let det = j[0][0] * j[1][1] - j[1][0] * j[0][1];
+    (det != 0.0 && det.is_finite()).then(|| {
+        [
+            -(f[0] * j[1][1] - j[1][0] * f[1]) / det,
+            -(j[0][0] * f[1] - f[0] * j[0][1]) / det,
+        ]
     })
 }
 
@@ -232,28 +251,12 @@ fn periodic_start(
             return (x, true, jac);
         }
         let fresh = jac.is_none();
-        let j = match jac {
-            Some(j) => j,
-            None => {
-                let eps = 1e-6 * s.scale_a;
-                let col = |d: usize| {
-                    let mut y = x;
-                    y[d] += eps;
-                    let g = s.residual(y);
-                    [(g[0] - f[0]) / eps, (g[1] - f[1]) / eps]
-                };
-                [col(0), col(1)]
-            }
-        };
+        let eps = 1e-6 * s.scale_a;
+        let j = jac.unwrap_or_else(|| difference_jacobian(|y| s.residual(y), x, f, [eps, eps]));
         jac = Some(j);
-        let det = j[0][0] * j[1][1] - j[1][0] * j[0][1];
-        if det == 0.0 || !det.is_finite() {
+        let Some(dx) = newton_step(j, f) else {
             return (x, false, None);
-        }
-        let dx = [
-            -(f[0] * j[1][1] - j[1][0] * f[1]) / det,
-            -(j[0][0] * f[1] - f[0] * j[0][1]) / det,
-        ];
+        };
         let mut t = 1.0;
         loop {
             let y = [x[0] + t * dx[0], x[1] + t * dx[1]];
@@ -293,10 +296,11 @@ fn fundamental(values: &[f64]) -> (f64, f64) {
         })
 }
 
-/// An averaged bridge's error impedance and current, and where a nearby solve can start.
+/// An averaged bridge's periodic current, and where a nearby solve can start.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct AveragedSolve {
-    pub impedance: ErrorImpedance,
+    /// Whether the periodic solve settled.
+    pub settled: bool,
     /// Phase A's current fundamental as `(sin, cos)` coefficients against leg A's reference
     /// `sin θ`, A.
     pub current_sin_cos_a: (f64, f64),
@@ -312,21 +316,20 @@ pub struct Warm {
     pub jacobian: Option<Jacobian2>,
 }
 
-/// The legs' error impedance (as `dead_time::error_impedance_ohm` defines it) from the
-/// periodic steady state of the averaged bridge at `drive`, stepped [`AVERAGED_STEPS`] times
-/// per electrical period, starting the periodic solve from `warm` or else from the current
-/// `peak·sin(θ − lag)` of `guess`. `harmonics_settled` says whether the periodic solve settled.
-pub fn averaged_error_impedance(
+/// Phase A's current fundamental in the periodic steady state of the averaged bridge at
+/// `drive`, stepped [`AVERAGED_STEPS`] times per electrical period, starting the periodic
+/// solve from `warm` or else from the current `peak·sin(θ − lag)` of `guess`.
+pub fn averaged_current(
     drive: &AveragedDrive,
     c: &LegConditions,
     l_phase_h: f64,
     guess: (f64, f64),
     warm: Option<Warm>,
 ) -> AveragedSolve {
-    averaged_error_impedance_over(AVERAGED_STEPS, drive, c, l_phase_h, guess, warm)
+    averaged_current_over(AVERAGED_STEPS, drive, c, l_phase_h, guess, warm)
 }
 
-fn averaged_error_impedance_over(
+fn averaged_current_over(
     steps: usize,
     drive: &AveragedDrive,
     c: &LegConditions,
@@ -356,26 +359,9 @@ fn averaged_error_impedance_over(
     );
     let (start, settled, jacobian) = periodic_start(&s, start, warm.and_then(|w| w.jacobian));
     let run = s.run(start, true);
-    let (ia, ib) = fundamental(&run.current_a);
-    let (ea, eb) = fundamental(&run.error_v);
-    // Z = −E/I with phasors sin ↔ 1, cos ↔ j.
-    let den = ia * ia + ib * ib;
-    let impedance = if den > 0.0 && den.is_finite() {
-        ErrorImpedance {
-            r_ohm: -(ea * ia + eb * ib) / den,
-            x_ohm: -(eb * ia - ea * ib) / den,
-            harmonics_settled: settled,
-        }
-    } else {
-        ErrorImpedance {
-            r_ohm: 0.0,
-            x_ohm: 0.0,
-            harmonics_settled: false,
-        }
-    };
     AveragedSolve {
-        impedance,
-        current_sin_cos_a: (ia, ib),
+        settled,
+        current_sin_cos_a: fundamental(&run.current_a),
         warm: Warm { start, jacobian },
     }
 }
@@ -404,9 +390,9 @@ mod tests {
                 emf_peak_v: e,
                 voltage_lead_rad: lead,
             };
-            let coarse = averaged_error_impedance_over(720, &drive, &c, l, (1.0, 0.0), None);
-            let fine = averaged_error_impedance_over(2880, &drive, &c, l, (1.0, 0.0), None);
-            assert!(coarse.impedance.harmonics_settled && fine.impedance.harmonics_settled);
+            let coarse = averaged_current_over(720, &drive, &c, l, (1.0, 0.0), None);
+            let fine = averaged_current_over(2880, &drive, &c, l, (1.0, 0.0), None);
+            assert!(coarse.settled && fine.settled);
             let (a, b) = (coarse.current_sin_cos_a, fine.current_sin_cos_a);
             let size = b.0.hypot(b.1);
             assert!(size > 0.1, "{b:?}");
@@ -432,7 +418,7 @@ mod tests {
             emf_peak_v: e,
             voltage_lead_rad: lead,
         };
-        let got = averaged_error_impedance(&drive, &c, l, (5.0, 0.0), None);
+        let got = averaged_current(&drive, &c, l, (5.0, 0.0), None);
         // Against leg A's reference: V = m·V_bus/2, E = e·e^(−j·lead).
         let v = (m * c.v_bus_v / 2.0, 0.0);
         let emf = (e * lead.cos(), -e * lead.sin());

@@ -9,7 +9,7 @@
 use std::collections::HashMap;
 use std::sync::{Arc, Mutex};
 
-use super::averaged::{AveragedDrive, averaged_error_impedance};
+use super::averaged::{AveragedDrive, averaged_current, difference_jacobian, newton_step};
 use super::dead_time::{LegConditions, error_impedance_ohm};
 use super::inputs::*;
 use super::sinusoidal::{
@@ -101,7 +101,7 @@ const AVERAGED_COMMAND_STEPS: usize = 12;
 /// is held to, and ten times the periodic solve's own tolerance).
 const COMMAND_TOLERANCE: f64 = 1e-4;
 
-/// The command `(m, lead)` under which the averaged bridge ([`averaged_error_impedance`])
+/// The command `(m, lead)` under which the averaged bridge ([`averaged_current`])
 /// drives the operating point's current: Newton steps on the current phasor's miss
 /// (difference Jacobian kept while it serves, step halved while the miss grows; own method: the current is smooth
 /// in the command, where the error impedance is not). Starts from `start`;
@@ -128,14 +128,14 @@ fn averaged_command(
             voltage_lead_rad: c[1],
         };
         let guess = (at.i_peak_a, c[1] - at.current_advance_rad);
-        let solved = averaged_error_impedance(&drive, legs, motor.l_phase_h, guess, warm);
+        let solved = averaged_current(&drive, legs, motor.l_phase_h, guess, warm);
         warm = Some(solved.warm);
         // sin θ ↔ 1, cos θ ↔ j against the leg reference; times e^(j·lead) against the EMF.
         let (ia, ib) = solved.current_sin_cos_a;
         let (sl, cl) = c[1].sin_cos();
         let re = (ia * cl - ib * sl) / scale - target.0;
         let im = (ia * sl + ib * cl) / scale - target.1;
-        ([re, im], solved.impedance.harmonics_settled)
+        ([re, im], solved.settled)
     };
     let size = |f: [f64; 2]| f[0].abs().max(f[1].abs());
     let mut c = [start.point.modulation_index, start.voltage_lead_rad];
@@ -146,30 +146,13 @@ fn averaged_command(
         if size(f) <= COMMAND_TOLERANCE {
             break;
         }
-        let cols = match jacobian {
-            Some(j) => j,
-            None => {
-                // Differences well above the periodic solve's own tolerance.
-                let h = [1e-3 * c[0].max(1e-3), 1e-3];
-                let mut cols = [[0.0; 2]; 2];
-                for (d, col) in cols.iter_mut().enumerate() {
-                    let mut y = c;
-                    y[d] += h[d];
-                    let g = miss(y).0;
-                    *col = [(g[0] - f[0]) / h[d], (g[1] - f[1]) / h[d]];
-                }
-                jacobian = Some(cols);
-                cols
-            }
-        };
-        let det = cols[0][0] * cols[1][1] - cols[1][0] * cols[0][1];
-        if det == 0.0 || !det.is_finite() {
+        // Differences well above the periodic solve's own tolerance.
+        let h = [1e-3 * c[0].max(1e-3), 1e-3];
+        let cols = jacobian.unwrap_or_else(|| difference_jacobian(|y| miss(y).0, c, f, h));
+        jacobian = Some(cols);
+        let Some(dc) = newton_step(cols, f) else {
             break;
-        }
-        let dc = [
-            -(f[0] * cols[1][1] - cols[1][0] * f[1]) / det,
-            -(cols[0][0] * f[1] - f[0] * cols[0][1]) / det,
-        ];
+        };
         let mut t = 1.0;
         loop {
             let y = [c[0] + t * dc[0], c[1] + t * dc[1]];
