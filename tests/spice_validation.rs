@@ -46,7 +46,9 @@ fn reference_covers_the_required_span() {
     );
 }
 
-/// Acceptance: median |error| of E_on + E_off ≤ 15 %, worst ≤ 35 %.
+/// Acceptance: median |error| of E_on + E_off ≤ 10 %, worst ≤ 25 % (issue
+/// 15's figures; here with the half-bridge's partner charge taken from the
+/// simulation, so the switching model is under test, not the recovery model).
 #[test]
 fn switching_energy_within_acceptance() {
     let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
@@ -56,8 +58,25 @@ fn switching_energy_within_acceptance() {
     for r in &errs {
         println!("{} {:+.1} %", r.case.id, 100.0 * r.e_err);
     }
-    assert!(median <= 0.15, "median |error| {:.1} %", 100.0 * median);
-    assert!(worst <= 0.35, "worst |error| {:.1} %", 100.0 * worst);
+    assert!(median <= 0.10, "median |error| {:.1} %", 100.0 * median);
+    assert!(worst <= 0.25, "worst |error| {:.1} %", 100.0 * worst);
+}
+
+/// The turn-off alone, with capacitance sharing (`commutation::turn_off`):
+/// the terminal energy within a median 12 % and worst 25 % of ngspice (own
+/// bounds; measured 9.6 % and 19.0 %), where the gate-charge turn-off with the
+/// whole load current in the channel was 20–38 % high in every case.
+#[test]
+fn turn_off_energy_with_capacitance_sharing() {
+    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    let e: Vec<f64> = errs
+        .iter()
+        .map(|r| r.pred.e_off_j / r.meas.e_off_j - 1.0)
+        .collect();
+    let median = harness::median_abs(&e);
+    let worst = e.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
+    assert!(median <= 0.12, "median |error| {:.1} %", 100.0 * median);
+    assert!(worst <= 0.25, "worst |error| {:.1} %", 100.0 * worst);
 }
 
 /// Acceptance: the dead-time need (margin 1.2, from the model's transitions)

@@ -257,6 +257,7 @@ fn hot_corner_parameters_are_monotonic() {
             (lo, hi)
         };
         let mut last: Option<(f64, f64)> = None;
+        let mut last_lines = None;
         for k in 0..=12 {
             let mut x = typ;
             x[p as usize] = lo + (hi - lo) * k as f64 / 12.0;
@@ -267,9 +268,14 @@ fn hot_corner_parameters_are_monotonic() {
             let now = (c.junction_c.unwrap(), c.losses.total);
             if let Some(prev) = last {
                 assert!(now.0 >= prev.0 - 1e-9, "{p:?}: T_j fell at step {k}");
-                assert!(now.1 >= prev.1 - 1e-12, "{p:?}: loss fell at step {k}");
+                assert!(
+                    now.1 >= prev.1 - 1e-12,
+                    "{p:?}: loss fell at step {k}: {last_lines:?} -> {:?}",
+                    c.losses
+                );
             }
             last = Some(now);
+            last_lines = Some(c.losses.clone());
         }
     }
 }

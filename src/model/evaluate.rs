@@ -10,6 +10,7 @@ use serde::{Deserialize, Serialize};
 use crate::input::design::Design;
 use crate::input::spec::*;
 use crate::model::physics::acoustics::{self, AcousticVerdict, AudibleMode, Significance};
+use crate::model::physics::capacitance;
 use crate::model::physics::deadtime::{self, DeadTimeInputs};
 use crate::model::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents, StageLevels};
 use crate::model::physics::losses::{self, DeviceRole, StageLosses};
@@ -217,7 +218,7 @@ pub fn c_rss_reconciliation(s: &SwitchSpec) -> Option<CrssReconciliation> {
         None => (0.5 * s.v_dss.si, false),
     };
     let plateau = sw.v_plateau_v.unwrap_or(sw.v_th_v);
-    let (q, _) = switching::miller_integrals(&sw, 0.0, v_test_v, plateau)?;
+    let (q, _) = capacitance::miller_integrals(&sw, 0.0, v_test_v, plateau)?;
     (q.is_finite() && q > 0.0 && sw.q_gd_c > 0.0).then(|| CrssReconciliation {
         curve_q_gd_c: q,
         q_gd_c: sw.q_gd_c,
@@ -696,7 +697,13 @@ pub struct DeviceFigures {
     pub switched_current_on_a: f64,
     pub switched_current_off_a: f64,
     pub e_on_j: f64,
+    /// Turn-off energy at the drain terminal (what a double-pulse test
+    /// integrates).
     pub e_off_j: f64,
+    /// The part of `e_off_j` dissipated in the channel, which the switching
+    /// line books; the rest charges the switch's own output capacitance and
+    /// is booked at its next hard turn-on (the output-capacitance line).
+    pub e_off_channel_j: f64,
     pub t_delay_on_s: f64,
     pub t_delay_off_s: f64,
     pub conduction_w: f64,
@@ -843,7 +850,8 @@ impl Evaluator {
                     switched_current_on_a: d.switched_current_on_a,
                     switched_current_off_a: d.switched_current_off_a,
                     e_on_j: d.e_on_j,
-                    e_off_j: d.e_off_j,
+                    e_off_j: d.e_off_terminal_j,
+                    e_off_channel_j: d.e_off_j,
                     t_delay_on_s: d.t_delay_on_s,
                     t_delay_off_s: d.t_delay_off_s,
                     conduction_w: d.conduction_w,
@@ -1504,7 +1512,8 @@ impl Evaluator {
                     switched_current_on_a: s.i_on_a,
                     switched_current_off_a: s.i_off_a,
                     e_on_j: tr.e_on_j,
-                    e_off_j: tr.e_off_j,
+                    e_off_j: tr.e_off_terminal_j,
+                    e_off_channel_j: tr.e_off_j,
                     t_delay_on_s: tr.t_d_on_s,
                     t_delay_off_s: tr.t_d_off_s,
                     conduction_w: lines.conduction_w(),

@@ -945,16 +945,15 @@ pub struct Corner {
 /// so the hot corner takes their maxima:
 /// - R_ds(on): conduction loss I²·R (and R rises again with T_j);
 /// - Q_g: gate-drive loss Q_g·V·f;
-/// - Q_gs, Q_gd: switching times t = Q/I_g, so E = ½·V·I·t grows
+/// - Q_gd: switching times t = Q/I_g, so E = ½·V·I·t grows
 ///   (Graovac, Pürschel, Kiep 2006);
 /// - R_g,int and the driver's source and sink resistances: smaller gate
 ///   currents I_g = V/R, longer edges;
 /// - Q_rr: recovery loss Q_rr·V·f;
 /// - ambient: T_j = T_a + R_th·P, and P rises with T_j through R_ds(on).
-pub const HOT_AT_MAX: [Param; 9] = [
+pub const HOT_AT_MAX: [Param; 8] = [
     Param::RdsOn,
     Param::Qg,
-    Param::Qgs,
     Param::Qgd,
     Param::RgInt,
     Param::Qrr,
@@ -972,12 +971,18 @@ pub const HOT_AT_MAX: [Param; 9] = [
 ///   rises with V at a fixed load), but the duty, and so the conduction
 ///   split between the switches, falls;
 /// - motor R and L: they move the duty and the ripple, and a large ripple
-///   can turn a hard turn-on soft.
+///   can turn a hard turn-on soft;
+/// - Q_gs: the current rise at turn-on slows with it (t_ri = Q_gs2/I_g),
+///   but with Q_g fixed at its test voltage a larger Q_gs flattens the
+///   gate-charge curve above the plateau, so a drive above that test
+///   voltage moves less gate charge (`switching::total_gate_charge_c`):
+///   switching loss rises, gate-drive loss falls.
 ///
 /// An interior maximum in one of them is outside the corner method; the
 /// Monte Carlo samples the inside.
-pub const HOT_BOTH_ENDS: [Param; 5] = [
+pub const HOT_BOTH_ENDS: [Param; 6] = [
     Param::Vth,
+    Param::Qgs,
     Param::DriverSupply,
     Param::Supply,
     Param::MotorResistance,

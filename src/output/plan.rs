@@ -59,10 +59,14 @@ pub const CAUTIONS: &[&str] = &[
     "Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.",
 ];
 
+/// The switching line of the assumptions; `assumptions_out` completes it
+/// for the switch file at hand.
+pub const SWITCHING_ASSUMPTION: &str = "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)";
+
 /// The modelling assumptions every output states.
 pub const ASSUMPTIONS: &[&str] = &[
     "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
-    "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
+    SWITCHING_ASSUMPTION,
     "motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it",
     "checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line",
     "devices thermally independent, each with the board's junction-to-ambient path",
@@ -73,7 +77,7 @@ pub const ASSUMPTIONS: &[&str] = &[
 /// The modelling assumptions of a three-phase plan.
 pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
-    "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)",
+    SWITCHING_ASSUMPTION,
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
@@ -1179,8 +1183,25 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
         ASSUMPTIONS
     }
     .iter()
-    .map(|s| s.to_string())
+    .map(|s| match *s {
+        SWITCHING_ASSUMPTION => switching_assumption(&ev.stage.switch),
+        other => other.to_string(),
+    })
     .collect()
+}
+
+/// The switching line of the assumptions, completed with how the turn-off
+/// was computed for this switch file (`switching::transitions`,
+/// refinement 4) and how reverse recovery is booked.
+fn switching_assumption(sw: &crate::model::physics::params::SwitchModel) -> String {
+    let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
+        "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises"
+    } else {
+        "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
+    };
+    format!(
+        "{SWITCHING_ASSUMPTION}; {turn_off}; reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)"
+    )
 }
 
 /// The search record of a solution: how many settings were realisable and

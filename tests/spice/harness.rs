@@ -994,13 +994,18 @@ pub fn predict_switching(
     meas: &SwitchMeasured,
 ) -> Result<SwitchPredicted, String> {
     let drive = gate_drive(case);
-    let tr = switching::transitions(
+    let partner = match case.circuit {
+        Circuit::LowSide => switching::NodePartner::FreewheelDiode,
+        Circuit::HalfBridge => switching::NodePartner::BridgeLeg,
+    };
+    let tr = switching::transitions_at(
         sw,
         &drive,
         case.v_bus_v,
         meas.i_on_a,
         meas.i_off_a,
         sw.r_ds_on_25_ohm,
+        partner,
     )
     .map_err(|e| format!("{}: {e:?}", case.id))?;
     let need = dead_time_need_s(&DeadTimeInputs::from_transitions(&tr, &drive))
@@ -1012,7 +1017,7 @@ pub fn predict_switching(
     };
     Ok(SwitchPredicted {
         e_on_j: tr.e_on_j,
-        e_off_j: tr.e_off_j,
+        e_off_j: tr.e_off_terminal_j,
         e_rr_j,
         e_rr_file_j,
         t_d_on_s: tr.t_d_on_s,
@@ -1574,6 +1579,35 @@ pub fn errors_csv(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
 }
 
 /// The per-case error table in Markdown (`errors.md`).
+/// Median and worst |error| of E_on + E_off per circuit, and of E_off alone
+/// (the turn-off with capacitance sharing is compared on its own).
+pub fn circuit_summary(sw: &[SwitchError]) -> String {
+    let stats = |v: Vec<f64>| {
+        let worst = v.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
+        (100.0 * median_abs(&v), 100.0 * worst, v.len())
+    };
+    let of = |c: Circuit| {
+        stats(
+            sw.iter()
+                .filter(|e| e.case.circuit == c)
+                .map(|e| e.e_err)
+                .collect(),
+        )
+    };
+    let off = stats(
+        sw.iter()
+            .map(|e| e.pred.e_off_j / e.meas.e_off_j - 1.0)
+            .collect(),
+    );
+    let (ls, hb) = (of(Circuit::LowSide), of(Circuit::HalfBridge));
+    format!(
+        "By circuit, E_on + E_off: low-side median {:.1} %, worst {:.1} % ({} cases); \
+         half-bridge median {:.1} %, worst {:.1} % ({} cases). \
+         E_off alone (terminal energy, capacitance sharing): median {:.1} %, worst {:.1} %.\n",
+        ls.0, ls.1, ls.2, hb.0, hb.1, hb.2, off.0, off.1
+    )
+}
+
 pub fn errors_md(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
     let errs: Vec<f64> = sw.iter().map(|e| e.e_err).collect();
     let worst = errs.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
@@ -1607,6 +1641,7 @@ pub fn errors_md(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
         100.0 * range(&fo).0,
         100.0 * range(&fo).1
     );
+    let _ = writeln!(s, "{}", circuit_summary(sw));
     s.push_str("| case | device | circuit | V | I_off/I_on A | drive V | R_on/R_off Ω | E sim µJ | E pred µJ | error | E_on sim/pred µJ | E_off sim/pred µJ | recovery Q·V µJ | dead-time interval/need ns |\n|---|---|---|---|---|---|---|---|---|---|---|---|---|---|\n");
     for e in sw {
         let c = &e.case;

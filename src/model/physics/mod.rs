@@ -16,6 +16,8 @@
 
 pub mod acoustics;
 pub mod bootstrap;
+pub mod capacitance;
+pub mod commutation;
 pub mod deadtime;
 pub mod leg_voltage;
 pub mod losses;

@@ -225,6 +225,23 @@ pub(crate) mod fixtures {
         }
     }
 
+    /// The example switch with a C_rss curve falling a decade, a datasheet
+    /// plateau and an E_oss: every branch of the capacitance laws and of
+    /// the turn-off with capacitance sharing.
+    pub(crate) fn curved_switch() -> SwitchModel {
+        let mut sw = example_switch();
+        sw.v_plateau_v = Some(4.5);
+        sw.c_rss_curve = vec![
+            (0.5, 900e-12),
+            (5.0, 250e-12),
+            (25.0, 60e-12),
+            (50.0, 40e-12),
+        ];
+        sw.e_oss_j = Some(160e-9);
+        sw.e_oss_at_v_ds_v = Some(25.0);
+        sw
+    }
+
     /// The regression drive: 10 V, 2 Ω source, 1 Ω sink, 3 Ω external.
     pub(crate) fn example_drive() -> GateDrive {
         GateDrive {

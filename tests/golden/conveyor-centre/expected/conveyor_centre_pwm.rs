@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:14c2f69316c23a93d15ba2ed2b412aade3d4d45ee887de252a8681978d8a782f)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:6ae4c8d5a594d484ab452b9a5c425a6fb778eec34272c5ceb87eef346fe99978)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -14,8 +14,8 @@
 //!   feasible band  20.009 kHz to 42.969 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         135 °C     57.0 °C     78.0 K  ok
-//!   junction-high-bus      135 °C     57.1 °C     77.9 K  ok
+//!   junction-rated         135 °C     56.8 °C     78.2 K  ok
+//!   junction-high-bus      135 °C     56.9 °C     78.1 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
 //!   audible            20.000 kHz  20.009 kHz    9.10 Hz  binds
 //!   resolution         10.00 bits  11.10 bits  1.10 bits  ok
@@ -25,25 +25,25 @@
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
-//!   switching            20.8 mW
+//!   switching            11.3 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     25.2 mW
 //!   dead-time diode      18.9 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.94 mW
-//!   total                143 mW
+//!   total                134 mW
 //!
 //! Operating figures
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
-//!   junction                57.0 °C at the rated case, 57.1 °C at the high-bus case (limit 135 °C)
+//!   junction                56.8 °C at the rated case, 56.9 °C at the high-bus case (limit 135 °C)
 //!   ripple, rated case      239 mA peak to peak at 20.009 kHz (continuous), 68.9 mA rms
 //!   ripple, high-bus case   363 mA peak to peak at 20.009 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
-//!   junction    58.2 °C (limit 135 °C); ok; hot: V_th min, supply 28.0 V
-//!   total-loss  210 mW; ok; hot: V_th max, supply 28.0 V
+//!   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
+//!   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 67.562 %: mean current 3.500 A (plan 3.500 A), ripple 362.8 mA peak to peak (plan 362.8 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +104 mW total loss, +1.4 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +120 mW total loss, +1.6 K junction, -194 mA ripple, -1.10 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +95 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
+//!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +110 mW total loss, +1.3 K junction, -194 mA ripple, -1.10 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
@@ -66,7 +66,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:9c456b728acd9f240574fcf9489b3348d6cf9554aa9aacc33f3ce2658bacd391)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:340a75e09d498c946b060b18e7e2ad4fdbc4b74db8f16c52bbb8bf3d7528895d)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -69,7 +69,7 @@
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
- *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
  *   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
  *   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
  *   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:c437e24bdca388ab0338d67eafeeb7fc9af5eb77ff864992ca9dbd8c14f82191)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:2f26a747f98387c01b23fafd381360cf5ea708609c7091d0d43543d59e9b6bec)
  *
  * Chosen setting
  *   design         vent-fan
@@ -7,63 +7,63 @@
  *   switch         Scree 60 V, 7.5 mΩ (invented)
  *   topology       low-side
  *   objective      least-loss at typical values
- *   frequency      13.313 kHz, edge-aligned
- *   timer          clock 44.00 MHz; divider 1 (register 0); period 3305 ticks (register 3304)
- *   resolution     3305 duty steps (11.7 bits)
- *   duty limits    compare 9 to 3296 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+ *   frequency      13.281 kHz, edge-aligned
+ *   timer          clock 44.00 MHz; divider 1 (register 0); period 3313 ticks (register 3312)
+ *   resolution     3313 duty steps (11.7 bits)
+ *   duty limits    compare 9 to 3304 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
  *   feasible band  8.0987 kHz to 25.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         110 °C     48.3 °C     61.7 K  ok
  *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
- *   ripple                 600 mA      366 mA     234 mA  ok
+ *   ripple                 600 mA      367 mA     233 mA  ok
  *   audible               0 lines     0 lines    0 lines  ok
  *   resolution          8.00 bits  11.69 bits  3.69 bits  ok
  *   duty-range            99.73 %     99.07 %     0.66 %  ok
- *   frequency-band     25.000 kHz  13.313 kHz   11.7 kHz  ok
+ *   frequency-band     25.000 kHz  13.281 kHz   11.7 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           10.9 mW
  *   switching            10.1 mW
- *   output capacitance   364 µW
- *   reverse recovery     320 µW
+ *   output capacitance   465 µW
+ *   reverse recovery     319 µW
  *   dead-time diode      0.00 W
- *   gate drive           3.20 mW
+ *   gate drive           3.19 mW
  *   freewheel diode      73.3 mW
- *   motor ripple copper  6.91 mW
+ *   motor ripple copper  6.95 mW
  *   total                105 mW
  *
  * Operating figures
  *   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
  *   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
  *   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
- *   ripple, rated case      209 mA peak to peak at 13.313 kHz (continuous), 60.3 mA rms
- *   ripple, high-bus case   366 mA peak to peak at 13.313 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
- *   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+ *   ripple, rated case      210 mA peak to peak at 13.281 kHz (continuous), 60.5 mA rms
+ *   ripple, high-bus case   367 mA peak to peak at 13.281 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+ *   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.5 dB(A) re 1 A
  *
  * Worst case over part and operating spreads
  *   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
  *   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
- *   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
+ *   ripple      366 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
  *   duty-range  99.11 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses         shortest high-side pulse 205 ns at COMPARE_MIN, shortest low-side on-time 205 ns at COMPARE_MAX (minimum pulse 200 ns)
- *   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.0 mA peak to peak (plan 209.0 mA)
- *   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 365.9 mA peak to peak (plan 365.9 mA)
+ *   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.5 mA peak to peak (plan 209.5 mA)
+ *   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 366.7 mA peak to peak (plan 366.7 mA)
  *
  * Alternatives
- *   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
- *   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
+ *   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +120 mA ripple, +0.41 bits resolution
+ *   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -172 mA ripple, -0.91 bits resolution
  *
  * Findings
  *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
- *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
  *   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
  *   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
  *   - devices thermally independent, each with the board's junction-to-ambient path
@@ -101,20 +101,20 @@
 #define VENT_FAN_PWM_DIVIDER 1U
 #define VENT_FAN_PWM_DIVIDER_REG 0U
 /* Counter ticks per PWM period and the period register value (counter top). */
-#define VENT_FAN_PWM_PERIOD_TICKS 3305U
-#define VENT_FAN_PWM_PERIOD_REG 3304U
+#define VENT_FAN_PWM_PERIOD_TICKS 3313U
+#define VENT_FAN_PWM_PERIOD_REG 3312U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define VENT_FAN_PWM_CENTRE_ALIGNED 0
-/* PWM frequency in millihertz (13.313 kHz). */
-#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13313162ULL
+/* PWM frequency in millihertz (13.281 kHz). */
+#define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13281014ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define VENT_FAN_PWM_DUTY_STEPS 3305U
+#define VENT_FAN_PWM_DUTY_STEPS 3313U
 /* Dead-time register code and the ticks it gives (0.0 ns). */
 #define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
 #define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define VENT_FAN_PWM_COMPARE_MIN 9U
-#define VENT_FAN_PWM_COMPARE_MAX 3296U
+#define VENT_FAN_PWM_COMPARE_MAX 3304U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the switch stays off). */
 #define VENT_FAN_PWM_INIT_COMPARE 0U
@@ -126,7 +126,7 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- VENT_FAN_PWM_DIVIDER_REG (divider 1).
- *   3. Period register (counter top) <- VENT_FAN_PWM_PERIOD_REG (3305 ticks per period).
+ *   3. Period register (counter top) <- VENT_FAN_PWM_PERIOD_REG (3313 ticks per period).
  *   4. Counting mode <- up (edge-aligned) (see VENT_FAN_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
  *   6. Compare register(s) <- VENT_FAN_PWM_INIT_COMPARE (outputs still disabled), then values from vent_fan_pwm_compare_from_q16() only.

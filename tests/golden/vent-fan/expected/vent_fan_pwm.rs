@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:63107a3ec33f92201ecc7dff116cfd3284a5780a8d7f1ee1dde19820d298d6e2)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:6b933f6334dc427fd5413ed7ec60ade77672cd1fdfd00b224c829f7da1ec9ded)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -6,63 +6,63 @@
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
 //!   objective      least-loss at typical values
-//!   frequency      13.313 kHz, edge-aligned
-//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3305 ticks (register 3304)
-//!   resolution     3305 duty steps (11.7 bits)
-//!   duty limits    compare 9 to 3296 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
+//!   frequency      13.281 kHz, edge-aligned
+//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3313 ticks (register 3312)
+//!   resolution     3313 duty steps (11.7 bits)
+//!   duty limits    compare 9 to 3304 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
 //!   feasible band  8.0987 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         110 °C     48.3 °C     61.7 K  ok
 //!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
-//!   ripple                 600 mA      366 mA     234 mA  ok
+//!   ripple                 600 mA      367 mA     233 mA  ok
 //!   audible               0 lines     0 lines    0 lines  ok
 //!   resolution          8.00 bits  11.69 bits  3.69 bits  ok
 //!   duty-range            99.73 %     99.07 %     0.66 %  ok
-//!   frequency-band     25.000 kHz  13.313 kHz   11.7 kHz  ok
+//!   frequency-band     25.000 kHz  13.281 kHz   11.7 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
 //!   switching            10.1 mW
-//!   output capacitance   364 µW
-//!   reverse recovery     320 µW
+//!   output capacitance   465 µW
+//!   reverse recovery     319 µW
 //!   dead-time diode      0.00 W
-//!   gate drive           3.20 mW
+//!   gate drive           3.19 mW
 //!   freewheel diode      73.3 mW
-//!   motor ripple copper  6.91 mW
+//!   motor ripple copper  6.95 mW
 //!   total                105 mW
 //!
 //! Operating figures
 //!   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
 //!   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
 //!   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
-//!   ripple, rated case      209 mA peak to peak at 13.313 kHz (continuous), 60.3 mA rms
-//!   ripple, high-bus case   366 mA peak to peak at 13.313 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
-//!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.6 dB(A) re 1 A
+//!   ripple, rated case      210 mA peak to peak at 13.281 kHz (continuous), 60.5 mA rms
+//!   ripple, high-bus case   367 mA peak to peak at 13.281 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.5 dB(A) re 1 A
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
 //!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
-//!   ripple      365 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
+//!   ripple      366 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
 //!   duty-range  99.11 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses         shortest high-side pulse 205 ns at COMPARE_MIN, shortest low-side on-time 205 ns at COMPARE_MAX (minimum pulse 200 ns)
-//!   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.0 mA peak to peak (plan 209.0 mA)
-//!   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 365.9 mA peak to peak (plan 365.9 mA)
+//!   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.5 mA peak to peak (plan 209.5 mA)
+//!   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 366.7 mA peak to peak (plan 366.7 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +121 mA ripple, +0.41 bits resolution
-//!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -171 mA ripple, -0.91 bits resolution
+//!   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +120 mA ripple, +0.41 bits resolution
+//!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -172 mA ripple, -0.91 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
@@ -90,7 +90,7 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register (counter top) <- PERIOD_REG (3305 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (3313 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
 //!   6. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
@@ -106,15 +106,15 @@ pub const DIVIDER: u32 = 1;
 /// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3305;
+pub const PERIOD_TICKS: u32 = 3313;
 /// Value of the period register (counter top).
-pub const PERIOD_REG: u32 = 3304;
+pub const PERIOD_REG: u32 = 3312;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (13.313 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 13313162;
+/// PWM frequency in millihertz (13.281 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13281014;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3305;
+pub const DUTY_STEPS: u32 = 3313;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
 /// Dead-time ticks the code gives.
@@ -122,7 +122,7 @@ pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 9;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3296;
+pub const COMPARE_MAX: u32 = 3304;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the switch stays off).
 pub const INIT_COMPARE: u32 = 0;
