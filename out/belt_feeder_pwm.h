@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6a88318d790fad9237ad6f6e934a5064376e241b838075c52f1c9ad582844251)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:ed22ab95b71ca4b5264ce10773d5a4388569d4433fc4a8871c46411730600af3)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -44,7 +44,7 @@
  *
  * Worst case over part and operating spreads
  *   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
- *   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
+ *   total-loss  197 mW; ok; hot: V_th max, supply 28.0 V
  *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
  *   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
  *   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max

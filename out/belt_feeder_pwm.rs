@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:a6e3fafc935976c7120ce1599f2a9bbc063c131e860c74a58acc78be8071ef9c)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d8640ff72893738020def757ad12e6a7268d8318efb479035c8c087655549129)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -43,7 +43,7 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
+//!   total-loss  197 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max

@@ -8,6 +8,7 @@
 use pwmplan::design::{Design, load_design};
 use pwmplan::load::Origin;
 use pwmplan::model::Evaluator;
+use pwmplan::model::physics::switching;
 use pwmplan::solve::{self, DeadTimeChoice, Objective, Setting};
 use pwmplan::spec::{Q, TolerancesSpec};
 use pwmplan::spread::{self, Distribution, PARAM_COUNT, Param};
@@ -139,20 +140,33 @@ fn sampler_moments_match_closed_forms() {
         let mean = xs.iter().sum::<f64>() / n as f64;
         let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
         let w = r.high - r.low;
-        let expect_var = match dist {
-            Distribution::Uniform => w * w / 12.0,
+        // Only a max is given, so the range starts at typ.
+        assert_eq!(r.low, r.typ);
+        // Uniform: mean mid-range, variance w²/12. Normal: a half-normal
+        // above typ with σ = w/3, truncated at 3σ; the truncated normal's
+        // moments on [0, 3] (N. L. Johnson, S. Kotz, N. Balakrishnan,
+        // *Continuous Univariate Distributions*, vol. 1, 2nd ed., 1994,
+        // ch. 13; from memory): E[t] = (φ(0) − φ(3))/(Φ(3) − ½),
+        // E[t²] = 1 − 3·φ(3)/(Φ(3) − ½).
+        let (expect_mean, expect_var) = match dist {
+            Distribution::Uniform => (0.5 * (r.low + r.high), w * w / 12.0),
             Distribution::Normal => {
-                let phi3 = (-4.5f64).exp() / (2.0 * std::f64::consts::PI).sqrt();
-                (w / 6.0).powi(2) * (1.0 - 6.0 * phi3 / (1.0 - 2.0 * 1.349_898_031_630_094_5e-3))
+                let root_2pi = (2.0 * std::f64::consts::PI).sqrt();
+                let (phi0, phi3) = (1.0 / root_2pi, (-4.5f64).exp() / root_2pi);
+                let mass = 0.5 - 1.349_898_031_630_094_5e-3;
+                let e1 = (phi0 - phi3) / mass;
+                let e2 = 1.0 - 3.0 * phi3 / mass;
+                let sigma = w / 3.0;
+                (r.typ + sigma * e1, sigma * sigma * (e2 - e1 * e1))
             }
         };
         assert!(
             ((var - expect_var) / expect_var).abs() < 0.03,
-            "{dist:?} var"
+            "{dist:?} var {var} vs {expect_var}"
         );
         assert!(
-            (mean - 0.5 * (r.low + r.high)).abs() < 0.01 * w,
-            "{dist:?} mean"
+            (mean - expect_mean).abs() < 0.01 * w,
+            "{dist:?} mean {mean} vs {expect_mean}"
         );
     }
 }
@@ -573,4 +587,33 @@ fn raising_q_gd_never_lowers_switching_energy_or_shortens_the_dead_time() {
         }
     }
     assert_eq!(strict, 24);
+}
+
+/// The gate-charge spread reaches the delays: at the highest Q_g the input
+/// capacitance, and with it the RC turn-on delay t_d(on) = R_on·C_iss·
+/// ln(V_drv/(V_drv − V_th)) (L. Balogh, *Fundamentals of MOSFET and IGBT
+/// Gate Driver Circuits*, 2002), grow by Q_g,max/Q_g,typ exactly, so the
+/// dead-time corners see a slow gate.
+#[test]
+fn gate_charge_spread_reaches_the_delays() {
+    let d = demo();
+    let ev = Evaluator::new(&d);
+    let s = spread::spreads(&d, &ev);
+    let typ = s.typical();
+    let r = s.range(Param::Qg);
+    let k = if r.spreads() { r.high / r.typ } else { 1.3 };
+    let mut x = typ;
+    x[Param::Qg as usize] = r.typ * k;
+    let hi = spread::evaluator_at(&ev, &x);
+    let lo = spread::evaluator_at(&ev, &typ);
+    let t_on = |e: &Evaluator| {
+        switching::transitions(&e.stage.switch, &e.stage.drive, 24.0, 5.0, 5.0, 5e-3)
+            .expect("transitions")
+            .t_d_on_s
+    };
+    let ratio = t_on(&hi) / t_on(&lo);
+    assert!(
+        (ratio - k).abs() < 1e-9,
+        "t_d(on) ratio {ratio} vs Q_g ratio {k}"
+    );
 }

@@ -133,8 +133,8 @@ impl Param {
 pub enum Distribution {
     /// Uniform between the limits.
     Uniform,
-    /// Normal, centred between the limits with the limits at ±3σ, truncated
-    /// there.
+    /// Normal about the typical value (a two-piece normal with its mode at
+    /// typ), each limit at 3σ of its side, truncated there.
     Normal,
 }
 
@@ -329,6 +329,11 @@ fn scale(value: f64, typ: f64) -> f64 {
 ///   so a corner's curve integrates to the corner's Q_gd.
 /// - Q_gs: Q_g(th), when given, scales with Q_gs (both are charge on the
 ///   same input capacitance), so Q_gs2 = Q_gs − Q_g(th) stays positive.
+/// - Q_g: C_iss scales with Q_g/Q_g,typ (a part whose gate takes more charge
+///   to the same voltage has the larger input capacitance), so the RC delays
+///   t_d(on) = R·C_iss·ln(…) and the turn-off delay without a datasheet
+///   plateau see the gate-charge spread; the scalar C_rss scales with Q_gd
+///   like the curve.
 /// - V_th: a datasheet plateau moves with the threshold, since
 ///   V_plt = V_th + I/g_fs (the gate-charge note, see
 ///   [`crate::model::physics::switching`]).
@@ -337,11 +342,13 @@ pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     let v = |p: Param| x[p as usize];
     s.r_ds_on_25_ohm = v(Param::RdsOn);
     s.q_g_c = v(Param::Qg);
+    s.c_iss_f = b.c_iss_f * scale(v(Param::Qg), b.q_g_c);
     let k_gs = scale(v(Param::Qgs), b.q_gs_c);
     s.q_gs_c = v(Param::Qgs);
     s.q_g_th_c = b.q_g_th_c.map(|q| q * k_gs);
     let k_gd = scale(v(Param::Qgd), b.q_gd_c);
     s.q_gd_c = v(Param::Qgd);
+    s.c_rss_f = b.c_rss_f * k_gd;
     for (o, t) in s.c_rss_curve.iter_mut().zip(&b.c_rss_curve) {
         o.1 = t.1 * k_gd;
     }
@@ -467,9 +474,17 @@ pub fn inverse_normal(p: f64) -> f64 {
 
 /// One parameter's value from a uniform `u` in (0, 1).
 ///
-/// Uniform: low + u·(high − low). Normal: the limits at ±3σ around their
-/// midpoint, truncated there by inversion, z = Φ⁻¹(Φ(−3) + u·(Φ(3) −
-/// Φ(−3))) (the inverse-transform method for a truncated distribution,
+/// Uniform: low + u·(high − low). Normal: a two-piece normal with its mode
+/// at typ and σ on each side a third of the distance from typ to that
+/// side's limit, truncated at the limits (±3σ), so the typical value is the
+/// most likely one whether or not it sits midway between the limits (the
+/// two-piece normal: S. John, *The three-parameter two-piece normal family
+/// of distributions and its fitting*, Communications in Statistics — Theory
+/// and Methods 11(8), 1982; from memory). Each side carries the mass
+/// σ_side/(σ_low + σ_high), which keeps the density continuous at typ; a
+/// datasheet giving only typ and max thus draws a half-normal above typ.
+/// Drawn by inversion, side by side: t = Φ⁻¹(½ + w·(Φ(3) − ½)) is a
+/// standard half-normal truncated at 3 (the inverse-transform method,
 /// common practice). A range without spread gives typ exactly.
 fn draw(r: &ParamRange, dist: Distribution, u: f64) -> f64 {
     if r.high <= r.low {
@@ -477,13 +492,22 @@ fn draw(r: &ParamRange, dist: Distribution, u: f64) -> f64 {
     }
     let x = match (dist, r.always_uniform) {
         (Distribution::Uniform, _) | (_, true) => r.low + u * (r.high - r.low),
-        (Distribution::Normal, false) => {
-            let p = PHI_MINUS_3 + u * (1.0 - 2.0 * PHI_MINUS_3);
-            let z = inverse_normal(p).clamp(-3.0, 3.0);
-            0.5 * (r.low + r.high) + z * (r.high - r.low) / 6.0
-        }
+        (Distribution::Normal, false) => two_piece_normal(r.low, r.typ, r.high, u),
     };
     x.clamp(r.low, r.high)
+}
+
+/// The two-piece normal of [`draw`] at the uniform `u`.
+fn two_piece_normal(low: f64, typ: f64, high: f64, u: f64) -> f64 {
+    let typ = typ.clamp(low, high);
+    let (s_lo, s_hi) = ((typ - low) / 3.0, (high - typ) / 3.0);
+    let p_lo = s_lo / (s_lo + s_hi);
+    let half_normal = |w: f64| inverse_normal(0.5 + w * (0.5 - PHI_MINUS_3)).clamp(0.0, 3.0);
+    if u < p_lo {
+        typ - s_lo * half_normal(1.0 - u / p_lo)
+    } else {
+        typ + s_hi * half_normal((u - p_lo) / (1.0 - p_lo))
+    }
 }
 
 /// The point of sample `index`: parameter k uses output
@@ -1507,7 +1531,7 @@ pub fn text_report(mc: &MonteCarlo, wc: &WorstCase) -> String {
 fn spreads_text(o: &mut String, s: &Spreads) {
     let dist = match s.distribution {
         Distribution::Uniform => "uniform between the limits",
-        Distribution::Normal => "normal, limits at ±3σ",
+        Distribution::Normal => "normal about typ, each limit at 3σ of its side",
     };
     o.push_str(&wrap(
         &format!("Spreads ({dist}; supply and ambient uniform over their ranges)"),
@@ -1726,5 +1750,48 @@ fn monte_carlo_text(o: &mut String, mc: &MonteCarlo, wc: &WorstCase) {
                 pct(f.share)
             ));
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// With typ midway the two-piece normal is the symmetric truncated
+    /// normal: x(u) = mid + z·(high − low)/6, z = Φ⁻¹(Φ(−3) + u·(1 − 2Φ(−3))).
+    #[test]
+    fn symmetric_limits_give_the_truncated_normal() {
+        for &u in &[0.001, 0.1, 0.3, 0.5, 0.77, 0.999] {
+            let z = inverse_normal(PHI_MINUS_3 + u * (1.0 - 2.0 * PHI_MINUS_3)).clamp(-3.0, 3.0);
+            let want = 10.0 + z * 6.0 / 6.0;
+            let got = two_piece_normal(7.0, 10.0, 13.0, u);
+            assert!((got - want).abs() < 1e-9, "u {u}: {got} vs {want}");
+        }
+    }
+
+    /// Only typ and max given (low = typ): the draw is a half-normal above
+    /// typ, its most populated bin the one at typ and its median at
+    /// typ + 0.674σ (the half-normal's median, Φ⁻¹(¾)σ, truncation
+    /// negligible), not the midpoint (typ + max)/2 of the old draw; monotone
+    /// in u and reaching both limits.
+    #[test]
+    fn typ_and_max_only_draws_about_typ() {
+        let (typ, max) = (10.0, 13.0);
+        let n = 20_000;
+        let xs: Vec<f64> = (0..n)
+            .map(|k| two_piece_normal(typ, typ, max, (k as f64 + 0.5) / n as f64))
+            .collect();
+        assert!(xs.windows(2).all(|w| w[1] >= w[0]));
+        assert!(xs[0] - typ < 1e-3 && max - xs[n - 1] < 0.02);
+        let mut bins = [0usize; 10];
+        for x in &xs {
+            bins[(((x - typ) / (max - typ)) * 10.0).min(9.0) as usize] += 1;
+        }
+        assert!(bins.windows(2).all(|w| w[0] >= w[1]), "{bins:?}");
+        let median = xs[n / 2];
+        assert!(
+            (median - (typ + 0.6745 * 1.0)).abs() < 0.01,
+            "median {median}"
+        );
     }
 }

@@ -918,16 +918,14 @@ fn bootstrap_finding(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Findin
     else {
         return None;
     };
-    let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs {
-        q_g_c: ev.stage.switch.q_g_c * ev.stage.drive.v_drive_v / ev.stage.switch.q_g_at_v_gs_v,
-        i_leak_a: load_current.si,
-        i_quiescent_a: 0.0,
-        d_max: c.duty_needed.1.clamp(0.0, 1.0),
-        f_sw_hz: c.setting.frequency_hz,
-        // 10 % droop of the drive voltage (common practice).
-        delta_v_v: 0.1 * ev.stage.drive.v_drive_v,
-        v_drive_v: ev.stage.drive.v_drive_v,
-    });
+    let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs::for_switch(
+        &ev.stage.switch,
+        &ev.stage.drive,
+        ev.rated.load_current_a,
+        load_current.si,
+        c.duty_needed.1.clamp(0.0, 1.0),
+        c.setting.frequency_hz,
+    ));
     let s = sizing.filter(|s| capacitor.si < s.c_recommended_f)?;
     Some(finding(
         "warning",

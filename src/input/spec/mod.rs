@@ -434,7 +434,7 @@ pub enum DistributionSpec {
     /// Uniform between the limits.
     #[default]
     Uniform,
-    /// Normal with the limits at ±3σ, truncated there.
+    /// Normal about typ, each limit at 3σ of its side, truncated there.
     Normal,
 }
 

@@ -4,6 +4,9 @@
 //! compare limit that leaves the low side on long enough to refresh it, after the
 //! dead time, is the timer module's (`timer::duty_limits`).
 
+use super::params::{GateDrive, SwitchModel};
+use super::switching;
+
 /// Inputs of the bootstrap sizing.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BootstrapInputs {
@@ -22,6 +25,35 @@ pub struct BootstrapInputs {
     pub delta_v_v: f64,
     /// Gate drive voltage (for the rule of thumb).
     pub v_drive_v: f64,
+}
+
+impl BootstrapInputs {
+    /// The inputs for a high-side switch `sw` on `drive`: its gate charge at
+    /// the actual drive voltage from the same gate-charge curve the gate-drive
+    /// loss uses (`switching::total_gate_charge_c`, plateau at the load
+    /// current `i_load_a`), and the board's bootstrap load current `i_draw_a`
+    /// (leakage and the driver's quiescent draw, one figure) taken over the
+    /// whole period, the quiescent term (conservative for the leakage part).
+    /// ΔV is 10 % of the drive voltage (common practice).
+    pub fn for_switch(
+        sw: &SwitchModel,
+        drive: &GateDrive,
+        i_load_a: f64,
+        i_draw_a: f64,
+        d_max: f64,
+        f_sw_hz: f64,
+    ) -> Self {
+        let plateau = switching::plateau_voltage_v(sw, i_load_a).unwrap_or(sw.v_th_v);
+        BootstrapInputs {
+            q_g_c: switching::total_gate_charge_c(sw, drive.v_drive_v, plateau),
+            i_leak_a: 0.0,
+            i_quiescent_a: i_draw_a,
+            d_max,
+            f_sw_hz,
+            delta_v_v: 0.1 * drive.v_drive_v,
+            v_drive_v: drive.v_drive_v,
+        }
+    }
 }
 
 /// Result of the bootstrap sizing.
@@ -113,5 +145,24 @@ mod tests {
         let mut bad = inputs();
         bad.delta_v_v = 0.0;
         assert_eq!(bootstrap_sizing(&bad), None);
+    }
+
+    /// The stage's inputs: the gate charge at a 12 V drive is the
+    /// gate-charge curve's (Q_gs + Q_gd plus the slope above the plateau,
+    /// `switching::total_gate_charge_c`), not Q_g scaled in proportion to the
+    /// drive, and the board's load current is charged over the whole period.
+    #[test]
+    fn stage_inputs_use_the_gate_charge_curve_and_the_quiescent_draw() {
+        use crate::model::physics::params::fixtures::{example_drive, example_switch};
+        let mut sw = example_switch();
+        sw.v_plateau_v = Some(4.0);
+        let mut drive = example_drive();
+        drive.v_drive_v = 12.0;
+        let inp = BootstrapInputs::for_switch(&sw, &drive, 10.0, 200e-6, 0.9, 20e3);
+        // (3 + 12) nC + (30 − 15) nC·(12 − 4)/(10 − 4) = 35 nC, not 30·12/10 = 36 nC.
+        assert!((inp.q_g_c - 35e-9).abs() < 1e-18, "{}", inp.q_g_c);
+        let s = bootstrap_sizing(&inp).unwrap();
+        assert!((s.q_total_c - (35e-9 + 200e-6 / 20e3)).abs() < 1e-18);
+        assert!((inp.delta_v_v - 1.2).abs() < 1e-12);
     }
 }

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:45472d3316cdb6d8c6e67f810d912e75d76413910099299d5e49fff716c94f65)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d11b127b06d43e578dca574ad316bd5e50538be7654337b78b1ca3e890aff25b)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -43,7 +43,7 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
+//!   total-loss  197 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max

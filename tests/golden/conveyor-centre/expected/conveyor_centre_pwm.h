@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:f1a654dadea63f837e4f19b56b7d0523448d052ebf4cb57124c1d6ab8e2ae3fc)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:a665fe66f751cc5b311f3502e6ee349e0a4bfed53eab9cb1bc5f50534007dcfa)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -44,7 +44,7 @@
  *
  * Worst case over part and operating spreads
  *   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
- *   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
+ *   total-loss  197 mW; ok; hot: V_th max, supply 28.0 V
  *   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
  *   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
  *   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:6ae4c8d5a594d484ab452b9a5c425a6fb778eec34272c5ceb87eef346fe99978)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:859c1b8df4412c4d14ec1868970b86380d32f1940603991ad250592c243c976e)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -43,7 +43,7 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    57.8 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  196 mW; ok; hot: V_th max, supply 28.0 V
+//!   total-loss  197 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
