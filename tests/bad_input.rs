@@ -2163,6 +2163,38 @@ error: switches/tarn-40.yaml:24:12: switch.e_oss: give either q_oss or e_oss for
     );
 }
 
+/// A test voltage for the output charge without the charge itself, and one
+/// above V_DSS: each named with what is expected.
+#[test]
+fn q_oss_test_voltage_without_charge_or_above_rating() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_oss: "38 nC""#,
+            r#"q_oss_at_v_ds: "20 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:23:18: switch.q_oss_at_v_ds: a test voltage without q_oss; give q_oss beside it, or remove it
+ 23 |   q_oss_at_v_ds: "20 V"
+    |                  ^
+"#,
+    );
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"q_oss: "38 nC""#,
+            "q_oss: \"38 nC\"\n  q_oss_at_v_ds: \"60 V\"",
+        )],
+        r#"
+error: switches/tarn-40.yaml:24:18: switch.q_oss_at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 24 |   q_oss_at_v_ds: "60 V"
+    |                  ^
+"#,
+    );
+}
+
 /// A low-side stage without its freewheel diode: named, not "nothing
 /// could be evaluated".
 #[test]

@@ -521,6 +521,15 @@ fn check_switch_capacitance(s: &SwitchSpec, c: &Check) -> Result<(), InputError>
     if let Some(q) = s.q_oss {
         c.within("q_oss", q.si, 0.0, 1e-5, C)?;
     }
+    if let Some(v) = s.q_oss_at_v_ds {
+        if s.q_oss.is_none() {
+            return Err(c.fail(
+                "q_oss_at_v_ds",
+                "a test voltage without q_oss; give q_oss beside it, or remove it",
+            ));
+        }
+        c.within("q_oss_at_v_ds", v.si, 0.0, s.v_dss.si, V)?;
+    }
     if let Some(e) = &s.e_oss {
         if s.q_oss.is_some() {
             return Err(c.fail(

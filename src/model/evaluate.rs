@@ -266,6 +266,7 @@ fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
             .map(|(v, c)| (v.si, c.si))
             .collect(),
         q_oss_c: s.q_oss.map(|q| q.si),
+        q_oss_at_v_ds_v: s.q_oss_at_v_ds.map(|v| v.si),
         e_oss_j: s.e_oss.as_ref().map(|e| e.value.si),
         e_oss_at_v_ds_v: s.e_oss.as_ref().map(|e| e.at_v_ds.si),
         r_g_int_ohm: s.r_g_int.typ.si,

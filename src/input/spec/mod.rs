@@ -52,6 +52,9 @@ pub struct SwitchSpec {
     pub capacitance: CapacitanceSpec,
     /// Output charge (optional; used before C_oss for the output-capacitance loss).
     pub q_oss: Option<Q<Coulomb>>,
+    /// V_DS at which `q_oss` is given (optional; without it Q_oss is taken at
+    /// the bus voltage).
+    pub q_oss_at_v_ds: Option<Q<Volt>>,
     /// Energy stored in C_oss at `e_oss_at_v_ds` (optional, preferred when given).
     pub e_oss: Option<EossSpec>,
     /// Internal gate resistance.

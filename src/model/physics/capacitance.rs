@@ -170,7 +170,9 @@ pub fn miller_integrals(
 /// 2007, ch. 2: m = ½ for an abrupt junction, ⅓ for a linearly graded one; from
 /// memory). C_ds(V_spec) = C_oss − C_rss at the capacitance table's voltage.
 /// The grading m is fitted to the datasheet E_oss when one is given (the
-/// energy of C_ds is E_oss less the C_gd curve's share); otherwise m = ½.
+/// energy of C_ds is E_oss less the C_gd curve's share), else to Q_oss when
+/// it comes with its test voltage (likewise less the C_gd charge); otherwise
+/// m = ½.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct OutputCapacitance {
     /// C_ds at `v_spec_v`.
@@ -191,13 +193,33 @@ impl OutputCapacitance {
             v_spec_v: v_spec,
             grading: 0.5,
         };
-        if let (Some(e_oss), Some(v_e)) = (sw.e_oss_j, sw.e_oss_at_v_ds_v) {
-            let w_gd = miller_integrals(sw, 0.0, v_e, 0.0).map_or(0.0, |(_, w)| w);
-            if let Some(m) = law.grading_for_energy(e_oss - w_gd, v_e) {
-                law.grading = m;
+        let fitted = match (
+            sw.e_oss_j,
+            sw.e_oss_at_v_ds_v,
+            sw.q_oss_c,
+            sw.q_oss_at_v_ds_v,
+        ) {
+            (Some(e_oss), Some(v_e), _, _) => {
+                let (_, w_gd) = gd_integrals(sw, v_e);
+                law.grading_for(|m| law.c_ds_energy_j(v_e, m), e_oss - w_gd)
             }
+            (_, _, Some(q_oss), Some(v_q)) => {
+                let (q_gd, _) = gd_integrals(sw, v_q);
+                law.grading_for(|m| law.c_ds_charge_c(v_q, m), q_oss - q_gd)
+            }
+            _ => None,
+        };
+        if let Some(m) = fitted {
+            law.grading = m;
         }
         law
+    }
+
+    /// Q_ds(V) = ∫₀^V C_ds dv = C_spec·V_spec^m·V^(1−m)/(1 − m) (the power
+    /// law integrated; the floor's share is neglected).
+    pub fn c_ds_charge_c(&self, v_v: f64, grading: f64) -> f64 {
+        let v = v_v.max(0.0);
+        self.c_ds_spec_f * self.v_spec_v.powf(grading) * v.powf(1.0 - grading) / (1.0 - grading)
     }
 
     /// C_ds at `v_v`.
@@ -212,14 +234,15 @@ impl OutputCapacitance {
         self.c_ds_spec_f * self.v_spec_v.powf(grading) * v.powf(2.0 - grading) / (2.0 - grading)
     }
 
-    /// The grading in [0, 0.9] whose C_ds energy at `v_v` is `e_j`, by
-    /// bisection (the energy rises with m when V ≥ V_spec / m stays in range);
-    /// `None` when the energy is not positive or lies outside that range
-    /// (the default ½ is then kept: own choice, the data contradict a junction).
-    fn grading_for_energy(&self, e_j: f64, v_v: f64) -> Option<f64> {
-        let f = |m: f64| self.c_ds_energy_j(v_v, m) - e_j;
+    /// The grading in [0, 0.9] at which `integral(m)` (C_ds's energy or
+    /// charge up to a test voltage, both rising with m while the test voltage
+    /// is not far below V_spec) equals `target`, by bisection; `None` when the
+    /// target is not positive or lies outside that range (the default ½ is
+    /// then kept: own choice, the data contradict a junction).
+    fn grading_for(&self, integral: impl Fn(f64) -> f64, target: f64) -> Option<f64> {
+        let f = |m: f64| integral(m) - target;
         let (mut lo, mut hi) = (0.0, 0.9);
-        if !(e_j > 0.0 && v_v > 0.0) || f(lo) * f(hi) > 0.0 {
+        if target.is_nan() || target <= 0.0 || f(lo) * f(hi) > 0.0 {
             return None;
         }
         for _ in 0..60 {
@@ -232,6 +255,12 @@ impl OutputCapacitance {
         }
         Some(0.5 * (lo + hi))
     }
+}
+
+/// (∫₀^V C_gd dv, ∫₀^V v·C_gd dv): the C_rss curve's share of the output
+/// charge and energy, or the single C_rss taken as constant without a curve.
+fn gd_integrals(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
+    miller_integrals(sw, 0.0, v_v, 0.0).unwrap_or((sw.c_rss_f * v_v, 0.5 * sw.c_rss_f * v_v * v_v))
 }
 
 #[cfg(test)]
@@ -298,8 +327,15 @@ mod tests {
         };
         for m in [0.2, 0.45, 0.7] {
             let e = law.c_ds_energy_j(40.0, m);
-            let fit = law.grading_for_energy(e, 40.0).expect("in range");
+            let fit = law
+                .grading_for(|g| law.c_ds_energy_j(40.0, g), e)
+                .expect("in range");
             assert!((fit - m).abs() < 1e-9, "{fit} vs {m}");
+            let q = law.c_ds_charge_c(40.0, m);
+            let fit = law
+                .grading_for(|g| law.c_ds_charge_c(40.0, g), q)
+                .expect("in range");
+            assert!((fit - m).abs() < 1e-9, "charge: {fit} vs {m}");
         }
     }
 

@@ -50,8 +50,11 @@ pub struct SwitchModel {
     pub c_rss_at_v_ds_v: f64,
     /// C_rss(V_DS) curve points `(v_ds_v, farad)`; may be empty.
     pub c_rss_curve: Vec<(f64, f64)>,
-    /// Output charge Q_oss, if given (taken at the bus voltage, see `losses`).
+    /// Output charge Q_oss, if given.
     pub q_oss_c: Option<f64>,
+    /// V_DS at which `q_oss_c` is given; without it Q_oss is taken at the bus
+    /// voltage (see `losses`).
+    pub q_oss_at_v_ds_v: Option<f64>,
     /// Energy stored in C_oss, E_oss, if given.
     pub e_oss_j: Option<f64>,
     /// V_DS at which `e_oss_j` is specified.
@@ -208,6 +211,7 @@ pub(crate) mod fixtures {
             c_rss_at_v_ds_v: 25.0,
             c_rss_curve: Vec::new(),
             q_oss_c: None,
+            q_oss_at_v_ds_v: None,
             e_oss_j: None,
             e_oss_at_v_ds_v: None,
             r_g_int_ohm: 1.0,
