@@ -2195,6 +2195,25 @@ error: switches/tarn-40.yaml:24:18: switch.q_oss_at_v_ds: 60.0 V is out of range
     );
 }
 
+/// A second R_ds(on) point that is lower at the lower gate voltage: refused,
+/// named, with what is expected.
+#[test]
+fn second_on_resistance_point_backwards() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"at_v_gs: "10 V" }"#,
+            r#"at_v_gs: "10 V", second_point: { typ: "1 mohm", at_v_gs: "4.5 V" } }"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:7:86: switch.r_ds_on.second_point.typ: expected the higher R_ds(on) at the lower gate voltage
+ 7 |   r_ds_on: { typ: "2.4 mohm", max: "3.1 mohm", at_v_gs: "10 V", second_point: { typ: "1 mohm", at_v_gs: "4.5 V" } }
+   |                                                                                      ^
+"#,
+    );
+}
+
 /// A low-side stage without its freewheel diode: named, not "nothing
 /// could be evaluated".
 #[test]

@@ -6,6 +6,7 @@
 #[path = "spice/harness.rs"]
 mod harness;
 
+use pwmplan::model::physics::losses;
 use std::path::Path;
 
 fn root() -> &'static Path {
@@ -172,4 +173,49 @@ fn reference_tables_reproduce_with_ngspice() {
     let r = tab.col("v(d10)").expect("column")[0] / dev.i_test_a;
     let sw = harness::load_switch_model(root(), "brack-40").expect("switch file");
     close(r, sw.r_ds_on_25_ohm, 1e-3, "brack-40 R_ds(on)");
+}
+
+/// R_ds(on) follows the gate drive: from the two datasheet points of each
+/// extracted switch file (10 V and 4.5 V), `losses::r_ds_on_drive_factor`
+/// predicts R_ds(on) at 6, 7.5 and 12 V; ngspice measures it on the same
+/// invented devices (the datasheet method, forced drain current). Within
+/// 12 % (own bound; measured −4.0 % to +11.1 %, the largest for rigg-100 at
+/// 6 V, between the points: the law's 1/(V_GS − V_th) with the 250 µA
+/// threshold bends less than the device), and closer than the datasheet
+/// value left at 10 V (−31 % at 6 V) at every point. Needs ngspice.
+#[test]
+fn on_resistance_follows_the_gate_drive() {
+    if !harness::ngspice_available() {
+        if std::env::var("CI").as_deref() == Ok("true") {
+            panic!(
+                "ngspice not installed: the R_ds(on) drive check cannot run (apt-get install -y ngspice)"
+            );
+        }
+        println!("ngspice not installed: skipped the R_ds(on) drive check");
+        return;
+    }
+    for dev in harness::devices() {
+        let sw = harness::load_switch_model(root(), dev.stem).expect("switch file");
+        for v_gs in [6.0, 7.5, 12.0] {
+            let tab = harness::run_ngspice(&harness::netlist_rdson_at(&dev, v_gs), "rdson-at")
+                .expect("ngspice run");
+            let measured = tab.col("v(d)").expect("column")[0] / dev.i_test_a;
+            let predicted = sw.r_ds_on_25_ohm * losses::r_ds_on_drive_factor(&sw, v_gs);
+            println!(
+                "{} {v_gs} V: ngspice {measured:e} model {predicted:e}",
+                dev.stem
+            );
+            close(
+                predicted,
+                measured,
+                0.12,
+                &format!("{} R_ds(on) at {v_gs} V", dev.stem),
+            );
+            assert!(
+                (predicted - measured).abs() < (sw.r_ds_on_25_ohm - measured).abs(),
+                "{} at {v_gs} V: the drive law is no closer than the 10 V value",
+                dev.stem
+            );
+        }
+    }
 }

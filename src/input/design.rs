@@ -321,6 +321,36 @@ pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<()
     Ok(())
 }
 
+/// The optional second R_ds(on) point: within range, at another gate
+/// voltage above the typical threshold, and higher at the lower gate
+/// voltage (a channel conducts better the harder it is driven).
+fn check_second_on_resistance(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
+    let Some(p) = &s.r_ds_on.second_point else {
+        return Ok(());
+    };
+    c.within("r_ds_on.second_point.typ", p.typ.si, 0.0, 10.0, OHM)?;
+    c.within("r_ds_on.second_point.at_v_gs", p.at_v_gs.si, 0.0, 30.0, V)?;
+    let (v1, r1, v2, r2) = (
+        s.r_ds_on.at_v_gs.si,
+        s.r_ds_on.typ.si,
+        p.at_v_gs.si,
+        p.typ.si,
+    );
+    if p.at_v_gs.si <= s.v_th.typ.si || (v2 - v1).abs() < 0.1 {
+        return Err(c.fail(
+            "r_ds_on.second_point.at_v_gs",
+            "expected a gate voltage above the typical threshold and at least 0.1 V from r_ds_on.at_v_gs",
+        ));
+    }
+    if (v2 < v1) != (r2 > r1) {
+        return Err(c.fail(
+            "r_ds_on.second_point.typ",
+            "expected the higher R_ds(on) at the lower gate voltage",
+        ));
+    }
+    Ok(())
+}
+
 /// Ratings and the on-resistance with its temperature dependence.
 fn check_switch_on_resistance(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.within("v_dss", s.v_dss.si, 0.0, 2000.0, V)?; // bound of our own choice
@@ -333,6 +363,7 @@ fn check_switch_on_resistance(s: &SwitchSpec, c: &Check) -> Result<(), InputErro
         }
     }
     c.within("r_ds_on.at_v_gs", s.r_ds_on.at_v_gs.si, 0.0, 30.0, V)?;
+    check_second_on_resistance(s, c)?;
     match &s.r_ds_on_vs_temperature {
         Some(RdsOnTemperatureSpec::Points(points)) => {
             c.max_len(

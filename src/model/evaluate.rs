@@ -272,6 +272,11 @@ fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
         r_g_int_ohm: s.r_g_int.typ.si,
         r_ds_on_25_ohm: s.r_ds_on.typ.si,
         r_ds_on_spec_v_gs_v: s.r_ds_on.at_v_gs.si,
+        r_ds_on_second_point: s
+            .r_ds_on
+            .second_point
+            .as_ref()
+            .map(|p| (p.at_v_gs.si, p.typ.si / s.r_ds_on.typ.si)),
         r_ds_on_temperature: match &s.r_ds_on_vs_temperature {
             Some(RdsOnTemperatureSpec::Points(p)) => {
                 RdsOnTemperature::Curve(p.iter().map(|(t, k)| (t.si, *k)).collect())
@@ -312,9 +317,12 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
                 + th.r_th_sa.map(|r| r.si).unwrap_or(0.0)
         }
     };
+    let mut switch = switch_model(sw);
+    // R_ds(on) at the actual drive (1 without a second datasheet point).
+    switch.r_ds_on_25_ohm *= losses::r_ds_on_drive_factor(&switch, v_drive);
     StageModel {
         topology,
-        switch: switch_model(sw),
+        switch,
         drive: GateDrive {
             v_drive_v: v_drive,
             r_source_ohm: driver_resistance(&g.source, v_drive),

@@ -27,6 +27,7 @@ use crate::input::spec::{Dim, DistributionSpec, Spread};
 use crate::input::units::{Dimension, format_quantity};
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase};
 use crate::model::physics::deadtime::{self, PairDevice};
+use crate::model::physics::losses::r_ds_on_drive_factor;
 use crate::model::solve::{DeadTimeChoice, Setting};
 use crate::model::timer::{self, Alignment, DutyLimits, PwmSetting};
 
@@ -239,9 +240,10 @@ pub fn spreads(d: &Design, ev: &Evaluator) -> Spreads {
     let share = |q: Option<crate::input::spec::Q<crate::input::spec::Ratio>>| q.map(|q| q.si);
     let s = &d.spec;
     let ranges = vec![
+        // At the datasheet's V_GS; `apply` moves it to each point's drive.
         datasheet_range(
             Param::RdsOn,
-            m.r_ds_on_25_ohm,
+            sw.r_ds_on.typ.si,
             None,
             sw.r_ds_on.max.map(|q| q.si),
         ),
@@ -340,7 +342,6 @@ fn scale(value: f64, typ: f64) -> f64 {
 pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     let (b, s) = (&base.stage.switch, &mut out.stage.switch);
     let v = |p: Param| x[p as usize];
-    s.r_ds_on_25_ohm = v(Param::RdsOn);
     s.q_g_c = v(Param::Qg);
     s.c_iss_f = b.c_iss_f * scale(v(Param::Qg), b.q_g_c);
     let k_gs = scale(v(Param::Qgs), b.q_gs_c);
@@ -355,6 +356,9 @@ pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     s.v_th_v = v(Param::Vth);
     s.v_plateau_v = b.v_plateau_v.map(|p| p + (v(Param::Vth) - b.v_th_v));
     s.r_g_int_ohm = v(Param::RgInt);
+    // R_ds(on) at the point's drive and threshold (the datasheet-V_GS value
+    // times `losses::r_ds_on_drive_factor`; 1 without a second point).
+    s.r_ds_on_25_ohm = v(Param::RdsOn) * r_ds_on_drive_factor(s, v(Param::DriverSupply));
     s.q_rr_c = v(Param::Qrr);
     out.motor_r_ohm = v(Param::MotorResistance);
     out.motor_l_h = v(Param::MotorInductance);

@@ -59,13 +59,17 @@ pub const CAUTIONS: &[&str] = &[
     "Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.",
 ];
 
+/// The switch-parameter line of the assumptions; `assumptions_out`
+/// completes it with how R_ds(on) meets the gate drive.
+pub const SWITCH_PARAMETERS_ASSUMPTION: &str = "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve";
+
 /// The switching line of the assumptions; `assumptions_out` completes it
 /// for the switch file at hand.
 pub const SWITCHING_ASSUMPTION: &str = "switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance)";
 
 /// The modelling assumptions every output states.
 pub const ASSUMPTIONS: &[&str] = &[
-    "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
+    SWITCH_PARAMETERS_ASSUMPTION,
     SWITCHING_ASSUMPTION,
     "motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it",
     "checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line",
@@ -76,7 +80,7 @@ pub const ASSUMPTIONS: &[&str] = &[
 
 /// The modelling assumptions of a three-phase plan.
 pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
-    "switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve",
+    SWITCH_PARAMETERS_ASSUMPTION,
     SWITCHING_ASSUMPTION,
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
@@ -1183,9 +1187,36 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
     .iter()
     .map(|s| match *s {
         SWITCHING_ASSUMPTION => switching_assumption(&ev.stage.switch),
+        SWITCH_PARAMETERS_ASSUMPTION => {
+            on_resistance_assumption(&ev.stage.switch, ev.stage.drive.v_drive_v)
+        }
         other => other.to_string(),
     })
     .collect()
+}
+
+/// The switch-parameter line, completed with the gate voltage R_ds(on) is
+/// taken at (`losses::r_ds_on_drive_factor`).
+fn on_resistance_assumption(
+    sw: &crate::model::physics::params::SwitchModel,
+    v_drive_v: f64,
+) -> String {
+    let v = |x: f64| format_quantity(x, Dimension::Voltage, 3);
+    let drive = match sw.r_ds_on_second_point {
+        Some((v2, _)) => format!(
+            "; R_ds(on) at the {} drive through the datasheet points at {} and {} (R_0 + k/(V_GS − V_th))",
+            v(v_drive_v),
+            v(sw.r_ds_on_spec_v_gs_v),
+            v(v2)
+        ),
+        None if (v_drive_v - sw.r_ds_on_spec_v_gs_v).abs() > 0.05 => format!(
+            "; R_ds(on) as given at V_GS = {}, not moved to the {} drive (no second datasheet point)",
+            v(sw.r_ds_on_spec_v_gs_v),
+            v(v_drive_v)
+        ),
+        None => String::new(),
+    };
+    format!("{SWITCH_PARAMETERS_ASSUMPTION}{drive}")
 }
 
 /// The switching line of the assumptions, completed with how the turn-off

@@ -335,6 +335,21 @@ pub fn netlist_rdson(dev: &Device, t_c: f64) -> String {
     n
 }
 
+/// R_ds(on) at one gate voltage `v_gs_v`, I_D = i_test, 25 °C (the
+/// datasheet method of `netlist_rdson`): for checking the gate-drive law
+/// between and beyond the two datasheet points.
+pub fn netlist_rdson_at(dev: &Device, v_gs_v: f64) -> String {
+    let mut n = header("R_ds(on) at one V_GS", dev);
+    let _ = write!(
+        n,
+        "VG g 0 {v_gs_v}\nI1 0 d DC {i}\nM1 d g 0 {m}\n\
+         .control\n{WR}op\nwrdata out.txt v(d)\nquit\n.endc\n.end\n",
+        i = dev.i_test_a,
+        m = dev.stem
+    );
+    n
+}
+
 /// V_th: gate tied to drain, I_D = 250 µA forced (datasheet definition).
 /// g_fs: V_DS = 10 V, V_GS swept; g_fs = dI_D/dV_GS at I_D = i_test.
 pub fn netlist_vth_gfs(dev: &Device) -> String {
@@ -598,14 +613,10 @@ pub fn switch_yaml(dev: &Device, x: &Extracted) -> String {
     let _ = writeln!(s, "  i_d: \"{} A\"", dev.i_d_a);
     let _ = writeln!(
         s,
-        "  r_ds_on: {{ typ: {}, max: {}, at_v_gs: \"10 V\" }}",
+        "  r_ds_on: {{ typ: {}, max: {}, at_v_gs: \"10 V\", second_point: {{ typ: {}, at_v_gs: \"4.5 V\" }} }}",
         si(x.r_ds_on_10v_ohm, "ohm"),
-        si(1.3 * x.r_ds_on_10v_ohm, "ohm")
-    );
-    let _ = writeln!(
-        s,
-        "  # R_ds(on) at V_GS = 4.5 V (informative; no field): {}",
-        si(x.r_ds_on_4v5_ohm, "ohm").trim_matches('"')
+        si(1.3 * x.r_ds_on_10v_ohm, "ohm"),
+        si(x.r_ds_on_4v5_ohm, "ohm")
     );
     let pts: Vec<String> = x
         .r_ds_on_vs_t

@@ -77,6 +77,17 @@ pub struct RdsOnSpec {
     pub max: Option<Q<Ohm>>,
     /// Gate-source voltage at which the values hold.
     pub at_v_gs: Q<Volt>,
+    /// The typical value at a second gate-source voltage (optional): with
+    /// it R_ds(on) follows the actual gate drive.
+    pub second_point: Option<RdsOnPointSpec>,
+}
+
+/// R_ds(on) (typical) at one gate-source voltage.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RdsOnPointSpec {
+    pub typ: Q<Ohm>,
+    pub at_v_gs: Q<Volt>,
 }
 
 /// Normalised R_ds(on) curve points `[temperature, factor]` (1.0 at 25 °C),

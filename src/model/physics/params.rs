@@ -65,6 +65,10 @@ pub struct SwitchModel {
     pub r_ds_on_25_ohm: f64,
     /// V_GS at which `r_ds_on_25_ohm` is specified.
     pub r_ds_on_spec_v_gs_v: f64,
+    /// A second datasheet point `(v_gs_v, R_ds(on) there / R_ds(on) at
+    /// r_ds_on_spec_v_gs_v)` at 25 °C, if given (a ratio, so it holds
+    /// whatever drive `r_ds_on_25_ohm` has been scaled to).
+    pub r_ds_on_second_point: Option<(f64, f64)>,
     /// Temperature dependence of the on-resistance.
     pub r_ds_on_temperature: RdsOnTemperature,
     /// Body-diode forward voltage V_SD.
@@ -217,6 +221,7 @@ pub(crate) mod fixtures {
             r_g_int_ohm: 1.0,
             r_ds_on_25_ohm: 5e-3,
             r_ds_on_spec_v_gs_v: 10.0,
+            r_ds_on_second_point: None,
             r_ds_on_temperature: RdsOnTemperature::CoefficientPerK(0.005),
             v_sd_v: 0.8,
             q_rr_c: 40e-9,

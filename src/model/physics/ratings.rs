@@ -119,7 +119,18 @@ pub fn check_gate_voltage(sw: &SwitchModel, drive: &GateDrive) -> Vec<Finding> {
             ),
         ));
     }
-    if v < sw.r_ds_on_spec_v_gs_v {
+    if v < sw.r_ds_on_spec_v_gs_v && sw.r_ds_on_second_point.is_some() {
+        out.push(finding(
+            Severity::Info,
+            "drive-below-rdson-spec",
+            format!(
+                "Gate drive {} is below the {} at which R_ds(on) is specified; R_ds(on) is taken at the drive through the datasheet's second point (×{:.2} at 25 °C).",
+                q(v, Dimension::Voltage),
+                q(sw.r_ds_on_spec_v_gs_v, Dimension::Voltage),
+                super::losses::r_ds_on_drive_factor(sw, v)
+            ),
+        ));
+    } else if v < sw.r_ds_on_spec_v_gs_v {
         out.push(finding(
             Severity::Warning,
             "drive-below-rdson-spec",
@@ -371,6 +382,17 @@ mod tests {
             ["drive-below-ztc", "drive-below-rdson-spec"]
         );
         assert!(check_gate_voltage(&sw, &example_drive()).is_empty());
+        // With a second R_ds(on) point the plan takes R_ds(on) at the drive,
+        // so the same finding is information, with the factor.
+        let mut sw2 = sw.clone();
+        sw2.r_ds_on_second_point = Some((4.5, 1.6));
+        let f = check_gate_voltage(&sw2, &lo);
+        let rds = f
+            .iter()
+            .find(|x| x.code == "drive-below-rdson-spec")
+            .unwrap();
+        assert_eq!(rds.severity, Severity::Info);
+        assert!(rds.message.contains("second point"), "{}", rds.message);
     }
 
     /// A 3.3 V pin with 25 mA peak (132 Ω) is weak (common practice); its Miller

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d11b127b06d43e578dca574ad316bd5e50538be7654337b78b1ca3e890aff25b)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:a5372ebf1aee0217c7c83087f586dd3d623a982a5fc07c9bca2320c020f534f4)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -65,7 +65,7 @@
 //!   info     the dead time costs about 76.4 mV of mean output voltage (0.32 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
-//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
 //!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:034d9c37b8e99fc04e287d9cdfa65ae981347b7391e8ea21d1c05935b58399a5)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:c74c68d571d39c0d44616e1acadf7b3b4c396a15d5f3e93610a188f25e0f951e)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -67,7 +67,7 @@
 //!   info     the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
-//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+//!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
 //!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
 //!   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
 //!   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled

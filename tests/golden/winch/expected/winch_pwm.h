@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:a1137de529096ded4c217c0540c31a11254595b5151a1f9da09f2a58b92644ce)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:ada0aa3cc0cd32890cc6c3e8fa4c39eda21e122316833106dfecfb06c219ca9c)
  *
  * Chosen setting
  *   design         winch
@@ -65,7 +65,7 @@
  *   info     the dead time costs about 122 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
  *
  * Assumptions
- *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
+ *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
  *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
  *   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
  *   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
