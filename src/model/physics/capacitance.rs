@@ -215,6 +215,12 @@ impl OutputCapacitance {
         law
     }
 
+    /// The energy stored in the whole output capacitance charged to `v_v`,
+    /// ∫₀^V v·(C_gd + C_ds) dv: the C_rss curve's share plus the junction's.
+    pub fn energy_j(&self, sw: &SwitchModel, v_v: f64) -> f64 {
+        gd_integrals(sw, v_v).1 + self.c_ds_energy_j(v_v, self.grading)
+    }
+
     /// Q_ds(V) = ∫₀^V C_ds dv = C_spec·V_spec^m·V^(1−m)/(1 − m) (the power
     /// law integrated; the floor's share is neglected).
     pub fn c_ds_charge_c(&self, v_v: f64, grading: f64) -> f64 {

@@ -32,8 +32,14 @@ pub const CURRENT_END_FRACTION: f64 = 0.02;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum ChannelLaw {
     /// I = K·(V_GS − V_th)² (the saturation square law; Sedra, Smith,
-    /// *Microelectronic Circuits*; from memory), K from g_fs at the plateau.
-    Square { v_th_v: f64, k_a_per_v2: f64 },
+    /// *Microelectronic Circuits*; from memory), K = g_fs/(2·(V_plt − V_th))
+    /// from g_fs at the datasheet plateau; kept as that plateau's overdrive
+    /// V_plt − V_th and g_fs.
+    Square {
+        v_th_v: f64,
+        plateau_overdrive_v: f64,
+        g_fs_s: f64,
+    },
     /// I = g_fs·(V_GS − V_th) (the linear form behind V_plt = V_th + I/g_fs of
     /// `switching::plateau_voltage_v`).
     Linear { v_th_v: f64, g_fs_s: f64 },
@@ -48,13 +54,19 @@ impl ChannelLaw {
         match sw.v_plateau_v {
             Some(v_plt) if v_plt.is_finite() && v_plt > v_th => Some(ChannelLaw::Square {
                 v_th_v: v_th,
-                k_a_per_v2: g_fs / (2.0 * (v_plt - v_th)),
+                plateau_overdrive_v: v_plt - v_th,
+                g_fs_s: g_fs,
             }),
             _ => Some(ChannelLaw::Linear {
                 v_th_v: v_th,
                 g_fs_s: g_fs,
             }),
         }
+    }
+
+    /// K of the square law, A/V²: g_fs/(2·(V_plt − V_th)).
+    fn square_k(plateau_overdrive_v: f64, g_fs_s: f64) -> f64 {
+        g_fs_s / (2.0 * plateau_overdrive_v)
     }
 
     /// Threshold voltage.
@@ -68,7 +80,11 @@ impl ChannelLaw {
     pub fn current_a(&self, v_gs_v: f64) -> f64 {
         let over = (v_gs_v - self.v_th_v()).max(0.0);
         match *self {
-            ChannelLaw::Square { k_a_per_v2, .. } => k_a_per_v2 * over * over,
+            ChannelLaw::Square {
+                plateau_overdrive_v,
+                g_fs_s,
+                ..
+            } => Self::square_k(plateau_overdrive_v, g_fs_s) * over * over,
             ChannelLaw::Linear { g_fs_s, .. } => g_fs_s * over,
         }
     }
@@ -77,7 +93,12 @@ impl ChannelLaw {
     pub fn gate_voltage_v(&self, i_a: f64) -> f64 {
         let i = i_a.max(0.0);
         match *self {
-            ChannelLaw::Square { v_th_v, k_a_per_v2 } => v_th_v + (i / k_a_per_v2).sqrt(),
+            // V_th + √(2·I·(V_plt − V_th)/g_fs), i.e. √(I/K).
+            ChannelLaw::Square {
+                v_th_v,
+                plateau_overdrive_v,
+                g_fs_s,
+            } => v_th_v + (2.0 * i * plateau_overdrive_v / g_fs_s).sqrt(),
             ChannelLaw::Linear { v_th_v, g_fs_s } => v_th_v + i / g_fs_s,
         }
     }
@@ -90,10 +111,11 @@ impl ChannelLaw {
         match *self {
             ChannelLaw::Square {
                 v_th_v: a,
-                k_a_per_v2,
+                plateau_overdrive_v,
+                g_fs_s,
             } => {
                 let prim = |y: f64| 0.5 * y * y - 2.0 * a * y + a * a * y.ln();
-                k_a_per_v2 * (prim(y_hi) - prim(y_lo))
+                Self::square_k(plateau_overdrive_v, g_fs_s) * (prim(y_hi) - prim(y_lo))
             }
             ChannelLaw::Linear { v_th_v: a, g_fs_s } => {
                 let prim = |y: f64| y - a * y.ln();
@@ -158,19 +180,20 @@ pub struct TurnOff {
     /// integrates; the channel energy plus the charge put into the switch's
     /// own output capacitance.
     pub e_terminal_j: f64,
-    /// Time of the voltage rise, from the plateau to the bus.
-    pub t_rise_s: f64,
-    /// Channel current when the node reaches the bus.
-    pub i_channel_at_bus_a: f64,
-    /// Time for the remaining channel current to fall to the end fraction.
-    pub t_fall_s: f64,
+}
+
+/// C_gs = C_iss − C_rss at the capacitance table's voltage, taken as
+/// constant (the gate-source capacitance hardly depends on V_DS; common
+/// practice).
+fn c_gs_f(sw: &SwitchModel) -> f64 {
+    (sw.c_iss_f - sw.c_rss_f).max(0.0)
 }
 
 /// Node capacitances at one state: (C_gs, C_gd, C_ds + C_partner).
 fn node_capacitances(c: &TurnOffCircuit<'_>, v_ds_v: f64, v_gs_v: f64) -> (f64, f64, f64) {
     let sw = c.switch;
     let c_gd = c_gd_f(sw, (v_ds_v - v_gs_v).max(0.0));
-    let c_gs = (sw.c_iss_f - sw.c_rss_f).max(0.0);
+    let c_gs = c_gs_f(sw);
     let c_node = c.c_oss.c_ds_f(v_ds_v) + c.partner.capacitance_f(sw, c.v_bus_v, v_ds_v);
     (c_gs, c_gd, c_node)
 }
@@ -214,7 +237,7 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     }
     let mut x = c.v_on_v.clamp(0.0, v);
     let mut y = c.channel.gate_voltage_v(i_l);
-    let (mut t, mut e_ch, mut e_term) = (0.0, 0.0, 0.0);
+    let (mut e_ch, mut e_term) = (0.0, 0.0);
     let dx_max = v / rise_steps;
     for _ in 0..200_000 {
         if x >= v {
@@ -234,36 +257,29 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
         e_term += xm * (i_l - c_p * xd) * dt;
         x += dt * xd;
         y += dt * yd;
-        t += dt;
     }
     if x < v * (1.0 - 1e-9) {
         return None;
     }
-    let i_at_bus = c.channel.current_a(y);
-    let (e_fall, t_fall) = clamped_fall(c, y);
+    let e_fall = clamped_fall_energy_j(c, y);
     Some(TurnOff {
         e_channel_j: e_ch + e_fall,
         e_terminal_j: e_term + e_fall,
-        t_rise_s: t,
-        i_channel_at_bus_a: i_at_bus,
-        t_fall_s: t_fall,
     })
 }
 
-/// The channel's current fall once the node is clamped at the bus, from gate
-/// voltage `y0_v`: (energy V·∫i_ch dt, time to the end fraction). The gate
-/// discharges through R_g·(C_gs + C_gd(V)) towards 0 V (an RC discharge, as
-/// `switching::rc_time_s`).
-fn clamped_fall(c: &TurnOffCircuit<'_>, y0_v: f64) -> (f64, f64) {
+/// The channel's energy V·∫i_ch dt while its current falls to the end
+/// fraction once the node is clamped at the bus, from gate voltage `y0_v`.
+/// The gate discharges through R_g·(C_gs + C_gd(V)) towards 0 V (an RC
+/// discharge, as `switching::rc_time_s`).
+fn clamped_fall_energy_j(c: &TurnOffCircuit<'_>, y0_v: f64) -> f64 {
     let sw = c.switch;
     let y_end = c.channel.gate_voltage_v(CURRENT_END_FRACTION * c.i_load_a);
     if y0_v <= y_end {
-        return (0.0, 0.0);
+        return 0.0;
     }
-    let c_in = (sw.c_iss_f - sw.c_rss_f).max(0.0) + c_gd_f(sw, c.v_bus_v - y0_v);
-    let tau = c.r_gate_ohm * c_in;
-    let charge = tau * c.channel.current_over_gate_integral(y_end, y0_v);
-    (c.v_bus_v * charge, tau * (y0_v / y_end).ln())
+    let tau = c.r_gate_ohm * (c_gs_f(sw) + c_gd_f(sw, c.v_bus_v - y0_v));
+    c.v_bus_v * tau * c.channel.current_over_gate_integral(y_end, y0_v)
 }
 
 #[cfg(test)]
@@ -332,7 +348,7 @@ mod tests {
         let y = c.channel.gate_voltage_v(30.0);
         let t_rv = sw.c_rss_f * 24.0 / (y / r);
         let e_rise = 0.5 * 24.0 * 30.0 * t_rv;
-        let e_rise_model = t.e_terminal_j - clamped_fall(&c, y).0;
+        let e_rise_model = t.e_terminal_j - clamped_fall_energy_j(&c, y);
         assert!(
             (e_rise_model / e_rise - 1.0).abs() < 0.05,
             "{e_rise_model} vs {e_rise}"

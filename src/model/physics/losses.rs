@@ -28,7 +28,7 @@
 //! out of the channel conduction; the dead-time diode line is added on top, a
 //! small conservative overlap).
 
-use super::capacitance::{self, OutputCapacitance};
+use super::capacitance::OutputCapacitance;
 use super::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
     SwitchModel, Topology,
@@ -376,12 +376,7 @@ pub fn output_capacitance_energy_j(sw: &SwitchModel, v_bus_v: f64) -> (f64, OssB
             _ => (e, OssBasis::EossAsGiven),
         };
     }
-    let law = OutputCapacitance::of_switch(sw);
-    let law_energy = || {
-        let e_gd = capacitance::miller_integrals(sw, 0.0, v, 0.0)
-            .map_or(0.5 * sw.c_rss_f * v * v, |(_, w)| w);
-        e_gd + law.c_ds_energy_j(v, law.grading)
-    };
+    let law_energy = || OutputCapacitance::of_switch(sw).energy_j(sw, v);
     match (sw.q_oss_c, sw.q_oss_at_v_ds_v) {
         (Some(_), Some(_)) => (law_energy(), OssBasis::QossFitted),
         (Some(q), None) => (0.5 * q * v, OssBasis::QossHalfQv),

@@ -375,13 +375,13 @@ pub fn miller_energy_j(i_a: f64, w_gd_j: f64, i_g_a: f64) -> Option<f64> {
 /// switch file does not carry the test current). Otherwise falls back to
 /// `plateau_voltage_v` (the first-order choice).
 pub fn plateau_at_current_v(sw: &SwitchModel, i_a: f64) -> Result<f64, SwitchingError> {
-    match (sw.v_plateau_v, sw.g_fs_s) {
-        (Some(v_plt), Some(g_fs))
-            if v_plt.is_finite() && g_fs.is_finite() && g_fs > 0.0 && v_plt > sw.v_th_v =>
-        {
+    // The square law is `commutation::ChannelLaw`'s, which the turn-off
+    // integrates; its linear form is `plateau_voltage_v`'s fallback.
+    match commutation::ChannelLaw::of_switch(sw) {
+        Some(law @ commutation::ChannelLaw::Square { .. }) => {
             let i = finite_non_negative("i_a", i_a.abs())?;
-            let v_th = finite_positive("v_th_v", sw.v_th_v)?;
-            Ok(v_th + (2.0 * i * (v_plt - v_th) / g_fs).sqrt())
+            finite_positive("v_th_v", sw.v_th_v)?;
+            Ok(law.gate_voltage_v(i))
         }
         _ => plateau_voltage_v(sw, i_a),
     }
@@ -885,8 +885,7 @@ mod tests {
             .unwrap();
         assert!(tr.e_off_j < tr.e_off_terminal_j && tr.e_off_terminal_j < gate_charge);
         let law = OutputCapacitance::of_switch(&sw);
-        let stored =
-            miller_integrals(&sw, 0.0, 24.0, 0.0).unwrap().1 + law.c_ds_energy_j(24.0, law.grading);
+        let stored = law.energy_j(&sw, 24.0);
         let diff = tr.e_off_terminal_j - tr.e_off_j;
         assert!(
             diff > 0.5 * stored && diff < 1.5 * stored,
