@@ -387,7 +387,7 @@ fn switch_unknown_key_suggests() {
         )],
         r#"
 error: switches/tarn-40.yaml:25:3: switch.body_diod: unknown field; did you mean `body_diode`?
- 25 |   body_diod: { v_sd: "0.85 V", q_rr: { typ: "42 nC", max: "68 nC" }, t_rr: "38 ns" }
+ 25 |   body_diod: { v_sd: "0.85 V", q_rr: { typ: "42 nC", max: "68 nC" }, t_rr: "38 ns", q_rr_test: { i_f: "25 A", di_dt: "…
     |   ^
 "#,
     );
@@ -2191,6 +2191,38 @@ error: switches/tarn-40.yaml:23:18: switch.q_oss_at_v_ds: a test voltage without
 error: switches/tarn-40.yaml:24:18: switch.q_oss_at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
  24 |   q_oss_at_v_ds: "60 V"
     |                  ^
+"#,
+    );
+}
+
+/// The Q_rr test conditions: a slope written as a current, and a reverse
+/// voltage above V_DSS; each named with what is expected.
+#[test]
+fn q_rr_test_conditions_wrong_unit_or_above_rating() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"di_dt: "100 A/µs""#,
+            r#"di_dt: "100 A""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:25:119: switch.body_diode.q_rr_test.di_dt: "100 A" is a current, expected a rate of change of current such as "100 A/µs"
+ 25 | …"68 nC" }, t_rr: "38 ns", q_rr_test: { i_f: "25 A", di_dt: "100 A", v_r: "20 V" } }
+    |                                                             ^
+"#,
+    );
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"v_r: "20 V""#,
+            r#"v_r: "45 V""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:25:136: switch.body_diode.q_rr_test.v_r: 45.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 25 | …"38 ns", q_rr_test: { i_f: "25 A", di_dt: "100 A/µs", v_r: "45 V" } }
+    |                                                             ^
 "#,
     );
 }

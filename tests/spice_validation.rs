@@ -48,19 +48,54 @@ fn reference_covers_the_required_span() {
 }
 
 /// Acceptance: median |error| of E_on + E_off ≤ 10 %, worst ≤ 25 % (issue
-/// 15's figures; here with the half-bridge's partner charge taken from the
-/// simulation, so the switching model is under test, not the recovery model).
+/// 15's figures), predicted from the switch file alone (the half-bridge's
+/// recovery from `recovery::partner_recovery`), over all cases and over each
+/// circuit on its own.
 #[test]
 fn switching_energy_within_acceptance() {
     let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
-    let e: Vec<f64> = errs.iter().map(|r| r.e_err).collect();
-    let median = harness::median_abs(&e);
-    let worst = e.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
     for r in &errs {
         println!("{} {:+.1} %", r.case.id, 100.0 * r.e_err);
     }
-    assert!(median <= 0.10, "median |error| {:.1} %", 100.0 * median);
-    assert!(worst <= 0.25, "worst |error| {:.1} %", 100.0 * worst);
+    let check = |what: &str, keep: &dyn Fn(&harness::SwitchError) -> bool| {
+        let e: Vec<f64> = errs.iter().filter(|r| keep(r)).map(|r| r.e_err).collect();
+        assert!(e.len() >= 5, "{what}: only {} cases", e.len());
+        let median = harness::median_abs(&e);
+        let worst = e.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
+        assert!(
+            median <= 0.10,
+            "{what}: median |error| {:.1} %",
+            100.0 * median
+        );
+        assert!(
+            worst <= 0.25,
+            "{what}: worst |error| {:.1} %",
+            100.0 * worst
+        );
+    };
+    check("all", &|_| true);
+    check("low-side", &|r| r.case.circuit == harness::Circuit::LowSide);
+    check("half-bridge", &|r| {
+        r.case.circuit == harness::Circuit::HalfBridge
+    });
+}
+
+/// The half-bridge's recovery term alone: the energy `recovery::partner_recovery`
+/// books from the switch file against the simulated partner charge q_rec·V
+/// (which also holds the ring of the partner's output capacitance), within
+/// 35 % in every case (own bound; the constant datasheet Q_rr·V was 70–80 %
+/// low at the fast edges).
+#[test]
+fn recovery_term_against_simulated_partner_charge() {
+    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    for r in errs
+        .iter()
+        .filter(|r| r.case.circuit == harness::Circuit::HalfBridge)
+    {
+        let ratio = r.pred.e_rr_j / r.pred.e_rr_sim_charge_j;
+        println!("{} recovery {:.3}", r.case.id, ratio);
+        assert!((ratio - 1.0).abs() <= 0.35, "{}: {ratio:.3}", r.case.id);
+    }
 }
 
 /// The turn-off alone, with capacitance sharing (`commutation::turn_off`):

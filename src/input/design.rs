@@ -582,6 +582,19 @@ fn check_switch_diode_and_gate(s: &SwitchSpec, c: &Check) -> Result<(), InputErr
     c.spread("body_diode.q_rr", &s.body_diode.q_rr)?;
     c.non_negative("body_diode.q_rr", s.body_diode.q_rr.typ.si, 1e-4, C)?;
     c.non_negative("body_diode.t_rr", s.body_diode.t_rr.si, 1e-4, S)?;
+    if let Some(t) = &s.body_diode.q_rr_test {
+        // Bounds of our own choice: 0 A < I_F ≤ 10 kA, 0.1 A/µs < di/dt ≤
+        // 100 A/ns, 0 V < V_R ≤ V_DSS.
+        c.within("body_diode.q_rr_test.i_f", t.i_f.si, 0.0, 1e4, A)?;
+        c.within(
+            "body_diode.q_rr_test.di_dt",
+            t.di_dt.si,
+            1e5,
+            1e11,
+            Dimension::CurrentSlewRate,
+        )?;
+        c.within("body_diode.q_rr_test.v_r", t.v_r.si, 0.0, s.v_dss.si, V)?;
+    }
     c.within("v_gs_max", s.v_gs_max.si, 0.0, 50.0, V)?; // bound of our own choice
     if s.v_th.typ.si >= s.v_gs_max.si {
         return Err(c.fail(

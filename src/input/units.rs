@@ -66,11 +66,13 @@ pub enum Dimension {
     BackEmfConstant,
     /// Angular speed, stored in rad/s.
     AngularSpeed,
+    /// Rate of change of current, stored in A/s (written "100 A/µs").
+    CurrentSlewRate,
 }
 
 impl Dimension {
     /// Every dimension, for tables and tests.
-    pub const ALL: [Dimension; 18] = [
+    pub const ALL: [Dimension; 19] = [
         Dimension::Voltage,
         Dimension::Current,
         Dimension::Resistance,
@@ -89,6 +91,7 @@ impl Dimension {
         Dimension::TemperatureCoefficient,
         Dimension::BackEmfConstant,
         Dimension::AngularSpeed,
+        Dimension::CurrentSlewRate,
     ];
 
     /// Lower-case name for messages, e.g. "thermal resistance".
@@ -112,6 +115,7 @@ impl Dimension {
             Dimension::TemperatureCoefficient => "temperature coefficient",
             Dimension::BackEmfConstant => "back-EMF constant",
             Dimension::AngularSpeed => "angular speed",
+            Dimension::CurrentSlewRate => "rate of change of current",
         }
     }
 
@@ -136,6 +140,7 @@ impl Dimension {
             Dimension::TemperatureCoefficient => "\"0.45 %/K\"",
             Dimension::BackEmfConstant => "\"4.2 V/krpm\"",
             Dimension::AngularSpeed => "\"3000 rpm\"",
+            Dimension::CurrentSlewRate => "\"100 A/µs\"",
         }
     }
 
@@ -160,6 +165,7 @@ impl Dimension {
             Dimension::TemperatureCoefficient => "1/K",
             Dimension::BackEmfConstant => "V·s/rad",
             Dimension::AngularSpeed => "rad/s",
+            Dimension::CurrentSlewRate => "A/s",
         }
     }
 
@@ -466,6 +472,12 @@ const UNITS: &[UnitDef] = &[
     // Angular speed: 1 rpm = 2π/60 rad/s (ISO 80000-3:2019, from memory).
     unit("rad/s", D::AngularSpeed, 1.0, UNPREFIXED, true),
     unit("rpm", D::AngularSpeed, RAD_S_PER_RPM, UNPREFIXED, true),
+    // Rate of change of current, as datasheets state a recovery test:
+    // 1 A/µs = 1e6 A/s (SI prefixes, SI Brochure Table 7).
+    unit("A/s", D::CurrentSlewRate, 1.0, UNPREFIXED, true),
+    unit("A/µs", D::CurrentSlewRate, 1e6, UNPREFIXED, true),
+    unit("A/us", D::CurrentSlewRate, 1e6, UNPREFIXED, false),
+    unit("A/ns", D::CurrentSlewRate, 1e9, UNPREFIXED, true),
     unit(
         "krpm",
         D::AngularSpeed,
@@ -844,6 +856,7 @@ fn display_style(dim: Dimension, value_si: f64) -> Style {
             SHOW_MICRO_MILLI,
         ),
         D::AngularSpeed => style("rpm", RAD_S_PER_RPM, SHOW_NONE),
+        D::CurrentSlewRate => style("A/µs", 1e6, SHOW_NONE),
     }
 }
 
@@ -1047,6 +1060,9 @@ mod tests {
         ("1.5 krpm", D::AngularSpeed, 50.0 * PI),
         ("60 rpm", D::AngularSpeed, 2.0 * PI),
         ("314 rad/s", D::AngularSpeed, 314.0),
+        ("100 A/µs", D::CurrentSlewRate, 1e8),
+        ("100 A/us", D::CurrentSlewRate, 1e8),
+        ("2 A/ns", D::CurrentSlewRate, 2e9),
     ];
 
     #[test]

@@ -16,7 +16,7 @@ use crate::model::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents,
 use crate::model::physics::losses::{self, DeviceRole, StageLosses};
 use crate::model::physics::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
-    SwitchModel, ThermalPath, Topology,
+    RecoveryTest, SwitchModel, ThermalPath, Topology,
 };
 use crate::model::physics::ratings::{self, Finding, RatingInputs, Severity};
 use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
@@ -287,6 +287,11 @@ fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
         v_sd_v: s.body_diode.v_sd.si,
         q_rr_c: s.body_diode.q_rr.typ.si,
         t_rr_s: s.body_diode.t_rr.si,
+        q_rr_test: s.body_diode.q_rr_test.as_ref().map(|t| RecoveryTest {
+            i_f_a: t.i_f.si,
+            di_dt_a_per_s: t.di_dt.si,
+            v_r_v: t.v_r.si,
+        }),
         v_gs_max_v: s.v_gs_max.si,
         t_j_max_c: s.t_j_max.si,
         v_ztc_v: s.v_ztc.map(|v| v.si),

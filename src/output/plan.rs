@@ -1186,7 +1186,7 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
     }
     .iter()
     .map(|s| match *s {
-        SWITCHING_ASSUMPTION => switching_assumption(&ev.stage.switch),
+        SWITCHING_ASSUMPTION => switching_assumption(&ev.stage.switch, ev.three_phase.is_some()),
         SWITCH_PARAMETERS_ASSUMPTION => {
             on_resistance_assumption(&ev.stage.switch, ev.stage.drive.v_drive_v)
         }
@@ -1222,14 +1222,52 @@ fn on_resistance_assumption(
 /// The switching line of the assumptions, completed with how the turn-off
 /// was computed for this switch file (`switching::transitions`,
 /// refinement 4) and how reverse recovery is booked.
-fn switching_assumption(sw: &crate::model::physics::params::SwitchModel) -> String {
+fn switching_assumption(
+    sw: &crate::model::physics::params::SwitchModel,
+    three_phase: bool,
+) -> String {
     let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
         "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises"
     } else {
         "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
     };
+    let recovery = if three_phase {
+        "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string()
+    } else {
+        recovery_assumption(sw)
+    };
+    format!("{SWITCHING_ASSUMPTION}; {turn_off}; {recovery}")
+}
+
+/// How a bridge partner's recovery is booked for this switch file
+/// (`recovery::partner_recovery`), with the fitted transit time and the Q_rr
+/// test it comes from.
+fn recovery_assumption(sw: &crate::model::physics::params::SwitchModel) -> String {
+    use crate::model::physics::recovery;
+    let test = recovery::datasheet_test(sw);
+    let tau = recovery::body_diode_transit_time_s(sw, sw.q_rr_c);
+    let q = |x: f64, d: Dimension| format_quantity(x, d, 3);
+    let test_text = format!(
+        "{} from {} at {}",
+        q(test.di_dt_a_per_s, Dimension::CurrentSlewRate),
+        q(test.i_f_a, Dimension::Current),
+        q(test.v_r_v, Dimension::Voltage)
+    );
+    let given = if sw.q_rr_test.is_some() {
+        format!("the datasheet's Q_rr test ({test_text})")
+    } else {
+        format!("an assumed Q_rr test ({test_text}; the switch file gives no body_diode.q_rr_test)")
+    };
+    let stored = if tau > 0.0 {
+        format!(
+            "a charge-control body diode with transit time {} fitted to Q_rr less the output charge Q_oss(V_R) of {given}, recovering at each hard turn-on's current slope (2·I/t_ri)",
+            q(tau, Dimension::Time)
+        )
+    } else {
+        format!("no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of {given})")
+    };
     format!(
-        "{SWITCHING_ASSUMPTION}; {turn_off}; reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)"
+        "bridge partner's recovery: {stored}, plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr"
     )
 }
 

@@ -16,6 +16,7 @@ use std::process::Command;
 
 use pwmplan::physics::deadtime::{DeadTimeInputs, dead_time_need_s};
 use pwmplan::physics::params::{GateDrive, SwitchModel};
+use pwmplan::physics::recovery;
 use pwmplan::physics::ripple::{self, Drive, MotorLoad};
 use pwmplan::physics::switching;
 
@@ -443,22 +444,29 @@ pub fn netlist_caps(dev: &Device) -> (String, Vec<f64>, Vec<f64>) {
     (n, curve, grid)
 }
 
-/// Body diode: Q_rr at I_F = i_test,
-/// di/dt = 100 A/µs, V_R = v_test: a current source forward-biases the diode
-/// of the upper device (gate tied to source), then an ideal switch closes a
-/// series inductance V_R/(100 A/µs) across it, commutating the current.
+/// di/dt of the body-diode recovery test, A/s (the value datasheets most
+/// often state; own choice of test condition).
+pub const Q_RR_TEST_DI_DT: f64 = 100e6;
+
+/// Body diode: Q_rr at I_F = i_test, di/dt = 100 A/µs, V_R = v_test, in the
+/// switch-commutated circuit of a datasheet test (the commutating switch's
+/// current ramps at di/dt; the diode's reverse current, its output-capacitance
+/// charge included, ends when the node has swung to V_R). A current source
+/// forward-biases the diode of the upper device (gate tied to source); an
+/// ideal square-law switch to ground, whose gate follows the ramp
+/// V_T + sqrt(2·(di/dt)·t/K_P), takes the current over.
 pub fn netlist_body_diode(dev: &Device) -> String {
     let mut n = header("body diode", dev);
     let i = dev.i_test_a;
     let vr = dev.v_test_v;
-    let l_s = vr / 100e6;
-    let t_ramp = i / 100e6;
+    let a = Q_RR_TEST_DI_DT;
+    let t_ramp = i / a;
     let _ = write!(
         n,
-        "* Q_rr\n.model sw SW(VT=0.5 VH=0 RON=1m ROFF=1e8)\n\
+        "* Q_rr, switch-commutated\n.model csw NMOS(LEVEL=1 VTO=1 KP=100)\n\
          VR bus 0 {vr}\nVSD bus dd 0\nMQ dd x x {m}\nIL bus x DC {i}\n\
-         LS x y {l_s}\nS1 y 0 ctl 0 sw\nCS y 0 100p\n\
-         VCTL ctl 0 PWL(0 0 50n 0 51n 1)\n\
+         M2 x g2 0 0 csw\n\
+         BG g2 0 V=1+sqrt(2*{a}*max(time-50n,0)/100+1e-6)\n\
          .control\n{WR}tran 0.1n {tend} 0 0.1n\nwrdata out.txt i(vsd)\nquit\n.endc\n.end\n",
         m = dev.stem,
         tend = 50e-9 + 3.0 * t_ramp + 300e-9
@@ -681,11 +689,14 @@ pub fn switch_yaml(dev: &Device, x: &Extracted) -> String {
     );
     let _ = writeln!(
         s,
-        "  body_diode: {{ v_sd: {}, q_rr: {{ typ: {}, max: {} }}, t_rr: {} }}",
+        "  body_diode:\n    v_sd: {}\n    q_rr: {{ typ: {}, max: {} }}\n    t_rr: {}\n    q_rr_test: {{ i_f: \"{} A\", di_dt: \"{} A/µs\", v_r: \"{} V\" }}",
         si(x.v_sd_v, "V"),
         si(x.q_rr_c, "C"),
         si(1.3 * x.q_rr_c, "C"),
-        si(x.t_rr_s, "s")
+        si(x.t_rr_s, "s"),
+        dev.i_test_a,
+        Q_RR_TEST_DI_DT * 1e-6,
+        dev.v_test_v
     );
     let _ = writeln!(s, "  v_gs_max: \"20 V\"\n  t_j_max: \"175 °C\"");
     let _ = writeln!(
@@ -975,12 +986,16 @@ pub fn gate_drive(case: &SwitchCase) -> GateDrive {
 pub struct SwitchPredicted {
     pub e_on_j: f64,
     pub e_off_j: f64,
-    /// Recovery energy booked in the switch that turns on, in `losses`' form
-    /// Q·V, with Q the simulated partner charge `q_rec_c` (the recovery model
-    /// itself is not under test here; see README).
+    /// Recovery energy booked in the switch that turns on, from the switch
+    /// file alone (`recovery::partner_recovery`: the partner's stored charge
+    /// at the turn-on's slope plus its output charge); 0 on the low side.
     pub e_rr_j: f64,
-    /// The same term with the switch file's Q_rr (what `losses` would book).
-    pub e_rr_file_j: f64,
+    /// The same term as Q·V with the simulated partner charge `q_rec_c`
+    /// (tests the switching model alone, not the recovery model).
+    pub e_rr_sim_charge_j: f64,
+    /// The same term with the switch file's constant Q_rr (the model before
+    /// the charge-control recovery).
+    pub e_rr_const_j: f64,
     pub t_d_on_s: f64,
     pub t_ri_s: f64,
     pub t_fv_s: f64,
@@ -1021,16 +1036,25 @@ pub fn predict_switching(
     .map_err(|e| format!("{}: {e:?}", case.id))?;
     let need = dead_time_need_s(&DeadTimeInputs::from_transitions(&tr, &drive))
         .ok_or_else(|| format!("{}: no dead-time need", case.id))?;
-    let e_rr_j = meas.q_rec_c * case.v_bus_v;
-    let e_rr_file_j = match case.circuit {
-        Circuit::LowSide => 0.0,
-        Circuit::HalfBridge => sw.q_rr_c * case.v_bus_v,
+    let (e_rr_j, e_rr_sim_charge_j, e_rr_const_j) = match case.circuit {
+        Circuit::LowSide => (0.0, meas.q_rec_c * case.v_bus_v, 0.0),
+        Circuit::HalfBridge => {
+            let tau = recovery::body_diode_transit_time_s(sw, sw.q_rr_c);
+            let rec = recovery::partner_recovery(sw, &drive, case.v_bus_v, meas.i_on_a, tau)
+                .map_err(|e| format!("{}: {e:?}", case.id))?;
+            (
+                rec.switch_j,
+                meas.q_rec_c * case.v_bus_v,
+                sw.q_rr_c * case.v_bus_v,
+            )
+        }
     };
     Ok(SwitchPredicted {
         e_on_j: tr.e_on_j,
         e_off_j: tr.e_off_terminal_j,
         e_rr_j,
-        e_rr_file_j,
+        e_rr_sim_charge_j,
+        e_rr_const_j,
         t_d_on_s: tr.t_d_on_s,
         t_ri_s: tr.t_ri_s,
         t_fv_s: tr.t_fv_s,
@@ -1447,11 +1471,13 @@ pub struct SwitchError {
     pub case: SwitchCase,
     pub meas: SwitchMeasured,
     pub pred: SwitchPredicted,
-    /// (predicted − simulated)/simulated of E_on + E_off (with the recovery
-    /// term Q_rec·V on both sides, see README).
+    /// (predicted − simulated)/simulated of E_on + E_off, predicted from the
+    /// switch file alone.
     pub e_err: f64,
-    /// The same with the switch file's Q_rr in the prediction.
-    pub e_err_file_q_rr: f64,
+    /// The same with the simulated partner charge in the prediction.
+    pub e_err_sim_charge: f64,
+    /// The same with the switch file's constant Q_rr in the prediction.
+    pub e_err_const_q_rr: f64,
     /// The same error for `switching::transitions_first_order`.
     pub e_err_first_order: f64,
     /// Dead-time need ≥ simulated interval.
@@ -1479,7 +1505,9 @@ pub fn switching_errors(
             let sw = load_switch_model(root, case.device)?;
             let pred = predict_switching(&sw, case, meas)?;
             let sim = meas.e_on_j + meas.e_off_j;
-            let file = pred.e_on_j + pred.e_off_j + pred.e_rr_file_j;
+            let base = pred.e_on_j + pred.e_off_j;
+            let with_sim = base + pred.e_rr_sim_charge_j;
+            let with_const = base + pred.e_rr_const_j;
             let fo = switching::transitions_first_order(
                 &sw,
                 &gate_drive(case),
@@ -1489,13 +1517,14 @@ pub fn switching_errors(
                 sw.r_ds_on_25_ohm,
             )
             .map_err(|e| format!("{}: {e:?}", case.id))?;
-            let fo_total = fo.e_on_j + fo.e_off_j + pred.e_rr_j;
+            let fo_total = fo.e_on_j + fo.e_off_j + pred.e_rr_const_j;
             Ok(SwitchError {
                 case: *case,
                 meas: *meas,
                 pred,
                 e_err: (pred.e_total_j() - sim) / sim,
-                e_err_file_q_rr: (file - sim) / sim,
+                e_err_sim_charge: (with_sim - sim) / sim,
+                e_err_const_q_rr: (with_const - sim) / sim,
                 e_err_first_order: (fo_total - sim) / sim,
                 dead_time_covered: pred.dead_time_need_s >= meas.interval_s(),
             })
@@ -1541,7 +1570,7 @@ pub fn errors_csv(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
         let c = &e.case;
         let _ = writeln!(
             s,
-            "switching,{},{} {} {} V {} A {} V drive {}/{} ohm,{:.4e},{:.4e},{:+.2},err_with_file_q_rr_pct={:+.1} e_on_sim={:.4e} e_on_pred={:.4e} e_off_sim={:.4e} e_off_pred={:.4e} e_rec={:.4e} dead_time_interval_s={:.3e} dead_time_need_s={:.3e} covered={}",
+            "switching,{},{} {} {} V {} A {} V drive {}/{} ohm,{:.4e},{:.4e},{:+.2},err_with_sim_charge_pct={:+.1} err_with_const_q_rr_pct={:+.1} e_on_sim={:.4e} e_on_pred={:.4e} e_off_sim={:.4e} e_off_pred={:.4e} e_rec={:.4e} dead_time_interval_s={:.3e} dead_time_need_s={:.3e} covered={}",
             c.id,
             c.device,
             c.circuit.name(),
@@ -1553,7 +1582,8 @@ pub fn errors_csv(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
             e.meas.e_on_j + e.meas.e_off_j,
             e.pred.e_total_j(),
             100.0 * e.e_err,
-            100.0 * e.e_err_file_q_rr,
+            100.0 * e.e_err_sim_charge,
+            100.0 * e.e_err_const_q_rr,
             e.meas.e_on_j,
             e.pred.e_on_j + e.pred.e_rr_j,
             e.meas.e_off_j,
@@ -1622,7 +1652,8 @@ pub fn circuit_summary(sw: &[SwitchError]) -> String {
 pub fn errors_md(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
     let errs: Vec<f64> = sw.iter().map(|e| e.e_err).collect();
     let worst = errs.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
-    let file: Vec<f64> = sw.iter().map(|e| e.e_err_file_q_rr).collect();
+    let simq: Vec<f64> = sw.iter().map(|e| e.e_err_sim_charge).collect();
+    let constq: Vec<f64> = sw.iter().map(|e| e.e_err_const_q_rr).collect();
     let fo: Vec<f64> = sw.iter().map(|e| e.e_err_first_order).collect();
     let range = |v: &[f64]| {
         v.iter()
@@ -1637,15 +1668,19 @@ pub fn errors_md(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
     let _ = writeln!(
         s,
         "Switching, E_on + E_off: median |error| {:.1} %, worst {:.1} % over {} cases \
-         (with the switch file's constant Q_rr for the recovery term instead: median {:.1} %, worst {:.1} %). \
+         predicted from the switch files alone. With the simulated partner charge for the recovery term \
+         instead (the switching model alone): median {:.1} %, worst {:.1} %; with the switch file's constant \
+         Q_rr (the model before the charge-control recovery): median {:.1} %, worst {:.1} %. \
          Dead-time need covers the simulated interval in {} of {} cases. \
          For comparison, `switching::transitions_first_order` on the same cases: median |error| {:.1} %, \
          errors from {:+.1} % to {:+.1} %.\n",
         100.0 * median_abs(&errs),
         100.0 * worst,
         sw.len(),
-        100.0 * median_abs(&file),
-        100.0 * file.iter().fold(0.0_f64, |a, x| a.max(x.abs())),
+        100.0 * median_abs(&simq),
+        100.0 * simq.iter().fold(0.0_f64, |a, x| a.max(x.abs())),
+        100.0 * median_abs(&constq),
+        100.0 * constq.iter().fold(0.0_f64, |a, x| a.max(x.abs())),
         sw.iter().filter(|e| e.dead_time_covered).count(),
         sw.len(),
         100.0 * median_abs(&fo),

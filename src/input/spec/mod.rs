@@ -13,8 +13,9 @@ pub mod quantity;
 use serde::Deserialize;
 
 pub use quantity::{
-    Ampere, Celsius, Coulomb, Dim, Either2, Farad, Henry, Hertz, Joule, Kelvin, KelvinPerWatt, Ohm,
-    PerKelvin, Q, RadPerSecond, Ratio, Second, Siemens, Spread, Volt, VoltSecondPerRad,
+    Ampere, AmperePerSecond, Celsius, Coulomb, Dim, Either2, Farad, Henry, Hertz, Joule, Kelvin,
+    KelvinPerWatt, Ohm, PerKelvin, Q, RadPerSecond, Ratio, Second, Siemens, Spread, Volt,
+    VoltSecondPerRad,
 };
 
 // ---------------------------------------------------------------- switch file
@@ -143,6 +144,22 @@ pub struct BodyDiodeSpec {
     pub q_rr: Spread<Coulomb>,
     /// Reverse-recovery time.
     pub t_rr: Q<Second>,
+    /// Conditions of the Q_rr test; without them 100 A/µs at the capacitance
+    /// table's voltage is assumed (and said in the assumptions).
+    #[serde(default)]
+    pub q_rr_test: Option<RecoveryTestSpec>,
+}
+
+/// Conditions under which a datasheet states Q_rr.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RecoveryTestSpec {
+    /// Forward current before the commutation.
+    pub i_f: Q<Ampere>,
+    /// Rate of fall of the diode current.
+    pub di_dt: Q<AmperePerSecond>,
+    /// Reverse voltage the diode blocks after recovery.
+    pub v_r: Q<Volt>,
 }
 
 // ----------------------------------------------------------------- board file

@@ -46,6 +46,7 @@ dims! {
     PerKelvin => TemperatureCoefficient,
     VoltSecondPerRad => BackEmfConstant,
     RadPerSecond => AngularSpeed,
+    AmperePerSecond => CurrentSlewRate,
 }
 
 /// A value in SI base units whose dimension is `D` (temperatures in °C).

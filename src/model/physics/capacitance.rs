@@ -221,6 +221,12 @@ impl OutputCapacitance {
         gd_integrals(sw, v_v).1 + self.c_ds_energy_j(v_v, self.grading)
     }
 
+    /// The charge of the whole output capacitance charged to `v_v`,
+    /// Q_oss(V) = ∫₀^V (C_gd + C_ds) dv.
+    pub fn charge_c(&self, sw: &SwitchModel, v_v: f64) -> f64 {
+        gd_integrals(sw, v_v).0 + self.c_ds_charge_c(v_v, self.grading)
+    }
+
     /// Q_ds(V) = ∫₀^V C_ds dv = C_spec·V_spec^m·V^(1−m)/(1 − m) (the power
     /// law integrated; the floor's share is neglected).
     pub fn c_ds_charge_c(&self, v_v: f64, grading: f64) -> f64 {

@@ -33,6 +33,7 @@ use super::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
     SwitchModel, Topology,
 };
+use super::recovery;
 use super::switching::{self, NodePartner, SwitchingError};
 
 /// 0 °C in kelvin.
@@ -442,25 +443,27 @@ fn commutate(
     inc: &mut EdgeBook,
     i_a: f64,
     out_diode_carries: bool,
-    sw: &SwitchModel,
-    op: &OperatingPoint,
-) {
+    ctx: &Ctx<'_>,
+) -> Result<(), StageError> {
+    let (sw, op) = (ctx.sw, ctx.op);
     let i = i_a.abs();
     if i == 0.0 {
         // No current to swing the node: the incoming device discharges C_oss.
         inc.oss_at_turn_on = true;
-        return;
+        return Ok(());
     }
     if out_diode_carries {
+        let rec = recovery::partner_recovery(sw, ctx.drive, op.v_bus_v, i, ctx.body_diode_tau_s)?;
         out.dead_j += sw.v_sd_v * i * op.t_dead_s;
-        out.rr_j += 0.25 * sw.q_rr_c * op.v_bus_v;
+        out.rr_j += rec.diode_j;
         inc.hard_on_a = i;
         inc.oss_at_turn_on = true;
-        inc.rr_j += sw.q_rr_c * op.v_bus_v;
+        inc.rr_j += rec.switch_j;
     } else {
         out.hard_off_a = i;
         inc.dead_j += sw.v_sd_v * i * op.t_dead_s;
     }
+    Ok(())
 }
 
 /// One synchronous leg: HS on for `d_hs`; `i_hs_on_a` is the current out of the
@@ -468,15 +471,14 @@ fn commutate(
 fn leg_books(
     i_hs_on_a: f64,
     i_hs_off_a: f64,
-    sw: &SwitchModel,
-    op: &OperatingPoint,
-) -> (EdgeBook, EdgeBook) {
+    ctx: &Ctx<'_>,
+) -> Result<(EdgeBook, EdgeBook), StageError> {
     let (mut hs, mut ls) = (EdgeBook::default(), EdgeBook::default());
     // LS → HS: positive current rides in the LS body diode.
-    commutate(&mut ls, &mut hs, i_hs_on_a, i_hs_on_a > 0.0, sw, op);
+    commutate(&mut ls, &mut hs, i_hs_on_a, i_hs_on_a > 0.0, ctx)?;
     // HS → LS: negative current rides in the HS body diode.
-    commutate(&mut hs, &mut ls, i_hs_off_a, i_hs_off_a < 0.0, sw, op);
-    (hs, ls)
+    commutate(&mut hs, &mut ls, i_hs_off_a, i_hs_off_a < 0.0, ctx)?;
+    Ok((hs, ls))
 }
 
 /// Loss of one switch from its edge book and channel mean-square current.
@@ -550,6 +552,8 @@ struct Ctx<'a> {
     drive: &'a GateDrive,
     op: &'a OperatingPoint,
     load: &'a LoadCurrent,
+    /// Transit time of the body diode (`recovery::body_diode_transit_time_s`).
+    body_diode_tau_s: f64,
 }
 
 fn check(name: &'static str, value: f64, ok: bool) -> Result<(), StageError> {
@@ -611,12 +615,13 @@ pub fn stage_losses(
         drive,
         op,
         load,
+        body_diode_tau_s: recovery::body_diode_transit_time_memo_s(sw),
     };
     let ms = load.i_rms_a * load.i_rms_a;
     let (i_min, i_max) = (load.i_turn_on_a, load.i_turn_off_a);
     let mut parts: Vec<(DeviceLoss, Option<GateDriveLoss>)> = Vec::new();
     let mut add_leg = |hs_role, ls_role, d_hs: f64, i_on: f64, i_off: f64| {
-        let (hs, ls) = leg_books(i_on, i_off, sw, op);
+        let (hs, ls) = leg_books(i_on, i_off, &ctx)?;
         let (a, ga) = mosfet_loss(hs_role, &hs, d_hs * ms, t_j_c(hs_role), &ctx)?;
         let (b, gb) = mosfet_loss(ls_role, &ls, (1.0 - d_hs) * ms, t_j_c(ls_role), &ctx)?;
         parts.push((a, Some(ga)));
@@ -954,11 +959,16 @@ mod tests {
         // Regression value (computed from the formulas): 74.78 mW at 20 kHz in the HS.
         assert!((hs.switching_w * 1e3 - 74.78).abs() < 5e-3);
         assert_eq!(ls.switching_w, 0.0);
-        // Q_rr·V·f into the HS, ¼ of it in the LS body diode.
-        assert!(close(hs.reverse_recovery_w, 40e-9 * 24.0 * 20e3, 1e-12));
+        // The partner's recovery at this turn-on into the HS (stored charge
+        // plus the LS output charge), ¼ of the stored part in the LS diode.
+        let sw = example_switch();
+        let tau = recovery::body_diode_transit_time_s(&sw, sw.q_rr_c);
+        let rec = recovery::partner_recovery(&sw, &example_drive(), 24.0, i, tau).unwrap();
+        assert!(rec.stored_c > 0.0 && rec.output_charge_c > 0.0);
+        assert!(close(hs.reverse_recovery_w, rec.switch_j * 20e3, 1e-12));
         assert!(close(
             ls.reverse_recovery_w,
-            0.25 * 40e-9 * 24.0 * 20e3,
+            0.25 * rec.stored_c * 24.0 * 20e3,
             1e-12
         ));
         // V_sd·I·2·t_dead·f all in the LS body diode.

@@ -23,6 +23,7 @@ pub mod leg_voltage;
 pub mod losses;
 pub mod params;
 pub mod ratings;
+pub mod recovery;
 pub mod ripple;
 pub mod switching;
 pub mod thermal;

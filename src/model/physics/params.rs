@@ -77,6 +77,8 @@ pub struct SwitchModel {
     pub q_rr_c: f64,
     /// Body-diode reverse-recovery time t_rr.
     pub t_rr_s: f64,
+    /// Conditions of the datasheet's Q_rr test, if given.
+    pub q_rr_test: Option<RecoveryTest>,
     /// Absolute maximum V_GS.
     pub v_gs_max_v: f64,
     /// Maximum junction temperature.
@@ -87,6 +89,17 @@ pub struct SwitchModel {
     pub v_dss_v: f64,
     /// Continuous drain current rating I_D.
     pub i_d_a: f64,
+}
+
+/// Conditions of a datasheet reverse-recovery test.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RecoveryTest {
+    /// Forward current before the commutation.
+    pub i_f_a: f64,
+    /// Rate of fall of the diode current, A/s.
+    pub di_dt_a_per_s: f64,
+    /// Reverse voltage after recovery.
+    pub v_r_v: f64,
 }
 
 /// Gate driver seen by one switch. Peak-current ratings are converted to
@@ -226,6 +239,7 @@ pub(crate) mod fixtures {
             v_sd_v: 0.8,
             q_rr_c: 40e-9,
             t_rr_s: 30e-9,
+            q_rr_test: None,
             v_gs_max_v: 20.0,
             t_j_max_c: 175.0,
             v_ztc_v: Some(5.5),

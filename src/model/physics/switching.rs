@@ -406,6 +406,24 @@ pub fn current_transition_charge_c(
     }
 }
 
+/// Current rise time t_ri of a hard turn-on at `i_on_a`: the gate charge of
+/// the current transition (`current_transition_charge_c` at the plateau of
+/// that current) over the plateau gate current, the same figure
+/// `transitions_at` gives, without the rest of the edge.
+pub fn current_rise_time_s(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    i_on_a: f64,
+) -> Result<f64, SwitchingError> {
+    let v_plt = plateau_at_current_v(sw, i_on_a)?;
+    let (i_g_on, _) = gate_currents_a(drive, sw.r_g_int_ohm, v_plt, v_plt)?;
+    let q = current_transition_charge_c(sw, v_plt)?;
+    charge_time_s(q, i_g_on).ok_or(SwitchingError::InvalidParameter {
+        name: "gate current",
+        value: i_g_on,
+    })
+}
+
 /// [`transitions`] remembered: the last few results on this thread, each
 /// kept with a copy of its inputs and returned only for equal inputs (the
 /// switch and drive compared field by field), so the result is exactly what

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:c74c68d571d39c0d44616e1acadf7b3b4c396a15d5f3e93610a188f25e0f951e)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:0e1749d49d02a555261ed84cb9a3352f19661c160106eb24ca49762dc31a0bf0)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -68,7 +68,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)
 //!   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
 //!   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
 //!   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
@@ -85,7 +85,7 @@
 //! Inputs
 //!   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
 //!   osprey-3p48.yaml          sha256 3fd448f55930a4e71577835d929b781c9d700d347a59ec5bd33b03bb2f50c69c
-//!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
+//!   switches/corrie-100.yaml  sha256 44e2e43e990169014c2bcccb5906a4b7cbb72803abe4484c2b84334ae3edd46a
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
 //!

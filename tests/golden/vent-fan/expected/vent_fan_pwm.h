@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:2f26a747f98387c01b23fafd381360cf5ea708609c7091d0d43543d59e9b6bec)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:ea0a9fe50dec5be6834418021a1a9d56b18fe849131b17050aa421dcbb21f994)
  *
  * Chosen setting
  *   design         vent-fan
@@ -63,7 +63,7 @@
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve
- *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 16.8 ns fitted to Q_rr less the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 15.0 A at 30.0 V), recovering at each hard turn-on's current slope (2·I/t_ri), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr
  *   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
  *   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
  *   - devices thermally independent, each with the board's junction-to-ambient path
@@ -80,7 +80,7 @@
  * Inputs
  *   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
  *   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
- *   switches/scree-60.yaml  sha256 0644005bb169797a00f56dc829a0b6f80656d19fcdeb7ca2578ae783852f2614
+ *   switches/scree-60.yaml  sha256 7b7642f66b17ceb6b73d0a5f9beb1c694ea88e020ee1381344c4eb705a99d449
  */
 #ifndef VENT_FAN_PWM_H
 #define VENT_FAN_PWM_H

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:af62c6c7c8a8438f5fcdbcb1351aca16668c7563089226ad312c4ea34c171869)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:e97557e4d95cfe6b6bb2ee23a5440fe53275928101c94ef541a5494ffd3fef5d)
 //!
 //! Chosen setting
 //!   design         winch
@@ -14,8 +14,8 @@
 //!   feasible band  10.183 kHz to 37.879 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         145 °C     62.4 °C     82.6 K  ok
-//!   junction-high-bus      145 °C     62.0 °C     83.0 K  ok
+//!   junction-rated         145 °C     63.2 °C     81.8 K  ok
+//!   junction-high-bus      145 °C     62.9 °C     82.1 K  ok
 //!   ripple                 1.80 A      1.80 A     151 µA  binds
 //!   audible            18.000 kHz  20.367 kHz   2.37 kHz  ok
 //!   resolution         10.00 bits  12.52 bits  2.52 bits  ok
@@ -24,26 +24,26 @@
 //!   frequency-band     10.000 kHz  10.183 kHz     183 Hz  ok
 //!
 //! Losses at the rated case (whole stage)
-//!   conduction           3.44 W
+//!   conduction           3.45 W
 //!   switching            229 mW
 //!   output capacitance   26.9 mW
-//!   reverse recovery     116 mW
+//!   reverse recovery     380 mW
 //!   dead-time diode      55.0 mW
 //!   gate drive           28.0 mW
 //!   motor ripple copper  26.1 mW
-//!   total                3.92 W
+//!   total                4.20 W
 //!
 //! Operating figures
 //!   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
 //!   high-bus case           54.0 V supply, 50.0 °C ambient, 12.0 A load
-//!   junction                62.4 °C at the rated case, 62.0 °C at the high-bus case (limit 145 °C)
+//!   junction                63.2 °C at the rated case, 62.9 °C at the high-bus case (limit 145 °C)
 //!   ripple, rated case      1.32 A peak to peak at 20.367 kHz (continuous), 381 mA rms
 //!   ripple, high-bus case   1.80 A peak to peak at 20.367 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
-//!   junction    67.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
-//!   total-loss  5.25 W; ok; hot: V_th min, supply 54.0 V
+//!   junction    68.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
+//!   total-loss  5.66 W; ok; hot: V_th min, supply 54.0 V
 //!   ripple      1.79 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
 //!   duty-range  96.25 % (limit 99.05 %); ok; hot: V_th min, supply 40.0 V
 //!   dead-time   needs 123 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
 //!
 //! Alternatives
-//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +439 mW total loss, +1.3 K junction, -883 mA ripple, -0.97 bits resolution
-//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1272 mW total loss, +3.7 K junction, -1316 mA ripple, -1.90 bits resolution
+//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +725 mW total loss, +2.2 K junction, -883 mA ripple, -0.97 bits resolution
+//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2079 mW total loss, +6.1 K junction, -1316 mA ripple, -1.90 bits resolution
 //!
 //! Findings
 //!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A, and 1.76 kW at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W), 50.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
@@ -65,7 +65,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more)
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 32.8 ns fitted to Q_rr less the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V), recovering at each hard turn-on's current slope (2·I/t_ri), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
@@ -82,7 +82,7 @@
 //! Inputs
 //!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
 //!   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
-//!   switches/corrie-100.yaml  sha256 64d5aa741ae171d9ab9e2838c36eeb4ea13ba59b6fad75d2da182674b7f9c649
+//!   switches/corrie-100.yaml  sha256 44e2e43e990169014c2bcccb5906a4b7cbb72803abe4484c2b84334ae3edd46a
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!

@@ -1,0 +1,288 @@
+//! Reverse recovery of a bridge partner's body diode at the commutation it
+//! really sees.
+//!
+//! Owns: the charge-control diode, its recovered charge under a constant
+//! current slope, the transit time fitted to the datasheet's Q_rr test, the
+//! current slope of a hard turn-on, and the energy a hard turn-on draws from
+//! the recovering partner (stored charge and the partner's output charge).
+//!
+//! Why: a datasheet Q_rr is measured at one slow slope (typically 100 A/µs)
+//! and, for a MOSFET body diode, is mostly the output capacitance's charge. At
+//! the slope of a fast hard turn-on the diode gives up most of its stored
+//! charge I_F·τ, several times the datasheet figure, while the capacitive part
+//! stays Q_oss(V). Both are booked separately here.
+//!
+//! The diode is the charge-control model dq/dt = i − q/τ with q the stored
+//! charge and τ the transit (lifetime) time (Lauritzen, Ma, *A simple diode
+//! model with reverse recovery*, IEEE Trans. Power Electronics 6(2), 1991,
+//! whose model reduces to this equation when its two charges are lumped). The
+//! recovery is taken as abrupt: the diode blocks when q reaches zero and the
+//! charge of a soft tail is neglected (own simplification, small for a
+//! snappy body diode).
+
+use super::capacitance::OutputCapacitance;
+use super::params::{GateDrive, RecoveryTest, SwitchModel};
+use super::switching::{self, SwitchingError};
+
+/// Current slope assumed for a Q_rr given without test conditions, A/s: the
+/// value datasheets most often state (common practice).
+pub const DEFAULT_TEST_DI_DT_A_PER_S: f64 = 100e6;
+
+/// Stored charge removed from a charge-control diode that carried `i_f_a` in
+/// steady state (q = I_F·τ) when its current falls at `di_dt_a_per_s`, until
+/// the stored charge is gone.
+///
+/// With i(t) = I_F − a·t the equation dq/dt = i − q/τ integrates to
+/// q(t) = τ·(I_F − a·t) + a·τ²·(1 − e^(−t/τ)) (Lauritzen, Ma, 1991, the
+/// charge-control equation; the closed form is our own integration). The
+/// diode blocks at q(t_s) = 0; the current crossed zero at t₀ = I_F/a, so the
+/// reverse charge is a·(t_s − t₀)²/2. Limits: a·τ²/2 for a slow slope
+/// (I_F/a ≫ τ), I_F·τ for an instantaneous one.
+pub fn recovered_charge_c(i_f_a: f64, di_dt_a_per_s: f64, tau_s: f64) -> f64 {
+    let (i_f, a, tau) = (i_f_a.abs(), di_dt_a_per_s, tau_s);
+    if !(i_f > 0.0 && a > 0.0 && tau > 0.0 && (i_f * tau).is_finite()) {
+        return 0.0;
+    }
+    let t0 = i_f / a;
+    // g(t) = a·t − I_F − a·τ·(1 − e^(−t/τ)) rises from g(t₀) < 0 and is
+    // positive at t₀ + τ: the root lies between.
+    let g = |t: f64| a * (t - t0) - a * tau * (-(-t / tau).exp_m1());
+    let (mut lo, mut hi) = (t0, t0 + tau);
+    for _ in 0..80 {
+        let mid = 0.5 * (lo + hi);
+        if g(mid) > 0.0 {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    let t_a = 0.5 * (lo + hi) - t0;
+    0.5 * a * t_a * t_a
+}
+
+/// The transit time τ at which a diode gives up `q_stored_c` in `test`, by
+/// bisection on [1 ps, 10 µs] (the recovered charge rises with τ); `None`
+/// when no stored charge is left or the charge exceeds what any τ in the
+/// range gives.
+pub fn transit_time_s(q_stored_c: f64, test: &RecoveryTest) -> Option<f64> {
+    let q = |tau: f64| recovered_charge_c(test.i_f_a, test.di_dt_a_per_s, tau);
+    let (mut lo, mut hi) = (1e-12_f64, 10e-6_f64);
+    if q_stored_c.is_nan() || q_stored_c <= 0.0 || q(hi) < q_stored_c {
+        return None;
+    }
+    for _ in 0..100 {
+        let mid = (lo * hi).sqrt();
+        if q(mid) > q_stored_c {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    Some((lo * hi).sqrt())
+}
+
+/// The conditions of the switch's Q_rr test: the file's, or else 100 A/µs
+/// from the rated I_D at the capacitance table's voltage (own choice; in the
+/// slow-slope regime of such a test the forward current barely matters).
+pub fn datasheet_test(sw: &SwitchModel) -> RecoveryTest {
+    sw.q_rr_test.unwrap_or(RecoveryTest {
+        i_f_a: sw.i_d_a,
+        di_dt_a_per_s: DEFAULT_TEST_DI_DT_A_PER_S,
+        v_r_v: sw.c_oss_at_v_ds_v,
+    })
+}
+
+/// The body diode's transit time from the datasheet: the Q_rr of a
+/// switch-commutated test holds the diode's output charge Q_oss(V_R) besides
+/// the stored charge (the reverse current ends when the node has swung to
+/// V_R; common practice), so τ is fitted to Q_rr − Q_oss(V_R). Zero when the
+/// datasheet Q_rr is all capacitive.
+pub fn body_diode_transit_time_s(sw: &SwitchModel, q_rr_c: f64) -> f64 {
+    let test = datasheet_test(sw);
+    let q_oss = OutputCapacitance::of_switch(sw).charge_c(sw, test.v_r_v);
+    transit_time_s(q_rr_c - q_oss, &test).unwrap_or(0.0)
+}
+
+/// [`body_diode_transit_time_s`] at the switch's typical Q_rr, remembered
+/// for the last few switches on this thread (compared field by field, so the
+/// result is exactly the function's): the thermal loop and the search ask for
+/// it at every loss evaluation.
+pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
+    thread_local! {
+        static MEMO: std::cell::RefCell<Vec<(SwitchModel, f64)>> =
+            const { std::cell::RefCell::new(Vec::new()) };
+    }
+    const SIZE: usize = 8;
+    if let Some(tau) = MEMO.with(|m| m.borrow().iter().find(|(k, _)| k == sw).map(|e| e.1)) {
+        return tau;
+    }
+    let tau = body_diode_transit_time_s(sw, sw.q_rr_c);
+    MEMO.with(|m| {
+        let mut m = m.borrow_mut();
+        if m.len() >= SIZE {
+            m.remove(0);
+        }
+        m.push((sw.clone(), tau));
+    });
+    tau
+}
+
+/// Current slope at the end of a hard turn-on's current rise, A/s:
+/// 2·I/t_ri. Under the gate-charge model's constant gate current the gate
+/// voltage ramps linearly through the current rise, and a square-law channel
+/// (I ∝ (V_GS − V_th)², Sze, Ng, *Physics of Semiconductor Devices*, 3rd ed.,
+/// 2007, ch. 6, from memory) then reaches I with twice its mean slope (own
+/// derivation). The recovery happens at that slope, not the mean one.
+pub fn turn_on_slope_a_per_s(i_a: f64, t_ri_s: f64) -> f64 {
+    if t_ri_s > 0.0 {
+        2.0 * i_a.abs() / t_ri_s
+    } else {
+        f64::INFINITY
+    }
+}
+
+/// Energy of one hard turn-on against a recovering bridge partner.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct PartnerRecovery {
+    /// Stored charge the partner's diode gives up.
+    pub stored_c: f64,
+    /// Partner's output charge Q_oss(V), charged through the incoming switch.
+    pub output_charge_c: f64,
+    /// Energy dissipated in the incoming switch: Q_stored·V (the node is held
+    /// at the rail while the stored charge is removed) plus Q_oss·V − E_oss
+    /// (charging the partner's output capacitance from the rail; E_oss stays
+    /// in the partner until its own soft turn-on returns it to the load).
+    pub switch_j: f64,
+    /// Energy booked in the recovering diode: ¼·Q_stored·V (Graovac, Pürschel,
+    /// Kiep, *MOSFET Power Losses Calculation Using the Data-Sheet
+    /// Parameters*, 2006; the ¼ factor from memory; conservative, since the
+    /// abrupt model leaves the diode almost nothing).
+    pub diode_j: f64,
+}
+
+/// The recovery of a bridge partner (the same switch type) when the incoming
+/// switch turns on hard at `i_a` from `v_bus_v`, with the body diode's
+/// transit time `tau_s`.
+pub fn partner_recovery(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_a: f64,
+    tau_s: f64,
+) -> Result<PartnerRecovery, SwitchingError> {
+    let i = i_a.abs();
+    if i == 0.0 || v_bus_v <= 0.0 {
+        return Ok(PartnerRecovery::default());
+    }
+    let t_ri = switching::current_rise_time_s(sw, drive, i)?;
+    let stored = recovered_charge_c(i, turn_on_slope_a_per_s(i, t_ri), tau_s);
+    let law = OutputCapacitance::of_switch(sw);
+    let q_oss = law.charge_c(sw, v_bus_v);
+    let e_oss = law.energy_j(sw, v_bus_v);
+    Ok(PartnerRecovery {
+        stored_c: stored,
+        output_charge_c: q_oss,
+        switch_j: stored * v_bus_v + (q_oss * v_bus_v - e_oss).max(0.0),
+        diode_j: 0.25 * stored * v_bus_v,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The charge-control equation integrated by a fourth-order Runge–Kutta
+    /// step (an independent numeric method) until q reaches zero; returns the
+    /// reverse charge ∫ −i dt after the zero crossing.
+    fn rk4_recovered(i_f: f64, a: f64, tau: f64) -> f64 {
+        let dq = |t: f64, q: f64| (i_f - a * t) - q / tau;
+        let h = tau.min(i_f / a) / 20_000.0;
+        let (mut t, mut q, mut rev) = (0.0, i_f * tau, 0.0);
+        while q > 0.0 {
+            let k1 = dq(t, q);
+            let k2 = dq(t + h / 2.0, q + h / 2.0 * k1);
+            let k3 = dq(t + h / 2.0, q + h / 2.0 * k2);
+            let k4 = dq(t + h, q + h * k3);
+            q += h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4);
+            let i_mid = i_f - a * (t + h / 2.0);
+            if i_mid < 0.0 {
+                rev -= i_mid * h;
+            }
+            t += h;
+        }
+        rev
+    }
+
+    #[test]
+    fn closed_form_matches_a_numeric_integration() {
+        for (i_f, a, tau) in [
+            (20.0, 100e6, 12e-9),
+            (20.0, 10e9, 12e-9),
+            (2.0, 0.2e9, 5e-9),
+            (30.0, 50e9, 7e-9),
+        ] {
+            let exact = recovered_charge_c(i_f, a, tau);
+            let num = rk4_recovered(i_f, a, tau);
+            assert!(
+                (exact - num).abs() <= 2e-3 * num,
+                "{i_f} A {a} A/s {tau} s: {exact} vs {num}"
+            );
+        }
+    }
+
+    #[test]
+    fn limits_of_slow_and_fast_slopes() {
+        let tau = 10e-9;
+        // Slow: a·τ²/2 (the stored charge recombines while the current falls).
+        let slow = recovered_charge_c(50.0, 10e6, tau);
+        assert!((slow / (0.5 * 10e6 * tau * tau) - 1.0).abs() < 1e-3);
+        // Fast: all of I_F·τ.
+        let fast = recovered_charge_c(10.0, 1e15, tau);
+        assert!((fast / (10.0 * tau) - 1.0).abs() < 1e-3);
+        assert_eq!(recovered_charge_c(0.0, 1e9, tau), 0.0);
+        assert_eq!(recovered_charge_c(5.0, 1e9, 0.0), 0.0);
+    }
+
+    #[test]
+    fn transit_time_inverts_the_recovered_charge() {
+        let test = RecoveryTest {
+            i_f_a: 20.0,
+            di_dt_a_per_s: 100e6,
+            v_r_v: 50.0,
+        };
+        for tau in [1e-9, 7e-9, 40e-9, 300e-9] {
+            let q = recovered_charge_c(test.i_f_a, test.di_dt_a_per_s, tau);
+            let back = transit_time_s(q, &test).expect("fits");
+            assert!((back / tau - 1.0).abs() < 1e-6, "{tau}: {back}");
+        }
+        assert_eq!(transit_time_s(0.0, &test), None);
+        assert_eq!(transit_time_s(-1e-9, &test), None);
+    }
+
+    /// The rise time the recovery takes its slope from is the edge's own.
+    #[test]
+    fn rise_time_is_the_transitions_one() {
+        use crate::model::physics::params::fixtures::{curved_switch, example_drive};
+        let (sw, drive) = (curved_switch(), example_drive());
+        for i in [0.5, 3.0, 12.0, 40.0] {
+            let tr = switching::transitions_at(
+                &sw,
+                &drive,
+                48.0,
+                i,
+                i,
+                sw.r_ds_on_25_ohm,
+                switching::NodePartner::BridgeLeg,
+            )
+            .unwrap();
+            let t_ri = switching::current_rise_time_s(&sw, &drive, i).unwrap();
+            assert_eq!(t_ri, tr.t_ri_s, "{i} A");
+        }
+    }
+
+    #[test]
+    fn turn_on_slope_is_twice_the_mean() {
+        assert_eq!(turn_on_slope_a_per_s(10.0, 5e-9), 4e9);
+        assert!(turn_on_slope_a_per_s(10.0, 0.0).is_infinite());
+    }
+}
