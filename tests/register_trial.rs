@@ -164,3 +164,42 @@ fn strong_dead_time_distortion_is_followed_in_time() {
     }
     assert!(p.register_check.disagreements.is_empty());
 }
+
+/// A three-phase design whose highest-frequency alternative lies where the phase-ripple
+/// model is outside its accuracy (`tests/fixtures/wide-ripple-bldc/`, a random design of
+/// the register verifier, invented parts; ripple 1.4 times the current). The plan is still
+/// written, and every alternative it offers is one whose registers do what its figures say:
+/// an alternative left out is named by an `alternative-withheld` warning with the
+/// disagreement, never silently dropped and never a reason to write nothing.
+#[test]
+fn unverified_alternative_is_withheld_not_fatal() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/wide-ripple-bldc");
+    let p = plan_json(&dir, &[]);
+    assert!(p.feasible);
+    assert!(p.register_check.disagreements.is_empty());
+    let withheld: Vec<&str> = p
+        .findings
+        .iter()
+        .filter(|f| f.code == "alternative-withheld")
+        .map(|f| f.message.as_str())
+        .collect();
+    for label in ["highest-frequency", "lowest-frequency", "rounder-frequency"] {
+        let offered = p.alternatives.iter().any(|a| a.label == label);
+        let named = withheld
+            .iter()
+            .any(|m| m.contains(&format!("the {label} alternative")));
+        assert!(!(offered && named), "{label}: offered and withheld");
+    }
+    for m in &withheld {
+        assert!(m.contains("the registers give"), "{m}");
+        assert_eq!(
+            p.findings
+                .iter()
+                .find(|f| f.message == *m)
+                .map(|f| f.severity.as_str()),
+            Some("warning")
+        );
+    }
+    // Today the model misses the highest-frequency alternative's ripple by about 6 %.
+    println!("withheld: {withheld:?}");
+}

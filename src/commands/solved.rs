@@ -102,7 +102,9 @@ pub fn solve_design(
         }
     })?;
     let mut plan = plan;
-    plan.register_check = crate::model::register_check::check_solution(&design, &ev, &solution);
+    let (check, alternatives) =
+        crate::model::register_check::check_solution(&design, &ev, &solution);
+    crate::model::register_check::apply_to_plan(&mut plan, check, alternatives);
     if !plan.register_check.disagreements.is_empty() {
         return Err(Failure::Internal(format!(
             "the registers this plan would write do not do what its model says, so nothing was written; please report it with the input files:\n  {}",

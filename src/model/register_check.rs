@@ -99,9 +99,14 @@ impl<'a> RegisterView<'a> {
     }
 }
 
-/// The check of a solution's chosen setting and of every alternative (each alternative's
-/// disagreements named with its label), from the same records the plan writes.
-pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterCheck {
+/// The check of a solution's chosen setting, and the disagreements of each alternative
+/// whose registers contradict its own figures (label, what disagrees), from the same
+/// records the plan writes.
+pub fn check_solution(
+    d: &Design,
+    ev: &Evaluator,
+    sol: &Solution,
+) -> (RegisterCheck, Vec<(String, Vec<String>)>) {
     let topology = plan::topology_name(d);
     let check_one = |c: &Candidate| {
         let (pwm, timer) = (plan::pwm_out(ev, c, 0.0), plan::timer_out(ev, c));
@@ -118,18 +123,39 @@ pub fn check_solution(d: &Design, ev: &Evaluator, sol: &Solution) -> RegisterChe
         })
     };
     let Some(chosen) = &sol.chosen else {
-        return RegisterCheck::default();
+        return (RegisterCheck::default(), Vec::new());
     };
-    let mut out = check_one(chosen);
-    for a in &sol.alternatives {
-        let alt = check_one(&a.candidate);
-        out.disagreements.extend(
-            alt.disagreements
-                .into_iter()
-                .map(|m| format!("alternative {}: {m}", a.label)),
-        );
+    let alternatives = sol
+        .alternatives
+        .iter()
+        .map(|a| (a.label.to_string(), check_one(&a.candidate).disagreements))
+        .filter(|(_, m)| !m.is_empty())
+        .collect();
+    (check_one(chosen), alternatives)
+}
+
+/// Put a solution's register check into its plan: the chosen setting's check, and every
+/// alternative whose registers contradict its figures taken out of the plan with a
+/// warning finding `alternative-withheld` that says what disagreed (an alternative is
+/// offered only when its figures are what its registers do). The chosen setting's own
+/// disagreements stay in `plan.register_check` for the caller to refuse the plan.
+pub fn apply_to_plan(
+    plan: &mut Plan,
+    check: RegisterCheck,
+    alternatives: Vec<(String, Vec<String>)>,
+) {
+    plan.register_check = check;
+    for (label, why) in alternatives {
+        plan.alternatives.retain(|a| a.label != label);
+        plan.findings.push(plan::FindingOut {
+            severity: "warning".into(),
+            code: "alternative-withheld".into(),
+            message: format!(
+                "the {label} alternative is not offered: its registers do not do what the model says ({}); the model is outside its accuracy there",
+                why.join("; ")
+            ),
+        });
     }
-    out
 }
 
 /// Check a plan's claims on its registers. A plan without a timer setting (nothing chosen) has nothing

@@ -198,8 +198,9 @@ pub struct Plan {
     pub cases: Vec<CaseOut>,
     pub load: LoadOut,
     /// What the register-level verifier measured on the written registers
-    /// (chosen setting; alternatives' disagreements included): filled by
-    /// `register_check::check_solution` before anything is written.
+    /// (chosen setting): filled by `register_check::apply_to_plan` before
+    /// anything is written, which also withholds every alternative whose
+    /// registers disagree with its figures.
     pub register_check: RegisterCheck,
     pub assumptions: Vec<String>,
     pub cautions: Vec<String>,
