@@ -705,12 +705,31 @@ pub struct LossFigures {
     pub total: f64,
 }
 
+/// The parts of one hard turn-on, each on its own loss line: the crossover
+/// in the channel (switching line, with `e_off_channel_j`), what the incoming
+/// switch draws from its recovering partner (reverse-recovery line: stored
+/// charge and the partner's output charge), and the switch's own output
+/// capacitance discharged in its channel (output-capacitance line; inside the
+/// switch, so not at its terminals).
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+pub struct EOnParts {
+    pub channel_j: f64,
+    pub partner_recovery_j: f64,
+    pub output_capacitance_j: f64,
+}
+
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct DeviceFigures {
     pub role: String,
     pub switched_current_on_a: f64,
     pub switched_current_off_a: f64,
+    /// Turn-on energy at the drain terminal (what a double-pulse test
+    /// integrates): `e_on_parts.channel_j + e_on_parts.partner_recovery_j`.
     pub e_on_j: f64,
+    /// What one hard turn-on costs, part by part, each booked once (absent
+    /// from plans of earlier versions: read as zeros).
+    #[serde(default)]
+    pub e_on_parts: EOnParts,
     /// Turn-off energy at the drain terminal (what a double-pulse test
     /// integrates).
     pub e_off_j: f64,
@@ -863,7 +882,12 @@ impl Evaluator {
                     role: role_name(d.role).to_string(),
                     switched_current_on_a: d.switched_current_on_a,
                     switched_current_off_a: d.switched_current_off_a,
-                    e_on_j: d.e_on_j,
+                    e_on_j: d.e_on_j + d.partner_recovery_j,
+                    e_on_parts: EOnParts {
+                        channel_j: d.e_on_j,
+                        partner_recovery_j: d.partner_recovery_j,
+                        output_capacitance_j: d.own_output_capacitance_j,
+                    },
                     e_off_j: d.e_off_terminal_j,
                     e_off_channel_j: d.e_off_j,
                     t_delay_on_s: d.t_delay_on_s,
@@ -1513,6 +1537,19 @@ impl Evaluator {
             .ok()
         };
         let (tr_h, tr_l) = (tr(&s.t_high)?, tr(&s.t_low)?);
+        // What the three-phase loss lines book per hard turn-on: the datasheet
+        // Q_rr·V from the partner and the switch's own E_oss.
+        let hard_on = s.i_on_a.abs() > 0.0;
+        let partner_j = if hard_on {
+            st.switch.q_rr_c * case.v_bus_v
+        } else {
+            0.0
+        };
+        let oss_j = if hard_on {
+            losses::output_capacitance_energy_j(&st.switch, case.v_bus_v).0
+        } else {
+            0.0
+        };
         let devices: Vec<DeviceFigures> = THREE_PHASE_ROLES
             .iter()
             .map(|&(role, high)| {
@@ -1525,7 +1562,12 @@ impl Evaluator {
                     role: role.to_string(),
                     switched_current_on_a: s.i_on_a,
                     switched_current_off_a: s.i_off_a,
-                    e_on_j: tr.e_on_j,
+                    e_on_j: tr.e_on_j + partner_j,
+                    e_on_parts: EOnParts {
+                        channel_j: tr.e_on_j,
+                        partner_recovery_j: partner_j,
+                        output_capacitance_j: oss_j,
+                    },
                     e_off_j: tr.e_off_terminal_j,
                     e_off_channel_j: tr.e_off_j,
                     t_delay_on_s: tr.t_d_on_s,

@@ -197,6 +197,13 @@ pub struct DeviceLoss {
     pub t_delay_on_s: f64,
     /// Turn-off delay of the gate (RC model).
     pub t_delay_off_s: f64,
+    /// Energy one hard turn-on of this switch draws from its recovering
+    /// partner (stored charge and the partner's output charge; booked on the
+    /// reverse-recovery line), 0 without a hard turn-on against a diode.
+    pub partner_recovery_j: f64,
+    /// The switch's own output-capacitance energy discharged in its channel
+    /// at a hard turn-on (the output-capacitance line per edge).
+    pub own_output_capacitance_j: f64,
     /// Channel conduction (for a diode: V_f·I_avg + r_d·I_rms²).
     pub conduction_w: f64,
     /// (E_on + E_off)·f.
@@ -432,6 +439,8 @@ struct EdgeBook {
     oss_at_turn_on: bool,
     /// Energy per period: recovery (as switch or diode).
     rr_j: f64,
+    /// The part of `rr_j` drawn as the incoming switch (per hard turn-on).
+    partner_rr_j: f64,
     /// Energy per period: body-diode conduction in dead times.
     dead_j: f64,
 }
@@ -459,6 +468,7 @@ fn commutate(
         inc.hard_on_a = i;
         inc.oss_at_turn_on = true;
         inc.rr_j += rec.switch_j;
+        inc.partner_rr_j += rec.switch_j;
     } else {
         out.hard_off_a = i;
         inc.dead_j += sw.v_sd_v * i * op.t_dead_s;
@@ -509,8 +519,8 @@ fn mosfet_loss(
     )?;
     let plateau = switching::plateau_voltage_v(sw, ctx.load.i_avg_a)?;
     let gate = gate_drive_loss(sw, ctx.drive, f, plateau)?;
-    let oss = if book.oss_at_turn_on {
-        output_capacitance_energy_j(sw, op.v_bus_v).0 * f
+    let oss_j = if book.oss_at_turn_on {
+        output_capacitance_energy_j(sw, op.v_bus_v).0
     } else {
         0.0
     };
@@ -523,9 +533,11 @@ fn mosfet_loss(
         e_off_terminal_j: tr.e_off_terminal_j,
         t_delay_on_s: tr.t_d_on_s,
         t_delay_off_s: tr.t_d_off_s,
+        partner_recovery_j: book.partner_rr_j,
+        own_output_capacitance_j: oss_j,
         conduction_w: conduction_w(i_rms_sq_a2.max(0.0).sqrt(), r),
         switching_w: tr.switching_power_w(f),
-        output_capacitance_w: oss,
+        output_capacitance_w: oss_j * f,
         reverse_recovery_w: book.rr_j * f,
         dead_time_diode_w: book.dead_j * f,
         gate_internal_w: gate.internal_w,
@@ -692,6 +704,11 @@ fn low_side(
         } else {
             0.0
         },
+        partner_rr_j: if recovers {
+            diode.q_rr_c * op.v_bus_v
+        } else {
+            0.0
+        },
         dead_j: 0.0,
     };
     let (switch, gate) = mosfet_loss(DeviceRole::LowSide, &book, sw_ms, t_j_switch_c, ctx)?;
@@ -706,6 +723,8 @@ fn low_side(
         e_off_terminal_j: 0.0,
         t_delay_on_s: 0.0,
         t_delay_off_s: 0.0,
+        partner_recovery_j: 0.0,
+        own_output_capacitance_j: 0.0,
         conduction_w: diode_conduction_w(diode, d_avg, d_ms),
         switching_w: 0.0,
         output_capacitance_w: 0.0,
@@ -1273,6 +1292,49 @@ mod tests {
             (booked - terminal).abs() < 0.15 * e_oss,
             "booked {booked:e} terminal {terminal:e} E_oss {e_oss:e}"
         );
+    }
+
+    /// Each part of a hard turn-on sits on one loss line, once: the crossover
+    /// on the switching line (with the channel turn-off), what the incoming
+    /// switch draws from its recovering partner on its reverse-recovery line,
+    /// its own E_oss on the output-capacitance line; the recovering diode
+    /// books only its ¼ share of the stored charge.
+    #[test]
+    fn turn_on_parts_each_on_one_line() {
+        let sw = curved_switch();
+        let f = op(0.5).f_sw_hz;
+        let s = stage_losses(
+            Topology::HalfBridge,
+            &sw,
+            &example_drive(),
+            None,
+            &op(0.5),
+            &triangular_load(6.0, 1.0),
+            T25,
+        )
+        .unwrap();
+        let hs = s.device(DeviceRole::HighSide).unwrap();
+        let ls = s.device(DeviceRole::LowSide).unwrap();
+        assert!(hs.partner_recovery_j > 0.0 && hs.own_output_capacitance_j > 0.0);
+        assert!(close(hs.switching_w, (hs.e_on_j + hs.e_off_j) * f, 1e-12));
+        assert!(close(
+            hs.reverse_recovery_w,
+            hs.partner_recovery_j * f,
+            1e-12
+        ));
+        assert!(close(
+            hs.output_capacitance_w,
+            hs.own_output_capacitance_j * f,
+            1e-12
+        ));
+        assert_eq!(ls.partner_recovery_j, 0.0);
+        assert_eq!(ls.output_capacitance_w, 0.0);
+        let tau = recovery::body_diode_transit_time_s(&sw, sw.q_rr_c);
+        let rec =
+            recovery::partner_recovery(&sw, &example_drive(), 24.0, hs.switched_current_on_a, tau)
+                .unwrap();
+        assert!(close(hs.partner_recovery_j, rec.switch_j, 1e-12));
+        assert!(close(ls.reverse_recovery_w, rec.diode_j * f, 1e-12));
     }
 
     /// R_ds(on) against the drive: two points on a known law R(V) = 2 mΩ +
