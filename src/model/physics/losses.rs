@@ -1258,6 +1258,21 @@ mod tests {
         assert!(close(g.external_w, g.total_w * 3.0 / 6.0, 1e-12));
     }
 
+    /// A half-bridge of `sw` at 50 % duty with a 6 A, 1 A ripple load: the
+    /// high side hard-switches both edges.
+    fn curved_half_bridge(sw: &SwitchModel) -> StageLosses {
+        stage_losses(
+            Topology::HalfBridge,
+            sw,
+            &example_drive(),
+            None,
+            &op(0.5),
+            &triangular_load(6.0, 1.0),
+            T25,
+        )
+        .unwrap()
+    }
+
     /// Energy balance of one hard-switched leg (no output-capacitance energy
     /// counted twice): the high side turns on and off hard every period, so
     /// what a double-pulse test would integrate at its terminals, E_on +
@@ -1273,16 +1288,7 @@ mod tests {
     fn output_capacitance_energy_balances_across_the_edges() {
         let sw = curved_switch();
         let f = op(0.5).f_sw_hz;
-        let s = stage_losses(
-            Topology::HalfBridge,
-            &sw,
-            &example_drive(),
-            None,
-            &op(0.5),
-            &triangular_load(6.0, 1.0),
-            T25,
-        )
-        .unwrap();
+        let s = curved_half_bridge(&sw);
         let hs = s.device(DeviceRole::HighSide).unwrap();
         let booked = (hs.switching_w + hs.output_capacitance_w) / f;
         let terminal = hs.e_on_j + hs.e_off_terminal_j;
@@ -1303,16 +1309,7 @@ mod tests {
     fn turn_on_parts_each_on_one_line() {
         let sw = curved_switch();
         let f = op(0.5).f_sw_hz;
-        let s = stage_losses(
-            Topology::HalfBridge,
-            &sw,
-            &example_drive(),
-            None,
-            &op(0.5),
-            &triangular_load(6.0, 1.0),
-            T25,
-        )
-        .unwrap();
+        let s = curved_half_bridge(&sw);
         let hs = s.device(DeviceRole::HighSide).unwrap();
         let ls = s.device(DeviceRole::LowSide).unwrap();
         assert!(hs.partner_recovery_j > 0.0 && hs.own_output_capacitance_j > 0.0);
