@@ -44,24 +44,30 @@ pub fn recovered_charge_c(i_f_a: f64, di_dt_a_per_s: f64, tau_s: f64) -> f64 {
         return 0.0;
     }
     let t0 = i_f / a;
-    // g(t) = a·t − I_F − a·τ·(1 − e^(−t/τ)) rises from g(t₀) < 0 and is
-    // positive at t₀ + τ: the root lies between.
-    let g = |t: f64| a * (t - t0) - a * tau * (-(-t / tau).exp_m1());
-    let (mut lo, mut hi) = (t0, t0 + tau);
-    for _ in 0..80 {
-        let mid = 0.5 * (lo + hi);
-        if g(mid) > 0.0 {
-            hi = mid;
-        } else {
-            lo = mid;
+    // g(t) = a·(t − t₀) − a·τ·(1 − e^(−t/τ)) is increasing and convex, with
+    // g(t₀) < 0 < g(t₀ + τ): Newton's method from t₀ + τ stays right of the
+    // root and falls on it monotonically.
+    let mut t = t0 + tau;
+    for _ in 0..60 {
+        let decay = (-t / tau).exp();
+        let g = a * (t - t0) - a * tau * (1.0 - decay);
+        let slope = a * (1.0 - decay);
+        if !(g > 0.0 && slope > 0.0) {
+            break;
+        }
+        let step = g / slope;
+        t -= step;
+        if step <= 1e-15 * t {
+            break;
         }
     }
-    let t_a = 0.5 * (lo + hi) - t0;
+    let t_a = (t - t0).max(0.0);
     0.5 * a * t_a * t_a
 }
 
 /// The transit time τ at which a diode gives up `q_stored_c` in `test`, by
-/// bisection on [1 ps, 10 µs] (the recovered charge rises with τ); `None`
+/// bisection of log τ on [1 ps, 10 µs] (60 halvings: a relative step of
+/// 1e-17) (the recovered charge rises with τ); `None`
 /// when no stored charge is left or the charge exceeds what any τ in the
 /// range gives.
 pub fn transit_time_s(q_stored_c: f64, test: &RecoveryTest) -> Option<f64> {
@@ -70,7 +76,7 @@ pub fn transit_time_s(q_stored_c: f64, test: &RecoveryTest) -> Option<f64> {
     if q_stored_c.is_nan() || q_stored_c <= 0.0 || q(hi) < q_stored_c {
         return None;
     }
-    for _ in 0..100 {
+    for _ in 0..60 {
         let mid = (lo * hi).sqrt();
         if q(mid) > q_stored_c {
             hi = mid;
@@ -112,7 +118,7 @@ pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
         static MEMO: std::cell::RefCell<Vec<(SwitchModel, f64)>> =
             const { std::cell::RefCell::new(Vec::new()) };
     }
-    const SIZE: usize = 8;
+    const SIZE: usize = 64;
     if let Some(tau) = MEMO.with(|m| m.borrow().iter().find(|(k, _)| k == sw).map(|e| e.1)) {
         return tau;
     }
@@ -125,6 +131,39 @@ pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
         m.push((sw.clone(), tau));
     });
     tau
+}
+
+/// (Q_oss(V), E_oss(V)) of the switch's output-capacitance law, remembered for
+/// the last few switches and voltages on this thread (compared exactly, so the
+/// result is the law's): fitting the law and integrating the C_rss curve at
+/// every edge of every loss evaluation would cost the search an order of
+/// magnitude in time.
+fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
+    type Entry = (SwitchModel, u64, (f64, f64));
+    thread_local! {
+        static MEMO: std::cell::RefCell<Vec<Entry>> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    const SIZE: usize = 64;
+    let key = v_v.to_bits();
+    let hit = MEMO.with(|m| {
+        m.borrow()
+            .iter()
+            .find(|(k, v, _)| *v == key && k == sw)
+            .map(|e| e.2)
+    });
+    if let Some(x) = hit {
+        return x;
+    }
+    let law = OutputCapacitance::of_switch(sw);
+    let x = (law.charge_c(sw, v_v), law.energy_j(sw, v_v));
+    MEMO.with(|m| {
+        let mut m = m.borrow_mut();
+        if m.len() >= SIZE {
+            m.remove(0);
+        }
+        m.push((sw.clone(), key, x));
+    });
+    x
 }
 
 /// Current slope at the end of a hard turn-on's current rise, A/s:
@@ -176,9 +215,7 @@ pub fn partner_recovery(
     }
     let t_ri = switching::current_rise_time_s(sw, drive, i)?;
     let stored = recovered_charge_c(i, turn_on_slope_a_per_s(i, t_ri), tau_s);
-    let law = OutputCapacitance::of_switch(sw);
-    let q_oss = law.charge_c(sw, v_bus_v);
-    let e_oss = law.energy_j(sw, v_bus_v);
+    let (q_oss, e_oss) = output_charge_memo(sw, v_bus_v);
     Ok(PartnerRecovery {
         stored_c: stored,
         output_charge_c: q_oss,
