@@ -76,6 +76,57 @@ pub fn c_gd_f(sw: &SwitchModel, v_ds_v: f64) -> f64 {
     last.1
 }
 
+/// The C_rss curve prepared for repeated evaluation: its usable points with
+/// their logarithms taken once, so [`CrssCurve::c_gd_f`] gives exactly what
+/// [`c_gd_f`] gives (the same arithmetic on the same values) without cleaning
+/// the curve and taking four logarithms at every call. The turn-off
+/// integration evaluates C_gd several times per step.
+#[derive(Debug, Clone)]
+pub struct CrssCurve {
+    /// (V, C, ln V, ln C) of each usable point, by voltage.
+    points: Vec<[f64; 4]>,
+    /// The single datasheet C_rss, used without a curve.
+    c_rss_f: f64,
+}
+
+impl CrssCurve {
+    /// The prepared curve of `sw`.
+    pub fn of_switch(sw: &SwitchModel) -> Self {
+        CrssCurve {
+            points: usable_points(&sw.c_rss_curve)
+                .iter()
+                .map(|&(v, c)| [v, c, v.ln(), c.ln()])
+                .collect(),
+            c_rss_f: sw.c_rss_f,
+        }
+    }
+
+    /// C_gd at `v_ds_v`, as [`c_gd_f`].
+    pub fn c_gd_f(&self, v_ds_v: f64) -> f64 {
+        let pts = &self.points;
+        let (Some(first), Some(last)) = (pts.first(), pts.last()) else {
+            return self.c_rss_f;
+        };
+        if v_ds_v <= first[0] {
+            return first[1];
+        }
+        if v_ds_v >= last[0] {
+            return last[1];
+        }
+        for w in pts.windows(2) {
+            let (p0, p1) = (w[0], w[1]);
+            if v_ds_v >= p0[0] && v_ds_v <= p1[0] {
+                if p1[0] <= p0[0] {
+                    return p0[1];
+                }
+                let x = (v_ds_v.ln() - p0[2]) / (p1[2] - p0[2]);
+                return (p0[3] + x * (p1[3] - p0[3])).exp();
+            }
+        }
+        last[1]
+    }
+}
+
 /// `(∫C dv, ∫v·C dv)` of the power law through `(v0, c0)` and `(v1, c1)`,
 /// C = c0·(v/v0)^n, over `[a, b]` (closed form: ∫v^m dv = (b^(m+1) − a^(m+1))/(m+1),
 /// ln(b/a) for m = −1). Written with C at the bounds, ∫C dv = (b·C(b) −
@@ -278,6 +329,26 @@ fn gd_integrals(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The prepared curve gives C_gd bit for bit as `c_gd_f`, with a curve
+    /// (clean or needing a sort), and without one.
+    #[test]
+    fn prepared_curve_is_c_gd_f_exactly() {
+        use crate::model::physics::params::fixtures::{curved_switch, example_switch};
+        let mut unsorted = curved_switch();
+        unsorted.c_rss_curve.reverse();
+        for sw in [curved_switch(), example_switch(), unsorted] {
+            let prepared = CrssCurve::of_switch(&sw);
+            for k in 0..2000 {
+                let v = 1e-3 * 1.01_f64.powi(k);
+                assert_eq!(
+                    prepared.c_gd_f(v).to_bits(),
+                    c_gd_f(&sw, v).to_bits(),
+                    "{v} V"
+                );
+            }
+        }
+    }
     use crate::model::physics::params::fixtures::example_switch;
 
     fn rel(a: f64, b: f64) -> f64 {

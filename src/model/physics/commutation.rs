@@ -20,7 +20,7 @@
 //! guessed. No stray inductance here: the node is clamped at the bus once the
 //! freewheel path conducts.
 
-use super::capacitance::{OutputCapacitance, c_gd_f};
+use super::capacitance::{CrssCurve, OutputCapacitance, c_gd_f};
 use super::params::SwitchModel;
 
 /// The drain current below which a turn-off has ended: 2 % of the switched
@@ -138,11 +138,11 @@ pub enum Partner {
 impl Partner {
     /// The partner's capacitance when the switch under study is at `v_ds_v`
     /// on a bus of `v_bus_v` (the partner then blocks V − v).
-    fn capacitance_f(&self, sw: &SwitchModel, v_bus_v: f64, v_ds_v: f64) -> f64 {
+    fn capacitance_f(&self, crss: &CrssCurve, v_bus_v: f64, v_ds_v: f64) -> f64 {
         match self {
             Partner::Switch(law) => {
                 let v_p = (v_bus_v - v_ds_v).max(0.0);
-                c_gd_f(sw, v_p) + law.c_ds_f(v_p)
+                crss.c_gd_f(v_p) + law.c_ds_f(v_p)
             }
             Partner::Diode => 0.0,
         }
@@ -190,11 +190,15 @@ fn c_gs_f(sw: &SwitchModel) -> f64 {
 }
 
 /// Node capacitances at one state: (C_gs, C_gd, C_ds + C_partner).
-fn node_capacitances(c: &TurnOffCircuit<'_>, v_ds_v: f64, v_gs_v: f64) -> (f64, f64, f64) {
-    let sw = c.switch;
-    let c_gd = c_gd_f(sw, (v_ds_v - v_gs_v).max(0.0));
-    let c_gs = c_gs_f(sw);
-    let c_node = c.c_oss.c_ds_f(v_ds_v) + c.partner.capacitance_f(sw, c.v_bus_v, v_ds_v);
+fn node_capacitances(
+    c: &TurnOffCircuit<'_>,
+    crss: &CrssCurve,
+    v_ds_v: f64,
+    v_gs_v: f64,
+) -> (f64, f64, f64) {
+    let c_gd = crss.c_gd_f((v_ds_v - v_gs_v).max(0.0));
+    let c_gs = c_gs_f(c.switch);
+    let c_node = c.c_oss.c_ds_f(v_ds_v) + c.partner.capacitance_f(crss, c.v_bus_v, v_ds_v);
     (c_gs, c_gd, c_node)
 }
 
@@ -202,8 +206,8 @@ fn node_capacitances(c: &TurnOffCircuit<'_>, v_ds_v: f64, v_gs_v: f64) -> (f64, 
 /// drain, (C_node + C_gd)·ẋ − C_gd·ẏ = I_L − i_ch(y), and at the gate,
 /// −C_gd·ẋ + (C_gs + C_gd)·ẏ = −y/R_g (Ren et al. 2006, §II, the turn-off
 /// circuit), solved as a 2×2 linear system.
-fn rates(c: &TurnOffCircuit<'_>, x: f64, y: f64) -> (f64, f64) {
-    let (c_gs, c_gd, c_node) = node_capacitances(c, x, y);
+fn rates(c: &TurnOffCircuit<'_>, crss: &CrssCurve, x: f64, y: f64) -> (f64, f64) {
+    let (c_gs, c_gd, c_node) = node_capacitances(c, crss, x, y);
     let b_drain = c.i_load_a - c.channel.current_a(y);
     let b_gate = -y / c.r_gate_ohm;
     let det = c_node * c_gs + c_node * c_gd + c_gd * c_gs;
@@ -239,20 +243,21 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     let mut y = c.channel.gate_voltage_v(i_l);
     let (mut e_ch, mut e_term) = (0.0, 0.0);
     let dx_max = v / rise_steps;
+    let crss = CrssCurve::of_switch(c.switch);
     for _ in 0..200_000 {
         if x >= v {
             break;
         }
-        let (xd, yd) = rates(c, x, y);
+        let (xd, yd) = rates(c, &crss, x, y);
         let dt = (dx_max / xd.abs().max(1e-30)).min(0.01 / yd.abs().max(1e-30));
         let (xm, ym) = (x + 0.5 * dt * xd, y + 0.5 * dt * yd);
-        let (xd, yd) = rates(c, xm, ym);
+        let (xd, yd) = rates(c, &crss, xm, ym);
         let dt = if x + dt * xd > v { (v - x) / xd } else { dt };
         if !(dt.is_finite() && dt > 0.0) {
             return None;
         }
         let i_ch = c.channel.current_a(ym);
-        let c_p = c.partner.capacitance_f(c.switch, v, xm);
+        let c_p = c.partner.capacitance_f(&crss, v, xm);
         e_ch += xm * i_ch * dt;
         e_term += xm * (i_l - c_p * xd) * dt;
         x += dt * xd;
