@@ -437,10 +437,11 @@ struct EdgeBook {
     hard_off_a: f64,
     /// Output capacitance discharged through the channel at turn-on.
     oss_at_turn_on: bool,
-    /// Energy per period: recovery (as switch or diode).
-    rr_j: f64,
-    /// The part of `rr_j` drawn as the incoming switch (per hard turn-on).
+    /// Energy per period drawn as the incoming switch from a recovering
+    /// partner (one hard turn-on per period at most).
     partner_rr_j: f64,
+    /// Energy per period booked as the recovering diode.
+    diode_rr_j: f64,
     /// Energy per period: body-diode conduction in dead times.
     dead_j: f64,
 }
@@ -464,10 +465,9 @@ fn commutate(
     if out_diode_carries {
         let rec = recovery::partner_recovery(sw, ctx.drive, op.v_bus_v, i, ctx.body_diode_tau_s)?;
         out.dead_j += sw.v_sd_v * i * op.t_dead_s;
-        out.rr_j += rec.diode_j;
+        out.diode_rr_j += rec.diode_j;
         inc.hard_on_a = i;
         inc.oss_at_turn_on = true;
-        inc.rr_j += rec.switch_j;
         inc.partner_rr_j += rec.switch_j;
     } else {
         out.hard_off_a = i;
@@ -538,7 +538,7 @@ fn mosfet_loss(
         conduction_w: conduction_w(i_rms_sq_a2.max(0.0).sqrt(), r),
         switching_w: tr.switching_power_w(f),
         output_capacitance_w: oss_j * f,
-        reverse_recovery_w: book.rr_j * f,
+        reverse_recovery_w: (book.partner_rr_j + book.diode_rr_j) * f,
         dead_time_diode_w: book.dead_j * f,
         gate_internal_w: gate.internal_w,
         total_w: 0.0,
@@ -699,16 +699,12 @@ fn low_side(
         hard_on_a: if recovers { i_on } else { 0.0 },
         hard_off_a: i_off,
         oss_at_turn_on: true,
-        rr_j: if recovers {
-            diode.q_rr_c * op.v_bus_v
-        } else {
-            0.0
-        },
         partner_rr_j: if recovers {
             diode.q_rr_c * op.v_bus_v
         } else {
             0.0
         },
+        diode_rr_j: 0.0,
         dead_j: 0.0,
     };
     let (switch, gate) = mosfet_loss(DeviceRole::LowSide, &book, sw_ms, t_j_switch_c, ctx)?;

@@ -115,48 +115,49 @@ pub fn body_diode_transit_time_s(sw: &SwitchModel, q_rr_c: f64) -> f64 {
 /// it at every loss evaluation.
 pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
     thread_local! {
-        static MEMO: std::cell::RefCell<Vec<(SwitchModel, f64)>> =
-            const { std::cell::RefCell::new(Vec::new()) };
+        static MEMO: Memo<f64> = const { std::cell::RefCell::new(Vec::new()) };
     }
-    const SIZE: usize = 64;
-    if let Some(tau) = MEMO.with(|m| m.borrow().iter().find(|(k, _)| k == sw).map(|e| e.1)) {
-        return tau;
-    }
-    let tau = body_diode_transit_time_s(sw, sw.q_rr_c);
-    MEMO.with(|m| {
-        let mut m = m.borrow_mut();
-        if m.len() >= SIZE {
-            m.remove(0);
-        }
-        m.push((sw.clone(), tau));
-    });
-    tau
+    remembered(&MEMO, sw, 0, || body_diode_transit_time_s(sw, sw.q_rr_c))
 }
 
-/// (Q_oss(V), E_oss(V)) of the switch's output-capacitance law, remembered for
-/// the last few switches and voltages on this thread (compared exactly, so the
-/// result is the law's): fitting the law and integrating the C_rss curve at
-/// every edge of every loss evaluation would cost the search an order of
-/// magnitude in time.
+/// (Q_oss(V), E_oss(V)) of the switch's output-capacitance law, remembered as
+/// the transit time is (exactly the law's figures): fitting the law and
+/// integrating the C_rss curve at every edge of every loss evaluation would
+/// cost the search an order of magnitude in time.
 fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
-    type Entry = (SwitchModel, u64, (f64, f64));
     thread_local! {
-        static MEMO: std::cell::RefCell<Vec<Entry>> = const { std::cell::RefCell::new(Vec::new()) };
+        static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(Vec::new()) };
     }
+    remembered(&MEMO, sw, v_v.to_bits(), || {
+        let law = OutputCapacitance::of_switch(sw);
+        (law.charge_c(sw, v_v), law.energy_j(sw, v_v))
+    })
+}
+
+/// A thread's recent results, each with the switch and the bits of the
+/// number it was computed for.
+type Memo<T> = std::cell::RefCell<Vec<(SwitchModel, u64, T)>>;
+
+/// `compute()` for (`sw`, `key`), or the value remembered for an equal pair
+/// (the switch compared field by field); the oldest of 64 entries makes way.
+fn remembered<T: Copy>(
+    memo: &'static std::thread::LocalKey<Memo<T>>,
+    sw: &SwitchModel,
+    key: u64,
+    compute: impl FnOnce() -> T,
+) -> T {
     const SIZE: usize = 64;
-    let key = v_v.to_bits();
-    let hit = MEMO.with(|m| {
+    let hit = memo.with(|m| {
         m.borrow()
             .iter()
-            .find(|(k, v, _)| *v == key && k == sw)
+            .find(|(k, b, _)| *b == key && k == sw)
             .map(|e| e.2)
     });
     if let Some(x) = hit {
         return x;
     }
-    let law = OutputCapacitance::of_switch(sw);
-    let x = (law.charge_c(sw, v_v), law.energy_j(sw, v_v));
-    MEMO.with(|m| {
+    let x = compute();
+    memo.with(|m| {
         let mut m = m.borrow_mut();
         if m.len() >= SIZE {
             m.remove(0);
