@@ -2898,3 +2898,35 @@ error: heron-hb48.yaml:9:17: board.timer.alignments: unipolar switching places t
 "#,
     );
 }
+
+/// The body diode's forward-voltage curve: one point is no curve; the
+/// voltage must not fall as the current rises.
+#[test]
+fn forward_voltage_curve_one_point_or_falling() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"v_sd: "0.85 V","#,
+            r#"v_sd: "0.85 V", v_sd_curve: [["2 A", "0.7 V"]],"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:25:45: switch.body_diode.v_sd_curve: one point is no curve; expected at least two [i_s, v_sd] points, or no v_sd_curve
+ 25 |   body_diode: { v_sd: "0.85 V", v_sd_curve: [["2 A", "0.7 V"]], q_rr: { typ: "42 nC", max: "68 nC" }, t_rr: "38 ns", q…
+    |                                             ^
+"#,
+    );
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"v_sd: "0.85 V","#,
+            r#"v_sd: "0.85 V", v_sd_at: "25 A", v_sd_curve: [["2 A", "0.7 V"], ["20 A", "0.65 V"]],"#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:25:90: switch.body_diode.v_sd_curve[1][1]: 650 mV is below the previous point's 700 mV; expected V_SD to rise (or stay) with the current
+ 25 |   body_diode: { v_sd: "0.85 V", v_sd_at: "25 A", v_sd_curve: [["2 A", "0.7 V"], ["20 A", "0.65 V"]], q_rr: { typ: "42 …
+    |                                                                                          ^
+"#,
+    );
+}

@@ -279,7 +279,8 @@ pub const LIST_CAPS: ListCaps = ListCaps {
 
 /// See [`LIST_CAPS`].
 pub struct ListCaps {
-    /// `r_ds_on_vs_temperature.points`, `capacitance.c_rss_curve`.
+    /// `r_ds_on_vs_temperature.points`, `capacitance.c_rss_curve`,
+    /// `body_diode.v_sd_curve`.
     pub curve_points: usize,
     /// `timer.prescaler.ratios`.
     pub prescaler_ratios: usize,
@@ -574,11 +575,56 @@ fn check_switch_capacitance(s: &SwitchSpec, c: &Check) -> Result<(), InputError>
     Ok(())
 }
 
+/// The body diode's forward-voltage test current and curve: currents in
+/// (0, 10 kA] rising from point to point, voltages in (0, 5 V] not falling
+/// (bounds of our own choice; a diode's forward voltage rises with current).
+fn check_forward_curve(d: &BodyDiodeSpec, c: &Check) -> Result<(), InputError> {
+    if let Some(i) = &d.v_sd_at {
+        c.within("body_diode.v_sd_at", i.si, 0.0, 1e4, A)?;
+    }
+    let pts = &d.v_sd_curve;
+    c.max_len(
+        "body_diode.v_sd_curve",
+        pts.len(),
+        LIST_CAPS.curve_points,
+        "points",
+    )?;
+    if pts.len() == 1 {
+        return Err(c.fail(
+            "body_diode.v_sd_curve",
+            "one point is no curve; expected at least two [i_s, v_sd] points, or no v_sd_curve",
+        ));
+    }
+    for (k, (i, v)) in pts.iter().enumerate() {
+        let f = format!("body_diode.v_sd_curve[{k}]");
+        c.within(&format!("{f}[0]"), i.si, 0.0, 1e4, A)?;
+        c.within(&format!("{f}[1]"), v.si, 0.0, 5.0, V)?;
+        if k > 0 && i.si <= pts[k - 1].0.si {
+            return Err(c.fail(
+                &format!("{f}[0]"),
+                "source currents must increase from point to point",
+            ));
+        }
+        if k > 0 && v.si < pts[k - 1].1.si {
+            return Err(c.fail(
+                &format!("{f}[1]"),
+                format!(
+                    "{} is below the previous point's {}; expected V_SD to rise (or stay) with the current",
+                    fmt(v.si, V),
+                    fmt(pts[k - 1].1.si, V)
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 /// Gate resistance, body diode and gate voltage limits.
 fn check_switch_diode_and_gate(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     c.spread("r_g_int", &s.r_g_int)?;
     c.non_negative("r_g_int.typ", s.r_g_int.typ.si, 100.0, OHM)?;
     c.within("body_diode.v_sd", s.body_diode.v_sd.si, 0.0, 5.0, V)?;
+    check_forward_curve(&s.body_diode, c)?;
     c.spread("body_diode.q_rr", &s.body_diode.q_rr)?;
     c.non_negative("body_diode.q_rr", s.body_diode.q_rr.typ.si, 1e-4, C)?;
     c.non_negative("body_diode.t_rr", s.body_diode.t_rr.si, 1e-4, S)?;

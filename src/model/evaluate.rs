@@ -285,6 +285,13 @@ fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
             None => RdsOnTemperature::PowerLaw,
         },
         v_sd_v: s.body_diode.v_sd.si,
+        v_sd_test_a: s.body_diode.v_sd_at.as_ref().map(|i| i.si),
+        v_sd_curve: s
+            .body_diode
+            .v_sd_curve
+            .iter()
+            .map(|(i, v)| (i.si, v.si))
+            .collect(),
         q_rr_c: s.body_diode.q_rr.typ.si,
         t_rr_s: s.body_diode.t_rr.si,
         q_rr_test: s.body_diode.q_rr_test.as_ref().map(|t| RecoveryTest {

@@ -1232,12 +1232,34 @@ fn switching_assumption(
     } else {
         "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
     };
-    let recovery = if three_phase {
-        "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string()
+    let (recovery, dead_time) = if three_phase {
+        (
+            "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string(),
+            "dead-time diode conduction at the datasheet V_sd whatever the current (the single-phase stages' V_sd(I) is not yet applied to the three-phase bridge)".to_string(),
+        )
     } else {
-        recovery_assumption(sw)
+        (recovery_assumption(sw), forward_voltage_assumption(sw))
     };
-    format!("{SWITCHING_ASSUMPTION}; {turn_off}; {recovery}")
+    format!("{SWITCHING_ASSUMPTION}; {turn_off}; {recovery}; {dead_time}")
+}
+
+/// How the dead-time diode's forward voltage follows the current.
+fn forward_voltage_assumption(sw: &crate::model::physics::params::SwitchModel) -> String {
+    use crate::model::physics::forward;
+    if sw.v_sd_curve.len() >= 2 {
+        return "dead-time diode conduction for the whole dead time at V_sd(I) from the switch file's v_sd_curve (interpolated in ln I)".to_string();
+    }
+    let i_test = format_quantity(forward::v_sd_test_current_a(sw), Dimension::Current, 3);
+    let source = if sw.v_sd_test_a.is_some() {
+        "its v_sd_at"
+    } else if sw.q_rr_test.is_some() {
+        "assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at"
+    } else {
+        "assumed: the rated I_D; the switch file gives no body_diode.v_sd_at"
+    };
+    format!(
+        "dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at {i_test} ({source}), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it"
+    )
 }
 
 /// How a bridge partner's recovery is booked for this switch file
@@ -1261,7 +1283,7 @@ fn recovery_assumption(sw: &crate::model::physics::params::SwitchModel) -> Strin
     };
     let stored = if tau > 0.0 {
         format!(
-            "a charge-control body diode with transit time {} fitted to Q_rr less the output charge Q_oss(V_R) of {given}, recovering at each hard turn-on's current slope (2·I/t_ri)",
+            "a charge-control body diode with transit time {} fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of {given} (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri)",
             q(tau, Dimension::Time)
         )
     } else {

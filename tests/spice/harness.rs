@@ -45,6 +45,11 @@ pub struct Device {
     pub i_test_a: f64,
     /// V_DS of the capacitance table and of the gate-charge test.
     pub v_test_v: f64,
+    /// Second gate voltage of the R_ds(on) table (4.5 V for a logic-level
+    /// part, 6 V for a standard-threshold one, as datasheets state them).
+    pub v_gs_second_v: f64,
+    /// The switch file gets a V_SD curve (else the single V_SD at `i_test`).
+    pub v_sd_curve: bool,
     /// Continuous drain current rating (invented).
     pub i_d_a: f64,
     /// Junction-to-case thermal resistance (invented).
@@ -53,7 +58,7 @@ pub struct Device {
     pub r_th_ja: f64,
 }
 
-/// The three invented reference devices.
+/// The five invented reference devices (30–150 V).
 pub fn devices() -> Vec<Device> {
     vec![
         Device {
@@ -66,6 +71,8 @@ pub fn devices() -> Vec<Device> {
             v_dss_v: 40.0,
             i_test_a: 25.0,
             v_test_v: 20.0,
+            v_gs_second_v: 4.5,
+            v_sd_curve: false,
             i_d_a: 120.0,
             r_th_jc: 0.9,
             r_th_ja: 40.0,
@@ -80,6 +87,8 @@ pub fn devices() -> Vec<Device> {
             v_dss_v: 60.0,
             i_test_a: 20.0,
             v_test_v: 30.0,
+            v_gs_second_v: 4.5,
+            v_sd_curve: true,
             i_d_a: 70.0,
             r_th_jc: 1.2,
             r_th_ja: 45.0,
@@ -94,9 +103,43 @@ pub fn devices() -> Vec<Device> {
             v_dss_v: 100.0,
             i_test_a: 12.0,
             v_test_v: 50.0,
+            v_gs_second_v: 4.5,
+            v_sd_curve: false,
             i_d_a: 40.0,
             r_th_jc: 1.5,
             r_th_ja: 50.0,
+        },
+        Device {
+            stem: "fell-30",
+            name: "Fell 30 V reference (invented, SPICE-extracted)",
+            params: "Vto=1.8 Kp=200 Lambda=0.004 ksubthres=0.12 mtriode=1.3 \
+                     Rd=0.6m Rs=0.25m Rg=0.8 Cgdmax=3.2n Cgdmin=90p a=0.6 Cgs=5.2n \
+                     Cjo=3.2n Vj=0.7 M=0.45 Is=6p N=1.05 Rb=1.2m TT=3n BV=33 \
+                     tcvth=0.004 MU=-1.5 texp0=1.6 texp1=0.3",
+            v_dss_v: 30.0,
+            i_test_a: 30.0,
+            v_test_v: 15.0,
+            v_gs_second_v: 4.5,
+            v_sd_curve: true,
+            i_d_a: 150.0,
+            r_th_jc: 0.8,
+            r_th_ja: 38.0,
+        },
+        Device {
+            stem: "crag-150",
+            name: "Crag 150 V reference (invented, SPICE-extracted)",
+            params: "Vto=3.5 Kp=22 Lambda=0.001 ksubthres=0.12 mtriode=1.0 \
+                     Rd=22m Rs=2m Rg=2.4 Cgdmax=0.6n Cgdmin=8p a=0.25 Cgs=1.6n \
+                     Cjo=0.45n Vj=0.85 M=0.55 Is=1p N=1.05 Rb=10m TT=25n BV=162 \
+                     tcvth=0.004 MU=-1.5 texp0=1.6 texp1=0.3",
+            v_dss_v: 150.0,
+            i_test_a: 8.0,
+            v_test_v: 75.0,
+            v_gs_second_v: 6.0,
+            v_sd_curve: true,
+            i_d_a: 25.0,
+            r_th_jc: 1.8,
+            r_th_ja: 55.0,
         },
     ]
 }
@@ -285,7 +328,7 @@ pub fn integrate(t: &[f64], f: &[f64], ta: f64, tb: f64) -> f64 {
 #[derive(Debug, Clone, Default)]
 pub struct Extracted {
     pub r_ds_on_10v_ohm: f64,
-    pub r_ds_on_4v5_ohm: f64,
+    pub r_ds_on_second_ohm: f64,
     /// Normalised R_ds(on) at 10 V against junction temperature.
     pub r_ds_on_vs_t: Vec<(f64, f64)>,
     pub v_th_v: f64,
@@ -303,6 +346,8 @@ pub struct Extracted {
     pub e_oss_j: f64,
     pub r_g_ohm: f64,
     pub v_sd_v: f64,
+    /// (I_S, V_SD) at `V_SD_CURVE_FRACTIONS` of i_test, 25 °C.
+    pub v_sd_curve: Vec<(f64, f64)>,
     pub q_rr_c: f64,
     pub t_rr_s: f64,
 }
@@ -315,7 +360,7 @@ fn header(title: &str, dev: &Device) -> String {
     )
 }
 
-/// R_ds(on) at V_GS = 10 V and 4.5 V, I_D = i_test, at `t_c`: two forced-current
+/// R_ds(on) at V_GS = 10 V and the second gate voltage, I_D = i_test, at `t_c`: two forced-current
 /// operating points (datasheet method: pulsed, so no self-heating). Also the
 /// body-diode V_SD at I_S = i_test, V_GS = 0 (used at 25 °C only).
 pub fn netlist_rdson(dev: &Device, t_c: f64) -> String {
@@ -327,13 +372,45 @@ pub fn netlist_rdson(dev: &Device, t_c: f64) -> String {
     let _ = write!(
         n,
         "VG10 g10 0 10\nI10 0 d10 DC {i}\nM10 d10 g10 0 {m}\n\
-         VG45 g45 0 4.5\nI45 0 d45 DC {i}\nM45 d45 g45 0 {m}\n\
+         VG45 g45 0 {v2}\nI45 0 d45 DC {i}\nM45 d45 g45 0 {m}\n\
          ISD 0 sd DC {i}\nMSD 0 0 sd {m}\n\
          .control\n{WR}op\nwrdata out.txt v(d10) v(d45) v(sd)\nquit\n.endc\n.end\n",
         i = dev.i_test_a,
-        m = dev.stem
+        m = dev.stem,
+        v2 = dev.v_gs_second_v
     );
     n
+}
+
+/// Source currents of the extracted V_SD curve, as fractions of i_test.
+pub const V_SD_CURVE_FRACTIONS: [f64; 4] = [0.05, 0.2, 1.0, 3.0];
+
+/// Body-diode V_SD at each of `currents_a`, 25 °C, V_GS = 0 (the datasheet
+/// method: pulsed, no self-heating), one forced-current operating point each.
+pub fn netlist_forward(dev: &Device, currents_a: &[f64]) -> String {
+    let mut n = header("V_SD(I)", dev);
+    let mut vecs = Vec::new();
+    for (k, i) in currents_a.iter().enumerate() {
+        let _ = writeln!(n, "ISD{k} 0 sd{k} DC {i}\nMSD{k} 0 0 sd{k} {}", dev.stem);
+        vecs.push(format!("v(sd{k})"));
+    }
+    let _ = write!(
+        n,
+        ".control\n{WR}op\nwrdata out.txt {}\nquit\n.endc\n.end\n",
+        vecs.join(" ")
+    );
+    n
+}
+
+/// V_SD at each of `currents_a` by ngspice.
+pub fn simulate_forward(dev: &Device, currents_a: &[f64]) -> Result<Vec<f64>, String> {
+    let tab = run_ngspice(
+        &netlist_forward(dev, currents_a),
+        &format!("{}-vsd", dev.stem),
+    )?;
+    (0..currents_a.len())
+        .map(|k| Ok(tab.col(&format!("v(sd{k})"))?[0].abs()))
+        .collect()
 }
 
 /// R_ds(on) at one gate voltage `v_gs_v`, I_D = i_test, 25 °C (the
@@ -493,7 +570,7 @@ pub fn extract(dev: &Device) -> Result<Extracted, String> {
         if t_c == 25.0 {
             r25 = r10;
             x.r_ds_on_10v_ohm = r10;
-            x.r_ds_on_4v5_ohm = tab.col("v(d45)")?[0] / dev.i_test_a;
+            x.r_ds_on_second_ohm = tab.col("v(d45)")?[0] / dev.i_test_a;
             x.v_sd_v = tab.col("v(sd)")?[0].abs();
         }
         x.r_ds_on_vs_t.push((t_c, r10));
@@ -501,6 +578,12 @@ pub fn extract(dev: &Device) -> Result<Extracted, String> {
     for p in &mut x.r_ds_on_vs_t {
         p.1 /= r25;
     }
+    let currents: Vec<f64> = V_SD_CURVE_FRACTIONS
+        .iter()
+        .map(|k| k * dev.i_test_a)
+        .collect();
+    let volts = simulate_forward(dev, &currents)?;
+    x.v_sd_curve = currents.into_iter().zip(volts).collect();
     // V_th and g_fs.
     let (tab, stdout) = run_ngspice_with_stdout(&netlist_vth_gfs(dev), "vth")?;
     x.v_th_v = echo_value(&stdout, "vth").ok_or("no V_th echoed")?;
@@ -621,10 +704,11 @@ pub fn switch_yaml(dev: &Device, x: &Extracted) -> String {
     let _ = writeln!(s, "  i_d: \"{} A\"", dev.i_d_a);
     let _ = writeln!(
         s,
-        "  r_ds_on: {{ typ: {}, max: {}, at_v_gs: \"10 V\", second_point: {{ typ: {}, at_v_gs: \"4.5 V\" }} }}",
+        "  r_ds_on: {{ typ: {}, max: {}, at_v_gs: \"10 V\", second_point: {{ typ: {}, at_v_gs: \"{} V\" }} }}",
         si(x.r_ds_on_10v_ohm, "ohm"),
         si(1.3 * x.r_ds_on_10v_ohm, "ohm"),
-        si(x.r_ds_on_4v5_ohm, "ohm")
+        si(x.r_ds_on_second_ohm, "ohm"),
+        dev.v_gs_second_v
     );
     let pts: Vec<String> = x
         .r_ds_on_vs_t
@@ -687,10 +771,21 @@ pub fn switch_yaml(dev: &Device, x: &Extracted) -> String {
         si(x.r_g_ohm, "ohm"),
         si(1.5 * x.r_g_ohm, "ohm")
     );
+    let v_sd_curve = if dev.v_sd_curve {
+        let pts: Vec<String> = x
+            .v_sd_curve
+            .iter()
+            .map(|(i, v)| format!("[{}, {}]", si(*i, "A"), si(*v, "V")))
+            .collect();
+        format!("\n    v_sd_curve: [{}]", pts.join(", "))
+    } else {
+        String::new()
+    };
     let _ = writeln!(
         s,
-        "  body_diode:\n    v_sd: {}\n    q_rr: {{ typ: {}, max: {} }}\n    t_rr: {}\n    q_rr_test: {{ i_f: \"{} A\", di_dt: \"{} A/µs\", v_r: \"{} V\" }}",
+        "  body_diode:\n    v_sd: {}\n    v_sd_at: \"{} A\"{v_sd_curve}\n    q_rr: {{ typ: {}, max: {} }}\n    t_rr: {}\n    q_rr_test: {{ i_f: \"{} A\", di_dt: \"{} A/µs\", v_r: \"{} V\" }}",
         si(x.v_sd_v, "V"),
+        dev.i_test_a,
         si(x.q_rr_c, "C"),
         si(1.3 * x.q_rr_c, "C"),
         si(x.t_rr_s, "s"),
@@ -789,7 +884,8 @@ const fn sc(
 
 use Circuit::{HalfBridge as HB, LowSide as LS};
 
-/// The switching reference cases (12–48 V, 2–30 A, 2–47 Ω, 5 V and 10–12 V).
+/// The switching reference cases (12–100 V, 1–30 A, 2–47 Ω, 5 V and 10–12 V;
+/// light-load cases where the output capacitance dominates: S17, S21, S25–S27).
 pub const SWITCH_CASES: &[SwitchCase] = &[
     sc("S01", "brack-40", LS, 12.0, 10.0, 10.0, 4.7, 2.2),
     sc("S02", "brack-40", LS, 24.0, 30.0, 10.0, 2.0, 2.0),
@@ -808,6 +904,16 @@ pub const SWITCH_CASES: &[SwitchCase] = &[
     sc("S15", "rigg-100", LS, 36.0, 3.0, 10.0, 47.0, 47.0),
     sc("S16", "rigg-100", HB, 24.0, 8.0, 10.0, 22.0, 10.0),
     sc("S17", "rigg-100", LS, 48.0, 2.0, 12.0, 2.0, 2.0),
+    sc("S18", "fell-30", LS, 12.0, 25.0, 10.0, 2.2, 2.2),
+    sc("S19", "fell-30", HB, 24.0, 15.0, 5.0, 10.0, 4.7),
+    sc("S20", "fell-30", HB, 12.0, 30.0, 12.0, 6.8, 2.2),
+    sc("S21", "fell-30", LS, 24.0, 1.0, 10.0, 4.7, 4.7),
+    sc("S22", "crag-150", LS, 100.0, 5.0, 12.0, 10.0, 4.7),
+    sc("S23", "crag-150", HB, 96.0, 8.0, 12.0, 4.7, 2.2),
+    sc("S24", "crag-150", HB, 72.0, 3.0, 10.0, 22.0, 10.0),
+    sc("S25", "crag-150", LS, 60.0, 1.0, 10.0, 47.0, 22.0),
+    sc("S26", "crag-150", HB, 80.0, 1.0, 10.0, 22.0, 10.0),
+    sc("S27", "fell-30", HB, 24.0, 2.0, 10.0, 4.7, 2.2),
 ];
 
 /// Load inductance giving the nominal current after the first pulse.

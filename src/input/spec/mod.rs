@@ -140,6 +140,12 @@ pub struct EossSpec {
 pub struct BodyDiodeSpec {
     /// Forward voltage.
     pub v_sd: Q<Volt>,
+    /// Source current at which `v_sd` is stated.
+    #[serde(default)]
+    pub v_sd_at: Option<Q<Ampere>>,
+    /// Forward-voltage curve points `[source current, V_SD]` at 25 °C.
+    #[serde(default)]
+    pub v_sd_curve: Vec<(Q<Ampere>, Q<Volt>)>,
     /// Reverse-recovery charge.
     pub q_rr: Spread<Coulomb>,
     /// Reverse-recovery time.

@@ -29,6 +29,7 @@
 //! small conservative overlap).
 
 use super::capacitance::OutputCapacitance;
+use super::forward;
 use super::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
     SwitchModel, Topology,
@@ -464,14 +465,14 @@ fn commutate(
     }
     if out_diode_carries {
         let rec = recovery::partner_recovery(sw, ctx.drive, op.v_bus_v, i, ctx.body_diode_tau_s)?;
-        out.dead_j += sw.v_sd_v * i * op.t_dead_s;
+        out.dead_j += forward::forward_voltage_v(sw, i) * i * op.t_dead_s;
         out.diode_rr_j += rec.diode_j;
         inc.hard_on_a = i;
         inc.oss_at_turn_on = true;
         inc.partner_rr_j += rec.switch_j;
     } else {
         out.hard_off_a = i;
-        inc.dead_j += sw.v_sd_v * i * op.t_dead_s;
+        inc.dead_j += forward::forward_voltage_v(sw, i) * i * op.t_dead_s;
     }
     Ok(())
 }
@@ -841,6 +842,7 @@ mod tests {
         sw.r_ds_on_25_ohm = 0.1;
         sw.r_ds_on_temperature = RdsOnTemperature::CoefficientPerK(0.0);
         sw.v_sd_v = 1.0;
+        sw.v_sd_test_a = Some(1.0); // the example's V_sd is at its 1 A load
         let o = OperatingPoint {
             v_bus_v: 13.5,
             duty: 0.5,
@@ -986,10 +988,10 @@ mod tests {
             0.25 * rec.stored_c * 24.0 * 20e3,
             1e-12
         ));
-        // V_sd·I·2·t_dead·f all in the LS body diode.
+        // V_sd(I)·I·2·t_dead·f all in the LS body diode (V_sd at this current).
         assert!(close(
             ls.dead_time_diode_w,
-            0.8 * i * 2.0 * 300e-9 * 20e3,
+            forward::forward_voltage_v(&sw, i) * i * 2.0 * 300e-9 * 20e3,
             1e-12
         ));
         assert_eq!(hs.dead_time_diode_w, 0.0);
@@ -1022,12 +1024,12 @@ mod tests {
         assert_eq!(hs.switched_current_off_a, 4.0);
         assert!(close(
             hs.dead_time_diode_w,
-            0.8 * 2.0 * 300e-9 * 20e3,
+            forward::forward_voltage_v(&example_switch(), 2.0) * 2.0 * 300e-9 * 20e3,
             1e-12
         ));
         assert!(close(
             ls.dead_time_diode_w,
-            0.8 * 4.0 * 300e-9 * 20e3,
+            forward::forward_voltage_v(&example_switch(), 4.0) * 4.0 * 300e-9 * 20e3,
             1e-12
         ));
         assert_eq!(hs.reverse_recovery_w + ls.reverse_recovery_w, 0.0);

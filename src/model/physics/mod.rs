@@ -19,6 +19,7 @@ pub mod bootstrap;
 pub mod capacitance;
 pub mod commutation;
 pub mod deadtime;
+pub mod forward;
 pub mod leg_voltage;
 pub mod losses;
 pub mod params;

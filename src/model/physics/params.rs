@@ -73,6 +73,11 @@ pub struct SwitchModel {
     pub r_ds_on_temperature: RdsOnTemperature,
     /// Body-diode forward voltage V_SD.
     pub v_sd_v: f64,
+    /// Source current at which `v_sd_v` is stated, if given.
+    pub v_sd_test_a: Option<f64>,
+    /// Forward-voltage curve `(I_S, V_SD)` at 25 °C, by rising current
+    /// (empty when the datasheet gives none).
+    pub v_sd_curve: Vec<(f64, f64)>,
     /// Body-diode reverse-recovery charge Q_rr.
     pub q_rr_c: f64,
     /// Body-diode reverse-recovery time t_rr.
@@ -240,6 +245,8 @@ pub(crate) mod fixtures {
             q_rr_c: 40e-9,
             t_rr_s: 30e-9,
             q_rr_test: None,
+            v_sd_test_a: None,
+            v_sd_curve: Vec::new(),
             v_gs_max_v: 20.0,
             t_j_max_c: 175.0,
             v_ztc_v: Some(5.5),

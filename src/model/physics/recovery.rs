@@ -21,6 +21,7 @@
 //! snappy body diode).
 
 use super::capacitance::OutputCapacitance;
+use super::forward;
 use super::params::{GateDrive, RecoveryTest, SwitchModel};
 use super::switching::{self, SwitchingError};
 
@@ -71,14 +72,24 @@ pub fn recovered_charge_c(i_f_a: f64, di_dt_a_per_s: f64, tau_s: f64) -> f64 {
 /// when no stored charge is left or the charge exceeds what any τ in the
 /// range gives.
 pub fn transit_time_s(q_stored_c: f64, test: &RecoveryTest) -> Option<f64> {
-    let q = |tau: f64| recovered_charge_c(test.i_f_a, test.di_dt_a_per_s, tau);
+    transit_time_with_s(q_stored_c, test, |_| 0.0)
+}
+
+/// [`transit_time_s`] for a reverse charge that also holds `extra_c(τ)`, a
+/// charge rising with τ (the junction's forward charge at the zero crossing).
+fn transit_time_with_s(
+    q_reverse_c: f64,
+    test: &RecoveryTest,
+    extra_c: impl Fn(f64) -> f64,
+) -> Option<f64> {
+    let q = |tau: f64| recovered_charge_c(test.i_f_a, test.di_dt_a_per_s, tau) + extra_c(tau);
     let (mut lo, mut hi) = (1e-12_f64, 10e-6_f64);
-    if q_stored_c.is_nan() || q_stored_c <= 0.0 || q(hi) < q_stored_c {
+    if q_reverse_c.is_nan() || q_reverse_c <= 0.0 || q(hi) < q_reverse_c {
         return None;
     }
     for _ in 0..60 {
         let mid = (lo * hi).sqrt();
-        if q(mid) > q_stored_c {
+        if q(mid) > q_reverse_c {
             hi = mid;
         } else {
             lo = mid;
@@ -99,14 +110,50 @@ pub fn datasheet_test(sw: &SwitchModel) -> RecoveryTest {
 }
 
 /// The body diode's transit time from the datasheet: the Q_rr of a
-/// switch-commutated test holds the diode's output charge Q_oss(V_R) besides
-/// the stored charge (the reverse current ends when the node has swung to
-/// V_R; common practice), so τ is fitted to Q_rr − Q_oss(V_R). Zero when the
-/// datasheet Q_rr is all capacitive.
+/// switch-commutated test holds, besides the stored charge, the diode's
+/// output charge Q_oss(V_R) (the reverse current ends when the node has swung
+/// to V_R; common practice) and the junction's forward charge at the current
+/// zero crossing ([`junction_charge_c`]), so τ is fitted to
+/// Q_rr − Q_oss(V_R) = Q_stored(τ) + Q_junction(τ). Zero when the datasheet
+/// Q_rr is all capacitive.
 pub fn body_diode_transit_time_s(sw: &SwitchModel, q_rr_c: f64) -> f64 {
     let test = datasheet_test(sw);
-    let q_oss = OutputCapacitance::of_switch(sw).charge_c(sw, test.v_r_v);
-    transit_time_s(q_rr_c - q_oss, &test).unwrap_or(0.0)
+    let law = OutputCapacitance::of_switch(sw);
+    let q_oss = law.charge_c(sw, test.v_r_v);
+    let junction = |tau: f64| junction_charge_c(sw, &law, test.i_f_a, test.di_dt_a_per_s, tau);
+    transit_time_with_s(q_rr_c - q_oss, &test, junction).unwrap_or(0.0)
+}
+
+/// The forward current whose steady stored charge I·τ equals the charge left
+/// when the current, falling at `di_dt_a_per_s` from `i_f_a`, crosses zero:
+/// q(t₀) = a·τ²·(1 − e^(−I_F/(a·τ))) (the closed form of
+/// [`recovered_charge_c`] at t₀), divided by τ.
+fn zero_crossing_current_a(i_f_a: f64, di_dt_a_per_s: f64, tau_s: f64) -> f64 {
+    let a_tau = di_dt_a_per_s * tau_s;
+    if a_tau.is_infinite() {
+        return i_f_a.abs();
+    }
+    if a_tau.is_nan() || a_tau <= 0.0 {
+        return 0.0;
+    }
+    a_tau * (1.0 - (-i_f_a.abs() / a_tau).exp())
+}
+
+/// The charge the body diode's junction gives back between its forward bias
+/// at the current zero crossing and zero volts. The junction voltage is that
+/// of a steady current equal to the charge left over τ (charge control), read
+/// from the diode's forward law ([`forward::forward_voltage_v`]; its ohmic
+/// part makes it slightly high); the charge is
+/// [`OutputCapacitance::forward_junction_charge_c`].
+pub fn junction_charge_c(
+    sw: &SwitchModel,
+    law: &OutputCapacitance,
+    i_f_a: f64,
+    di_dt_a_per_s: f64,
+    tau_s: f64,
+) -> f64 {
+    let i0 = zero_crossing_current_a(i_f_a, di_dt_a_per_s, tau_s);
+    law.forward_junction_charge_c(forward::forward_voltage_v(sw, i0))
 }
 
 /// [`body_diode_transit_time_s`] at the switch's typical Q_rr, remembered
@@ -132,6 +179,14 @@ fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
         let law = OutputCapacitance::of_switch(sw);
         (law.charge_c(sw, v_v), law.energy_j(sw, v_v))
     })
+}
+
+/// The switch's output-capacitance law, remembered as the transit time is.
+fn law_memo(sw: &SwitchModel) -> OutputCapacitance {
+    thread_local! {
+        static MEMO: Memo<OutputCapacitance> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    remembered(&MEMO, sw, 0, || OutputCapacitance::of_switch(sw))
 }
 
 /// A thread's recent results, each with the switch and the bits of the
@@ -186,10 +241,13 @@ pub fn turn_on_slope_a_per_s(i_a: f64, t_ri_s: f64) -> f64 {
 pub struct PartnerRecovery {
     /// Stored charge the partner's diode gives up.
     pub stored_c: f64,
+    /// Junction charge the partner gives back from its forward bias at the
+    /// current zero crossing ([`junction_charge_c`]).
+    pub junction_c: f64,
     /// Partner's output charge Q_oss(V), charged through the incoming switch.
     pub output_charge_c: f64,
-    /// Energy dissipated in the incoming switch: Q_stored·V (the node is held
-    /// at the rail while the stored charge is removed) plus Q_oss·V − E_oss
+    /// Energy dissipated in the incoming switch: (Q_stored + Q_junction)·V
+    /// (the node is held at the rail while they are removed) plus Q_oss·V − E_oss
     /// (charging the partner's output capacitance from the rail; E_oss stays
     /// in the partner until its own soft turn-on returns it to the load).
     pub switch_j: f64,
@@ -215,12 +273,16 @@ pub fn partner_recovery(
         return Ok(PartnerRecovery::default());
     }
     let t_ri = switching::current_rise_time_s(sw, drive, i)?;
-    let stored = recovered_charge_c(i, turn_on_slope_a_per_s(i, t_ri), tau_s);
+    let slope = turn_on_slope_a_per_s(i, t_ri);
+    let stored = recovered_charge_c(i, slope, tau_s);
     let (q_oss, e_oss) = output_charge_memo(sw, v_bus_v);
+    let law = law_memo(sw);
+    let junction = junction_charge_c(sw, &law, i, slope, tau_s);
     Ok(PartnerRecovery {
         stored_c: stored,
+        junction_c: junction,
         output_charge_c: q_oss,
-        switch_j: stored * v_bus_v + (q_oss * v_bus_v - e_oss).max(0.0),
+        switch_j: (stored + junction) * v_bus_v + (q_oss * v_bus_v - e_oss).max(0.0),
         diode_j: 0.25 * stored * v_bus_v,
     })
 }
@@ -295,6 +357,32 @@ mod tests {
         }
         assert_eq!(transit_time_s(0.0, &test), None);
         assert_eq!(transit_time_s(-1e-9, &test), None);
+    }
+
+    /// A datasheet Q_rr built from its three parts (stored charge at τ, the
+    /// junction's forward charge at the zero crossing, Q_oss(V_R)) gives τ
+    /// back; the junction's charge grows with τ (a higher forward voltage at
+    /// the crossing) and never exceeds the charge at the full V_sd.
+    #[test]
+    fn fit_separates_the_junction_charge() {
+        use crate::model::physics::params::fixtures::curved_switch;
+        let mut sw = curved_switch();
+        let test = RecoveryTest {
+            i_f_a: 20.0,
+            di_dt_a_per_s: 100e6,
+            v_r_v: 30.0,
+        };
+        sw.q_rr_test = Some(test);
+        let law = OutputCapacitance::of_switch(&sw);
+        let mut last = 0.0;
+        for tau in [2e-9, 5e-9, 20e-9, 80e-9] {
+            let junction = junction_charge_c(&sw, &law, 20.0, 100e6, tau);
+            assert!(junction > last && junction <= law.forward_junction_charge_c(sw.v_sd_v));
+            last = junction;
+            let q_rr = recovered_charge_c(20.0, 100e6, tau) + junction + law.charge_c(&sw, 30.0);
+            let back = body_diode_transit_time_s(&sw, q_rr);
+            assert!((back / tau - 1.0).abs() < 1e-6, "{tau}: {back}");
+        }
     }
 
     /// The rise time the recovery takes its slope from is the edge's own.

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:33f87f7db700b1c69d173a28343df7e20b55801764a7d8e8832993892ecd8854)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:2ec181f41f8da775af0231c3e83db3ff1497e21cfa46073d1e7f1c70c3e93785)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -28,10 +28,10 @@
 //!   switching            11.3 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     17.3 mW
-//!   dead-time diode      18.9 mW
+//!   dead-time diode      17.8 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.94 mW
-//!   total                126 mW
+//!   total                124 mW
 //!
 //! Operating figures
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
@@ -42,8 +42,8 @@
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
-//!   junction    58.1 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  204 mW; ok; hot: V_th max, supply 28.0 V
+//!   junction    58.0 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
+//!   total-loss  199 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 67.562 %: mean current 3.500 A (plan 3.500 A), ripple 362.8 mA peak to peak (plan 362.8 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +87 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +100 mW total loss, +1.2 K junction, -194 mA ripple, -1.10 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +86 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
+//!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +99 mW total loss, +1.2 K junction, -194 mA ripple, -1.10 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
@@ -66,7 +66,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr; dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:e97557e4d95cfe6b6bb2ee23a5440fe53275928101c94ef541a5494ffd3fef5d)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:07cd1a72d84ec438dd4b62deda08791ada5298cb9998a5b2396a6164ab0597d6)
 //!
 //! Chosen setting
 //!   design         winch
@@ -27,11 +27,11 @@
 //!   conduction           3.45 W
 //!   switching            229 mW
 //!   output capacitance   26.9 mW
-//!   reverse recovery     380 mW
-//!   dead-time diode      55.0 mW
+//!   reverse recovery     367 mW
+//!   dead-time diode      53.6 mW
 //!   gate drive           28.0 mW
 //!   motor ripple copper  26.1 mW
-//!   total                4.20 W
+//!   total                4.18 W
 //!
 //! Operating figures
 //!   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
@@ -43,7 +43,7 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    68.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
-//!   total-loss  5.66 W; ok; hot: V_th min, supply 54.0 V
+//!   total-loss  5.65 W; ok; hot: V_th min, supply 54.0 V
 //!   ripple      1.79 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
 //!   duty-range  96.25 % (limit 99.05 %); ok; hot: V_th min, supply 40.0 V
 //!   dead-time   needs 123 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
 //!
 //! Alternatives
-//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +725 mW total loss, +2.2 K junction, -883 mA ripple, -0.97 bits resolution
-//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2079 mW total loss, +6.1 K junction, -1316 mA ripple, -1.90 bits resolution
+//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +710 mW total loss, +2.1 K junction, -883 mA ripple, -0.97 bits resolution
+//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2036 mW total loss, +6.0 K junction, -1316 mA ripple, -1.90 bits resolution
 //!
 //! Findings
 //!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A, and 1.76 kW at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W), 50.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
@@ -65,7 +65,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 32.8 ns fitted to Q_rr less the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V), recovering at each hard turn-on's current slope (2·I/t_ri), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 31.3 ns fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V) (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr; dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 30.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
