@@ -2930,3 +2930,21 @@ error: switches/tarn-40.yaml:25:90: switch.body_diode.v_sd_curve[1][1]: 650 mV i
 "#,
     );
 }
+
+/// The commutation-loop inductance: a µH is wiring, not a loop.
+#[test]
+fn loop_inductance_out_of_range() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    switch: switches/corrie-100.yaml",
+            "    switch: switches/corrie-100.yaml\n    loop_inductance: \"5 uH\"",
+        )],
+        r#"
+error: heron-hb48.yaml:18:22: board.stage.loop_inductance: 5.00 µH is out of range; expected above 0.00 H and at most 1.00 µH
+ 18 |     loop_inductance: "5 uH"
+    |                      ^
+"#,
+    );
+}

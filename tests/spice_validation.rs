@@ -26,6 +26,39 @@ fn ripple_rows() -> Vec<(harness::RippleCase, harness::RippleMeasured)> {
     harness::read_ripple(&read("ripple_reference.csv")).expect("ripple_reference.csv")
 }
 
+/// The cases without a commutation-loop inductance: the energy figures are
+/// held on these (with a loop the turn-on's Miller swing is not yet followed;
+/// see `turn_off_peak_with_loop_inductance` for what is held there).
+fn without_loop(errs: Vec<harness::SwitchError>) -> Vec<harness::SwitchError> {
+    errs.into_iter()
+        .filter(|e| e.case.l_loop_h == 0.0)
+        .collect()
+}
+
+/// Issue 15 acceptance: the turn-off V_DS peak within 15 % of ngspice where a
+/// loop inductance is given (2–10 nH; measured −8.4 % to +12.2 %), and above
+/// the bus in every such case.
+#[test]
+fn turn_off_peak_with_loop_inductance() {
+    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    let with: Vec<_> = errs.iter().filter(|e| e.case.l_loop_h > 0.0).collect();
+    assert!(with.len() >= 5);
+    for e in with {
+        let (sim, pred) = (e.meas.v_peak_off_v, e.pred.v_peak_off_v);
+        println!("{} peak ngspice {sim:.2} V, model {pred:.2} V", e.case.id);
+        assert!(
+            pred > e.case.v_bus_v && sim > e.case.v_bus_v,
+            "{}",
+            e.case.id
+        );
+        assert!(
+            (pred / sim - 1.0).abs() <= 0.15,
+            "{}: {pred:.2} vs {sim:.2}",
+            e.case.id
+        );
+    }
+}
+
 /// The table covers every case and the span the acceptance asks for.
 #[test]
 fn reference_covers_the_required_span() {
@@ -51,6 +84,7 @@ fn reference_covers_the_required_span() {
     assert!(any(
         &|c| c.i_a <= 1.0 && c.circuit == harness::Circuit::HalfBridge
     ));
+    assert!(any(&|c| c.l_loop_h > 0.0 && c.l_loop_h <= 2e-9) && any(&|c| c.l_loop_h >= 10e-9));
     let rp = ripple_rows();
     assert_eq!(rp.len(), harness::RIPPLE_CASES.len());
     assert!(
@@ -65,7 +99,8 @@ fn reference_covers_the_required_span() {
 /// circuit on its own.
 #[test]
 fn switching_energy_within_acceptance() {
-    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    let errs =
+        without_loop(harness::switching_errors(root(), &switching_rows()).expect("predictions"));
     for r in &errs {
         println!("{} {:+.1} %", r.case.id, 100.0 * r.e_err);
     }
@@ -134,7 +169,8 @@ fn transit_time_fit_recovers_the_device_card() {
 /// low at the fast edges).
 #[test]
 fn recovery_term_against_simulated_partner_charge() {
-    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    let errs =
+        without_loop(harness::switching_errors(root(), &switching_rows()).expect("predictions"));
     for r in errs
         .iter()
         .filter(|r| r.case.circuit == harness::Circuit::HalfBridge)
@@ -158,7 +194,8 @@ fn recovery_term_against_simulated_partner_charge() {
 /// low plateau.
 #[test]
 fn turn_off_energy_with_capacitance_sharing() {
-    let errs = harness::switching_errors(root(), &switching_rows()).expect("predictions");
+    let errs =
+        without_loop(harness::switching_errors(root(), &switching_rows()).expect("predictions"));
     let e: Vec<f64> = errs
         .iter()
         .map(|r| r.pred.e_off_j / r.meas.e_off_j - 1.0)

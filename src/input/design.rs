@@ -1076,6 +1076,21 @@ fn check_board_stage(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
             "missing; a low-side stage needs the diode the motor current freewheels through while the switch is off (`freewheel_diode: { v_f: ..., q_rr: ..., t_rr: ..., i_f: ..., v_rrm: ... }`)",
         ));
     }
+    if let Some(l) = &st.loop_inductance {
+        // Bound of our own choice: 0 < L ≤ 1 µH (a power loop is a few nH to
+        // a few tens of nH; a µH is wiring, not a loop).
+        c.within(
+            "stage.loop_inductance",
+            l.si,
+            0.0,
+            1e-6,
+            Dimension::Inductance,
+        )?;
+    }
+    if let Some(m) = &st.v_ds_margin {
+        // Bound of our own choice: a margin of 0 to 90 % of V_DSS.
+        c.non_negative("stage.v_ds_margin", m.si, 0.9, Dimension::Ratio)?;
+    }
     if let Some(d) = &st.freewheel_diode {
         c.within("stage.freewheel_diode.v_f", d.v_f.si, 0.0, 5.0, V)?;
         if let Some(r) = d.r_d {

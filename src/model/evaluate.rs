@@ -154,10 +154,19 @@ pub struct Limits {
     pub min_resolution_bits: Option<f64>,
     pub f_min_hz: f64,
     pub f_max_hz: f64,
+    /// Highest turn-off drain voltage allowed: V_DSS less the board's
+    /// margin; only with a loop inductance (without one there is no
+    /// overshoot to check).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub v_ds_peak_max_v: Option<f64>,
 }
 
 // The default lower edge is the design's (its checks use it); kept here too.
 pub use crate::input::design::DEFAULT_F_MIN_HZ;
+/// Share of V_DSS kept free of the turn-off peak when the board gives no
+/// `stage.v_ds_margin`: 20 % (common practice, an 80 % voltage derating).
+pub const DEFAULT_V_DS_MARGIN: f64 = 0.2;
+
 /// Default upper edge when the design gives none (common practice for
 /// hard-switched silicon motor stages).
 pub const DEFAULT_F_MAX_HZ: f64 = 100_000.0;
@@ -343,6 +352,7 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
             r_ext_off_ohm: g.r_gate_off.si,
             prop_delay_s: g.propagation_delay.si,
             mismatch_s: g.delay_mismatch.si,
+            loop_inductance_h: board.stage.loop_inductance.map_or(0.0, |l| l.si),
         },
         diode: board.stage.freewheel_diode.as_ref().map(|d| DiodeModel {
             v_f_v: d.v_f.si,
@@ -509,6 +519,14 @@ impl Evaluator {
                     .and_then(|b| b.max)
                     .map(|f| f.si)
                     .unwrap_or(DEFAULT_F_MAX_HZ),
+                v_ds_peak_max_v: d.board.stage.loop_inductance.map(|_| {
+                    let margin = d
+                        .board
+                        .stage
+                        .v_ds_margin
+                        .map_or(DEFAULT_V_DS_MARGIN, |m| m.si);
+                    sw.v_dss.si * (1.0 - margin)
+                }),
             },
             audible,
             significance: Significance::default(),
@@ -744,6 +762,11 @@ pub struct DeviceFigures {
     /// line books; the rest charges the switch's own output capacitance and
     /// is booked at its next hard turn-on (the output-capacitance line).
     pub e_off_channel_j: f64,
+    /// Highest drain voltage at the hard turn-off, with the board's loop
+    /// inductance (absent when the board gives none, or without a hard
+    /// turn-off).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub v_peak_off_v: Option<f64>,
     pub t_delay_on_s: f64,
     pub t_delay_off_s: f64,
     pub conduction_w: f64,
@@ -897,6 +920,9 @@ impl Evaluator {
                     },
                     e_off_j: d.e_off_terminal_j,
                     e_off_channel_j: d.e_off_j,
+                    v_peak_off_v: (self.stage.drive.loop_inductance_h > 0.0
+                        && d.v_peak_off_v > 0.0)
+                        .then_some(d.v_peak_off_v),
                     t_delay_on_s: d.t_delay_on_s,
                     t_delay_off_s: d.t_delay_off_s,
                     conduction_w: d.conduction_w,
@@ -1577,6 +1603,8 @@ impl Evaluator {
                     },
                     e_off_j: tr.e_off_terminal_j,
                     e_off_channel_j: tr.e_off_j,
+                    v_peak_off_v: (self.stage.drive.loop_inductance_h > 0.0)
+                        .then_some(tr.v_peak_off_v),
                     t_delay_on_s: tr.t_d_on_s,
                     t_delay_off_s: tr.t_d_off_s,
                     conduction_w: lines.conduction_w(),

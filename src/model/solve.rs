@@ -482,6 +482,9 @@ impl Evaluator {
         if self.needs_dead_time() {
             checks.push(dead_time_check(dead));
         }
+        if let Some(v_max) = l.v_ds_peak_max_v {
+            checks.push(turn_off_peak_check(v_max, &rated, &high_bus));
+        }
         checks.push(self.duty_range_check(limits, duty_needed));
         let sampling = self.sampling_window(s, dead.seconds);
         if let Some(w) = &sampling {
@@ -750,6 +753,32 @@ fn junction_checks(
         };
         upper(name, t_j_max_c, r.junction_c, "°C", detail)
     })
+}
+
+/// The `turn-off-peak` constraint: the highest drain voltage at any hard
+/// turn-off of the rated and high-bus cases (the loop inductance's
+/// overshoot on the bus) stays at or below V_DSS less the board's margin.
+fn turn_off_peak_check(v_max_v: f64, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
+    let peak = |r: &CaseResult| {
+        r.devices
+            .iter()
+            .filter_map(|d| d.v_peak_off_v)
+            .fold(None, |a: Option<f64>, v| Some(a.map_or(v, |a| a.max(v))))
+    };
+    let (case, value) = match (peak(rated), peak(high_bus)) {
+        (Some(a), Some(b)) if a > b => (rated, Some(a)),
+        (_, Some(b)) => (high_bus, Some(b)),
+        (a, None) => (rated, a),
+    };
+    let detail = format!(
+        "highest drain voltage at a hard turn-off ({} supply), loop inductance's overshoot included",
+        crate::input::units::format_quantity(
+            case.case.v_bus_v,
+            crate::input::units::Dimension::Voltage,
+            3
+        )
+    );
+    upper("turn-off-peak", v_max_v, value, "V", detail.into())
 }
 
 /// The `dead-time` constraint: encoded, and at least as long as needed (a
@@ -1742,6 +1771,7 @@ fn explain_conflict(
             "audible" => "allow audible PWM (audible: allowed) or lower the hearing limit, or raise the frequency band".into(),
             "resolution" => format!("accept {:.1} bits instead of {:.1}, or clock the timer faster", k.value.unwrap_or(0.0), k.limit),
             "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),
+            "turn-off-peak" => "slow the turn-off (raise r_gate_off), shorten the commutation loop (lower loop_inductance), or choose a switch with a higher V_DSS".into(),
             "duty-range" => "lower the minimum pulse, shorten the bootstrap refresh time, or run at a lower frequency".into(),
             "sampling-window" => "shorten the shunt amplifier's settling or the ADC sampling time, use min-max zero sequence, or run at a lower frequency".into(),
             _ => String::new(),

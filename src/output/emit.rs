@@ -83,6 +83,7 @@ fn constraint_number(v: f64, unit: &str) -> String {
         "°C" => q(v, Dimension::Temperature, 3),
         "K" => q(v, Dimension::TemperatureDifference, 3),
         "A" => q(v, Dimension::Current, 3),
+        "V" => q(v, Dimension::Voltage, 3),
         "Hz" => q(v, Dimension::Frequency, 5),
         "Hz-margin" => q(v, Dimension::Frequency, 3),
         "s" => q(v, Dimension::Time, 3),

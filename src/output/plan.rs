@@ -315,6 +315,7 @@ fn worst_number(v: f64, unit: &str) -> String {
     match unit {
         "°C" => format_quantity(v, Dimension::Temperature, 3),
         "A" => format_quantity(v, Dimension::Current, 3),
+        "V" => format_quantity(v, Dimension::Voltage, 3),
         "W" => format_quantity(v, Dimension::Power, 3),
         "s" => format_quantity(v, Dimension::Time, 3),
         "" => format!("{:.1} %", 100.0 * v),
@@ -1187,7 +1188,11 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
     }
     .iter()
     .map(|s| match *s {
-        SWITCHING_ASSUMPTION => switching_assumption(&ev.stage.switch, ev.three_phase.is_some()),
+        SWITCHING_ASSUMPTION => format!(
+            "{}; {}",
+            switching_assumption(&ev.stage.switch, ev.three_phase.is_some()),
+            loop_assumption(&ev.stage.switch, ev.stage.drive.loop_inductance_h)
+        ),
         SWITCH_PARAMETERS_ASSUMPTION => {
             on_resistance_assumption(&ev.stage.switch, ev.stage.drive.v_drive_v)
         }
@@ -1241,6 +1246,26 @@ fn switching_assumption(
         (recovery_assumption(sw), forward_voltage_assumption(sw))
     };
     format!("{SWITCHING_ASSUMPTION}; {turn_off}; {recovery}; {dead_time}")
+}
+
+/// What the commutation-loop inductance does in the switching model.
+fn loop_assumption(
+    sw: &crate::model::physics::params::SwitchModel,
+    loop_inductance_h: f64,
+) -> String {
+    if loop_inductance_h > 0.0 {
+        let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
+            "the turn-off followed through the current's commutation into the partner, with the overshoot L·di/dt on the bus"
+        } else {
+            "the turn-off overshoot taken as L·I/t_fi at the gate-charge method's current fall (the switch file has no C_rss curve or no g_fs; high for a large loop)"
+        };
+        format!(
+            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint), and the turn-on's current rise less ½·L·I² (the loop's share of the voltage); the Miller swing at turn-on is still taken from the full bus voltage, so E_on is high with a large loop (on the safe side)",
+            format_quantity(loop_inductance_h, Dimension::Inductance, 3)
+        )
+    } else {
+        "stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted".to_string()
+    }
 }
 
 /// How the dead-time diode's forward voltage follows the current.

@@ -329,6 +329,13 @@ pub struct StageSpec {
     pub switch: SwitchRef,
     /// The freewheel diode across the motor (`low-side` only).
     pub freewheel_diode: Option<DiodeSpec>,
+    /// Commutation-loop inductance: the loop from the bus capacitor through
+    /// the switch and the partner (or freewheel diode) and back (optional).
+    #[serde(default)]
+    pub loop_inductance: Option<Q<Henry>>,
+    /// Share of V_DSS the turn-off peak must stay below (optional; 20 %).
+    #[serde(default)]
+    pub v_ds_margin: Option<Q<Ratio>>,
 }
 
 #[derive(Debug, Clone)]

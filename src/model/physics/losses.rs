@@ -194,6 +194,9 @@ pub struct DeviceLoss {
     /// Turn-off energy at the drain terminal: `e_off_j` plus the charge put
     /// into the switch's own output capacitance (`switching::Transitions`).
     pub e_off_terminal_j: f64,
+    /// Highest drain voltage at its hard turn-off (bus voltage plus the loop
+    /// inductance's overshoot); 0 without a hard turn-off.
+    pub v_peak_off_v: f64,
     /// Turn-on delay of the gate (RC model).
     pub t_delay_on_s: f64,
     /// Turn-off delay of the gate (RC model).
@@ -532,6 +535,11 @@ fn mosfet_loss(
         e_on_j: tr.e_on_j,
         e_off_j: tr.e_off_j,
         e_off_terminal_j: tr.e_off_terminal_j,
+        v_peak_off_v: if book.hard_off_a > 0.0 {
+            tr.v_peak_off_v
+        } else {
+            0.0
+        },
         t_delay_on_s: tr.t_d_on_s,
         t_delay_off_s: tr.t_d_off_s,
         partner_recovery_j: book.partner_rr_j,
@@ -718,6 +726,7 @@ fn low_side(
         e_on_j: 0.0,
         e_off_j: 0.0,
         e_off_terminal_j: 0.0,
+        v_peak_off_v: 0.0,
         t_delay_on_s: 0.0,
         t_delay_off_s: 0.0,
         partner_recovery_j: 0.0,

@@ -125,6 +125,11 @@ pub struct GateDrive {
     pub prop_delay_s: f64,
     /// Worst-case propagation-delay mismatch between the two drivers of a leg.
     pub mismatch_s: f64,
+    /// Commutation-loop inductance of the power stage around the switch
+    /// (bus capacitor, partner, switch), H; 0 when the board does not give
+    /// it. Kept with the drive because both are what the board puts around
+    /// each switch, and every edge computation takes them together.
+    pub loop_inductance_h: f64,
 }
 
 /// A discrete freewheel diode.
@@ -282,6 +287,7 @@ pub(crate) mod fixtures {
             r_ext_off_ohm: 3.0,
             prop_delay_s: 50e-9,
             mismatch_s: 10e-9,
+            loop_inductance_h: 0.0,
         }
     }
 

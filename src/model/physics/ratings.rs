@@ -408,6 +408,7 @@ mod tests {
             r_ext_off_ohm: 0.0,
             prop_delay_s: 0.0,
             mismatch_s: 0.0,
+            loop_inductance_h: 0.0,
         };
         let f = check_gate_driver_strength(&sw, &pin).unwrap();
         assert_eq!(f.code, "weak-gate-driver");

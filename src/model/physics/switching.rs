@@ -90,6 +90,10 @@ pub struct Transitions {
     /// switch's own output capacitance. Equal to `e_off_j` where the
     /// gate-charge method applies alone (no transconductance in the file).
     pub e_off_terminal_j: f64,
+    /// Highest drain voltage at turn-off: the bus voltage plus the loop
+    /// inductance's overshoot (the bus voltage without a loop inductance, or
+    /// where the node is not followed in time).
+    pub v_peak_off_v: f64,
 }
 
 /// What shares the switch node with the switch that turns off.
@@ -329,6 +333,7 @@ fn first_order(
         e_on_j: crossover_energy_j(v, i_on, t_ri, t_fv),
         e_off_j: crossover_energy_j(v, i_off, t_rv, t_fi),
         e_off_terminal_j: crossover_energy_j(v, i_off, t_rv, t_fi),
+        v_peak_off_v: v,
     })
 }
 
@@ -596,15 +601,42 @@ pub fn transitions_at(
     tr.t_fi_s = t_fi;
     tr.t_d_off_s = rc_time_s(tau_off_on_state, drive.v_drive_v, 0.0, v_plt_off);
     tr.t_fi_rc_s = rc_time_s(tau_off, v_plt_off, 0.0, sw.v_th_v.min(v_plt_off));
-    tr.e_on_j = crossover_energy_j(v, i_on, t_ri, 0.0) + e_fv;
+    let e_ri = crossover_energy_j(v, i_on, t_ri, 0.0);
+    tr.e_on_j = current_rise_with_loop_j(e_ri, drive.loop_inductance_h, i_on) + e_fv;
     tr.e_off_j = crossover_energy_j(v, i_off, 0.0, t_fi) + e_rv;
     tr.e_off_terminal_j = tr.e_off_j;
+    tr.v_peak_off_v = first_order_peak_v(v, drive.loop_inductance_h, i_off, t_fi);
     let gate_off_ohm = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)?;
-    if let Some(t) = shared_turn_off(sw, gate_off_ohm, v, i_off, r_ds_on_ohm, partner) {
+    let loop_h = drive.loop_inductance_h;
+    if let Some(t) = shared_turn_off(sw, gate_off_ohm, v, i_off, r_ds_on_ohm, partner, loop_h) {
         tr.e_off_j = t.e_channel_j;
         tr.e_off_terminal_j = t.e_terminal_j;
+        tr.v_peak_off_v = t.v_peak_v;
     }
     Ok(tr)
+}
+
+/// The turn-off peak where the node is not followed in time: V + L·I/t_fi,
+/// the loop's L·di/dt at the gate-charge method's mean current slope
+/// (common practice; it neglects the slowing of the fall by the overshoot
+/// itself, so it is high for a large loop).
+pub fn first_order_peak_v(v_bus_v: f64, loop_inductance_h: f64, i_a: f64, t_fi_s: f64) -> f64 {
+    if loop_inductance_h > 0.0 && t_fi_s > 0.0 {
+        v_bus_v + loop_inductance_h * i_a / t_fi_s
+    } else {
+        v_bus_v
+    }
+}
+
+/// The turn-on's current-rise energy with the loop inductance L: while the
+/// current rises the loop takes L·di/dt off the switch's voltage, so the
+/// switch dissipates ∫(V − L·di/dt)·i dt = E_ri − ½·L·I² for any current
+/// shape (the energy goes into the loop's field instead; own derivation from
+/// the energy balance, the turn-on voltage dip of Ren et al. 2006, §II), not
+/// below zero (a loop that takes the whole bus voltage leaves the rise
+/// lossless; the rise is then L-limited).
+pub fn current_rise_with_loop_j(e_ri_j: f64, loop_inductance_h: f64, i_a: f64) -> f64 {
+    (e_ri_j - 0.5 * loop_inductance_h * i_a * i_a).max(0.0)
 }
 
 /// The turn-off with capacitance sharing (`commutation::turn_off`), or
@@ -620,6 +652,7 @@ fn shared_turn_off(
     i_off_a: f64,
     r_ds_on_ohm: f64,
     partner: NodePartner,
+    loop_inductance_h: f64,
 ) -> Option<commutation::TurnOff> {
     let c_oss = OutputCapacitance::of_switch(sw);
     if sw.c_rss_curve.is_empty() {
@@ -637,6 +670,7 @@ fn shared_turn_off(
         v_bus_v,
         i_load_a: i_off_a,
         v_on_v: r_ds_on_ohm * i_off_a,
+        loop_inductance_h,
     })
 }
 
@@ -666,6 +700,18 @@ pub fn total_gate_charge_c(sw: &SwitchModel, v_drive_v: f64, v_plateau_v: f64) -
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The loop's share of the turn-on (½·L·I², hand numbers: 10 nH, 20 A
+    /// → 2 µJ) and the first-order turn-off peak (48 V + 5 nH·10 A/5 ns =
+    /// 58 V); neither moves anything without a loop.
+    #[test]
+    fn loop_inductance_by_hand() {
+        assert!((current_rise_with_loop_j(5e-6, 10e-9, 20.0) - 3e-6).abs() < 1e-18);
+        assert_eq!(current_rise_with_loop_j(1e-6, 10e-9, 20.0), 0.0);
+        assert_eq!(current_rise_with_loop_j(1e-6, 0.0, 20.0), 1e-6);
+        assert!((first_order_peak_v(48.0, 5e-9, 10.0, 5e-9) - 58.0).abs() < 1e-12);
+        assert_eq!(first_order_peak_v(48.0, 0.0, 10.0, 5e-9), 48.0);
+    }
     use crate::model::physics::params::fixtures::{
         Lcg, curved_switch, example_drive, example_switch,
     };
@@ -770,6 +816,7 @@ mod tests {
             r_ext_off_ohm: 0.0,
             prop_delay_s: 0.0,
             mismatch_s: 0.0,
+            loop_inductance_h: 0.0,
         };
         let tr = transitions(&sw, &drive, 12.0, 2.0, 2.0, 0.01).unwrap();
         let i_g = (3.3 - (1.5 + 2.0 / 20.0)) / 133.0;
