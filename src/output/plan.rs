@@ -1260,7 +1260,7 @@ fn loop_assumption(
             "the turn-off overshoot taken as L·I/t_fi at the gate-charge method's current fall (the switch file has no C_rss curve or no g_fs; high for a large loop)"
         };
         format!(
-            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint), and the turn-on's current rise less ½·L·I² (the loop's share of the voltage); the Miller swing at turn-on is still taken from the full bus voltage, so E_on is high with a large loop (on the safe side)",
+            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint); at turn-on the current rise less ½·L·I² (the loop's share of the voltage), and the partner's recovery and the voltage fall from the bus less the loop's L·di/dt (with a large loop the turn-on comes out nearly lossless, below what a circuit simulation shows, while the turn-off is high)",
             format_quantity(loop_inductance_h, Dimension::Inductance, 3)
         )
     } else {

@@ -1808,25 +1808,38 @@ pub fn circuit_summary(all: &[SwitchError]) -> String {
 /// range and E_on + E_off's median and worst |error|.
 pub fn loop_summary(all: &[SwitchError]) -> String {
     let with: Vec<&SwitchError> = all.iter().filter(|e| e.case.l_loop_h > 0.0).collect();
+    let range = |v: &[f64]| {
+        v.iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                (a.min(x), b.max(x))
+            })
+    };
     let peak: Vec<f64> = with
         .iter()
         .map(|e| e.pred.v_peak_off_v / e.meas.v_peak_off_v - 1.0)
         .collect();
     let e: Vec<f64> = with.iter().map(|e| e.e_err).collect();
-    let (lo, hi) = peak
+    let e_on: Vec<f64> = with
         .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-            (a.min(x), b.max(x))
-        });
+        .map(|e| 1e6 * (e.pred.e_on_j + e.pred.e_rr_j - e.meas.e_on_j))
+        .collect();
+    let e_off: Vec<f64> = with
+        .iter()
+        .map(|e| e.pred.e_off_j / e.meas.e_off_j - 1.0)
+        .collect();
+    let ((lo, hi), (on_lo, on_hi), (off_lo, off_hi)) = (range(&peak), range(&e_on), range(&e_off));
     format!(
         "With a commutation-loop inductance ({} cases, 2–10 nH): turn-off peak V_DS from {:+.1} % to {:+.1} %; \
-         E_on + E_off median |error| {:.1} %, worst {:.1} % (the turn-on's Miller swing is still taken from the \
-         full bus voltage, so E_on is high).\n",
+         E_on + E_off median |error| {:.1} %, worst {:.1} %; E_on off by {:+.2} to {:+.2} µJ, E_off by {:+.1} % to {:+.1} %.\n",
         with.len(),
         100.0 * lo,
         100.0 * hi,
         100.0 * median_abs(&e),
-        100.0 * e.iter().fold(0.0_f64, |a, x| a.max(x.abs()))
+        100.0 * e.iter().fold(0.0_f64, |a, x| a.max(x.abs())),
+        on_lo,
+        on_hi,
+        100.0 * off_lo,
+        100.0 * off_hi
     )
 }
 

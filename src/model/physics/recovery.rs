@@ -247,7 +247,8 @@ pub struct PartnerRecovery {
     /// Partner's output charge Q_oss(V), charged through the incoming switch.
     pub output_charge_c: f64,
     /// Energy dissipated in the incoming switch: (Q_stored + Q_junction)·V
-    /// (the node is held at the rail while they are removed) plus Q_oss·V − E_oss
+    /// (the node is held at the rail while they are removed; with a loop
+    /// inductance at the rail less the loop's dip) plus Q_oss·V − E_oss
     /// (charging the partner's output capacitance from the rail; E_oss stays
     /// in the partner until its own soft turn-on returns it to the load).
     pub switch_j: f64,
@@ -278,11 +279,22 @@ pub fn partner_recovery(
     let (q_oss, e_oss) = output_charge_memo(sw, v_bus_v);
     let law = law_memo(sw);
     let junction = junction_charge_c(sw, &law, i, slope, tau_s);
+    // With a loop inductance the switch holds the dipped voltage V_s while
+    // the partner recovers, and the node falls from V_s: the partner's output
+    // capacitance takes its charge from V − V_s to V through the switch,
+    // ∫ v·C_p dv = V·ΔQ_oss − ΔE_oss, the rest through the loop.
+    let v_s = switching::turn_on_fall_start_v(v_bus_v, drive.loop_inductance_h, i, t_ri);
+    let capacitive_j = if v_s < v_bus_v {
+        let (q_rest, e_rest) = output_charge_memo(sw, v_bus_v - v_s);
+        v_bus_v * (q_oss - q_rest) - (e_oss - e_rest)
+    } else {
+        q_oss * v_bus_v - e_oss
+    };
     Ok(PartnerRecovery {
         stored_c: stored,
         junction_c: junction,
         output_charge_c: q_oss,
-        switch_j: (stored + junction) * v_bus_v + (q_oss * v_bus_v - e_oss).max(0.0),
+        switch_j: (stored + junction) * v_s + capacitive_j.max(0.0),
         diode_j: 0.25 * stored * v_bus_v,
     })
 }

@@ -561,11 +561,15 @@ pub fn transitions_at(
     let q_fi = current_transition_charge_c(sw, v_plt_off)?;
     let t_ri = charge_time_s(q_ri, i_g_on).ok_or(bad.clone())?;
     let t_fi = charge_time_s(q_fi, i_g_off).ok_or(bad.clone())?;
-    let miller = |i: f64, v_plt: f64| {
-        let v_low = (r_ds_on_ohm * i).clamp(0.0, v);
-        miller_integrals(sw, v_low, v, v_plt)
+    let v_start_on = turn_on_fall_start_v(v, drive.loop_inductance_h, i_on, t_ri);
+    let miller = |i: f64, v_top: f64, v_plt: f64| {
+        let v_low = (r_ds_on_ohm * i).clamp(0.0, v_top);
+        miller_integrals(sw, v_low, v_top, v_plt)
     };
-    let (q_gd_on, q_gd_off, e_fv, e_rv) = match (miller(i_on, v_plt_on), miller(i_off, v_plt_off)) {
+    let (q_gd_on, q_gd_off, e_fv, e_rv) = match (
+        miller(i_on, v_start_on, v_plt_on),
+        miller(i_off, v, v_plt_off),
+    ) {
         (Some((q_on, w_on)), Some((q_off, w_off))) => (
             q_on,
             q_off,
@@ -573,14 +577,14 @@ pub fn transitions_at(
             miller_energy_j(i_off, w_off, i_g_off).ok_or(bad.clone())?,
         ),
         _ => {
-            let q_on = miller_charge_c(sw, v, i_on, r_ds_on_ohm);
+            let q_on = miller_charge_c(sw, v_start_on, i_on, r_ds_on_ohm);
             let q_off = miller_charge_c(sw, v, i_off, r_ds_on_ohm);
             let t_on = charge_time_s(q_on, i_g_on).ok_or(bad.clone())?;
             let t_off = charge_time_s(q_off, i_g_off).ok_or(bad.clone())?;
             (
                 q_on,
                 q_off,
-                crossover_energy_j(v, i_on, t_on, 0.0),
+                crossover_energy_j(v_start_on, i_on, t_on, 0.0),
                 crossover_energy_j(v, i_off, t_off, 0.0),
             )
         }
@@ -626,6 +630,20 @@ pub fn first_order_peak_v(v_bus_v: f64, loop_inductance_h: f64, i_a: f64, t_fi_s
     } else {
         v_bus_v
     }
+}
+
+/// The drain voltage a hard turn-on's voltage fall starts from: the bus
+/// less the loop's L·di/dt at the end of the current rise (di/dt = 2·I/t_ri,
+/// `recovery::turn_on_slope_a_per_s`), not below zero. Once the partner's
+/// diode stops conducting the node is held only by its capacitances, so the
+/// Miller fall starts where the dip left it (own derivation from the node
+/// equations; the loop's dip at turn-on is the circuit of Ren et al. 2006,
+/// §II). The bus itself without a loop.
+pub fn turn_on_fall_start_v(v_bus_v: f64, loop_inductance_h: f64, i_a: f64, t_ri_s: f64) -> f64 {
+    if !(loop_inductance_h > 0.0 && t_ri_s > 0.0) {
+        return v_bus_v;
+    }
+    (v_bus_v - loop_inductance_h * 2.0 * i_a.abs() / t_ri_s).max(0.0)
 }
 
 /// The turn-on's current-rise energy with the loop inductance L: while the
@@ -711,6 +729,10 @@ mod tests {
         assert_eq!(current_rise_with_loop_j(1e-6, 0.0, 20.0), 1e-6);
         assert!((first_order_peak_v(48.0, 5e-9, 10.0, 5e-9) - 58.0).abs() < 1e-12);
         assert_eq!(first_order_peak_v(48.0, 0.0, 10.0, 5e-9), 48.0);
+        // The fall starts 48 V − 5 nH·2·10 A/4 ns = 23 V; floored at 0 V.
+        assert!((turn_on_fall_start_v(48.0, 5e-9, 10.0, 4e-9) - 23.0).abs() < 1e-12);
+        assert_eq!(turn_on_fall_start_v(48.0, 50e-9, 10.0, 4e-9), 0.0);
+        assert_eq!(turn_on_fall_start_v(48.0, 0.0, 10.0, 4e-9), 48.0);
     }
     use crate::model::physics::params::fixtures::{
         Lcg, curved_switch, example_drive, example_switch,
