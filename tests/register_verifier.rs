@@ -180,6 +180,16 @@ fn board_text(r: &mut Rng, topology: &str, modulation: &str, three_phase: bool) 
     } else {
         String::new()
     };
+    // A commutation-loop inductance on every third clock value, derived from
+    // the clock rather than drawn, so the other draws stay as they were.
+    let loop_line = if (clock_mhz as u64).is_multiple_of(3) {
+        format!(
+            "\n    loop_inductance: \"{} nH\"",
+            2 + (clock_mhz as u64) % 9
+        )
+    } else {
+        String::new()
+    };
     let sensing = if three_phase {
         format!(
             "\n  current_sensing: {{ settle_time: \"{:.2} us\", sample_time: \"{:.2} us\" }}",
@@ -202,7 +212,7 @@ fn board_text(r: &mut Rng, topology: &str, modulation: &str, three_phase: bool) 
     fpu: {fpu}
   stage:
     topology: {topology}{modulation_line}
-    switch: switch.yaml{freewheel}
+    switch: switch.yaml{freewheel}{loop_line}
   gate_driver:
     supply: "{v_drv:.1} V"
     source: "{r_src:.2} ohm"
