@@ -1190,7 +1190,11 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
     .map(|s| match *s {
         SWITCHING_ASSUMPTION => format!(
             "{}; {}",
-            switching_assumption(&ev.stage.switch, ev.three_phase.is_some()),
+            switching_assumption(
+                &ev.stage.switch,
+                ev.three_phase.is_some(),
+                ev.stage.topology == Topology::LowSide
+            ),
             loop_assumption(&ev.stage.switch, ev.stage.drive.loop_inductance_h)
         ),
         SWITCH_PARAMETERS_ASSUMPTION => {
@@ -1231,12 +1235,19 @@ fn on_resistance_assumption(
 fn switching_assumption(
     sw: &crate::model::physics::params::SwitchModel,
     three_phase: bool,
+    low_side: bool,
 ) -> String {
     let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
         "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises"
     } else {
         "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
     };
+    if low_side {
+        // No bridge partner and no dead time: only the freewheel diode recovers.
+        return format!(
+            "{SWITCHING_ASSUMPTION}; {turn_off}; the freewheel diode's recovery at its datasheet Q_rr"
+        );
+    }
     let (recovery, dead_time) = if three_phase {
         (
             "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string(),
@@ -1315,7 +1326,7 @@ fn recovery_assumption(sw: &crate::model::physics::params::SwitchModel) -> Strin
         format!("no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of {given})")
     };
     format!(
-        "bridge partner's recovery: {stored}, plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr"
+        "bridge partner's recovery: {stored}, plus charging its output capacitance (Q_oss·V − E_oss)"
     )
 }
 

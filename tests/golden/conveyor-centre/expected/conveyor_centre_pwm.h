@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:1a9ebf58fecf64f46e70d3c4fbfabf8a2e068564c40fa7506162fd46dd330f74)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:0b406c80228aca46db664ab4bc9f490ba556252ac4b3c6b447b8d902cdba3d31)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -67,7 +67,7 @@
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
- *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); a low-side stage's freewheel diode at its datasheet Q_rr; dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
  *   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
  *   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
  *   - devices thermally independent, each with the board's junction-to-ambient path
