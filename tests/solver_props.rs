@@ -351,15 +351,27 @@ fn every_listed_candidate(ev: &Evaluator) -> Vec<Candidate> {
 }
 
 /// Whether the feasible settings of the solver's list (frequency order) do
-/// not form one run.
-fn scattered(listed: &[Candidate]) -> bool {
+/// not form one run, or the feasible frequencies of every setting are not
+/// the list's (a frequency feasible only at a divider the list does not
+/// take, the list's own setting failing: an island off the list).
+fn scattered(listed: &[Candidate], all: &[Candidate]) -> bool {
     let runs = listed
         .iter()
         .zip(listed.iter().skip(1))
         .filter(|(a, b)| !a.feasible && b.feasible)
         .count()
         + usize::from(listed.first().is_some_and(|c| c.feasible));
-    runs > 1
+    let feasible_frequencies = |v: &[Candidate]| {
+        let mut f: Vec<u64> = v
+            .iter()
+            .filter(|c| c.feasible)
+            .map(|c| c.setting.frequency_hz.to_bits())
+            .collect();
+        f.sort_unstable();
+        f.dedup();
+        f
+    };
+    runs > 1 || feasible_frequencies(listed) != feasible_frequencies(all)
 }
 
 /// What the grid path is held to, beyond soundness.
@@ -381,7 +393,7 @@ fn check_case(
 ) -> Result<(), TestCaseError> {
     let expected = brute_force(c.objective, all);
     let scope = Scope {
-        scattered: scattered(listed),
+        scattered: scattered(listed, all),
         quietest_grid_exact,
     };
     let exhaustive = solve::solve_with(ev, c.objective, Search::default());
@@ -452,6 +464,46 @@ fn quietest_grid_floor_misses_the_least_loss() {
         chosen.setting.frequency_hz,
         chosen.rated.losses.total,
     );
+}
+
+/// Regression found by `solver_matches_brute_force` (CI run of 2026-12-03):
+/// the belt feeder on a 10.001 MHz, 8-bit, centre-only timer with dividers
+/// 4–6, 31.10–51.03 kHz, R × 0.643, quietest. Every setting of the solver's
+/// list (the most duty steps per frequency, divider 4 or 5) fails the duty
+/// range; some frequencies pass at divider 6 only, islands off the list that
+/// the grid path may step over (32 054 Hz chosen, 34 726 Hz the brute
+/// force's). That is outside the grid path's promise, so the case is judged
+/// scattered and held to soundness: a feasible answer that is feasible.
+#[test]
+fn quietest_grid_path_case_of_2026_12_03() {
+    let c = Case {
+        design: 2,
+        clock_hz: 10_001_000.0,
+        counter_bits: 8,
+        prescaler: Prescaler::Linear {
+            min_divider: 4,
+            max_divider: 6,
+            register_offset: 1,
+        },
+        alignments: vec![Alignment::Centre],
+        l_scale: 1.0,
+        r_scale: 0.642_663_441_069_945_6,
+        ripple_share: None,
+        t_j_shift_k: 0.0,
+        min_resolution_bits: None,
+        f_min_hz: 31_103.576_920_772_19,
+        f_max_hz: 51_027.194_069_927_3,
+        objective: Objective::Quietest,
+    };
+    let ev = perturbed(&c);
+    let (all, listed) = (every_candidate(&ev), every_listed_candidate(&ev));
+    assert!(
+        listed.iter().all(|k| !k.feasible) && all.iter().any(|k| k.feasible),
+        "premise"
+    );
+    assert!(scattered(&listed, &all));
+    check_case(&c, &ev, &all, &listed, true)
+        .expect("sound on the grid path, exact on the exhaustive one");
 }
 
 // -------------------------------------------------------------------------------------------
