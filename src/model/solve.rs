@@ -763,7 +763,7 @@ fn turn_off_peak_check(v_max_v: f64, rated: &CaseResult, high_bus: &CaseResult) 
         r.devices
             .iter()
             .filter_map(|d| d.v_peak_off_v)
-            .fold(None, |a: Option<f64>, v| Some(a.map_or(v, |a| a.max(v))))
+            .reduce(f64::max)
     };
     let (case, value) = match (peak(rated), peak(high_bus)) {
         (Some(a), Some(b)) if a > b => (rated, Some(a)),

@@ -1237,7 +1237,7 @@ fn switching_assumption(
     three_phase: bool,
     low_side: bool,
 ) -> String {
-    let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
+    let turn_off = if crate::model::physics::switching::turn_off_followed(sw) {
         "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises"
     } else {
         "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
@@ -1265,7 +1265,7 @@ fn loop_assumption(
     loop_inductance_h: f64,
 ) -> String {
     if loop_inductance_h > 0.0 {
-        let turn_off = if sw.g_fs_s.is_some() && !sw.c_rss_curve.is_empty() {
+        let turn_off = if crate::model::physics::switching::turn_off_followed(sw) {
             "the turn-off followed through the current's commutation into the partner, with the overshoot L·di/dt on the bus"
         } else {
             "the turn-off overshoot taken as L·I/t_fi at the gate-charge method's current fall (the switch file has no C_rss curve or no g_fs; high for a large loop)"

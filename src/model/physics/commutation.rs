@@ -215,7 +215,12 @@ fn node_capacitances(
 fn rates(c: &TurnOffCircuit<'_>, crss: &CrssCurve, x: f64, y: f64) -> (f64, f64) {
     let (c_gs, c_gd, c_node) = node_capacitances(c, crss, x, y);
     let b_drain = c.i_load_a - c.channel.current_a(y);
-    let b_gate = -y / c.r_gate_ohm;
+    node_rates((c_gs, c_gd, c_node), b_drain, -y / c.r_gate_ohm)
+}
+
+/// The drain and gate equations, (C_node + C_gd)·ẋ − C_gd·ẏ = `b_drain` and
+/// −C_gd·ẋ + (C_gs + C_gd)·ẏ = `b_gate`, solved for (ẋ, ẏ) (Cramer's rule).
+fn node_rates((c_gs, c_gd, c_node): (f64, f64, f64), b_drain: f64, b_gate: f64) -> (f64, f64) {
     let det = c_node * c_gs + c_node * c_gd + c_gd * c_gs;
     let x_dot = (b_drain * (c_gs + c_gd) + c_gd * b_gate) / det;
     let y_dot = ((c_node + c_gd) * b_gate + c_gd * b_drain) / det;
@@ -303,13 +308,9 @@ fn clamped_fall_with_loop(c: &TurnOffCircuit<'_>, crss: &CrssCurve, y0_v: f64) -
     let (v, i_l, l) = (c.v_bus_v, c.i_load_a, c.loop_inductance_h);
     let c_gs = c_gs_f(c.switch);
     let rates = |x: f64, y: f64, z: f64| {
-        let c_gd = crss.c_gd_f((x - y).max(0.0));
-        let c_node = c.c_oss.c_ds_f(x);
+        let caps = (c_gs, crss.c_gd_f((x - y).max(0.0)), c.c_oss.c_ds_f(x));
         let b_drain = i_l - c.channel.current_a(y) - z;
-        let b_gate = -y / c.r_gate_ohm;
-        let det = c_node * c_gs + c_node * c_gd + c_gd * c_gs;
-        let x_dot = (b_drain * (c_gs + c_gd) + c_gd * b_gate) / det;
-        let y_dot = ((c_node + c_gd) * b_gate + c_gd * b_drain) / det;
+        let (x_dot, y_dot) = node_rates(caps, b_drain, -y / c.r_gate_ohm);
         (x_dot, y_dot, (x - v) / l)
     };
     // Step: a fraction of the loop's own period with the switch's output

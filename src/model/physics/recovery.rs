@@ -2,9 +2,10 @@
 //! really sees.
 //!
 //! Owns: the charge-control diode, its recovered charge under a constant
-//! current slope, the transit time fitted to the datasheet's Q_rr test, the
-//! current slope of a hard turn-on, and the energy a hard turn-on draws from
-//! the recovering partner (stored charge and the partner's output charge).
+//! current slope, the transit time fitted to the datasheet's Q_rr test
+//! (with the junction's forward charge), and the energy a hard turn-on draws
+//! from the recovering partner (stored and junction charge and the partner's
+//! output charge) at the slope `switching::turn_on_slope_a_per_s` gives.
 //!
 //! Why: a datasheet Q_rr is measured at one slow slope (typically 100 A/µs)
 //! and, for a MOSFET body diode, is mostly the output capacitance's charge. At
@@ -176,7 +177,7 @@ fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
         static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(Vec::new()) };
     }
     remembered(&MEMO, sw, v_v.to_bits(), || {
-        let law = OutputCapacitance::of_switch(sw);
+        let law = law_memo(sw);
         (law.charge_c(sw, v_v), law.energy_j(sw, v_v))
     })
 }
@@ -222,20 +223,6 @@ fn remembered<T: Copy>(
     x
 }
 
-/// Current slope at the end of a hard turn-on's current rise, A/s:
-/// 2·I/t_ri. Under the gate-charge model's constant gate current the gate
-/// voltage ramps linearly through the current rise, and a square-law channel
-/// (I ∝ (V_GS − V_th)², Sze, Ng, *Physics of Semiconductor Devices*, 3rd ed.,
-/// 2007, ch. 6, from memory) then reaches I with twice its mean slope (own
-/// derivation). The recovery happens at that slope, not the mean one.
-pub fn turn_on_slope_a_per_s(i_a: f64, t_ri_s: f64) -> f64 {
-    if t_ri_s > 0.0 {
-        2.0 * i_a.abs() / t_ri_s
-    } else {
-        f64::INFINITY
-    }
-}
-
 /// Energy of one hard turn-on against a recovering bridge partner.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct PartnerRecovery {
@@ -274,7 +261,7 @@ pub fn partner_recovery(
         return Ok(PartnerRecovery::default());
     }
     let t_ri = switching::current_rise_time_s(sw, drive, i)?;
-    let slope = turn_on_slope_a_per_s(i, t_ri);
+    let slope = switching::turn_on_slope_a_per_s(i, t_ri);
     let stored = recovered_charge_c(i, slope, tau_s);
     let (q_oss, e_oss) = output_charge_memo(sw, v_bus_v);
     let law = law_memo(sw);
@@ -416,11 +403,5 @@ mod tests {
             let t_ri = switching::current_rise_time_s(&sw, &drive, i).unwrap();
             assert_eq!(t_ri, tr.t_ri_s, "{i} A");
         }
-    }
-
-    #[test]
-    fn turn_on_slope_is_twice_the_mean() {
-        assert_eq!(turn_on_slope_a_per_s(10.0, 5e-9), 4e9);
-        assert!(turn_on_slope_a_per_s(10.0, 0.0).is_infinite());
     }
 }

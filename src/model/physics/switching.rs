@@ -632,9 +632,24 @@ pub fn first_order_peak_v(v_bus_v: f64, loop_inductance_h: f64, i_a: f64, t_fi_s
     }
 }
 
+/// Current slope at the end of a hard turn-on's current rise, A/s:
+/// 2·I/t_ri. Under the gate-charge model's constant gate current the gate
+/// voltage ramps linearly through the current rise, and a square-law channel
+/// (I ∝ (V_GS − V_th)², Sze, Ng, *Physics of Semiconductor Devices*, 3rd ed.,
+/// 2007, ch. 6, from memory) then reaches I with twice its mean slope (own
+/// derivation). The partner recovers, and the loop's dip peaks, at that
+/// slope, not the mean one.
+pub fn turn_on_slope_a_per_s(i_a: f64, t_ri_s: f64) -> f64 {
+    if t_ri_s > 0.0 {
+        2.0 * i_a.abs() / t_ri_s
+    } else {
+        f64::INFINITY
+    }
+}
+
 /// The drain voltage a hard turn-on's voltage fall starts from: the bus
 /// less the loop's L·di/dt at the end of the current rise (di/dt = 2·I/t_ri,
-/// `recovery::turn_on_slope_a_per_s`), not below zero. Once the partner's
+/// [`turn_on_slope_a_per_s`]), not below zero. Once the partner's
 /// diode stops conducting the node is held only by its capacitances, so the
 /// Miller fall starts where the dip left it (own derivation from the node
 /// equations; the loop's dip at turn-on is the circuit of Ren et al. 2006,
@@ -643,7 +658,7 @@ pub fn turn_on_fall_start_v(v_bus_v: f64, loop_inductance_h: f64, i_a: f64, t_ri
     if !(loop_inductance_h > 0.0 && t_ri_s > 0.0) {
         return v_bus_v;
     }
-    (v_bus_v - loop_inductance_h * 2.0 * i_a.abs() / t_ri_s).max(0.0)
+    (v_bus_v - loop_inductance_h * turn_on_slope_a_per_s(i_a, t_ri_s)).max(0.0)
 }
 
 /// The turn-on's current-rise energy with the loop inductance L: while the
@@ -672,10 +687,10 @@ fn shared_turn_off(
     partner: NodePartner,
     loop_inductance_h: f64,
 ) -> Option<commutation::TurnOff> {
-    let c_oss = OutputCapacitance::of_switch(sw);
-    if sw.c_rss_curve.is_empty() {
+    if !turn_off_followed(sw) {
         return None;
     }
+    let c_oss = OutputCapacitance::of_switch(sw);
     commutation::turn_off(&commutation::TurnOffCircuit {
         switch: sw,
         c_oss,
@@ -690,6 +705,12 @@ fn shared_turn_off(
         v_on_v: r_ds_on_ohm * i_off_a,
         loop_inductance_h,
     })
+}
+
+/// Whether the turn-off is followed at the switch node (`shared_turn_off`):
+/// the switch file needs a C_rss curve and a channel law (g_fs).
+pub fn turn_off_followed(sw: &SwitchModel) -> bool {
+    !sw.c_rss_curve.is_empty() && commutation::ChannelLaw::of_switch(sw).is_some()
 }
 
 /// Total gate charge at the actual drive voltage.
@@ -722,6 +743,12 @@ mod tests {
     /// The loop's share of the turn-on (½·L·I², hand numbers: 10 nH, 20 A
     /// → 2 µJ) and the first-order turn-off peak (48 V + 5 nH·10 A/5 ns =
     /// 58 V); neither moves anything without a loop.
+    #[test]
+    fn turn_on_slope_is_twice_the_mean() {
+        assert_eq!(turn_on_slope_a_per_s(10.0, 5e-9), 4e9);
+        assert!(turn_on_slope_a_per_s(10.0, 0.0).is_infinite());
+    }
+
     #[test]
     fn loop_inductance_by_hand() {
         assert!((current_rise_with_loop_j(5e-6, 10e-9, 20.0) - 3e-6).abs() < 1e-18);
