@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:aba09c1b7b56289d2a834d9273c499908c3d266a725cb0cf84b8a4bfdd5bcefa)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:8c847ba8e0f6815284b077fa0555e66184538bacb38b228f070f0d6c14318525)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -9,8 +9,8 @@
 //!   frequency      20.005 kHz, edge-aligned
 //!   timer          clock 88.00 MHz; divider 1 (register 0); period 4399 ticks (register 4398)
 //!   resolution     4399 duty steps (12.1 bits)
-//!   dead time      159 ns = 14 ticks (code 0x0E); needed 152 ns
-//!   duty limits    compare 41 to 4341 (0.9 % to 98.7 %); the load needs 67.6 % to 94.5 %
+//!   dead time      148 ns = 13 ticks (code 0x0D); needed 142 ns
+//!   duty limits    compare 40 to 4342 (0.9 % to 98.7 %); the load needs 67.5 % to 94.4 %
 //!   feasible band  20.005 kHz to 59.986 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
@@ -19,19 +19,19 @@
 //!   ripple                 875 mA      363 mA     512 mA  ok
 //!   audible            20.000 kHz  20.005 kHz    4.55 Hz  binds
 //!   resolution         10.00 bits  12.10 bits  2.10 bits  ok
-//!   dead-time              159 ns      152 ns    6.69 ns  ok
-//!   duty-range            98.68 %     94.46 %     4.22 %  ok
+//!   dead-time              148 ns      142 ns    5.62 ns  ok
+//!   duty-range            98.70 %     94.43 %     4.27 %  ok
 //!   frequency-band     16.000 kHz  20.005 kHz   4.00 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
-//!   switching            11.3 mW
+//!   switching            11.4 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     17.3 mW
-//!   dead-time diode      17.8 mW
+//!   dead-time diode      12.5 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.95 mW
-//!   total                124 mW
+//!   total                119 mW
 //!
 //! Operating figures
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
@@ -43,30 +43,30 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    58.0 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  199 mW; ok; hot: V_th max, supply 28.0 V
+//!   total-loss  194 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
-//!   duty-range  94.48 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
-//!   dead-time   needs 152 ns against 159 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   duty-range  94.45 % (limit 98.70 %); ok; hot: V_th min, supply 20.0 V
+//!   dead-time   needs 142 ns against 148 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses         shortest high-side pulse 307 ns at COMPARE_MIN, shortest low-side on-time 500 ns at COMPARE_MAX (minimum pulse 300 ns, bootstrap refresh 500 ns)
-//!   rated case     at compare duty 78.769 %: mean current 3.500 A (plan 3.500 A), ripple 238.9 mA peak to peak (plan 238.9 mA)
-//!   high-bus case  at compare duty 67.562 %: mean current 3.500 A (plan 3.500 A), ripple 362.9 mA peak to peak (plan 362.9 mA)
+//!   rated case     at compare duty 78.745 %: mean current 3.500 A (plan 3.500 A), ripple 238.8 mA peak to peak (plan 238.8 mA)
+//!   high-bus case  at compare duty 67.538 %: mean current 3.500 A (plan 3.500 A), ripple 362.9 mA peak to peak (plan 362.9 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +86 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +174 mW total loss, +2.1 K junction, -242 mA ripple, -1.58 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +81 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
+//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +164 mW total loss, +2.1 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
 //!   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
-//!   info     the dead time costs about 76.4 mV of mean output voltage (0.32 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+//!   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
@@ -83,7 +83,7 @@
 //! Inputs
 //!   bundled:belt-feeder       sha256 0a75bcad2ef15770c4e8a7b7072280ce2bb4d02a1819af6aaa6e072842040e9e
 //!   bundled:wren-hb24         sha256 38d1a65b1e934eebd35e6be6a01ac800ee2ae0753edd1982503afa734ca03aa9
-//!   bundled:switches/tarn-40  sha256 65fe38e698ace845d7822572e48d625d82363a235768117d358b3c7b9b9e6928
+//!   bundled:switches/tarn-40  sha256 66aba222e61d260002fdcede0161454058188910c18dad97d78c8e4682537e11
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
 //!
@@ -97,7 +97,7 @@
 //!   3. Period register (counter top) <- PERIOD_REG (4399 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
-//!   6. Dead-time register <- DEAD_TIME_CODE (14 ticks, 159.1 ns); write it before the complementary outputs are ever enabled.
+//!   6. Dead-time register <- DEAD_TIME_CODE (13 ticks, 147.7 ns); write it before the complementary outputs are ever enabled.
 //!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
 //!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
 //!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
@@ -120,14 +120,14 @@ pub const CENTRE_ALIGNED: bool = false;
 pub const FREQUENCY_MILLIHZ: u64 = 20004546;
 /// Compare value for 100 % on.
 pub const DUTY_STEPS: u32 = 4399;
-/// Dead-time register code (159.1 ns).
-pub const DEAD_TIME_CODE: u32 = 0x0E;
+/// Dead-time register code (147.7 ns).
+pub const DEAD_TIME_CODE: u32 = 0x0D;
 /// Dead-time ticks the code gives.
-pub const DEAD_TIME_TICKS: u32 = 14;
+pub const DEAD_TIME_TICKS: u32 = 13;
 /// Smallest non-zero compare value allowed.
-pub const COMPARE_MIN: u32 = 41;
+pub const COMPARE_MIN: u32 = 40;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 4341;
+pub const COMPARE_MAX: u32 = 4342;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the low side on, braking a turning motor, once enabled).
 pub const INIT_COMPARE: u32 = 0;

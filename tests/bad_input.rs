@@ -2103,7 +2103,7 @@ fn gate_charge_at_v_gs_above_v_gs_max() {
         )],
         r#"
 error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 25.0 V is above v_gs_max (20.0 V); expected the gate voltage of the datasheet's gate-charge figure, within the gate rating
- 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "25 V" }
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "25 V", at_i_d: "50 A" }
     |                                               ^
 "#,
     );
@@ -2735,7 +2735,7 @@ fn gate_charge_at_v_gs_below_the_plateau() {
         )],
         r#"
 error: switches/tarn-40.yaml:13:47: switch.q_g.at_v_gs: 1.00e-30 V is not above the plateau 4.40 V; expected the drive voltage of the datasheet's total gate charge, above the Miller plateau
- 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "1e-30 V" }
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "1e-30 V", at_i_d: "50 A" }
     |                                               ^
 "#,
     );
@@ -2812,13 +2812,13 @@ fn gate_charge_test_voltage_above_v_dss() {
         "belt-feeder.yaml",
         &[case(
             "switches/tarn-40.yaml",
-            "at_v_gs: \"10 V\" }\n  q_gs",
-            "at_v_gs: \"10 V\", at_v_ds: \"60 V\" }\n  q_gs",
+            "at_v_gs: \"10 V\", at_i_d: \"50 A\" }\n  q_gs",
+            "at_v_gs: \"10 V\", at_i_d: \"50 A\", at_v_ds: \"60 V\" }\n  q_gs",
         )],
         r#"
-error: switches/tarn-40.yaml:13:64: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
- 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_v_ds: "60 V" }
-    |                                                                ^
+error: switches/tarn-40.yaml:13:80: switch.q_g.at_v_ds: 60.0 V is out of range; expected above 0.00 V and at most 40.0 V
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_i_d: "50 A", at_v_ds: "60 V" }
+    |                                                                                ^
 "#,
     );
 }
@@ -2945,6 +2945,24 @@ fn loop_inductance_out_of_range() {
 error: heron-hb48.yaml:18:22: board.stage.loop_inductance: 5.00 µH is out of range; expected above 0.00 H and at most 1.00 µH
  18 |     loop_inductance: "5 uH"
     |                      ^
+"#,
+    );
+}
+
+/// The gate-charge test current: a negative current is no test point.
+#[test]
+fn gate_charge_test_current_negative() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "switches/tarn-40.yaml",
+            r#"at_i_d: "50 A""#,
+            r#"at_i_d: "-50 A""#,
+        )],
+        r#"
+error: switches/tarn-40.yaml:13:63: switch.q_g.at_i_d: -50.0 A is out of range; expected above 0.00 A and at most 10.0 kA
+ 13 |   q_g: { typ: "58 nC", max: "76 nC", at_v_gs: "10 V", at_i_d: "-50 A" }
+    |                                                               ^
 "#,
     );
 }

@@ -446,6 +446,10 @@ fn check_switch_gate_charge(s: &SwitchSpec, c: &Check) -> Result<(), InputError>
         return Err(c.fail("q_g.max", "max is below typ; expected max ≥ typ"));
     }
     c.within("q_g.at_v_gs", s.q_g.at_v_gs.si, 0.0, 30.0, V)?;
+    if let Some(i) = s.q_g.at_i_d {
+        // Bound of our own choice: 0 < I ≤ 10 kA.
+        c.within("q_g.at_i_d", i.si, 0.0, 1e4, A)?;
+    }
     if let Some(v) = s.q_g.at_v_ds {
         c.within("q_g.at_v_ds", v.si, 0.0, s.v_dss.si, V)?;
     }

@@ -260,6 +260,7 @@ fn switch_model_as_written(s: &SwitchSpec) -> SwitchModel {
         v_plateau_v: s.v_plateau.map(|v| v.si),
         q_g_c: s.q_g.typ.si,
         q_g_at_v_gs_v: s.q_g.at_v_gs.si,
+        q_g_at_i_d_a: s.q_g.at_i_d.map(|i| i.si),
         q_gs_c: s.q_gs.typ.si,
         q_gd_c: s.q_gd.typ.si,
         q_g_th_c: s.q_g_th.map(|q| q.si),

@@ -1251,7 +1251,7 @@ fn switching_assumption(
     let (recovery, dead_time) = if three_phase {
         (
             "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string(),
-            "dead-time diode conduction at the datasheet V_sd whatever the current (the single-phase stages' V_sd(I) is not yet applied to the three-phase bridge)".to_string(),
+            "dead-time diode conduction for the whole dead time at the datasheet V_sd whatever the current (the single-phase stages' V_sd(I) and diode share of the dead time are not yet applied to the three-phase bridge)".to_string(),
         )
     } else {
         (recovery_assumption(sw), forward_voltage_assumption(sw))
@@ -1265,13 +1265,19 @@ fn loop_assumption(
     loop_inductance_h: f64,
 ) -> String {
     if loop_inductance_h > 0.0 {
-        let turn_off = if crate::model::physics::switching::turn_off_followed(sw) {
-            "the turn-off followed through the current's commutation into the partner, with the overshoot L·di/dt on the bus"
+        let (turn_off, turn_on) = if crate::model::physics::switching::turn_off_followed(sw) {
+            (
+                "the turn-off followed through the current's commutation into the partner, with the overshoot L·di/dt on the bus",
+                "the turn-on's current rise followed in time against the loop (the drain's dip L·di/dt, slowed by the gate's Miller feedback); the partner recovers at the slope the rise ends with and the voltage falls from where the dip left the drain",
+            )
         } else {
-            "the turn-off overshoot taken as L·I/t_fi at the gate-charge method's current fall (the switch file has no C_rss curve or no g_fs; high for a large loop)"
+            (
+                "the turn-off overshoot taken as L·I/t_fi at the gate-charge method's current fall (the switch file has no C_rss curve or no g_fs; high for a large loop)",
+                "at turn-on the gate-charge current rise less ½·L·I² (the loop's share of the voltage), and the partner's recovery and the voltage fall from the bus less L·2I/t_ri (with a large loop the turn-on comes out nearly lossless, below what a circuit simulation shows)",
+            )
         };
         format!(
-            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint); at turn-on the current rise less ½·L·I² (the loop's share of the voltage), and the partner's recovery and the voltage fall from the bus less the loop's L·di/dt (with a large loop the turn-on comes out nearly lossless, below what a circuit simulation shows, while the turn-off is high)",
+            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint); {turn_on}",
             format_quantity(loop_inductance_h, Dimension::Inductance, 3)
         )
     } else {
@@ -1279,11 +1285,16 @@ fn loop_assumption(
     }
 }
 
+/// How long the dead-time diode conducts (`dead_time_diode`).
+const DIODE_SHARE: &str = "dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time)";
+
 /// How the dead-time diode's forward voltage follows the current.
 fn forward_voltage_assumption(sw: &crate::model::physics::params::SwitchModel) -> String {
     use crate::model::physics::forward;
     if sw.v_sd_curve.len() >= 2 {
-        return "dead-time diode conduction for the whole dead time at V_sd(I) from the switch file's v_sd_curve (interpolated in ln I)".to_string();
+        return format!(
+            "{DIODE_SHARE} at V_sd(I) from the switch file's v_sd_curve (interpolated in ln I)"
+        );
     }
     let i_test = format_quantity(forward::v_sd_test_current_a(sw), Dimension::Current, 3);
     let source = if sw.v_sd_test_a.is_some() {
@@ -1294,7 +1305,7 @@ fn forward_voltage_assumption(sw: &crate::model::physics::params::SwitchModel) -
         "assumed: the rated I_D; the switch file gives no body_diode.v_sd_at"
     };
     format!(
-        "dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at {i_test} ({source}), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it"
+        "{DIODE_SHARE} at V_sd(I): the datasheet V_sd at {i_test} ({source}), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it"
     )
 }
 
@@ -1319,7 +1330,7 @@ fn recovery_assumption(sw: &crate::model::physics::params::SwitchModel) -> Strin
     };
     let stored = if tau > 0.0 {
         format!(
-            "a charge-control body diode with transit time {} fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of {given} (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri)",
+            "a charge-control body diode with transit time {} fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of {given} (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri; with a loop inductance the slope its followed current rise ends with)",
             q(tau, Dimension::Time)
         )
     } else {

@@ -113,6 +113,11 @@ pub struct GateChargeSpec {
     /// is reconciled with Q_gd over that swing.
     #[serde(default)]
     pub at_v_ds: Option<Q<Volt>>,
+    /// Drain current of the datasheet's gate-charge test (optional): the
+    /// current the plateau `v_plateau` holds at. With `g_fs` it fixes the
+    /// channel's square law through that point.
+    #[serde(default)]
+    pub at_i_d: Option<Q<Ampere>>,
 }
 
 #[derive(Debug, Clone, Deserialize)]

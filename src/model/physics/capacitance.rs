@@ -352,6 +352,61 @@ fn gd_integrals(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
     miller_integrals(sw, 0.0, v_v, 0.0).unwrap_or((sw.c_rss_f * v_v, 0.5 * sw.c_rss_f * v_v * v_v))
 }
 
+/// (Q_oss(V), E_oss(V)) of the switch's output-capacitance law, remembered per
+/// thread (exactly the law's figures): fitting the law and
+/// integrating the C_rss curve at every edge of every loss evaluation would
+/// cost the search an order of magnitude in time.
+pub fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
+    thread_local! {
+        static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    remembered(&MEMO, sw, v_v.to_bits(), || {
+        let law = law_memo(sw);
+        (law.charge_c(sw, v_v), law.energy_j(sw, v_v))
+    })
+}
+
+/// The switch's output-capacitance law, remembered per thread.
+pub fn law_memo(sw: &SwitchModel) -> OutputCapacitance {
+    thread_local! {
+        static MEMO: Memo<OutputCapacitance> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    remembered(&MEMO, sw, 0, || OutputCapacitance::of_switch(sw))
+}
+
+/// A thread's recent results, each with the switch and the bits of the
+/// number it was computed for.
+pub type Memo<T> = std::cell::RefCell<Vec<(SwitchModel, u64, T)>>;
+
+/// `compute()` for (`sw`, `key`), or the value remembered for an equal pair
+/// (the switch compared field by field); the oldest of 64 entries makes way.
+pub fn remembered<T: Copy>(
+    memo: &'static std::thread::LocalKey<Memo<T>>,
+    sw: &SwitchModel,
+    key: u64,
+    compute: impl FnOnce() -> T,
+) -> T {
+    const SIZE: usize = 64;
+    let hit = memo.with(|m| {
+        m.borrow()
+            .iter()
+            .find(|(k, b, _)| *b == key && k == sw)
+            .map(|e| e.2)
+    });
+    if let Some(x) = hit {
+        return x;
+    }
+    let x = compute();
+    memo.with(|m| {
+        let mut m = m.borrow_mut();
+        if m.len() >= SIZE {
+            m.remove(0);
+        }
+        m.push((sw.clone(), key, x));
+    });
+    x
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -48,8 +48,28 @@ pub enum ChannelLaw {
 impl ChannelLaw {
     /// The law `switching::plateau_at_current_v` uses for `sw`, or `None` when
     /// the switch file has no transconductance.
+    ///
+    /// With the gate-charge test current I_t (`q_g.at_i_d`): the square law
+    /// through the datasheet plateau (I_t, V_plt) with the slope g_fs there.
+    /// For I = K·V_ov², g_m = 2·I/V_ov (Sedra, Smith, *Microelectronic
+    /// Circuits*; from memory), so V_ov = 2·I_t/g_fs, V_T = V_plt − V_ov and
+    /// K = g_fs/(2·V_ov). The 250 µA V_th lies in weak inversion, below the
+    /// square law's V_T (Sze, Ng, *Physics of Semiconductor Devices*, 3rd ed.,
+    /// 2007, ch. 6, the subthreshold region; from memory), so it is not the
+    /// law's threshold when the test current is known. (g_fs is taken at the
+    /// same current, as datasheets usually state it; own assumption.)
     pub fn of_switch(sw: &SwitchModel) -> Option<Self> {
         let g_fs = sw.g_fs_s.filter(|g| g.is_finite() && *g > 0.0)?;
+        if let (Some(v_plt), Some(i_t)) = (sw.v_plateau_v, sw.q_g_at_i_d_a) {
+            let v_ov = 2.0 * i_t / g_fs;
+            if v_plt.is_finite() && i_t.is_finite() && i_t > 0.0 && v_ov < v_plt {
+                return Some(ChannelLaw::Square {
+                    v_th_v: v_plt - v_ov,
+                    plateau_overdrive_v: v_ov,
+                    g_fs_s: g_fs,
+                });
+            }
+        }
         let v_th = sw.v_th_v;
         match sw.v_plateau_v {
             Some(v_plt) if v_plt.is_finite() && v_plt > v_th => Some(ChannelLaw::Square {
@@ -186,6 +206,12 @@ pub struct TurnOff {
     /// Highest drain voltage of the edge: the bus voltage, plus the loop
     /// inductance's L·di/dt while the current commutates into the partner.
     pub v_peak_v: f64,
+    /// Time from the Miller plateau until the partner's diode carries half
+    /// the load current: the node's rise to the bus, then the drain current
+    /// down to half.
+    pub t_half_handover_s: f64,
+    /// Time from the Miller plateau until the node reaches the bus.
+    pub t_rise_s: f64,
 }
 
 /// C_gs = C_iss − C_rss at the capacitance table's voltage, taken as
@@ -252,7 +278,7 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     }
     let mut x = c.v_on_v.clamp(0.0, v);
     let mut y = c.channel.gate_voltage_v(i_l);
-    let (mut e_ch, mut e_term) = (0.0, 0.0);
+    let (mut e_ch, mut e_term, mut t_rise) = (0.0, 0.0, 0.0);
     let dx_max = v / rise_steps;
     let crss = CrssCurve::of_switch(c.switch);
     for _ in 0..200_000 {
@@ -273,6 +299,7 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
         e_term += xm * (i_l - c_p * xd) * dt;
         x += dt * xd;
         y += dt * yd;
+        t_rise += dt;
     }
     if x < v * (1.0 - 1e-9) {
         return None;
@@ -283,6 +310,8 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
             e_channel_j: e_ch + fall.e_channel_j,
             e_terminal_j: e_term + fall.e_terminal_j,
             v_peak_v: fall.v_peak_v,
+            t_half_handover_s: t_rise + fall.t_half_handover_s,
+            t_rise_s: t_rise,
         });
     }
     let e_fall = clamped_fall_energy_j(c, y);
@@ -290,6 +319,8 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
         e_channel_j: e_ch + e_fall,
         e_terminal_j: e_term + e_fall,
         v_peak_v: v,
+        t_half_handover_s: t_rise + clamped_fall_half_time_s(c, y),
+        t_rise_s: t_rise,
     })
 }
 
@@ -323,6 +354,7 @@ fn clamped_fall_with_loop(c: &TurnOffCircuit<'_>, crss: &CrssCurve, y0_v: f64) -
     let i_end = CURRENT_END_FRACTION * i_l;
     let (mut x, mut y, mut z) = (v, y0_v, 0.0);
     let (mut e_ch, mut e_term, mut peak) = (0.0, 0.0, v);
+    let (mut t, mut t_half) = (0.0, None);
     let mut window_open = true;
     for _ in 0..2_000_000 {
         let (xd, yd, zd) = rates(x, y, z);
@@ -343,12 +375,133 @@ fn clamped_fall_with_loop(c: &TurnOffCircuit<'_>, crss: &CrssCurve, y0_v: f64) -
         x += dt * xd;
         y += dt * yd;
         z = (z + dt * zd).max(0.0);
+        t += dt;
+        if t_half.is_none() && z >= 0.5 * i_l {
+            t_half = Some(t);
+        }
         peak = peak.max(x);
         if !window_open && c.channel.current_a(y) <= i_end && xd <= 0.0 && x < peak {
             return Some(TurnOff {
                 e_channel_j: e_ch,
                 e_terminal_j: e_term,
                 v_peak_v: peak,
+                t_half_handover_s: t_half.unwrap_or(t),
+                t_rise_s: 0.0,
+            });
+        }
+    }
+    None
+}
+
+/// Time for the channel current to fall to half the load current once the
+/// node is clamped at the bus, from gate voltage `y0_v`: the RC discharge of
+/// [`clamped_fall_energy_j`], y = y₀·e^(−t/τ), down to the gate voltage that
+/// carries I/2, t = τ·ln(y₀/y½). 0 when the channel is already below it.
+fn clamped_fall_half_time_s(c: &TurnOffCircuit<'_>, y0_v: f64) -> f64 {
+    let y_half = c.channel.gate_voltage_v(0.5 * c.i_load_a);
+    if y0_v <= y_half || y_half <= 0.0 {
+        return 0.0;
+    }
+    let tau = c.r_gate_ohm * (c_gs_f(c.switch) + c_gd_f(c.switch, c.v_bus_v - y0_v));
+    tau * (y0_v / y_half).ln()
+}
+
+/// The circuit of one hard turn-on's current rise against a loop inductance.
+#[derive(Debug, Clone, Copy)]
+pub struct TurnOnCircuit<'a> {
+    /// The switch turning on.
+    pub switch: &'a SwitchModel,
+    /// Its output-capacitance law.
+    pub c_oss: OutputCapacitance,
+    /// Its channel law.
+    pub channel: ChannelLaw,
+    /// Total resistance of the turn-on gate loop (driver source, external,
+    /// internal), towards the drive voltage.
+    pub r_gate_ohm: f64,
+    /// Gate drive voltage.
+    pub v_drive_v: f64,
+    /// Bus voltage.
+    pub v_bus_v: f64,
+    /// Load current (magnitude) the switch takes over from the freewheel path.
+    pub i_load_a: f64,
+    /// Commutation-loop inductance, H (> 0).
+    pub loop_inductance_h: f64,
+}
+
+/// A hard turn-on's current rise followed in time against the loop
+/// inductance.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CurrentRise {
+    /// Energy at the drain terminal, ∫v·i_D dt, from threshold until the
+    /// drain current reaches the load current.
+    pub e_terminal_j: f64,
+    /// Drain voltage when the current reaches the load current: where the
+    /// partner's recovery and the voltage fall start.
+    pub v_end_v: f64,
+    /// Current slope then, (V − v_end)/L, A/s: the partner recovers at it.
+    pub slope_end_a_per_s: f64,
+    /// Time from threshold to the load current.
+    pub t_rise_s: f64,
+}
+
+/// The current rise of a hard turn-on with the loop inductance L between the
+/// bus and the partner, from the gate at threshold (drain at the bus, no
+/// current) until the drain current z reaches the load current. While the
+/// partner's diode conducts, the drain node is held at V − L·ż. Three
+/// equations: Kirchhoff at the drain, (C_ds + C_gd)·ẋ − C_gd·ẏ = z − i_ch(y);
+/// at the gate, −C_gd·ẋ + (C_gs + C_gd)·ẏ = (V_drv − y)/R_g; and the loop,
+/// L·ż = V − x (Ren et al. 2006, §II, the turn-on circuit with its drain-loop
+/// inductance; the diode's forward drop and the loop's resistance are
+/// neglected, own simplification). The drain's fall pulls charge out of the
+/// gate through C_gd, which slows the channel: the feedback that keeps a
+/// large loop's dip from taking the whole bus voltage at once. Where the
+/// drain reaches 0 V the channel leaves saturation and carries the loop's
+/// current (x held at 0). Midpoint steps as in `clamped_fall_with_loop`.
+/// `None` when the circuit is not physical or the rise does not finish.
+pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
+    let (v, i_l, l) = (c.v_bus_v, c.i_load_a, c.loop_inductance_h);
+    let v_th = c.channel.v_th_v();
+    let ok = c.r_gate_ohm > 0.0 && v > 0.0 && i_l > 0.0 && l > 0.0 && c.v_drive_v > v_th;
+    if !(ok && c.switch.c_iss_f > 0.0) {
+        return None;
+    }
+    let crss = CrssCurve::of_switch(c.switch);
+    let c_gs = c_gs_f(c.switch);
+    let rates = |x: f64, y: f64, z: f64| {
+        let caps = (c_gs, crss.c_gd_f((x - y).max(0.0)), c.c_oss.c_ds_f(x));
+        let b_gate = (c.v_drive_v - y) / c.r_gate_ohm;
+        let (x_dot, y_dot) = node_rates(caps, z - c.channel.current_a(y), b_gate);
+        if x <= 0.0 && x_dot < 0.0 {
+            // Out of saturation at 0 V: the drain stays, the gate charges.
+            return (0.0, b_gate / (caps.0 + caps.1), (v - x) / l);
+        }
+        (x_dot, y_dot, (v - x) / l)
+    };
+    let c_oss_v = c.c_oss.c_ds_f(v) + crss.c_gd_f(v);
+    let t_ring = 2.0 * std::f64::consts::PI * (l * c_oss_v).sqrt();
+    let t_gate = c.r_gate_ohm * (c_gs + crss.c_gd_f(v));
+    let dt = (t_ring / 200.0).min(t_gate / 200.0);
+    let (mut x, mut y, mut z) = (v, v_th, 0.0);
+    let (mut e_term, mut t) = (0.0, 0.0);
+    for _ in 0..2_000_000 {
+        let (xd, yd, zd) = rates(x, y, z);
+        let (xm, ym, zm) = (
+            (x + 0.5 * dt * xd).max(0.0),
+            y + 0.5 * dt * yd,
+            z + 0.5 * dt * zd,
+        );
+        let (xd, yd, zd) = rates(xm, ym, zm);
+        e_term += xm * zm.max(0.0) * dt;
+        x = (x + dt * xd).max(0.0);
+        y += dt * yd;
+        z += dt * zd;
+        t += dt;
+        if z >= i_l {
+            return Some(CurrentRise {
+                e_terminal_j: e_term,
+                v_end_v: x,
+                slope_end_a_per_s: (v - x) / l,
+                t_rise_s: t,
             });
         }
     }
@@ -501,5 +654,86 @@ mod tests {
         let base = turn_off(&circuit(&sw, 8.0, 4.0)).expect("finishes");
         let fine = turn_off_with_steps(&circuit(&sw, 8.0, 4.0), 4000.0).expect("finishes");
         assert!((base.e_terminal_j / fine.e_terminal_j - 1.0).abs() < 1e-3);
+    }
+
+    fn rise_circuit(sw: &SwitchModel, r_ohm: f64, l_h: f64) -> TurnOnCircuit<'_> {
+        TurnOnCircuit {
+            switch: sw,
+            c_oss: OutputCapacitance::of_switch(sw),
+            channel: ChannelLaw::of_switch(sw).expect("example has g_fs"),
+            r_gate_ohm: r_ohm,
+            v_drive_v: 10.0,
+            v_bus_v: 24.0,
+            i_load_a: 10.0,
+            loop_inductance_h: l_h,
+        }
+    }
+
+    #[test]
+    fn current_rise_with_a_vanishing_loop_is_the_gate_ramp() {
+        // With L → 0 the drain stays at the bus and the gate charges as an
+        // RC, y = V_drv − (V_drv − V_th)·e^(−t/τ), τ = R·(C_gs + C_gd(V))
+        // (the drain does not move, so C_gd sits at V − y ≈ V): an
+        // independent quadrature of V·∫(i_ch(y) − C_gd·ẏ) dt until the
+        // channel carries I, against the integrated rise. L is 0.01 pH: the
+        // step in di/dt at threshold rings the loop with C_oss (as it does on
+        // a board), with an amplitude ∝ √L that must stay small against I
+        // here (at 1 pH it is 1 % of I and ends the rise on a crest).
+        let sw = flat_switch();
+        let c = rise_circuit(&sw, 5.0, 1e-14);
+        let r = current_rise_with_loop(&c).expect("finishes");
+        let tau = 5.0 * (c_gs_f(&sw) + sw.c_rss_f);
+        let (mut t, mut e, h) = (0.0, 0.0, tau / 1e5);
+        loop {
+            let y = 10.0 - (10.0 - sw.v_th_v) * (-(t + 0.5 * h) / tau).exp();
+            let y_dot = (10.0 - y) / tau;
+            let i = c.channel.current_a(y) - sw.c_rss_f * y_dot;
+            if c.channel.current_a(y) >= 10.0 {
+                break;
+            }
+            e += 24.0 * i.max(0.0) * h;
+            t += h;
+        }
+        assert!(
+            (r.e_terminal_j / e - 1.0).abs() < 0.02,
+            "{} vs {e}",
+            r.e_terminal_j
+        );
+        assert!((r.t_rise_s / t - 1.0).abs() < 0.02, "{} vs {t}", r.t_rise_s);
+        assert!(r.v_end_v > 23.5);
+    }
+
+    #[test]
+    fn a_large_loop_limits_the_slope_and_takes_the_rise_energy() {
+        // A strong gate against 50 nH: the current cannot rise faster than
+        // V/L, so the rise lasts at least L·I/V; the dip leaves the drain
+        // low and the rise costs less than half of a 2 nH loop's.
+        let sw = curved_switch();
+        let large = current_rise_with_loop(&rise_circuit(&sw, 1.0, 50e-9)).expect("finishes");
+        let small = current_rise_with_loop(&rise_circuit(&sw, 1.0, 2e-9)).expect("finishes");
+        assert!(large.t_rise_s >= 50e-9 * 10.0 / 24.0);
+        assert!(large.slope_end_a_per_s <= 24.0 / 50e-9 * (1.0 + 1e-9));
+        assert!(large.v_end_v < small.v_end_v);
+        assert!(large.e_terminal_j < 0.5 * small.e_terminal_j);
+        assert!(large.e_terminal_j >= 0.0);
+    }
+
+    #[test]
+    fn square_law_through_the_gate_charge_test_point() {
+        // With the test current the law carries I_t at the plateau with the
+        // slope g_fs there (dI/dV = 2·K·V_ov = g_fs), and its threshold sits
+        // above the 250 µA V_th.
+        let mut sw = curved_switch();
+        sw.q_g_at_i_d_a = Some(8.0);
+        let law = ChannelLaw::of_switch(&sw).expect("law");
+        let v_plt = 4.5;
+        assert!((law.current_a(v_plt) - 8.0).abs() < 1e-9);
+        let slope = (law.current_a(v_plt + 1e-6) - law.current_a(v_plt - 1e-6)) / 2e-6;
+        assert!((slope / 20.0 - 1.0).abs() < 1e-6, "{slope}");
+        assert!((law.v_th_v() - (4.5 - 2.0 * 8.0 / 20.0)).abs() < 1e-12);
+        // A test current the plateau cannot hold (V_ov ≥ V_plt) keeps the
+        // 250 µA law.
+        sw.q_g_at_i_d_a = Some(60.0);
+        assert_eq!(ChannelLaw::of_switch(&sw).expect("law").v_th_v(), sw.v_th_v);
     }
 }

@@ -32,6 +32,8 @@ pub struct SwitchModel {
     pub q_g_c: f64,
     /// V_GS at which `q_g_c` is specified.
     pub q_g_at_v_gs_v: f64,
+    /// Drain current of the gate-charge test (where `v_plateau_v` holds), if given.
+    pub q_g_at_i_d_a: Option<f64>,
     /// Gate-source charge Q_gs (up to the plateau).
     pub q_gs_c: f64,
     /// Gate-drain (Miller) charge Q_gd.
@@ -228,6 +230,7 @@ pub(crate) mod fixtures {
             v_plateau_v: None,
             q_g_c: 30e-9,
             q_g_at_v_gs_v: 10.0,
+            q_g_at_i_d_a: None,
             q_gs_c: 3.0e-9,
             q_gd_c: 12e-9,
             q_g_th_c: Some(1.75e-9),

@@ -21,7 +21,7 @@
 //! charge of a soft tail is neglected (own simplification, small for a
 //! snappy body diode).
 
-use super::capacitance::OutputCapacitance;
+use super::capacitance::{Memo, OutputCapacitance, law_memo, output_charge_memo, remembered};
 use super::forward;
 use super::params::{GateDrive, RecoveryTest, SwitchModel};
 use super::switching::{self, SwitchingError};
@@ -168,61 +168,6 @@ pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
     remembered(&MEMO, sw, 0, || body_diode_transit_time_s(sw, sw.q_rr_c))
 }
 
-/// (Q_oss(V), E_oss(V)) of the switch's output-capacitance law, remembered as
-/// the transit time is (exactly the law's figures): fitting the law and
-/// integrating the C_rss curve at every edge of every loss evaluation would
-/// cost the search an order of magnitude in time.
-fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
-    thread_local! {
-        static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(Vec::new()) };
-    }
-    remembered(&MEMO, sw, v_v.to_bits(), || {
-        let law = law_memo(sw);
-        (law.charge_c(sw, v_v), law.energy_j(sw, v_v))
-    })
-}
-
-/// The switch's output-capacitance law, remembered as the transit time is.
-fn law_memo(sw: &SwitchModel) -> OutputCapacitance {
-    thread_local! {
-        static MEMO: Memo<OutputCapacitance> = const { std::cell::RefCell::new(Vec::new()) };
-    }
-    remembered(&MEMO, sw, 0, || OutputCapacitance::of_switch(sw))
-}
-
-/// A thread's recent results, each with the switch and the bits of the
-/// number it was computed for.
-type Memo<T> = std::cell::RefCell<Vec<(SwitchModel, u64, T)>>;
-
-/// `compute()` for (`sw`, `key`), or the value remembered for an equal pair
-/// (the switch compared field by field); the oldest of 64 entries makes way.
-fn remembered<T: Copy>(
-    memo: &'static std::thread::LocalKey<Memo<T>>,
-    sw: &SwitchModel,
-    key: u64,
-    compute: impl FnOnce() -> T,
-) -> T {
-    const SIZE: usize = 64;
-    let hit = memo.with(|m| {
-        m.borrow()
-            .iter()
-            .find(|(k, b, _)| *b == key && k == sw)
-            .map(|e| e.2)
-    });
-    if let Some(x) = hit {
-        return x;
-    }
-    let x = compute();
-    memo.with(|m| {
-        let mut m = m.borrow_mut();
-        if m.len() >= SIZE {
-            m.remove(0);
-        }
-        m.push((sw.clone(), key, x));
-    });
-    x
-}
-
 /// Energy of one hard turn-on against a recovering bridge partner.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct PartnerRecovery {
@@ -261,7 +206,8 @@ pub fn partner_recovery(
         return Ok(PartnerRecovery::default());
     }
     let t_ri = switching::current_rise_time_s(sw, drive, i)?;
-    let slope = switching::turn_on_slope_a_per_s(i, t_ri);
+    let rise = switching::turn_on_rise(sw, drive, v_bus_v, i, t_ri);
+    let slope = rise.slope_a_per_s;
     let stored = recovered_charge_c(i, slope, tau_s);
     let (q_oss, e_oss) = output_charge_memo(sw, v_bus_v);
     let law = law_memo(sw);
@@ -270,7 +216,7 @@ pub fn partner_recovery(
     // the partner recovers, and the node falls from V_s: the partner's output
     // capacitance takes its charge from V − V_s to V through the switch,
     // ∫ v·C_p dv = V·ΔQ_oss − ΔE_oss, the rest through the loop.
-    let v_s = switching::turn_on_fall_start_v(v_bus_v, drive.loop_inductance_h, i, t_ri);
+    let v_s = rise.v_fall_start_v;
     let capacitive_j = if v_s < v_bus_v {
         let (q_rest, e_rest) = output_charge_memo(sw, v_bus_v - v_s);
         v_bus_v * (q_oss - q_rest) - (e_oss - e_rest)

@@ -15,7 +15,7 @@
 //! A weak driver (a microcontroller pin of a few mA to 25 mA) is not an error
 //! here: it gives long edges and large energies; `ratings` raises the warning.
 
-use super::capacitance::{OutputCapacitance, c_gd_f, miller_integrals};
+use super::capacitance::{c_gd_f, law_memo, miller_integrals};
 use super::commutation;
 use super::params::{GateDrive, SwitchModel};
 
@@ -94,6 +94,15 @@ pub struct Transitions {
     /// inductance's overshoot (the bus voltage without a loop inductance, or
     /// where the node is not followed in time).
     pub v_peak_off_v: f64,
+    /// Time from a hard turn-off's gate command until the partner's diode
+    /// carries half the current: t_d(off), the node's rise and half the
+    /// current fall (followed at the node where `commutation::turn_off`
+    /// applies; t_d(off) + t_rv + t_fi/2 otherwise).
+    pub t_partner_half_s: f64,
+    /// The node's swing at a hard turn-off, from the plateau to the bus
+    /// (followed at the node where `commutation::turn_off` applies; t_rv
+    /// otherwise).
+    pub t_node_swing_s: f64,
 }
 
 /// What shares the switch node with the switch that turns off.
@@ -334,6 +343,8 @@ fn first_order(
         e_off_j: crossover_energy_j(v, i_off, t_rv, t_fi),
         e_off_terminal_j: crossover_energy_j(v, i_off, t_rv, t_fi),
         v_peak_off_v: v,
+        t_partner_half_s: t_d_off + t_rv + 0.5 * t_fi,
+        t_node_swing_s: t_rv,
     })
 }
 
@@ -402,9 +413,13 @@ pub fn current_transition_charge_c(
     v_plateau_at_i_v: f64,
 ) -> Result<f64, SwitchingError> {
     let q_gs2 = q_gs2_c(sw, v_plateau_at_i_v)?;
+    // The current starts at the channel law's threshold (above the 250 µA
+    // V_th when the law goes through the datasheet plateau; equal otherwise).
+    let v_start =
+        commutation::ChannelLaw::of_switch(sw).map_or(sw.v_th_v, |law| law.v_th_v().max(sw.v_th_v));
     match sw.v_plateau_v {
         Some(v_ds) if v_ds > sw.v_th_v => {
-            let x = ((v_plateau_at_i_v - sw.v_th_v) / (v_ds - sw.v_th_v)).max(0.0);
+            let x = ((v_plateau_at_i_v - v_start) / (v_ds - sw.v_th_v)).max(0.0);
             Ok(q_gs2 * x)
         }
         _ => Ok(q_gs2),
@@ -513,7 +528,10 @@ pub fn transitions_memo(
 ///    charges the switch's own C_ds and discharges the partner's output
 ///    capacitance, so the channel current falls during the voltage rise.
 ///    The times stay the gate-charge method's (the dead-time need is built
-///    on them and covers the simulated interval; see `tests/spice`).
+///    on them; see `tests/spice`).
+/// 5. With a loop inductance, the turn-on's current rise from
+///    [`turn_on_rise`]: the loop's dip, the slope the partner recovers at and
+///    the drain voltage the Miller fall starts from.
 ///
 /// The partner is the leg's other switch; [`transitions_at`] takes it.
 pub fn transitions(
@@ -561,7 +579,8 @@ pub fn transitions_at(
     let q_fi = current_transition_charge_c(sw, v_plt_off)?;
     let t_ri = charge_time_s(q_ri, i_g_on).ok_or(bad.clone())?;
     let t_fi = charge_time_s(q_fi, i_g_off).ok_or(bad.clone())?;
-    let v_start_on = turn_on_fall_start_v(v, drive.loop_inductance_h, i_on, t_ri);
+    let rise = turn_on_rise(sw, drive, v, i_on, t_ri);
+    let v_start_on = rise.v_fall_start_v;
     let miller = |i: f64, v_top: f64, v_plt: f64| {
         let v_low = (r_ds_on_ohm * i).clamp(0.0, v_top);
         miller_integrals(sw, v_low, v_top, v_plt)
@@ -605,8 +624,9 @@ pub fn transitions_at(
     tr.t_fi_s = t_fi;
     tr.t_d_off_s = rc_time_s(tau_off_on_state, drive.v_drive_v, 0.0, v_plt_off);
     tr.t_fi_rc_s = rc_time_s(tau_off, v_plt_off, 0.0, sw.v_th_v.min(v_plt_off));
-    let e_ri = crossover_energy_j(v, i_on, t_ri, 0.0);
-    tr.e_on_j = current_rise_with_loop_j(e_ri, drive.loop_inductance_h, i_on) + e_fv;
+    tr.t_partner_half_s = tr.t_d_off_s + tr.t_rv_s + 0.5 * tr.t_fi_s;
+    tr.t_node_swing_s = tr.t_rv_s;
+    tr.e_on_j = rise.e_ri_j + e_fv;
     tr.e_off_j = crossover_energy_j(v, i_off, 0.0, t_fi) + e_rv;
     tr.e_off_terminal_j = tr.e_off_j;
     tr.v_peak_off_v = first_order_peak_v(v, drive.loop_inductance_h, i_off, t_fi);
@@ -616,6 +636,8 @@ pub fn transitions_at(
         tr.e_off_j = t.e_channel_j;
         tr.e_off_terminal_j = t.e_terminal_j;
         tr.v_peak_off_v = t.v_peak_v;
+        tr.t_partner_half_s = tr.t_d_off_s + t.t_half_handover_s;
+        tr.t_node_swing_s = t.t_rise_s;
     }
     Ok(tr)
 }
@@ -672,6 +694,63 @@ pub fn current_rise_with_loop_j(e_ri_j: f64, loop_inductance_h: f64, i_a: f64) -
     (e_ri_j - 0.5 * loop_inductance_h * i_a * i_a).max(0.0)
 }
 
+/// A hard turn-on's current rise: what the voltage fall and the partner's
+/// recovery start from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TurnOnRise {
+    /// Energy of the current rise at the drain terminal.
+    pub e_ri_j: f64,
+    /// Drain voltage where the voltage fall starts.
+    pub v_fall_start_v: f64,
+    /// Current slope at the end of the rise, A/s (the partner recovers at it).
+    pub slope_a_per_s: f64,
+}
+
+/// The current rise of a hard turn-on at `i_on_a` from `v_bus_v` that lasts
+/// `t_ri_s` by the gate-charge method. Without a loop inductance: the
+/// crossover ½·V·I·t_ri, the slope 2·I/t_ri ([`turn_on_slope_a_per_s`]) and
+/// the fall from the bus. With one, where the turn-off is followed at the node
+/// too ([`turn_off_followed`]): the rise integrated in time against the loop
+/// (`commutation::current_rise_with_loop`); otherwise the gate-charge rise
+/// with the loop's energy and dip ([`current_rise_with_loop_j`],
+/// [`turn_on_fall_start_v`]).
+pub fn turn_on_rise(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    t_ri_s: f64,
+) -> TurnOnRise {
+    let l = drive.loop_inductance_h;
+    let e_ri = crossover_energy_j(v_bus_v, i_on_a, t_ri_s, 0.0);
+    let gate_charge = TurnOnRise {
+        e_ri_j: current_rise_with_loop_j(e_ri, l, i_on_a),
+        v_fall_start_v: turn_on_fall_start_v(v_bus_v, l, i_on_a, t_ri_s),
+        slope_a_per_s: turn_on_slope_a_per_s(i_on_a, t_ri_s),
+    };
+    if !(l > 0.0 && turn_off_followed(sw)) {
+        return gate_charge;
+    }
+    let followed = (|| {
+        let r_gate_ohm = turn_on_resistance_ohm(drive, sw.r_g_int_ohm).ok()?;
+        commutation::current_rise_with_loop(&commutation::TurnOnCircuit {
+            switch: sw,
+            c_oss: law_memo(sw),
+            channel: commutation::ChannelLaw::of_switch(sw)?,
+            r_gate_ohm,
+            v_drive_v: drive.v_drive_v,
+            v_bus_v,
+            i_load_a: i_on_a.abs(),
+            loop_inductance_h: l,
+        })
+    })();
+    followed.map_or(gate_charge, |r| TurnOnRise {
+        e_ri_j: r.e_terminal_j,
+        v_fall_start_v: r.v_end_v,
+        slope_a_per_s: r.slope_end_a_per_s,
+    })
+}
+
 /// The turn-off with capacitance sharing (`commutation::turn_off`), or
 /// `None` without a channel law (no g_fs), without a C_rss curve, or when it
 /// does not finish. Why the curve: a single C_rss at the table voltage is a
@@ -690,7 +769,7 @@ fn shared_turn_off(
     if !turn_off_followed(sw) {
         return None;
     }
-    let c_oss = OutputCapacitance::of_switch(sw);
+    let c_oss = law_memo(sw);
     commutation::turn_off(&commutation::TurnOffCircuit {
         switch: sw,
         c_oss,
@@ -998,7 +1077,7 @@ mod tests {
             )
             .unwrap();
         assert!(tr.e_off_j < tr.e_off_terminal_j && tr.e_off_terminal_j < gate_charge);
-        let law = OutputCapacitance::of_switch(&sw);
+        let law = super::super::capacitance::OutputCapacitance::of_switch(&sw);
         let stored = law.energy_j(&sw, 24.0);
         let diff = tr.e_off_terminal_j - tr.e_off_j;
         assert!(

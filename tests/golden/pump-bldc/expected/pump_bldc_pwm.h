@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:9525de17db4cb2ab42daa5e03603899675b84702491f402db5161a7d488b8b0c)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:88fcb340790bbefa5cf669d297f839bd27e663f939a40c1c6b013fd69b1be2b2)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -10,7 +10,7 @@
  *   frequency         20.007 kHz, centre-aligned
  *   timer             clock 120.0 MHz; divider 1 (register 0); period 5998 ticks (register 2999)
  *   resolution        2999 duty steps (11.6 bits)
- *   dead time         125 ns = 15 ticks (code 0x0F); needed 124 ns
+ *   dead time         125 ns = 15 ticks (code 0x0F); needed 119 ns
  *   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.4 % to 76.6 %
  *   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
  *   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.8 %.
@@ -21,20 +21,20 @@
  *   junction-high-bus      145 °C     49.1 °C     95.9 K  ok
  *   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
  *   resolution         10.00 bits  11.55 bits  1.55 bits  ok
- *   dead-time              125 ns      124 ns     550 ps  ok
+ *   dead-time              125 ns      119 ns    6.02 ns  ok
  *   duty-range            98.13 %     76.65 %    21.48 %  ok
  *   sampling-window       91.90 %     72.84 %    19.06 %  ok
  *   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
  *   conduction           1.68 W
- *   switching            348 mW
+ *   switching            340 mW
  *   output capacitance   79.2 mW
  *   reverse recovery     342 mW
  *   dead-time diode      86.0 mW
  *   gate drive           82.4 mW
  *   motor ripple copper  9.43 mW
- *   total                2.63 W
+ *   total                2.62 W
  *
  * Operating figures
  *   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
@@ -46,10 +46,10 @@
  *
  * Worst case over part and operating spreads
  *   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
- *   total-loss  3.70 W; ok; hot: V_th min, supply 54.0 V
+ *   total-loss  3.68 W; ok; hot: V_th min, supply 54.0 V
  *   ripple      807 mA; ok; hot: V_th min, supply 54.0 V
  *   duty-range  76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
- *   dead-time   needs 124 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   dead-time   needs 119 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
@@ -60,8 +60,8 @@
  *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
  *
  * Alternatives
- *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +469 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
- *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +942 mW total loss, +1.4 K junction, -403 mA ripple, -1.00 bits resolution
+ *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +465 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
+ *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +934 mW total loss, +1.4 K junction, -403 mA ripple, -1.00 bits resolution
  *
  * Findings
  *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225 A: above the I_D rating 60.0 A, and 992 W at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
@@ -69,7 +69,7 @@
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
- *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge); dead-time diode conduction at the datasheet V_sd whatever the current (the single-phase stages' V_sd(I) is not yet applied to the three-phase bridge); stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+ *   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge); dead-time diode conduction for the whole dead time at the datasheet V_sd whatever the current (the single-phase stages' V_sd(I) and diode share of the dead time are not yet applied to the three-phase bridge); stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
  *   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
  *   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
  *   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
@@ -86,7 +86,7 @@
  * Inputs
  *   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
  *   osprey-3p48.yaml          sha256 3fd448f55930a4e71577835d929b781c9d700d347a59ec5bd33b03bb2f50c69c
- *   switches/corrie-100.yaml  sha256 44e2e43e990169014c2bcccb5906a4b7cbb72803abe4484c2b84334ae3edd46a
+ *   switches/corrie-100.yaml  sha256 fefd8fe9a592b0f426dd502660a8783662c567964618e6bd7303ab9898377ff0
  */
 #ifndef PUMP_BLDC_PWM_H
 #define PUMP_BLDC_PWM_H

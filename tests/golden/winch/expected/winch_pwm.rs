@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:73829ed41347c2b46dc65bbe0462528836e624290212a0a9abd4c73032ee65a6)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:cb6e2dcbdd83c397def8ca2b1b3b3051cf86863ce2f7dc4784e630e65bb481a9)
 //!
 //! Chosen setting
 //!   design         winch
@@ -9,7 +9,7 @@
 //!   frequency      10.183 kHz, centre-aligned
 //!   timer          clock 120.0 MHz; divider 1 (register 0); period 11784 ticks (register 5892)
 //!   resolution     5892 duty steps (12.5 bits)
-//!   dead time      125 ns = 15 ticks (code 0x0F); needed 123 ns
+//!   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
 //!   duty limits    compare 32 to 5836 (0.5 % to 99.0 %); the load needs 3.9 % to 96.1 %
 //!   feasible band  10.183 kHz to 37.879 kHz
 //!
@@ -19,19 +19,19 @@
 //!   ripple                 1.80 A      1.80 A     151 µA  binds
 //!   audible            18.000 kHz  20.367 kHz   2.37 kHz  ok
 //!   resolution         10.00 bits  12.52 bits  2.52 bits  ok
-//!   dead-time              125 ns      123 ns    1.98 ns  ok
+//!   dead-time              125 ns      118 ns    7.22 ns  ok
 //!   duty-range            99.05 %     96.11 %     2.94 %  ok
 //!   frequency-band     10.000 kHz  10.183 kHz     183 Hz  ok
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           3.45 W
-//!   switching            229 mW
+//!   switching            223 mW
 //!   output capacitance   26.9 mW
-//!   reverse recovery     367 mW
-//!   dead-time diode      53.6 mW
+//!   reverse recovery     370 mW
+//!   dead-time diode      51.6 mW
 //!   gate drive           28.0 mW
 //!   motor ripple copper  26.1 mW
-//!   total                4.18 W
+//!   total                4.17 W
 //!
 //! Operating figures
 //!   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
@@ -43,10 +43,10 @@
 //!
 //! Worst case over part and operating spreads
 //!   junction    68.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
-//!   total-loss  5.65 W; ok; hot: V_th min, supply 54.0 V
+//!   total-loss  5.63 W; ok; hot: V_th min, supply 54.0 V
 //!   ripple      1.79 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
 //!   duty-range  96.25 % (limit 99.05 %); ok; hot: V_th min, supply 40.0 V
-//!   dead-time   needs 123 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+//!   dead-time   needs 118 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
 //!
 //! Alternatives
-//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +710 mW total loss, +2.1 K junction, -883 mA ripple, -0.97 bits resolution
-//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2036 mW total loss, +6.0 K junction, -1316 mA ripple, -1.90 bits resolution
+//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +704 mW total loss, +2.1 K junction, -883 mA ripple, -0.97 bits resolution
+//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2022 mW total loss, +6.0 K junction, -1316 mA ripple, -1.90 bits resolution
 //!
 //! Findings
 //!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A, and 1.76 kW at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W), 50.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
@@ -65,7 +65,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 31.3 ns fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V) (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for the whole dead time at V_sd(I): the datasheet V_sd at 30.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); bridge partner's recovery: a charge-control body diode with transit time 31.3 ns fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V) (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri; with a loop inductance the slope its followed current rise ends with), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 30.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
@@ -82,7 +82,7 @@
 //! Inputs
 //!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
 //!   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
-//!   switches/corrie-100.yaml  sha256 44e2e43e990169014c2bcccb5906a4b7cbb72803abe4484c2b84334ae3edd46a
+//!   switches/corrie-100.yaml  sha256 fefd8fe9a592b0f426dd502660a8783662c567964618e6bd7303ab9898377ff0
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!
