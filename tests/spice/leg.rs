@@ -210,7 +210,10 @@ pub fn predict_leg(root: &std::path::Path, c: &LegCase) -> Result<(f64, f64, f64
         tau_s: recovery::body_diode_transit_time_s(&sw, sw.q_rr_c),
     };
     Ok((
-        p * edges.after_soft_turn_off_s(c.t_dead_s),
+        p * edges.after_soft_turn_off_s(
+            c.t_dead_s,
+            switching::soft_release_s(&sw, &drive, c.i_a).map_err(|e| format!("{e:?}"))?,
+        ),
         p * edges.after_hard_turn_off_s(c.t_dead_s),
         p * c.t_dead_s,
     ))

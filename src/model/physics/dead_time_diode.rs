@@ -30,7 +30,9 @@ use super::switching::{
 pub struct LegEdges<'a> {
     pub switch: &'a SwitchModel,
     pub drive: &'a GateDrive,
-    /// Both edges at the switched current (`switching::transitions`).
+    /// The hard-switching switch's edges (`switching::transitions`): its
+    /// turn-off at the current of a hard turn-off's dead time, its turn-on at
+    /// the current of a soft turn-off's.
     pub transitions: &'a Transitions,
     /// The body diode's transit time (`recovery`), s.
     pub tau_s: f64,
@@ -49,14 +51,14 @@ impl LegEdges<'_> {
     }
 
     /// Diode conduction in a dead time `t_dead_s` that follows a soft
-    /// turn-off: from the outgoing channel's release (the gate down to the
-    /// plateau of the current, t_d(off), then half the RC fall to threshold,
-    /// t_fi(RC)/2) until the incoming hard turn-on carries half the current,
-    /// t_d(on) + t_ri/2 after its command. Not below 0.
-    pub fn after_soft_turn_off_s(&self, t_dead_s: f64) -> f64 {
+    /// turn-off: from the outgoing channel's release `release_s` after its
+    /// command (`switching::soft_release_s`: the gate down to the plateau of
+    /// the current, then half the RC fall to threshold) until the incoming
+    /// hard turn-on carries half the current, t_d(on) + t_ri/2 after its
+    /// command. Not below 0.
+    pub fn after_soft_turn_off_s(&self, t_dead_s: f64, release_s: f64) -> f64 {
         let tr = self.transitions;
-        let t_start = tr.t_d_off_s + 0.5 * tr.t_fi_rc_s;
-        (t_dead_s + tr.t_d_on_s + 0.5 * tr.t_ri_s - t_start).max(0.0)
+        (t_dead_s + tr.t_d_on_s + 0.5 * tr.t_ri_s - release_s).max(0.0)
     }
 
     /// Time from a soft turn-on command until the incoming channel has taken
@@ -112,7 +114,7 @@ impl LegEdges<'_> {
 mod tests {
     use super::*;
     use crate::model::physics::params::fixtures::{curved_switch, example_drive};
-    use crate::model::physics::switching::transitions;
+    use crate::model::physics::switching::{soft_release_s, transitions};
 
     fn edges<'a>(sw: &'a SwitchModel, drive: &'a GateDrive, tr: &'a Transitions) -> LegEdges<'a> {
         LegEdges {
@@ -130,9 +132,12 @@ mod tests {
         let tr = transitions(&sw, &drive, 24.0, 10.0, 10.0, 5e-3).expect("edges");
         let e = edges(&sw, &drive, &tr);
         let t_dead = 200e-9;
-        // Soft turn-off: the sum of the named intervals.
-        let soft = t_dead + tr.t_d_on_s + 0.5 * tr.t_ri_s - tr.t_d_off_s - 0.5 * tr.t_fi_rc_s;
-        assert!((e.after_soft_turn_off_s(t_dead) - soft).abs() < 1e-15);
+        // Soft turn-off: the sum of the named intervals; the release is the
+        // turn-off's delay and half its RC fall at that current.
+        let release = soft_release_s(&sw, &drive, 10.0).expect("release");
+        assert!((release - tr.t_d_off_s - 0.5 * tr.t_fi_rc_s).abs() < 1e-15);
+        let soft = t_dead + tr.t_d_on_s + 0.5 * tr.t_ri_s - release;
+        assert!((e.after_soft_turn_off_s(t_dead, release) - soft).abs() < 1e-15);
         // Hard turn-off: from the hand-over to the soft turn-on's end.
         let idle = t_dead - tr.t_partner_half_s;
         let hard = t_dead + e.soft_turn_on_s(idle) - tr.t_partner_half_s;
@@ -140,7 +145,7 @@ mod tests {
         // Both shorter than the dead time plus the incoming edge, and 0 for
         // a dead time the edges do not fit in.
         assert!(e.after_hard_turn_off_s(t_dead) < t_dead + e.soft_turn_on_s(idle));
-        assert_eq!(e.after_soft_turn_off_s(0.0), 0.0);
+        assert_eq!(e.after_soft_turn_off_s(0.0, release), 0.0);
     }
 
     #[test]

@@ -449,6 +449,54 @@ struct EdgeBook {
     diode_rr_j: f64,
     /// Energy per period: body-diode conduction in dead times.
     dead_j: f64,
+    /// The dead times this switch's body diode conducts in, booked into
+    /// `dead_j` once the partner's edges are known (`book_dead_times`).
+    dead_edges: Vec<DeadEdge>,
+}
+
+/// A dead time in which a body diode conducts, by the edge that starts it.
+#[derive(Debug, Clone, Copy)]
+enum DeadEdge {
+    /// The partner turned off hard at `i_a`.
+    AfterHardTurnOff { i_a: f64 },
+    /// This switch turned off softly at `i_a`, its channel letting go
+    /// `release_s` after the command; the partner turns on hard.
+    AfterSoftTurnOff { i_a: f64, release_s: f64 },
+}
+
+/// Book `diode`'s dead-time conduction against its partner `hard`, whose
+/// edges (the same transitions `mosfet_loss` asks for, so remembered) time
+/// the diode's share (`dead_time_diode`).
+fn book_dead_times(diode: &mut EdgeBook, hard: &EdgeBook, ctx: &Ctx<'_>) -> Result<(), StageError> {
+    if diode.dead_edges.is_empty() {
+        return Ok(());
+    }
+    let (sw, op) = (ctx.sw, ctx.op);
+    let tr = switching::transitions_memo(
+        sw,
+        ctx.drive,
+        op.v_bus_v,
+        hard.hard_on_a,
+        hard.hard_off_a,
+        sw.r_ds_on_25_ohm,
+        ctx.partner,
+    )?;
+    let edges = dead_time_diode::LegEdges {
+        switch: sw,
+        drive: ctx.drive,
+        transitions: &tr,
+        tau_s: ctx.body_diode_tau_s,
+    };
+    for e in diode.dead_edges.clone() {
+        let (i, t) = match e {
+            DeadEdge::AfterHardTurnOff { i_a } => (i_a, edges.after_hard_turn_off_s(op.t_dead_s)),
+            DeadEdge::AfterSoftTurnOff { i_a, release_s } => {
+                (i_a, edges.after_soft_turn_off_s(op.t_dead_s, release_s))
+            }
+        };
+        diode.dead_j += forward::forward_voltage_v(sw, i) * i * t;
+    }
+    Ok(())
 }
 
 /// Commutation of one leg edge: `out` turns off, `inc` turns on, with the
@@ -467,34 +515,20 @@ fn commutate(
         inc.oss_at_turn_on = true;
         return Ok(());
     }
-    // Both edges of this commutation at its current, for the diode's share
-    // of the dead time (`dead_time_diode`).
-    let tr = switching::transitions_memo(
-        sw,
-        ctx.drive,
-        op.v_bus_v,
-        i,
-        i,
-        sw.r_ds_on_25_ohm,
-        ctx.partner,
-    )?;
-    let edges = dead_time_diode::LegEdges {
-        switch: sw,
-        drive: ctx.drive,
-        transitions: &tr,
-        tau_s: ctx.body_diode_tau_s,
-    };
-    let p_diode_w = forward::forward_voltage_v(sw, i) * i;
     if out_diode_carries {
         let rec = recovery::partner_recovery(sw, ctx.drive, op.v_bus_v, i, ctx.body_diode_tau_s)?;
-        out.dead_j += p_diode_w * edges.after_soft_turn_off_s(op.t_dead_s);
+        let release = switching::soft_release_s(sw, ctx.drive, i)?;
+        out.dead_edges.push(DeadEdge::AfterSoftTurnOff {
+            i_a: i,
+            release_s: release,
+        });
         out.diode_rr_j += rec.diode_j;
         inc.hard_on_a = i;
         inc.oss_at_turn_on = true;
         inc.partner_rr_j += rec.switch_j;
     } else {
         out.hard_off_a = i;
-        inc.dead_j += p_diode_w * edges.after_hard_turn_off_s(op.t_dead_s);
+        inc.dead_edges.push(DeadEdge::AfterHardTurnOff { i_a: i });
     }
     Ok(())
 }
@@ -511,6 +545,8 @@ fn leg_books(
     commutate(&mut ls, &mut hs, i_hs_on_a, i_hs_on_a > 0.0, ctx)?;
     // HS → LS: negative current rides in the HS body diode.
     commutate(&mut hs, &mut ls, i_hs_off_a, i_hs_off_a < 0.0, ctx)?;
+    book_dead_times(&mut hs, &ls, ctx)?;
+    book_dead_times(&mut ls, &hs, ctx)?;
     Ok((hs, ls))
 }
 
@@ -734,6 +770,7 @@ fn low_side(
         },
         diode_rr_j: 0.0,
         dead_j: 0.0,
+        dead_edges: Vec::new(),
     };
     let (switch, gate) = mosfet_loss(DeviceRole::LowSide, &book, sw_ms, t_j_switch_c, ctx)?;
     let d_avg = (load.i_avg_a - sw_avg).max(0.0);
@@ -835,7 +872,8 @@ mod tests {
             tau_s: recovery::body_diode_transit_time_memo_s(sw),
         };
         let t = if soft {
-            edges.after_soft_turn_off_s(300e-9)
+            let release = switching::soft_release_s(sw, &drive, i_a).unwrap();
+            edges.after_soft_turn_off_s(300e-9, release)
         } else {
             edges.after_hard_turn_off_s(300e-9)
         };

@@ -624,6 +624,10 @@ pub fn transitions_at(
     tr.t_fi_s = t_fi;
     tr.t_d_off_s = rc_time_s(tau_off_on_state, drive.v_drive_v, 0.0, v_plt_off);
     tr.t_fi_rc_s = rc_time_s(tau_off, v_plt_off, 0.0, sw.v_th_v.min(v_plt_off));
+    debug_assert_eq!(
+        soft_release_s(sw, drive, i_off).ok(),
+        Some(tr.t_d_off_s + 0.5 * tr.t_fi_rc_s)
+    );
     tr.t_partner_half_s = tr.t_d_off_s + tr.t_rv_s + 0.5 * tr.t_fi_s;
     tr.t_node_swing_s = tr.t_rv_s;
     tr.e_on_j = rise.e_ri_j + e_fv;
@@ -640,6 +644,29 @@ pub fn transitions_at(
         tr.t_node_swing_s = t.t_rise_s;
     }
     Ok(tr)
+}
+
+/// When a channel carrying `i_a` lets its own body diode take the current
+/// at a soft turn-off, after the gate command: the turn-off delay to the
+/// plateau of that current, t_d(off) (on-state input capacitance), plus half
+/// the RC fall from the plateau to threshold, t_fi(RC)/2 — the same figures
+/// [`transitions_at`] gives for a turn-off at that current, without the rest
+/// of the edge.
+pub fn soft_release_s(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    i_a: f64,
+) -> Result<f64, SwitchingError> {
+    let v_plt = plateau_at_current_v(sw, i_a.abs())?;
+    let r_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)?;
+    let t_d_off = rc_time_s(
+        r_off * input_capacitance_on_state_f(sw),
+        drive.v_drive_v,
+        0.0,
+        v_plt,
+    );
+    let t_fi_rc = rc_time_s(r_off * sw.c_iss_f, v_plt, 0.0, sw.v_th_v.min(v_plt));
+    Ok(t_d_off + 0.5 * t_fi_rc)
 }
 
 /// The turn-off peak where the node is not followed in time: V + L·I/t_fi,
