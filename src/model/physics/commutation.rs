@@ -221,27 +221,29 @@ fn c_gs_f(sw: &SwitchModel) -> f64 {
     (sw.c_iss_f - sw.c_rss_f).max(0.0)
 }
 
-/// Node capacitances at one state: (C_gs, C_gd, C_ds + C_partner).
+/// Node capacitances at one state: (C_gs, C_gd, C_ds + C_partner, C_partner).
 fn node_capacitances(
     c: &TurnOffCircuit<'_>,
     crss: &CrssCurve,
     v_ds_v: f64,
     v_gs_v: f64,
-) -> (f64, f64, f64) {
+) -> (f64, f64, f64, f64) {
     let c_gd = crss.c_gd_f((v_ds_v - v_gs_v).max(0.0));
     let c_gs = c_gs_f(c.switch);
-    let c_node = c.c_oss.c_ds_f(v_ds_v) + c.partner.capacitance_f(crss, c.v_bus_v, v_ds_v);
-    (c_gs, c_gd, c_node)
+    let c_partner = c.partner.capacitance_f(crss, c.v_bus_v, v_ds_v);
+    (c_gs, c_gd, c.c_oss.c_ds_f(v_ds_v) + c_partner, c_partner)
 }
 
 /// (dv_DS/dt, dv_GS/dt) while the node is free to rise. Kirchhoff at the
 /// drain, (C_node + C_gd)·ẋ − C_gd·ẏ = I_L − i_ch(y), and at the gate,
 /// −C_gd·ẋ + (C_gs + C_gd)·ẏ = −y/R_g (Ren et al. 2006, §II, the turn-off
 /// circuit), solved as a 2×2 linear system.
-fn rates(c: &TurnOffCircuit<'_>, crss: &CrssCurve, x: f64, y: f64) -> (f64, f64) {
-    let (c_gs, c_gd, c_node) = node_capacitances(c, crss, x, y);
+/// Also returns the partner's capacitance there (the terminal energy needs it).
+fn rates(c: &TurnOffCircuit<'_>, crss: &CrssCurve, x: f64, y: f64) -> (f64, f64, f64) {
+    let (c_gs, c_gd, c_node, c_partner) = node_capacitances(c, crss, x, y);
     let b_drain = c.i_load_a - c.channel.current_a(y);
-    node_rates((c_gs, c_gd, c_node), b_drain, -y / c.r_gate_ohm)
+    let (x_dot, y_dot) = node_rates((c_gs, c_gd, c_node), b_drain, -y / c.r_gate_ohm);
+    (x_dot, y_dot, c_partner)
 }
 
 /// The drain and gate equations, (C_node + C_gd)·ẋ − C_gd·ẏ = `b_drain` and
@@ -290,16 +292,15 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
         if x >= v {
             break;
         }
-        let (xd, yd) = rates(c, &crss, x, y);
+        let (xd, yd, _) = rates(c, &crss, x, y);
         let dt = (dx_max / xd.abs().max(1e-30)).min(GATE_STEP_V / yd.abs().max(1e-30));
         let (xm, ym) = (x + 0.5 * dt * xd, y + 0.5 * dt * yd);
-        let (xd, yd) = rates(c, &crss, xm, ym);
+        let (xd, yd, c_p) = rates(c, &crss, xm, ym);
         let dt = if x + dt * xd > v { (v - x) / xd } else { dt };
         if !(dt.is_finite() && dt > 0.0) {
             return None;
         }
         let i_ch = c.channel.current_a(ym);
-        let c_p = c.partner.capacitance_f(&crss, v, xm);
         e_ch += xm * i_ch * dt;
         e_term += xm * (i_l - c_p * xd) * dt;
         x += dt * xd;
