@@ -350,13 +350,7 @@ fn clamped_fall_with_loop(c: &TurnOffCircuit<'_>, crss: &CrssCurve, y0_v: f64) -
         let (x_dot, y_dot) = node_rates(caps, b_drain, -y / c.r_gate_ohm);
         (x_dot, y_dot, (x - v) / l)
     };
-    // Step: a fraction of the loop's own period with the switch's output
-    // capacitance, 2π·√(L·C_oss(V)), and of the gate's time constant (own
-    // choice; see the convergence test).
-    let c_oss_v = c.c_oss.c_ds_f(v) + crss.c_gd_f(v);
-    let t_ring = 2.0 * std::f64::consts::PI * (l * c_oss_v).sqrt();
-    let t_gate = c.r_gate_ohm * (c_gs + crss.c_gd_f(v));
-    let dt = (t_ring / 200.0).min(t_gate / 200.0);
+    let dt = loop_step_s(&c.c_oss, crss, c_gs, c.r_gate_ohm, v, l);
     let i_end = CURRENT_END_FRACTION * i_l;
     let (mut x, mut y, mut z) = (v, y0_v, 0.0);
     let (mut e_ch, mut e_term, mut peak) = (0.0, 0.0, v);
@@ -483,10 +477,7 @@ pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
         }
         (x_dot, y_dot, (v - x) / l)
     };
-    let c_oss_v = c.c_oss.c_ds_f(v) + crss.c_gd_f(v);
-    let t_ring = 2.0 * std::f64::consts::PI * (l * c_oss_v).sqrt();
-    let t_gate = c.r_gate_ohm * (c_gs + crss.c_gd_f(v));
-    let dt = (t_ring / 200.0).min(t_gate / 200.0);
+    let dt = loop_step_s(&c.c_oss, &crss, c_gs, c.r_gate_ohm, v, l);
     let (mut x, mut y, mut z) = (v, v_th, 0.0);
     let (mut e_term, mut t) = (0.0, 0.0);
     for _ in 0..2_000_000 {
@@ -512,6 +503,24 @@ pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
         }
     }
     None
+}
+
+/// Time step of an edge followed against the loop inductance `l_h`: a
+/// 200th of the loop's own period with the switch's output capacitance,
+/// 2π·√(L·C_oss(V)), or of the gate's time constant R_g·(C_gs + C_gd(V)),
+/// whichever is shorter (own choice; see the convergence tests).
+fn loop_step_s(
+    c_oss: &OutputCapacitance,
+    crss: &CrssCurve,
+    c_gs_f: f64,
+    r_gate_ohm: f64,
+    v_bus_v: f64,
+    l_h: f64,
+) -> f64 {
+    let c_oss_v = c_oss.c_ds_f(v_bus_v) + crss.c_gd_f(v_bus_v);
+    let t_ring = 2.0 * std::f64::consts::PI * (l_h * c_oss_v).sqrt();
+    let t_gate = r_gate_ohm * (c_gs_f + crss.c_gd_f(v_bus_v));
+    t_ring.min(t_gate) / 200.0
 }
 
 /// The channel's energy V·∫i_ch dt while its current falls to the end

@@ -608,9 +608,6 @@ pub fn transitions_at(
             )
         }
     };
-    let tau_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)? * sw.c_iss_f;
-    let tau_off_on_state =
-        turn_off_resistance_ohm(drive, sw.r_g_int_ohm)? * input_capacitance_on_state_f(sw);
     tr.v_plateau_on_v = v_plt_on;
     tr.v_plateau_off_v = v_plt_off;
     tr.i_g_on_a = i_g_on;
@@ -622,12 +619,7 @@ pub fn transitions_at(
     tr.t_fv_s = charge_time_s(q_gd_on, i_g_on).ok_or(bad.clone())?;
     tr.t_rv_s = charge_time_s(q_gd_off, i_g_off).ok_or(bad)?;
     tr.t_fi_s = t_fi;
-    tr.t_d_off_s = rc_time_s(tau_off_on_state, drive.v_drive_v, 0.0, v_plt_off);
-    tr.t_fi_rc_s = rc_time_s(tau_off, v_plt_off, 0.0, sw.v_th_v.min(v_plt_off));
-    debug_assert_eq!(
-        soft_release_s(sw, drive, i_off).ok(),
-        Some(tr.t_d_off_s + 0.5 * tr.t_fi_rc_s)
-    );
+    (tr.t_d_off_s, tr.t_fi_rc_s) = turn_off_gate_times_s(sw, drive, v_plt_off)?;
     tr.t_partner_half_s = tr.t_d_off_s + tr.t_rv_s + 0.5 * tr.t_fi_s;
     tr.t_node_swing_s = tr.t_rv_s;
     tr.e_on_j = rise.e_ri_j + e_fv;
@@ -658,15 +650,26 @@ pub fn soft_release_s(
     i_a: f64,
 ) -> Result<f64, SwitchingError> {
     let v_plt = plateau_at_current_v(sw, i_a.abs())?;
-    let r_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)?;
-    let t_d_off = rc_time_s(
-        r_off * input_capacitance_on_state_f(sw),
-        drive.v_drive_v,
-        0.0,
-        v_plt,
-    );
-    let t_fi_rc = rc_time_s(r_off * sw.c_iss_f, v_plt, 0.0, sw.v_th_v.min(v_plt));
+    let (t_d_off, t_fi_rc) = turn_off_gate_times_s(sw, drive, v_plt)?;
     Ok(t_d_off + 0.5 * t_fi_rc)
+}
+
+/// The turn-off's gate discharges towards 0 V through the turn-off loop:
+/// (t_d(off), t_fi(RC)) — from the drive voltage to the plateau `v_plt_v`
+/// with the on-state input capacitance (`input_capacitance_on_state_f`), and
+/// from the plateau to threshold with C_iss (`rc_time_s`; Balogh's RC
+/// delays, from memory).
+fn turn_off_gate_times_s(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_plt_v: f64,
+) -> Result<(f64, f64), SwitchingError> {
+    let r_off = turn_off_resistance_ohm(drive, sw.r_g_int_ohm)?;
+    let on_state_f = input_capacitance_on_state_f(sw);
+    Ok((
+        rc_time_s(r_off * on_state_f, drive.v_drive_v, 0.0, v_plt_v),
+        rc_time_s(r_off * sw.c_iss_f, v_plt_v, 0.0, sw.v_th_v.min(v_plt_v)),
+    ))
 }
 
 /// The turn-off peak where the node is not followed in time: V + L·I/t_fi,
@@ -845,16 +848,19 @@ pub fn total_gate_charge_c(sw: &SwitchModel, v_drive_v: f64, v_plateau_v: f64) -
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::model::physics::params::fixtures::{
+        Lcg, curved_switch, example_drive, example_switch,
+    };
 
-    /// The loop's share of the turn-on (½·L·I², hand numbers: 10 nH, 20 A
-    /// → 2 µJ) and the first-order turn-off peak (48 V + 5 nH·10 A/5 ns =
-    /// 58 V); neither moves anything without a loop.
     #[test]
     fn turn_on_slope_is_twice_the_mean() {
         assert_eq!(turn_on_slope_a_per_s(10.0, 5e-9), 4e9);
         assert!(turn_on_slope_a_per_s(10.0, 0.0).is_infinite());
     }
 
+    /// The loop's share of the turn-on (½·L·I², hand numbers: 10 nH, 20 A
+    /// → 2 µJ) and the first-order turn-off peak (48 V + 5 nH·10 A/5 ns =
+    /// 58 V); neither moves anything without a loop.
     #[test]
     fn loop_inductance_by_hand() {
         assert!((current_rise_with_loop_j(5e-6, 10e-9, 20.0) - 3e-6).abs() < 1e-18);
@@ -867,9 +873,6 @@ mod tests {
         assert_eq!(turn_on_fall_start_v(48.0, 50e-9, 10.0, 4e-9), 0.0);
         assert_eq!(turn_on_fall_start_v(48.0, 0.0, 10.0, 4e-9), 48.0);
     }
-    use crate::model::physics::params::fixtures::{
-        Lcg, curved_switch, example_drive, example_switch,
-    };
 
     fn rel(a: f64, b: f64) -> f64 {
         ((a - b) / b).abs()
