@@ -2966,3 +2966,575 @@ error: switches/tarn-40.yaml:13:63: switch.q_g.at_i_d: -50.0 A is out of range; 
 "#,
     );
 }
+
+/// The shunt: a zero resistance senses nothing.
+#[test]
+fn overcurrent_shunt_resistance_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"resistance: "2 mohm""#,
+            r#"resistance: "0 ohm""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:34:26: board.overcurrent.shunt.resistance: 0.00 Ω is out of range; expected above 0.00 Ω and at most 10.0 Ω
+ 34 |     shunt: { resistance: "0 ohm", tolerance: "1 %", power: "3 W", place: supply-return }
+    |                          ^
+"#,
+    );
+}
+
+/// The shunt's tolerance: beyond 50 % is a unit slip.
+#[test]
+fn overcurrent_shunt_tolerance_too_wide() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"tolerance: "1 %", power"#,
+            r#"tolerance: "60 %", power"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:34:47: board.overcurrent.shunt.tolerance: 60.0 % is out of range; expected 0 to 50.0 %
+ 34 |     shunt: { resistance: "2 mohm", tolerance: "60 %", power: "3 W", place: supply-return }
+    |                                               ^
+"#,
+    );
+}
+
+/// The shunt's power rating must be positive.
+#[test]
+fn overcurrent_shunt_power_negative() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"power: "3 W""#,
+            r#"power: "-3 W""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:34:61: board.overcurrent.shunt.power: -3.00 W is out of range; expected above 0.00 W and at most 1.00 kW
+ 34 |     shunt: { resistance: "2 mohm", tolerance: "1 %", power: "-3 W", place: supply-return }
+    |                                                             ^
+"#,
+    );
+}
+
+/// The shunt's place is one of three words.
+#[test]
+fn overcurrent_shunt_place_unknown() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"place: supply-return"#,
+            r#"place: supply"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:34:75: board.overcurrent.shunt.place: unknown value `supply`; expected one of `supply-return`, `leg`, `phase`
+ 34 |     shunt: { resistance: "2 mohm", tolerance: "1 %", power: "3 W", place: supply }
+    |                                                                           ^
+"#,
+    );
+}
+
+/// The amplifier's gain: zero amplifies nothing.
+#[test]
+fn overcurrent_amplifier_gain_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case("osprey-3p48.yaml", r#"gain: 20,"#, r#"gain: 0,"#)],
+        r#"
+error: osprey-3p48.yaml:35:24: board.overcurrent.amplifier.gain: 0 is out of range; expected a voltage gain above 0 and at most 1000 (a plain number)
+ 35 |     amplifier: { gain: 0, gain_tolerance: "1 %", offset: "0.2 V", offset_tolerance: "8 mV", settle_time: "300 ns" }
+    |                        ^
+"#,
+    );
+}
+
+/// The amplifier's gain is a plain number.
+#[test]
+fn overcurrent_amplifier_gain_with_unit() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case("osprey-3p48.yaml", r#"gain: 20,"#, r#"gain: "20 V","#)],
+        r#"
+error: osprey-3p48.yaml:35:24: board.overcurrent.amplifier.gain: expected a number such as 10, found the text "20 V"
+ 35 |     amplifier: { gain: "20 V", gain_tolerance: "1 %", offset: "0.2 V", offset_tolerance: "8 mV", settle_time: "300 ns" }
+    |                        ^
+"#,
+    );
+}
+
+/// The amplifier gain's tolerance: beyond 50 % is a unit slip.
+#[test]
+fn overcurrent_amplifier_gain_tolerance_too_wide() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"gain_tolerance: "1 %""#,
+            r#"gain_tolerance: "70 %""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:35:44: board.overcurrent.amplifier.gain_tolerance: 70.0 % is out of range; expected 0 to 50.0 %
+ 35 |     amplifier: { gain: 20, gain_tolerance: "70 %", offset: "0.2 V", offset_tolerance: "8 mV", settle_time: "300 ns" }
+    |                                            ^
+"#,
+    );
+}
+
+/// The amplifier's offset: beyond ±100 V is a unit slip.
+#[test]
+fn overcurrent_amplifier_offset_out_of_range() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"offset: "0.2 V""#,
+            r#"offset: "200 V""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:35:59: board.overcurrent.amplifier.offset: 200 V is out of range; expected −100 V to 100 V
+ 35 |     amplifier: { gain: 20, gain_tolerance: "1 %", offset: "200 V", offset_tolerance: "8 mV", settle_time: "300 ns" }
+    |                                                           ^
+"#,
+    );
+}
+
+/// The amplifier offset's tolerance: above 1 V is a unit slip.
+#[test]
+fn overcurrent_amplifier_offset_tolerance_too_wide() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"offset_tolerance: "8 mV""#,
+            r#"offset_tolerance: "2 V""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:35:86: board.overcurrent.amplifier.offset_tolerance: 2.00 V is out of range; expected 0 to 1.00 V
+ 35 |     amplifier: { gain: 20, gain_tolerance: "1 %", offset: "0.2 V", offset_tolerance: "2 V", settle_time: "300 ns" }
+    |                                                                                      ^
+"#,
+    );
+}
+
+/// The amplifier's settling time cannot be negative.
+#[test]
+fn overcurrent_amplifier_settle_time_negative() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"settle_time: "300 ns""#,
+            r#"settle_time: "-300 ns""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:35:107: board.overcurrent.amplifier.settle_time: -300 ns is out of range; expected 0 to 1.00 ms
+ 35 |     amplifier: { gain: 20, gain_tolerance: "1 %", offset: "0.2 V", offset_tolerance: "8 mV", settle_time: "-300 ns" }
+    |                                                                                                           ^
+"#,
+    );
+}
+
+/// A programmable threshold's full scale must be positive.
+#[test]
+fn overcurrent_threshold_full_scale_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"full_scale: "3.3 V""#,
+            r#"full_scale: "0 V""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:37:48: board.overcurrent.comparator.threshold.programmable.full_scale: 0.00 V is out of range; expected above 0.00 V and at most 100 V
+ 37 |       threshold: { programmable: { full_scale: "0 V", code_bits: 6 } }
+    |                                                ^
+"#,
+    );
+}
+
+/// A programmable threshold's code width: at most 16 bits.
+#[test]
+fn overcurrent_threshold_code_bits_too_many() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"code_bits: 6"#,
+            r#"code_bits: 20"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:37:68: board.overcurrent.comparator.threshold.programmable.code_bits: 20 bits is out of range; expected 1 to 16
+ 37 |       threshold: { programmable: { full_scale: "3.3 V", code_bits: 20 } }
+    |                                                                    ^
+"#,
+    );
+}
+
+/// A threshold is programmable or fixed.
+#[test]
+fn overcurrent_threshold_unknown_kind() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"threshold: { programmable:"#,
+            r#"threshold: { adjustable:"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:37:20: board.overcurrent.comparator.threshold: unknown value `adjustable`; expected one of `programmable`, `fixed`
+ 37 |       threshold: { adjustable: { full_scale: "3.3 V", code_bits: 6 } }
+    |                    ^
+"#,
+    );
+}
+
+/// A fixed threshold: above 100 V is a unit slip.
+#[test]
+fn overcurrent_fixed_threshold_too_high() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            r#"fixed: "1.25 V""#,
+            r#"fixed: "150 V""#,
+        )],
+        r#"
+error: heron-hb48.yaml:35:27: board.overcurrent.comparator.threshold.fixed: 150 V is out of range; expected above 0.00 V and at most 100 V
+ 35 |       threshold: { fixed: "150 V" }
+    |                           ^
+"#,
+    );
+}
+
+/// The comparator's tolerance: beyond 50 % is a unit slip.
+#[test]
+fn overcurrent_comparator_tolerance_too_wide() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"tolerance: "2 %""#,
+            r#"tolerance: "80 %""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:38:18: board.overcurrent.comparator.tolerance: 80.0 % is out of range; expected 0 to 50.0 %
+ 38 |       tolerance: "80 %"
+    |                  ^
+"#,
+    );
+}
+
+/// The comparator's offset is a ± magnitude: not negative.
+#[test]
+fn overcurrent_comparator_offset_negative() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"offset: "5 mV""#,
+            r#"offset: "-5 mV""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:39:15: board.overcurrent.comparator.offset: -5.00 mV is out of range; expected 0 to 1.00 V
+ 39 |       offset: "-5 mV"
+    |               ^
+"#,
+    );
+}
+
+/// The comparator's delay: above 1 ms is a unit slip.
+#[test]
+fn overcurrent_comparator_delay_too_long() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"delay: "60 ns""#,
+            r#"delay: "2 ms""#,
+        )],
+        r#"
+error: osprey-3p48.yaml:40:14: board.overcurrent.comparator.delay: 2.00 ms is out of range; expected 0 to 1.00 ms
+ 40 |       delay: "2 ms"
+    |              ^
+"#,
+    );
+}
+
+/// A fault filter needs at least one clock.
+#[test]
+fn overcurrent_filter_without_clocks() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"clocks: ["120 MHz", "30 MHz"]"#,
+            r#"clocks: []"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:41:23: board.overcurrent.filter.clocks: expected at least one option
+ 41 |     filter: { clocks: [], samples: [1, 2, 4, 8] }
+    |                       ^
+"#,
+    );
+}
+
+/// A fault filter's clock must be positive.
+#[test]
+fn overcurrent_filter_clock_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#""120 MHz", "30 MHz"]"#,
+            r#""120 MHz", "0 Hz"]"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:41:35: board.overcurrent.filter.clocks[1]: 0.00 Hz is out of range; expected above 0.00 Hz and at most 10.0 GHz
+ 41 |     filter: { clocks: ["120 MHz", "0 Hz"], samples: [1, 2, 4, 8] }
+    |                                   ^
+"#,
+    );
+}
+
+/// A fault filter passes after at least one sample.
+#[test]
+fn overcurrent_filter_samples_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"samples: [1, 2, 4, 8]"#,
+            r#"samples: [1, 2, 0, 8]"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:41:62: board.overcurrent.filter.samples[2]: 0 is out of range; expected 1 to 1024 samples
+ 41 |     filter: { clocks: ["120 MHz", "30 MHz"], samples: [1, 2, 0, 8] }
+    |                                                              ^
+"#,
+    );
+}
+
+/// The blanking clock's divider is at least 1.
+#[test]
+fn overcurrent_blanking_divider_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"blanking: { clock_divider: 1,"#,
+            r#"blanking: { clock_divider: 0,"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:42:32: board.overcurrent.blanking.clock_divider: 0 is out of range; expected 1 to 65536
+ 42 |     blanking: { clock_divider: 0, max_ticks: 255 }
+    |                                ^
+"#,
+    );
+}
+
+/// A blanking timer counts at least one tick.
+#[test]
+fn overcurrent_blanking_max_ticks_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"max_ticks: 255 }"#,
+            r#"max_ticks: 0 }"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:42:46: board.overcurrent.blanking.max_ticks: 0 is out of range; expected 1 to 1048576
+ 42 |     blanking: { clock_divider: 1, max_ticks: 0 }
+    |                                              ^
+"#,
+    );
+}
+
+/// The fault input offers at least one response.
+#[test]
+fn overcurrent_responses_empty() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"responses: [cycle-by-cycle, latched]"#,
+            r#"responses: []"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:43:16: board.overcurrent.responses: expected at least one of `cycle-by-cycle`, `latched`
+ 43 |     responses: []
+    |                ^
+"#,
+    );
+}
+
+/// A response listed twice.
+#[test]
+fn overcurrent_responses_repeated() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            r#"responses: [cycle-by-cycle, latched]"#,
+            r#"responses: [latched, latched]"#,
+        )],
+        r#"
+error: osprey-3p48.yaml:43:16: board.overcurrent.responses: a response is listed twice; expected each of `cycle-by-cycle`, `latched` at most once
+ 43 |     responses: [latched, latched]
+    |                ^
+"#,
+    );
+}
+
+/// The pulsed rating I_DM below the continuous I_D.
+#[test]
+fn switch_pulsed_current_below_continuous() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "switches/corrie-100.yaml",
+            r#"value: "240 A""#,
+            r#"value: "40 A""#,
+        )],
+        r#"
+error: switches/corrie-100.yaml:29:18: switch.i_dm.value: 40.0 A is below I_D 60.0 A; expected the pulsed rating at or above the continuous one
+ 29 |   i_dm: { value: "40 A", pulse_width: "100 us" }
+    |                  ^
+"#,
+    );
+}
+
+/// I_DM's pulse width must be positive.
+#[test]
+fn switch_pulsed_current_width_zero() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "switches/corrie-100.yaml",
+            r#"pulse_width: "100 us""#,
+            r#"pulse_width: "0 s""#,
+        )],
+        r#"
+error: switches/corrie-100.yaml:29:40: switch.i_dm.pulse_width: 0.00 s is out of range; expected above 0.00 s and at most 10.0 s
+ 29 |   i_dm: { value: "240 A", pulse_width: "0 s" }
+    |                                        ^
+"#,
+    );
+}
+
+/// The motor's short-time limit below its rated current.
+#[test]
+fn motor_max_current_below_rated() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"rated_current: "12 A""#,
+            r#"rated_current: "12 A"
+    max_current: "10 A""#,
+        )],
+        r#"
+error: winch.yaml:12:18: design.motor.max_current: 10.0 A is not above the rated current 12.0 A; expected the motor's short-time limit above its rated load
+ 12 |     max_current: "10 A"
+    |                  ^
+"#,
+    );
+}
+
+/// A design's current limit on a board without an over-current path.
+#[test]
+fn current_limit_without_board_overcurrent() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "belt-feeder.yaml",
+            r#"objective: least-loss"#,
+            r#"objective: least-loss
+  current_limit: { trip: "20 A" }"#,
+        )],
+        r#"
+error: belt-feeder.yaml:22:20: design.current_limit: the board has no `overcurrent` section (shunt, comparator, responses); describe it there, or remove `current_limit`
+ 22 |   current_limit: { trip: "20 A" }
+    |                    ^
+"#,
+    );
+}
+
+/// A burst current must be positive.
+#[test]
+fn current_limit_burst_current_negative() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"current: "20 A""#,
+            r#"current: "-20 A""#,
+        )],
+        r#"
+error: winch.yaml:23:23: design.current_limit.burst.current: -20.0 A is out of range; expected above 0.00 A and at most 100 kA
+ 23 |     burst: { current: "-20 A", duration: "3 s" }
+    |                       ^
+"#,
+    );
+}
+
+/// A burst lasts some time.
+#[test]
+fn current_limit_burst_duration_zero() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"duration: "3 s""#,
+            r#"duration: "0 s""#,
+        )],
+        r#"
+error: winch.yaml:23:41: design.current_limit.burst.duration: 0.00 s is out of range; expected above 0.00 s and at most 3600 s
+ 23 |     burst: { current: "20 A", duration: "0 s" }
+    |                                         ^
+"#,
+    );
+}
+
+/// A fixed trip current must be positive.
+#[test]
+fn current_limit_trip_zero() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"duration: "3 s" }"#,
+            r#"duration: "3 s" }
+    trip: "0 A""#,
+        )],
+        r#"
+error: winch.yaml:24:11: design.current_limit.trip: 0.00 A is out of range; expected above 0.00 A and at most 100 kA
+ 24 |     trip: "0 A"
+    |           ^
+"#,
+    );
+}
+
+/// A response the board's fault input does not offer.
+#[test]
+fn current_limit_response_not_offered() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"duration: "3 s" }"#,
+            r#"duration: "3 s" }
+    response: latched"#,
+        )],
+        r#"
+error: winch.yaml:24:15: design.current_limit.response: the board's fault input does not offer `latched`; expected one of its `overcurrent.responses`
+ 24 |     response: latched
+    |               ^
+"#,
+    );
+}

@@ -189,12 +189,33 @@ fn compare_never_marks_a_blocked_switch_best() {
     );
 }
 
-/// The winch stalls at 54 V / 0.18 Ω = 300 A through a board without
-/// thermal transient data: a warning, on a steady-state basis, that names
-/// the current limit; the plan stays feasible.
+/// The winch's board without its over-current path (and the design without
+/// its limit's burst).
+fn winch_without_limit(dir: &Path) {
+    let board = dir.join("heron-hb48.yaml");
+    let text = fs::read_to_string(&board).expect("board");
+    let at = text
+        .find("  overcurrent:")
+        .expect("the board's overcurrent section");
+    fs::write(&board, &text[..at]).expect("write the board");
+    design_from(
+        dir,
+        "winch.yaml",
+        "winch.yaml",
+        &[(
+            "  current_limit:\n    burst: { current: \"20 A\", duration: \"3 s\" }\n",
+            "",
+        )],
+    );
+}
+
+/// The winch without a current limit stalls at 54 V / 0.18 Ω = 300 A
+/// through a board without thermal transient data: a warning, on a
+/// steady-state basis, that names the current limit; the plan stays feasible.
 #[test]
 fn a_stall_beyond_the_ratings_asks_for_a_current_limit() {
     let dir = boards();
+    winch_without_limit(dir.path());
     let o = run(dir.path(), &["plan", "winch.yaml", "--json", "--no-write"]);
     assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
     let p = json(&o);
@@ -213,11 +234,59 @@ fn a_stall_beyond_the_ratings_asks_for_a_current_limit() {
     for part in [
         "A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A",
         "Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used",
-        "The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most",
+        "The drive needs a current limit that holds the stall current to at most",
     ] {
         assert!(m.contains(part), "{part:?} not in {m}");
     }
     assert!(!m.contains("after 0.50 s"), "{m}");
+}
+
+/// With the board's over-current path the winch's stall is the limit's: the
+/// V/R warning goes, the stall is held at the trip's highest edge, which
+/// lies above the operating peak (the 20 A burst plus half the ripple) and
+/// below every hard limit; a shunt too weak for that stall is an error
+/// finding that stops the plan (exit 1, nothing written).
+#[test]
+fn a_current_limit_bounds_the_stall_and_its_errors_block() {
+    let dir = boards();
+    let o = run(dir.path(), &["plan", "winch.yaml", "--json", "--no-write"]);
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+    let p = json(&o);
+    let findings = p["findings"].as_array().expect("findings");
+    assert!(
+        findings
+            .iter()
+            .all(|f| f["code"] != "stall-needs-current-limit"),
+        "{findings:?}"
+    );
+    let l = &p["current_limit"];
+    let num = |k: &str| l[k].as_f64().unwrap_or_else(|| panic!("{k} in {l}"));
+    assert!(num("operating_peak_a") > 20.0, "{l}");
+    assert!(num("trip_low_a") > num("operating_peak_a"), "{l}");
+    assert_eq!(num("stall_current_a"), num("trip_high_a"));
+    for h in l["hard_limits"].as_array().expect("hard limits") {
+        let limit = h["current_a"].as_f64().expect("current");
+        let key = if h["applies_to"] == "peak" {
+            "peak_a"
+        } else {
+            "stall_current_a"
+        };
+        assert!(num(key) <= limit, "{h} against {l}");
+    }
+    // A 1 W shunt of 5 mΩ (+1 %) carries at most √(1/0.00505) = 14.1 A.
+    let board = dir.path().join("heron-hb48.yaml");
+    let text = fs::read_to_string(&board).expect("board");
+    fs::write(
+        &board,
+        text.replacen(r#"power: "5 W""#, r#"power: "1 W""#, 1),
+    )
+    .expect("write");
+    let o = run(dir.path(), &["plan", "winch.yaml"]);
+    assert_eq!(o.status.code(), Some(1), "{}", describe(&o));
+    let err = describe(&o);
+    assert!(err.contains("error finding current-limit-stall"), "{err}");
+    assert!(err.contains("the shunt's 1.00 W rating 14.1 A"), "{err}");
+    assert!(!dir.path().join("out").exists());
 }
 
 /// The belt feeder at 3330 rpm with a ±20 % winding resistance: at the

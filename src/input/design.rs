@@ -275,6 +275,7 @@ pub const LIST_CAPS: ListCaps = ListCaps {
     dead_time_segments: 16,
     foster_pairs: 16,
     avoided_bands: 16,
+    filter_options: 16,
 };
 
 /// See [`LIST_CAPS`].
@@ -290,6 +291,8 @@ pub struct ListCaps {
     pub foster_pairs: usize,
     /// `constraints.audible.avoid`.
     pub avoided_bands: usize,
+    /// `overcurrent.filter.clocks` and `overcurrent.filter.samples`, each.
+    pub filter_options: usize,
 }
 
 const V: Dimension = Dimension::Voltage;
@@ -301,6 +304,8 @@ const S: Dimension = Dimension::Time;
 const HZ: Dimension = Dimension::Frequency;
 const DEG: Dimension = Dimension::Temperature;
 const KW: Dimension = Dimension::ThermalResistance;
+const W: Dimension = Dimension::Power;
+const RATIO: Dimension = Dimension::Ratio;
 
 /// Every check on one switch's datasheet values.
 pub fn check_switch(s: &SwitchSpec, src: &SourceFile, prefix: &str) -> Result<(), InputError> {
@@ -701,6 +706,20 @@ fn check_switch_thermal(s: &SwitchSpec, c: &Check) -> Result<(), InputError> {
     if let Some(z) = s.v_ztc {
         c.within("v_ztc", z.si, 0.0, s.v_gs_max.si, V)?;
     }
+    if let Some(p) = &s.i_dm {
+        c.within("i_dm.value", p.value.si, 0.0, 100_000.0, A)?;
+        if p.value.si < s.i_d.si {
+            return Err(c.fail(
+                "i_dm.value",
+                format!(
+                    "{} is below I_D {}; expected the pulsed rating at or above the continuous one",
+                    fmt(p.value.si, A),
+                    fmt(s.i_d.si, A)
+                ),
+            ));
+        }
+        c.within("i_dm.pulse_width", p.pulse_width.si, 0.0, 10.0, S)?;
+    }
     Ok(())
 }
 
@@ -804,6 +823,157 @@ pub fn check_board(b: &BoardSpec, sw: &SwitchSpec, src: &SourceFile) -> Result<(
     check_board_stage(b, &c)?;
     check_board_gate_driver(b, sw, &c)?;
     check_board_thermal(b, &c)?;
+    if let Some(oc) = &b.overcurrent {
+        check_board_overcurrent(oc, &c)?;
+    }
+    Ok(())
+}
+
+/// The over-current path: shunt, amplifier, comparator, filter, blanking and
+/// responses. The ranges are plausibility bounds of our own choice (a shunt
+/// up to 10 Ω, a gain up to 1 000, a threshold up to 100 V, tolerances up
+/// to 50 %, delays up to 1 ms, a 16-bit threshold code).
+fn check_board_overcurrent(oc: &OvercurrentSpec, c: &Check) -> Result<(), InputError> {
+    let sh = &oc.shunt;
+    c.within(
+        "overcurrent.shunt.resistance",
+        sh.resistance.si,
+        0.0,
+        10.0,
+        OHM,
+    )?;
+    c.non_negative("overcurrent.shunt.tolerance", sh.tolerance.si, 0.5, RATIO)?;
+    c.within("overcurrent.shunt.power", sh.power.si, 0.0, 1000.0, W)?;
+    if let Some(a) = &oc.amplifier {
+        c.within("overcurrent.amplifier.gain", a.gain, 0.0, 1000.0, RATIO)
+            .map_err(|_| {
+                c.fail(
+                    "overcurrent.amplifier.gain",
+                    format!("{} is out of range; expected a voltage gain above 0 and at most 1000 (a plain number)", a.gain),
+                )
+            })?;
+        c.non_negative(
+            "overcurrent.amplifier.gain_tolerance",
+            a.gain_tolerance.si,
+            0.5,
+            RATIO,
+        )?;
+        if !(a.offset.si.is_finite() && a.offset.si.abs() <= 100.0) {
+            return Err(c.fail(
+                "overcurrent.amplifier.offset",
+                format!(
+                    "{} is out of range; expected −100 V to 100 V",
+                    fmt(a.offset.si, V)
+                ),
+            ));
+        }
+        c.non_negative(
+            "overcurrent.amplifier.offset_tolerance",
+            a.offset_tolerance.si,
+            1.0,
+            V,
+        )?;
+        c.non_negative(
+            "overcurrent.amplifier.settle_time",
+            a.settle_time.si,
+            1e-3,
+            S,
+        )?;
+    }
+    let k = &oc.comparator;
+    match &k.threshold {
+        ThresholdSpec::Programmable {
+            full_scale,
+            code_bits,
+        } => {
+            c.within(
+                "overcurrent.comparator.threshold.programmable.full_scale",
+                full_scale.si,
+                0.0,
+                100.0,
+                V,
+            )?;
+            if !(1..=16).contains(code_bits) {
+                return Err(c.fail(
+                    "overcurrent.comparator.threshold.programmable.code_bits",
+                    format!("{code_bits} bits is out of range; expected 1 to 16"),
+                ));
+            }
+        }
+        ThresholdSpec::Fixed(v) => c.within(
+            "overcurrent.comparator.threshold.fixed",
+            v.si,
+            0.0,
+            100.0,
+            V,
+        )?,
+    }
+    c.non_negative(
+        "overcurrent.comparator.tolerance",
+        k.tolerance.si,
+        0.5,
+        RATIO,
+    )?;
+    c.non_negative("overcurrent.comparator.offset", k.offset.si, 1.0, V)?;
+    c.non_negative("overcurrent.comparator.delay", k.delay.si, 1e-3, S)?;
+    if let Some(f) = &oc.filter {
+        check_fault_filter(f, c)?;
+    }
+    if let Some(bl) = &oc.blanking {
+        if !(1..=65_536).contains(&bl.clock_divider) {
+            return Err(c.fail(
+                "overcurrent.blanking.clock_divider",
+                format!("{} is out of range; expected 1 to 65536", bl.clock_divider),
+            ));
+        }
+        if !(1..=1 << 20).contains(&bl.max_ticks) {
+            return Err(c.fail(
+                "overcurrent.blanking.max_ticks",
+                format!("{} is out of range; expected 1 to 1048576", bl.max_ticks),
+            ));
+        }
+    }
+    if oc.responses.is_empty() {
+        return Err(c.fail(
+            "overcurrent.responses",
+            "expected at least one of `cycle-by-cycle`, `latched`",
+        ));
+    }
+    if oc.responses.len() > 2 || (oc.responses.len() == 2 && oc.responses[0] == oc.responses[1]) {
+        return Err(c.fail(
+            "overcurrent.responses",
+            "a response is listed twice; expected each of `cycle-by-cycle`, `latched` at most once",
+        ));
+    }
+    Ok(())
+}
+
+/// The fault filter's clocks and sample counts.
+fn check_fault_filter(f: &FaultFilterSpec, c: &Check) -> Result<(), InputError> {
+    for (field, len) in [("clocks", f.clocks.len()), ("samples", f.samples.len())] {
+        let path = format!("overcurrent.filter.{field}");
+        if len == 0 {
+            return Err(c.fail(&path, "expected at least one option"));
+        }
+        c.max_len(&path, len, LIST_CAPS.filter_options, "options")?;
+    }
+    for (i, clk) in f.clocks.iter().enumerate() {
+        c.within(
+            &format!("overcurrent.filter.clocks[{i}]"),
+            clk.si,
+            0.0,
+            10e9,
+            HZ,
+        )?;
+    }
+    for (i, n) in f.samples.iter().enumerate() {
+        if !(1..=1024).contains(n) {
+            return Err(c.fail(
+                &format!("overcurrent.filter.samples[{i}]"),
+                format!("{n} is out of range; expected 1 to 1024 samples"),
+            ));
+        }
+    }
     Ok(())
 }
 
@@ -1701,8 +1871,73 @@ fn check_design_options(
     if let Some(t) = k.stall_time {
         c.within("constraints.stall_time", t.si, 0.0, 3600.0, S)?;
     }
+    if let Some(i) = d.motor.max_current {
+        c.within("motor.max_current", i.si, 0.0, 100_000.0, A)?;
+        if i.si <= d.motor.rated_current.si {
+            return Err(c.fail(
+                "motor.max_current",
+                format!(
+                    "{} is not above the rated current {}; expected the motor's short-time limit above its rated load",
+                    fmt(i.si, A),
+                    fmt(d.motor.rated_current.si, A)
+                ),
+            ));
+        }
+    }
+    if let Some(cl) = &d.current_limit {
+        check_design_current_limit(cl, b, c)?;
+    }
     if let Some(t) = &d.tolerances {
         check_tolerances(c, t, d, b, sw, emf)?;
+    }
+    Ok(())
+}
+
+/// The design's current-limit requirements against the board's
+/// over-current path.
+fn check_design_current_limit(
+    cl: &CurrentLimitSpec,
+    b: &BoardSpec,
+    c: &Check,
+) -> Result<(), InputError> {
+    let Some(oc) = &b.overcurrent else {
+        return Err(c.fail(
+            "current_limit",
+            "the board has no `overcurrent` section (shunt, comparator, responses); describe it there, or remove `current_limit`",
+        ));
+    };
+    if let Some(burst) = &cl.burst {
+        c.within(
+            "current_limit.burst.current",
+            burst.current.si,
+            0.0,
+            100_000.0,
+            A,
+        )?;
+        c.within(
+            "current_limit.burst.duration",
+            burst.duration.si,
+            0.0,
+            3600.0,
+            S,
+        )?;
+    }
+    if let Some(t) = cl.trip {
+        c.within("current_limit.trip", t.si, 0.0, 100_000.0, A)?;
+    }
+    if let Some(r) = cl.response
+        && !oc.responses.contains(&r)
+    {
+        return Err(c.fail(
+            "current_limit.response",
+            format!(
+                "the board's fault input does not offer `{}`; expected one of its `overcurrent.responses`",
+                match r {
+                    FaultResponseSpec::CycleByCycle => "cycle-by-cycle",
+                    FaultResponseSpec::Latched => "latched",
+                }
+            ),
+        ));
     }
     Ok(())
 }

@@ -1118,11 +1118,15 @@ impl Evaluator {
             drive: &st.drive,
             diode: st.diode.as_ref(),
             v_bus_max_v: d.spec.supply.max.si,
-            // A three-phase stall drives the line-to-line resistance.
-            r_winding_ohm: Some(if self.three_phase.is_some() {
-                2.0 * self.motor_r_ohm
-            } else {
-                self.motor_r_ohm
+            // A three-phase stall drives the line-to-line resistance. With the
+            // board's over-current path the stall is the current limit's
+            // (`model::current_limit`), not V/R.
+            r_winding_ohm: d.board.overcurrent.is_none().then(|| {
+                if self.three_phase.is_some() {
+                    2.0 * self.motor_r_ohm
+                } else {
+                    self.motor_r_ohm
+                }
             }),
             thermal: &st.thermal,
             t_ambient_c: d.spec.ambient.max.si,

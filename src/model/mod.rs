@@ -10,6 +10,7 @@
 //! Must never: read a file, write a file or print. The search and the
 //! Monte Carlo format no words (details are data, formatted when shown).
 
+pub mod current_limit;
 pub mod evaluate;
 pub mod physics;
 pub mod register_check;

@@ -78,6 +78,31 @@ pub struct ThreePhaseLiterals {
     pub sampling_lines: Vec<String>,
 }
 
+/// The current limit's values as they go into code and text (zeros and
+/// empty where the board has no over-current path, so strict templates
+/// always find them).
+#[derive(Debug, Clone, Serialize, Default)]
+pub struct LimitLiterals {
+    /// The comparator's threshold is a programmable code (else fixed).
+    pub programmable: bool,
+    pub threshold_code: String,
+    /// Nominal threshold, mV.
+    pub threshold_mv: String,
+    /// The trip window's edges, mA.
+    pub trip_low_ma: String,
+    pub trip_high_ma: String,
+    /// The board has a fault filter / a blanking timer.
+    pub has_filter: bool,
+    pub filter_clock_hz: String,
+    pub filter_samples: String,
+    pub has_blanking: bool,
+    pub blanking_ticks: String,
+    pub blanking_ns: String,
+    /// 1 for cycle-by-cycle, 0 for latched.
+    pub cycle_by_cycle: bool,
+    pub response: String,
+}
+
 /// The one context every template receives.
 #[derive(Debug, Clone, Serialize)]
 pub struct Context {
@@ -93,6 +118,11 @@ pub struct Context {
     /// A three-phase bridge: emit the channel and ADC-trigger parts.
     pub three_phase: bool,
     pub three_phase_literals: ThreePhaseLiterals,
+    /// The board has an over-current path: emit the current limit's part.
+    pub current_limit: bool,
+    pub limit: LimitLiterals,
+    /// The current limit explained: rows `{label, value}` (empty without one).
+    pub limit_rows: Vec<Row>,
     /// The rationale as plain text lines, for comment blocks.
     pub rationale_lines: Vec<String>,
     /// The register init sequence, one step per line (C names).

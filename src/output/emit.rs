@@ -19,7 +19,8 @@ use crate::output::plan::Plan;
 // The context types and the sealing live in their own modules so `html` and
 // `plan` need not import this one; their old paths stay.
 pub use crate::output::context::{
-    ConstraintRow, Context, Names, Row, StageLiterals, ThreePhaseLiterals, TimerLiterals,
+    ConstraintRow, Context, LimitLiterals, Names, Row, StageLiterals, ThreePhaseLiterals,
+    TimerLiterals,
 };
 pub use crate::output::seal::{MARKER_PLACEHOLDER, is_untouched, seal};
 
@@ -168,12 +169,17 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         .collect();
     let worst_case = worst_case_rows(plan);
     let stage = stage_literals(plan);
+    let limit = plan
+        .current_limit
+        .as_ref()
+        .map(|l| crate::output::limit::literals(Some(l)));
     let c_init_steps = init_steps(
         &n,
         &timer,
         &stage,
         has_dead_time,
         plan.three_phase.is_some(),
+        limit.as_ref(),
         Lang::C,
     );
     let rust_init_steps = init_steps(
@@ -182,6 +188,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         &stage,
         has_dead_time,
         plan.three_phase.is_some(),
+        limit.as_ref(),
         Lang::Rust,
     );
     let mut ctx = Context {
@@ -194,6 +201,9 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         has_dead_time,
         three_phase: plan.three_phase.is_some(),
         three_phase_literals: tpl,
+        current_limit: plan.current_limit.is_some(),
+        limit: limit.unwrap_or_default(),
+        limit_rows: crate::output::limit::rows(plan.current_limit.as_ref()),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,
         rust_init_steps,
@@ -696,6 +706,7 @@ fn init_steps(
     st: &StageLiterals,
     dead: bool,
     three_phase: bool,
+    limit: Option<&LimitLiterals>,
     lang: Lang,
 ) -> Vec<String> {
     let k = |name: &str| match lang {
@@ -737,6 +748,9 @@ fn init_steps(
             t.dead_time_ns
         ));
     }
+    if let Some(l) = limit {
+        s.push(limit_init_step(l, &k));
+    }
     if three_phase {
         s.push(format!(
             "Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- {} (outputs still disabled), then values from {convert} only (one per channel).",
@@ -761,6 +775,42 @@ fn init_steps(
         .enumerate()
         .map(|(i, step)| format!("{}. {step}", i + 1))
         .collect()
+}
+
+/// The init step that sets and arms the fault input (before the outputs can
+/// ever be enabled, so the first enabled pulse is already limited).
+fn limit_init_step(l: &LimitLiterals, k: &dyn Fn(&str) -> String) -> String {
+    let mut parts = Vec::new();
+    if l.programmable {
+        parts.push(format!(
+            "threshold <- {} ({} mV)",
+            k("LIMIT_THRESHOLD_CODE"),
+            l.threshold_mv
+        ));
+    }
+    if l.has_filter {
+        parts.push(format!(
+            "filter <- {} samples at {} Hz",
+            k("LIMIT_FILTER_SAMPLES"),
+            k("LIMIT_FILTER_CLOCK_HZ")
+        ));
+    }
+    if l.has_blanking {
+        parts.push(format!(
+            "blanking after each turn-on <- {} ticks ({} ns)",
+            k("LIMIT_BLANKING_TICKS"),
+            l.blanking_ns
+        ));
+    }
+    parts.push(format!(
+        "response <- {} (see {})",
+        l.response,
+        k("LIMIT_CYCLE_BY_CYCLE")
+    ));
+    format!(
+        "Fault input (over-current): {}; clear any pending fault and arm the input now, before the outputs are ever enabled, so the first pulse is already limited.",
+        parts.join(", ")
+    )
 }
 
 /// The stage literals of a plan.
@@ -919,6 +969,7 @@ fn rationale_lines(c: &Context) -> Vec<String> {
         &c.losses,
     );
     table(&mut out, "Operating figures", &c.figures);
+    table(&mut out, "Current limit", &c.limit_rows);
     table(
         &mut out,
         "Worst case over part and operating spreads",

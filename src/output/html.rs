@@ -344,6 +344,56 @@ fn figures(out: &mut String, ctx: &Context) {
     kv_table(out, &ctx.figures);
 }
 
+/// The current limit: the trip window against the operating peak and the
+/// hard limits, drawn on one current axis, then the explanation rows.
+fn current_limit(out: &mut String, plan: &Plan, ctx: &Context) {
+    let Some(l) = &plan.current_limit else {
+        return;
+    };
+    h2(out, "current-limit", "Current limit");
+    let top = l
+        .hard_limits
+        .iter()
+        .map(|h| h.current_a)
+        .chain([l.peak_a, l.stall_current_a])
+        .fold(l.trip_high_a, f64::max)
+        * 1.1;
+    let x = |i: f64| 20.0 + 600.0 * (i / top).clamp(0.0, 1.0);
+    let mut svg = String::from(
+        "<svg class=\"window\" viewBox=\"0 0 640 120\" role=\"img\" aria-label=\"trip window against the operating peak and the hard limits\">\n",
+    );
+    let _ = writeln!(
+        svg,
+        "<line x1=\"20\" y1=\"60\" x2=\"620\" y2=\"60\" stroke=\"#555\"/>\n<rect x=\"20\" y=\"50\" width=\"{:.1}\" height=\"20\" fill=\"#8c8\"><title>normal operation up to {:.2} A</title></rect>\n<rect x=\"{:.1}\" y=\"45\" width=\"{:.1}\" height=\"30\" fill=\"#fc6\"><title>trips between {:.2} A and {:.2} A</title></rect>\n<line x1=\"{:.1}\" y1=\"40\" x2=\"{:.1}\" y2=\"80\" stroke=\"#c60\" stroke-dasharray=\"3 2\"><title>peak with overshoot {:.2} A</title></line>",
+        x(l.operating_peak_a) - 20.0,
+        l.operating_peak_a,
+        x(l.trip_low_a),
+        (x(l.trip_high_a) - x(l.trip_low_a)).max(1.0),
+        l.trip_low_a,
+        l.trip_high_a,
+        x(l.peak_a),
+        x(l.peak_a),
+        l.peak_a
+    );
+    for (k, h) in l.hard_limits.iter().enumerate() {
+        let y = if k % 2 == 0 { 30.0 } else { 100.0 };
+        let _ = writeln!(
+            svg,
+            "<line x1=\"{0:.1}\" y1=\"35\" x2=\"{0:.1}\" y2=\"85\" stroke=\"#c00\"/><text x=\"{0:.1}\" y=\"{y}\" font-size=\"10\" text-anchor=\"middle\">{1} {2:.1} A</text>",
+            x(h.current_a),
+            escape(&h.applies_to),
+            h.current_a
+        );
+    }
+    let _ = writeln!(
+        svg,
+        "<text x=\"20\" y=\"115\" font-size=\"10\">0 A</text><text x=\"620\" y=\"115\" font-size=\"10\" text-anchor=\"end\">{top:.1} A</text>\n</svg>"
+    );
+    out.push_str(&svg);
+    out.push_str("<p>Green: normal operation up to its peak; amber: where the limit may trip (its lowest to its highest edge over the sensing tolerances); dashed: the highest current with the overshoot in the reaction time; red: the hard limits (peak or stall).</p>\n");
+    kv_table(out, &ctx.limit_rows);
+}
+
 fn opt_c(t: Option<f64>) -> String {
     t.map(|t| format_quantity(t, Dimension::Temperature, 3))
         .unwrap_or_else(|| "runaway".into())
@@ -452,6 +502,7 @@ pub fn report_html(plan: &Plan, ctx: &Context, loss_svg: &str, thermal_svg: &str
     plots(&mut out, loss_svg, thermal_svg);
     losses(&mut out, plan, ctx);
     figures(&mut out, ctx);
+    current_limit(&mut out, plan, ctx);
     alternatives(&mut out, plan);
     findings(&mut out, ctx);
     assumptions(&mut out, ctx);

@@ -11,6 +11,7 @@
 pub mod context;
 pub mod emit;
 pub mod html;
+pub mod limit;
 pub mod plan;
 pub mod report;
 pub mod seal;

@@ -191,6 +191,10 @@ pub struct Plan {
     /// current-sampling trigger.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub three_phase: Option<ThreePhaseOut>,
+    /// The current limit planned on the board's over-current path (absent
+    /// when the board has none).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub current_limit: Option<crate::model::current_limit::CurrentLimitOut>,
     pub feasible_band_hz: Option<[f64; 2]>,
     pub alternatives: Vec<AlternativeOut>,
     /// When infeasible: why, and the nearest compromise.
@@ -814,13 +818,17 @@ fn findings(
                 .into(),
         ));
     }
-    // Errors first, then warnings, then information; stable within each.
+    sort_findings(&mut out);
+    out
+}
+
+/// Errors first, then warnings, then information; stable within each.
+fn sort_findings(out: &mut [FindingOut]) {
     out.sort_by_key(|f| match f.severity.as_str() {
         "error" => 0,
         "warning" => 1,
         _ => 2,
     });
-    out
 }
 
 /// One finding from its severity, code and message.
@@ -1050,7 +1058,16 @@ pub fn build_on(
         &c.setting,
         &c.dead_time,
     ));
-    let findings = findings(d, ev, c, &worst, worst_case_basis);
+    let limit = crate::model::current_limit::plan(d, ev, c);
+    let mut findings = findings(d, ev, c, &worst, worst_case_basis);
+    if let Some((_, limit_findings)) = &limit {
+        findings.extend(limit_findings.iter().map(|f| FindingOut {
+            severity: model::severity_name(f.severity).into(),
+            code: f.code.into(),
+            message: f.message.clone(),
+        }));
+        sort_findings(&mut findings);
+    }
     let blocked_by = blockers(&findings);
     let v_err = dead_time_error_v(ev, c);
     Some(Plan {
@@ -1076,6 +1093,7 @@ pub fn build_on(
         findings,
         devices: c.rated.devices.clone(),
         three_phase: three_phase_out(d, ev, c),
+        current_limit: limit.map(|l| l.0),
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
         alternatives: alternatives_out(sol),
         conflict: sol.conflict.clone(),

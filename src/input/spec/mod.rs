@@ -15,7 +15,7 @@ use serde::Deserialize;
 pub use quantity::{
     Ampere, AmperePerSecond, Celsius, Coulomb, Dim, Either2, Farad, Henry, Hertz, Joule, Kelvin,
     KelvinPerWatt, Ohm, PerKelvin, Q, RadPerSecond, Ratio, Second, Siemens, Spread, Volt,
-    VoltSecondPerRad,
+    VoltSecondPerRad, Watt,
 };
 
 // ---------------------------------------------------------------- switch file
@@ -69,6 +69,17 @@ pub struct SwitchSpec {
     pub r_th_ja: Q<KelvinPerWatt>,
     /// Gate voltage of the zero-temperature-coefficient point (optional).
     pub v_ztc: Option<Q<Volt>>,
+    /// Pulsed drain-current rating I_DM and the pulse width it is given at
+    /// (optional; the current limit's peak is held to I_D without it).
+    pub i_dm: Option<PulsedCurrentSpec>,
+}
+
+/// A pulsed current rating.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PulsedCurrentSpec {
+    pub value: Q<Ampere>,
+    pub pulse_width: Q<Second>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -192,6 +203,122 @@ pub struct BoardSpec {
     pub thermal: ThermalSpec,
     /// Low-side shunt current sensing (`three-phase` only, required there).
     pub current_sensing: Option<CurrentSensingSpec>,
+    /// The over-current protection: the shunt, its amplifier and the timer's
+    /// fault input. Without it pwmplan plans no current limit and warns
+    /// where a stall would need one.
+    pub overcurrent: Option<OvercurrentSpec>,
+}
+
+/// The board's over-current path: shunt → amplifier → comparator → the
+/// timer's fault input (filter, blanking) → the outputs.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OvercurrentSpec {
+    pub shunt: ShuntSpec,
+    /// Between the shunt and the comparator; omit when the comparator reads
+    /// the shunt directly.
+    pub amplifier: Option<SenseAmplifierSpec>,
+    pub comparator: FaultComparatorSpec,
+    /// The fault input's digital filter; omit when the timer has none.
+    pub filter: Option<FaultFilterSpec>,
+    /// The fault input's blanking after each turn-on; omit when the timer
+    /// has none (the filter then has to reject the turn-on spike).
+    pub blanking: Option<BlankingSpec>,
+    /// What the timer can do when the fault input trips.
+    pub responses: Vec<FaultResponseSpec>,
+}
+
+/// The current-sense resistor.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ShuntSpec {
+    pub resistance: Q<Ohm>,
+    /// ± tolerance of the resistance (over temperature included).
+    pub tolerance: Q<Ratio>,
+    /// Power rating.
+    pub power: Q<Watt>,
+    /// Where it sits: `supply-return` (one shunt in the bus return),
+    /// `leg` (in each leg's low side), `phase` (in series with the motor).
+    pub place: ShuntPlaceSpec,
+}
+
+/// Where the shunt sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ShuntPlaceSpec {
+    SupplyReturn,
+    Leg,
+    Phase,
+}
+
+/// The sense amplifier: V_out = gain·I·R_shunt + offset.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SenseAmplifierSpec {
+    /// Voltage gain (a plain number, V/V).
+    pub gain: f64,
+    /// ± tolerance of the gain.
+    pub gain_tolerance: Q<Ratio>,
+    /// Output at zero current.
+    pub offset: Q<Volt>,
+    /// ± tolerance of the offset.
+    pub offset_tolerance: Q<Volt>,
+    /// Time the output needs to settle after a step (to the comparator's
+    /// accuracy).
+    pub settle_time: Q<Second>,
+}
+
+/// The fault comparator.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FaultComparatorSpec {
+    /// Its threshold: `{ programmable: { full_scale, code_bits } }` (a
+    /// reference DAC: threshold = code/2^bits × full_scale) or `{ fixed: V }`.
+    pub threshold: ThresholdSpec,
+    /// ± tolerance of the threshold (reference and DAC).
+    pub tolerance: Q<Ratio>,
+    /// ± input offset.
+    pub offset: Q<Volt>,
+    /// Propagation delay from the input crossing to the fault input.
+    pub delay: Q<Second>,
+}
+
+/// A comparator threshold.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "snake_case")]
+pub enum ThresholdSpec {
+    Programmable { full_scale: Q<Volt>, code_bits: u32 },
+    Fixed(Q<Volt>),
+}
+
+/// The fault input's digital filter: a fault passes after `N` consecutive
+/// samples at the chosen clock.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FaultFilterSpec {
+    /// Sample clocks offered.
+    pub clocks: Vec<Q<Hertz>>,
+    /// Sample counts offered.
+    pub samples: Vec<u32>,
+}
+
+/// The fault input's blanking after each turn-on, in ticks of the timer
+/// clock divided by `clock_divider`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BlankingSpec {
+    pub clock_divider: u32,
+    pub max_ticks: u32,
+}
+
+/// What the timer does when the fault input trips.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum FaultResponseSpec {
+    /// The outputs turn off until the next period starts.
+    CycleByCycle,
+    /// The outputs turn off until firmware clears the fault.
+    Latched,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -456,6 +583,31 @@ pub struct DesignSpec {
     /// (optional; without it only the switch's datasheet limits, the supply
     /// range and the ambient range spread).
     pub tolerances: Option<TolerancesSpec>,
+    /// The current limit's requirements (optional; needs the board's
+    /// `overcurrent`).
+    pub current_limit: Option<CurrentLimitSpec>,
+}
+
+/// What the design asks of the current limit.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CurrentLimitSpec {
+    /// A current the drive must deliver in short bursts (start-up,
+    /// acceleration) without tripping, in the meaning of `rated_current`.
+    pub burst: Option<BurstSpec>,
+    /// A trip current to use instead of the computed one.
+    pub trip: Option<Q<Ampere>>,
+    /// The response to use (default: `cycle-by-cycle` where the board
+    /// offers it).
+    pub response: Option<FaultResponseSpec>,
+}
+
+/// A burst current and how long it lasts.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BurstSpec {
+    pub current: Q<Ampere>,
+    pub duration: Q<Second>,
 }
 
 /// Spreads of the parts the switch file does not describe, each written as
@@ -538,6 +690,10 @@ pub struct MotorSpec {
     pub rated_current: Q<Ampere>,
     /// Speed at the rated load.
     pub operating_speed: Q<RadPerSecond>,
+    /// Highest current the motor tolerates even briefly (for example the
+    /// demagnetisation limit of its magnets), in the meaning of
+    /// `rated_current` (optional).
+    pub max_current: Option<Q<Ampere>>,
 }
 
 #[derive(Debug, Clone, Deserialize)]

@@ -42,6 +42,7 @@ dims! {
     KelvinPerWatt => ThermalResistance,
     Siemens => Conductance,
     Joule => Energy,
+    Watt => Power,
     Ratio => Ratio,
     PerKelvin => TemperatureCoefficient,
     VoltSecondPerRad => BackEmfConstant,

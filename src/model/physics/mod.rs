@@ -18,6 +18,7 @@ pub mod acoustics;
 pub mod bootstrap;
 pub mod capacitance;
 pub mod commutation;
+pub mod current_limit;
 pub mod dead_time_diode;
 pub mod deadtime;
 pub mod forward;

@@ -190,34 +190,30 @@ pub fn check_freewheel_path(topology: Topology, diode: Option<&DiodeModel>) -> O
     })
 }
 
-/// Stall: a stalled motor on a drive without a current limit draws
-/// I_stall = V_max/R_winding (Ohm's law: no back-EMF at standstill). It is
-/// checked against I_D and against the junction temperature at that current
-/// through the hot on-resistance R_ds(on)(T_j,max) at full conduction (common
-/// practice: size for stall at hot R_ds(on), not the 25 °C rating): with a
-/// stall time and a Foster network the single-pulse rise P·Z_th(t), otherwise
-/// the steady state P·R_th(j-a) (common practice). pwmplan does not yet know a
-/// drive's current limit, and nearly every real drive has one, so a stall
-/// beyond the ratings is a warning (`stall-needs-current-limit`) that names
-/// the current the limit must hold the stall to: the largest current whose
-/// junction stays at T_j,max on the same basis,
-/// I_lim = √((T_j,max − T_a)/(R_hot·Z)), with Z = Z_th(t) or R_th(j-a)
-/// (the same relation solved for I; own derivation), and not above I_D.
-pub fn check_stall(
+/// A stall's heating of one switch: the current through the hot
+/// on-resistance R_ds(on)(T_j,max) at full conduction (common practice: size
+/// for stall at hot R_ds(on)), over the stall time through the transient
+/// impedance P·Z_th(t) where the board gives a Foster network, otherwise in
+/// steady state P·R_th(j-a) (common practice); `basis` says which in words.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StallHeating {
+    pub t_j_c: f64,
+    pub r_hot_ohm: f64,
+    pub p_w: f64,
+    pub z_k_per_w: f64,
+    pub basis: String,
+}
+
+/// See [`StallHeating`].
+pub fn stall_heating(
     sw: &SwitchModel,
-    v_bus_max_v: f64,
-    r_winding_ohm: f64,
+    i_a: f64,
     thermal_path: &ThermalPath,
     t_ambient_c: f64,
     stall_time_s: Option<f64>,
-) -> Vec<Finding> {
-    let mut out = Vec::new();
-    if r_winding_ohm <= 0.0 || !r_winding_ohm.is_finite() || !v_bus_max_v.is_finite() {
-        return out;
-    }
-    let i_stall = v_bus_max_v / r_winding_ohm;
+) -> StallHeating {
     let r_hot = thermal::r_ds_on_ohm(sw, sw.t_j_max_c);
-    let p_hot = i_stall * i_stall * r_hot;
+    let p_hot = i_a * i_a * r_hot;
     // What the temperature is computed from, in words.
     let (z, basis) = match stall_time_s {
         Some(t) if !thermal_path.foster.is_empty() => {
@@ -246,7 +242,57 @@ pub fn check_stall(
             ),
         ),
     };
-    let t_j = t_ambient_c + p_hot * z;
+    StallHeating {
+        t_j_c: t_ambient_c + p_hot * z,
+        r_hot_ohm: r_hot,
+        p_w: p_hot,
+        z_k_per_w: z,
+        basis,
+    }
+}
+
+/// The largest current whose stall keeps the junction at T_j,max on the
+/// basis of [`stall_heating`]: I = √((T_j,max − T_a)/(R_hot·Z)) (the same
+/// relation solved for I; own derivation); 0 when there is no room.
+pub fn stall_current_at_t_j_max_a(h: &StallHeating, sw: &SwitchModel, t_ambient_c: f64) -> f64 {
+    let room_k = sw.t_j_max_c - t_ambient_c;
+    if room_k > 0.0 && h.z_k_per_w > 0.0 && h.r_hot_ohm > 0.0 {
+        (room_k / (h.r_hot_ohm * h.z_k_per_w)).sqrt()
+    } else {
+        0.0
+    }
+}
+
+/// Stall: a stalled motor on a drive without a current limit draws
+/// I_stall = V_max/R_winding (Ohm's law: no back-EMF at standstill). It is
+/// checked against I_D and against the junction temperature at that current
+/// through the hot on-resistance R_ds(on)(T_j,max) at full conduction (common
+/// practice: size for stall at hot R_ds(on), not the 25 °C rating): with a
+/// stall time and a Foster network the single-pulse rise P·Z_th(t), otherwise
+/// the steady state P·R_th(j-a) (common practice). Used where the board
+/// describes no over-current path (`model::current_limit` plans the stall
+/// otherwise); nearly every real drive has one, so a stall
+/// beyond the ratings is a warning (`stall-needs-current-limit`) that names
+/// the current the limit must hold the stall to: the largest current whose
+/// junction stays at T_j,max on the same basis,
+/// I_lim = √((T_j,max − T_a)/(R_hot·Z)), with Z = Z_th(t) or R_th(j-a)
+/// (the same relation solved for I; own derivation), and not above I_D.
+pub fn check_stall(
+    sw: &SwitchModel,
+    v_bus_max_v: f64,
+    r_winding_ohm: f64,
+    thermal_path: &ThermalPath,
+    t_ambient_c: f64,
+    stall_time_s: Option<f64>,
+) -> Vec<Finding> {
+    let mut out = Vec::new();
+    if r_winding_ohm <= 0.0 || !r_winding_ohm.is_finite() || !v_bus_max_v.is_finite() {
+        return out;
+    }
+    let i_stall = v_bus_max_v / r_winding_ohm;
+    let heating = stall_heating(sw, i_stall, thermal_path, t_ambient_c, stall_time_s);
+    let (t_j, r_hot, p_hot) = (heating.t_j_c, heating.r_hot_ohm, heating.p_w);
+    let basis = &heating.basis;
     let over_id = i_stall > sw.i_d_a;
     let over_t = !t_j.is_finite() || t_j > sw.t_j_max_c;
     if !(over_id || over_t) {
@@ -254,12 +300,7 @@ pub fn check_stall(
     }
     // The current at which the junction just reaches T_j,max on the same
     // basis, and not above I_D.
-    let room_k = sw.t_j_max_c - t_ambient_c;
-    let i_thermal = if room_k > 0.0 && z > 0.0 && r_hot > 0.0 {
-        (room_k / (r_hot * z)).sqrt()
-    } else {
-        0.0
-    };
+    let i_thermal = stall_current_at_t_j_max_a(&heating, sw, t_ambient_c);
     let (i_limit, why) = if i_thermal <= sw.i_d_a {
         (i_thermal, "there the junction just reaches T_j,max")
     } else {
@@ -287,7 +328,7 @@ pub fn check_stall(
         Severity::Warning,
         "stall-needs-current-limit",
         format!(
-            "A stalled motor on a drive without a current limit draws V/R_winding = {}: {}. {basis}, {} ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most {} ({why}).",
+            "A stalled motor on a drive without a current limit draws V/R_winding = {}: {}. {basis}, {} ambient. The drive needs a current limit that holds the stall current to at most {} ({why}); describe the board's over-current path (`overcurrent`) and pwmplan plans it.",
             q(i_stall, Dimension::Current),
             beyond.join(", and "),
             q(t_ambient_c, Dimension::Temperature),

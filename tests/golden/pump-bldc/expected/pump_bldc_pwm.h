@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:88fcb340790bbefa5cf669d297f839bd27e663f939a40c1c6b013fd69b1be2b2)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:619cfa1272e6a1f4e81e26c236bf665d9980651aed05dce3bd249c9fe4386ddc)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -44,6 +44,18 @@
  *   ripple, high-bus case   805 mA peak to peak at 20.007 kHz (continuous), 171 mA rms; the larger, checked against the ripple limit
  *   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
  *
+ * Current limit
+ *   threshold       code 13 = 670 mV at the comparator
+ *   trips           never below 10.9 A, always above 12.7 A (nominal 11.8 A; shunt in the supply return; shunt, amplifier and comparator tolerances stacked worst-case)
+ *   operating peak  10.4 A (the high-bus case's load current plus half its ripple); margin to the lowest trip 476 mA
+ *   peak            12.7 A = highest trip + 24.7 mA overshoot in the 228 ns reaction; the switch's I_DM at 100 µs 240 A (margin 227 A)
+ *   reaction        228 ns = filter 8.33 ns + comparator 60.0 ns + driver 120 ns + turn-off delay 26.0 ns + voltage rise 14.1 ns
+ *   blanking        492 ns (59 blanking ticks) against a turn-on transient of 491 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 3.94 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 300 ns
+ *   filter          1 sample at 120 MHz (passes a fault held 8.33 ns)
+ *   uncut on-time   720 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length
+ *   response        cycle-by-cycle
+ *   stall           12.7 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 74.3 °C at hot R_ds(on) (Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W))
+ *
  * Worst case over part and operating spreads
  *   junction    50.6 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
  *   total-loss  3.68 W; ok; hot: V_th min, supply 54.0 V
@@ -64,8 +76,7 @@
  *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +934 mW total loss, +1.4 K junction, -403 mA ripple, -1.00 bits resolution
  *
  * Findings
- *   warning  A stalled motor on a drive without a current limit draws V/R_winding = 225 A: above the I_D rating 60.0 A, and 992 W at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W), 45.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 26.7 A (there the junction just reaches T_j,max).
- *   info     the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+ *   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
@@ -85,8 +96,8 @@
  *
  * Inputs
  *   pump-bldc.yaml            sha256 692145daa621d654658dc4de2975bb91786890ae95f800116de79f25d862c479
- *   osprey-3p48.yaml          sha256 3fd448f55930a4e71577835d929b781c9d700d347a59ec5bd33b03bb2f50c69c
- *   switches/corrie-100.yaml  sha256 fefd8fe9a592b0f426dd502660a8783662c567964618e6bd7303ab9898377ff0
+ *   osprey-3p48.yaml          sha256 4c81b1a4ac2e44db028a81163040216359e8dbbf50cf3f56670cb2f3acd2d063
+ *   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
  */
 #ifndef PUMP_BLDC_PWM_H
 #define PUMP_BLDC_PWM_H
@@ -139,6 +150,18 @@
 /* Largest compare of a sampled leg that still leaves the sampling window
  * (settling, dead time, sample); above it that leg's current is not valid. */
 #define PUMP_BLDC_PWM_SAMPLING_COMPARE_MAX 2756U
+/* Current limit (fault input): it trips never below 10879 mA and
+ * always above 12670 mA of motor current (see the rationale). */
+/* Comparator threshold code (670.3 mV). */
+#define PUMP_BLDC_PWM_LIMIT_THRESHOLD_CODE 13U
+/* Fault filter: a fault passes after this many consecutive samples at this clock. */
+#define PUMP_BLDC_PWM_LIMIT_FILTER_CLOCK_HZ 120000000UL
+#define PUMP_BLDC_PWM_LIMIT_FILTER_SAMPLES 1U
+/* Fault input ignored for this many blanking ticks after each turn-on (491.7 ns). */
+#define PUMP_BLDC_PWM_LIMIT_BLANKING_TICKS 59U
+/* 1: a fault turns the outputs off until the next period (cycle-by-cycle);
+ * 0: until firmware clears it (latched). */
+#define PUMP_BLDC_PWM_LIMIT_CYCLE_BY_CYCLE 1
 
 /*
  * Init sequence (register names differ per MCU; values are above):
@@ -148,10 +171,11 @@
  *   4. Counting mode <- up-down (centre-aligned) (see PUMP_BLDC_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
  *   6. Dead-time register <- PUMP_BLDC_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
- *   7. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- PUMP_BLDC_PWM_INIT_COMPARE (outputs still disabled), then values from pump_bldc_pwm_compare_from_q16() only (one per channel).
- *   8. ADC trigger: a spare compare channel <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the UP-count match only (just before the counter top, where the low sides conduct).
- *   9. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
- *   10. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
+ *   7. Fault input (over-current): threshold <- PUMP_BLDC_PWM_LIMIT_THRESHOLD_CODE (670.3 mV), filter <- PUMP_BLDC_PWM_LIMIT_FILTER_SAMPLES samples at PUMP_BLDC_PWM_LIMIT_FILTER_CLOCK_HZ Hz, blanking after each turn-on <- PUMP_BLDC_PWM_LIMIT_BLANKING_TICKS ticks (491.7 ns), response <- cycle-by-cycle (see PUMP_BLDC_PWM_LIMIT_CYCLE_BY_CYCLE); clear any pending fault and arm the input now, before the outputs are ever enabled, so the first pulse is already limited.
+ *   8. Channels A, B and C: the same PWM mode, complementary outputs with the dead time; compare registers <- PUMP_BLDC_PWM_INIT_COMPARE (outputs still disabled), then values from pump_bldc_pwm_compare_from_q16() only (one per channel).
+ *   9. ADC trigger: a spare compare channel <- PUMP_BLDC_PWM_ADC_TRIGGER_COMPARE, triggering on the UP-count match only (just before the counter top, where the low sides conduct).
+ *   10. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+ *   11. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
  */
 
 /*

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:cb6e2dcbdd83c397def8ca2b1b3b3051cf86863ce2f7dc4784e630e65bb481a9)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:f525934fe1ef4d400a9e35d79671c095cdaa76755231526921b144c2b90ffd1e)
 //!
 //! Chosen setting
 //!   design         winch
@@ -41,6 +41,18 @@
 //!   ripple, high-bus case   1.80 A peak to peak at 20.367 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
 //!
+//! Current limit
+//!   threshold       fixed, 1.25 V at the comparator
+//!   trips           never below 23.2 A, always above 27.0 A (nominal 25.0 A; shunt in the leg; shunt, amplifier and comparator tolerances stacked worst-case)
+//!   operating peak  20.9 A (the high-bus case's burst current plus half its ripple); margin to the lowest trip 2.25 A
+//!   peak            27.1 A = highest trip + 133 mA overshoot in the 791 ns reaction; the switch's I_DM at 100 µs 240 A (margin 213 A)
+//!   reaction        791 ns = filter 533 ns + comparator 100 ns + driver 120 ns + turn-off delay 24.3 ns + voltage rise 13.2 ns
+//!   blanking        467 ns (no blanking timer: the filter rejects it) against a turn-on transient of 393 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 5.81 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 200 ns
+//!   filter          8 samples at 15.0 MHz (passes a fault held 533 ns, rejects pulses under 467 ns)
+//!   uncut on-time   791 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length
+//!   response        cycle-by-cycle
+//!   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
+//!
 //! Worst case over part and operating spreads
 //!   junction    68.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
 //!   total-loss  5.63 W; ok; hot: V_th min, supply 54.0 V
@@ -60,8 +72,7 @@
 //!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2022 mW total loss, +6.0 K junction, -1316 mA ripple, -1.90 bits resolution
 //!
 //! Findings
-//!   warning  A stalled motor on a drive without a current limit draws V/R_winding = 300 A: above the I_D rating 60.0 A, and 1.76 kW at hot R_ds(on) 19.6 mΩ would take the junction past T_j,max 175 °C. Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W), 50.0 °C ambient. The drive needs a current limit (pwmplan does not model one yet) that holds the stall current to at most 29.6 A (there the junction just reaches T_j,max).
-//!   info     the dead time costs about 122 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+//!   info  the dead time costs about 122 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
@@ -80,9 +91,9 @@
 //!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
 //!
 //! Inputs
-//!   winch.yaml                sha256 2b3d70d4d072ff5150be9bc676a51b3036898fedef5960e5ef3e803fe0bc568f
-//!   heron-hb48.yaml           sha256 52ffb37248d903ce32f6edf703db2dd69d383f5cf31442f4797ab515d151d01b
-//!   switches/corrie-100.yaml  sha256 fefd8fe9a592b0f426dd502660a8783662c567964618e6bd7303ab9898377ff0
+//!   winch.yaml                sha256 f4056a6a50821b7bbb521f537904ea5a814017ea3cd77a94ec19bed1924deb98
+//!   heron-hb48.yaml           sha256 55451a06be438249f90e098e451be2275c6c8a484d7d545e3067fbc675f35811
+//!   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!
@@ -97,9 +108,10 @@
 //!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
 //!   6. Dead-time register <- DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.
-//!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
-//!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
-//!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
+//!   7. Fault input (over-current): filter <- LIMIT_FILTER_SAMPLES samples at LIMIT_FILTER_CLOCK_HZ Hz, response <- cycle-by-cycle (see LIMIT_CYCLE_BY_CYCLE); clear any pending fault and arm the input now, before the outputs are ever enabled, so the first pulse is already limited.
+//!   8. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
+//!   9. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   10. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
@@ -133,6 +145,15 @@ pub const INIT_COMPARE: u32 = 0;
 /// True when compare 0 with the outputs enabled turns the low side(s) on and
 /// shorts the motor (braking). Coasting is outputs disabled.
 pub const DUTY_ZERO_BRAKES: bool = true;
+// Current limit (fault input): it trips never below 23151 mA and
+// always above 26953 mA of motor current (see the rationale).
+/// Fault filter clock, Hz: a fault passes after `LIMIT_FILTER_SAMPLES` consecutive samples.
+pub const LIMIT_FILTER_CLOCK_HZ: u64 = 15000000;
+/// Fault filter sample count.
+pub const LIMIT_FILTER_SAMPLES: u32 = 8;
+/// True: a fault turns the outputs off until the next period (cycle-by-cycle);
+/// false: until firmware clears it (latched).
+pub const LIMIT_CYCLE_BY_CYCLE: bool = true;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
