@@ -236,6 +236,84 @@ fn board_text(r: &mut Rng, topology: &str, modulation: &str, three_phase: bool) 
     )
 }
 
+/// A random over-current path for half of the designs, drawn from its own generator so the
+/// other draws stay as they were: a shunt, an amplifier on three in five, a programmable or a
+/// fixed threshold placed about 1.5 to 3 times the rated current, a fault filter and/or a
+/// blanking timer (at least one), and the responses. Appended to the board's text.
+fn overcurrent_text(r: &mut Rng, design: &str, clock_mhz: f64) -> String {
+    if !r.chance(0.5) {
+        return String::new();
+    }
+    let rated = design
+        .split("rated_current: \"")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse::<f64>().ok())
+        .unwrap_or(1.0);
+    let shunt = r.log(0.5e-3, 20e-3);
+    let power = (4.0 * rated).powi(2) * shunt * 1.5;
+    let (gain, amp) = if r.chance(0.6) {
+        let g = r.log(5.0, 50.0);
+        let off = r.range(0.0, 1.65);
+        (
+            g,
+            format!(
+                "\n    amplifier: {{ gain: {g:.3}, gain_tolerance: \"{:.1} %\", offset: \"{off:.3} V\", offset_tolerance: \"{:.1} mV\", settle_time: \"{:.0} ns\" }}",
+                r.range(0.5, 2.0),
+                r.range(1.0, 10.0),
+                r.range(50.0, 1000.0)
+            ),
+        )
+    } else {
+        (1.0, String::new())
+    };
+    let offset = amp
+        .split("offset: \"")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse::<f64>().ok())
+        .unwrap_or(0.0);
+    let at_trip = |k: f64| offset + k * rated * shunt * gain;
+    let threshold = if r.chance(0.7) {
+        format!(
+            "{{ programmable: {{ full_scale: \"{:.4} V\", code_bits: {} }} }}",
+            at_trip(3.0) * r.range(1.0, 2.0),
+            r.pick(&[6u32, 8, 10])
+        )
+    } else {
+        format!("{{ fixed: \"{:.4} V\" }}", at_trip(r.range(1.5, 3.0)))
+    };
+    let filter = r.chance(0.7);
+    let filter_line = if filter {
+        format!(
+            "\n    filter: {{ clocks: [\"{:.3} MHz\", \"{:.3} MHz\"], samples: [1, 2, 4, 8, 16] }}",
+            clock_mhz,
+            clock_mhz / 4.0
+        )
+    } else {
+        String::new()
+    };
+    let blanking = if !filter || r.chance(0.6) {
+        format!(
+            "\n    blanking: {{ clock_divider: {}, max_ticks: {} }}",
+            r.pick(&[1u32, 2, 4]),
+            r.pick(&[255u32, 1023])
+        )
+    } else {
+        String::new()
+    };
+    let responses = r.pick(&["[cycle-by-cycle]", "[cycle-by-cycle, latched]", "[latched]"]);
+    format!(
+        "  overcurrent:\n    shunt: {{ resistance: \"{:.4} mohm\", tolerance: \"{:.1} %\", power: \"{power:.3} W\", place: {} }}{amp}\n    comparator:\n      threshold: {threshold}\n      tolerance: \"{:.1} %\"\n      offset: \"{:.1} mV\"\n      delay: \"{:.0} ns\"{filter_line}{blanking}\n    responses: {responses}\n",
+        shunt * 1e3,
+        r.range(0.5, 2.0),
+        r.pick(&["supply-return", "leg", "phase"]),
+        r.range(0.5, 3.0),
+        r.range(0.5, 10.0),
+        r.range(20.0, 300.0)
+    )
+}
+
 /// A random design on `board.yaml`: supply under the switch rating, a motor whose load is
 /// reachable at the lowest supply with room for the dead time.
 fn design_text(r: &mut Rng, v_dss: f64, three_phase: bool, six_step: bool) -> String {
@@ -315,12 +393,24 @@ type WrittenPlan = (Plan, Vec<String>, Vec<String>);
 /// disagree with their figures withheld by `register_check::apply_to_plan`), with any
 /// withheld alternative still offered or not named by its finding (a defect) and the labels
 /// withheld.
-fn random_plan(r: &mut Rng, dir: &Path, kind: usize) -> Result<Option<WrittenPlan>, String> {
+fn random_plan(
+    r: &mut Rng,
+    limits: &mut Rng,
+    dir: &Path,
+    kind: usize,
+) -> Result<Option<WrittenPlan>, String> {
     let (topology, modulation) = TOPOLOGIES[kind];
     let three_phase = topology == "three-phase";
     let (switch, v_dss) = switch_text(r);
-    let board = board_text(r, topology, modulation, three_phase);
+    let mut board = board_text(r, topology, modulation, three_phase);
     let design = design_text(r, v_dss, three_phase, modulation.starts_with("six"));
+    let clock_mhz = board
+        .split("clock: \"")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse::<f64>().ok())
+        .unwrap_or(100.0);
+    board.push_str(&overcurrent_text(limits, &design, clock_mhz));
     let write = |name: &str, text: &str| std::fs::write(dir.join(name), text);
     write("switch.yaml", &switch).map_err(|e| e.to_string())?;
     write("board.yaml", &board).map_err(|e| e.to_string())?;
@@ -433,6 +523,7 @@ fn trace_case(i: usize, plan: &Plan, c: &pwmplan::plan::CaseCheck, case: &pwmpla
 fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     let dir = tempfile::tempdir().expect("temp dir");
     let mut r = Rng(seed);
+    let mut limits = Rng(seed ^ 0x0C0F_FEE0);
     let mut feasible: BTreeMap<usize, usize> = BTreeMap::new();
     let mut drawn: BTreeMap<usize, usize> = BTreeMap::new();
     let mut failures = String::new();
@@ -445,11 +536,13 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     let mut withheld_total = 0usize;
     // Three-phase plans whose phase currents the verifier compared.
     let mut currents_checked = 0usize;
+    // Plans whose current limit's chopped stall the verifier compared.
+    let mut limits_checked = 0usize;
     for i in 0..n {
         let kind = kinds.start + i % kinds.len();
         *drawn.entry(kind).or_default() += 1;
         let t0 = std::time::Instant::now();
-        let result = random_plan(&mut r, dir.path(), kind);
+        let result = random_plan(&mut r, &mut limits, dir.path(), kind);
         *spent.entry(kind).or_default() += t0.elapsed().as_secs_f64();
         let (plan, alternative_disagreements, withheld) = match result {
             Ok(Some(p)) => p,
@@ -474,6 +567,9 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         }
         if plan.topology == "three-phase" && !check.cases.is_empty() {
             currents_checked += 1;
+        }
+        if check.limit_stall_mean_a.is_some() {
+            limits_checked += 1;
         }
         for c in &check.cases {
             let case = plan.cases.iter().find(|k| k.name == c.name).expect("case");
@@ -531,7 +627,14 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     );
     // Withholding keeps unverified figures out of the output, but each one is a place where
     // the model is outside its accuracy: at most one plan in fifty (own bound).
-    eprintln!("{withheld_total} alternatives withheld");
+    eprintln!(
+        "{withheld_total} alternatives withheld; {limits_checked} current limits' stalls compared"
+    );
+    let feasible_total: usize = feasible.values().sum();
+    assert!(
+        limits_checked * 8 >= feasible_total,
+        "only {limits_checked} of {feasible_total} feasible plans had their current limit's stall compared"
+    );
     assert!(
         withheld_total * 50 <= n,
         "{withheld_total} alternatives withheld in {n} random designs"

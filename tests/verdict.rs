@@ -289,6 +289,47 @@ fn a_current_limit_bounds_the_stall_and_its_errors_block() {
     assert!(!dir.path().join("out").exists());
 }
 
+/// A shunt in a half-bridge's leg never carries the high side's pulse: a
+/// cycle-by-cycle limit on it is an error finding that stops the plan.
+#[test]
+fn a_half_bridge_leg_shunt_cannot_chop() {
+    let dir = boards();
+    let board = dir.path().join("wren-hb24.yaml");
+    let mut text = fs::read_to_string(&board).expect("board");
+    text.push_str(
+        "  overcurrent:\n    shunt: { resistance: \"10 mohm\", tolerance: \"1 %\", power: \"2 W\", place: leg }\n    amplifier: { gain: 20, gain_tolerance: \"1 %\", offset: \"0.3 V\", offset_tolerance: \"5 mV\", settle_time: \"300 ns\" }\n    comparator:\n      threshold: { programmable: { full_scale: \"3.3 V\", code_bits: 8 } }\n      tolerance: \"2 %\"\n      offset: \"5 mV\"\n      delay: \"80 ns\"\n    blanking: { clock_divider: 1, max_ticks: 255 }\n    responses: [cycle-by-cycle, latched]\n",
+    );
+    fs::write(&board, &text).expect("write the board");
+    let o = run(dir.path(), &["plan", "belt-feeder.yaml"]);
+    assert_eq!(o.status.code(), Some(1), "{}", describe(&o));
+    assert!(
+        describe(&o).contains("error finding current-limit-place"),
+        "{}",
+        describe(&o)
+    );
+    // The same shunt with the latched response: no such finding.
+    design_from(
+        dir.path(),
+        "belt-feeder.yaml",
+        "latched.yaml",
+        &[(
+            "objective: least-loss",
+            "objective: least-loss\n  current_limit: { response: latched }",
+        )],
+    );
+    let o = run(
+        dir.path(),
+        &["plan", "latched.yaml", "--json", "--no-write"],
+    );
+    let p = json(&o);
+    let findings = p["findings"].as_array().expect("findings");
+    assert!(
+        findings.iter().all(|f| f["code"] != "current-limit-place"),
+        "{findings:?}"
+    );
+    assert_eq!(p["current_limit"]["response"], "latched");
+}
+
 /// The belt feeder at 3330 rpm with a ±20 % winding resistance: at the
 /// lowest supply and the highest resistance the load needs more duty than
 /// the compare limit allows (typical values pass).

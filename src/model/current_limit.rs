@@ -84,6 +84,45 @@ pub struct CurrentLimitOut {
     pub stall_junction_c: Option<f64>,
     /// What that junction temperature was computed on (transient or steady).
     pub stall_thermal_basis: String,
+    /// The sensing chain and the stall circuit as the plan used them, so the
+    /// register check can redo the limit from this record alone.
+    pub sense: SenseOut,
+    pub stall_circuit: StallCircuitOut,
+}
+
+/// The sensing chain with its tolerances, and how the threshold code maps to
+/// volts (`plan.json` `current_limit.sense`).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SenseOut {
+    pub r_shunt_ohm: f64,
+    pub r_tolerance: f64,
+    pub gain: f64,
+    pub gain_tolerance: f64,
+    pub offset_v: f64,
+    pub offset_tolerance_v: f64,
+    /// ± relative tolerance of the threshold, and the comparator's ± offset.
+    pub threshold_tolerance: f64,
+    pub comparator_offset_v: f64,
+    /// Programmable threshold: code k gives k/2^bits × full scale.
+    pub threshold_full_scale_v: Option<f64>,
+    pub threshold_code_bits: Option<u32>,
+    /// One blanking tick, s (with a blanking timer).
+    pub blanking_tick_s: Option<f64>,
+}
+
+/// The circuit a stall chops: the highest bus across the stalled winding
+/// (three-phase: two phases), and what the off-state applies.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct StallCircuitOut {
+    pub v_bus_v: f64,
+    pub r_ohm: f64,
+    pub l_h: f64,
+    /// PWM period at the chosen setting, s.
+    pub period_s: f64,
+    /// `shorted`, `diode` or `reversed`.
+    pub freewheel: String,
+    /// The diode's forward voltage where `freewheel` is `diode`, V.
+    pub freewheel_v_f_v: f64,
 }
 
 /// The blanking need's parts, s.
@@ -105,6 +144,19 @@ pub struct ReactionParts {
     pub driver_s: f64,
     pub turn_off_delay_s: f64,
     pub voltage_rise_s: f64,
+}
+
+impl ReactionParts {
+    /// The reaction time, `physics::current_limit::reaction_time_s`.
+    pub fn total_s(&self) -> f64 {
+        cl::reaction_time_s(
+            self.filter_s,
+            self.comparator_s,
+            self.driver_s,
+            self.turn_off_delay_s,
+            self.voltage_rise_s,
+        )
+    }
 }
 
 /// A finding of the current limit (severity, stable code, message).
@@ -144,6 +196,30 @@ fn sense_chain(oc: &OvercurrentSpec) -> SenseChain {
         gain_tolerance: a.map_or(0.0, |a| a.gain_tolerance.si),
         offset_v: a.map_or(0.0, |a| a.offset.si),
         offset_tolerance_v: a.map_or(0.0, |a| a.offset_tolerance.si),
+    }
+}
+
+/// The chain and threshold coding as a record.
+fn sense_out(oc: &OvercurrentSpec, chain: &SenseChain, blanking_tick_s: Option<f64>) -> SenseOut {
+    let (full_scale, bits) = match &oc.comparator.threshold {
+        ThresholdSpec::Programmable {
+            full_scale,
+            code_bits,
+        } => (Some(full_scale.si), Some(*code_bits)),
+        ThresholdSpec::Fixed(_) => (None, None),
+    };
+    SenseOut {
+        r_shunt_ohm: chain.r_shunt_ohm,
+        r_tolerance: chain.r_tolerance,
+        gain: chain.gain,
+        gain_tolerance: chain.gain_tolerance,
+        offset_v: chain.offset_v,
+        offset_tolerance_v: chain.offset_tolerance_v,
+        threshold_tolerance: oc.comparator.tolerance.si,
+        comparator_offset_v: oc.comparator.offset.si,
+        threshold_full_scale_v: full_scale,
+        threshold_code_bits: bits,
+        blanking_tick_s,
     }
 }
 
@@ -483,29 +559,38 @@ pub fn plan(
         turn_off_delay_s: t_d_off_s,
         voltage_rise_s: t_rv_s,
     };
-    let reaction_s = cl::reaction_time_s(
-        reaction_parts.filter_s,
-        reaction_parts.comparator_s,
-        reaction_parts.driver_s,
-        reaction_parts.turn_off_delay_s,
-        reaction_parts.voltage_rise_s,
-    );
-    let (r_stall, l_stall) = stall_path(d, ev);
-    let v_max = ev.high_bus.v_bus_v;
+    let reaction_s = reaction_parts.total_s();
+    let circuit = stall_circuit(d, ev, c);
+    let (r_stall, l_stall, v_max) = (circuit.r_ohm, circuit.l_h, circuit.v_bus_v);
     let overshoot_a = cl::overshoot_a(v_max, l_stall, reaction_s);
     let (code, threshold_v, w) =
         choose_threshold(oc, &chain, i_op, want.and_then(|x| x.trip).map(|t| t.si));
     let limits = hard_limits(d, ev, oc, chopping);
     let shortest_s = mask.before_reaction_s + reaction_s;
-    let ratchet_a = cl::ratchet_current_a(
-        v_max,
-        r_stall,
-        l_stall,
-        shortest_s,
-        1.0 / c.setting.frequency_hz,
-        freewheel(ev),
-    );
-    let (stall_current_a, stall_basis) = stall_current(chopping, w.high_a, ratchet_a);
+    let cycle = cl::stall_cycle(&cl::ChoppedStall {
+        v_bus_v: v_max,
+        r_ohm: r_stall,
+        l_h: l_stall,
+        period_s: circuit.period_s,
+        freewheel: freewheel(ev),
+        i_trip_a: w.high_a,
+        t_blank_s: mask.before_reaction_s,
+        t_comparator_s: reaction_parts.comparator_s,
+        t_post_s: reaction_s - reaction_parts.comparator_s,
+    });
+    let chopped_mean_a = cycle.mean_a;
+    let (stall_current_a, stall_basis) = stall_current(chopping, w.high_a, chopped_mean_a);
+    // A chopped stall may cross the trip inside the blanking, or so late in
+    // a period that the next one starts above the trip: it then rises over
+    // the uncut on-time on top of a reaction's overshoot. Bounded by
+    // V/L·(reaction + uncut on-time) over the trip (R·I neglected, own
+    // derivation), and never below the settled cycle's own peak.
+    let peak_a = if chopping {
+        let bound = w.high_a + cl::overshoot_a(v_max, l_stall, reaction_s + shortest_s);
+        bound.max(cycle.peak_a)
+    } else {
+        w.high_a + overshoot_a
+    };
     let heating = stall_heating(
         &ev.stage.switch,
         stall_current_a,
@@ -541,24 +626,57 @@ pub fn plan(
         reaction_s,
         reaction_parts,
         overshoot_a,
-        peak_a: w.high_a + overshoot_a,
+        peak_a,
         shortest_controllable_pulse_s: shortest_s,
         stall_current_a,
         stall_basis,
         stall_junction_c,
         stall_thermal_basis: heating.basis,
+        sense: sense_out(
+            oc,
+            &chain,
+            oc.blanking
+                .as_ref()
+                .map(|b| f64::from(b.clock_divider) / ev.timer.clock_hz),
+        ),
+        stall_circuit: circuit,
     };
     let mut findings: Vec<LimitFinding> = mask.finding.into_iter().collect();
+    findings.extend(place_finding(oc.shunt.place, ev, chopping));
+    findings.extend(hard_short_finding(&out, ev));
     findings.extend(window_findings(&out, want.and_then(|x| x.trip).is_some()));
-    findings.extend(stall_findings(&out, ratchet_a));
+    findings.extend(stall_findings(&out, chopped_mean_a));
     Some((out, findings))
 }
 
+/// The stall's circuit at the chosen setting.
+fn stall_circuit(d: &Design, ev: &Evaluator, c: &Candidate) -> StallCircuitOut {
+    let (r_ohm, l_h) = stall_path(d, ev);
+    let fw = freewheel(ev);
+    StallCircuitOut {
+        v_bus_v: ev.high_bus.v_bus_v,
+        r_ohm,
+        l_h,
+        period_s: 1.0 / c.setting.frequency_hz,
+        freewheel: match fw {
+            Freewheel::Shorted => "shorted",
+            Freewheel::Diode { .. } => "diode",
+            Freewheel::Reversed => "reversed",
+        }
+        .into(),
+        freewheel_v_f_v: match fw {
+            Freewheel::Diode { v_f_v } => v_f_v,
+            _ => 0.0,
+        },
+    }
+}
+
 /// The stall current under the limit and its basis: cycle-by-cycle holds it
-/// at the trip's highest edge (the ripple and overshoot about it left out of
-/// the mean), unless the shortest on-time ratchets it higher; latched stops
-/// the drive at the first trip.
-fn stall_current(chopping: bool, trip_high_a: f64, ratchet_a: f64) -> (f64, String) {
+/// at the trip's highest edge (above the chopped cycle's mean, which the
+/// ripple pulls below it), unless the chopped cycle's mean
+/// (`physics::current_limit::stall_cycle`) is higher: the on-time the limit
+/// cannot cut ratchets it up; latched stops the drive at the first trip.
+fn stall_current(chopping: bool, trip_high_a: f64, chopped_mean_a: f64) -> (f64, String) {
     if !chopping {
         return (
             0.0,
@@ -566,12 +684,12 @@ fn stall_current(chopping: bool, trip_high_a: f64, ratchet_a: f64) -> (f64, Stri
                 .into(),
         );
     }
-    if ratchet_a > trip_high_a {
+    if chopped_mean_a > trip_high_a {
         (
-            ratchet_a,
+            chopped_mean_a,
             format!(
-                "cycle-by-cycle, but the on-time the limit cannot cut (blanking and reaction) adds more current each period than the off-time removes: the stall settles at {} (volt-second balance), above the trip",
-                q(ratchet_a, Dimension::Current)
+                "cycle-by-cycle, but the on-time the limit cannot cut (blanking and reaction) adds more current each period than the off-time removes: the chopped stall settles at a mean of {}, above the trip",
+                q(chopped_mean_a, Dimension::Current)
             ),
         )
     } else {
@@ -580,6 +698,57 @@ fn stall_current(chopping: bool, trip_high_a: f64, ratchet_a: f64) -> (f64, Stri
             "cycle-by-cycle: a stall is chopped at the trip's highest edge".into(),
         )
     }
+}
+
+/// A shunt in a half-bridge's leg (its low side) carries the motor current
+/// only while the high side is off: it never sees the pulse a cycle-by-cycle
+/// limit must cut (common practice). The H-bridge and three-phase bridge
+/// return the driven current through another leg's low side, and the low-side
+/// stage's switch is the low side, so there a leg shunt sees it.
+fn place_finding(place: ShuntPlaceSpec, ev: &Evaluator, chopping: bool) -> Option<LimitFinding> {
+    (chopping
+        && place == ShuntPlaceSpec::Leg
+        && ev.three_phase.is_none()
+        && ev.stage.topology == Topology::HalfBridge)
+        .then(|| {
+            error(
+                "current-limit-place",
+                "A shunt in the half-bridge's leg (its low side) carries the motor current only while the high side is off, so a cycle-by-cycle limit never sees the pulse it must cut: place the shunt in the supply return or in the phase, or use the latched response."
+                    .into(),
+            )
+        })
+}
+
+/// A short at the motor terminals leaves only the commutation loop's
+/// inductance to slow the current: di/dt = V_bus/L_loop (common practice).
+/// Where it passes the peak limit within the reaction, the comparator limit
+/// cannot protect against it: a warning naming the rate (the gate driver's
+/// desaturation detection is the usual answer). Only with a loop inductance.
+fn hard_short_finding(o: &CurrentLimitOut, ev: &Evaluator) -> Option<LimitFinding> {
+    let l_loop = ev.stage.drive.loop_inductance_h;
+    let tightest = o
+        .hard_limits
+        .iter()
+        .filter(|h| h.applies_to == "peak")
+        .map(|h| h.current_a)
+        .fold(f64::INFINITY, f64::min);
+    if l_loop <= 0.0 || !tightest.is_finite() {
+        return None;
+    }
+    let v = o.stall_circuit.v_bus_v;
+    let reached = o.trip_high_a + cl::overshoot_a(v, l_loop, o.reaction_s);
+    (reached > tightest).then(|| LimitFinding {
+        severity: Severity::Warning,
+        code: "current-limit-hard-short",
+        message: format!(
+            "A short at the motor terminals rises at V/L_loop = {}/µs through the {} commutation loop: within the {} reaction it would pass {} (the tightest peak limit {}). This limit does not protect against a hard short; use the gate driver's desaturation detection or a faster hardware path.",
+            q(v / l_loop * 1e-6, Dimension::Current),
+            q(l_loop, Dimension::Inductance),
+            q(o.reaction_s, Dimension::Time),
+            q(reached.min(1e9), Dimension::Current),
+            q(tightest, Dimension::Current)
+        ),
+    })
 }
 
 fn error(code: &'static str, message: String) -> LimitFinding {
@@ -643,19 +812,19 @@ fn window_findings(o: &CurrentLimitOut, fixed_trip: bool) -> Vec<LimitFinding> {
 
 /// A stall the limit does not hold: ratcheting past the trip, or beyond a
 /// stall limit.
-fn stall_findings(o: &CurrentLimitOut, ratchet_a: f64) -> Vec<LimitFinding> {
+fn stall_findings(o: &CurrentLimitOut, chopped_mean_a: f64) -> Vec<LimitFinding> {
     let a = |i: f64| q(i, Dimension::Current);
     let mut out = Vec::new();
     if o.response != "cycle-by-cycle" {
         return out;
     }
-    if ratchet_a > o.trip_high_a {
+    if chopped_mean_a > o.trip_high_a {
         out.push(error(
             "current-limit-ratchet",
             format!(
                 "At a stall the limit cannot cut the first {} of each period (blanking and reaction); that on-time alone drives {} ({}), above the trip's highest edge {}: lower the PWM frequency, shorten the blanking, or use the latched response.",
                 q(o.shortest_controllable_pulse_s, Dimension::Time),
-                a(ratchet_a),
+                a(chopped_mean_a),
                 o.stall_basis,
                 a(o.trip_high_a)
             ),

@@ -19,6 +19,7 @@ pub mod spread;
 pub mod sweep;
 pub mod timer;
 pub mod verify;
+pub mod verify_limit;
 
 // The evaluator was the top-level `model` module; its public names stay
 // reachable as `pwmplan::model::...`.

@@ -24,6 +24,7 @@
 //! decides (the command line refuses to write the plan).
 
 use crate::input::design::Design;
+use crate::model::current_limit::CurrentLimitOut;
 use crate::model::evaluate::Evaluator;
 use crate::model::evaluate::ThreePhaseCase;
 use crate::model::solve::{Candidate, Solution};
@@ -82,6 +83,8 @@ pub struct RegisterView<'a> {
     pub hearing_limit_hz: f64,
     /// A three-phase bridge's own record (modulation, motor, sampling trigger).
     pub three_phase: Option<&'a ThreePhaseOut>,
+    /// The current limit's record (with the board's over-current path).
+    pub current_limit: Option<&'a CurrentLimitOut>,
 }
 
 impl<'a> RegisterView<'a> {
@@ -95,6 +98,7 @@ impl<'a> RegisterView<'a> {
             load: &plan.load,
             hearing_limit_hz: hearing_limit_of(plan),
             three_phase: plan.three_phase.as_ref(),
+            current_limit: plan.current_limit.as_ref(),
         }
     }
 }
@@ -112,6 +116,7 @@ pub fn check_solution(
         let (pwm, timer) = (plan::pwm_out(ev, c, 0.0), plan::timer_out(ev, c));
         let (cases, load) = (plan::cases_out(c), plan::load_out(ev, c));
         let three_phase = plan::three_phase_out(d, ev, c);
+        let limit = crate::model::current_limit::plan(d, ev, c).map(|l| l.0);
         check(&RegisterView {
             topology: &topology,
             pwm: &pwm,
@@ -120,6 +125,7 @@ pub fn check_solution(
             load: &load,
             hearing_limit_hz: plan::hearing_limit_hz(ev),
             three_phase: three_phase.as_ref(),
+            current_limit: limit.as_ref(),
         })
     };
     let Some(chosen) = &sol.chosen else {
@@ -168,6 +174,9 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
         return out;
     };
     check_pulses(v, &regs, &mut out);
+    if let Some(l) = v.current_limit {
+        check_current_limit(l, &mut out);
+    }
     if v.topology == "three-phase" {
         match sinusoidal_sampling(v.three_phase) {
             Some(s) => check_sampling(&regs, s, &mut out),
@@ -206,6 +215,99 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
         }
     }
     out
+}
+
+/// The current limit on its written values: the threshold code decoded, the
+/// trip window at all 32 tolerance corners, and (cycle-by-cycle) a stall
+/// chopped with the written blanking and filter at the highest-trip corner,
+/// by `verify_limit`. The plan's window must be the corners' extremes, and
+/// its peak and stall current must bound the simulated ones.
+fn check_current_limit(l: &CurrentLimitOut, out: &mut RegisterCheck) {
+    use crate::model::verify_limit as vl;
+    let s = &l.sense;
+    let threshold_v = match (
+        l.threshold_code,
+        s.threshold_code_bits,
+        s.threshold_full_scale_v,
+    ) {
+        (Some(code), Some(bits), Some(fs)) => vl::threshold_of_code_v(code, bits, fs),
+        _ => l.threshold_v,
+    };
+    if (threshold_v - l.threshold_v).abs() > 1e-12 * l.threshold_v.abs().max(1.0) {
+        out.disagreements.push(format!(
+            "current limit: the written threshold code gives {} V, the plan says {} V",
+            fmt_g(threshold_v),
+            fmt_g(l.threshold_v)
+        ));
+    }
+    let trips = vl::corner_trips_a(&vl::SensedThreshold {
+        r_shunt_ohm: s.r_shunt_ohm,
+        r_tolerance: s.r_tolerance,
+        gain: s.gain,
+        gain_tolerance: s.gain_tolerance,
+        offset_v: s.offset_v,
+        offset_tolerance_v: s.offset_tolerance_v,
+        threshold_v,
+        threshold_tolerance: s.threshold_tolerance,
+        comparator_offset_v: s.comparator_offset_v,
+    });
+    let low = trips.iter().copied().fold(f64::INFINITY, f64::min);
+    let high = trips.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    for (name, sim, plan) in [
+        ("lowest", low, l.trip_low_a),
+        ("highest", high, l.trip_high_a),
+    ] {
+        if (sim - plan).abs() > 1e-9 * plan.abs().max(1.0) {
+            out.disagreements.push(format!(
+                "current limit: the {name} trip over the 32 tolerance corners is {} A, the plan says {} A",
+                fmt_g(sim),
+                fmt_g(plan)
+            ));
+        }
+    }
+    if l.response != "cycle-by-cycle" {
+        out.not_checked
+            .push("the current limit's stall (latched: the outputs stay off)".into());
+        return;
+    }
+    let c = &l.stall_circuit;
+    let p = &l.reaction_parts;
+    let run = vl::run_stall(&vl::LimitedStall {
+        v_bus_v: c.v_bus_v,
+        r_ohm: c.r_ohm,
+        l_h: c.l_h,
+        period_s: c.period_s,
+        v_off_v: match c.freewheel.as_str() {
+            "diode" => c.freewheel_v_f_v,
+            "reversed" => c.v_bus_v,
+            _ => 0.0,
+        },
+        blocks_at_zero: c.freewheel != "shorted",
+        i_trip_a: high,
+        blanking_s: match (l.blanking_ticks, s.blanking_tick_s) {
+            (Some(n), Some(tick)) => f64::from(n) * tick,
+            _ => 0.0,
+        },
+        comparator_s: p.comparator_s,
+        filter: l.filter_clock_hz.zip(l.filter_samples),
+        after_filter_s: p.driver_s + p.turn_off_delay_s + p.voltage_rise_s,
+    });
+    out.limit_stall_peak_a = Some(run.peak_a);
+    out.limit_stall_mean_a = Some(run.mean_a);
+    if run.peak_a > l.peak_a * (1.0 + 1e-6) + 1e-9 {
+        out.disagreements.push(format!(
+            "current limit: a chopped stall on the written values peaks at {} A, above the plan's {} A",
+            fmt_g(run.peak_a),
+            fmt_g(l.peak_a)
+        ));
+    }
+    if run.mean_a > l.stall_current_a * (1.0 + 1e-3) + 1e-9 {
+        out.disagreements.push(format!(
+            "current limit: a chopped stall on the written values carries {} A, above the plan's stall current {} A",
+            fmt_g(run.mean_a),
+            fmt_g(l.stall_current_a)
+        ));
+    }
 }
 
 /// The registers as written.

@@ -203,7 +203,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         three_phase_literals: tpl,
         current_limit: plan.current_limit.is_some(),
         limit: limit.unwrap_or_default(),
-        limit_rows: crate::output::limit::rows(plan.current_limit.as_ref()),
+        limit_rows: crate::output::limit::rows(plan.current_limit.as_ref(), plan.pwm.min_pulse_s),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,
         rust_init_steps,
@@ -542,6 +542,24 @@ fn register_check_rows(plan: &Plan) -> Vec<Row> {
                 a(load),
                 a(c.ripple_pp_a),
                 a(ripple)
+            ),
+        });
+    }
+    if let (Some(peak), Some(mean), Some(l)) = (
+        r.limit_stall_peak_a,
+        r.limit_stall_mean_a,
+        plan.current_limit.as_ref(),
+    ) {
+        rows.push(Row {
+            label: "current limit".into(),
+            value: format!(
+                "trip window {} to {} over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at {} (plan {}) with a mean of {} (plan's stall current {})",
+                a(l.trip_low_a),
+                a(l.trip_high_a),
+                a(peak),
+                a(l.peak_a),
+                a(mean),
+                a(l.stall_current_a)
             ),
         });
     }

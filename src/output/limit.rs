@@ -36,7 +36,7 @@ pub fn literals(l: Option<&CurrentLimitOut>) -> LimitLiterals {
 }
 
 /// The current limit explained, a row per choice with its margins.
-pub fn rows(l: Option<&CurrentLimitOut>) -> Vec<Row> {
+pub fn rows(l: Option<&CurrentLimitOut>, min_pulse_s: f64) -> Vec<Row> {
     let Some(l) = l else {
         return Vec::new();
     };
@@ -87,17 +87,23 @@ pub fn rows(l: Option<&CurrentLimitOut>) -> Vec<Row> {
         out.push(row(
             "peak",
             format!(
-                "{} = highest trip + {} overshoot in the {} reaction; {} {} (margin {})",
+                "at most {} ({} over the highest trip: {} in the {} reaction{}); {} {} (margin {})",
                 a(l.peak_a),
+                a(l.peak_a - l.trip_high_a),
                 a(l.overshoot_a),
                 t(l.reaction_s),
+                if l.response == "cycle-by-cycle" {
+                    ", more where a chopped stall crosses the trip inside the uncut on-time"
+                } else {
+                    ""
+                },
                 h.name,
                 a(h.current_a),
                 a(h.current_a - l.peak_a)
             ),
         ));
     }
-    out.extend(timing_rows(l));
+    out.extend(timing_rows(l, min_pulse_s));
     out.push(row("response", l.response.clone()));
     out.push(row(
         "stall",
@@ -116,7 +122,7 @@ pub fn rows(l: Option<&CurrentLimitOut>) -> Vec<Row> {
 }
 
 /// The reaction, blanking, filter and uncut on-time rows.
-fn timing_rows(l: &CurrentLimitOut) -> Vec<Row> {
+fn timing_rows(l: &CurrentLimitOut, min_pulse_s: f64) -> Vec<Row> {
     let t = |s: f64| q(s, Dimension::Time);
     let row = |label: &str, value: String| Row {
         label: label.into(),
@@ -174,8 +180,13 @@ fn timing_rows(l: &CurrentLimitOut) -> Vec<Row> {
     out.push(row(
         "uncut on-time",
         format!(
-            "{} (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length",
-            t(l.shortest_controllable_pulse_s)
+            "{} (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length{}",
+            t(l.shortest_controllable_pulse_s),
+            if min_pulse_s > 0.0 {
+                format!(" (the compare limits' shortest pulse is {})", t(min_pulse_s))
+            } else {
+                String::new()
+            }
         ),
     ));
     out

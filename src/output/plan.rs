@@ -478,6 +478,12 @@ pub struct RegisterCheck {
     pub sample_low_on_before_s: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sample_low_on_after_s: Option<f64>,
+    /// The current limit's chopped stall on the written threshold, blanking
+    /// and filter (at the highest-trip corner): its highest and mean current.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub limit_stall_peak_a: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub limit_stall_mean_a: Option<f64>,
     /// What was not checked, and why.
     pub not_checked: Vec<String>,
     /// Each claim the verifier contradicts, with both figures.

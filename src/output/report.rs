@@ -135,6 +135,7 @@ const FIGURE_SECTIONS: &[&str] = &[
     "constraints",
     "worst_case",
     "devices",
+    "current_limit",
 ];
 
 /// plan.json keys that only restate an emitted constant.
@@ -153,6 +154,9 @@ const CONSTANT_KEYS: &[&str] = &[
     "timer.dead_time_code",
     "three_phase.sampling.trigger_compare",
     "three_phase.sampling.max_high_side_compare",
+    "current_limit.threshold_code",
+    "current_limit.filter_samples",
+    "current_limit.blanking_ticks",
 ];
 
 /// Every number of the figure sections of a plan by its plan.json path

@@ -212,6 +212,100 @@ pub fn ratchet_current_a(
     continuous.max(triangle).clamp(0.0, v_bus_v / r_ohm)
 }
 
+/// A stall chopped cycle by cycle, period after period until it repeats:
+/// the switch turns on at each period start (the firmware commanding full
+/// duty, the worst case); the current I(t) = V/R + (I_0 − V/R)·e^(−t/τ),
+/// τ = L/R, crosses the trip at t_c (closed form); the fault is seen at
+/// max(t_c + t_comparator, t_blank) and the current falls from t_post after
+/// that (filter, driver, turn-off delay, voltage rise); in the off-state
+/// L·di/dt = −V_off − R·i, held at zero by a diode path (first-order R-L
+/// solutions, common practice; the event sequence is the limiter's
+/// definition). Returns the settled period's peak, valley and mean.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StallCycle {
+    pub peak_a: f64,
+    pub valley_a: f64,
+    pub mean_a: f64,
+}
+
+/// The chopped stall's circuit and timings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ChoppedStall {
+    pub v_bus_v: f64,
+    pub r_ohm: f64,
+    pub l_h: f64,
+    pub period_s: f64,
+    pub freewheel: Freewheel,
+    pub i_trip_a: f64,
+    /// Blanking from the period start, s.
+    pub t_blank_s: f64,
+    /// Comparator delay, s.
+    pub t_comparator_s: f64,
+    /// From the fault being seen to the current falling, s.
+    pub t_post_s: f64,
+}
+
+/// See [`StallCycle`].
+pub fn stall_cycle(c: &ChoppedStall) -> StallCycle {
+    let tau = c.l_h / c.r_ohm;
+    let i_on = c.v_bus_v / c.r_ohm;
+    let v_off = match c.freewheel {
+        Freewheel::Shorted => 0.0,
+        Freewheel::Diode { v_f_v } => v_f_v,
+        Freewheel::Reversed => c.v_bus_v,
+    };
+    let i_off = -v_off / c.r_ohm;
+    let at = |i0: f64, i_inf: f64, t: f64| i_inf + (i0 - i_inf) * (-t / tau).exp();
+    // ∫ of the exponential over [0, t].
+    let area =
+        |i0: f64, i_inf: f64, t: f64| i_inf * t + (i0 - i_inf) * tau * (1.0 - (-t / tau).exp());
+    let one_period = |i0: f64| {
+        let t_c = if i0 >= c.i_trip_a {
+            0.0
+        } else if i_on > c.i_trip_a {
+            -tau * ((i_on - c.i_trip_a) / (i_on - i0)).ln()
+        } else {
+            f64::INFINITY
+        };
+        let t_off = ((t_c + c.t_comparator_s).max(c.t_blank_s) + c.t_post_s).min(c.period_s);
+        let peak = at(i0, i_on, t_off);
+        let mut q = area(i0, i_on, t_off);
+        let t_rest = c.period_s - t_off;
+        // Off-state; a diode path stops the current at zero.
+        let t_zero = if v_off > 0.0 && peak > 0.0 {
+            tau * ((peak - i_off) / (-i_off)).ln()
+        } else {
+            f64::INFINITY
+        };
+        let end = if t_zero < t_rest {
+            q += area(peak, i_off, t_zero);
+            0.0
+        } else {
+            q += area(peak, i_off, t_rest);
+            at(peak, i_off, t_rest)
+        };
+        (end, peak, q / c.period_s)
+    };
+    let mut i0 = 0.0;
+    // Each period moves the start current at least e^(−T/τ) closer to the
+    // fixed point: enough periods for e^(−25) of the way, capped (own bound).
+    let periods = ((tau / c.period_s) * 25.0).ceil().clamp(200.0, 2e6) as usize;
+    for _ in 0..periods {
+        let (end, peak, _) = one_period(i0);
+        let settled = (end - i0).abs() <= 1e-12 * peak.abs().max(1e-9);
+        i0 = end;
+        if settled {
+            break;
+        }
+    }
+    let (_, peak, mean) = one_period(i0);
+    StallCycle {
+        peak_a: peak,
+        valley_a: i0,
+        mean_a: mean,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -354,5 +448,42 @@ mod tests {
         // 10 nH with 1 nF rings at 2π·√(1e-17) = 19.87 ns; two periods 39.7 ns.
         assert!((ring_allowance_s(10e-9, 1e-9) - 39.738e-9).abs() < 0.01e-9);
         assert_eq!(ring_allowance_s(0.0, 1e-9), 0.0);
+    }
+
+    /// Where the on-time the limit cannot cut drives more than the off-time
+    /// removes, the chopped cycle settles at the volt-second balance; where it
+    /// does not, the cycle stays under the trip plus the rise in the reaction.
+    #[test]
+    fn stall_cycle_meets_the_balance_and_the_trip() {
+        let base = ChoppedStall {
+            v_bus_v: 24.0,
+            r_ohm: 0.5,
+            l_h: 200e-6,
+            period_s: 50e-6,
+            freewheel: Freewheel::Shorted,
+            i_trip_a: 0.5,
+            t_blank_s: 1.5e-6,
+            t_comparator_s: 0.1e-6,
+            t_post_s: 0.4e-6,
+        };
+        // Trip far below the ratchet: every period is cut at blanking + post.
+        let low = stall_cycle(&base);
+        let balance = ratchet_current_a(24.0, 0.5, 200e-6, 1.9e-6, 50e-6, Freewheel::Shorted);
+        assert!(
+            (low.mean_a - balance).abs() <= 0.01 * balance,
+            "{low:?} {balance}"
+        );
+        // Trip well above it: the cycle rides on the trip.
+        let high = stall_cycle(&ChoppedStall {
+            i_trip_a: 10.0,
+            ..base
+        });
+        let rise = 24.0 / 200e-6 * 0.5e-6;
+        assert!(high.peak_a <= 10.0 + rise + 1e-9, "{high:?}");
+        assert!(high.peak_a >= 10.0, "{high:?}");
+        assert!(
+            high.mean_a < high.peak_a && high.valley_a < 10.0,
+            "{high:?}"
+        );
     }
 }

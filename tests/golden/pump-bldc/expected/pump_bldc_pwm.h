@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:619cfa1272e6a1f4e81e26c236bf665d9980651aed05dce3bd249c9fe4386ddc)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:bf5bc42e8185c46257633cd654cf4c5a6a5502618db4d5ff781f45e89a87622a)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -48,11 +48,11 @@
  *   threshold       code 13 = 670 mV at the comparator
  *   trips           never below 10.9 A, always above 12.7 A (nominal 11.8 A; shunt in the supply return; shunt, amplifier and comparator tolerances stacked worst-case)
  *   operating peak  10.4 A (the high-bus case's load current plus half its ripple); margin to the lowest trip 476 mA
- *   peak            12.7 A = highest trip + 24.7 mA overshoot in the 228 ns reaction; the switch's I_DM at 100 µs 240 A (margin 227 A)
+ *   peak            at most 12.8 A (102 mA over the highest trip: 24.7 mA in the 228 ns reaction, more where a chopped stall crosses the trip inside the uncut on-time); the switch's I_DM at 100 µs 240 A (margin 227 A)
  *   reaction        228 ns = filter 8.33 ns + comparator 60.0 ns + driver 120 ns + turn-off delay 26.0 ns + voltage rise 14.1 ns
  *   blanking        492 ns (59 blanking ticks) against a turn-on transient of 491 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 3.94 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 300 ns
  *   filter          1 sample at 120 MHz (passes a fault held 8.33 ns)
- *   uncut on-time   720 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length
+ *   uncut on-time   720 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 200 ns)
  *   response        cycle-by-cycle
  *   stall           12.7 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 74.3 °C at hot R_ds(on) (Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W))
  *
@@ -69,6 +69,7 @@
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
  *   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.0 mA peak to peak (plan 754.0 mA)
  *   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 803.7 mA peak to peak (plan 805.4 mA)
+ *   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
  *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
  *
  * Alternatives

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:9a82ea9e939a3f60147c455a98e646b849935b09d95d02b46d2b48dfba07e285)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:3db5dda2787716c2fb0a28fbc9079d94377ab43abb8d490adc0fe64b569fc6fc)
  *
  * Chosen setting
  *   design         winch
@@ -46,11 +46,11 @@
  *   threshold       fixed, 1.25 V at the comparator
  *   trips           never below 23.2 A, always above 27.0 A (nominal 25.0 A; shunt in the leg; shunt, amplifier and comparator tolerances stacked worst-case)
  *   operating peak  20.9 A (the high-bus case's burst current plus half its ripple); margin to the lowest trip 2.25 A
- *   peak            27.1 A = highest trip + 133 mA overshoot in the 791 ns reaction; the switch's I_DM at 100 µs 240 A (margin 213 A)
+ *   peak            at most 27.2 A (267 mA over the highest trip: 133 mA in the 791 ns reaction, more where a chopped stall crosses the trip inside the uncut on-time); the switch's I_DM at 100 µs 240 A (margin 213 A)
  *   reaction        791 ns = filter 533 ns + comparator 100 ns + driver 120 ns + turn-off delay 24.3 ns + voltage rise 13.2 ns
  *   blanking        467 ns (no blanking timer: the filter rejects it) against a turn-on transient of 393 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 5.81 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 200 ns
  *   filter          8 samples at 15.0 MHz (passes a fault held 533 ns, rejects pulses under 467 ns)
- *   uncut on-time   791 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length
+ *   uncut on-time   791 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 400 ns)
  *   response        cycle-by-cycle
  *   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
  *
@@ -67,6 +67,7 @@
  *   pulses         shortest high-side pulse 408 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 400 ns, bootstrap refresh 800 ns)
  *   rated case     at compare duty 88.442 %: mean current 12.00 A (plan 12.00 A), ripple 1.319 A peak to peak (plan 1.319 A)
  *   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
+ *   current limit  trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.40 A (plan's stall current 26.95 A)
  *
  * Alternatives
  *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +704 mW total loss, +2.1 K junction, -883 mA ripple, -0.97 bits resolution
