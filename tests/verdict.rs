@@ -289,6 +289,47 @@ fn a_current_limit_bounds_the_stall_and_its_errors_block() {
     assert!(!dir.path().join("out").exists());
 }
 
+/// A burst on the pump: the hottest switch's junction at the burst, from its
+/// rated losses in the record (conduction ∝ I², the rest ∝ I) in steady
+/// state through R_th(j-a), the board having no Foster network; and the
+/// burst raises the operating peak the trip must clear.
+#[test]
+fn a_burst_raises_the_trip_and_is_checked_for_heat() {
+    let dir = boards();
+    design_from(
+        dir.path(),
+        "pump-bldc.yaml",
+        "burst.yaml",
+        &[(
+            "objective: least-loss",
+            "objective: least-loss\n  current_limit: { burst: { current: \"16 A\", duration: \"2 s\" } }",
+        )],
+    );
+    let o = run(dir.path(), &["plan", "burst.yaml", "--json", "--no-write"]);
+    let p = json(&o);
+    let l = &p["current_limit"];
+    assert!(l["operating_peak_a"].as_f64().expect("peak") > 16.0, "{l}");
+    assert!(l["trip_low_a"].as_f64().expect("low") > 16.0, "{l}");
+    let hottest = p["devices"]
+        .as_array()
+        .expect("devices")
+        .iter()
+        .max_by(|a, b| {
+            a["junction_c"]
+                .as_f64()
+                .unwrap_or(0.0)
+                .total_cmp(&b["junction_c"].as_f64().unwrap_or(0.0))
+        })
+        .expect("a device");
+    let k = 16.0 / 10.0;
+    let cond = hottest["conduction_w"].as_f64().expect("conduction");
+    let total = hottest["total_w"].as_f64().expect("total");
+    let r_th = p["thermal"]["r_th_ja_k_per_w"].as_f64().expect("r_th");
+    let expected = 45.0 + (cond * k * k + (total - cond) * k) * r_th;
+    let got = l["burst_junction_c"].as_f64().expect("burst junction");
+    assert!((got - expected).abs() < 1e-6, "{got} against {expected}");
+}
+
 /// A shunt in a half-bridge's leg never carries the high side's pulse: a
 /// cycle-by-cycle limit on it is an error finding that stops the plan.
 #[test]

@@ -84,6 +84,10 @@ pub struct CurrentLimitOut {
     pub stall_junction_c: Option<f64>,
     /// What that junction temperature was computed on (transient or steady).
     pub stall_thermal_basis: String,
+    /// The hottest switch's junction at the end of the design's burst (`None`
+    /// without a burst), and what it was computed on.
+    pub burst_junction_c: Option<f64>,
+    pub burst_basis: Option<String>,
     /// The sensing chain and the stall circuit as the plan used them, so the
     /// register check can redo the limit from this record alone.
     pub sense: SenseOut,
@@ -599,6 +603,7 @@ pub fn plan(
         d.spec.constraints.stall_time.map(|t| t.si),
     );
     let stall_junction_c = chopping.then_some(heating.t_j_c);
+    let burst = burst_junction(d, ev, c);
     let out = CurrentLimitOut {
         shunt_place: place_name(oc.shunt.place).into(),
         response: response_name(response).into(),
@@ -640,13 +645,111 @@ pub fn plan(
                 .map(|b| f64::from(b.clock_divider) / ev.timer.clock_hz),
         ),
         stall_circuit: circuit,
+        burst_junction_c: burst.as_ref().map(|b| b.0),
+        burst_basis: burst.as_ref().map(|b| b.1.clone()),
     };
-    let mut findings: Vec<LimitFinding> = mask.finding.into_iter().collect();
-    findings.extend(place_finding(oc.shunt.place, ev, chopping));
-    findings.extend(hard_short_finding(&out, ev));
-    findings.extend(window_findings(&out, want.and_then(|x| x.trip).is_some()));
-    findings.extend(stall_findings(&out, chopped_mean_a));
+    let findings = all_findings(d, ev, &out, mask.finding, chopped_mean_a);
     Some((out, findings))
+}
+
+/// Every finding of the planned limit, the masking's first.
+fn all_findings(
+    d: &Design,
+    ev: &Evaluator,
+    out: &CurrentLimitOut,
+    masking: Option<LimitFinding>,
+    chopped_mean_a: f64,
+) -> Vec<LimitFinding> {
+    let chopping = out.response == "cycle-by-cycle";
+    let fixed_trip = d.spec.current_limit.as_ref().and_then(|x| x.trip).is_some();
+    let mut findings: Vec<LimitFinding> = masking.into_iter().collect();
+    if let Some(oc) = &d.board.overcurrent {
+        findings.extend(place_finding(oc.shunt.place, ev, chopping));
+    }
+    findings.extend(hard_short_finding(out, ev));
+    findings.extend(burst_finding(out, ev, d.t_j_limit_c));
+    findings.extend(window_findings(out, fixed_trip));
+    findings.extend(stall_findings(out, chopped_mean_a));
+    findings
+}
+
+/// The hottest switch over the design's burst: its rated-case losses scaled
+/// to the burst current (conduction ∝ I², switching and the rest ∝ I; common
+/// practice), the step in loss added to its rated junction through the
+/// board's transient impedance Z_th(burst duration) (superposition on a linear
+/// thermal network, common practice), or, without a Foster network, the
+/// steady state at the burst's loss (conservative). None without a burst.
+fn burst_junction(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<(f64, String)> {
+    let b = d.spec.current_limit.as_ref()?.burst.as_ref()?;
+    let rated = c.rated.case.load_current_a.abs();
+    let hottest = c
+        .rated
+        .devices
+        .iter()
+        .filter(|x| x.junction_c.is_some())
+        .max_by(|x, y| {
+            x.junction_c
+                .unwrap_or(0.0)
+                .total_cmp(&y.junction_c.unwrap_or(0.0))
+        })?;
+    let t_j = hottest.junction_c?;
+    let k = b.current.si / rated.max(1e-12);
+    let p_burst = hottest.conduction_w * k * k + (hottest.total_w - hottest.conduction_w) * k;
+    let path = &ev.stage.thermal;
+    let t_a = c.rated.case.t_ambient_c;
+    if path.foster.is_empty() {
+        let t = t_a + p_burst * path.r_th_ja_k_per_w;
+        return Some((
+            t,
+            format!(
+                "{} at {} for {}: steady state at the burst's {}, the board giving no thermal transient data",
+                hottest.role,
+                q(b.current.si, Dimension::Current),
+                q(b.duration.si, Dimension::Time),
+                q(p_burst, Dimension::Power)
+            ),
+        ));
+    }
+    let z = crate::model::physics::thermal::z_th_k_per_w(path, b.duration.si);
+    Some((
+        t_j + (p_burst - hottest.total_w).max(0.0) * z,
+        format!(
+            "{} at {} for {}: its rated junction plus the loss step {} through Z_th = {z:.3} K/W",
+            hottest.role,
+            q(b.current.si, Dimension::Current),
+            q(b.duration.si, Dimension::Time),
+            q(p_burst - hottest.total_w, Dimension::Power)
+        ),
+    ))
+}
+
+/// A burst that takes the junction past the design's limit (warning) or the
+/// switch's T_j,max (error).
+fn burst_finding(o: &CurrentLimitOut, ev: &Evaluator, t_j_limit_c: f64) -> Option<LimitFinding> {
+    let t = o.burst_junction_c?;
+    let basis = o.burst_basis.clone().unwrap_or_default();
+    let t_j_max = ev.stage.switch.t_j_max_c;
+    let words = |limit: &str, v: f64| {
+        format!(
+            "The burst takes the junction to {} ({basis}), above {limit} {}: shorten the burst, lower its current, or improve the thermal path.",
+            q(t, Dimension::Temperature),
+            q(v, Dimension::Temperature)
+        )
+    };
+    if t > t_j_max {
+        Some(error(
+            "burst-junction",
+            words("the switch's T_j max", t_j_max),
+        ))
+    } else if t > t_j_limit_c {
+        Some(LimitFinding {
+            severity: Severity::Warning,
+            code: "burst-junction",
+            message: words("the design's junction limit", t_j_limit_c),
+        })
+    } else {
+        None
+    }
 }
 
 /// The stall's circuit at the chosen setting.

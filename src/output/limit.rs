@@ -105,6 +105,12 @@ pub fn rows(l: Option<&CurrentLimitOut>, min_pulse_s: f64) -> Vec<Row> {
     }
     out.extend(timing_rows(l, min_pulse_s));
     out.push(row("response", l.response.clone()));
+    if let (Some(tj), Some(basis)) = (l.burst_junction_c, &l.burst_basis) {
+        out.push(row(
+            "burst",
+            format!("junction {} ({basis})", q(tj, Dimension::Temperature)),
+        ));
+    }
     out.push(row(
         "stall",
         match l.stall_junction_c {

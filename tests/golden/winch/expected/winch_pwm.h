@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:3db5dda2787716c2fb0a28fbc9079d94377ab43abb8d490adc0fe64b569fc6fc)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:4d43cdf6d15a892316242e0913378ea40fbdbddd860c5e989f39e7be3edf848c)
  *
  * Chosen setting
  *   design         winch
@@ -52,6 +52,7 @@
  *   filter          8 samples at 15.0 MHz (passes a fault held 533 ns, rejects pulses under 467 ns)
  *   uncut on-time   791 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 400 ns)
  *   response        cycle-by-cycle
+ *   burst           junction 84.3 °C (leg-b-low at 20.0 A for 3.00 s: steady state at the burst's 4.70 W, the board giving no thermal transient data)
  *   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
  *
  * Worst case over part and operating spreads
