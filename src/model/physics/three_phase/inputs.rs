@@ -7,6 +7,7 @@ use crate::model::physics::losses::{self, GateDriveLoss};
 use crate::model::physics::params::{GateDrive, SwitchModel};
 use crate::model::physics::ripple::{MotorLoad, RippleError};
 use crate::model::physics::switching::{self, SwitchingError};
+use crate::model::physics::{dead_time_diode, forward, recovery};
 
 /// Why a three-phase computation was refused.
 #[derive(Debug, Clone, PartialEq)]
@@ -116,6 +117,32 @@ impl ThreePhaseStage<'_> {
             r_ds_on_ohm,
         )?;
         Ok((tr.e_on_j, tr.e_off_j))
+    }
+
+    /// One leg's edge pair at a sinusoidal sample with current magnitude
+    /// `i_a`: (E_on, E_off) of the hard-switching switch, and the body-diode
+    /// energy of its partner over the period's two dead times, V_SD(I)·I·t at
+    /// each: after the hard turn-off from the hand-over to the soft turn-on,
+    /// and after the soft turn-off from the channel's release to the hard
+    /// turn-on (`dead_time_diode::LegEdges`, the single-phase bridges' account,
+    /// `forward::forward_voltage_v`).
+    pub(super) fn edge_pair(&self, i_a: f64, r_ds_on_ohm: f64) -> Result<(f64, f64, f64)> {
+        let i = i_a.abs();
+        let tr = switching::transitions(self.sw, self.drive, self.v_bus_v, i, i, r_ds_on_ohm)?;
+        let edges = dead_time_diode::LegEdges {
+            switch: self.sw,
+            drive: self.drive,
+            transitions: &tr,
+            tau_s: recovery::body_diode_transit_time_memo_s(self.sw),
+        };
+        let release_s = switching::soft_release_s(self.sw, self.drive, i)?;
+        let t_s = edges.after_hard_turn_off_s(self.t_dead_s)
+            + edges.after_soft_turn_off_s(self.t_dead_s, release_s);
+        Ok((
+            tr.e_on_j,
+            tr.e_off_j,
+            forward::forward_voltage_v(self.sw, i) * i * t_s,
+        ))
     }
 
     pub(super) fn e_oss_j(&self) -> f64 {

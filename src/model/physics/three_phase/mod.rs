@@ -187,7 +187,7 @@ mod tests {
     /// (plateau V_th + I/g_fs, so E(I) is not linear): printed, and bounded (switching line 5 %,
     /// total 1 %; observed −0.8 … −1.9 % and −0.05 … −0.24 %). With a fixed
     /// datasheet plateau and no C_rss curve the energies are exactly linear in current, so the
-    /// two must agree to the quadrature error (1e-4).
+    /// two must agree to the quadrature error (1e-4) on every line but the dead-time diode's.
     #[test]
     fn closed_form_vs_exact_transitions() {
         let (mut sw, drv) = (example_switch(), example_drive());
@@ -218,7 +218,13 @@ mod tests {
                 r.exact.high_side.switching_w
             ) < 1e-4
         );
-        assert!(r.closed_form_deviation_rel.abs() < 1e-4);
+        // The totals differ by the dead-time diode line alone: the exact sum takes the
+        // diode's share of each dead time at V_SD(I), the closed form the whole dead times at
+        // the datasheet V_sd, which bounds it (V_SD(I) is not above V_sd up to its test
+        // current, and the share is at most the dead time).
+        let (c, e) = (r.closed_form.high_side, r.exact.high_side);
+        assert!(rel(c.total_w() - c.body_diode_w, e.total_w() - e.body_diode_w) < 1e-4);
+        assert!(e.body_diode_w > 0.0 && e.body_diode_w <= c.body_diode_w);
     }
 
     /// Closed form by hand for one point (computed from the stated formulas; not a published

@@ -173,8 +173,12 @@ pub fn leg_duties(modulation_index: f64, zero_sequence: ZeroSequence, theta_rad:
 /// (k + ½)·2π/n): at each θ the duty d = `leg_duties(..)[0]`, the current i = I_pk·sin(θ − φ);
 /// high side d·i²·R, low side (1 − d)·i²·R (forward/reverse by the sign of i); the switch
 /// carrying forward current hard-switches both edges (E_on + E_off at |i| per `energies`,
-/// Q_rr·V into it, E_oss), its partner's body diode takes the two dead times (V_sd·|i|·2·t_dead)
-/// and ¼·Q_rr·V; no edge when d is 0 or 1. Gate as in the closed form. Edge rule of `losses`.
+/// Q_rr·V into it, E_oss), its partner's body diode takes the two dead times and ¼·Q_rr·V;
+/// no edge when d is 0 or 1. Gate as in the closed form. Edge rule of `losses`. The dead-time
+/// diode: with `EnergyModel::Transitions` its share of each dead time at V_SD(|i|)
+/// (`ThreePhaseStage::edge_pair`, the single-phase bridges' account); with
+/// `LinearInCurrent` the whole dead times at the datasheet V_sd (V_sd·|i|·2·t_dead, the closed
+/// form's assumption).
 pub fn sinusoidal_losses_numerical(
     stage: &ThreePhaseStage<'_>,
     point: &SinusoidalPoint,
@@ -200,8 +204,9 @@ pub fn sinusoidal_losses_numerical(
     } else {
         0
     };
-    // (duty, current, (E_on, E_off) once computed) of the first half period.
-    type Sample = (f64, f64, Option<(f64, f64)>);
+    // (duty, current, (E_on, E_off, dead-time diode energy) once computed) of the first half
+    // period.
+    type Sample = (f64, f64, Option<(f64, f64, f64)>);
     let mut first_half: Vec<Sample> = vec![(0.0, 0.0, None); half];
     for k in 0..n_samples {
         // Half a period on, the references, the zero sequence and the
@@ -230,15 +235,19 @@ pub fn sinusoidal_losses_numerical(
         if d <= 0.0 || d >= 1.0 || i == 0.0 {
             continue;
         }
-        let (e_on, e_off) = match energies {
+        let (e_on, e_off, e_dead) = match energies {
             EnergyModel::LinearInCurrent => {
                 let k_lin = if i_pk > 0.0 { i.abs() / i_pk } else { 0.0 };
-                (e_on_pk * k_lin, e_off_pk * k_lin)
+                (
+                    e_on_pk * k_lin,
+                    e_off_pk * k_lin,
+                    sw.v_sd_v * i.abs() * 2.0 * stage.t_dead_s,
+                )
             }
             EnergyModel::Transitions => match known_edges {
                 Some(e) => e,
                 None => {
-                    let e = stage.energies(i, i, r)?;
+                    let e = stage.edge_pair(i, r)?;
                     if k < half {
                         first_half[k].2 = Some(e);
                     }
@@ -255,7 +264,7 @@ pub fn sinusoidal_losses_numerical(
         hard.reverse_recovery_w += sw.q_rr_c * v * f;
         hard.output_capacitance_w += e_oss * f;
         soft.reverse_recovery_w += 0.25 * sw.q_rr_c * v * f;
-        soft.body_diode_w += sw.v_sd_v * i.abs() * 2.0 * stage.t_dead_s * f;
+        soft.body_diode_w += e_dead * f;
     }
     let gate = stage.gate(f, 2.0 * i_pk / PI)?;
     let n = n_samples as f64;
