@@ -1274,7 +1274,10 @@ fn switching_assumption(
     }
     let (recovery, dead_time) = if three_phase {
         (
-            "reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge)".to_string(),
+            format!(
+                "under sinusoidal modulation, at each of the 720 angles, {}; under six-step, reverse recovery at the datasheet Q_rr whatever the edge's di/dt (the charge-control recovery is not yet applied there)",
+                recovery_assumption(sw)
+            ),
             format!(
                 "under sinusoidal modulation, at each of the 720 angles, {}; under six-step, dead-time diode conduction for the whole dead time at the datasheet V_sd (the diode's share is not yet applied there)",
                 forward_voltage_assumption(sw)

@@ -120,13 +120,16 @@ impl ThreePhaseStage<'_> {
     }
 
     /// One leg's edge pair at a sinusoidal sample with current magnitude
-    /// `i_a`: (E_on, E_off) of the hard-switching switch, and the body-diode
-    /// energy of its partner over the period's two dead times, V_SD(I)·I·t at
-    /// each: after the hard turn-off from the hand-over to the soft turn-on,
-    /// and after the soft turn-off from the channel's release to the hard
-    /// turn-on (`dead_time_diode::LegEdges`, the single-phase bridges' account,
-    /// `forward::forward_voltage_v`).
-    pub(super) fn edge_pair(&self, i_a: f64, r_ds_on_ohm: f64) -> Result<(f64, f64, f64)> {
+    /// `i_a`, as the single-phase bridges account for it (`losses`): E_on and
+    /// E_off of the hard-switching switch; the body-diode energy of its
+    /// partner over the period's two dead times, V_SD(I)·I·t at each: after
+    /// the hard turn-off from the hand-over to the soft turn-on, and after the
+    /// soft turn-off from the channel's release to the hard turn-on
+    /// (`dead_time_diode::LegEdges`, `forward::forward_voltage_v`); and the
+    /// partner's recovery at the hard turn-on's slope
+    /// (`recovery::partner_recovery`): the energy in the incoming switch and
+    /// in the recovering diode.
+    pub(super) fn edge_pair(&self, i_a: f64, r_ds_on_ohm: f64) -> Result<EdgePair> {
         let i = i_a.abs();
         let tr = switching::transitions(self.sw, self.drive, self.v_bus_v, i, i, r_ds_on_ohm)?;
         let edges = dead_time_diode::LegEdges {
@@ -138,11 +141,14 @@ impl ThreePhaseStage<'_> {
         let release_s = switching::soft_release_s(self.sw, self.drive, i)?;
         let t_s = edges.after_hard_turn_off_s(self.t_dead_s)
             + edges.after_soft_turn_off_s(self.t_dead_s, release_s);
-        Ok((
-            tr.e_on_j,
-            tr.e_off_j,
-            forward::forward_voltage_v(self.sw, i) * i * t_s,
-        ))
+        let rec = recovery::partner_recovery(self.sw, self.drive, self.v_bus_v, i, edges.tau_s)?;
+        Ok(EdgePair {
+            e_on_j: tr.e_on_j,
+            e_off_j: tr.e_off_j,
+            dead_time_diode_j: forward::forward_voltage_v(self.sw, i) * i * t_s,
+            recovery_switch_j: rec.switch_j,
+            recovery_diode_j: rec.diode_j,
+        })
     }
 
     pub(super) fn e_oss_j(&self) -> f64 {
@@ -160,6 +166,17 @@ impl ThreePhaseStage<'_> {
             plateau,
         )?)
     }
+}
+
+/// A leg's edge pair at one current (`ThreePhaseStage::edge_pair`), J per
+/// PWM period.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EdgePair {
+    pub e_on_j: f64,
+    pub e_off_j: f64,
+    pub dead_time_diode_j: f64,
+    pub recovery_switch_j: f64,
+    pub recovery_diode_j: f64,
 }
 
 /// Zero-sequence signal added to the three sinusoidal references.

@@ -173,12 +173,13 @@ pub fn leg_duties(modulation_index: f64, zero_sequence: ZeroSequence, theta_rad:
 /// (k + ½)·2π/n): at each θ the duty d = `leg_duties(..)[0]`, the current i = I_pk·sin(θ − φ);
 /// high side d·i²·R, low side (1 − d)·i²·R (forward/reverse by the sign of i); the switch
 /// carrying forward current hard-switches both edges (E_on + E_off at |i| per `energies`,
-/// Q_rr·V into it, E_oss), its partner's body diode takes the two dead times and ¼·Q_rr·V;
-/// no edge when d is 0 or 1. Gate as in the closed form. Edge rule of `losses`. The dead-time
-/// diode: with `EnergyModel::Transitions` its share of each dead time at V_SD(|i|)
-/// (`ThreePhaseStage::edge_pair`, the single-phase bridges' account); with
-/// `LinearInCurrent` the whole dead times at the datasheet V_sd (V_sd·|i|·2·t_dead, the closed
-/// form's assumption).
+/// the partner's recovery into it, E_oss), its partner's body diode takes the two dead times
+/// and its share of the recovery; no edge when d is 0 or 1. Gate as in the closed form. Edge
+/// rule of `losses`. With `EnergyModel::Transitions` the edges are the single-phase bridges'
+/// account at |i| (`ThreePhaseStage::edge_pair`: the diode's share of each dead time at
+/// V_SD(|i|), the charge-control recovery at the turn-on's slope with the partner's output
+/// charge); with `LinearInCurrent` the closed form's assumptions (the whole dead times at the
+/// datasheet V_sd, Q_rr·V into the switch and ¼·Q_rr·V in the diode).
 pub fn sinusoidal_losses_numerical(
     stage: &ThreePhaseStage<'_>,
     point: &SinusoidalPoint,
@@ -204,9 +205,8 @@ pub fn sinusoidal_losses_numerical(
     } else {
         0
     };
-    // (duty, current, (E_on, E_off, dead-time diode energy) once computed) of the first half
-    // period.
-    type Sample = (f64, f64, Option<(f64, f64, f64)>);
+    // (duty, current, edge pair once computed) of the first half period.
+    type Sample = (f64, f64, Option<EdgePair>);
     let mut first_half: Vec<Sample> = vec![(0.0, 0.0, None); half];
     for k in 0..n_samples {
         // Half a period on, the references, the zero sequence and the
@@ -235,14 +235,16 @@ pub fn sinusoidal_losses_numerical(
         if d <= 0.0 || d >= 1.0 || i == 0.0 {
             continue;
         }
-        let (e_on, e_off, e_dead) = match energies {
+        let e = match energies {
             EnergyModel::LinearInCurrent => {
                 let k_lin = if i_pk > 0.0 { i.abs() / i_pk } else { 0.0 };
-                (
-                    e_on_pk * k_lin,
-                    e_off_pk * k_lin,
-                    sw.v_sd_v * i.abs() * 2.0 * stage.t_dead_s,
-                )
+                EdgePair {
+                    e_on_j: e_on_pk * k_lin,
+                    e_off_j: e_off_pk * k_lin,
+                    dead_time_diode_j: sw.v_sd_v * i.abs() * 2.0 * stage.t_dead_s,
+                    recovery_switch_j: sw.q_rr_c * v,
+                    recovery_diode_j: 0.25 * sw.q_rr_c * v,
+                }
             }
             EnergyModel::Transitions => match known_edges {
                 Some(e) => e,
@@ -260,11 +262,11 @@ pub fn sinusoidal_losses_numerical(
         } else {
             (&mut ls, &mut hs)
         };
-        hard.switching_w += f * (e_on + e_off);
-        hard.reverse_recovery_w += sw.q_rr_c * v * f;
+        hard.switching_w += f * (e.e_on_j + e.e_off_j);
+        hard.reverse_recovery_w += e.recovery_switch_j * f;
         hard.output_capacitance_w += e_oss * f;
-        soft.reverse_recovery_w += 0.25 * sw.q_rr_c * v * f;
-        soft.body_diode_w += e_dead * f;
+        soft.reverse_recovery_w += e.recovery_diode_j * f;
+        soft.body_diode_w += e.dead_time_diode_j * f;
     }
     let gate = stage.gate(f, 2.0 * i_pk / PI)?;
     let n = n_samples as f64;

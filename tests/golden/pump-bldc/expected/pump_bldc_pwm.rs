@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:c67396619cc8528891c6f840f6692d45d5bee8fb3b221f9e087b8dd552f98ca0)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:02100fec694182bc311ce87684b01f7a5f65dca7fb065cfa050f8903383599b3)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -16,8 +16,8 @@
 //!   feasible band     20.007 kHz to 40.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         145 °C     48.9 °C     96.1 K  ok
-//!   junction-high-bus      145 °C     49.1 °C     95.9 K  ok
+//!   junction-rated         145 °C     49.4 °C     95.6 K  ok
+//!   junction-high-bus      145 °C     49.7 °C     95.3 K  ok
 //!   audible            20.000 kHz  20.007 kHz    6.67 Hz  binds
 //!   resolution         10.00 bits  11.55 bits  1.55 bits  ok
 //!   dead-time              125 ns      119 ns    6.02 ns  ok
@@ -26,19 +26,19 @@
 //!   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
-//!   conduction           1.68 W
+//!   conduction           1.69 W
 //!   switching            340 mW
 //!   output capacitance   79.2 mW
-//!   reverse recovery     342 mW
+//!   reverse recovery     666 mW
 //!   dead-time diode      78.3 mW
 //!   gate drive           82.4 mW
 //!   motor ripple copper  9.43 mW
-//!   total                2.61 W
+//!   total                2.94 W
 //!
 //! Operating figures
 //!   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
 //!   high-bus case           54.0 V supply, 45.0 °C ambient, 10.0 A load
-//!   junction                48.9 °C at the rated case, 49.1 °C at the high-bus case (limit 145 °C)
+//!   junction                49.4 °C at the rated case, 49.7 °C at the high-bus case (limit 145 °C)
 //!   ripple, rated case      754 mA peak to peak at 20.007 kHz (continuous), 162 mA rms
 //!   ripple, high-bus case   805 mA peak to peak at 20.007 kHz (continuous), 171 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
@@ -56,8 +56,8 @@
 //!   stall           12.7 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 74.3 °C at hot R_ds(on) (Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W))
 //!
 //! Worst case over part and operating spreads
-//!   junction    50.5 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
-//!   total-loss  3.65 W; ok; hot: V_th min, supply 54.0 V
+//!   junction    51.3 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
+//!   total-loss  4.13 W; ok; hot: V_th min, supply 54.0 V
 //!   ripple      807 mA; ok; hot: V_th min, supply 54.0 V
 //!   duty-range  76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
 //!   dead-time   needs 119 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -72,15 +72,15 @@
 //!   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
 //!
 //! Alternatives
-//!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +461 mW total loss, +0.7 K junction, -268 mA ripple, -0.58 bits resolution
-//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +926 mW total loss, +1.3 K junction, -403 mA ripple, -1.00 bits resolution
+//!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +625 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
+//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1255 mW total loss, +1.9 K junction, -403 mA ripple, -1.00 bits resolution
 //!
 //! Findings
 //!   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); reverse recovery at the datasheet Q_rr, whatever the edge's di/dt (a fast turn-on recovers more; the charge-control recovery of the single-phase bridges is not yet applied to the three-phase bridge); under sinusoidal modulation, at each of the 720 angles, dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 30.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; under six-step, dead-time diode conduction for the whole dead time at the datasheet V_sd (the diode's share is not yet applied there); stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative); under sinusoidal modulation, at each of the 720 angles, bridge partner's recovery: a charge-control body diode with transit time 31.3 ns fitted to Q_rr less the output charge Q_oss(V_R) and the junction's forward charge at the current zero crossing of the datasheet's Q_rr test (100 A/µs from 30.0 A at 50.0 V) (the junction voltage from V_sd(I)), recovering at each hard turn-on's current slope (2·I/t_ri; with a loop inductance the slope its followed current rise ends with), plus charging its output capacitance (Q_oss·V − E_oss); under six-step, reverse recovery at the datasheet Q_rr whatever the edge's di/dt (the charge-control recovery is not yet applied there); under sinusoidal modulation, at each of the 720 angles, dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 30.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; under six-step, dead-time diode conduction for the whole dead time at the datasheet V_sd (the diode's share is not yet applied there); stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
 //!   - sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics
 //!   - six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled
 //!   - the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike
