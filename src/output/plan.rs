@@ -1275,7 +1275,7 @@ fn switching_assumption(
     let (recovery, dead_time) = if three_phase {
         (
             format!(
-                "under sinusoidal modulation, at each of the 720 angles, {}; under six-step, reverse recovery at the datasheet Q_rr whatever the edge's di/dt (the charge-control recovery is not yet applied there)",
+                "at each hard turn-on (each of the 720 angles under sinusoidal modulation, each chopped edge under six-step), {}",
                 recovery_assumption(sw)
             ),
             format!(

@@ -151,6 +151,15 @@ impl ThreePhaseStage<'_> {
         })
     }
 
+    /// A partner's recovery when a switch turns on hard at `i_a`
+    /// (`recovery::partner_recovery`): (energy in the incoming switch, energy
+    /// in the recovering diode), J.
+    pub(super) fn recovery_j(&self, i_a: f64) -> Result<(f64, f64)> {
+        let tau_s = recovery::body_diode_transit_time_memo_s(self.sw);
+        let rec = recovery::partner_recovery(self.sw, self.drive, self.v_bus_v, i_a.abs(), tau_s)?;
+        Ok((rec.switch_j, rec.diode_j))
+    }
+
     pub(super) fn e_oss_j(&self) -> f64 {
         losses::output_capacitance_energy_j(self.sw, self.v_bus_v).0
     }

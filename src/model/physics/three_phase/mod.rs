@@ -540,7 +540,6 @@ mod tests {
         let td = st.t_dead_s;
         let sw = st.sw;
         let e_oss = st.e_oss_j();
-        let qv = sw.q_rr_c * st.v_bus_v;
         let total = 6 * n * steps;
         // State at a global step: gates [leg][0 = high, 1 = low], leg currents, leg active.
         let state = |k: usize| {
@@ -614,9 +613,12 @@ mod tests {
                             // The partner's body diode carried it: hard turn-on.
                             let (e_on, _) = st.energies(ib, ib, r_of(s)).unwrap();
                             acc[x][s].sw += e_on;
-                            acc[x][s].rr += qv;
+                            // The recovery at that current (`recovery_j`, tested on its own in
+                            // `recovery`); this sum checks the sequence that books it.
+                            let (rec_switch, rec_diode) = st.recovery_j(ib).unwrap();
+                            acc[x][s].rr += rec_switch;
                             acc[x][s].oss += e_oss;
-                            acc[x][o].rr += 0.25 * qv;
+                            acc[x][o].rr += rec_diode;
                         }
                     }
                     if pg[x][s] && !g[x][s] && ib * fwd_sign > 0.0 {

@@ -300,8 +300,10 @@ pub(super) fn waveform_integrals(w: &RippleWaveform, t0: f64, t1: f64) -> Signed
 ///
 /// Lines (f_3 = f/3; F = f_3 − f_e counts the turn-ons that follow a freewheel, the first turn-on
 /// of each 120° block starts from a floating phase at zero current and is not counted):
-/// - chopping: conduction f_3·R·∫_0^{DT} i² dt; turn-on at i(0): hard if i(0) > 0 (E_on, Q_rr·V,
-///   E_oss at rate F; ¼·Q_rr·V·F in the freewheeling diode), E_oss·F only if i(0) = 0
+/// - chopping: conduction f_3·R·∫_0^{DT} i² dt; turn-on at i(0): hard if i(0) > 0 (E_on, the
+///   partner's recovery at i(0) and the turn-on's slope (`ThreePhaseStage::recovery_j`, the
+///   single-phase bridges' account: its switch share here, its diode share in the freewheeling
+///   diode), E_oss, all at rate F), E_oss·F only if i(0) = 0
 ///   (discontinuous), soft if i(0) < 0; turn-off at i(DT): E_off·f_3 if i(DT) > 0.
 ///   With the complementary freewheel reversed (i < 0) the chopping switch's body diode takes
 ///   that dead time and the synchronous switch hard-switches (edge rule of the module docs).
@@ -328,7 +330,7 @@ pub fn six_step_losses(
     check("f_e_hz", f_e, f_e >= 0.0 && 3.0 * f_e <= stage.f_sw_hz)?;
     check("t_j_high_c", t_j_high_c, true)?;
     check("t_j_low_c", t_j_low_c, true)?;
-    let (sw, f, v) = (stage.sw, stage.f_sw_hz, stage.v_bus_v);
+    let (sw, f) = (stage.sw, stage.f_sw_hz);
     let t = 1.0 / f;
     check(
         "waveform period_s",
@@ -348,7 +350,7 @@ pub fn six_step_losses(
     let chop_side = point.chop.chopping_side();
     let (r_c, r_o) = (side_r(chop_side), side_r(chop_side.other()));
     let (f3, f_first) = (f / 3.0, (f / 3.0 - f_e).max(0.0));
-    let (q_rr_v, e_oss, v_sd) = (sw.q_rr_c * v, stage.e_oss_j(), sw.v_sd_v);
+    let (e_oss, v_sd) = (stage.e_oss_j(), sw.v_sd_v);
     let t_on = d * t;
     let k = SixStepRates {
         d,
@@ -359,7 +361,6 @@ pub fn six_step_losses(
         f_first,
         r_c,
         r_o,
-        q_rr_v,
         e_oss,
         v_sd,
         switching: d > 0.0 && d < 1.0,
@@ -389,8 +390,6 @@ struct SixStepRates {
     r_c: f64,
     /// Channel resistance of the other side at its junction temperature.
     r_o: f64,
-    /// Q_rr·V, the reverse-recovery energy per hard turn-on.
-    q_rr_v: f64,
     /// E_oss at the supply voltage.
     e_oss: f64,
     /// Body-diode drop V_sd.
@@ -409,7 +408,7 @@ fn chopping_lines(
     k: &SixStepRates,
 ) -> Result<(LossLines, LossLines)> {
     let (mut chop, mut free) = (LossLines::default(), LossLines::default());
-    let (f3, f_first, r_c, q_rr_v, e_oss) = (k.f3, k.f_first, k.r_c, k.q_rr_v, k.e_oss);
+    let (f3, f_first, r_c, e_oss) = (k.f3, k.f_first, k.r_c, k.e_oss);
     let on = waveform_integrals(w, 0.0, k.t_on);
     chop.conduction_forward_w = f3 * r_c * on.i2_pos;
     chop.conduction_reverse_w = f3 * r_c * on.i2_neg;
@@ -418,10 +417,11 @@ fn chopping_lines(
         let i_off = w.value_at(k.t_on);
         let (e_on, e_off) = stage.energies(i0, i_off, r_c)?;
         if i0 > 0.0 {
+            let (rec_switch_j, rec_diode_j) = stage.recovery_j(i0)?;
             chop.switching_w += f_first * e_on;
-            chop.reverse_recovery_w += f_first * q_rr_v;
+            chop.reverse_recovery_w += f_first * rec_switch_j;
             chop.output_capacitance_w += f_first * e_oss;
-            free.reverse_recovery_w += f_first * 0.25 * q_rr_v;
+            free.reverse_recovery_w += f_first * rec_diode_j;
         } else if i0 == 0.0 {
             chop.output_capacitance_w += f_first * e_oss;
         }
@@ -486,7 +486,7 @@ fn synchronous_channel_lines(
     chop: &mut LossLines,
     free: &mut LossLines,
 ) -> Result<()> {
-    let (f3, r_o, q_rr_v, e_oss) = (k.f3, k.r_o, k.q_rr_v, k.e_oss);
+    let (f3, r_o, e_oss) = (k.f3, k.r_o, k.e_oss);
     let ch = waveform_integrals(w, s1, s2);
     // Line current i > 0 flows source→drain in this switch: reverse.
     free.conduction_reverse_w = f3 * r_o * ch.i2_pos;
@@ -495,10 +495,11 @@ fn synchronous_channel_lines(
     let i_s2 = w.value_at(s2);
     let (e_on, e_off) = stage.energies(i_s1, i_s2, r_o)?;
     if i_s1 < 0.0 {
+        let (rec_switch_j, rec_diode_j) = stage.recovery_j(i_s1)?;
         free.switching_w += f3 * e_on;
-        free.reverse_recovery_w += f3 * q_rr_v;
+        free.reverse_recovery_w += f3 * rec_switch_j;
         free.output_capacitance_w += f3 * e_oss;
-        chop.reverse_recovery_w += f3 * 0.25 * q_rr_v;
+        chop.reverse_recovery_w += f3 * rec_diode_j;
     } else if i_s1 == 0.0 {
         free.output_capacitance_w += f3 * e_oss;
     }
