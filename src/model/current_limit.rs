@@ -94,6 +94,16 @@ pub struct CurrentLimitOut {
     pub stall_circuit: StallCircuitOut,
 }
 
+impl CurrentLimitOut {
+    /// The lowest hard limit on the peak (I_DM or I_D, the motor's limit).
+    pub fn tightest_peak_limit(&self) -> Option<&HardLimitOut> {
+        self.hard_limits
+            .iter()
+            .filter(|h| h.applies_to == "peak")
+            .min_by(|x, y| x.current_a.total_cmp(&y.current_a))
+    }
+}
+
 /// The sensing chain with its tolerances, and how the threshold code maps to
 /// volts (`plan.json` `current_limit.sense`).
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
@@ -829,13 +839,8 @@ fn place_finding(place: ShuntPlaceSpec, ev: &Evaluator, chopping: bool) -> Optio
 /// desaturation detection is the usual answer). Only with a loop inductance.
 fn hard_short_finding(o: &CurrentLimitOut, ev: &Evaluator) -> Option<LimitFinding> {
     let l_loop = ev.stage.drive.loop_inductance_h;
-    let tightest = o
-        .hard_limits
-        .iter()
-        .filter(|h| h.applies_to == "peak")
-        .map(|h| h.current_a)
-        .fold(f64::INFINITY, f64::min);
-    if l_loop <= 0.0 || !tightest.is_finite() {
+    let tightest = o.tightest_peak_limit()?.current_a;
+    if l_loop <= 0.0 {
         return None;
     }
     let v = o.stall_circuit.v_bus_v;
@@ -884,12 +889,7 @@ fn window_findings(o: &CurrentLimitOut, fixed_trip: bool) -> Vec<LimitFinding> {
             ),
         ));
     }
-    let tightest = o
-        .hard_limits
-        .iter()
-        .filter(|h| h.applies_to == "peak")
-        .min_by(|x, y| x.current_a.total_cmp(&y.current_a));
-    if let Some(h) = tightest
+    if let Some(h) = o.tightest_peak_limit()
         && o.peak_a > h.current_a
     {
         let spread = o.trip_high_a / o.trip_low_a.max(1e-12);

@@ -169,17 +169,15 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         .collect();
     let worst_case = worst_case_rows(plan);
     let stage = stage_literals(plan);
-    let limit = plan
-        .current_limit
-        .as_ref()
-        .map(|l| crate::output::limit::literals(Some(l)));
+    let limit = crate::output::limit::literals(plan.current_limit.as_ref());
+    let armed = plan.current_limit.is_some().then_some(&limit);
     let c_init_steps = init_steps(
         &n,
         &timer,
         &stage,
         has_dead_time,
         plan.three_phase.is_some(),
-        limit.as_ref(),
+        armed,
         Lang::C,
     );
     let rust_init_steps = init_steps(
@@ -188,7 +186,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         &stage,
         has_dead_time,
         plan.three_phase.is_some(),
-        limit.as_ref(),
+        armed,
         Lang::Rust,
     );
     let mut ctx = Context {
@@ -202,7 +200,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         three_phase: plan.three_phase.is_some(),
         three_phase_literals: tpl,
         current_limit: plan.current_limit.is_some(),
-        limit: limit.unwrap_or_default(),
+        limit,
         limit_rows: crate::output::limit::rows(plan.current_limit.as_ref(), plan.pwm.min_pulse_s),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,

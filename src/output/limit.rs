@@ -56,11 +56,7 @@ pub fn rows(l: Option<&CurrentLimitOut>, min_pulse_s: f64) -> Vec<Row> {
             q(l.threshold_v, Dimension::Voltage)
         ),
     };
-    let tightest_peak = l
-        .hard_limits
-        .iter()
-        .filter(|h| h.applies_to == "peak")
-        .min_by(|x, y| x.current_a.total_cmp(&y.current_a));
+    let tightest_peak = l.tightest_peak_limit();
     let mut out = vec![
         row("threshold", threshold),
         row(

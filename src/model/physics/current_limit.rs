@@ -1,9 +1,9 @@
 //! The current limit's physics: the sensing chain's trip window with its
 //! tolerances stacked, the fault input's filter, the time from the trip to
 //! the switch's turn-off and the current's overshoot in it, the blanking the
-//! turn-on transient needs, and the stall current a cycle-by-cycle limit
-//! really holds (the "ratchet" when the shortest on-time adds more current
-//! than the off-time removes).
+//! turn-on transient needs, and the stall a cycle-by-cycle limit really
+//! holds, followed period by period (it ratchets past the trip when the
+//! shortest on-time adds more current than the off-time removes).
 //!
 //! Owns: these formulas, in SI units. Never: choosing codes or ticks (that is
 //! `model::current_limit`), reading input, printing.
@@ -170,48 +170,6 @@ pub enum Freewheel {
     Reversed,
 }
 
-/// The mean stall current a cycle-by-cycle limit settles at when every
-/// period still turns the switch on for at least `t_on_min_s` (the blanking
-/// and reaction time). In continuous conduction the volt-second balance over
-/// a period, V·D − V_off·(1 − D) = R·I with D = t_on_min/T (inductor
-/// volt-second balance, common practice; Mohan, Undeland, Robbins, *Power
-/// Electronics*, 2003, ch. 7, from memory), with V_off 0, V_f or V by the
-/// freewheel path. Where the off-state voltage empties the winding within the
-/// period (discontinuous conduction) the triangle's mean instead,
-/// I_pk·(t_on + t_fall)/(2T) with I_pk = V·t_on/L and t_fall = L·I_pk/V_off
-/// (R neglected over the short pulse; the same source). The larger of the two,
-/// bounded to 0..V/R. Where it exceeds the trip level the limit cannot hold
-/// the stall: the current ratchets up to it.
-pub fn ratchet_current_a(
-    v_bus_v: f64,
-    r_ohm: f64,
-    l_h: f64,
-    t_on_min_s: f64,
-    period_s: f64,
-    freewheel: Freewheel,
-) -> f64 {
-    let d = (t_on_min_s / period_s).clamp(0.0, 1.0);
-    let v_off = match freewheel {
-        Freewheel::Shorted => 0.0,
-        Freewheel::Diode { v_f_v } => v_f_v,
-        Freewheel::Reversed => v_bus_v,
-    };
-    let continuous = (v_bus_v * d - v_off * (1.0 - d)) / r_ohm;
-    let triangle = if v_off > 0.0 {
-        let t_on = d * period_s;
-        let i_pk = v_bus_v * t_on / l_h;
-        let t_fall = l_h * i_pk / v_off;
-        if t_on + t_fall <= period_s {
-            i_pk * (t_on + t_fall) / (2.0 * period_s)
-        } else {
-            0.0
-        }
-    } else {
-        0.0
-    };
-    continuous.max(triangle).clamp(0.0, v_bus_v / r_ohm)
-}
-
 /// A stall chopped cycle by cycle, period after period until it repeats:
 /// the switch turns on at each period start (the firmware commanding full
 /// duty, the worst case); the current I(t) = V/R + (I_0 − V/R)·e^(−t/τ),
@@ -309,6 +267,48 @@ pub fn stall_cycle(c: &ChoppedStall) -> StallCycle {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The mean stall current a cycle-by-cycle limit settles at when every
+    /// period still turns the switch on for at least `t_on_min_s` (the blanking
+    /// and reaction time). In continuous conduction the volt-second balance over
+    /// a period, V·D − V_off·(1 − D) = R·I with D = t_on_min/T (inductor
+    /// volt-second balance, common practice; Mohan, Undeland, Robbins, *Power
+    /// Electronics*, 2003, ch. 7, from memory), with V_off 0, V_f or V by the
+    /// freewheel path. Where the off-state voltage empties the winding within the
+    /// period (discontinuous conduction) the triangle's mean instead,
+    /// I_pk·(t_on + t_fall)/(2T) with I_pk = V·t_on/L and t_fall = L·I_pk/V_off
+    /// (R neglected over the short pulse; the same source). The larger of the two,
+    /// bounded to 0..V/R. The closed form [`stall_cycle`] must meet where every
+    /// period is cut at the uncut on-time (the reference of the tests below).
+    fn ratchet_current_a(
+        v_bus_v: f64,
+        r_ohm: f64,
+        l_h: f64,
+        t_on_min_s: f64,
+        period_s: f64,
+        freewheel: Freewheel,
+    ) -> f64 {
+        let d = (t_on_min_s / period_s).clamp(0.0, 1.0);
+        let v_off = match freewheel {
+            Freewheel::Shorted => 0.0,
+            Freewheel::Diode { v_f_v } => v_f_v,
+            Freewheel::Reversed => v_bus_v,
+        };
+        let continuous = (v_bus_v * d - v_off * (1.0 - d)) / r_ohm;
+        let triangle = if v_off > 0.0 {
+            let t_on = d * period_s;
+            let i_pk = v_bus_v * t_on / l_h;
+            let t_fall = l_h * i_pk / v_off;
+            if t_on + t_fall <= period_s {
+                i_pk * (t_on + t_fall) / (2.0 * period_s)
+            } else {
+                0.0
+            }
+        } else {
+            0.0
+        };
+        continuous.max(triangle).clamp(0.0, v_bus_v / r_ohm)
+    }
 
     fn chain() -> SenseChain {
         SenseChain {

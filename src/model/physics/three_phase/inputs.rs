@@ -141,13 +141,13 @@ impl ThreePhaseStage<'_> {
         let release_s = switching::soft_release_s(self.sw, self.drive, i)?;
         let t_s = edges.after_hard_turn_off_s(self.t_dead_s)
             + edges.after_soft_turn_off_s(self.t_dead_s, release_s);
-        let rec = recovery::partner_recovery(self.sw, self.drive, self.v_bus_v, i, edges.tau_s)?;
+        let (recovery_switch_j, recovery_diode_j) = self.recovery_j(i)?;
         Ok(EdgePair {
             e_on_j: tr.e_on_j,
             e_off_j: tr.e_off_j,
             dead_time_diode_j: forward::forward_voltage_v(self.sw, i) * i * t_s,
-            recovery_switch_j: rec.switch_j,
-            recovery_diode_j: rec.diode_j,
+            recovery_switch_j,
+            recovery_diode_j,
         })
     }
 
