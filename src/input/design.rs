@@ -11,6 +11,7 @@ use crate::input::diagnostic::InputError;
 use crate::input::load::{self, Origin, SourceFile};
 use crate::input::spec::*;
 use crate::input::units::{Dimension, format_quantity};
+use crate::model::physics::load_line::{LoadLine, OperatingRange};
 use crate::model::physics::three_phase::{self, BackEmfShape, MotorParams, ZeroSequence};
 
 /// Default lower edge of the frequency search when the design gives none
@@ -1551,6 +1552,9 @@ fn check_design(
     check_design_ambient(d, sw, &c)?;
     let t_j_limit = check_design_limits(d, sw, &c)?;
     check_design_options(d, b, sw, &c, emf)?;
+    if let Some(r) = &d.operating_range {
+        check_design_range(d, b, &c, r, k_e)?;
+    }
     Ok((emf, k_e, t_j_limit))
 }
 
@@ -1697,23 +1701,230 @@ fn check_design_motor_kind(
                 ));
             }
         };
-        let emf = k_e * m.operating_speed.si;
-        let v_needed = emf + m.rated_current.si * m.resistance.si;
-        if v_needed >= s.min.si {
+        let at = Reach {
+            speed_rad_s: m.operating_speed.si,
+            current_a: m.rated_current.si,
+            field: "motor.operating_speed",
+            named: false,
+        };
+        check_brushed_reach(c, m, s, k_e, &at)?;
+        (k_e * m.operating_speed.si, k_e)
+    };
+    Ok((emf, k_e))
+}
+
+/// A speed and current the lowest supply must reach, and the field an
+/// error points at (`named`: the error names the speed and current, as
+/// for a point of the operating range).
+struct Reach {
+    speed_rad_s: f64,
+    current_a: f64,
+    field: &'static str,
+    named: bool,
+}
+
+impl Reach {
+    fn at(&self) -> String {
+        if self.named {
+            format!(
+                "at {} and {}",
+                fmt(self.speed_rad_s, Dimension::AngularSpeed),
+                fmt(self.current_a, A)
+            )
+        } else {
+            "at this speed and current".to_string()
+        }
+    }
+}
+
+/// A brushed motor at `at` needs back-EMF + I·R below the lowest supply
+/// (volt-second balance, common practice).
+fn check_brushed_reach(
+    c: &Check,
+    m: &MotorSpec,
+    s: &SupplySpec,
+    k_e: f64,
+    at: &Reach,
+) -> Result<(), InputError> {
+    let emf = k_e * at.speed_rad_s;
+    let ir = at.current_a * m.resistance.si;
+    let why = format!("back-EMF {} + I·R {}", fmt(emf, V), fmt(ir, V));
+    reach_within_supply(c, at, "", emf + ir, &why, s.min.si)
+}
+
+/// The voltage `v_needed` (made of `why`) at `at` must stay below the
+/// lowest supply `v_min`.
+fn reach_within_supply(
+    c: &Check,
+    at: &Reach,
+    mode: &str,
+    v_needed: f64,
+    why: &str,
+    v_min: f64,
+) -> Result<(), InputError> {
+    if v_needed < v_min {
+        return Ok(());
+    }
+    Err(c.fail(
+        at.field,
+        format!(
+            "{mode}the motor needs {} ({why}) {}, more than the lowest supply {}; expected a speed the supply can reach",
+            fmt(v_needed, V),
+            at.at(),
+            fmt(v_min, V)
+        ),
+    ))
+}
+
+/// Highest speed accepted anywhere, rad/s (about 955 000 rpm; a
+/// plausibility bound of our own choice, the same as `operating_speed`'s).
+const MAX_SPEED_RAD_S: f64 = 1e5;
+
+/// `design.operating_range`: the speed span inside 0..=`MAX_SPEED_RAD_S`,
+/// min ≤ max; a table of 2 to `LIST_CAPS.curve_points` points with rising
+/// speeds and currents of 1 mA to 2 kA spanning the range; and every speed
+/// where the load line bends (its ends, the table's points inside it)
+/// reachable from the lowest supply (the needed voltage is convex or
+/// linear between them, so it peaks at one of them).
+fn check_design_range(
+    d: &DesignSpec,
+    b: &BoardSpec,
+    c: &Check,
+    r: &OperatingRangeSpec,
+    k_e: f64,
+) -> Result<(), InputError> {
+    let deg = Dimension::AngularSpeed;
+    c.within(
+        "operating_range.speed.min",
+        r.speed.min.si,
+        0.0,
+        MAX_SPEED_RAD_S,
+        deg,
+    )?;
+    c.within(
+        "operating_range.speed.max",
+        r.speed.max.si,
+        0.0,
+        MAX_SPEED_RAD_S,
+        deg,
+    )?;
+    if r.speed.max.si < r.speed.min.si {
+        return Err(c.fail(
+            "operating_range.speed.max",
+            format!(
+                "{} is below min {}; expected min ≤ max",
+                fmt(r.speed.max.si, deg),
+                fmt(r.speed.min.si, deg)
+            ),
+        ));
+    }
+    if let LoadLineSpec::Table(points) = &r.load {
+        check_load_table(c, points, r)?;
+    }
+    let line = load_line(&r.load, &d.motor);
+    for (speed, field) in [
+        (r.speed.min.si, "operating_range.speed.min"),
+        (r.speed.max.si, "operating_range.speed.max"),
+    ]
+    .into_iter()
+    .chain(
+        line.knots_within(r.speed.min.si, r.speed.max.si)
+            .into_iter()
+            .map(|n| (n, "operating_range.load")),
+    ) {
+        let at = Reach {
+            speed_rad_s: speed,
+            current_a: line.current_at_a(speed),
+            field,
+            named: true,
+        };
+        match brushless_motor(&d.motor) {
+            Some(motor) => check_brushless_reach(c, &d.motor, b, &d.supply, &motor, &at)?,
+            None => check_brushed_reach(c, &d.motor, &d.supply, k_e, &at)?,
+        }
+    }
+    Ok(())
+}
+
+/// The model's load line of a design's `operating_range.load`.
+pub fn load_line(spec: &LoadLineSpec, m: &MotorSpec) -> LoadLine {
+    match spec {
+        LoadLineSpec::ConstantTorque => LoadLine::ConstantTorque {
+            current_a: m.rated_current.si,
+        },
+        LoadLineSpec::FanLaw => LoadLine::FanLaw {
+            rated_speed_rad_s: m.operating_speed.si,
+            rated_current_a: m.rated_current.si,
+        },
+        LoadLineSpec::Table(points) => LoadLine::Table {
+            points: points.iter().map(|p| (p.speed.si, p.current.si)).collect(),
+        },
+    }
+}
+
+/// The model's operating range of a design, when it gives one.
+pub fn operating_range(d: &DesignSpec) -> Option<OperatingRange> {
+    let r = d.operating_range.as_ref()?;
+    Some(OperatingRange {
+        speed_min_rad_s: r.speed.min.si,
+        speed_max_rad_s: r.speed.max.si,
+        rated_speed_rad_s: d.motor.operating_speed.si,
+        load: load_line(&r.load, &d.motor),
+    })
+}
+
+/// A load-line table: 2 to `LIST_CAPS.curve_points` points, speeds rising,
+/// currents of 1 mA to 2 kA, spanning the speed range.
+fn check_load_table(
+    c: &Check,
+    points: &[LoadPointSpec],
+    r: &OperatingRangeSpec,
+) -> Result<(), InputError> {
+    let deg = Dimension::AngularSpeed;
+    c.max_len(
+        "operating_range.load.table",
+        points.len(),
+        LIST_CAPS.curve_points,
+        "points",
+    )?;
+    if points.len() < 2 {
+        return Err(c.fail(
+            "operating_range.load.table",
+            format!(
+                "{} point; expected at least 2 (speed, current) points",
+                points.len()
+            ),
+        ));
+    }
+    for (i, p) in points.iter().enumerate() {
+        let f = format!("operating_range.load.table[{i}]");
+        c.non_negative(&format!("{f}.speed"), p.speed.si, MAX_SPEED_RAD_S, deg)?;
+        c.within(&format!("{f}.current"), p.current.si, 1e-3, 2000.0, A)?;
+        if i > 0 && p.speed.si <= points[i - 1].speed.si {
             return Err(c.fail(
-                "motor.operating_speed",
+                &format!("{f}.speed"),
                 format!(
-                    "the motor needs {} (back-EMF {} + I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
-                    fmt(v_needed, V),
-                    fmt(emf, V),
-                    fmt(m.rated_current.si * m.resistance.si, V),
-                    fmt(s.min.si, V)
+                    "{} is not above the previous point's {}; expected speeds rising",
+                    fmt(p.speed.si, deg),
+                    fmt(points[i - 1].speed.si, deg)
                 ),
             ));
         }
-        (emf, k_e)
-    };
-    Ok((emf, k_e))
+    }
+    let (first, last) = (points[0].speed.si, points[points.len() - 1].speed.si);
+    if first > r.speed.min.si || last < r.speed.max.si {
+        return Err(c.fail(
+            "operating_range.load.table",
+            format!(
+                "spans {} to {}; expected it to cover the speed range {} to {}",
+                fmt(first, deg),
+                fmt(last, deg),
+                fmt(r.speed.min.si, deg),
+                fmt(r.speed.max.si, deg)
+            ),
+        ));
+    }
+    Ok(())
 }
 
 /// The ambient range against the switch.
@@ -2026,74 +2237,78 @@ fn check_brushless(
     let Some(motor) = brushless_motor(m) else {
         return Err(c.fail("motor", "expected a brushless motor"));
     };
-    let omega_e = f64::from(p) * m.operating_speed.si;
-    let emf = motor.phase_emf_peak_v(omega_e);
-    let i = m.rated_current.si;
-    match b.stage.modulation {
-        Some(ModulationSpec::Sinusoidal { zero_sequence: z }) => {
-            let gamma_deg = m.current_advance_deg.unwrap_or(0.0);
-            if !(gamma_deg.is_finite() && gamma_deg > -90.0 && gamma_deg < 90.0) {
-                return Err(c.fail(
-                    "motor.current_advance_deg",
-                    format!("{gamma_deg} is out of range; expected more than -90 and less than 90 degrees"),
-                ));
-            }
-            let zs = zero_sequence(z);
-            match three_phase::sinusoidal_point_from_motor(
-                &motor,
-                omega_e,
-                i,
-                gamma_deg.to_radians(),
-                s.min.si,
-                zs,
-            ) {
-                Ok(_) => {}
-                Err(three_phase::ThreePhaseError::Overmodulation {
-                    modulation_index,
-                    limit,
-                }) => {
-                    return Err(c.fail(
-                        "motor.operating_speed",
-                        format!(
-                            "at the lowest supply {} the motor needs modulation index {:.3} (phase voltage peak {}), above the linear limit {:.3} of zero_sequence `{}`; lower the speed or the current, or raise the supply{}",
-                            fmt(s.min.si, V),
-                            modulation_index,
-                            fmt(modulation_index * 0.5 * s.min.si, V),
-                            limit,
-                            if zs == ZeroSequence::None { "none" } else { "min-max" },
-                            if zs == ZeroSequence::None { ", or use `min-max` (linear to 1.155)" } else { "" }
-                        ),
-                    ));
-                }
-                Err(e) => {
-                    return Err(c.fail("motor", format!("no sinusoidal operating point: {e:?}")));
-                }
-            }
-        }
-        _ => {
-            if m.current_advance_deg.is_some() {
-                return Err(c.fail(
-                    "motor.current_advance_deg",
-                    "only sinusoidal modulation takes a current advance; remove it",
-                ));
-            }
-            let e_ll = motor.six_step_line_emf_v(omega_e);
-            let v_needed = e_ll + 2.0 * m.resistance.si * i;
-            if v_needed >= s.min.si {
-                return Err(c.fail(
-                    "motor.operating_speed",
-                    format!(
-                        "in six-step the motor needs {} (line-to-line back-EMF {} + 2·I·R {}) at this speed and current, more than the lowest supply {}; expected a speed the supply can reach",
-                        fmt(v_needed, V),
-                        fmt(e_ll, V),
-                        fmt(2.0 * m.resistance.si * i, V),
-                        fmt(s.min.si, V)
-                    ),
-                ));
-            }
-        }
+    let emf = motor.phase_emf_peak_v(f64::from(p) * m.operating_speed.si);
+    if m.current_advance_deg.is_some()
+        && !matches!(b.stage.modulation, Some(ModulationSpec::Sinusoidal { .. }))
+    {
+        return Err(c.fail(
+            "motor.current_advance_deg",
+            "only sinusoidal modulation takes a current advance; remove it",
+        ));
     }
+    let gamma_deg = m.current_advance_deg.unwrap_or(0.0);
+    if !(gamma_deg.is_finite() && gamma_deg > -90.0 && gamma_deg < 90.0) {
+        return Err(c.fail(
+            "motor.current_advance_deg",
+            format!("{gamma_deg} is out of range; expected more than -90 and less than 90 degrees"),
+        ));
+    }
+    let at = Reach {
+        speed_rad_s: m.operating_speed.si,
+        current_a: m.rated_current.si,
+        field: "motor.operating_speed",
+        named: false,
+    };
+    check_brushless_reach(c, m, b, s, &motor, &at)?;
     Ok((emf, motor.ke_v_s_per_rad))
+}
+
+/// A brushless motor at `at` within the lowest supply: sinusoidal, a
+/// modulation index inside the linear limit of its zero sequence
+/// (`sinusoidal_point_from_motor`); six-step, line-to-line back-EMF +
+/// 2·I·R below the supply (two phases in series, common practice).
+fn check_brushless_reach(
+    c: &Check,
+    m: &MotorSpec,
+    b: &BoardSpec,
+    s: &SupplySpec,
+    motor: &MotorParams,
+    at: &Reach,
+) -> Result<(), InputError> {
+    let omega_e = f64::from(motor.pole_pairs) * at.speed_rad_s;
+    let i = at.current_a;
+    if let Some(ModulationSpec::Sinusoidal { zero_sequence: z }) = b.stage.modulation {
+        let gamma_rad = m.current_advance_deg.unwrap_or(0.0).to_radians();
+        let zs = zero_sequence(z);
+        return match three_phase::sinusoidal_point_from_motor(motor, omega_e, i, gamma_rad, s.min.si, zs) {
+            Ok(_) => Ok(()),
+            Err(three_phase::ThreePhaseError::Overmodulation {
+                modulation_index,
+                limit,
+            }) => Err(c.fail(
+                at.field,
+                format!(
+                    "at the lowest supply {} the motor needs modulation index {:.3} (phase voltage peak {}){}, above the linear limit {:.3} of zero_sequence `{}`; lower the speed or the current, or raise the supply{}",
+                    fmt(s.min.si, V),
+                    modulation_index,
+                    fmt(modulation_index * 0.5 * s.min.si, V),
+                    if at.named { format!(" {}", at.at()) } else { String::new() },
+                    limit,
+                    if zs == ZeroSequence::None { "none" } else { "min-max" },
+                    if zs == ZeroSequence::None { ", or use `min-max` (linear to 1.155)" } else { "" }
+                ),
+            )),
+            Err(e) => Err(c.fail("motor", format!("no sinusoidal operating point: {e:?}"))),
+        };
+    }
+    let e_ll = motor.six_step_line_emf_v(omega_e);
+    let ir2 = 2.0 * m.resistance.si * i;
+    let why = format!(
+        "line-to-line back-EMF {} + 2·I·R {}",
+        fmt(e_ll, V),
+        fmt(ir2, V)
+    );
+    reach_within_supply(c, at, "in six-step ", e_ll + ir2, &why, s.min.si)
 }
 
 /// Largest tolerance accepted: ±50 % (our choice; a wider spread is no

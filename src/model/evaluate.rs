@@ -13,6 +13,7 @@ use crate::model::physics::acoustics::{self, AcousticVerdict, AudibleMode, Signi
 use crate::model::physics::capacitance;
 use crate::model::physics::deadtime::{self, DeadTimeInputs};
 use crate::model::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents, StageLevels};
+use crate::model::physics::load_line::OperatingRange;
 use crate::model::physics::losses::{self, DeviceRole, StageLosses};
 use crate::model::physics::params::{
     DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
@@ -80,6 +81,8 @@ pub struct Evaluator {
     pub three_phase: Option<ThreePhaseModel>,
     /// Sinusoidal commands already solved (shared by clones; keyed on every input).
     pub commands: three_phase::CommandMemo,
+    /// The design's operating range (`None`: the rated point alone).
+    pub range: Option<OperatingRange>,
 }
 
 /// What a three-phase bridge adds to the evaluator.
@@ -535,6 +538,7 @@ impl Evaluator {
             dead_time_need_override_s: None,
             three_phase: three_phase_model(d),
             commands: three_phase::CommandMemo::default(),
+            range: crate::input::design::operating_range(s),
         }
     }
 
@@ -827,16 +831,7 @@ impl Evaluator {
         if let Some(tp) = &self.three_phase {
             return self.case_three_phase(tp, case, f_hz, t_dead_s);
         }
-        let (m, ideal) = self.modulation_and_waveform(case, f_hz)?;
-        let (compare_duty, w) = self.stage_duty_and_waveform(case, m, ideal, f_hz, t_dead_s);
-        // A duty below 0 means the dead time and the drops alone push more
-        // than the load current: the load is not reachable at this case
-        // (found by the register check on absurd inputs, where the written
-        // compare would have contradicted the plan). Above 1 the case stands
-        // and the duty-range constraint fails on it.
-        if compare_duty.is_nan() || compare_duty < 0.0 {
-            return None;
-        }
+        let (m, compare_duty, w) = self.duty_and_waveform(case, f_hz, t_dead_s)?;
         let load = load_current(&w);
         let st = &self.stage;
         let op = OperatingPoint {
@@ -939,6 +934,27 @@ impl Evaluator {
             acoustic: acoustic.into(),
             three_phase: None,
         })
+    }
+
+    /// A single-phase stage's modulation, compare duty and motor current
+    /// at `case` (dead time and drops counted). `None` when the load is not
+    /// reachable: a duty below 0 means the dead time and the drops alone
+    /// push more than the load current (found by the register check on
+    /// absurd inputs, where the written compare would have contradicted the
+    /// plan). Above 1 the case stands and the duty-range constraint fails
+    /// on it.
+    pub fn duty_and_waveform(
+        &self,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<(f64, f64, RippleWaveform)> {
+        let (m, ideal) = self.modulation_and_waveform(case, f_hz)?;
+        let (compare_duty, w) = self.stage_duty_and_waveform(case, m, ideal, f_hz, t_dead_s);
+        if compare_duty.is_nan() || compare_duty < 0.0 {
+            return None;
+        }
+        Some((m, compare_duty, w))
     }
 
     /// Dead time the stage needs at this case's turn-off current: the

@@ -2,7 +2,8 @@
 //!
 //! Owns the power-stage physics ([`physics`]), the timer's arithmetic
 //! ([`timer`]), the evaluator that turns a `Design` into operating cases and
-//! evaluates one case at one setting ([`evaluate`]), the search ([`solve`]),
+//! evaluates one case at one setting ([`evaluate`]), a setting over the
+//! design's operating range ([`range`]), the search ([`solve`]),
 //! part spreads and the Monte Carlo ([`spread`]), the frequency sweep
 //! ([`sweep`]), the register-level verifier ([`verify`]) and the comparison
 //! of its figures with a plan's claims ([`register_check`]).
@@ -13,6 +14,7 @@
 pub mod current_limit;
 pub mod evaluate;
 pub mod physics;
+pub mod range;
 pub mod register_check;
 pub mod solve;
 pub mod spread;

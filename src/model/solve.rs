@@ -24,6 +24,7 @@ use serde::Serialize;
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
 use crate::model::physics::params::{HBridgeModulation, Topology};
 use crate::model::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
+use crate::model::range::{RangePoint, RangeResult, junction_key};
 use crate::model::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
 
 /// What the solver optimises.
@@ -55,6 +56,24 @@ pub struct Search {
     /// When the grid finds nothing feasible, every setting is evaluated if
     /// there are at most this many.
     pub infeasible_exhaustive_limit: usize,
+}
+
+/// How much more a setting costs to judge over an operating range than at
+/// the rated point alone (measured on the demo with a range: about 14×;
+/// rounded up, our choice).
+pub const RANGE_COST_FACTOR: usize = 16;
+
+impl Search {
+    /// The same search with its one-by-one limits cut by
+    /// [`RANGE_COST_FACTOR`], so that judging over a range takes about as
+    /// long as the rated point did (the grid is kept).
+    pub fn over_range(self) -> Search {
+        Search {
+            exhaustive_limit: self.exhaustive_limit / RANGE_COST_FACTOR,
+            infeasible_exhaustive_limit: self.infeasible_exhaustive_limit / RANGE_COST_FACTOR,
+            ..self
+        }
+    }
 }
 
 impl Default for Search {
@@ -136,6 +155,9 @@ pub enum Detail {
     },
     /// Another detail, found at a corner of the spreads.
     AtCorner(Box<Detail>, String),
+    /// Another detail, found at a speed of the operating range (rad/s)
+    /// and compare duty.
+    AtSpeed(Box<Detail>, f64, f64),
 }
 
 impl From<&'static str> for Detail {
@@ -181,6 +203,9 @@ impl std::fmt::Display for Detail {
                 write!(f, "allowed {} to {}", fmt_f(*min_hz), fmt_f(*max_hz))
             }
             Detail::AtCorner(d, label) => write!(f, "{d} (corner {label})"),
+            Detail::AtSpeed(d, n, duty) => {
+                write!(f, "{d}, at {} (duty {duty:.3})", fmt_rpm(*n))
+            }
         }
     }
 }
@@ -240,6 +265,9 @@ pub struct Candidate {
     pub duty_needed: (f64, f64),
     pub rated: CaseResult,
     pub high_bus: CaseResult,
+    /// The setting over the design's operating range, when it gives one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub range: Option<RangeResult>,
     pub checks: Vec<ConstraintCheck>,
     pub feasible: bool,
     /// Three-phase: the current-sampling window at this setting.
@@ -387,16 +415,39 @@ impl Evaluator {
         }
     }
 
-    /// Whether the lower end of the needed duty range is checked against
-    /// the timer's minimum (the stages whose legs swing both ways).
-    pub fn checks_min_duty(&self) -> bool {
-        matches!(
-            self.stage.topology,
-            Topology::HBridge(HBridgeModulation::Unipolar)
-        ) || self
-            .three_phase
+    /// [`Self::duty_needed`] with the range's lowest compare duty (highest
+    /// supply) and highest (lowest supply) joined in.
+    pub fn duty_needed_over_range(
+        &self,
+        d_high_bus: f64,
+        d_low_bus: f64,
+        range: Option<&RangeResult>,
+    ) -> (f64, f64) {
+        let Some(r) = range else {
+            return self.duty_needed(d_high_bus, d_low_bus);
+        };
+        let low = r.duty_low.map_or(d_high_bus, |e| e.value.min(d_high_bus));
+        let high = r.duty_high.map_or(d_low_bus, |e| e.value.max(d_low_bus));
+        self.duty_needed(low, high)
+    }
+
+    /// The modulation at the lowest supply (1 when the load is out of
+    /// reach), the highest over the range's corner speeds when `over_range`:
+    /// a three-phase bridge's sampling window is judged there.
+    fn highest_modulation(&self, f_hz: f64, over_range: bool) -> f64 {
+        let at_rated = self.modulation_for_load(&self.low_bus, f_hz).unwrap_or(1.0);
+        let Some(r) = self
+            .range
             .as_ref()
-            .is_some_and(|tp| matches!(tp.modulation, ThreePhaseModulation::Sinusoidal { .. }))
+            .filter(|_| over_range && self.three_phase.is_some())
+        else {
+            return at_rated;
+        };
+        r.corner_speeds().into_iter().fold(at_rated, |m, n| {
+            let case = self.range_case(r, &self.low_bus, n);
+            let here = self.at_speed(n, |e| e.modulation_for_load(&case, f_hz));
+            m.max(here.unwrap_or(1.0))
+        })
     }
 
     /// The alignments the search may use. A three-phase bridge samples its
@@ -456,20 +507,30 @@ impl Evaluator {
         let f = s.frequency_hz;
         let rated = self.case(&self.rated, f, dead.seconds)?;
         let high_bus = self.case(&self.high_bus, f, dead.seconds)?;
-        let m_low_bus = self.modulation_for_load(&self.low_bus, f).unwrap_or(1.0);
+        let range = self
+            .range
+            .as_ref()
+            .map(|r| self.judge_range(r, f, dead.seconds, [&rated, &high_bus]));
+        let m_low_bus = self.highest_modulation(f, range.is_some());
         let d_low_bus = self
             .compare_duty_for_load(&self.low_bus, f, dead.seconds)
             .unwrap_or(1.0);
-        let duty_needed = self.duty_needed(high_bus.compare_duty, d_low_bus);
+        let duty_needed =
+            self.duty_needed_over_range(high_bus.compare_duty, d_low_bus, range.as_ref());
         let limits = timer::duty_limits(s, &self.pulse_rules(dead.seconds)).ok();
         let mut checks = Vec::new();
         let l = &self.limits;
 
-        checks.extend(junction_checks(l.t_j_max_c, &rated, &high_bus));
+        checks.extend(junction_checks(
+            l.t_j_max_c,
+            &rated,
+            &high_bus,
+            range.as_ref(),
+        ));
         if let Some(max) = l.ripple_pp_max_a {
-            checks.push(self.ripple_check(max, &rated, &high_bus));
+            checks.push(self.ripple_check(max, &rated, &high_bus, range.as_ref()));
         }
-        checks.push(self.audible_check(&rated, &high_bus));
+        checks.push(self.audible_check(&rated, &high_bus, range.as_ref()));
         if let Some(bits) = l.min_resolution_bits {
             checks.push(lower(
                 "resolution",
@@ -483,9 +544,13 @@ impl Evaluator {
             checks.push(dead_time_check(dead));
         }
         if let Some(v_max) = l.v_ds_peak_max_v {
-            checks.push(turn_off_peak_check(v_max, &rated, &high_bus));
+            let corners = range
+                .iter()
+                .flat_map(|r| r.corners_nominal.iter().chain(&r.corners_high_bus));
+            checks.push(turn_off_peak_check(v_max, &rated, &high_bus, corners));
         }
-        checks.push(self.duty_range_check(limits, duty_needed));
+        let unreachable = range.as_ref().and_then(|r| r.unreachable);
+        checks.push(self.duty_range_check(limits, duty_needed, unreachable));
         let sampling = self.sampling_window(s, dead.seconds);
         if let Some(w) = &sampling {
             checks.push(self.sampling_check(w, &high_bus, m_low_bus));
@@ -502,6 +567,7 @@ impl Evaluator {
             duty_needed,
             rated,
             high_bus,
+            range,
             checks,
             feasible,
             sampling: sampling.and_then(|w| w.ok()).map(|w| SamplingOut {
@@ -514,29 +580,53 @@ impl Evaluator {
         })
     }
 
-    /// The `ripple` constraint: the larger peak-to-peak ripple of the rated
-    /// and the high-bus case against the design's limit `max`.
-    fn ripple_check(&self, max: f64, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
+    /// The `ripple` constraint: the largest peak-to-peak ripple of the
+    /// rated and the high-bus case and of the operating range against the
+    /// design's limit `max` (a range point named when it is the worst).
+    fn ripple_check(
+        &self,
+        max: f64,
+        rated: &CaseResult,
+        high_bus: &CaseResult,
+        range: Option<&RangeResult>,
+    ) -> ConstraintCheck {
         let worst = rated
             .ripple
             .peak_to_peak_a
             .max(high_bus.ripple.peak_to_peak_a);
-        upper(
-            "ripple",
-            max,
-            Some(worst),
-            "A",
-            Detail::Ripple {
-                v_bus_v: self.high_bus.v_bus_v,
-            },
-        )
+        let at_supply = Detail::Ripple {
+            v_bus_v: self.high_bus.v_bus_v,
+        };
+        let (value, detail) = match range.and_then(|r| r.ripple) {
+            Some(e) if e.value > worst => (
+                e.value,
+                Detail::AtSpeed(
+                    Box::new(Detail::Ripple {
+                        v_bus_v: e.at.v_bus_v,
+                    }),
+                    e.at.speed_rad_s,
+                    e.at.compare_duty,
+                ),
+            ),
+            _ => (worst, at_supply),
+        };
+        upper("ripple", max, Some(value), "A", detail)
     }
 
     /// The `audible` constraint under the design's audibility mode: the
     /// ripple frequency against the hearing limit, or the count of lines in
-    /// avoided bands, or nothing to measure when sound is allowed.
-    fn audible_check(&self, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
-        let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass;
+    /// avoided bands, or nothing to measure when sound is allowed; over the
+    /// rated and high-bus cases and the operating range's samples.
+    fn audible_check(
+        &self,
+        rated: &CaseResult,
+        high_bus: &CaseResult,
+        range: Option<&RangeResult>,
+    ) -> ConstraintCheck {
+        let in_range = range.and_then(|r| r.audible.as_ref());
+        let range_pass = in_range.is_none_or(|a| a.1.pass);
+        let audible_pass = rated.acoustic.pass && high_bus.acoustic.pass && range_pass;
+        let range_lines = in_range.map_or(0, |a| a.1.lines_in_avoided_bands_hz.len());
         let (a_limit, a_value) = match &self.audible {
             crate::model::physics::acoustics::AudibleMode::Inaudible { hearing_limit_hz } => {
                 (*hearing_limit_hz, Some(rated.ripple.frequency_hz))
@@ -549,7 +639,7 @@ impl Evaluator {
                         .lines_in_avoided_bands_hz
                         .len()
                         .max(high_bus.acoustic.lines_in_avoided_bands_hz.len())
-                        as f64,
+                        .max(range_lines) as f64,
                 ),
             ),
             crate::model::physics::acoustics::AudibleMode::Allowed => (0.0, None),
@@ -562,10 +652,15 @@ impl Evaluator {
             unit: "Hz",
             pass: audible_pass,
             binding: false,
-            detail: if rated.acoustic.pass && !high_bus.acoustic.pass {
-                Detail::Audible(high_bus.acoustic.reason.clone())
-            } else {
-                Detail::Audible(rated.acoustic.reason.clone())
+            detail: match in_range {
+                _ if !rated.acoustic.pass => Detail::Audible(rated.acoustic.reason.clone()),
+                _ if !high_bus.acoustic.pass => Detail::Audible(high_bus.acoustic.reason.clone()),
+                Some((p, a)) if !a.pass => Detail::AtSpeed(
+                    Box::new(Detail::Audible(a.reason.clone())),
+                    p.speed_rad_s,
+                    p.compare_duty,
+                ),
+                _ => Detail::Audible(rated.acoustic.reason.clone()),
             },
         };
         match &self.audible {
@@ -587,21 +682,41 @@ impl Evaluator {
     }
 
     /// The `duty-range` constraint: the duties needed (`duty_needed`, low
-    /// and high end) inside the range the timer's `limits` leave, the lower
-    /// end checked only where [`Self::checks_min_duty`].
+    /// and high end) inside the range the timer's `limits` leave; fails
+    /// outright on a range point the lowest supply cannot reach.
     fn duty_range_check(
         &self,
         limits: Option<DutyLimits>,
         duty_needed: (f64, f64),
+        unreachable: Option<RangePoint>,
     ) -> ConstraintCheck {
         let (duty_pass, duty_margin, duty_detail) = match limits {
+            _ if unreachable.is_some() => (
+                false,
+                None,
+                unreachable.map_or_else(
+                    || "unreachable".into(),
+                    |p| {
+                        format!(
+                            "the load at {} and {} is out of reach at the lowest supply {}",
+                            fmt_rpm(p.speed_rad_s),
+                            crate::input::units::format_quantity(
+                                p.current_a,
+                                crate::input::units::Dimension::Current,
+                                3
+                            ),
+                            fmt_v(p.v_bus_v)
+                        )
+                        .into()
+                    },
+                ),
+            ),
             Some(lim) => {
                 let hi_margin = lim.max_duty - duty_needed.1;
-                let lo_margin = if self.checks_min_duty() {
-                    duty_needed.0 - lim.min_duty
-                } else {
-                    f64::INFINITY
-                };
+                // Every stage: the lowest duty (highest supply, lowest
+                // speed) must clear the minimum pulse too, or the drive
+                // cannot hold that point.
+                let lo_margin = duty_needed.0 - lim.min_duty;
                 let m = hi_margin.min(lo_margin);
                 (
                     m >= -EPS,
@@ -736,13 +851,24 @@ impl Evaluator {
 }
 
 /// The junction-temperature constraints at the rated and the high-bus
-/// case against the limit `t_j_max_c` (a runaway names itself).
+/// case, each with the operating range's corners on its supply, against
+/// the limit `t_j_max_c` (a runaway names itself; a range corner hotter
+/// than the rated speed is named).
 fn junction_checks(
     t_j_max_c: f64,
     rated: &CaseResult,
     high_bus: &CaseResult,
+    range: Option<&RangeResult>,
 ) -> [ConstraintCheck; 2] {
-    [("junction-rated", rated), ("junction-high-bus", high_bus)].map(|(name, r)| {
+    let worse = |base: &CaseResult, corners: Option<&[(f64, CaseResult)]>| match corners
+        .and_then(RangeResult::hottest)
+    {
+        Some((n, h)) if junction_key(h) > junction_key(base) => (h.clone(), Some(*n)),
+        _ => (base.clone(), None),
+    };
+    let nominal = worse(rated, range.map(|r| r.corners_nominal.as_slice()));
+    let high = worse(high_bus, range.map(|r| r.corners_high_bus.as_slice()));
+    [("junction-rated", nominal), ("junction-high-bus", high)].map(|(name, (r, speed))| {
         let detail = match (&r.runaway, r.junction_c) {
             (Some(why), _) => why.clone().into(),
             (None, Some(_)) => Detail::Junction {
@@ -751,14 +877,24 @@ fn junction_checks(
             },
             (None, None) => "no junction temperature".into(),
         };
+        let detail = match speed {
+            Some(n) => Detail::AtSpeed(Box::new(detail), n, r.compare_duty),
+            None => detail,
+        };
         upper(name, t_j_max_c, r.junction_c, "°C", detail)
     })
 }
 
 /// The `turn-off-peak` constraint: the highest drain voltage at any hard
-/// turn-off of the rated and high-bus cases (the loop inductance's
-/// overshoot on the bus) stays at or below V_DSS less the board's margin.
-fn turn_off_peak_check(v_max_v: f64, rated: &CaseResult, high_bus: &CaseResult) -> ConstraintCheck {
+/// turn-off of the rated and high-bus cases and the range's `corners`
+/// (the loop inductance's overshoot on the bus) stays at or below V_DSS
+/// less the board's margin.
+fn turn_off_peak_check<'a>(
+    v_max_v: f64,
+    rated: &'a CaseResult,
+    high_bus: &'a CaseResult,
+    corners: impl Iterator<Item = &'a (f64, CaseResult)>,
+) -> ConstraintCheck {
     let peak = |r: &CaseResult| {
         r.devices
             .iter()
@@ -770,13 +906,23 @@ fn turn_off_peak_check(v_max_v: f64, rated: &CaseResult, high_bus: &CaseResult) 
         (_, Some(b)) => (high_bus, Some(b)),
         (a, None) => (rated, a),
     };
+    let mut at_speed = None;
+    let (mut case, mut value) = (case, value);
+    for (n, k) in corners {
+        if let Some(p) = peak(k)
+            && value.is_none_or(|best| p > best)
+        {
+            (case, value, at_speed) = (k, Some(p), Some(*n));
+        }
+    }
     let detail = format!(
-        "highest drain voltage at a hard turn-off ({} supply), loop inductance's overshoot included",
+        "highest drain voltage at a hard turn-off ({} supply{}), loop inductance's overshoot included",
         crate::input::units::format_quantity(
             case.case.v_bus_v,
             crate::input::units::Dimension::Voltage,
             3
-        )
+        ),
+        at_speed.map_or(String::new(), |n| format!(", {}", fmt_rpm(n)))
     );
     upper("turn-off-peak", v_max_v, value, "V", detail.into())
 }
@@ -810,6 +956,11 @@ fn dead_time_check(dead: &DeadTimeChoice) -> ConstraintCheck {
 
 fn fmt_t(t: f64) -> String {
     crate::input::units::format_quantity(t, crate::input::units::Dimension::Time, 3)
+}
+
+/// A speed in rpm, to the nearest whole rpm.
+fn fmt_rpm(n_rad_s: f64) -> String {
+    format!("{:.0} rpm", n_rad_s * 30.0 / std::f64::consts::PI)
 }
 
 fn fmt_v(v: f64) -> String {
@@ -1031,6 +1182,11 @@ impl<'a> Judge<'a> {
 }
 
 fn solve_judged(judge: &Judge, obj: Objective, search: Search) -> Solution {
+    let search = if judge.ev.range.is_some() {
+        search.over_range()
+    } else {
+        search
+    };
     let ev = judge.ev;
     let all = realisable(ev);
     // A setting below the resolution limit fails whatever the physics says,

@@ -581,10 +581,10 @@ fn duty_needed(ev: &Evaluator, d: f64) -> (f64, f64) {
 }
 
 /// Whether the needed duties fit the timer's limits (the solver's rule:
-/// the top always, the bottom when [`Evaluator::checks_min_duty`]).
-fn duty_fits(ev: &Evaluator, needed: (f64, f64), lim: Option<&DutyLimits>) -> bool {
+/// both ends).
+fn duty_fits(needed: (f64, f64), lim: Option<&DutyLimits>) -> bool {
     let Some(l) = lim else { return false };
-    let low_ok = !ev.checks_min_duty() || needed.0 >= l.min_duty - EPS;
+    let low_ok = needed.0 >= l.min_duty - EPS;
     needed.1 <= l.max_duty + EPS && low_ok
 }
 
@@ -676,7 +676,7 @@ impl<'a> Context<'a> {
             failed |= AUDIBLE;
         }
         let ev = self.base;
-        if !duty_fits(ev, duty_needed(ev, r.compare_duty), self.duty.as_ref()) {
+        if !duty_fits(duty_needed(ev, r.compare_duty), self.duty.as_ref()) {
             failed |= DUTY_RANGE;
         }
         failed
@@ -1373,7 +1373,7 @@ pub fn worst_case(
         keep_max(&mut loss, Some(r.losses.total), &name);
         keep_max(&mut ripple, Some(r.ripple.peak_to_peak_a), &name);
         let needed = duty_needed(ev, r.compare_duty);
-        let duty_value = if duty_fits(ev, needed, ctx.duty.as_ref()) {
+        let duty_value = if duty_fits(needed, ctx.duty.as_ref()) {
             needed.1
         } else {
             // A failing bottom edge must show as a failure, not hide

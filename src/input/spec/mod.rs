@@ -586,6 +586,48 @@ pub struct DesignSpec {
     /// The current limit's requirements (optional; needs the board's
     /// `overcurrent`).
     pub current_limit: Option<CurrentLimitSpec>,
+    /// The speeds and loads the drive runs at (optional; without it the
+    /// rated point alone).
+    pub operating_range: Option<OperatingRangeSpec>,
+}
+
+/// The speed range and how the load current follows the speed.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OperatingRangeSpec {
+    pub speed: SpeedSpanSpec,
+    /// How the current follows the speed (default `constant-torque`).
+    #[serde(default)]
+    pub load: LoadLineSpec,
+}
+
+/// Lowest and highest operating speed.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SpeedSpanSpec {
+    pub min: Q<RadPerSecond>,
+    pub max: Q<RadPerSecond>,
+}
+
+/// The load line: the motor current at each speed of the range.
+#[derive(Debug, Clone, Default, Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+pub enum LoadLineSpec {
+    /// The rated current at every speed.
+    #[default]
+    ConstantTorque,
+    /// Torque, and so current, as the square of speed through the rated point.
+    FanLaw,
+    /// (speed, current) points, joined by straight lines.
+    Table(Vec<LoadPointSpec>),
+}
+
+/// One point of a load-line table.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LoadPointSpec {
+    pub speed: Q<RadPerSecond>,
+    pub current: Q<Ampere>,
 }
 
 /// What the design asks of the current limit.

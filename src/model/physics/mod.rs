@@ -5,7 +5,8 @@
 //! temperature with runaway detection and transient impedance ([`thermal`]),
 //! dead-time need ([`deadtime`]), the mean leg voltage under dead time and
 //! drops ([`leg_voltage`]), bootstrap sizing ([`bootstrap`]), rating
-//! findings ([`ratings`]), the motor current waveform under PWM ([`ripple`])
+//! findings ([`ratings`]), the load line over the speed range
+//! ([`load_line`]), the motor current waveform under PWM ([`ripple`])
 //! and its audible spectrum ([`acoustics`]). Inputs are the plain SI structs
 //! of [`params`]; load currents arrive precomputed from [`ripple`].
 //!
@@ -23,6 +24,7 @@ pub mod dead_time_diode;
 pub mod deadtime;
 pub mod forward;
 pub mod leg_voltage;
+pub mod load_line;
 pub mod losses;
 pub mod params;
 pub mod ratings;

@@ -114,6 +114,11 @@ fn h_int(x: f64) -> f64 {
     let mut sum = 0.0;
     for n in 2..30 {
         sum += term;
+        // The terms fall factorially: once one is below an ulp of the sum
+        // the rest change nothing.
+        if term.abs() <= 1e-17 * sum.abs() {
+            break;
+        }
         term *= -x / (n as f64 + 1.0);
     }
     sum
@@ -133,7 +138,11 @@ fn q_int(x: f64) -> f64 {
         p *= -x / nf;
         r *= -2.0 * x / nf;
         if n >= 2 {
-            sum += (r - 2.0 * p) * x / (nf + 1.0);
+            let term = (r - 2.0 * p) * x / (nf + 1.0);
+            sum += term;
+            if term.abs() <= 1e-17 * sum.abs() {
+                break;
+            }
         }
     }
     sum

@@ -1,0 +1,340 @@
+//! A setting judged over the design's operating range, not at one point:
+//! the speeds of the range on the nominal and the highest supply (hottest
+//! ambient), each with its load-line current and back-EMF; the lowest
+//! supply for the highest duty.
+//!
+//! What is found where (see [`Evaluator::judge_range`]): the ripple's
+//! largest value by a scan of the range refined by golden-section search
+//! (ripple is unimodal in duty between scan points, peaking near one half
+//! for a half-bridge; Mohan, Undeland, Robbins, *Power Electronics*, 2003,
+//! ch. 7, from memory); audibility at every scanned and refined point; the
+//! duty extremes, losses and junctions at the range's corner speeds (the
+//! ends, the rated speed, the table's points), where they peak because
+//! duty and current are monotonic or linear between them (own reasoning:
+//! the needed voltage k_e·n + I(n)·R is linear or convex between corners,
+//! and the losses rise with current).
+//!
+//! **Invariant:** pure; a range that collapses to the rated point gives
+//! the rated point's figures bit for bit.
+
+use serde::Serialize;
+
+use crate::model::evaluate::{AcousticFigures, CaseResult, Evaluator, OperatingCase};
+use crate::model::physics::acoustics;
+use crate::model::physics::load_line::{self, OperatingRange, SCAN_INTERVALS};
+
+/// A supply's scan is refined when its largest ripple comes within this
+/// share of the largest of both (our choice: the scan brackets the maximum
+/// to well under 3 % on smooth ripple curves).
+const REFINE_SHARE: f64 = 0.97;
+
+/// One point of the range at one supply.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct RangePoint {
+    pub speed_rad_s: f64,
+    pub current_a: f64,
+    pub v_bus_v: f64,
+    /// The compare duty there (as [`CaseResult::compare_duty`]).
+    pub compare_duty: f64,
+}
+
+/// A figure's worst value over the range and where it is.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct RangeExtreme {
+    pub value: f64,
+    pub at: RangePoint,
+}
+
+/// The ripple, compare duty and acoustics of one case, without losses.
+#[derive(Debug, Clone)]
+pub struct RippleSample {
+    pub compare_duty: f64,
+    pub ripple_pp_a: f64,
+    pub acoustic: AcousticFigures,
+}
+
+/// What the range adds to a candidate.
+#[derive(Debug, Clone, Serialize)]
+pub struct RangeResult {
+    /// Speeds scanned at each supply (refinement points not counted).
+    pub speeds_scanned: usize,
+    /// Largest ripple, peak to peak.
+    pub ripple: Option<RangeExtreme>,
+    /// Lowest compare duty (highest supply) and highest (lowest supply).
+    pub duty_low: Option<RangeExtreme>,
+    pub duty_high: Option<RangeExtreme>,
+    /// A corner whose load the lowest supply cannot reach.
+    pub unreachable: Option<RangePoint>,
+    /// The audible verdict's worst point: the first failing one, else the
+    /// point with the most lines in avoided bands, else the lowest speed.
+    pub audible: Option<(RangePoint, AcousticFigures)>,
+    /// Largest total loss at the nominal supply.
+    pub loss: Option<RangeExtreme>,
+    /// The full cases at the corner speeds (speed, case), nominal supply
+    /// then highest.
+    #[serde(skip)]
+    pub corners_nominal: Vec<(f64, CaseResult)>,
+    #[serde(skip)]
+    pub corners_high_bus: Vec<(f64, CaseResult)>,
+}
+
+impl RangeResult {
+    /// The hottest (a runaway or a missing junction first) of `cases`.
+    pub fn hottest(cases: &[(f64, CaseResult)]) -> Option<&(f64, CaseResult)> {
+        cases
+            .iter()
+            .max_by(|a, b| junction_key(&a.1).total_cmp(&junction_key(&b.1)))
+    }
+}
+
+/// A case's hottest junction, infinite on runaway or when it has none.
+pub fn junction_key(c: &CaseResult) -> f64 {
+    match (c.runaway.is_some(), c.junction_c) {
+        (false, Some(t)) => t,
+        _ => f64::INFINITY,
+    }
+}
+
+impl Evaluator {
+    /// The case at range speed `speed_rad_s` on the supply and ambient of
+    /// `base`: the load line's current and the back-EMF scaled from the
+    /// rated case's (k_e·n, linear in speed).
+    pub fn range_case(
+        &self,
+        r: &OperatingRange,
+        base: &OperatingCase,
+        speed_rad_s: f64,
+    ) -> OperatingCase {
+        OperatingCase {
+            name: base.name,
+            v_bus_v: base.v_bus_v,
+            t_ambient_c: base.t_ambient_c,
+            load_current_a: r.load.current_at_a(speed_rad_s),
+            back_emf_v: self.rated.back_emf_v * (speed_rad_s / r.rated_speed_rad_s),
+        }
+    }
+
+    /// Run `f` on this evaluator at mechanical speed `speed_rad_s`: a
+    /// three-phase bridge's electrical speed follows it (a clone with
+    /// ω_e = p·n); the single-phase stages take the speed from the case's
+    /// back-EMF alone.
+    pub fn at_speed<T>(&self, speed_rad_s: f64, f: impl FnOnce(&Evaluator) -> T) -> T {
+        match &self.three_phase {
+            Some(tp) => {
+                let mut e = self.clone();
+                if let Some(t) = e.three_phase.as_mut() {
+                    t.omega_e_rad_s = f64::from(tp.pole_pairs) * speed_rad_s;
+                }
+                f(&e)
+            }
+            None => f(self),
+        }
+    }
+
+    /// Ripple, compare duty and acoustics at `case`, without the losses
+    /// where the stage allows (single-phase); a three-phase bridge's come
+    /// from its whole case.
+    pub fn ripple_sample(
+        &self,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<RippleSample> {
+        if self.three_phase.is_some() {
+            let c = self.case(case, f_hz, t_dead_s)?;
+            return Some(RippleSample {
+                compare_duty: c.compare_duty,
+                ripple_pp_a: c.ripple.peak_to_peak_a,
+                acoustic: c.acoustic,
+            });
+        }
+        let (_, compare_duty, w) = self.duty_and_waveform(case, f_hz, t_dead_s)?;
+        let acoustic = acoustics::assess(&w, &self.audible, &self.significance).ok()?;
+        Some(RippleSample {
+            compare_duty,
+            ripple_pp_a: w.ripple_pp_a(),
+            acoustic: acoustic.into(),
+        })
+    }
+
+    /// [`Self::ripple_sample`] at range speed `n` on `base`'s supply.
+    fn sample_at(
+        &self,
+        r: &OperatingRange,
+        base: &OperatingCase,
+        n: f64,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<(RangePoint, RippleSample)> {
+        let case = self.range_case(r, base, n);
+        let s = self.at_speed(n, |e| e.ripple_sample(&case, f_hz, t_dead_s))?;
+        Some((point(&case, n, s.compare_duty), s))
+    }
+
+    /// The setting at `f_hz` with dead time `t_dead_s` over the range `r`;
+    /// `known` are the rated and high-bus cases already evaluated (reused
+    /// where a corner is the rated point).
+    pub fn judge_range(
+        &self,
+        r: &OperatingRange,
+        f_hz: f64,
+        t_dead_s: f64,
+        known: [&CaseResult; 2],
+    ) -> RangeResult {
+        let speeds = r.scan_speeds(SCAN_INTERVALS);
+        let scans: Vec<Vec<_>> = [self.rated, self.high_bus]
+            .iter()
+            .map(|base| {
+                speeds
+                    .iter()
+                    .map(|&n| self.sample_at(r, base, n, f_hz, t_dead_s))
+                    .collect()
+            })
+            .collect();
+        let scan_max = |scan: &[Option<(RangePoint, RippleSample)>]| {
+            scan.iter()
+                .flatten()
+                .map(|s| s.1.ripple_pp_a)
+                .fold(f64::NEG_INFINITY, f64::max)
+        };
+        let top = scans
+            .iter()
+            .map(|s| scan_max(s))
+            .fold(f64::NEG_INFINITY, f64::max);
+        let mut samples = Vec::new();
+        for (base, scan) in [self.rated, self.high_bus].iter().zip(scans) {
+            // Refine a supply whose scan comes near the largest: the other
+            // cannot hold the range's maximum.
+            if scan_max(&scan) >= REFINE_SHARE * top
+                && let Some(best) = self.refine_ripple(r, base, &speeds, &scan, f_hz, t_dead_s)
+            {
+                samples.push(best);
+            }
+            samples.extend(scan.into_iter().flatten());
+        }
+        let ripple = samples
+            .iter()
+            .max_by(|a, b| a.1.ripple_pp_a.total_cmp(&b.1.ripple_pp_a))
+            .map(|(p, s)| RangeExtreme {
+                value: s.ripple_pp_a,
+                at: *p,
+            });
+        let duty_low = samples
+            .iter()
+            .filter(|(p, _)| p.v_bus_v == self.high_bus.v_bus_v)
+            .min_by(|a, b| a.1.compare_duty.total_cmp(&b.1.compare_duty))
+            .map(|(p, s)| RangeExtreme {
+                value: s.compare_duty,
+                at: *p,
+            });
+        let corners = r.corner_speeds();
+        let (duty_high, unreachable) = self.range_duty_high(r, &corners, f_hz, t_dead_s);
+        let full = |base: &OperatingCase, known: &CaseResult| -> Vec<(f64, CaseResult)> {
+            corners
+                .iter()
+                .filter_map(|&n| {
+                    let case = self.range_case(r, base, n);
+                    if case == known.case {
+                        return Some((n, known.clone()));
+                    }
+                    let c = self.at_speed(n, |e| e.case(&case, f_hz, t_dead_s))?;
+                    Some((n, c))
+                })
+                .collect()
+        };
+        let corners_nominal = full(&self.rated, known[0]);
+        let corners_high_bus = full(&self.high_bus, known[1]);
+        let loss = corners_nominal
+            .iter()
+            .max_by(|a, b| a.1.losses.total.total_cmp(&b.1.losses.total))
+            .map(|(n, c)| RangeExtreme {
+                value: c.losses.total,
+                at: point(&c.case, *n, c.compare_duty),
+            });
+        RangeResult {
+            speeds_scanned: speeds.len(),
+            ripple,
+            duty_low,
+            duty_high,
+            unreachable,
+            audible: worst_audible(&samples),
+            loss,
+            corners_nominal,
+            corners_high_bus,
+        }
+    }
+
+    /// The largest ripple at `base`'s supply: the best scanned speed, then
+    /// golden-section search between its neighbours.
+    fn refine_ripple(
+        &self,
+        r: &OperatingRange,
+        base: &OperatingCase,
+        speeds: &[f64],
+        scan: &[Option<(RangePoint, RippleSample)>],
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<(RangePoint, RippleSample)> {
+        let k = scan
+            .iter()
+            .enumerate()
+            .filter_map(|(k, s)| s.as_ref().map(|s| (k, s.1.ripple_pp_a)))
+            .max_by(|a, b| a.1.total_cmp(&b.1))?
+            .0;
+        let lo = speeds[k.saturating_sub(1)];
+        let hi = speeds[(k + 1).min(speeds.len() - 1)];
+        let ripple = |n: f64| {
+            self.sample_at(r, base, n, f_hz, t_dead_s)
+                .map(|s| s.1.ripple_pp_a)
+        };
+        let (n, _) = load_line::refine_max(ripple, lo, hi)?;
+        self.sample_at(r, base, n, f_hz, t_dead_s)
+    }
+
+    /// The highest compare duty over the corner speeds at the lowest
+    /// supply, and the first corner it cannot reach.
+    fn range_duty_high(
+        &self,
+        r: &OperatingRange,
+        corners: &[f64],
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> (Option<RangeExtreme>, Option<RangePoint>) {
+        let mut high: Option<RangeExtreme> = None;
+        for &n in corners {
+            let case = self.range_case(r, &self.low_bus, n);
+            match self.at_speed(n, |e| e.compare_duty_for_load(&case, f_hz, t_dead_s)) {
+                Some(d) => {
+                    if high.is_none_or(|h| d > h.value) {
+                        high = Some(RangeExtreme {
+                            value: d,
+                            at: point(&case, n, d),
+                        });
+                    }
+                }
+                None => return (high, Some(point(&case, n, f64::NAN))),
+            }
+        }
+        (high, None)
+    }
+}
+
+fn point(case: &OperatingCase, speed_rad_s: f64, compare_duty: f64) -> RangePoint {
+    RangePoint {
+        speed_rad_s,
+        current_a: case.load_current_a,
+        v_bus_v: case.v_bus_v,
+        compare_duty,
+    }
+}
+
+/// The audible verdict's worst sample: the first that fails, else the one
+/// with the most lines in avoided bands, else the first.
+fn worst_audible(samples: &[(RangePoint, RippleSample)]) -> Option<(RangePoint, AcousticFigures)> {
+    let pick = samples.iter().find(|s| !s.1.acoustic.pass).or_else(|| {
+        samples
+            .iter()
+            .max_by_key(|s| s.1.acoustic.lines_in_avoided_bands_hz.len())
+    })?;
+    Some((pick.0, pick.1.acoustic.clone()))
+}
