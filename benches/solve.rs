@@ -5,7 +5,10 @@
 //! (c) the whole `pwmplan plan --json` process on the demo, spawned 20 times
 //!     into one temporary folder (after the first run the files are current
 //!     and left alone);
-//! (d) the same, each run into a new empty folder (all seven files written).
+//! (d) the same, each run into a new empty folder (all seven files written);
+//! (e) `solve` on the winch (boards/winch.yaml, unipolar H-bridge) with its
+//!     operating range (300 to 3600 rpm, constant torque), and (f) the same
+//!     design with the range removed: what judging a range costs.
 //! Run with `cargo bench --bench solve`.
 
 use std::path::Path;
@@ -130,6 +133,19 @@ fn main() {
     row("(a) solve, demo", d, Some(&sol));
     let (d, sol) = median_of(|| solve::solve(&fast, Objective::LeastLoss));
     row("(b) solve, demo, 136 MHz/20-bit/12-bit div", d, Some(&sol));
+    let winch = format!("{}/boards/winch.yaml", env!("CARGO_MANIFEST_DIR"));
+    match load_design(Origin::Disk(winch.into())) {
+        Ok(w) => {
+            let ranged = Evaluator::new(&w);
+            let mut single = ranged.clone();
+            single.range = None;
+            let (d, sol) = median_of(|| solve::solve(&ranged, Objective::LeastLoss));
+            row("(e) solve, winch over its range", d, Some(&sol));
+            let (d, sol) = median_of(|| solve::solve(&single, Objective::LeastLoss));
+            row("(f) solve, winch at its rated point", d, Some(&sol));
+        }
+        Err(e) => println!("(e), (f): the winch design does not load: {e}"),
+    }
     // Built by cargo for benchmarks with the bench (release) profile:
     // target/release/pwmplan.
     let exe = Path::new(env!("CARGO_BIN_EXE_pwmplan"));

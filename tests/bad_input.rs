@@ -3538,3 +3538,145 @@ error: winch.yaml:24:15: design.current_limit.response: the board's fault input 
 "#,
     );
 }
+
+// The operating range (issue 18), on the winch design's range.
+
+/// A span upside down.
+#[test]
+fn operating_range_max_below_min() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"min: "300 rpm", max: "3600 rpm""#,
+            r#"min: "3000 rpm", max: "2000 rpm""#,
+        )],
+        r#"
+error: winch.yaml:25:36: design.operating_range.speed.max: 2000 rpm is below min 3000 rpm; expected min ≤ max
+ 25 |     speed: { min: "3000 rpm", max: "2000 rpm" }
+    |                                    ^
+"#,
+    );
+}
+
+/// 9.5 V/krpm at 4200 rpm plus 12 A through 0.18 ohm needs 42.1 V; the supply dips to 40 V.
+#[test]
+fn operating_range_max_beyond_the_supply() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"max: "3600 rpm""#,
+            r#"max: "4200 rpm""#,
+        )],
+        r#"
+error: winch.yaml:25:35: design.operating_range.speed.max: the motor needs 42.1 V (back-EMF 39.9 V + I·R 2.16 V) at 4200 rpm and 12.0 A, more than the lowest supply 40.0 V; expected a speed the supply can reach
+ 25 |     speed: { min: "300 rpm", max: "4200 rpm" }
+    |                                   ^
+"#,
+    );
+}
+
+/// A load line that is not one of ours.
+#[test]
+fn operating_range_unknown_load_line() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"load: constant-torque"#,
+            r#"load: linear"#,
+        )],
+        r#"
+error: winch.yaml:26:11: design.operating_range.load: unknown value `linear`; expected one of `constant-torque`, `fan-law`, `table`
+ 26 |     load: linear
+    |           ^
+"#,
+    );
+}
+
+/// One point is not a line.
+#[test]
+fn operating_range_table_of_one_point() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"load: constant-torque"#,
+            r#"load: { table: [{ speed: "300 rpm", current: "12 A" }] }"#,
+        )],
+        r#"
+error: winch.yaml:26:20: design.operating_range.load.table: 1 point; expected at least 2 (speed, current) points
+ 26 |     load: { table: [{ speed: "300 rpm", current: "12 A" }] }
+    |                    ^
+"#,
+    );
+}
+
+/// Points out of order.
+#[test]
+fn operating_range_table_speeds_falling() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"load: constant-torque"#,
+            r#"load: { table: [{ speed: "3600 rpm", current: "12 A" }, { speed: "300 rpm", current: "10 A" }] }"#,
+        )],
+        r#"
+error: winch.yaml:26:70: design.operating_range.load.table[1].speed: 300 rpm is not above the previous point's 3600 rpm; expected speeds rising
+ 26 |     load: { table: [{ speed: "3600 rpm", current: "12 A" }, { speed: "300 rpm", current: "10 A" }] }
+    |                                                                      ^
+"#,
+    );
+}
+
+/// A table that stops inside the range.
+#[test]
+fn operating_range_table_short_of_the_span() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"load: constant-torque"#,
+            r#"load: { table: [{ speed: "300 rpm", current: "12 A" }, { speed: "2000 rpm", current: "10 A" }] }"#,
+        )],
+        r#"
+error: winch.yaml:26:20: design.operating_range.load.table: spans 300 rpm to 2000 rpm; expected it to cover the speed range 300 rpm to 3600 rpm
+ 26 |     load: { table: [{ speed: "300 rpm", current: "12 A" }, { speed: "2000 rpm", current: "10 A" }] }
+    |                    ^
+"#,
+    );
+}
+
+/// A bare number.
+#[test]
+fn operating_range_speed_without_unit() {
+    bad_input(
+        "winch.yaml",
+        &[case("winch.yaml", r#"min: "300 rpm""#, r#"min: 300"#)],
+        r#"
+error: winch.yaml:25:19: design.operating_range.speed.min: expected an angular speed such as "3000 rpm", found a bare number 300 (write the unit)
+ 25 |     speed: { min: 300, max: "3600 rpm" }
+    |                   ^
+"#,
+    );
+}
+
+/// 40 A through 0.18 ohm at 3600 rpm needs 41.4 V.
+#[test]
+fn operating_range_table_current_beyond_the_supply() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"load: constant-torque"#,
+            r#"load: { table: [{ speed: "300 rpm", current: "12 A" }, { speed: "3600 rpm", current: "40 A" }] }"#,
+        )],
+        r#"
+error: winch.yaml:25:35: design.operating_range.speed.max: the motor needs 41.4 V (back-EMF 34.2 V + I·R 7.20 V) at 3600 rpm and 40.0 A, more than the lowest supply 40.0 V; expected a speed the supply can reach
+ 25 |     speed: { min: "300 rpm", max: "3600 rpm" }
+    |                                   ^
+"#,
+    );
+}

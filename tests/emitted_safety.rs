@@ -414,6 +414,15 @@ fn bipolar_h_bridge_inits_at_zero_volts_with_the_outputs_disabled() {
         text.replace("modulation: unipolar", "modulation: bipolar"),
     )
     .expect("write board");
+    // At the rated point only: bipolar switching's ripple near zero volts (the
+    // winch's slow end) is beyond its ripple limit at every frequency, and
+    // this test is about the init sequence, not the range.
+    let design = dir.path().join("winch.yaml");
+    let text = fs::read_to_string(&design).expect("design");
+    let cut = text
+        .find("  operating_range:")
+        .expect("the winch has a range");
+    fs::write(&design, &text[..cut]).expect("write design");
     let o = std::process::Command::new(common::BIN)
         .current_dir(dir.path())
         .args(["plan", "winch.yaml", "--out", "out"])

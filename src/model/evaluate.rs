@@ -1409,24 +1409,7 @@ impl Evaluator {
             i_on_a: point.i_peak_a,
             i_off_a: point.i_peak_a,
         };
-        let ripple = three_phase::sinusoidal_ripple_at(
-            &bridge,
-            self.motor_l_h,
-            &three_phase::RippleCommand {
-                modulation_index: point.modulation_index,
-                zero_sequence: zs,
-                current: Some(three_phase::PhaseCurrent {
-                    peak_a: point.i_peak_a,
-                    lag_rad: command.voltage_lead_rad - gamma_rad,
-                }),
-            },
-            three_phase::DEFAULT_RIPPLE_ANGLES,
-            self.acoustic_top_hz(),
-            self.significance.max_lines,
-        )
-        .ok()?;
-        let acoustic =
-            acoustics::assess_lines(&ripple.lines, &self.audible, &self.significance).ok()?;
+        let (ripple, acoustic) = self.sinusoidal_ripple(&bridge, &command, zs, gamma_rad)?;
         let i_pk = point.i_peak_a;
         let ripple_fig = RippleFigures {
             // The phase current is a sine: zero mean over the electrical
@@ -1462,7 +1445,63 @@ impl Evaluator {
             voltage_lead_rad: Some(command.voltage_lead_rad),
             dead_time_harmonics_unsettled: !command.harmonics_settled,
         };
-        self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic.into(), extra)
+        self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic, extra)
+    }
+
+    /// The phase-current ripple of a solved sinusoidal command over the
+    /// electrical period (`sinusoidal_ripple_at`) and its acoustic verdict.
+    fn sinusoidal_ripple(
+        &self,
+        bridge: &three_phase::ThreePhaseStage<'_>,
+        command: &three_phase::SinusoidalCommand,
+        zs: ZeroSequence,
+        gamma_rad: f64,
+    ) -> Option<(three_phase::PhaseRipple, AcousticFigures)> {
+        let point = &command.point;
+        let ripple = three_phase::sinusoidal_ripple_at(
+            bridge,
+            self.motor_l_h,
+            &three_phase::RippleCommand {
+                modulation_index: point.modulation_index,
+                zero_sequence: zs,
+                current: Some(three_phase::PhaseCurrent {
+                    peak_a: point.i_peak_a,
+                    lag_rad: command.voltage_lead_rad - gamma_rad,
+                }),
+            },
+            three_phase::DEFAULT_RIPPLE_ANGLES,
+            self.acoustic_top_hz(),
+            self.significance.max_lines,
+        )
+        .ok()?;
+        let acoustic =
+            acoustics::assess_lines(&ripple.lines, &self.audible, &self.significance).ok()?;
+        Some((ripple, acoustic.into()))
+    }
+
+    /// A sinusoidal case's ripple, compare duty and acoustics without its
+    /// losses (the same command and ripple as [`Self::case`]'s).
+    pub fn sinusoidal_ripple_sample(
+        &self,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<(f64, f64, AcousticFigures)> {
+        let tp = self.three_phase.as_ref()?;
+        let ThreePhaseModulation::Sinusoidal {
+            zero_sequence,
+            current_advance_rad,
+        } = tp.modulation
+        else {
+            return None;
+        };
+        let bridge = self.bridge(case, f_hz, t_dead_s);
+        let command =
+            self.sinusoidal_command(tp, case, f_hz, t_dead_s, current_advance_rad, zero_sequence)?;
+        let (ripple, acoustic) =
+            self.sinusoidal_ripple(&bridge, &command, zero_sequence, current_advance_rad)?;
+        let compare_duty = tp.modulation.leg_duty_max(command.point.modulation_index);
+        Some((compare_duty, ripple.pp_max_a, acoustic))
     }
 
     /// Six-step case. The duty is solved for the line current with the two

@@ -132,15 +132,26 @@ impl Evaluator {
     }
 
     /// Ripple, compare duty and acoustics at `case`, without the losses
-    /// where the stage allows (single-phase); a three-phase bridge's come
-    /// from its whole case.
+    /// where the stage allows (single-phase, sinusoidal three-phase); a
+    /// six-step bridge's come from its whole case.
     pub fn ripple_sample(
         &self,
         case: &OperatingCase,
         f_hz: f64,
         t_dead_s: f64,
     ) -> Option<RippleSample> {
+        if let Some((compare_duty, ripple_pp_a, acoustic)) =
+            self.sinusoidal_ripple_sample(case, f_hz, t_dead_s)
+        {
+            return Some(RippleSample {
+                compare_duty,
+                ripple_pp_a,
+                acoustic,
+            });
+        }
         if self.three_phase.is_some() {
+            // Six-step: the ripple follows the path resistance at the
+            // junction temperatures, so it comes from the whole case.
             let c = self.case(case, f_hz, t_dead_s)?;
             return Some(RippleSample {
                 compare_duty: c.compare_duty,
@@ -264,6 +275,43 @@ impl Evaluator {
         }
     }
 
+    /// Whole cases at the range's largest-ripple and lowest-duty points
+    /// (named `range-ripple` and `range-lowest-duty`), for the plan's case
+    /// list, where the register check simulates them on the written
+    /// registers; a point that is the rated or high-bus case is left out.
+    pub fn range_check_cases(
+        &self,
+        r: &OperatingRange,
+        result: &RangeResult,
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Vec<CaseResult> {
+        let named = [
+            ("range-ripple", result.ripple.map(|e| e.at)),
+            ("range-lowest-duty", result.duty_low.map(|e| e.at)),
+        ];
+        named
+            .into_iter()
+            .filter_map(|(name, at)| {
+                let at = at?;
+                let base = if at.v_bus_v == self.high_bus.v_bus_v {
+                    self.high_bus
+                } else {
+                    self.rated
+                };
+                let case = OperatingCase {
+                    name,
+                    ..self.range_case(r, &base, at.speed_rad_s)
+                };
+                let same = |c: &OperatingCase| OperatingCase { name, ..*c } == case;
+                if same(&self.rated) || same(&self.high_bus) {
+                    return None;
+                }
+                self.at_speed(at.speed_rad_s, |e| e.case(&case, f_hz, t_dead_s))
+            })
+            .collect()
+    }
+
     /// The largest ripple at `base`'s supply: the best scanned speed, then
     /// golden-section search between its neighbours.
     fn refine_ripple(
@@ -283,12 +331,17 @@ impl Evaluator {
             .0;
         let lo = speeds[k.saturating_sub(1)];
         let hi = speeds[(k + 1).min(speeds.len() - 1)];
+        let mut best: Option<(RangePoint, RippleSample)> = None;
         let ripple = |n: f64| {
-            self.sample_at(r, base, n, f_hz, t_dead_s)
-                .map(|s| s.1.ripple_pp_a)
+            let s = self.sample_at(r, base, n, f_hz, t_dead_s)?;
+            let y = s.1.ripple_pp_a;
+            if best.as_ref().is_none_or(|b| y > b.1.ripple_pp_a) {
+                best = Some(s);
+            }
+            Some(y)
         };
-        let (n, _) = load_line::refine_max(ripple, lo, hi)?;
-        self.sample_at(r, base, n, f_hz, t_dead_s)
+        load_line::refine_max(ripple, lo, hi)?;
+        best
     }
 
     /// The highest compare duty over the corner speeds at the lowest
@@ -328,13 +381,29 @@ fn point(case: &OperatingCase, speed_rad_s: f64, compare_duty: f64) -> RangePoin
     }
 }
 
-/// The audible verdict's worst sample: the first that fails, else the one
-/// with the most lines in avoided bands, else the first.
+/// The audible verdict's worst sample: a failing one before a passing one,
+/// then the loudest, then the one with the most lines in avoided bands (the
+/// first of equals).
 fn worst_audible(samples: &[(RangePoint, RippleSample)]) -> Option<(RangePoint, AcousticFigures)> {
-    let pick = samples.iter().find(|s| !s.1.acoustic.pass).or_else(|| {
-        samples
-            .iter()
-            .max_by_key(|s| s.1.acoustic.lines_in_avoided_bands_hz.len())
+    // A failing sample before any passing one, then the loudest (A-weighted
+    // level of its in-band lines), then the most lines in avoided bands.
+    let key = |s: &(RangePoint, RippleSample)| {
+        let a = &s.1.acoustic;
+        (
+            !a.pass,
+            a.a_weighted_db.unwrap_or(f64::NEG_INFINITY),
+            a.lines_in_avoided_bands_hz.len(),
+        )
+    };
+    let pick = samples.iter().reduce(|best, s| {
+        let (kb, ks) = (key(best), key(s));
+        let louder = ks.1.total_cmp(&kb.1);
+        let worse = ks.0.cmp(&kb.0).then(louder).then(ks.2.cmp(&kb.2));
+        if worse == std::cmp::Ordering::Greater {
+            s
+        } else {
+            best
+        }
     })?;
     Some((pick.0, pick.1.acoustic.clone()))
 }

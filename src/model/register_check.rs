@@ -114,7 +114,7 @@ pub fn check_solution(
     let topology = plan::topology_name(d);
     let check_one = |c: &Candidate| {
         let (pwm, timer) = (plan::pwm_out(ev, c, 0.0), plan::timer_out(ev, c));
-        let (cases, load) = (plan::cases_out(c), plan::load_out(ev, c));
+        let (cases, load) = (plan::cases_out(ev, c), plan::load_out(ev, c));
         let three_phase = plan::three_phase_out(d, ev, c);
         let limit = crate::model::current_limit::plan(d, ev, c).map(|l| l.0);
         check(&RegisterView {

@@ -1182,11 +1182,13 @@ impl<'a> Judge<'a> {
 }
 
 fn solve_judged(judge: &Judge, obj: Objective, search: Search) -> Solution {
-    let search = if judge.ev.range.is_some() {
-        search.over_range()
-    } else {
-        search
-    };
+    // A range of one speed costs one more point, not a scan: no cut.
+    let scanned = judge
+        .ev
+        .range
+        .as_ref()
+        .is_some_and(|r| !r.is_single_speed());
+    let search = if scanned { search.over_range() } else { search };
     let ev = judge.ev;
     let all = realisable(ev);
     // A setting below the resolution limit fails whatever the physics says,

@@ -123,6 +123,9 @@ pub struct Context {
     pub limit: LimitLiterals,
     /// The current limit explained: rows `{label, value}` (empty without one).
     pub limit_rows: Vec<Row>,
+    /// The operating range's worst points: rows `{label, value}` (empty
+    /// without a range).
+    pub range_rows: Vec<Row>,
     /// The rationale as plain text lines, for comment blocks.
     pub rationale_lines: Vec<String>,
     /// The register init sequence, one step per line (C names).

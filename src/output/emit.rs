@@ -202,6 +202,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         current_limit: plan.current_limit.is_some(),
         limit,
         limit_rows: crate::output::limit::rows(plan.current_limit.as_ref(), plan.pwm.min_pulse_s),
+        range_rows: crate::output::range_out::range_rows(plan.operating_range.as_ref()),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,
         rust_init_steps,
@@ -979,6 +980,11 @@ fn rationale_lines(c: &Context) -> Vec<String> {
         ));
     }
     out.push(String::new());
+    table(
+        &mut out,
+        "Over the operating range (worst points)",
+        &c.range_rows,
+    );
     table(
         &mut out,
         "Losses at the rated case (whole stage)",

@@ -339,6 +339,19 @@ fn losses(out: &mut String, plan: &Plan, ctx: &Context) {
     out.push_str("</tbody></table>\n");
 }
 
+/// Where each judged quantity is worst over the design's operating range.
+fn operating_range(out: &mut String, ctx: &Context) {
+    if ctx.range_rows.is_empty() {
+        return;
+    }
+    h2(
+        out,
+        "operating-range",
+        "Over the operating range (worst points)",
+    );
+    kv_table(out, &ctx.range_rows);
+}
+
 fn figures(out: &mut String, ctx: &Context) {
     h2(out, "figures", "Operating figures");
     kv_table(out, &ctx.figures);
@@ -498,6 +511,7 @@ pub fn report_html(plan: &Plan, ctx: &Context, loss_svg: &str, thermal_svg: &str
     settings(&mut out, plan, ctx);
     cautions(&mut out, ctx);
     constraints(&mut out, plan, ctx);
+    operating_range(&mut out, ctx);
     worst_case(&mut out, plan, ctx);
     plots(&mut out, loss_svg, thermal_svg);
     losses(&mut out, plan, ctx);

@@ -191,6 +191,10 @@ pub struct Plan {
     /// current-sampling trigger.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub three_phase: Option<ThreePhaseOut>,
+    /// The design's operating range: where each judged quantity is worst
+    /// (absent without a range or when it is the rated speed alone).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub operating_range: Option<crate::output::range_out::RangeOut>,
     /// The current limit planned on the board's over-current path (absent
     /// when the board has none).
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -995,10 +999,18 @@ pub fn timer_out(ev: &Evaluator, c: &Candidate) -> TimerOut {
     }
 }
 
-/// The operating cases of a candidate.
-pub fn cases_out(c: &Candidate) -> Vec<CaseOut> {
+/// The operating cases of a candidate: rated and high-bus, then over a
+/// range its largest-ripple and lowest-duty points.
+pub fn cases_out(ev: &Evaluator, c: &Candidate) -> Vec<CaseOut> {
+    let over_range = match (ev.range.as_ref(), c.range.as_ref()) {
+        (Some(r), Some(res)) if !r.is_single_speed() => {
+            ev.range_check_cases(r, res, c.setting.frequency_hz, c.dead_time.seconds)
+        }
+        _ => Vec::new(),
+    };
     [&c.rated, &c.high_bus]
-        .iter()
+        .into_iter()
+        .chain(&over_range)
         .map(|r| CaseOut {
             name: r.case.name.into(),
             v_bus_v: r.case.v_bus_v,
@@ -1099,11 +1111,12 @@ pub fn build_on(
         findings,
         devices: c.rated.devices.clone(),
         three_phase: three_phase_out(d, ev, c),
+        operating_range: crate::output::range_out::range_out(ev, c),
         current_limit: limit.map(|l| l.0),
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
         alternatives: alternatives_out(sol),
         conflict: sol.conflict.clone(),
-        cases: cases_out(c),
+        cases: cases_out(ev, c),
         load: load_out(ev, c),
         register_check: RegisterCheck::default(),
         assumptions: assumptions_out(ev),

@@ -136,6 +136,7 @@ const FIGURE_SECTIONS: &[&str] = &[
     "worst_case",
     "devices",
     "current_limit",
+    "operating_range",
 ];
 
 /// plan.json keys that only restate an emitted constant.

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:f4ac877a9d3f604157ad86e150df9cac83476a6da4d9ab27f8c933b291e03ef6)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:6fa0b2641ebefe4f26964d43e02c3cf007cc136536502c07f795a5045086203e)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -6,56 +6,70 @@
 //!   switch         Scree 60 V, 7.5 mΩ (invented)
 //!   topology       low-side
 //!   objective      least-loss at typical values
-//!   frequency      13.281 kHz, edge-aligned
-//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3313 ticks (register 3312)
-//!   resolution     3313 duty steps (11.7 bits)
-//!   duty limits    compare 9 to 3304 (0.3 % to 99.7 %); the load needs 81.8 % to 99.1 %
-//!   feasible band  8.0987 kHz to 25.000 kHz
+//!   frequency      13.605 kHz, edge-aligned
+//!   timer          clock 44.00 MHz; divider 1 (register 0); period 3234 ticks (register 3233)
+//!   resolution     3234 duty steps (11.7 bits)
+//!   duty limits    compare 9 to 3225 (0.3 % to 99.7 %); the load needs 22.7 % to 99.1 %
+//!   feasible band  13.605 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         110 °C     48.3 °C     61.7 K  ok
 //!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
-//!   ripple                 600 mA      367 mA     233 mA  ok
+//!   ripple                 600 mA      600 mA    76.9 µA  binds
 //!   audible               0 lines     0 lines    0 lines  ok
-//!   resolution          8.00 bits  11.69 bits  3.69 bits  ok
-//!   duty-range            99.73 %     99.07 %     0.66 %  ok
-//!   frequency-band     25.000 kHz  13.281 kHz   11.7 kHz  ok
+//!   resolution          8.00 bits  11.66 bits  3.66 bits  ok
+//!   duty-range            99.72 %     99.07 %     0.65 %  ok
+//!   frequency-band     25.000 kHz  13.605 kHz   11.4 kHz  ok
+//!
+//! Over the operating range (worst points)
+//!   range                                1500 to 4200 rpm, load fan-law; 7 speeds scanned per supply, the ripple maximum refined between them
+//!   largest ripple (peak to peak)        600 mA at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
+//!   lowest compare duty                  0.2274 at 1500 rpm (153 mA, supply 13.2 V)
+//!   highest compare duty                 0.9907 at 4200 rpm (1.20 A, supply 10.8 V)
+//!   largest stage loss (nominal supply)  105 mW at 4200 rpm (1.20 A, supply 12.0 V, duty 0.896)
+//!   hottest junction                     50.7 °C at 4200 rpm (1.20 A, supply 13.2 V, duty 0.818)
+//!   loudest audible                      line at 13.6 kHz, -20.3 dB(A) re 1 A at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
+//!   at the rated speed only              the worst-case corners, `spread` and the current limit
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           10.9 mW
-//!   switching            10.1 mW
-//!   output capacitance   465 µW
-//!   reverse recovery     319 µW
+//!   switching            10.3 mW
+//!   output capacitance   476 µW
+//!   reverse recovery     327 µW
 //!   dead-time diode      0.00 W
-//!   gate drive           3.19 mW
+//!   gate drive           3.27 mW
 //!   freewheel diode      73.3 mW
-//!   motor ripple copper  6.95 mW
+//!   motor ripple copper  6.62 mW
 //!   total                105 mW
 //!
 //! Operating figures
 //!   rated case              12.0 V supply, 45.0 °C ambient, 1.20 A load
 //!   high-bus case           13.2 V supply, 45.0 °C ambient, 1.20 A load
+//!   range-ripple case       13.2 V supply, 45.0 °C ambient, 494 mA load
+//!   range-lowest-duty case  13.2 V supply, 45.0 °C ambient, 153 mA load
 //!   junction                48.3 °C at the rated case, 50.7 °C at the high-bus case (limit 110 °C)
-//!   ripple, rated case      210 mA peak to peak at 13.281 kHz (continuous), 60.5 mA rms
-//!   ripple, high-bus case   367 mA peak to peak at 13.281 kHz (continuous), 106 mA rms; the larger, checked against the ripple limit
-//!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -30.5 dB(A) re 1 A
+//!   ripple, rated case      205 mA peak to peak at 13.605 kHz (continuous), 59.0 mA rms
+//!   ripple, high-bus case   358 mA peak to peak at 13.605 kHz (continuous), 103 mA rms; the larger, checked against the ripple limit
+//!   audibility, rated case  no significant line in the avoided bands; A-weighted in-band level -31.0 dB(A) re 1 A
 //!
 //! Worst case over part and operating spreads
 //!   junction    50.7 °C (limit 110 °C); ok; hot: V_th min, supply 13.2 V
 //!   total-loss  189 mW; ok; hot: V_th min, supply 13.2 V
-//!   ripple      366 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
-//!   duty-range  99.11 % (limit 99.73 %); ok; hot: V_th min, supply 10.8 V
+//!   ripple      358 mA (limit 600 mA); ok; hot: V_th min, supply 13.2 V
+//!   duty-range  99.11 % (limit 99.72 %); ok; hot: V_th min, supply 10.8 V
 //!   audible     ok; no significant audible line at any corner
 //!   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
 //!
 //! Checked on the registers (independent simulation of the written values)
-//!   pulses         shortest high-side pulse 205 ns at COMPARE_MIN, shortest low-side on-time 205 ns at COMPARE_MAX (minimum pulse 200 ns)
-//!   rated case     at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 209.5 mA peak to peak (plan 209.5 mA)
-//!   high-bus case  at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 366.7 mA peak to peak (plan 366.7 mA)
+//!   pulses                  shortest high-side pulse 205 ns at COMPARE_MIN, shortest low-side on-time 205 ns at COMPARE_MAX (minimum pulse 200 ns)
+//!   rated case              at compare duty 89.584 %: mean current 1.200 A (plan 1.200 A), ripple 204.5 mA peak to peak (plan 204.5 mA)
+//!   high-bus case           at compare duty 81.758 %: mean current 1.200 A (plan 1.200 A), ripple 358.0 mA peak to peak (plan 358.0 mA)
+//!   range-ripple case       at compare duty 50.022 %: mean current 493.5 mA (plan 493.6 mA), ripple 599.9 mA peak to peak (plan 599.9 mA)
+//!   range-lowest-duty case  at compare duty 22.735 %: mean current 153.1 mA (plan 153.1 mA), ripple 390.8 mA peak to peak (plan 390.8 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  10.000 kHz (divider 1, 4400 ticks, edge): +2 mW total loss, ±0 K junction, +120 mA ripple, +0.41 bits resolution
-//!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -172 mA ripple, -0.91 bits resolution
+//!   rounder-frequency  20.000 kHz (divider 1, 2200 ticks, edge): +3 mW total loss, ±0 K junction, -114 mA ripple, -0.56 bits resolution
+//!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -163 mA ripple, -0.88 bits resolution
 //!
 //! Findings
 //!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
@@ -77,7 +91,7 @@
 //!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
 //!
 //! Inputs
-//!   vent-fan.yaml           sha256 8b50e2a9acb5028845ba61157f4f158fea38984aa1f56d34ab0bb6422ba784e8
+//!   vent-fan.yaml           sha256 166eab5c9a85a167fa70cc5bc6095185adc1e51cd08509c4cfe8a589b076d8b6
 //!   kite-ls12.yaml          sha256 3ca38fa679aebc3e8d6075acecdf7dd95235f8df57892eba77a09e3472d18eff
 //!   switches/scree-60.yaml  sha256 7b7642f66b17ceb6b73d0a5f9beb1c694ea88e020ee1381344c4eb705a99d449
 //!
@@ -90,7 +104,7 @@
 //! Init sequence (register names differ per MCU; values are the constants below):
 //!   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
 //!   2. Divider register <- DIVIDER_REG (divider 1).
-//!   3. Period register (counter top) <- PERIOD_REG (3313 ticks per period).
+//!   3. Period register (counter top) <- PERIOD_REG (3234 ticks per period).
 //!   4. Counting mode <- up (edge-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: the output (the low-side switch) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on).
 //!   6. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
@@ -106,15 +120,15 @@ pub const DIVIDER: u32 = 1;
 /// Value of the divider register.
 pub const DIVIDER_REG: u32 = 0;
 /// Counter ticks per PWM period.
-pub const PERIOD_TICKS: u32 = 3313;
+pub const PERIOD_TICKS: u32 = 3234;
 /// Value of the period register (counter top).
-pub const PERIOD_REG: u32 = 3312;
+pub const PERIOD_REG: u32 = 3233;
 /// Up-down counting (centre-aligned) when true, up counting (edge-aligned) when false.
 pub const CENTRE_ALIGNED: bool = false;
-/// PWM frequency in millihertz (13.281 kHz).
-pub const FREQUENCY_MILLIHZ: u64 = 13281014;
+/// PWM frequency in millihertz (13.605 kHz).
+pub const FREQUENCY_MILLIHZ: u64 = 13605442;
 /// Compare value for 100 % on.
-pub const DUTY_STEPS: u32 = 3313;
+pub const DUTY_STEPS: u32 = 3234;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
 /// Dead-time ticks the code gives.
@@ -122,7 +136,7 @@ pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 9;
 /// Largest compare value allowed.
-pub const COMPARE_MAX: u32 = 3304;
+pub const COMPARE_MAX: u32 = 3225;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the switch stays off).
 pub const INIT_COMPARE: u32 = 0;

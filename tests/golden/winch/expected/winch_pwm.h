@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:4d43cdf6d15a892316242e0913378ea40fbdbddd860c5e989f39e7be3edf848c)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:35f78af69934095f008a8a6881f15457e8a29be9ac7d8e09a8fdf827f640cabb)
  *
  * Chosen setting
  *   design         winch
@@ -7,75 +7,89 @@
  *   switch         Corrie 100 V, 9.8 mΩ (invented)
  *   topology       h-bridge-unipolar
  *   objective      least-loss at typical values
- *   frequency      10.183 kHz, centre-aligned
- *   timer          clock 120.0 MHz; divider 1 (register 0); period 11784 ticks (register 5892)
- *   resolution     5892 duty steps (12.5 bits)
+ *   frequency      11.721 kHz, centre-aligned
+ *   timer          clock 120.0 MHz; divider 1 (register 0); period 10238 ticks (register 5119)
+ *   resolution     5119 duty steps (12.3 bits)
  *   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
- *   duty limits    compare 32 to 5836 (0.5 % to 99.0 %); the load needs 3.9 % to 96.1 %
- *   feasible band  10.183 kHz to 37.879 kHz
+ *   duty limits    compare 32 to 5063 (0.6 % to 98.9 %); the load needs 3.9 % to 96.1 %
+ *   feasible band  11.721 kHz to 37.879 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
- *   junction-rated         145 °C     63.2 °C     81.8 K  ok
- *   junction-high-bus      145 °C     62.9 °C     82.1 K  ok
- *   ripple                 1.80 A      1.80 A     151 µA  binds
- *   audible            18.000 kHz  20.367 kHz   2.37 kHz  ok
- *   resolution         10.00 bits  12.52 bits  2.52 bits  ok
+ *   junction-rated         145 °C     63.5 °C     81.5 K  ok
+ *   junction-high-bus      145 °C     63.2 °C     81.8 K  ok
+ *   ripple                 1.80 A      1.80 A     104 µA  binds
+ *   audible            18.000 kHz  23.442 kHz   5.44 kHz  ok
+ *   resolution         10.00 bits  12.32 bits  2.32 bits  ok
  *   dead-time              125 ns      118 ns    7.22 ns  ok
- *   duty-range            99.05 %     96.11 %     2.94 %  ok
- *   frequency-band     10.000 kHz  10.183 kHz     183 Hz  ok
+ *   duty-range            98.91 %     96.12 %     2.78 %  ok
+ *   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
+ *
+ * Over the operating range (worst points)
+ *   range                                300 to 3600 rpm, load constant-torque; 7 speeds scanned per supply, the ripple maximum refined between them
+ *   largest ripple (peak to peak)        1.80 A at 2572 rpm (12.0 A, supply 54.0 V, duty 0.752)
+ *   lowest compare duty                  0.5518 at 300 rpm (12.0 A, supply 54.0 V)
+ *   highest compare duty                 0.9612 at 3600 rpm (12.0 A, supply 40.0 V)
+ *   largest stage loss (nominal supply)  4.28 W at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
+ *   hottest junction                     63.5 °C at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
+ *   loudest audible                      no significant audible line at any speed scanned
+ *   at the rated speed only              the worst-case corners, `spread` and the current limit
  *
  * Losses at the rated case (whole stage)
  *   conduction           3.45 W
- *   switching            223 mW
- *   output capacitance   26.9 mW
- *   reverse recovery     370 mW
- *   dead-time diode      51.6 mW
- *   gate drive           28.0 mW
- *   motor ripple copper  26.1 mW
- *   total                4.17 W
+ *   switching            257 mW
+ *   output capacitance   30.9 mW
+ *   reverse recovery     428 mW
+ *   dead-time diode      59.3 mW
+ *   gate drive           32.2 mW
+ *   motor ripple copper  19.7 mW
+ *   total                4.28 W
  *
  * Operating figures
  *   rated case              48.0 V supply, 50.0 °C ambient, 12.0 A load
  *   high-bus case           54.0 V supply, 50.0 °C ambient, 12.0 A load
- *   junction                63.2 °C at the rated case, 62.9 °C at the high-bus case (limit 145 °C)
- *   ripple, rated case      1.32 A peak to peak at 20.367 kHz (continuous), 381 mA rms
- *   ripple, high-bus case   1.80 A peak to peak at 20.367 kHz (continuous), 520 mA rms; the larger, checked against the ripple limit
+ *   range-ripple case       54.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   range-lowest-duty case  54.0 V supply, 50.0 °C ambient, 12.0 A load
+ *   junction                63.5 °C at the rated case, 63.2 °C at the high-bus case (limit 145 °C)
+ *   ripple, rated case      1.15 A peak to peak at 23.442 kHz (continuous), 331 mA rms
+ *   ripple, high-bus case   1.56 A peak to peak at 23.442 kHz (continuous), 451 mA rms; the larger, checked against the ripple limit
  *   audibility, rated case  no significant line at or below 18.00 kHz; A-weighted in-band level none
  *
  * Current limit
  *   threshold       fixed, 1.25 V at the comparator
  *   trips           never below 23.2 A, always above 27.0 A (nominal 25.0 A; shunt in the leg; shunt, amplifier and comparator tolerances stacked worst-case)
- *   operating peak  20.9 A (the high-bus case's burst current plus half its ripple); margin to the lowest trip 2.25 A
+ *   operating peak  20.8 A (the high-bus case's burst current plus half its ripple); margin to the lowest trip 2.37 A
  *   peak            at most 27.2 A (267 mA over the highest trip: 133 mA in the 791 ns reaction, more where a chopped stall crosses the trip inside the uncut on-time); the switch's I_DM at 100 µs 240 A (margin 213 A)
  *   reaction        791 ns = filter 533 ns + comparator 100 ns + driver 120 ns + turn-off delay 24.3 ns + voltage rise 13.2 ns
- *   blanking        467 ns (no blanking timer: the filter rejects it) against a turn-on transient of 393 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 5.81 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 200 ns
+ *   blanking        467 ns (no blanking timer: the filter rejects it) against a turn-on transient of 393 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 5.80 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 200 ns
  *   filter          8 samples at 15.0 MHz (passes a fault held 533 ns, rejects pulses under 467 ns)
  *   uncut on-time   791 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 400 ns)
  *   response        cycle-by-cycle
- *   burst           junction 84.3 °C (leg-b-low at 20.0 A for 3.00 s: steady state at the burst's 4.70 W, the board giving no thermal transient data)
+ *   burst           junction 84.9 °C (leg-b-low at 20.0 A for 3.00 s: steady state at the burst's 4.78 W, the board giving no thermal transient data)
  *   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
  *
  * Worst case over part and operating spreads
- *   junction    68.4 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
- *   total-loss  5.63 W; ok; hot: V_th min, supply 54.0 V
- *   ripple      1.79 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
- *   duty-range  96.25 % (limit 99.05 %); ok; hot: V_th min, supply 40.0 V
+ *   junction    68.8 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
+ *   total-loss  5.80 W; ok; hot: V_th min, supply 54.0 V
+ *   ripple      1.56 A (limit 1.80 A); ok; hot: V_th min, supply 54.0 V
+ *   duty-range  96.27 % (limit 98.91 %); ok; hot: V_th min, supply 40.0 V
  *   dead-time   needs 118 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
  *   audible     ok; no significant audible line at any corner
  *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Checked on the registers (independent simulation of the written values)
- *   pulses         shortest high-side pulse 408 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 400 ns, bootstrap refresh 800 ns)
- *   rated case     at compare duty 88.442 %: mean current 12.00 A (plan 12.00 A), ripple 1.319 A peak to peak (plan 1.319 A)
- *   high-bus case  at compare duty 84.185 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
- *   current limit  trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.40 A (plan's stall current 26.95 A)
+ *   pulses                  shortest high-side pulse 408 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 400 ns, bootstrap refresh 800 ns)
+ *   rated case              at compare duty 88.462 %: mean current 12.00 A (plan 12.00 A), ripple 1.146 A peak to peak (plan 1.146 A)
+ *   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
+ *   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
+ *   range-lowest-duty case  at compare duty 55.177 %: mean current 12.00 A (plan 12.00 A), ripple 651.4 mA peak to peak (plan 651.4 mA)
+ *   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
  *
  * Alternatives
- *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +704 mW total loss, +2.1 K junction, -883 mA ripple, -0.97 bits resolution
- *   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +2022 mW total loss, +6.0 K junction, -1316 mA ripple, -1.90 bits resolution
+ *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +598 mW total loss, +1.8 K junction, -647 mA ripple, -0.77 bits resolution
+ *   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1915 mW total loss, +5.7 K junction, -1080 mA ripple, -1.69 bits resolution
  *
  * Findings
- *   info  the dead time costs about 122 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+ *   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
@@ -94,7 +108,7 @@
  *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
  *
  * Inputs
- *   winch.yaml                sha256 f4056a6a50821b7bbb521f537904ea5a814017ea3cd77a94ec19bed1924deb98
+ *   winch.yaml                sha256 c3af99af04cb579dfa8b6794d98756436fda8b714e742e2d20f120bb4601e74c
  *   heron-hb48.yaml           sha256 55451a06be438249f90e098e451be2275c6c8a484d7d545e3067fbc675f35811
  *   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
  */
@@ -117,20 +131,20 @@
 #define WINCH_PWM_DIVIDER 1U
 #define WINCH_PWM_DIVIDER_REG 0U
 /* Counter ticks per PWM period and the period register value (counter top). */
-#define WINCH_PWM_PERIOD_TICKS 11784U
-#define WINCH_PWM_PERIOD_REG 5892U
+#define WINCH_PWM_PERIOD_TICKS 10238U
+#define WINCH_PWM_PERIOD_REG 5119U
 /* 1: up-down counting (centre-aligned); 0: up counting (edge-aligned). */
 #define WINCH_PWM_CENTRE_ALIGNED 1
-/* PWM frequency in millihertz (10.183 kHz). */
-#define WINCH_PWM_FREQUENCY_MILLIHZ 10183299ULL
+/* PWM frequency in millihertz (11.721 kHz). */
+#define WINCH_PWM_FREQUENCY_MILLIHZ 11721039ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
-#define WINCH_PWM_DUTY_STEPS 5892U
+#define WINCH_PWM_DUTY_STEPS 5119U
 /* Dead-time register code and the ticks it gives (125.0 ns). */
 #define WINCH_PWM_DEAD_TIME_CODE 0x0FU
 #define WINCH_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define WINCH_PWM_COMPARE_MIN 32U
-#define WINCH_PWM_COMPARE_MAX 5836U
+#define WINCH_PWM_COMPARE_MAX 5063U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low sides on, braking a turning motor, once enabled). */
 #define WINCH_PWM_INIT_COMPARE 0U
@@ -150,7 +164,7 @@
  * Init sequence (register names differ per MCU; values are above):
  *   1. Outputs: disabled. Stop the timer and hold every bridge output inactive (the timer's outputs disabled and the gate driver's enable inactive): every switch is off and the motor coasts.
  *   2. Divider register <- WINCH_PWM_DIVIDER_REG (divider 1).
- *   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (11784 ticks per period).
+ *   3. Period register (counter top) <- WINCH_PWM_PERIOD_REG (10238 ticks per period).
  *   4. Counting mode <- up-down (centre-aligned) (see WINCH_PWM_CENTRE_ALIGNED).
  *   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
  *   6. Dead-time register <- WINCH_PWM_DEAD_TIME_CODE (15 ticks, 125.0 ns); write it before the complementary outputs are ever enabled.

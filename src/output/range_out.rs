@@ -1,0 +1,202 @@
+//! The operating range in a plan: the span, the load line and the worst
+//! point of the range for each quantity the constraints judge there.
+
+use serde::{Deserialize, Serialize};
+
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::Evaluator;
+use crate::model::physics::load_line::LoadLine;
+use crate::model::range::{RangePoint, RangeResult, junction_key};
+use crate::model::solve::Candidate;
+use crate::output::context::Row;
+
+/// Where a quantity is worst over the range.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct RangeWorstOut {
+    /// What is worst there (`largest ripple (peak to peak)`, ...).
+    pub name: String,
+    /// Its value, formatted with its unit.
+    pub value: String,
+    /// Where it is worst (absent when nothing is worst anywhere, such as
+    /// no audible line at any speed).
+    pub at: Option<RangeAtOut>,
+}
+
+/// A point of the range.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct RangeAtOut {
+    pub speed_rpm: f64,
+    pub current_a: f64,
+    pub v_bus_v: f64,
+    /// Compare duty there (absent: the load is out of reach there).
+    pub compare_duty: Option<f64>,
+}
+
+/// The `operating_range` block of a plan.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct RangeOut {
+    pub speed_min_rpm: f64,
+    pub speed_max_rpm: f64,
+    /// `constant-torque`, `fan-law` or `table of N points`.
+    pub load: String,
+    /// Speeds scanned per supply before the ripple maximum is refined.
+    pub speeds_scanned: usize,
+    pub worst: Vec<RangeWorstOut>,
+}
+
+fn rpm(n_rad_s: f64) -> f64 {
+    n_rad_s * 30.0 / std::f64::consts::PI
+}
+
+fn worst(quantity: &str, value: String, at: &RangePoint) -> RangeWorstOut {
+    RangeWorstOut {
+        name: quantity.into(),
+        value,
+        at: Some(RangeAtOut {
+            speed_rpm: rpm(at.speed_rad_s),
+            current_a: at.current_a,
+            v_bus_v: at.v_bus_v,
+            compare_duty: at.compare_duty.is_finite().then_some(at.compare_duty),
+        }),
+    }
+}
+
+fn load_name(l: &LoadLine) -> String {
+    match l {
+        LoadLine::ConstantTorque { .. } => "constant-torque".into(),
+        LoadLine::FanLaw { .. } => "fan-law".into(),
+        LoadLine::Table { points } => format!("table of {} points", points.len()),
+    }
+}
+
+/// The range block of the chosen candidate `c`; `None` without a range or
+/// when the range is the rated speed alone.
+pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
+    let range = ev.range.as_ref().filter(|r| !r.is_single_speed())?;
+    let r = c.range.as_ref()?;
+    Some(RangeOut {
+        speed_min_rpm: rpm(range.speed_min_rad_s),
+        speed_max_rpm: rpm(range.speed_max_rad_s),
+        load: load_name(&range.load),
+        speeds_scanned: r.speeds_scanned,
+        worst: worst_points(r),
+    })
+}
+
+/// The worst point of each quantity judged over the range.
+fn worst_points(r: &RangeResult) -> Vec<RangeWorstOut> {
+    let amps = |x: f64| format_quantity(x, Dimension::Current, 3);
+    let mut out = Vec::new();
+    if let Some(e) = &r.ripple {
+        out.push(worst("largest ripple (peak to peak)", amps(e.value), &e.at));
+    }
+    if let Some(e) = &r.duty_low {
+        out.push(worst(
+            "lowest compare duty",
+            format!("{:.4}", e.value),
+            &e.at,
+        ));
+    }
+    if let Some(e) = &r.duty_high {
+        out.push(worst(
+            "highest compare duty",
+            format!("{:.4}", e.value),
+            &e.at,
+        ));
+    }
+    if let Some(p) = &r.unreachable {
+        out.push(worst("load out of reach", "-".into(), p));
+    }
+    if let Some(e) = &r.loss {
+        let w = format_quantity(e.value, Dimension::Power, 3);
+        out.push(worst("largest stage loss (nominal supply)", w, &e.at));
+    }
+    let corners: Vec<_> = r
+        .corners_nominal
+        .iter()
+        .chain(&r.corners_high_bus)
+        .cloned()
+        .collect();
+    if let Some((n, case)) = RangeResult::hottest(&corners) {
+        let t = junction_key(case);
+        let value = if t.is_finite() {
+            format_quantity(t, Dimension::Temperature, 3)
+        } else {
+            "runaway".into()
+        };
+        let at = RangePoint {
+            speed_rad_s: *n,
+            current_a: case.case.load_current_a,
+            v_bus_v: case.case.v_bus_v,
+            compare_duty: case.compare_duty,
+        };
+        out.push(worst("hottest junction", value, &at));
+    }
+    if let Some((p, a)) = &r.audible {
+        let level = a
+            .a_weighted_db
+            .map(|db| format!(", {db:.1} dB(A) re 1 A"))
+            .unwrap_or_default();
+        let verdict = if a.pass { "" } else { ", fails" };
+        match a.lowest_audible_line_hz {
+            None if a.pass => out.push(RangeWorstOut {
+                name: "loudest audible".into(),
+                value: "no significant audible line at any speed scanned".into(),
+                at: None,
+            }),
+            None => out.push(worst("loudest audible", format!("fails{level}"), p)),
+            Some(f) => {
+                let line = format_quantity(f, Dimension::Frequency, 3);
+                out.push(worst(
+                    "loudest audible",
+                    format!("line at {line}{level}{verdict}"),
+                    p,
+                ));
+            }
+        }
+    }
+    out
+}
+
+/// The range block as rows `{label, value}` for the rationale and the
+/// report (empty without a range).
+pub fn range_rows(r: Option<&RangeOut>) -> Vec<Row> {
+    let Some(r) = r else {
+        return Vec::new();
+    };
+    let mut rows = vec![Row {
+        label: "range".into(),
+        value: format!(
+            "{:.0} to {:.0} rpm, load {}; {} speeds scanned per supply, the ripple maximum refined between them",
+            r.speed_min_rpm, r.speed_max_rpm, r.load, r.speeds_scanned
+        ),
+    }];
+    for w in &r.worst {
+        let value = match &w.at {
+            None => w.value.clone(),
+            Some(at) => {
+                let duty = at
+                    .compare_duty
+                    .filter(|_| !w.name.contains("duty"))
+                    .map(|d| format!(", duty {d:.3}"))
+                    .unwrap_or_default();
+                format!(
+                    "{} at {:.0} rpm ({}, supply {}{duty})",
+                    w.value,
+                    at.speed_rpm,
+                    format_quantity(at.current_a, Dimension::Current, 3),
+                    format_quantity(at.v_bus_v, Dimension::Voltage, 3),
+                )
+            }
+        };
+        rows.push(Row {
+            label: w.name.clone(),
+            value,
+        });
+    }
+    rows.push(Row {
+        label: "at the rated speed only".into(),
+        value: "the worst-case corners, `spread` and the current limit".into(),
+    });
+    rows
+}

@@ -1,0 +1,331 @@
+//! The operating range, checked against methods that cannot share its shortcuts.
+//!
+//! 1. [`collapsed_range_reproduces_the_rated_plan`]: a design whose range is the
+//!    single rated speed (constant torque) plans exactly as the same design
+//!    without a range, on the bundled designs and on random designs of every
+//!    topology (the written plan compared field by field, the design's own
+//!    name and the input list aside).
+//! 2. [`range_ripple_matches_a_dense_scan`]: for random designs of every
+//!    topology with random speed spans and load lines (constant torque, fan
+//!    law, a table that may rise and fall), the worst ripple the plan reports
+//!    for its chosen setting equals the maximum of a dense, uniform scan of the
+//!    whole span at both supplies the plan judges (brute force, 400 speeds,
+//!    160 on a three-phase bridge, plus every knot), within 0.5 %. On a
+//!    three-phase bridge the range is judged directly at a random setting
+//!    rather than solved (a solve over a range costs seconds there).
+//!
+//! The random designs are invented (`random_design`); `PWMPLAN_RANDOM_DESIGNS=N`
+//! scales how many run.
+
+#[path = "random_design/mod.rs"]
+mod random_design;
+use random_design::*;
+
+use std::path::Path;
+
+use pwmplan::design::{Design, load_design};
+use pwmplan::load::Origin;
+use pwmplan::model::Evaluator;
+use pwmplan::model::range::RangeExtreme;
+use pwmplan::physics::load_line::OperatingRange;
+use pwmplan::plan;
+use pwmplan::solve::{self, Objective};
+use pwmplan::spec::ObjectiveSpec;
+
+/// The bundled designs (every bundled topology).
+const BUNDLED: [&str; 4] = [
+    "belt-feeder.yaml",
+    "vent-fan.yaml",
+    "winch.yaml",
+    "pump-bldc.yaml",
+];
+
+/// The design's objective.
+fn objective_of(d: &Design) -> Objective {
+    match d.spec.objective {
+        ObjectiveSpec::LeastLoss => Objective::LeastLoss,
+        ObjectiveSpec::Quietest => Objective::Quietest,
+        ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
+    }
+}
+
+/// The design's rated speed as written (`operating_speed: "…"`).
+fn rated_speed_text(design: &str) -> String {
+    design
+        .split("operating_speed: \"")
+        .nth(1)
+        .and_then(|t| t.split('"').next())
+        .unwrap_or_else(|| panic!("no operating_speed in\n{design}"))
+        .to_string()
+}
+
+/// `design` with `operating_range` added under `design:`.
+fn with_range(design: &str, range_yaml: &str) -> String {
+    let mut out = design.trim_end().to_string();
+    out.push_str("\n  operating_range: ");
+    out.push_str(range_yaml);
+    out.push('\n');
+    out
+}
+
+/// The plan of the design file `path`, as JSON, without the fields that name
+/// the input files (which differ by construction); `None` when nothing was
+/// chosen.
+fn plan_json(path: &Path) -> Result<Option<serde_json::Value>, String> {
+    let d = load_design(Origin::Disk(path.to_path_buf())).map_err(|e| e.to_string())?;
+    let ev = Evaluator::new(&d);
+    let sol = solve::solve(&ev, objective_of(&d));
+    let Some(p) = plan::build(&d, &ev, &sol, None) else {
+        return Ok(None);
+    };
+    let mut v = serde_json::to_value(&p).map_err(|e| e.to_string())?;
+    if let Some(m) = v.as_object_mut() {
+        m.remove("inputs");
+        m.remove("generated");
+        m.remove("operating_range");
+    }
+    Ok(Some(v))
+}
+
+/// Plan `design` and the same design with its range collapsed to the rated
+/// speed, both in `dir`; a difference is returned as text.
+fn compare_collapsed(dir: &Path, design: &str) -> Result<bool, String> {
+    let n = rated_speed_text(design);
+    let collapsed = with_range(
+        design,
+        &format!("{{ speed: {{ min: \"{n}\", max: \"{n}\" }} }}"),
+    );
+    std::fs::write(dir.join("plain.yaml"), design).map_err(|e| e.to_string())?;
+    std::fs::write(dir.join("collapsed.yaml"), &collapsed).map_err(|e| e.to_string())?;
+    let plain = plan_json(&dir.join("plain.yaml"))?;
+    let ranged = plan_json(&dir.join("collapsed.yaml"))?;
+    match (plain, ranged) {
+        (None, None) => Ok(false),
+        (Some(a), Some(b)) if a == b => Ok(true),
+        (a, b) => Err(format!(
+            "collapsed range plans differently:\n--- without range\n{}\n--- collapsed\n{}\n--- design\n{collapsed}",
+            serde_json::to_string_pretty(&a).unwrap_or_default(),
+            serde_json::to_string_pretty(&b).unwrap_or_default()
+        )),
+    }
+}
+
+#[test]
+fn collapsed_range_reproduces_the_rated_plan() {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    // The bundled boards and switches beside the designs, so references resolve.
+    for entry in std::fs::read_dir(&boards).expect("boards folder").flatten() {
+        let p = entry.path();
+        if p.is_file() {
+            std::fs::copy(&p, tmp.path().join(entry.file_name())).expect("copy board");
+        }
+    }
+    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
+    for entry in std::fs::read_dir(boards.join("switches"))
+        .expect("switches")
+        .flatten()
+    {
+        std::fs::copy(
+            entry.path(),
+            tmp.path().join("switches").join(entry.file_name()),
+        )
+        .expect("copy switch");
+    }
+    for name in BUNDLED {
+        let text = std::fs::read_to_string(boards.join(name)).expect("bundled design");
+        let text = without_range(&text);
+        assert!(
+            compare_collapsed(tmp.path(), &text).unwrap_or_else(|e| panic!("{name}: {e}")),
+            "{name}: nothing chosen"
+        );
+    }
+    let mut r = Rng(0x5eed_0018);
+    let mut compared = 0;
+    for i in 0..designs_to_run(2 * TOPOLOGIES.len()) {
+        let dir = tempfile::tempdir().expect("temporary folder");
+        let (design, _) = write_random(&mut r, dir.path(), i % TOPOLOGIES.len());
+        match compare_collapsed(dir.path(), &design) {
+            Ok(true) => compared += 1,
+            Ok(false) => {}
+            Err(e) if e.contains("collapsed range plans differently") => panic!("design {i}: {e}"),
+            Err(_) => {} // refused as input: not this test's subject
+        }
+    }
+    assert!(
+        compared >= TOPOLOGIES.len(),
+        "only {compared} random designs planned"
+    );
+}
+
+/// A bundled design's text without any `operating_range` block (the plain
+/// rated-point design).
+fn without_range(text: &str) -> String {
+    let mut out = String::new();
+    let mut skipping = false;
+    for line in text.lines() {
+        if line.starts_with("  operating_range:") {
+            skipping = true;
+            continue;
+        }
+        if skipping && (line.starts_with("    ") || line.trim().is_empty()) {
+            continue;
+        }
+        skipping = false;
+        out.push_str(line);
+        out.push('\n');
+    }
+    out
+}
+
+/// Writes a random design of topology `kind` into `dir` (switch, board,
+/// design text returned with its switch's V_DSS).
+fn write_random(r: &mut Rng, dir: &Path, kind: usize) -> (String, f64) {
+    let (topology, modulation) = TOPOLOGIES[kind];
+    let three_phase = topology == "three-phase";
+    let (switch, v_dss) = switch_text(r);
+    let board = board_text(r, topology, modulation, three_phase);
+    let design = design_text(r, v_dss, three_phase, modulation.starts_with("six"));
+    std::fs::write(dir.join("switch.yaml"), switch).expect("write switch");
+    std::fs::write(dir.join("board.yaml"), board).expect("write board");
+    (design, v_dss)
+}
+
+/// A random range around the rated speed `n_rpm`: the span from 10–80 % of
+/// rated up to rated or a little above, and a load line of each kind.
+fn random_range(r: &mut Rng, n_rpm: f64, above: bool) -> String {
+    let lo = n_rpm * r.range(0.1, 0.8);
+    let hi = if above {
+        n_rpm * r.range(1.0, 1.25)
+    } else {
+        n_rpm
+    };
+    let load = match r.next_u64() % 3 {
+        0 => "constant-torque".to_string(),
+        1 => "fan-law".to_string(),
+        _ => {
+            // 2–5 points spanning the range; currents that may rise and fall.
+            let k = 2 + (r.next_u64() % 4) as usize;
+            let points: Vec<String> = (0..k)
+                .map(|j| {
+                    let n = lo + (hi - lo) * j as f64 / (k - 1) as f64;
+                    format!(
+                        "{{ speed: \"{n:.3} rpm\", current: \"{:.3} A\" }}",
+                        r.range(0.3, 1.0)
+                    )
+                })
+                .collect();
+            format!("{{ table: [{}] }}", points.join(", "))
+        }
+    };
+    format!("{{ speed: {{ min: \"{lo:.3} rpm\", max: \"{hi:.3} rpm\" }}, load: {load} }}")
+}
+
+/// The worst ripple over the range as a plan judges it, with the setting's
+/// frequency and dead time: the chosen setting of the solved plan on a
+/// single-phase stage; on a three-phase bridge (whose solve over a range
+/// costs seconds) the range judged directly at a random frequency of the
+/// band and a random dead time.
+fn judged_ripple(
+    r: &mut Rng,
+    d: &Design,
+    ev: &Evaluator,
+    range: &OperatingRange,
+    text: &str,
+) -> Option<(RangeExtreme, f64, f64)> {
+    if ev.three_phase.is_none() {
+        let sol = solve::solve(ev, objective_of(d));
+        let c = sol.chosen.as_ref()?;
+        let Some(result) = c.range.as_ref() else {
+            panic!("a range was given but not judged\n{text}");
+        };
+        return Some((result.ripple?, c.setting.frequency_hz, c.dead_time.seconds));
+    }
+    let (lo, hi) = (ev.limits.f_min_hz, ev.limits.f_max_hz);
+    let f = r.log(lo, hi);
+    let dead = r.range(100e-9, 1.5e-6);
+    let rated = ev.case(&ev.rated, f, dead)?;
+    let high_bus = ev.case(&ev.high_bus, f, dead)?;
+    let result = ev.judge_range(range, f, dead, [&rated, &high_bus]);
+    Some((result.ripple?, f, dead))
+}
+
+/// Speeds of the dense scan across `[lo, hi]` (a three-phase case costs
+/// about a hundred single-phase ones: fewer there).
+const SCAN_POINTS: usize = 400;
+const SCAN_POINTS_THREE_PHASE: usize = 160;
+
+#[test]
+fn range_ripple_matches_a_dense_scan() {
+    let mut r = Rng(0x0018_5ca9);
+    let (mut checked, mut worst_gap) = (0usize, 0.0f64);
+    let mut per_kind = [0usize; TOPOLOGIES.len()];
+    for i in 0..designs_to_run(12 * TOPOLOGIES.len()) {
+        let kind = i % TOPOLOGIES.len();
+        let dir = tempfile::tempdir().expect("temporary folder");
+        let (design, _) = write_random(&mut r, dir.path(), kind);
+        let n_rpm: f64 = rated_speed_text(&design)
+            .trim_end_matches(" rpm")
+            .parse()
+            .expect("rated speed in rpm");
+        let path = dir.path().join("design.yaml");
+        // A span above rated when the supply reaches it, else up to rated.
+        let mut loaded = None;
+        for above in [true, false] {
+            let text = with_range(&design, &random_range(&mut r, n_rpm, above));
+            std::fs::write(&path, &text).expect("write design");
+            if let Ok(d) = load_design(Origin::Disk(path.clone())) {
+                loaded = Some((d, text));
+                break;
+            }
+        }
+        let Some((d, text)) = loaded else { continue };
+        let ev = Evaluator::new(&d);
+        let Some(range) = ev.range.as_ref() else {
+            panic!("design {i}: a range was given but not kept\n{text}");
+        };
+        let Some((found, f, dead)) = judged_ripple(&mut r, &d, &ev, range, &text) else {
+            continue;
+        };
+        let (lo, hi) = (range.speed_min_rad_s, range.speed_max_rad_s);
+        let points = if ev.three_phase.is_some() {
+            SCAN_POINTS_THREE_PHASE
+        } else {
+            SCAN_POINTS
+        };
+        let mut speeds: Vec<f64> = (0..=points)
+            .map(|k| lo + (hi - lo) * k as f64 / points as f64)
+            .collect();
+        speeds.extend(range.load.knots_within(lo, hi));
+        let mut scan_max = 0.0f64;
+        for base in [ev.rated, ev.high_bus] {
+            for &n in &speeds {
+                let case = ev.range_case(range, &base, n);
+                if let Some(s) = ev.at_speed(n, |e| e.ripple_sample(&case, f, dead)) {
+                    scan_max = scan_max.max(s.ripple_pp_a);
+                }
+            }
+        }
+        let gap = (found.value - scan_max).abs() / scan_max;
+        assert!(
+            found.value >= scan_max * (1.0 - 0.005) && found.value <= scan_max * (1.0 + 0.005),
+            "design {i} ({}): worst ripple {} A reported at {:.1} rpm, dense scan maximum {} A ({:.2} % apart)\n{text}",
+            TOPOLOGIES[kind].0,
+            found.value,
+            found.at.speed_rad_s * 60.0 / (2.0 * std::f64::consts::PI),
+            scan_max,
+            100.0 * gap
+        );
+        worst_gap = worst_gap.max(gap);
+        checked += 1;
+        per_kind[kind] += 1;
+    }
+    eprintln!(
+        "range ripple: {checked} designs checked, per topology {per_kind:?}, largest gap {:.4} %",
+        100.0 * worst_gap
+    );
+    assert!(
+        per_kind.iter().all(|&k| k >= 2),
+        "too few designs per topology: {per_kind:?}"
+    );
+}
