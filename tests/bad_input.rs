@@ -3680,3 +3680,21 @@ error: winch.yaml:25:35: design.operating_range.speed.max: the motor needs 41.4 
 "#,
     );
 }
+
+/// 300 A held at standstill through 0.18 ohm needs 54 V; the supply dips to 40 V.
+#[test]
+fn operating_range_standstill_current_beyond_the_supply() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            r#"standstill: { current: "12 A" }"#,
+            r#"standstill: { current: "300 A" }"#,
+        )],
+        r#"
+error: winch.yaml:27:28: design.operating_range.standstill.current: the motor needs 54.0 V (back-EMF 0.00 V + I·R 54.0 V) at 0.00 rpm and 300 A, more than the lowest supply 40.0 V; expected a speed the supply can reach
+ 27 |     standstill: { current: "300 A" }   # holding the load with the motor stopped
+    |                            ^
+"#,
+    );
+}

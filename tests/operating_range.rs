@@ -7,12 +7,15 @@
 //!    name and the input list aside).
 //! 2. [`range_ripple_matches_a_dense_scan`]: for random designs of every
 //!    topology with random speed spans and load lines (constant torque, fan
-//!    law, a table that may rise and fall), the worst ripple the plan reports
+//!    law, a table that may rise and fall; a quarter holding at standstill),
+//!    the worst ripple the plan reports
 //!    for its chosen setting equals the maximum of a dense, uniform scan of the
 //!    whole span at both supplies the plan judges (brute force, 400 speeds,
 //!    160 on a three-phase bridge, plus every knot), within 0.5 %. On a
 //!    three-phase bridge the range is judged directly at a random setting
 //!    rather than solved (a solve over a range costs seconds there).
+//! 3. [`standstill_junction_is_a_dc_leg`]: a sinusoidal bridge holding at
+//!    standstill against a half-bridge leg carrying the same DC current.
 //!
 //! The random designs are invented (`random_design`); `PWMPLAN_RANDOM_DESIGNS=N`
 //! scales how many run.
@@ -218,7 +221,16 @@ fn random_range(r: &mut Rng, n_rpm: f64, above: bool) -> String {
             format!("{{ table: [{}] }}", points.join(", "))
         }
     };
-    format!("{{ speed: {{ min: \"{lo:.3} rpm\", max: \"{hi:.3} rpm\" }}, load: {load} }}")
+    // Holding at standstill on a quarter of the designs.
+    let hold = if r.chance(0.25) {
+        format!(
+            ", standstill: {{ current: \"{:.3} A\" }}",
+            r.range(0.2, 1.0)
+        )
+    } else {
+        String::new()
+    };
+    format!("{{ speed: {{ min: \"{lo:.3} rpm\", max: \"{hi:.3} rpm\" }}, load: {load}{hold} }}")
 }
 
 /// The worst ripple over the range as a plan judges it, with the setting's
@@ -297,6 +309,9 @@ fn range_ripple_matches_a_dense_scan() {
             .map(|k| lo + (hi - lo) * k as f64 / points as f64)
             .collect();
         speeds.extend(range.load.knots_within(lo, hi));
+        if range.hold_current_a.is_some() {
+            speeds.push(0.0);
+        }
         let mut scan_max = 0.0f64;
         for base in [ev.rated, ev.high_bus] {
             for &n in &speeds {
@@ -327,5 +342,91 @@ fn range_ripple_matches_a_dense_scan() {
     assert!(
         per_kind.iter().all(|&k| k >= 2),
         "too few designs per topology: {per_kind:?}"
+    );
+}
+
+/// A sinusoidal bridge holding at standstill carries the peak current as DC
+/// in one leg: its hottest junction must be that of a half-bridge leg (the
+/// single-phase model, a separate code path: the exact PWM-period waveform
+/// and its edges, not the per-angle average) carrying the same DC current
+/// at the same duty, on the same switch, drive and thermal path. The
+/// running average over the electrical period (what the plan reported
+/// before) is well below it.
+#[test]
+fn standstill_junction_is_a_dc_leg() {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
+    std::fs::copy(
+        boards.join("switches/corrie-100.yaml"),
+        tmp.path().join("switches/corrie-100.yaml"),
+    )
+    .expect("copy switch");
+    let three = std::fs::read_to_string(boards.join("osprey-3p48.yaml")).expect("board");
+    // zero_sequence none: the leg duty at the current's peak is the highest
+    // leg duty the case reports, 0.5·(1 + m), at standstill (φ = 0).
+    let three = three.replace("zero_sequence: min-max", "zero_sequence: none");
+    std::fs::write(tmp.path().join("three.yaml"), &three).expect("write board");
+    let half: String = three
+        .lines()
+        .filter(|l| {
+            !l.contains("modulation:")
+                && !l.contains("sinusoidal:")
+                && !l.contains("current_sensing")
+        })
+        .map(|l| l.replace("topology: three-phase", "topology: half-bridge") + "\n")
+        .collect();
+    std::fs::write(tmp.path().join("half.yaml"), &half).expect("write board");
+    let design = std::fs::read_to_string(boards.join("pump-bldc.yaml")).expect("design");
+    std::fs::write(
+        tmp.path().join("three-d.yaml"),
+        design.replace("osprey-3p48.yaml", "three.yaml"),
+    )
+    .expect("write design");
+    let brushed = "design:\n  name: leg\n  board: half.yaml\n  supply: { nominal: \"48 V\", min: \"40 V\", max: \"54 V\" }\n  motor:\n    kind: brushed-dc\n    resistance: \"0.12 ohm\"\n    inductance: \"0.25 mH\"\n    back_emf_constant: \"6 V/krpm\"\n    rated_current: \"10 A\"\n    operating_speed: \"3000 rpm\"\n  ambient: { min: \"-10 °C\", max: \"45 °C\" }\n  constraints:\n    audible: allowed\n    junction: { margin: \"20 K\" }\n  objective: least-loss\n";
+    std::fs::write(tmp.path().join("half-d.yaml"), brushed).expect("write design");
+    let load = |f: &str| {
+        let d =
+            load_design(Origin::Disk(tmp.path().join(f))).unwrap_or_else(|e| panic!("{f}: {e}"));
+        Evaluator::new(&d)
+    };
+    let (tp, hb) = (load("three-d.yaml"), load("half-d.yaml"));
+    let (f, dead) = (20e3, 500e-9);
+    let mut hold = tp.rated;
+    hold.back_emf_v = 0.0;
+    let standstill = tp
+        .at_speed(0.0, |e| e.case(&hold, f, dead))
+        .expect("the bridge holds at standstill");
+    let running = tp.case(&tp.rated, f, dead).expect("the rated case");
+    let duty = standstill.compare_duty;
+    // The half-bridge's back-EMF that gives the same duty at 10 A (bisection).
+    let mut leg = hb.rated;
+    let (mut lo, mut hi) = (0.0, leg.v_bus_v);
+    for _ in 0..60 {
+        leg.back_emf_v = 0.5 * (lo + hi);
+        let d = hb.case(&leg, f, dead).expect("the leg case").compare_duty;
+        if d < duty {
+            lo = leg.back_emf_v
+        } else {
+            hi = leg.back_emf_v
+        }
+    }
+    let dc_leg = hb.case(&leg, f, dead).expect("the leg case");
+    let rise =
+        |c: &pwmplan::model::CaseResult| c.junction_c.expect("a junction") - c.case.t_ambient_c;
+    let (r3, r1) = (rise(&standstill), rise(&dc_leg));
+    eprintln!(
+        "standstill: three-phase rise {r3:.3} K at duty {duty:.4}, half-bridge DC leg {r1:.3} K at duty {:.4}; running at rated speed {:.3} K",
+        dc_leg.compare_duty,
+        rise(&running)
+    );
+    assert!(
+        (r3 - r1).abs() <= 0.05 * r1,
+        "standstill rise {r3} K against the DC leg's {r1} K"
+    );
+    assert!(
+        r3 > 1.5 * rise(&running),
+        "standstill {r3} K not above running {} K",
+        rise(&running)
     );
 }

@@ -1822,19 +1822,39 @@ fn check_design_range(
         check_load_table(c, points, r)?;
     }
     let line = load_line(&r.load, &d.motor);
-    for (speed, field) in [
-        (r.speed.min.si, "operating_range.speed.min"),
-        (r.speed.max.si, "operating_range.speed.max"),
+    let hold = r.standstill.as_ref().map(|h| h.current.si);
+    if let Some(i) = hold {
+        c.within(
+            "operating_range.standstill.current",
+            i,
+            1e-3,
+            2e3,
+            Dimension::Current,
+        )?;
+    }
+    let points = [
+        (
+            r.speed.min.si,
+            line.current_at_a(r.speed.min.si),
+            "operating_range.speed.min",
+        ),
+        (
+            r.speed.max.si,
+            line.current_at_a(r.speed.max.si),
+            "operating_range.speed.max",
+        ),
     ]
     .into_iter()
     .chain(
         line.knots_within(r.speed.min.si, r.speed.max.si)
             .into_iter()
-            .map(|n| (n, "operating_range.load")),
-    ) {
+            .map(|n| (n, line.current_at_a(n), "operating_range.load")),
+    )
+    .chain(hold.map(|i| (0.0, i, "operating_range.standstill.current")));
+    for (speed, current_a, field) in points {
         let at = Reach {
             speed_rad_s: speed,
-            current_a: line.current_at_a(speed),
+            current_a,
             field,
             named: true,
         };
@@ -1870,6 +1890,7 @@ pub fn operating_range(d: &DesignSpec) -> Option<OperatingRange> {
         speed_max_rad_s: r.speed.max.si,
         rated_speed_rad_s: d.motor.operating_speed.si,
         load: load_line(&r.load, &d.motor),
+        hold_current_a: r.standstill.as_ref().map(|h| h.current.si),
     })
 }
 

@@ -1399,6 +1399,7 @@ impl Evaluator {
             thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| closed(t) + offset);
         let t_final = tj.t_j_c().unwrap_or(t_max);
         let report = three_phase::sinusoidal_losses(&bridge, &point, t_final).ok()?;
+        let tj = self.follow_sinusoidal_fundamental(tp, &bridge, &point, case.t_ambient_c, tj);
         let ex = &report.exact;
         let sides = SideResult {
             high: ex.high_side,
@@ -1446,6 +1447,57 @@ impl Evaluator {
             dead_time_harmonics_unsettled: !command.harmonics_settled,
         };
         self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic, extra)
+    }
+
+    /// Whether the junction follows the loss through the electrical period:
+    /// below [`SLOW_FUNDAMENTAL_HZ`], or below [`FOSTER_FOLLOW_HZ`] when the
+    /// path's transient (Foster) data says how.
+    fn follows_fundamental(&self, tp: &ThreePhaseModel) -> bool {
+        let f_e = tp.omega_e_rad_s / (2.0 * std::f64::consts::PI);
+        let limit = if self.stage.thermal.foster.is_empty() {
+            SLOW_FUNDAMENTAL_HZ
+        } else {
+            FOSTER_FOLLOW_HZ
+        };
+        f_e < limit
+    }
+
+    /// A sinusoidal bridge's junction when it follows the electrical
+    /// period: the peak of the periodic response
+    /// (`thermal::periodic_peak_rise_k`) to a side's loss at each angle
+    /// (`sinusoidal_loss_samples`; both sides peak alike by half-wave
+    /// symmetry), iterated on T_j as the average is; the hotter of that and
+    /// `averaged`. At standstill it is the loss at the worst angle, as DC.
+    fn follow_sinusoidal_fundamental(
+        &self,
+        tp: &ThreePhaseModel,
+        bridge: &three_phase::ThreePhaseStage<'_>,
+        point: &three_phase::SinusoidalPoint,
+        t_ambient_c: f64,
+        averaged: JunctionTemperature,
+    ) -> JunctionTemperature {
+        if !self.follows_fundamental(tp) {
+            return averaged;
+        }
+        let th = &self.stage.thermal;
+        let period_s = fundamental_period_s(tp);
+        let rise_as_power = |t: f64| {
+            let samples = three_phase::sinusoidal_loss_samples(
+                bridge,
+                point,
+                t,
+                three_phase::DEFAULT_LOSS_SAMPLES,
+                three_phase::EnergyModel::Transitions,
+            );
+            samples.map_or(f64::NAN, |s| {
+                let high: Vec<f64> = s.totals_w().into_iter().map(|(h, _)| h).collect();
+                thermal::periodic_peak_rise_k(th, &high, period_s) / th.r_th_ja_k_per_w
+            })
+        };
+        let t_max = self.stage.switch.t_j_max_c;
+        let slow =
+            thermal::junction_temperature(t_ambient_c, th.r_th_ja_k_per_w, t_max, rise_as_power);
+        hotter(averaged, slow)
     }
 
     /// The phase-current ripple of a solved sinusoidal command over the
@@ -1555,6 +1607,27 @@ impl Evaluator {
             last = Some((d, w, pt, jh, jl));
         }
         let (d, w, pt, jh, jl) = last?;
+        let (jh, jl) = if self.follows_fundamental(tp) {
+            let slow = |high: bool| {
+                let (th, period_s) = (&st.thermal, fundamental_period_s(tp));
+                thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
+                    let side = three_phase::six_step_losses(&bridge, &pt, &w, t, t).map(|l| {
+                        if high {
+                            l.high_side.total_w()
+                        } else {
+                            l.low_side.total_w()
+                        }
+                    });
+                    side.map_or(f64::NAN, |p| {
+                        thermal::periodic_peak_rise_k(th, &six_step_conduction_shape(p), period_s)
+                            / r_th
+                    })
+                })
+            };
+            (hotter(jh, slow(true)), hotter(jl, slow(false)))
+        } else {
+            (jh, jl)
+        };
         let l = three_phase::six_step_losses(&bridge, &pt, &w, t_hi, t_lo).ok()?;
         let sides = SideResult {
             high: l.high_side,
@@ -1717,6 +1790,43 @@ impl Evaluator {
             three_phase: Some(extra),
         })
     }
+}
+
+/// Below this electrical frequency a three-phase bridge's junction follows
+/// the loss through the electrical period even without transient data (our
+/// bound: "a few hertz", a period of 200 ms or more, long against the
+/// junction-to-case time constants of power packages; from memory).
+pub const SLOW_FUNDAMENTAL_HZ: f64 = 5.0;
+
+/// With the path's Foster data, the periodic response is followed below
+/// this electrical frequency (our bound: above it the period is under
+/// 10 ms and the swing above the average is small; it saves the per-angle
+/// pass on fast motors).
+pub const FOSTER_FOLLOW_HZ: f64 = 100.0;
+
+/// The electrical period, infinite at standstill.
+fn fundamental_period_s(tp: &ThreePhaseModel) -> f64 {
+    if tp.omega_e_rad_s > 0.0 {
+        2.0 * std::f64::consts::PI / tp.omega_e_rad_s
+    } else {
+        f64::INFINITY
+    }
+}
+
+/// The hotter of two junction results (a runaway is the hottest).
+fn hotter(a: JunctionTemperature, b: JunctionTemperature) -> JunctionTemperature {
+    let key = |j: &JunctionTemperature| j.t_j_c().unwrap_or(f64::INFINITY);
+    if key(&b) > key(&a) { b } else { a }
+}
+
+/// A six-step switch's loss through the electrical period, by sector: it
+/// conducts for two of the six (120°), so its average loss `p_avg_w` falls
+/// there as 3·p_avg (block commutation, common practice); an
+/// approximation that puts the commutation and freewheel losses in the
+/// conducting sectors too.
+fn six_step_conduction_shape(p_avg_w: f64) -> [f64; 6] {
+    let on = 3.0 * p_avg_w;
+    [on, on, 0.0, 0.0, 0.0, 0.0]
 }
 
 #[cfg(test)]

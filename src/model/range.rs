@@ -109,7 +109,7 @@ impl Evaluator {
             name: base.name,
             v_bus_v: base.v_bus_v,
             t_ambient_c: base.t_ambient_c,
-            load_current_a: r.load.current_at_a(speed_rad_s),
+            load_current_a: r.current_at_a(speed_rad_s),
             back_emf_v: self.rated.back_emf_v * (speed_rad_s / r.rated_speed_rad_s),
         }
     }
@@ -222,6 +222,10 @@ impl Evaluator {
                 samples.push(best);
             }
             samples.extend(scan.into_iter().flatten());
+            // Holding at standstill: its ripple, sound and duty count too.
+            if r.hold_current_a.is_some() {
+                samples.extend(self.sample_at(r, base, 0.0, f_hz, t_dead_s));
+            }
         }
         let ripple = samples
             .iter()
@@ -238,7 +242,10 @@ impl Evaluator {
                 value: s.compare_duty,
                 at: *p,
             });
-        let corners = r.corner_speeds();
+        let mut corners = r.corner_speeds();
+        if r.hold_current_a.is_some() {
+            corners.insert(0, 0.0);
+        }
         let (duty_high, unreachable) = self.range_duty_high(r, &corners, f_hz, t_dead_s);
         let full = |base: &OperatingCase, known: &CaseResult| -> Vec<(f64, CaseResult)> {
             corners

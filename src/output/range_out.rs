@@ -4,8 +4,9 @@
 use serde::{Deserialize, Serialize};
 
 use crate::input::units::{Dimension, format_quantity};
+use crate::model::evaluate::CaseResult;
 use crate::model::evaluate::Evaluator;
-use crate::model::physics::load_line::LoadLine;
+use crate::model::physics::load_line::{LoadLine, OperatingRange};
 use crate::model::range::{RangePoint, RangeResult, junction_key};
 use crate::model::solve::Candidate;
 use crate::output::context::Row;
@@ -73,18 +74,27 @@ fn load_name(l: &LoadLine) -> String {
 /// when the range is the rated speed alone.
 pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
     let range = ev.range.as_ref().filter(|r| !r.is_single_speed())?;
+    let hold = range
+        .hold_current_a
+        .map(|i| {
+            format!(
+                ", holding {} at standstill",
+                format_quantity(i, Dimension::Current, 3)
+            )
+        })
+        .unwrap_or_default();
     let r = c.range.as_ref()?;
     Some(RangeOut {
         speed_min_rpm: rpm(range.speed_min_rad_s),
         speed_max_rpm: rpm(range.speed_max_rad_s),
-        load: load_name(&range.load),
+        load: format!("{}{hold}", load_name(&range.load)),
         speeds_scanned: r.speeds_scanned,
-        worst: worst_points(r),
+        worst: worst_points(range, r),
     })
 }
 
 /// The worst point of each quantity judged over the range.
-fn worst_points(r: &RangeResult) -> Vec<RangeWorstOut> {
+fn worst_points(range: &OperatingRange, r: &RangeResult) -> Vec<RangeWorstOut> {
     let amps = |x: f64| format_quantity(x, Dimension::Current, 3);
     let mut out = Vec::new();
     if let Some(e) = &r.ripple {
@@ -117,20 +127,28 @@ fn worst_points(r: &RangeResult) -> Vec<RangeWorstOut> {
         .chain(&r.corners_high_bus)
         .cloned()
         .collect();
-    if let Some((n, case)) = RangeResult::hottest(&corners) {
-        let t = junction_key(case);
-        let value = if t.is_finite() {
-            format_quantity(t, Dimension::Temperature, 3)
-        } else {
-            "runaway".into()
-        };
-        let at = RangePoint {
-            speed_rad_s: *n,
-            current_a: case.case.load_current_a,
-            v_bus_v: case.case.v_bus_v,
-            compare_duty: case.compare_duty,
-        };
-        out.push(worst("hottest junction", value, &at));
+    let hottest = |name: &str, at_speed: Option<f64>, out: &mut Vec<RangeWorstOut>| {
+        let here: Vec<_> = corners
+            .iter()
+            .filter(|(n, _)| at_speed.is_none_or(|s| *n == s))
+            .cloned()
+            .collect();
+        if let Some((n, case)) = RangeResult::hottest(&here) {
+            out.push(junction_row(name, *n, case));
+        }
+    };
+    hottest("hottest junction", None, &mut out);
+    hottest(
+        "hottest junction at the lowest speed",
+        Some(range.speed_min_rad_s),
+        &mut out,
+    );
+    if range.hold_current_a.is_some() {
+        hottest(
+            "hottest junction holding at standstill",
+            Some(0.0),
+            &mut out,
+        );
     }
     if let Some((p, a)) = &r.audible {
         let level = a
@@ -156,6 +174,23 @@ fn worst_points(r: &RangeResult) -> Vec<RangeWorstOut> {
         }
     }
     out
+}
+
+/// The hottest junction of `case` at speed `n` as a worst-point row.
+fn junction_row(name: &str, n: f64, case: &CaseResult) -> RangeWorstOut {
+    let t = junction_key(case);
+    let value = if t.is_finite() {
+        format_quantity(t, Dimension::Temperature, 3)
+    } else {
+        "runaway".into()
+    };
+    let at = RangePoint {
+        speed_rad_s: n,
+        current_a: case.case.load_current_a,
+        v_bus_v: case.case.v_bus_v,
+        compare_duty: case.compare_duty,
+    };
+    worst(name, value, &at)
 }
 
 /// The range block as rows `{label, value}` for the rationale and the

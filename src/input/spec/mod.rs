@@ -599,6 +599,18 @@ pub struct OperatingRangeSpec {
     /// How the current follows the speed (default `constant-torque`).
     #[serde(default)]
     pub load: LoadLineSpec,
+    /// Holding torque at zero speed, where the drive does.
+    #[serde(default)]
+    pub standstill: Option<StandstillSpec>,
+}
+
+/// The drive holding its load at zero speed.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StandstillSpec {
+    /// The current held (a three-phase bridge: the phase-current peak, or
+    /// the DC-link current in six-step, as `rated_current`).
+    pub current: Q<Ampere>,
 }
 
 /// Lowest and highest operating speed.

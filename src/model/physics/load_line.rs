@@ -78,6 +78,9 @@ pub struct OperatingRange {
     /// The design's operating (rated) speed; back-EMF scales from it.
     pub rated_speed_rad_s: f64,
     pub load: LoadLine,
+    /// The current held at standstill, where the drive holds its load at
+    /// zero speed.
+    pub hold_current_a: Option<f64>,
 }
 
 /// Intervals of the even scan over the range (our choice: with the ends,
@@ -90,7 +93,16 @@ impl OperatingRange {
     /// Whether the range is the one speed `n` (it adds nothing to a plan
     /// judged at `n`).
     pub fn is_single_speed(&self) -> bool {
-        self.speed_max_rad_s <= self.speed_min_rad_s
+        self.speed_max_rad_s <= self.speed_min_rad_s && self.hold_current_a.is_none()
+    }
+
+    /// The current at speed `n`: the load line's, and at standstill (n = 0)
+    /// the held current where the drive holds.
+    pub fn current_at_a(&self, speed_rad_s: f64) -> f64 {
+        match self.hold_current_a {
+            Some(i) if speed_rad_s <= 0.0 => i,
+            _ => self.load.current_at_a(speed_rad_s),
+        }
     }
 
     /// The speeds where the judged quantities can peak without a smooth
@@ -199,6 +211,7 @@ mod tests {
     #[test]
     fn the_scan_holds_the_ends_the_rated_speed_and_the_knots() {
         let r = OperatingRange {
+            hold_current_a: None,
             speed_min_rad_s: 100.0,
             speed_max_rad_s: 300.0,
             rated_speed_rad_s: 210.0,

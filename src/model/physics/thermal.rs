@@ -254,6 +254,48 @@ pub fn z_th_k_per_w(path: &ThermalPath, t_s: f64) -> f64 {
         .sum()
 }
 
+/// The highest junction rise over one period of a periodic loss given as
+/// `p_w`, equal steps of constant power across `period_s`, through the
+/// path's Foster network: each pair (R_i, τ_i) is a first-order lag whose
+/// rise steps as T ← T·a + R_i·P·(1 − a), a = e^(−Δt/τ_i), exact for
+/// piecewise-constant power; its periodic steady state starts at
+/// x_i/(1 − a^N), x_i the rise one period gives from zero (linear RC
+/// network response, common practice; the Foster network as in
+/// [`z_th_k_per_w`]). A pair with τ ≤ 0, an infinite period, or a path
+/// without Foster pairs (then R_th(j-a) alone) follows the power at once:
+/// R·max P, the quasi-static limit. Within a step each term moves
+/// monotonically, so the peak is at a step's end.
+pub fn periodic_peak_rise_k(path: &ThermalPath, p_w: &[f64], period_s: f64) -> f64 {
+    let n = p_w.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let steady = [(path.r_th_ja_k_per_w, 0.0)];
+    let pairs: &[(f64, f64)] = if path.foster.is_empty() {
+        &steady
+    } else {
+        &path.foster
+    };
+    let dt = period_s / n as f64;
+    let mut total = vec![0.0; n];
+    for &(r, tau) in pairs {
+        let a = if tau > 0.0 { (-dt / tau).exp() } else { 0.0 };
+        let step = |t: f64, p: f64| t * a + r * p * (1.0 - a);
+        let from_zero = p_w.iter().fold(0.0, |t, &p| step(t, p));
+        let a_n = a.powi(n as i32);
+        let mut t = if a_n < 1.0 {
+            from_zero / (1.0 - a_n)
+        } else {
+            0.0
+        };
+        for (k, &p) in p_w.iter().enumerate() {
+            t = step(t, p);
+            total[k] += t;
+        }
+    }
+    total.into_iter().fold(0.0, f64::max)
+}
+
 /// Temperature rise at the end of a single rectangular power pulse of `p_w`
 /// lasting `t_s` (stall, start-up): ΔT = P·Z_th(t) (*Thermal equivalent circuit
 /// models*, 2008; from memory). With
@@ -515,6 +557,34 @@ mod tests {
 
     /// Foster network against an independent numerical integration of its
     /// parallel-RC branches (dT_i/dt = (P − T_i/R_i)/C_i, C_i = τ_i/R_i, RK4).
+    #[test]
+    fn periodic_peak_rise_limits_and_a_square_wave() {
+        let path = |foster: Vec<(f64, f64)>| ThermalPath {
+            r_th_ja_k_per_w: 10.0,
+            foster,
+        };
+        // Quasi-static (no Foster pairs): R·max P.
+        let p = [1.0, 3.0, 2.0, 0.0];
+        assert!((periodic_peak_rise_k(&path(vec![]), &p, 0.1) - 30.0).abs() < 1e-12);
+        // A very fast period through a slow pole: R·mean P.
+        let slow = path(vec![(10.0, 100.0)]);
+        assert!((periodic_peak_rise_k(&slow, &p, 1e-6) - 15.0).abs() < 1e-5);
+        // A square wave (P for half the period, 0 for the other half) through
+        // one pole: the periodic steady state's peak in closed form,
+        // R·P·(1 − a)/(1 − a²) with a = e^(−T/(2τ)) (first-order RC response,
+        // common practice), against the stepped result with many steps.
+        let (r, tau, period): (f64, f64, f64) = (4.0, 0.05, 0.08);
+        let n = 2000;
+        let wave: Vec<f64> = (0..n).map(|k| if k < n / 2 { 2.0 } else { 0.0 }).collect();
+        let a = (-period / (2.0 * tau)).exp();
+        let expected = r * 2.0 * (1.0 - a) / (1.0 - a * a);
+        let got = periodic_peak_rise_k(&path(vec![(r, tau)]), &wave, period);
+        assert!(
+            (got - expected).abs() < 1e-9 * expected,
+            "{got} against {expected}"
+        );
+    }
+
     #[test]
     fn foster_against_numerical_integration() {
         let path = ThermalPath {

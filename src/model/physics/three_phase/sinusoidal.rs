@@ -187,6 +187,56 @@ pub fn sinusoidal_losses_numerical(
     n_samples: usize,
     energies: EnergyModel,
 ) -> Result<SinusoidalLosses> {
+    let samples = sinusoidal_loss_samples(stage, point, t_j_c, n_samples, energies)?;
+    let (hs, ls) = samples.lines.iter().fold(
+        (LossLines::default(), LossLines::default()),
+        |(h, l), (sh, sl)| (h.plus(sh), l.plus(sl)),
+    );
+    let n = n_samples as f64;
+    let gate = samples.gate_per_switch;
+    let finish = |l: LossLines| LossLines {
+        gate_internal_w: gate.internal_w,
+        ..l.scaled(1.0 / n)
+    };
+    Ok(SinusoidalLosses {
+        high_side: finish(hs),
+        low_side: finish(ls),
+        gate_per_switch: gate,
+    })
+}
+
+/// Phase A's high- and low-side losses at each sample of the fundamental period.
+#[derive(Debug, Clone)]
+pub struct LossSamples {
+    /// (high side, low side) at θ = (k + ½)·2π/n, without the gate line.
+    pub lines: Vec<(LossLines, LossLines)>,
+    /// The gate drive per switch (the same at every angle).
+    pub gate_per_switch: GateDriveLoss,
+}
+
+impl LossSamples {
+    /// Each sample's total per device (high side, low side) with the gate's
+    /// internal share, W: the loss the junction sees at that angle when the
+    /// fundamental is slow against the device's thermal time constants.
+    pub fn totals_w(&self) -> Vec<(f64, f64)> {
+        let g = self.gate_per_switch.internal_w;
+        self.lines
+            .iter()
+            .map(|(h, l)| (h.total_w() + g, l.total_w() + g))
+            .collect()
+    }
+}
+
+/// The losses of [`sinusoidal_losses_numerical`] sample by sample (the
+/// averages over a PWM period at each angle of the fundamental; same
+/// model, same edges).
+pub fn sinusoidal_loss_samples(
+    stage: &ThreePhaseStage<'_>,
+    point: &SinusoidalPoint,
+    t_j_c: f64,
+    n_samples: usize,
+    energies: EnergyModel,
+) -> Result<LossSamples> {
     stage.validate()?;
     point.validate()?;
     check("t_j_c", t_j_c, true)?;
@@ -197,7 +247,7 @@ pub fn sinusoidal_losses_numerical(
     let phi = point.phi_rad();
     let e_oss = stage.e_oss_j();
     let (e_on_pk, e_off_pk) = stage.energies(i_pk, i_pk, r)?;
-    let (mut hs, mut ls) = (LossLines::default(), LossLines::default());
+    let mut lines = Vec::with_capacity(n_samples);
     // Sample k + n/2 is half a fundamental period on: the same |i| (the
     // edges depend on |i| only), so each pair shares one edge evaluation.
     let half = if n_samples.is_multiple_of(2) {
@@ -209,6 +259,7 @@ pub fn sinusoidal_losses_numerical(
     type Sample = (f64, f64, Option<EdgePair>);
     let mut first_half: Vec<Sample> = vec![(0.0, 0.0, None); half];
     for k in 0..n_samples {
+        let (mut hs, mut ls) = (LossLines::default(), LossLines::default());
         // Half a period on, the references, the zero sequence and the
         // current change sign: the duty becomes 1 − d and the current −i
         // (sin(θ + π − φ) = −sin(θ − φ)), so the second half reuses the first.
@@ -233,6 +284,7 @@ pub fn sinusoidal_losses_numerical(
             ls.conduction_forward_w += (1.0 - d) * i2r;
         }
         if d <= 0.0 || d >= 1.0 || i == 0.0 {
+            lines.push((hs, ls));
             continue;
         }
         let e = match energies {
@@ -257,27 +309,24 @@ pub fn sinusoidal_losses_numerical(
                 }
             },
         };
-        let (hard, soft) = if i > 0.0 {
-            (&mut hs, &mut ls)
-        } else {
-            (&mut ls, &mut hs)
-        };
-        hard.switching_w += f * (e.e_on_j + e.e_off_j);
-        hard.reverse_recovery_w += e.recovery_switch_j * f;
-        hard.output_capacitance_w += e_oss * f;
-        soft.reverse_recovery_w += e.recovery_diode_j * f;
-        soft.body_diode_w += e.dead_time_diode_j * f;
+        {
+            let (hard, soft) = if i > 0.0 {
+                (&mut hs, &mut ls)
+            } else {
+                (&mut ls, &mut hs)
+            };
+            hard.switching_w += f * (e.e_on_j + e.e_off_j);
+            hard.reverse_recovery_w += e.recovery_switch_j * f;
+            hard.output_capacitance_w += e_oss * f;
+            soft.reverse_recovery_w += e.recovery_diode_j * f;
+            soft.body_diode_w += e.dead_time_diode_j * f;
+        }
+        lines.push((hs, ls));
     }
-    let gate = stage.gate(f, 2.0 * i_pk / PI)?;
-    let n = n_samples as f64;
-    let finish = |l: LossLines| LossLines {
-        gate_internal_w: gate.internal_w,
-        ..l.scaled(1.0 / n)
-    };
-    Ok(SinusoidalLosses {
-        high_side: finish(hs),
-        low_side: finish(ls),
-        gate_per_switch: gate,
+    let gate_per_switch = stage.gate(f, 2.0 * i_pk / PI)?;
+    Ok(LossSamples {
+        lines,
+        gate_per_switch,
     })
 }
 

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:8477cfbbf15bd6afd1d1082ea98214c5ed0b120a4cab5dcb87cccdc5815275d4)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:bc21c91ced6e25bef8e3d0b090cc6700ab1f0d0dc990dbcbd72dc2d2825cdd9b)
  *
  * Chosen setting
  *   design         vent-fan
@@ -23,14 +23,15 @@
  *   frequency-band     25.000 kHz  13.605 kHz   11.4 kHz  ok
  *
  * Over the operating range (worst points)
- *   range                                1500 to 4200 rpm, load fan-law; 7 speeds scanned per supply, the ripple maximum refined between them
- *   largest ripple (peak to peak)        600 mA at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
- *   lowest compare duty                  0.2274 at 1500 rpm (153 mA, supply 13.2 V)
- *   highest compare duty                 0.9907 at 4200 rpm (1.20 A, supply 10.8 V)
- *   largest stage loss (nominal supply)  105 mW at 4200 rpm (1.20 A, supply 12.0 V, duty 0.896)
- *   hottest junction                     50.7 °C at 4200 rpm (1.20 A, supply 13.2 V, duty 0.818)
- *   loudest audible                      line at 13.6 kHz, -20.3 dB(A) re 1 A at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
- *   at the rated speed only              the worst-case corners, `spread` and the current limit
+ *   range                                 1500 to 4200 rpm, load fan-law; 7 speeds scanned per supply, the ripple maximum refined between them
+ *   largest ripple (peak to peak)         600 mA at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
+ *   lowest compare duty                   0.2274 at 1500 rpm (153 mA, supply 13.2 V)
+ *   highest compare duty                  0.9907 at 4200 rpm (1.20 A, supply 10.8 V)
+ *   largest stage loss (nominal supply)   105 mW at 4200 rpm (1.20 A, supply 12.0 V, duty 0.896)
+ *   hottest junction                      50.7 °C at 4200 rpm (1.20 A, supply 13.2 V, duty 0.818)
+ *   hottest junction at the lowest speed  47.7 °C at 1500 rpm (153 mA, supply 13.2 V, duty 0.227)
+ *   loudest audible                       line at 13.6 kHz, -20.3 dB(A) re 1 A at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
+ *   at the rated speed only               the worst-case corners, `spread` and the current limit
  *
  * Losses at the rated case (whole stage)
  *   conduction           10.9 mW

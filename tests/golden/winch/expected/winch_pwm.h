@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:35f78af69934095f008a8a6881f15457e8a29be9ac7d8e09a8fdf827f640cabb)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:3f1b4684788da221394c9b85f24cac449621c9ed74c6eb72abe2800d920f2ea1)
  *
  * Chosen setting
  *   design         winch
@@ -25,14 +25,16 @@
  *   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
  *
  * Over the operating range (worst points)
- *   range                                300 to 3600 rpm, load constant-torque; 7 speeds scanned per supply, the ripple maximum refined between them
- *   largest ripple (peak to peak)        1.80 A at 2572 rpm (12.0 A, supply 54.0 V, duty 0.752)
- *   lowest compare duty                  0.5518 at 300 rpm (12.0 A, supply 54.0 V)
- *   highest compare duty                 0.9612 at 3600 rpm (12.0 A, supply 40.0 V)
- *   largest stage loss (nominal supply)  4.28 W at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
- *   hottest junction                     63.5 °C at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
- *   loudest audible                      no significant audible line at any speed scanned
- *   at the rated speed only              the worst-case corners, `spread` and the current limit
+ *   range                                   300 to 3600 rpm, load constant-torque, holding 12.0 A at standstill; 7 speeds scanned per supply, the ripple maximum refined between them
+ *   largest ripple (peak to peak)           1.80 A at 2572 rpm (12.0 A, supply 54.0 V, duty 0.752)
+ *   lowest compare duty                     0.5254 at 0 rpm (12.0 A, supply 54.0 V)
+ *   highest compare duty                    0.9612 at 3600 rpm (12.0 A, supply 40.0 V)
+ *   largest stage loss (nominal supply)     4.28 W at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
+ *   hottest junction                        63.5 °C at 3600 rpm (12.0 A, supply 48.0 V, duty 0.885)
+ *   hottest junction at the lowest speed    59.5 °C at 300 rpm (12.0 A, supply 54.0 V, duty 0.552)
+ *   hottest junction holding at standstill  59.1 °C at 0 rpm (12.0 A, supply 54.0 V, duty 0.525)
+ *   loudest audible                         no significant audible line at any speed scanned
+ *   at the rated speed only                 the worst-case corners, `spread` and the current limit
  *
  * Losses at the rated case (whole stage)
  *   conduction           3.45 W
@@ -81,7 +83,7 @@
  *   rated case              at compare duty 88.462 %: mean current 12.00 A (plan 12.00 A), ripple 1.146 A peak to peak (plan 1.146 A)
  *   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
  *   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
- *   range-lowest-duty case  at compare duty 55.177 %: mean current 12.00 A (plan 12.00 A), ripple 651.4 mA peak to peak (plan 651.4 mA)
+ *   range-lowest-duty case  at compare duty 52.538 %: mean current 12.00 A (plan 12.00 A), ripple 327.9 mA peak to peak (plan 327.9 mA)
  *   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
  *
  * Alternatives
@@ -108,7 +110,7 @@
  *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
  *
  * Inputs
- *   winch.yaml                sha256 c3af99af04cb579dfa8b6794d98756436fda8b714e742e2d20f120bb4601e74c
+ *   winch.yaml                sha256 d18d1e481e2778b02c619cf0590b4dfc09b2a234f149e1fecca24a993512c9ca
  *   heron-hb48.yaml           sha256 55451a06be438249f90e098e451be2275c6c8a484d7d545e3067fbc675f35811
  *   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
  */
