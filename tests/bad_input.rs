@@ -440,7 +440,7 @@ fn unknown_objective_lists_choices() {
             "objective: cheapest",
         )],
         r#"
-error: belt-feeder.yaml:21:14: design.objective: unknown value `cheapest`; expected one of `least-loss`, `quietest`, `coolest-junction`
+error: belt-feeder.yaml:21:14: design.objective: unknown value `cheapest`; expected one of `least-loss`, `quietest`, `coolest-junction`, `least-average-loss`, `least-worst-loss`
  21 |   objective: cheapest
     |              ^
 "#,
@@ -3695,6 +3695,60 @@ fn operating_range_standstill_current_beyond_the_supply() {
 error: winch.yaml:27:28: design.operating_range.standstill.current: the motor needs 54.0 V (back-EMF 0.00 V + I·R 54.0 V) at 0.00 rpm and 300 A, more than the lowest supply 40.0 V; expected a speed the supply can reach
  27 |     standstill: { current: "300 A" }   # holding the load with the motor stopped
     |                            ^
+"#,
+    );
+}
+
+/// Shares that do not add up to the whole time.
+#[test]
+fn operating_range_profile_shares_short_of_whole() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "standstill: { current: \"12 A\" }",
+            "standstill: { current: \"12 A\" }\n    profile: [{ speed: \"300 rpm\", share: \"40 %\" }, { speed: \"3600 rpm\", share: \"40 %\" }]",
+        )],
+        r#"
+error: winch.yaml:28:14: design.operating_range.profile: the shares add up to 80.0 %; expected 100 %
+ 28 |     profile: [{ speed: "300 rpm", share: "40 %" }, { speed: "3600 rpm", share: "40 %" }]   # holding the load with the…
+    |              ^
+"#,
+    );
+}
+
+/// A profile speed outside the range.
+#[test]
+fn operating_range_profile_speed_outside() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "standstill: { current: \"12 A\" }",
+            "standstill: { current: \"12 A\" }\n    profile: [{ speed: \"4000 rpm\", share: \"100 %\" }]",
+        )],
+        r#"
+error: winch.yaml:28:24: design.operating_range.profile[0].speed: 4000 rpm is outside the range 300 rpm to 3600 rpm; expected a speed of the range or 0 (standstill)
+ 28 |     profile: [{ speed: "4000 rpm", share: "100 %" }]   # holding the load with the motor stopped
+    |                        ^
+"#,
+    );
+}
+
+/// Averaging over a profile the design does not give.
+#[test]
+fn objective_least_average_loss_without_profile() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "objective: least-loss",
+            "objective: least-average-loss",
+        )],
+        r#"
+error: winch.yaml:21:14: design.objective: least-average-loss averages over operating_range.profile, which the design does not give; add a profile or choose least-loss
+ 21 |   objective: least-average-loss
+    |              ^
 "#,
     );
 }

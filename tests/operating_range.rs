@@ -49,6 +49,8 @@ fn objective_of(d: &Design) -> Objective {
         ObjectiveSpec::LeastLoss => Objective::LeastLoss,
         ObjectiveSpec::Quietest => Objective::Quietest,
         ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
+        ObjectiveSpec::LeastAverageLoss => Objective::LeastAverageLoss,
+        ObjectiveSpec::LeastWorstLoss => Objective::LeastWorstLoss,
     }
 }
 
@@ -428,5 +430,88 @@ fn standstill_junction_is_a_dc_leg() {
         r3 > 1.5 * rise(&running),
         "standstill {r3} K not above running {} K",
         rise(&running)
+    );
+}
+
+/// `least-average-loss` chooses the feasible setting whose loss, averaged
+/// over the time profile, is least: checked against every realisable
+/// setting of the band (brute force), with the average recomputed here from
+/// whole cases at the profile's speeds (Σ share·loss), not from the plan's
+/// figures.
+#[test]
+fn least_average_loss_matches_a_brute_force() {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
+    for f in ["wren-hb24.yaml", "switches/tarn-40.yaml"] {
+        std::fs::copy(boards.join(f), tmp.path().join(f)).expect("copy board");
+    }
+    let design = std::fs::read_to_string(boards.join("belt-feeder.yaml"))
+        .expect("design")
+        .replace("objective: least-loss", "objective: least-average-loss")
+        .replace(
+            "frequency: { min: \"16 kHz\", max: \"60 kHz\" }",
+            "frequency: { min: \"19 kHz\", max: \"24 kHz\" }",
+        );
+    let design = with_range(
+        &design,
+        "{ speed: { min: \"800 rpm\", max: \"3200 rpm\" }, load: { table: [{ speed: \"800 rpm\", current: \"1.5 A\" }, { speed: \"3200 rpm\", current: \"3.5 A\" }] }, profile: [{ speed: \"800 rpm\", share: \"25 %\" }, { speed: \"1700 rpm\", share: \"45 %\" }, { speed: \"3200 rpm\", share: \"30 %\" }] }",
+    );
+    let path = tmp.path().join("design.yaml");
+    std::fs::write(&path, &design).expect("write design");
+    let d = load_design(Origin::Disk(path)).unwrap_or_else(|e| panic!("{e}"));
+    let ev = Evaluator::new(&d);
+    let range = ev.range.clone().expect("a range");
+    let dead = ev.dead_time_choice();
+    let average = |f_hz: f64| -> f64 {
+        range
+            .profile
+            .iter()
+            .map(|&(n, share)| {
+                let case = ev.range_case(&range, &ev.rated, n);
+                let c = ev
+                    .at_speed(n, |e| e.case(&case, f_hz, dead.seconds))
+                    .expect("a profile case");
+                share * c.losses.total
+            })
+            .sum()
+    };
+    let mut best: Option<(f64, f64)> = None;
+    for &a in &ev.alignments() {
+        let settings = ev
+            .timer
+            .settings_in_band(ev.limits.f_min_hz, ev.limits.f_max_hz, a)
+            .expect("valid band");
+        for s in settings {
+            let Some(c) = ev.candidate(&s, &dead).filter(|c| c.feasible) else {
+                continue;
+            };
+            let p = average(c.setting.frequency_hz);
+            if best.is_none_or(|b| p < b.0) {
+                best = Some((p, c.setting.frequency_hz));
+            }
+        }
+    }
+    let (least, f_best) = best.expect("a feasible setting");
+    let sol = solve::solve(&ev, Objective::LeastAverageLoss);
+    let chosen = sol.chosen.as_ref().expect("a chosen setting");
+    let got = average(chosen.setting.frequency_hz);
+    eprintln!(
+        "least average loss {least:.6} W at {f_best:.1} Hz; chosen {got:.6} W at {:.1} Hz",
+        chosen.setting.frequency_hz
+    );
+    assert!(
+        got <= least * (1.0 + 1e-9),
+        "chosen {got} W, brute force {least} W"
+    );
+    let reported = chosen
+        .range
+        .as_ref()
+        .and_then(|r| r.profile.as_ref())
+        .expect("profile figures");
+    assert!(
+        (reported.mean_loss_w - got).abs() <= 1e-9 * got,
+        "reported {} W",
+        reported.mean_loss_w
     );
 }

@@ -100,11 +100,17 @@ fn config(release_cases: u32) -> Config {
 // -------------------------------------------------------------------------------------------
 
 /// Objective value (smaller is better): total loss for least-loss and
-/// quietest, hottest junction for coolest-junction.
+/// quietest, hottest junction for coolest-junction; the range's objectives
+/// (tested in `operating_range.rs`) fall back to the rated loss here, where
+/// the designs have no range.
 fn objective_value(obj: Objective, c: &Candidate) -> f64 {
     match obj {
         Objective::LeastLoss | Objective::Quietest => c.rated.losses.total,
         Objective::CoolestJunction => c.rated.junction_c.unwrap_or(f64::INFINITY),
+        Objective::LeastAverageLoss | Objective::LeastWorstLoss => {
+            assert!(c.range.is_none(), "a range in the solver properties");
+            c.rated.losses.total
+        }
     }
 }
 

@@ -143,6 +143,8 @@ pub(super) fn objective_of(d: &Design) -> Objective {
         ObjectiveSpec::LeastLoss => Objective::LeastLoss,
         ObjectiveSpec::Quietest => Objective::Quietest,
         ObjectiveSpec::CoolestJunction => Objective::CoolestJunction,
+        ObjectiveSpec::LeastAverageLoss => Objective::LeastAverageLoss,
+        ObjectiveSpec::LeastWorstLoss => Objective::LeastWorstLoss,
     }
 }
 

@@ -1554,7 +1554,11 @@ fn check_design(
     check_design_options(d, b, sw, &c, emf)?;
     if let Some(r) = &d.operating_range {
         check_design_range(d, b, &c, r, k_e)?;
+        if let Some(points) = &r.profile {
+            check_profile(&c, points, r)?;
+        }
     }
+    check_range_objective(d, &c)?;
     Ok((emf, k_e, t_j_limit))
 }
 
@@ -1866,6 +1870,87 @@ fn check_design_range(
     Ok(())
 }
 
+/// Largest distance of the profile's shares from a whole (0.5 %, our
+/// choice: rounding of hand-written percentages).
+const PROFILE_SUM_TOLERANCE: f64 = 0.005;
+
+/// `operating_range.profile`: 1 to `LIST_CAPS.curve_points` points, each
+/// speed inside the range (or 0 where the drive holds at standstill), each
+/// share above 0 and at most 100 %, the shares summing to 100 %.
+fn check_profile(
+    c: &Check,
+    points: &[ProfilePointSpec],
+    r: &OperatingRangeSpec,
+) -> Result<(), InputError> {
+    let field = "operating_range.profile";
+    c.max_len(field, points.len(), LIST_CAPS.curve_points, "points")?;
+    if points.is_empty() {
+        return Err(c.fail(
+            field,
+            "no points; expected at least one (speed, share) point",
+        ));
+    }
+    let deg = Dimension::AngularSpeed;
+    let (lo, hi) = (r.speed.min.si, r.speed.max.si);
+    for (k, p) in points.iter().enumerate() {
+        let n = p.speed.si;
+        let holds = n == 0.0 && r.standstill.is_some();
+        if !holds && !(lo * (1.0 - 1e-9)..=hi * (1.0 + 1e-9)).contains(&n) {
+            return Err(c.fail(
+                &format!("{field}[{k}].speed"),
+                format!(
+                    "{} is outside the range {} to {}; expected a speed of the range{}",
+                    fmt(n, deg),
+                    fmt(lo, deg),
+                    fmt(hi, deg),
+                    if r.standstill.is_some() {
+                        " or 0 (standstill)"
+                    } else {
+                        ""
+                    }
+                ),
+            ));
+        }
+        c.within(
+            &format!("{field}[{k}].share"),
+            p.share.si,
+            0.0,
+            1.0,
+            Dimension::Ratio,
+        )?;
+        if p.share.si <= 0.0 {
+            return Err(c.fail(
+                &format!("{field}[{k}].share"),
+                "0 %; expected a share above 0",
+            ));
+        }
+    }
+    let sum: f64 = points.iter().map(|p| p.share.si).sum();
+    if (sum - 1.0).abs() > PROFILE_SUM_TOLERANCE {
+        return Err(c.fail(
+            field,
+            format!("the shares add up to {:.1} %; expected 100 %", 100.0 * sum),
+        ));
+    }
+    Ok(())
+}
+
+/// The range's objectives need what they average over: `least-average-loss`
+/// a time profile, `least-worst-loss` an operating range.
+fn check_range_objective(d: &DesignSpec, c: &Check) -> Result<(), InputError> {
+    let range = d.operating_range.as_ref();
+    let missing = match d.objective {
+        ObjectiveSpec::LeastAverageLoss if range.and_then(|r| r.profile.as_ref()).is_none() => {
+            "least-average-loss averages over operating_range.profile, which the design does not give; add a profile or choose least-loss"
+        }
+        ObjectiveSpec::LeastWorstLoss if range.is_none() => {
+            "least-worst-loss judges the worst point of operating_range, which the design does not give; add a range or choose least-loss"
+        }
+        _ => return Ok(()),
+    };
+    Err(c.fail("objective", missing))
+}
+
 /// The model's load line of a design's `operating_range.load`.
 pub fn load_line(spec: &LoadLineSpec, m: &MotorSpec) -> LoadLine {
     match spec {
@@ -1891,6 +1976,12 @@ pub fn operating_range(d: &DesignSpec) -> Option<OperatingRange> {
         rated_speed_rad_s: d.motor.operating_speed.si,
         load: load_line(&r.load, &d.motor),
         hold_current_a: r.standstill.as_ref().map(|h| h.current.si),
+        profile: r
+            .profile
+            .iter()
+            .flatten()
+            .map(|p| (p.speed.si, p.share.si))
+            .collect(),
     })
 }
 

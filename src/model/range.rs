@@ -65,17 +65,33 @@ pub struct RangeResult {
     pub duty_high: Option<RangeExtreme>,
     /// A corner whose load the lowest supply cannot reach.
     pub unreachable: Option<RangePoint>,
-    /// The audible verdict's worst point: the first failing one, else the
-    /// point with the most lines in avoided bands, else the lowest speed.
+    /// The audible verdict's worst point: a failing one, else the loudest,
+    /// else the one with the most lines in avoided bands.
     pub audible: Option<(RangePoint, AcousticFigures)>,
-    /// Largest total loss at the nominal supply.
+    /// Largest total loss at the nominal supply, over the corner speeds and
+    /// the largest ripple's speed.
     pub loss: Option<RangeExtreme>,
-    /// The full cases at the corner speeds (speed, case), nominal supply
-    /// then highest.
+    /// The full cases (speed, case) at the corner speeds and the largest
+    /// ripple's speed, nominal supply then highest.
     #[serde(skip)]
     pub corners_nominal: Vec<(f64, CaseResult)>,
     #[serde(skip)]
     pub corners_high_bus: Vec<(f64, CaseResult)>,
+    /// The time profile's averages, where the range has one.
+    pub profile: Option<ProfileFigures>,
+}
+
+/// A setting's figures averaged over the time profile at the nominal
+/// supply: Σ share·figure over the profile's points.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProfileFigures {
+    /// The stage's loss averaged over the operating time, W.
+    pub mean_loss_w: f64,
+    /// The hottest junction averaged over the operating time (the hottest
+    /// device at each point), °C; `None` where a point runs away.
+    pub mean_junction_c: Option<f64>,
+    /// The operating energy per hour at that loss, J.
+    pub energy_per_hour_j: f64,
 }
 
 impl RangeResult {
@@ -247,8 +263,17 @@ impl Evaluator {
             corners.insert(0, 0.0);
         }
         let (duty_high, unreachable) = self.range_duty_high(r, &corners, f_hz, t_dead_s);
+        // The loss and junction also peak inside the span where the ripple
+        // does (the ripple's copper loss, the edges at I ± ΔI/2): evaluated
+        // there too.
+        let mut loss_speeds = corners.clone();
+        if let Some(e) = &ripple
+            && !corners.contains(&e.at.speed_rad_s)
+        {
+            loss_speeds.push(e.at.speed_rad_s);
+        }
         let full = |base: &OperatingCase, known: &CaseResult| -> Vec<(f64, CaseResult)> {
-            corners
+            loss_speeds
                 .iter()
                 .filter_map(|&n| {
                     let case = self.range_case(r, base, n);
@@ -262,6 +287,7 @@ impl Evaluator {
         };
         let corners_nominal = full(&self.rated, known[0]);
         let corners_high_bus = full(&self.high_bus, known[1]);
+        let profile = self.profile_figures(r, &corners_nominal, f_hz, t_dead_s);
         let loss = corners_nominal
             .iter()
             .max_by(|a, b| a.1.losses.total.total_cmp(&b.1.losses.total))
@@ -279,6 +305,7 @@ impl Evaluator {
             loss,
             corners_nominal,
             corners_high_bus,
+            profile,
         }
     }
 
@@ -317,6 +344,42 @@ impl Evaluator {
                 self.at_speed(at.speed_rad_s, |e| e.case(&case, f_hz, t_dead_s))
             })
             .collect()
+    }
+
+    /// The time profile's averages at the nominal supply: each point's case
+    /// (a corner's when already evaluated) weighted by its share.
+    fn profile_figures(
+        &self,
+        r: &OperatingRange,
+        corners: &[(f64, CaseResult)],
+        f_hz: f64,
+        t_dead_s: f64,
+    ) -> Option<ProfileFigures> {
+        if r.profile.is_empty() {
+            return None;
+        }
+        let (mut loss, mut junction) = (0.0, Some(0.0));
+        for &(n, share) in &r.profile {
+            let known = corners
+                .iter()
+                .find(|(m, _)| *m == n)
+                .map(|(_, c)| c.clone());
+            let c = match known {
+                Some(c) => c,
+                None => {
+                    let case = self.range_case(r, &self.rated, n);
+                    self.at_speed(n, |e| e.case(&case, f_hz, t_dead_s))?
+                }
+            };
+            loss += share * c.losses.total;
+            let t = junction_key(&c);
+            junction = junction.filter(|_| t.is_finite()).map(|j| j + share * t);
+        }
+        Some(ProfileFigures {
+            mean_loss_w: loss,
+            mean_junction_c: junction,
+            energy_per_hour_j: loss * 3600.0,
+        })
     }
 
     /// The largest ripple at `base`'s supply: the best scanned speed, then

@@ -40,6 +40,12 @@ pub enum Objective {
     Quietest,
     /// The coolest hottest junction at the rated case.
     CoolestJunction,
+    /// Least loss averaged over the operating range's time profile (the
+    /// rated case's loss without one).
+    LeastAverageLoss,
+    /// Least loss at the operating range's worst point at the nominal
+    /// supply (the rated case's without a range).
+    LeastWorstLoss,
 }
 
 /// How much more loss the `quietest` objective accepts (10 %; our choice).
@@ -1048,6 +1054,16 @@ fn objective_value(obj: Objective, c: &Candidate) -> f64 {
     match obj {
         Objective::LeastLoss | Objective::Quietest => c.rated.losses.total,
         Objective::CoolestJunction => c.rated.junction_c.unwrap_or(f64::INFINITY),
+        Objective::LeastAverageLoss => c
+            .range
+            .as_ref()
+            .and_then(|r| r.profile.as_ref())
+            .map_or(c.rated.losses.total, |p| p.mean_loss_w),
+        Objective::LeastWorstLoss => c
+            .range
+            .as_ref()
+            .and_then(|r| r.loss)
+            .map_or(c.rated.losses.total, |e| e.value.max(c.rated.losses.total)),
     }
 }
 

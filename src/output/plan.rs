@@ -776,6 +776,8 @@ fn objective_name(o: Objective) -> &'static str {
         Objective::LeastLoss => "least-loss",
         Objective::Quietest => "quietest",
         Objective::CoolestJunction => "coolest-junction",
+        Objective::LeastAverageLoss => "least-average-loss",
+        Objective::LeastWorstLoss => "least-worst-loss",
     }
 }
 

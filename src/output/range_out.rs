@@ -43,6 +43,18 @@ pub struct RangeOut {
     /// Speeds scanned per supply before the ripple maximum is refined.
     pub speeds_scanned: usize,
     pub worst: Vec<RangeWorstOut>,
+    /// The time profile's averages at the nominal supply, where given.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub profile: Option<ProfileOut>,
+}
+
+/// The time profile's averages.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct ProfileOut {
+    pub points: usize,
+    pub mean_loss_w: f64,
+    /// `None` where a point of the profile runs away.
+    pub mean_junction_c: Option<f64>,
 }
 
 fn rpm(n_rad_s: f64) -> f64 {
@@ -90,6 +102,11 @@ pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
         load: format!("{}{hold}", load_name(&range.load)),
         speeds_scanned: r.speeds_scanned,
         worst: worst_points(range, r),
+        profile: r.profile.as_ref().map(|p| ProfileOut {
+            points: range.profile.len(),
+            mean_loss_w: p.mean_loss_w,
+            mean_junction_c: p.mean_junction_c,
+        }),
     })
 }
 
@@ -227,6 +244,20 @@ pub fn range_rows(r: Option<&RangeOut>) -> Vec<Row> {
         rows.push(Row {
             label: w.name.clone(),
             value,
+        });
+    }
+    if let Some(p) = &r.profile {
+        let t = p.mean_junction_c.map_or_else(
+            || "runaway at a point".to_string(),
+            |t| format_quantity(t, Dimension::Temperature, 3),
+        );
+        rows.push(Row {
+            label: "time profile".into(),
+            value: format!(
+                "over {} points at the nominal supply: average stage loss {}, average hottest junction {t}",
+                p.points,
+                format_quantity(p.mean_loss_w, Dimension::Power, 3)
+            ),
         });
     }
     rows.push(Row {

@@ -602,6 +602,19 @@ pub struct OperatingRangeSpec {
     /// Holding torque at zero speed, where the drive does.
     #[serde(default)]
     pub standstill: Option<StandstillSpec>,
+    /// Shares of operating time at speeds of the range (for the average
+    /// loss and junction, and the `least-average-loss` objective).
+    #[serde(default)]
+    pub profile: Option<Vec<ProfilePointSpec>>,
+}
+
+/// One point of the time profile: a speed of the range (0 for standstill
+/// holding) and its share of the operating time.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProfilePointSpec {
+    pub speed: Q<RadPerSecond>,
+    pub share: Q<Ratio>,
 }
 
 /// The drive holding its load at zero speed.
@@ -828,6 +841,10 @@ pub enum ObjectiveSpec {
     Quietest,
     /// Largest thermal margin.
     CoolestJunction,
+    /// Least loss averaged over the operating range's time profile.
+    LeastAverageLoss,
+    /// Least loss at the operating range's worst point.
+    LeastWorstLoss,
 }
 
 #[derive(Debug, Clone, Deserialize)]

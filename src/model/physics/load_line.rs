@@ -81,6 +81,9 @@ pub struct OperatingRange {
     /// The current held at standstill, where the drive holds its load at
     /// zero speed.
     pub hold_current_a: Option<f64>,
+    /// (speed rad/s, share of the operating time) points, shares summing
+    /// to 1; empty without a profile.
+    pub profile: Vec<(f64, f64)>,
 }
 
 /// Intervals of the even scan over the range (our choice: with the ends,
@@ -212,6 +215,7 @@ mod tests {
     fn the_scan_holds_the_ends_the_rated_speed_and_the_knots() {
         let r = OperatingRange {
             hold_current_a: None,
+            profile: Vec::new(),
             speed_min_rad_s: 100.0,
             speed_max_rad_s: 300.0,
             rated_speed_rad_s: 210.0,

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:bc21c91ced6e25bef8e3d0b090cc6700ab1f0d0dc990dbcbd72dc2d2825cdd9b)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:a76018ab5edb995f5b40e10f4b5623533ee647a711913e46aaf3ee540437df1f)
  *
  * Chosen setting
  *   design         vent-fan
@@ -14,8 +14,8 @@
  *   feasible band  13.605 kHz to 25.000 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
- *   junction-rated         110 °C     48.3 °C     61.7 K  ok
- *   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
+ *   junction-rated         110 °C     50.7 °C     59.3 K  ok
+ *   junction-high-bus      110 °C     51.3 °C     58.7 K  ok
  *   ripple                 600 mA      600 mA    76.9 µA  binds
  *   audible               0 lines     0 lines    0 lines  ok
  *   resolution          8.00 bits  11.66 bits  3.66 bits  ok
@@ -27,8 +27,8 @@
  *   largest ripple (peak to peak)         600 mA at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
  *   lowest compare duty                   0.2274 at 1500 rpm (153 mA, supply 13.2 V)
  *   highest compare duty                  0.9907 at 4200 rpm (1.20 A, supply 10.8 V)
- *   largest stage loss (nominal supply)   105 mW at 4200 rpm (1.20 A, supply 12.0 V, duty 0.896)
- *   hottest junction                      50.7 °C at 4200 rpm (1.20 A, supply 13.2 V, duty 0.818)
+ *   largest stage loss (nominal supply)   183 mW at 2694 rpm (494 mA, supply 12.0 V, duty 0.548)
+ *   hottest junction                      51.3 °C at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
  *   hottest junction at the lowest speed  47.7 °C at 1500 rpm (153 mA, supply 13.2 V, duty 0.227)
  *   loudest audible                       line at 13.6 kHz, -20.3 dB(A) re 1 A at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
  *   at the rated speed only               the worst-case corners, `spread` and the current limit

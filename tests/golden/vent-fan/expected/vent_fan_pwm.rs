@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:9d9f2538b80de00e28c58292fb810fc9501ef2cfd1300e37fe221269ff6405cc)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:96f3d6dc9d05cb9496469e9acbb3400b94941d4e112c4f518f1f33ad5f1f09f2)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -13,8 +13,8 @@
 //!   feasible band  13.605 kHz to 25.000 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         110 °C     48.3 °C     61.7 K  ok
-//!   junction-high-bus      110 °C     50.7 °C     59.3 K  ok
+//!   junction-rated         110 °C     50.7 °C     59.3 K  ok
+//!   junction-high-bus      110 °C     51.3 °C     58.7 K  ok
 //!   ripple                 600 mA      600 mA    76.9 µA  binds
 //!   audible               0 lines     0 lines    0 lines  ok
 //!   resolution          8.00 bits  11.66 bits  3.66 bits  ok
@@ -26,8 +26,8 @@
 //!   largest ripple (peak to peak)         600 mA at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
 //!   lowest compare duty                   0.2274 at 1500 rpm (153 mA, supply 13.2 V)
 //!   highest compare duty                  0.9907 at 4200 rpm (1.20 A, supply 10.8 V)
-//!   largest stage loss (nominal supply)   105 mW at 4200 rpm (1.20 A, supply 12.0 V, duty 0.896)
-//!   hottest junction                      50.7 °C at 4200 rpm (1.20 A, supply 13.2 V, duty 0.818)
+//!   largest stage loss (nominal supply)   183 mW at 2694 rpm (494 mA, supply 12.0 V, duty 0.548)
+//!   hottest junction                      51.3 °C at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
 //!   hottest junction at the lowest speed  47.7 °C at 1500 rpm (153 mA, supply 13.2 V, duty 0.227)
 //!   loudest audible                       line at 13.6 kHz, -20.3 dB(A) re 1 A at 2694 rpm (494 mA, supply 13.2 V, duty 0.500)
 //!   at the rated speed only               the worst-case corners, `spread` and the current limit
