@@ -515,3 +515,84 @@ fn least_average_loss_matches_a_brute_force() {
         reported.mean_loss_w
     );
 }
+
+/// Six-step low-side chopping holds a high side on for two sectors (a third
+/// of the electrical period) with no refresh: at the range's slowest speed
+/// the bootstrap droops I·t/C plus the gate charge (charge balance by hand:
+/// 200 µA for 1/(3·20 Hz) from 1 µF is 3.33 V); a warning above 10 % of the
+/// drive, an error when the gate would fall below the plateau or the drive
+/// holds at standstill, and nothing with complementary chopping.
+#[test]
+fn six_step_bootstrap_hold_up() {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
+    std::fs::copy(
+        boards.join("switches/corrie-100.yaml"),
+        tmp.path().join("switches/corrie-100.yaml"),
+    )
+    .expect("copy switch");
+    let board = std::fs::read_to_string(boards.join("osprey-3p48.yaml")).expect("board");
+    let design = std::fs::read_to_string(boards.join("pump-bldc.yaml")).expect("design");
+    let finding = |chop: &str, range: &str| {
+        let b = board.replace(
+            "sinusoidal: { zero_sequence: min-max }",
+            &format!("six-step: {{ chop: {chop} }}"),
+        );
+        std::fs::write(tmp.path().join("osprey-3p48.yaml"), b).expect("write board");
+        let path = tmp.path().join("design.yaml");
+        std::fs::write(&path, with_range(&design, range)).expect("write design");
+        let d = load_design(Origin::Disk(path)).unwrap_or_else(|e| panic!("{e}"));
+        let ev = Evaluator::new(&d);
+        let sol = solve::solve(&ev, objective_of(&d));
+        let p = plan::build(&d, &ev, &sol, None).expect("a plan");
+        let f = p
+            .findings
+            .into_iter()
+            .find(|f| f.code == "bootstrap-hold-up");
+        (f, p.feasible)
+    };
+    // 300 rpm, 4 pole pairs: 20 Hz, a high side held 16.7 ms.
+    let (f, _) = finding(
+        "low-side",
+        "{ speed: { min: \"300 rpm\", max: \"3000 rpm\" } }",
+    );
+    let f = f.expect("a hold-up finding at 300 rpm");
+    assert_eq!(f.severity, "warning", "{}", f.message);
+    assert!(f.message.contains("16.7 ms"), "{}", f.message);
+    let droop: f64 = f
+        .message
+        .split("droops ")
+        .nth(1)
+        .and_then(|t| t.split(' ').next())
+        .and_then(|t| t.parse().ok())
+        .expect("the droop in volts");
+    let by_hand = 200e-6 / (3.0 * 20.0) / 1e-6;
+    assert!(
+        droop >= by_hand - 0.01 && droop <= by_hand + 0.2,
+        "droop {droop} V against I·t/C {by_hand} V plus the gate charge"
+    );
+    // 30 rpm: 167 ms, 33 V: the gate cannot stay above its plateau.
+    let (f, feasible) = finding(
+        "low-side",
+        "{ speed: { min: \"30 rpm\", max: \"3000 rpm\" } }",
+    );
+    assert_eq!(f.expect("a hold-up finding at 30 rpm").severity, "error");
+    assert!(!feasible, "an error finding stops the plan");
+    let (f, _) = finding(
+        "low-side",
+        "{ speed: { min: \"1500 rpm\", max: \"3000 rpm\" }, standstill: { current: \"5 A\" } }",
+    );
+    assert_eq!(
+        f.expect("a hold-up finding at standstill").severity,
+        "error"
+    );
+    let (f, _) = finding(
+        "complementary",
+        "{ speed: { min: \"30 rpm\", max: \"3000 rpm\" } }",
+    );
+    assert!(
+        f.is_none(),
+        "complementary chopping refreshes every period: {f:?}"
+    );
+}

@@ -819,6 +819,7 @@ fn findings(
         out.push(dead_time_finding(ev, c));
     }
     out.extend(bootstrap_finding(d, ev, c));
+    out.extend(bootstrap_hold_up_finding(d, ev));
     out.extend(dead_time_harmonics_finding(c));
     if matches!(ev.stage.topology, Topology::LowSide)
         && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
@@ -962,6 +963,87 @@ fn bootstrap_finding(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Findin
             format_quantity(s.c_recommended_f, Dimension::Capacitance, 3)
         ),
     ))
+}
+
+/// The longest a six-step high side stays on without a refresh: with
+/// low-side chopping it conducts for two sectors (120° of the electrical
+/// period, block commutation, common practice) while its own low side is
+/// off, so its bootstrap capacitor is not recharged; at the range's lowest
+/// speed (the rated speed without a range), forever when the drive holds at
+/// standstill. `None` where every period refreshes it.
+fn six_step_hold_s(ev: &Evaluator) -> Option<f64> {
+    use crate::model::evaluate::ThreePhaseModulation as M;
+    use crate::model::physics::three_phase::Chop;
+    let tp = ev.three_phase.as_ref()?;
+    if !matches!(
+        tp.modulation,
+        M::SixStep {
+            chop: Chop::LowSide
+        }
+    ) {
+        return None;
+    }
+    let slowest = match &ev.range {
+        Some(r) if r.hold_current_a.is_some() => 0.0,
+        Some(r) => r.speed_min_rad_s,
+        None => tp.omega_e_rad_s / f64::from(tp.pole_pairs),
+    };
+    let f_e = slowest * f64::from(tp.pole_pairs) / (2.0 * std::f64::consts::PI);
+    Some(if f_e > 0.0 {
+        1.0 / (3.0 * f_e)
+    } else {
+        f64::INFINITY
+    })
+}
+
+/// Six-step low-side chopping at the slowest speed holds a high side on for
+/// a third of the electrical period: its bootstrap droops by (Q_g + I·t)/C.
+/// An error when the gate would fall below the Miller plateau (the switch
+/// leaves full conduction and heats in its linear region), a warning above
+/// 10 % of the drive voltage, each with the capacitor it needs.
+fn bootstrap_hold_up_finding(d: &Design, ev: &Evaluator) -> Option<FindingOut> {
+    let Some(HighSideSupplySpec::Bootstrap {
+        capacitor,
+        load_current,
+        ..
+    }) = &d.board.gate_driver.high_side
+    else {
+        return None;
+    };
+    let t_hold = six_step_hold_s(ev)?;
+    let v_drv = ev.stage.drive.v_drive_v;
+    let h = bootstrap::hold_up(
+        &ev.stage.switch,
+        &ev.stage.drive,
+        ev.rated.load_current_a,
+        load_current.si,
+        t_hold,
+        capacitor.si,
+    );
+    let (droop, plateau) = (h.droop_v, h.plateau_v);
+    if droop <= 0.1 * v_drv {
+        return None;
+    }
+    let what = if t_hold.is_infinite() {
+        "holding at standstill with low-side chopping keeps a high side on with no refresh at all: a bootstrap supply cannot hold it; use an isolated high-side supply or complementary chopping".to_string()
+    } else {
+        let need = h.capacitor_needed_f;
+        format!(
+            "six-step low-side chopping holds a high side on for {} at the slowest speed with no refresh: the bootstrap capacitor {} droops {} (Q_g and {} drawn), more than 10 % of the {} drive; it needs {} or more, or complementary chopping",
+            format_quantity(t_hold, Dimension::Time, 3),
+            format_quantity(capacitor.si, Dimension::Capacitance, 3),
+            format_quantity(droop, Dimension::Voltage, 3),
+            format_quantity(load_current.si, Dimension::Current, 3),
+            format_quantity(v_drv, Dimension::Voltage, 3),
+            format_quantity(need, Dimension::Capacitance, 3),
+        )
+    };
+    let severity = if t_hold.is_infinite() || v_drv - droop < plateau {
+        "error"
+    } else {
+        "warning"
+    };
+    Some(finding(severity, "bootstrap-hold-up", what))
 }
 
 /// The PWM record of a candidate (`v_err`: the dead-time voltage error).

@@ -43,6 +43,12 @@ pub struct RangeOut {
     /// Speeds scanned per supply before the ripple maximum is refined.
     pub speeds_scanned: usize,
     pub worst: Vec<RangeWorstOut>,
+    /// A three-phase bridge's modulation index and power factor over the
+    /// judged speeds at the nominal supply, [lowest, highest] (sinusoidal).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub modulation_index: Option<[f64; 2]>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub power_factor: Option<[f64; 2]>,
     /// The time profile's averages at the nominal supply, where given.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub profile: Option<ProfileOut>,
@@ -102,6 +108,8 @@ pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
         load: format!("{}{hold}", load_name(&range.load)),
         speeds_scanned: r.speeds_scanned,
         worst: worst_points(range, r),
+        modulation_index: span(r, |t| t.modulation_index),
+        power_factor: span(r, |t| t.power_factor),
         profile: r.profile.as_ref().map(|p| ProfileOut {
             points: range.profile.len(),
             mean_loss_w: p.mean_loss_w,
@@ -193,6 +201,22 @@ fn worst_points(range: &OperatingRange, r: &RangeResult) -> Vec<RangeWorstOut> {
     out
 }
 
+/// The lowest and highest of a three-phase figure over the nominal-supply
+/// cases of the range.
+fn span(
+    r: &RangeResult,
+    figure: impl Fn(&crate::model::evaluate::ThreePhaseCase) -> Option<f64>,
+) -> Option<[f64; 2]> {
+    let values: Vec<f64> = r
+        .corners_nominal
+        .iter()
+        .filter_map(|(_, c)| c.three_phase.as_ref().and_then(&figure))
+        .collect();
+    let lo = values.iter().copied().reduce(f64::min)?;
+    let hi = values.iter().copied().reduce(f64::max)?;
+    Some([lo, hi])
+}
+
 /// The hottest junction of `case` at speed `n` as a worst-point row.
 fn junction_row(name: &str, n: f64, case: &CaseResult) -> RangeWorstOut {
     let t = junction_key(case);
@@ -244,6 +268,15 @@ pub fn range_rows(r: Option<&RangeOut>) -> Vec<Row> {
         rows.push(Row {
             label: w.name.clone(),
             value,
+        });
+    }
+    if let (Some(m), Some(pf)) = (r.modulation_index, r.power_factor) {
+        rows.push(Row {
+            label: "modulation over the range".into(),
+            value: format!(
+                "index {:.3} to {:.3}, power factor {:.3} to {:.3} (nominal supply)",
+                m[0], m[1], pf[0], pf[1]
+            ),
         });
     }
     if let Some(p) = &r.profile {
