@@ -347,6 +347,19 @@ fn range_ripple_matches_a_dense_scan() {
     );
 }
 
+/// The bundled folder, and a temporary one holding the pump board's switch.
+fn folder_with_the_pumps_switch() -> (std::path::PathBuf, tempfile::TempDir) {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let tmp = tempfile::tempdir().expect("temporary folder");
+    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
+    std::fs::copy(
+        boards.join("switches/corrie-100.yaml"),
+        tmp.path().join("switches/corrie-100.yaml"),
+    )
+    .expect("copy switch");
+    (boards, tmp)
+}
+
 /// A sinusoidal bridge holding at standstill carries the peak current as DC
 /// in one leg: its hottest junction must be that of a half-bridge leg (the
 /// single-phase model, a separate code path: the exact PWM-period waveform
@@ -356,14 +369,7 @@ fn range_ripple_matches_a_dense_scan() {
 /// before) is well below it.
 #[test]
 fn standstill_junction_is_a_dc_leg() {
-    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
-    let tmp = tempfile::tempdir().expect("temporary folder");
-    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
-    std::fs::copy(
-        boards.join("switches/corrie-100.yaml"),
-        tmp.path().join("switches/corrie-100.yaml"),
-    )
-    .expect("copy switch");
+    let (boards, tmp) = folder_with_the_pumps_switch();
     let three = std::fs::read_to_string(boards.join("osprey-3p48.yaml")).expect("board");
     // zero_sequence none: the leg duty at the current's peak is the highest
     // leg duty the case reports, 0.5·(1 + m), at standstill (φ = 0).
@@ -524,14 +530,7 @@ fn least_average_loss_matches_a_brute_force() {
 /// holds at standstill, and nothing with complementary chopping.
 #[test]
 fn six_step_bootstrap_hold_up() {
-    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
-    let tmp = tempfile::tempdir().expect("temporary folder");
-    std::fs::create_dir_all(tmp.path().join("switches")).expect("switches folder");
-    std::fs::copy(
-        boards.join("switches/corrie-100.yaml"),
-        tmp.path().join("switches/corrie-100.yaml"),
-    )
-    .expect("copy switch");
+    let (boards, tmp) = folder_with_the_pumps_switch();
     let board = std::fs::read_to_string(boards.join("osprey-3p48.yaml")).expect("board");
     let design = std::fs::read_to_string(boards.join("pump-bldc.yaml")).expect("design");
     let finding = |chop: &str, range: &str| {

@@ -934,32 +934,38 @@ fn dead_time_finding(ev: &Evaluator, c: &Candidate) -> FindingOut {
     )
 }
 
+/// The board's bootstrap capacitor and draw, when its high side is
+/// bootstrapped.
+fn bootstrap_parts(d: &Design) -> Option<(f64, f64)> {
+    match &d.board.gate_driver.high_side {
+        Some(HighSideSupplySpec::Bootstrap {
+            capacitor,
+            load_current,
+            ..
+        }) => Some((capacitor.si, load_current.si)),
+        _ => None,
+    }
+}
+
 /// A warning when a bootstrap capacitor is below the size needed for 10 %
 /// droop at the chosen frequency and duty; none otherwise.
 fn bootstrap_finding(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<FindingOut> {
-    let Some(HighSideSupplySpec::Bootstrap {
-        capacitor,
-        load_current,
-        ..
-    }) = &d.board.gate_driver.high_side
-    else {
-        return None;
-    };
+    let (capacitor, load_current) = bootstrap_parts(d)?;
     let sizing = bootstrap::bootstrap_sizing(&BootstrapInputs::for_switch(
         &ev.stage.switch,
         &ev.stage.drive,
         ev.rated.load_current_a,
-        load_current.si,
+        load_current,
         c.duty_needed.1.clamp(0.0, 1.0),
         c.setting.frequency_hz,
     ));
-    let s = sizing.filter(|s| capacitor.si < s.c_recommended_f)?;
+    let s = sizing.filter(|s| capacitor < s.c_recommended_f)?;
     Some(finding(
         "warning",
         "bootstrap-capacitor-small",
         format!(
             "bootstrap capacitor {} is below the {} needed for 10 % droop at this frequency and duty",
-            format_quantity(capacitor.si, Dimension::Capacitance, 3),
+            format_quantity(capacitor, Dimension::Capacitance, 3),
             format_quantity(s.c_recommended_f, Dimension::Capacitance, 3)
         ),
     ))
@@ -1002,23 +1008,16 @@ fn six_step_hold_s(ev: &Evaluator) -> Option<f64> {
 /// leaves full conduction and heats in its linear region), a warning above
 /// 10 % of the drive voltage, each with the capacitor it needs.
 fn bootstrap_hold_up_finding(d: &Design, ev: &Evaluator) -> Option<FindingOut> {
-    let Some(HighSideSupplySpec::Bootstrap {
-        capacitor,
-        load_current,
-        ..
-    }) = &d.board.gate_driver.high_side
-    else {
-        return None;
-    };
+    let (capacitor, load_current) = bootstrap_parts(d)?;
     let t_hold = six_step_hold_s(ev)?;
     let v_drv = ev.stage.drive.v_drive_v;
     let h = bootstrap::hold_up(
         &ev.stage.switch,
         &ev.stage.drive,
         ev.rated.load_current_a,
-        load_current.si,
+        load_current,
         t_hold,
-        capacitor.si,
+        capacitor,
     );
     let (droop, plateau) = (h.droop_v, h.plateau_v);
     if droop <= 0.1 * v_drv {
@@ -1031,9 +1030,9 @@ fn bootstrap_hold_up_finding(d: &Design, ev: &Evaluator) -> Option<FindingOut> {
         format!(
             "six-step low-side chopping holds a high side on for {} at the slowest speed with no refresh: the bootstrap capacitor {} droops {} (Q_g and {} drawn), more than 10 % of the {} drive; it needs {} or more, or complementary chopping",
             format_quantity(t_hold, Dimension::Time, 3),
-            format_quantity(capacitor.si, Dimension::Capacitance, 3),
+            format_quantity(capacitor, Dimension::Capacitance, 3),
             format_quantity(droop, Dimension::Voltage, 3),
-            format_quantity(load_current.si, Dimension::Current, 3),
+            format_quantity(load_current, Dimension::Current, 3),
             format_quantity(v_drv, Dimension::Voltage, 3),
             format_quantity(need, Dimension::Capacitance, 3),
         )
