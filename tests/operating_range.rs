@@ -595,3 +595,53 @@ fn six_step_bootstrap_hold_up() {
         "complementary chopping refreshes every period: {f:?}"
     );
 }
+
+/// The sweep over a range: at the chosen frequency its range ripple is the
+/// value the plan's ripple constraint judged; on every row the range's
+/// worst ripple is at least the rated point's, and the range's loss band
+/// holds the rated loss (the winch's rated speed is the range's top);
+/// without a range, no band.
+#[test]
+fn sweep_shows_the_range() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards/winch.yaml");
+    let d = load_design(Origin::Disk(path)).unwrap_or_else(|e| panic!("{e}"));
+    let ev = Evaluator::new(&d);
+    let sol = solve::solve(&ev, objective_of(&d));
+    let c = sol.chosen.as_ref().expect("a chosen setting");
+    let f = c.setting.frequency_hz;
+    let freqs: Vec<f64> = (0..12).map(|k| 8e3 * 1.15f64.powi(k)).collect();
+    let rows = pwmplan::sweep::sweep(&ev, &freqs, Some(f));
+    let at = rows.iter().find(|r| r.chosen).expect("the chosen row");
+    let ripple = c
+        .checks
+        .iter()
+        .find(|k| k.name == "ripple")
+        .and_then(|k| k.value);
+    let range = at.range.expect("a range on the chosen row");
+    assert_eq!(
+        range.ripple_pp_max_a, ripple,
+        "the sweep's range ripple against the plan's"
+    );
+    for r in &rows {
+        let x = r.range.expect("a range on every row");
+        let worst = x.ripple_pp_max_a.expect("a ripple");
+        assert!(
+            worst >= r.ripple_pp_a * (1.0 - 1e-12),
+            "{} Hz: {worst} < {}",
+            r.frequency_hz,
+            r.ripple_pp_a
+        );
+        let t = r.losses_w.total;
+        assert!(
+            x.loss_min_w <= t * (1.0 + 1e-12) && t <= x.loss_max_w * (1.0 + 1e-12),
+            "{} Hz: {t} W outside [{}, {}]",
+            r.frequency_hz,
+            x.loss_min_w,
+            x.loss_max_w
+        );
+    }
+    let mut single = ev.clone();
+    single.range = None;
+    let plain = pwmplan::sweep::sweep(&single, &freqs, None);
+    assert!(plain.iter().all(|r| r.range.is_none()));
+}

@@ -8,6 +8,7 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use crate::model::evaluate::{Evaluator, LossFigures};
+use crate::model::range::{RangeResult, junction_key};
 use crate::model::solve::{self, Candidate};
 
 /// One row of the sweep.
@@ -36,6 +37,43 @@ pub struct SweepRow {
     pub feasible: bool,
     /// This row's setting is the one the solver chose.
     pub chosen: bool,
+    /// Over the design's operating range (absent without one).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub range: Option<SweepRange>,
+}
+
+/// A sweep row's figures over the operating range.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct SweepRange {
+    /// The largest ripple peak to peak anywhere in the range.
+    pub ripple_pp_max_a: Option<f64>,
+    /// The least and largest stage loss over the judged speeds at the
+    /// nominal supply.
+    pub loss_min_w: f64,
+    pub loss_max_w: f64,
+    /// The hottest junction over the judged speeds; `None` on runaway.
+    pub junction_max_c: Option<f64>,
+}
+
+/// The range figures of a candidate judged over more than one speed.
+fn range_of(c: &Candidate) -> Option<SweepRange> {
+    let r = c.range.as_ref().filter(|r| r.speeds_scanned > 1)?;
+    let losses = r.corners_nominal.iter().map(|(_, k)| k.losses.total);
+    let loss_min_w = losses.clone().fold(f64::INFINITY, f64::min);
+    let loss_max_w = losses.fold(f64::NEG_INFINITY, f64::max);
+    let corners: Vec<_> = r
+        .corners_nominal
+        .iter()
+        .chain(&r.corners_high_bus)
+        .cloned()
+        .collect();
+    let hottest = RangeResult::hottest(&corners).map(|(_, k)| junction_key(k));
+    Some(SweepRange {
+        ripple_pp_max_a: r.ripple.map(|e| e.value),
+        loss_min_w,
+        loss_max_w,
+        junction_max_c: hottest.filter(|t| t.is_finite()),
+    })
 }
 
 /// Log-spaced frequencies from `from` to `to`, `points` of them (≥ 2).
@@ -79,6 +117,7 @@ pub fn row(requested_hz: f64, c: &Candidate, chosen_hz: Option<f64>) -> SweepRow
             .collect(),
         feasible: c.feasible,
         chosen: chosen_hz == Some(c.setting.frequency_hz),
+        range: range_of(c),
     }
 }
 

@@ -580,13 +580,13 @@ fn short_constraint(name: &str) -> &str {
 /// The sweep as CSV: one header line, SI units in the column names.
 pub fn sweep_csv(rows: &[crate::model::sweep::SweepRow]) -> String {
     let mut out = String::from(
-        "requested_hz,frequency_hz,alignment,divider,period_ticks,resolution_bits,conduction_w,switching_w,output_capacitance_w,reverse_recovery_w,dead_time_diode_w,gate_drive_w,freewheel_diode_w,motor_ripple_copper_w,total_w,junction_c,junction_high_bus_c,ripple_pp_a,lowest_audible_line_hz,a_weighted_db,feasible,chosen,failing\n",
+        "requested_hz,frequency_hz,alignment,divider,period_ticks,resolution_bits,conduction_w,switching_w,output_capacitance_w,reverse_recovery_w,dead_time_diode_w,gate_drive_w,freewheel_diode_w,motor_ripple_copper_w,total_w,junction_c,junction_high_bus_c,ripple_pp_a,lowest_audible_line_hz,a_weighted_db,feasible,chosen,failing,range_ripple_pp_max_a,range_loss_min_w,range_loss_max_w,range_junction_max_c\n",
     );
     let opt = |v: Option<f64>| v.map(|v| format!("{v}")).unwrap_or_default();
     for r in rows {
         let l = &r.losses_w;
         out.push_str(&format!(
-            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}\n",
+            "{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{},{}\n",
             r.requested_hz,
             r.frequency_hz,
             r.alignment,
@@ -609,7 +609,11 @@ pub fn sweep_csv(rows: &[crate::model::sweep::SweepRow]) -> String {
             opt(r.a_weighted_db),
             r.feasible,
             r.chosen,
-            r.failing.join(";")
+            r.failing.join(";"),
+            opt(r.range.and_then(|x| x.ripple_pp_max_a)),
+            opt(r.range.map(|x| x.loss_min_w)),
+            opt(r.range.map(|x| x.loss_max_w)),
+            opt(r.range.and_then(|x| x.junction_max_c)),
         ));
     }
     out

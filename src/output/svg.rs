@@ -760,6 +760,7 @@ pub fn loss_plot_svg(
     y_grid(&mut out, &ay, fr, factor, &format!("Power loss ({unit})"));
     stacked_areas(&mut out, &rows, &comps, &ax, &ay);
     total_line(&mut out, &rows, &ax, &ay);
+    let range_drawn = range_band(&mut out, &rows, &ax, &ay);
 
     let runs = infeasible_runs(&rows, &ax, band_hz);
     shade_infeasible(&mut out, &runs, &ax, fr, Some(fr.top + 18.0));
@@ -774,7 +775,14 @@ pub fn loss_plot_svg(
     }
     frame_border(&mut out, fr);
     x_title(&mut out, fr);
-    let entries = loss_legend_entries(&comps, chosen_drawn, !runs.is_empty(), !band.is_empty());
+    let mut entries = loss_legend_entries(&comps, chosen_drawn, !runs.is_empty(), !band.is_empty());
+    if range_drawn {
+        let outline = Swatch::Line {
+            colour: INK,
+            dash: Some("2 2"),
+        };
+        entries.insert(1, (outline, "range: least to most".into()));
+    }
     legend(&mut out, fr.right + 22.0, fr.top + 12.0, &entries);
     out.push_str("</svg>\n");
     out
@@ -787,10 +795,41 @@ fn stack_max(rows: &[&SweepRow], comps: &[&Component]) -> f64 {
         .iter()
         .map(|r| {
             let stacked: f64 = comps.iter().map(|c| (c.get)(&r.losses_w).max(0.0)).sum();
-            stacked.max(r.losses_w.total)
+            let over_range = r.range.map_or(0.0, |x| x.loss_max_w);
+            stacked.max(r.losses_w.total).max(over_range)
         })
         .collect();
     tops.iter().copied().fold(0.0, f64::max)
+}
+
+/// The band between the least and the largest loss over the operating
+/// range (rows judged over one), outlined; whether one was drawn.
+fn range_band(out: &mut String, rows: &[&SweepRow], ax: &LogAxis, ay: &LinAxis) -> bool {
+    let spans: Vec<(f64, f64, f64)> = rows
+        .iter()
+        .filter_map(|r| {
+            r.range
+                .map(|x| (r.frequency_hz, x.loss_min_w, x.loss_max_w))
+        })
+        .filter(|(_, lo, hi)| lo.is_finite() && hi.is_finite())
+        .collect();
+    if spans.len() < 2 {
+        return false;
+    }
+    let upper = spans
+        .iter()
+        .map(|(f, _, hi)| format!("{},{}", n(ax.x(*f)), n(ay.y(*hi))));
+    let lower = spans
+        .iter()
+        .rev()
+        .map(|(f, lo, _)| format!("{},{}", n(ax.x(*f)), n(ay.y(*lo))));
+    let points: Vec<String> = upper.chain(lower).collect();
+    let _ = writeln!(
+        out,
+        r#"<polygon class="loss-range" points="{}" fill="{INK}" fill-opacity="0.12" stroke="{INK}" stroke-width="0.8" stroke-dasharray="2 2"/>"#,
+        points.join(" ")
+    );
+    true
 }
 
 /// The total loss as one line over the stacked areas.
@@ -1023,6 +1062,10 @@ pub fn thermal_ripple_plot_svg(
     temps.push(t_j_limit_c);
     let at = LinAxis::spanning(&temps, false, top_fr.bottom, top_fr.top);
     let mut ripples: Vec<f64> = rows.iter().map(|r| r.ripple_pp_a).collect();
+    ripples.extend(
+        rows.iter()
+            .filter_map(|r| r.range.and_then(|x| x.ripple_pp_max_a)),
+    );
     ripples.extend(ripple_limit_a);
     let ar = LinAxis::spanning(&ripples, true, low_fr.bottom, low_fr.top);
     let runs = infeasible_runs(&rows, &ax, None);
@@ -1180,6 +1223,11 @@ fn ripple_panel(
     y_grid(out, ar, low_fr, rf, &format!("Ripple, peak to peak ({ru})"));
     let rip = segments(rows, ax, ar, |r| Some(r.ripple_pp_a));
     series(out, "ripple", RIPPLE, None, &rip);
+    let over_range = segments(rows, ax, ar, |r| r.range.and_then(|x| x.ripple_pp_max_a));
+    let range_drawn = !over_range.is_empty();
+    if range_drawn {
+        series(out, "ripple-range", RIPPLE, Some("3 3"), &over_range);
+    }
     shade_infeasible(out, &p.runs, ax, low_fr, None);
     if let Some(lim) = ripple_limit_a {
         limit_line(
@@ -1204,14 +1252,18 @@ fn ripple_panel(
     }
     frame_border(out, low_fr);
     x_title(out, low_fr);
-    let entries = ripple_legend_entries(ripple_limit_a.is_some(), dot);
+    let entries = ripple_legend_entries(ripple_limit_a.is_some(), dot, range_drawn);
     legend(out, low_fr.right + 22.0, low_fr.top + 12.0, &entries);
     let _ = writeln!(out, "</g>");
 }
 
 /// The ripple panel's legend: the ripple, then the limit and the chosen
 /// dot when drawn.
-fn ripple_legend_entries(limit_drawn: bool, dot: bool) -> Vec<(Swatch<'static>, String)> {
+fn ripple_legend_entries(
+    limit_drawn: bool,
+    dot: bool,
+    range_drawn: bool,
+) -> Vec<(Swatch<'static>, String)> {
     let mut entries = vec![(
         Swatch::Line {
             colour: RIPPLE,
@@ -1219,6 +1271,15 @@ fn ripple_legend_entries(limit_drawn: bool, dot: bool) -> Vec<(Swatch<'static>, 
         },
         "worst of both supplies".to_string(),
     )];
+    if range_drawn {
+        entries.push((
+            Swatch::Line {
+                colour: RIPPLE,
+                dash: Some("3 3"),
+            },
+            "worst over the range".into(),
+        ));
+    }
     if limit_drawn {
         entries.push((
             Swatch::Line {
