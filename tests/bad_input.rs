@@ -3692,7 +3692,7 @@ fn operating_range_standstill_current_beyond_the_supply() {
             r#"standstill: { current: "300 A" }"#,
         )],
         r#"
-error: winch.yaml:27:28: design.operating_range.standstill.current: the motor needs 54.0 V (back-EMF 0.00 V + I·R 54.0 V) at 0.00 rpm and 300 A, more than the lowest supply 40.0 V; expected a speed the supply can reach
+error: winch.yaml:27:28: design.operating_range.standstill.current: the motor needs 54.0 V (back-EMF 0.00 V + I·R 54.0 V) holding 300 A at standstill, more than the lowest supply 40.0 V; expected a held current the supply can reach
  27 |     standstill: { current: "300 A" }   # holding the load with the motor stopped
     |                            ^
 "#,

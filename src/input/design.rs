@@ -1729,7 +1729,9 @@ struct Reach {
 
 impl Reach {
     fn at(&self) -> String {
-        if self.named {
+        if self.named && self.speed_rad_s <= 0.0 {
+            format!("holding {} at standstill", fmt(self.current_a, A))
+        } else if self.named {
             format!(
                 "at {} and {}",
                 fmt(self.speed_rad_s, Dimension::AngularSpeed),
@@ -1772,10 +1774,11 @@ fn reach_within_supply(
     Err(c.fail(
         at.field,
         format!(
-            "{mode}the motor needs {} ({why}) {}, more than the lowest supply {}; expected a speed the supply can reach",
+            "{mode}the motor needs {} ({why}) {}, more than the lowest supply {}; expected {} the supply can reach",
             fmt(v_needed, V),
             at.at(),
-            fmt(v_min, V)
+            fmt(v_min, V),
+            if at.speed_rad_s > 0.0 { "a speed" } else { "a held current" }
         ),
     ))
 }
