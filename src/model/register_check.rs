@@ -660,7 +660,8 @@ pub const PEAK_REL: f64 = 0.05;
 /// Agreement held on the phase-current ripple peak to peak (our own bound).
 pub const RIPPLE_REL: f64 = 0.05;
 
-/// Checks the rated and highest-supply cases of a sinusoidal bridge.
+/// Checks the rated and highest-supply cases of a sinusoidal bridge, and
+/// the operating range's points the plan lists.
 fn check_three_phase_currents(
     v: &RegisterView,
     regs: &TimerRegisters,
@@ -672,7 +673,10 @@ fn check_three_phase_currents(
         100.0 * PEAK_REL,
         100.0 * RIPPLE_REL
     ));
-    for (name, tpc) in [("rated", &t.rated), ("high-bus", &t.high_bus)] {
+    let named = [("rated", &t.rated), ("high-bus", &t.high_bus)]
+        .into_iter()
+        .chain(t.range_cases.iter().map(|r| (r.name.as_str(), &r.case)));
+    for (name, tpc) in named {
         let Some(case) = v.cases.iter().find(|c| c.name == name) else {
             out.not_checked
                 .push(format!("{name} case: not in the plan's case list"));
@@ -765,7 +769,10 @@ fn three_phase_case(
     if regs.alignment != Alignment::Centre {
         return Err("the check needs centre alignment".into());
     }
-    let f_e = t.electrical_frequency_hz;
+    // The case's own electrical speed and back-EMF (a point of the operating
+    // range runs at another speed than the rated one).
+    let f_e = tpc.electrical_frequency_hz;
+    let emf_peak_v = t.k_e_v_s_per_rad * 2.0 * PI * f_e;
     let ratio = 1.0 / (regs.period_s() * f_e);
     if !f_e.is_finite() || f_e <= 0.0 || !PERIODS_PER_CYCLE.contains(&ratio.round()) {
         return Err(format!(
@@ -789,7 +796,7 @@ fn three_phase_case(
     let load = ThreePhaseLoad {
         r_ohm: v.load.r_ohm,
         l_h: v.load.l_h,
-        emf_peak_v: t.back_emf_phase_peak_v,
+        emf_peak_v,
         emf_angle_rad: -lead,
     };
     let switches = BridgeSwitches {

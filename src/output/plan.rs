@@ -138,6 +138,15 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
         current_meaning: current_meaning.into(),
         rated: c.rated.three_phase.clone()?,
         high_bus: c.high_bus.three_phase.clone()?,
+        range_cases: range_cases(ev, c)
+            .into_iter()
+            .filter_map(|k| {
+                Some(NamedThreePhaseCase {
+                    name: k.case.name.into(),
+                    case: k.three_phase?,
+                })
+            })
+            .collect(),
         sampling: c.sampling.map(|w| SamplingPlan {
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: sensing.map(|x| x.sample_time.si).unwrap_or(tp.sample_s),
@@ -393,6 +402,13 @@ fn worst_case_findings(
 }
 
 /// The three-phase block of `plan.json`.
+/// A three-phase case named as in the plan's case list.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct NamedThreePhaseCase {
+    pub name: String,
+    pub case: ThreePhaseCase,
+}
+
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct ThreePhaseOut {
     /// `sinusoidal` or `six-step`.
@@ -414,6 +430,9 @@ pub struct ThreePhaseOut {
     pub current_meaning: String,
     pub rated: ThreePhaseCase,
     pub high_bus: ThreePhaseCase,
+    /// The operating range's points among the plan's cases (same names).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub range_cases: Vec<NamedThreePhaseCase>,
     /// The current-sampling window (null when none fits the period).
     pub sampling: Option<SamplingPlan>,
 }
@@ -1082,15 +1101,21 @@ pub fn timer_out(ev: &Evaluator, c: &Candidate) -> TimerOut {
     }
 }
 
-/// The operating cases of a candidate: rated and high-bus, then over a
-/// range its largest-ripple and lowest-duty points.
-pub fn cases_out(ev: &Evaluator, c: &Candidate) -> Vec<CaseOut> {
-    let over_range = match (ev.range.as_ref(), c.range.as_ref()) {
+/// The operating range's largest-ripple and lowest-duty cases of a
+/// candidate (none without a range of more than one speed).
+fn range_cases(ev: &Evaluator, c: &Candidate) -> Vec<crate::model::evaluate::CaseResult> {
+    match (ev.range.as_ref(), c.range.as_ref()) {
         (Some(r), Some(res)) if !r.is_single_speed() => {
             ev.range_check_cases(r, res, c.setting.frequency_hz, c.dead_time.seconds)
         }
         _ => Vec::new(),
-    };
+    }
+}
+
+/// The operating cases of a candidate: rated and high-bus, then over a
+/// range its largest-ripple and lowest-duty points.
+pub fn cases_out(ev: &Evaluator, c: &Candidate) -> Vec<CaseOut> {
+    let over_range = range_cases(ev, c);
     [&c.rated, &c.high_bus]
         .into_iter()
         .chain(&over_range)
