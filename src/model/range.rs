@@ -96,10 +96,17 @@ pub struct ProfileFigures {
 
 impl RangeResult {
     /// The hottest (a runaway or a missing junction first) of `cases`.
-    pub fn hottest(cases: &[(f64, CaseResult)]) -> Option<&(f64, CaseResult)> {
+    pub fn hottest<'a>(
+        cases: impl IntoIterator<Item = &'a (f64, CaseResult)>,
+    ) -> Option<&'a (f64, CaseResult)> {
         cases
-            .iter()
+            .into_iter()
             .max_by(|a, b| junction_key(&a.1).total_cmp(&junction_key(&b.1)))
+    }
+
+    /// Every whole case judged (speed, case): nominal supply, then highest.
+    pub fn cases(&self) -> impl Iterator<Item = &(f64, CaseResult)> {
+        self.corners_nominal.iter().chain(&self.corners_high_bus)
     }
 }
 

@@ -513,9 +513,11 @@ impl Evaluator {
         let f = s.frequency_hz;
         let rated = self.case(&self.rated, f, dead.seconds)?;
         let high_bus = self.case(&self.high_bus, f, dead.seconds)?;
+        // A range of one speed adds nothing to the rated point: not judged.
         let range = self
             .range
             .as_ref()
+            .filter(|r| !r.is_single_speed())
             .map(|r| self.judge_range(r, f, dead.seconds, [&rated, &high_bus]));
         let m_low_bus = self.highest_modulation(f, range.is_some());
         let d_low_bus = self
@@ -550,9 +552,7 @@ impl Evaluator {
             checks.push(dead_time_check(dead));
         }
         if let Some(v_max) = l.v_ds_peak_max_v {
-            let corners = range
-                .iter()
-                .flat_map(|r| r.corners_nominal.iter().chain(&r.corners_high_bus));
+            let corners = range.iter().flat_map(RangeResult::cases);
             checks.push(turn_off_peak_check(v_max, &rated, &high_bus, corners));
         }
         let unreachable = range.as_ref().and_then(|r| r.unreachable);

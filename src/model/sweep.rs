@@ -57,17 +57,11 @@ pub struct SweepRange {
 
 /// The range figures of a candidate judged over more than one speed.
 fn range_of(c: &Candidate) -> Option<SweepRange> {
-    let r = c.range.as_ref().filter(|r| r.speeds_scanned > 1)?;
+    let r = c.range.as_ref()?;
     let losses = r.corners_nominal.iter().map(|(_, k)| k.losses.total);
     let loss_min_w = losses.clone().fold(f64::INFINITY, f64::min);
     let loss_max_w = losses.fold(f64::NEG_INFINITY, f64::max);
-    let corners: Vec<_> = r
-        .corners_nominal
-        .iter()
-        .chain(&r.corners_high_bus)
-        .cloned()
-        .collect();
-    let hottest = RangeResult::hottest(&corners).map(|(_, k)| junction_key(k));
+    let hottest = RangeResult::hottest(r.cases()).map(|(_, k)| junction_key(k));
     Some(SweepRange {
         ripple_pp_max_a: r.ripple.map(|e| e.value),
         loss_min_w,

@@ -1105,7 +1105,7 @@ pub fn timer_out(ev: &Evaluator, c: &Candidate) -> TimerOut {
 /// candidate (none without a range of more than one speed).
 fn range_cases(ev: &Evaluator, c: &Candidate) -> Vec<crate::model::evaluate::CaseResult> {
     match (ev.range.as_ref(), c.range.as_ref()) {
-        (Some(r), Some(res)) if !r.is_single_speed() => {
+        (Some(r), Some(res)) => {
             ev.range_check_cases(r, res, c.setting.frequency_hz, c.dead_time.seconds)
         }
         _ => Vec::new(),

@@ -88,10 +88,10 @@ fn load_name(l: &LoadLine) -> String {
     }
 }
 
-/// The range block of the chosen candidate `c`; `None` without a range or
-/// when the range is the rated speed alone.
+/// The range block of the chosen candidate `c`; `None` where it was not
+/// judged over a range (none, or the rated speed alone).
 pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
-    let range = ev.range.as_ref().filter(|r| !r.is_single_speed())?;
+    let (range, r) = (ev.range.as_ref()?, c.range.as_ref()?);
     let hold = range
         .hold_current_a
         .map(|i| {
@@ -101,7 +101,6 @@ pub fn range_out(ev: &Evaluator, c: &Candidate) -> Option<RangeOut> {
             )
         })
         .unwrap_or_default();
-    let r = c.range.as_ref()?;
     Some(RangeOut {
         speed_min_rpm: rpm(range.speed_min_rad_s),
         speed_max_rpm: rpm(range.speed_max_rad_s),
@@ -146,19 +145,9 @@ fn worst_points(range: &OperatingRange, r: &RangeResult) -> Vec<RangeWorstOut> {
         let w = format_quantity(e.value, Dimension::Power, 3);
         out.push(worst("largest stage loss (nominal supply)", w, &e.at));
     }
-    let corners: Vec<_> = r
-        .corners_nominal
-        .iter()
-        .chain(&r.corners_high_bus)
-        .cloned()
-        .collect();
     let hottest = |name: &str, at_speed: Option<f64>, out: &mut Vec<RangeWorstOut>| {
-        let here: Vec<_> = corners
-            .iter()
-            .filter(|(n, _)| at_speed.is_none_or(|s| *n == s))
-            .cloned()
-            .collect();
-        if let Some((n, case)) = RangeResult::hottest(&here) {
+        let here = r.cases().filter(|(n, _)| at_speed.is_none_or(|s| *n == s));
+        if let Some((n, case)) = RangeResult::hottest(here) {
             out.push(junction_row(name, *n, case));
         }
     };
