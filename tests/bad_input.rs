@@ -3752,3 +3752,181 @@ error: winch.yaml:21:14: design.objective: least-average-loss averages over oper
 "#,
     );
 }
+
+// ------------------------------------------------------------------ current sampling and loop
+
+/// A phase margin the loop tuning does not offer.
+#[test]
+fn current_loop_phase_margin_out_of_range() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "    phase_margin_deg: 60",
+            "    phase_margin_deg: 95",
+        )],
+        r#"
+error: winch.yaml:29:23: design.current_loop.phase_margin_deg: 95 is out of range; expected 30 to 80 (degrees)
+ 29 |     phase_margin_deg: 95
+    |                       ^
+"#,
+    );
+}
+
+/// A loop rate of zero.
+#[test]
+fn current_loop_rate_zero() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "winch.yaml",
+            "    phase_margin_deg: 60",
+            "    rate: \"0 Hz\"",
+        )],
+        r#"
+error: winch.yaml:29:11: design.current_loop.rate: 0.00 Hz is out of range; expected above 0.00 Hz and at most 1.00 MHz
+ 29 |     rate: "0 Hz"
+    |           ^
+"#,
+    );
+}
+
+/// More fraction bits than a 32-bit gain can hold.
+#[test]
+fn current_loop_fraction_bits_out_of_range() {
+    bad_input(
+        "winch.yaml",
+        &[case("winch.yaml", "fraction_bits: 12", "fraction_bits: 31")],
+        r#"
+error: winch.yaml:30:35: design.current_loop.fixed_point.fraction_bits: 31 is out of range; expected 0 to 30
+ 30 |     fixed_point: { fraction_bits: 31 }
+    |                                   ^
+"#,
+    );
+}
+
+/// Integer gains without the ADC that scales the current.
+#[test]
+fn current_loop_fixed_point_needs_the_adc() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    adc: { bits: 12, full_scale: \"3.3 V\" }\n",
+            "",
+        )],
+        r#"
+error: winch.yaml:30:20: design.current_loop.fixed_point: integer gains scale the current by the ADC and the shunt chain; the board needs `current_sensing.adc` and `overcurrent` (its shunt and amplifier)
+ 30 |     fixed_point: { fraction_bits: 12 }
+    |                    ^
+"#,
+    );
+}
+
+/// A current loop on a board that samples no current.
+#[test]
+fn current_loop_needs_current_sensing() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "  current_sensing:             # the ADC reads the leg shunt's amplifier (the overcurrent block's)\n    settle_time: \"1 us\"\n    sample_time: \"0.5 us\"\n    adc: { bits: 12, full_scale: \"3.3 V\" }\n",
+            "",
+        )],
+        r#"
+error: winch.yaml:29:5: design.current_loop: the board "Heron 48 V H-bridge (invented)" has no `current_sensing`; the loop needs the sampled current (add `current_sensing: { settle_time: ..., sample_time: ..., place: ... }` to the board)
+ 29 |     phase_margin_deg: 60
+    |     ^
+"#,
+    );
+}
+
+/// An ADC wider than any the sensing chain is checked for.
+#[test]
+fn current_sensing_adc_bits_out_of_range() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    adc: { bits: 12, full_scale: \"3.3 V\" }",
+            "    adc: { bits: 30, full_scale: \"3.3 V\" }",
+        )],
+        r#"
+error: heron-hb48.yaml:44:18: board.current_sensing.adc.bits: 30 is out of range; expected 6 to 24
+ 44 |     adc: { bits: 30, full_scale: "3.3 V" }
+    |                  ^
+"#,
+    );
+}
+
+/// One shunt given two places.
+#[test]
+fn current_sensing_place_differs_from_the_overcurrent_shunt() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    sample_time: \"0.5 us\"",
+            "    sample_time: \"0.5 us\"\n    place: phase",
+        )],
+        r#"
+error: heron-hb48.yaml:44:12: board.current_sensing.place: differs from `overcurrent.shunt.place`; one shunt serves both, expected the same place or none here
+ 44 |     place: phase
+    |            ^
+"#,
+    );
+}
+
+/// A brushed board's sensing with no shunt place anywhere.
+#[test]
+fn current_sensing_place_missing() {
+    bad_input(
+        "belt-feeder.yaml",
+        &[case(
+            "wren-hb24.yaml",
+            "  thermal:",
+            "  current_sensing: { settle_time: \"1 us\", sample_time: \"0.5 us\" }\n  thermal:",
+        )],
+        r#"
+error: wren-hb24.yaml:33:22: board.current_sensing.place: missing; expected where the shunt sits: `supply-return`, `leg` or `phase` (or the board's `overcurrent.shunt.place`)
+ 33 |   current_sensing: { settle_time: "1 us", sample_time: "0.5 us" }
+    |                      ^
+"#,
+    );
+}
+
+/// A three-phase bridge's sensing placed off its legs.
+#[test]
+fn three_phase_sensing_place_not_leg() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "sample_time: \"0.8 us\" }",
+            "sample_time: \"0.8 us\", place: phase }",
+        )],
+        r#"
+error: osprey-3p48.yaml:32:75: board.current_sensing.place: a three-phase bridge's current sensing reads low-side shunts in its legs; expected `leg` or no place
+ 32 |   current_sensing: { settle_time: "1.5 us", sample_time: "0.8 us", place: phase }
+    |                                                                           ^
+"#,
+    );
+}
+
+/// An update divider of zero.
+#[test]
+fn update_divider_zero() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    fpu: true\n",
+            "    fpu: true\n    update_divider: { max: 0 }\n",
+        )],
+        r#"
+error: heron-hb48.yaml:14:28: board.timer.update_divider.max: 0 is out of range; expected 1 to 65536
+ 14 |     update_divider: { max: 0 }
+    |                            ^
+"#,
+    );
+}

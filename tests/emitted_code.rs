@@ -42,6 +42,91 @@ use common::{CASES, Case, describe, generate, stem};
 /// The compare value `compare_from_q16` must give for 100 % and above.
 const Q16_ONE: u64 = 65536;
 
+/// A current loop's SI figures and scalings from `plan.json` (`current_loop`, `sampling`).
+#[derive(Clone, Copy)]
+struct LoopFacts {
+    kp_v_per_a: f64,
+    ki_v_per_a_s: f64,
+    period_s: f64,
+    counts_per_volt: f64,
+    amps_per_code: f64,
+    zero_code: f64,
+    sign: f64,
+    zero_compare: f64,
+    lo: f64,
+    hi: f64,
+}
+
+impl LoopFacts {
+    fn read(json: &serde_json::Value) -> Option<LoopFacts> {
+        let cl = json.get("current_loop")?;
+        let fp = cl.get("fixed_point")?;
+        let sm = json.get("sampling")?;
+        let f = |v: &serde_json::Value, k: &str| v[k].as_f64().unwrap_or_else(|| panic!("{k}"));
+        let steps = f(&json["timer"], "duty_steps");
+        Some(LoopFacts {
+            kp_v_per_a: f(cl, "kp_v_per_a"),
+            ki_v_per_a_s: f(cl, "ki_v_per_a_s"),
+            period_s: f(cl, "update_divider") / f(cl, "pwm_rate_hz"),
+            counts_per_volt: f(cl, "counts_per_volt"),
+            amps_per_code: f(fp, "amps_per_code"),
+            zero_code: f(fp, "zero_code"),
+            sign: f(sm, "sign"),
+            zero_compare: (f(cl, "zero_volt_duty") * steps).round(),
+            lo: f(&json["pwm"], "compare_min").max(f(sm, "compare_min")),
+            hi: f(&json["pwm"], "compare_max").min(f(sm, "compare_max")),
+        })
+    }
+
+    /// The compares the loop must write for `(reference code, ADC code)` steps, worked in
+    /// SI units from the plan's figures (the helper's update law: the integral includes the
+    /// present error and holds while the output is clamped).
+    fn expected(&self, steps: &[(i64, i64)]) -> Vec<f64> {
+        let mut integral_v = 0.0;
+        steps
+            .iter()
+            .map(|&(r, adc)| {
+                let e_a =
+                    (r as f64 - self.sign * (adc as f64 - self.zero_code)) * self.amps_per_code;
+                let next = integral_v + self.ki_v_per_a_s * self.period_s * e_a;
+                let counts =
+                    self.zero_compare + (self.kp_v_per_a * e_a + next) * self.counts_per_volt;
+                if counts > self.hi {
+                    if e_a <= 0.0 {
+                        integral_v = next;
+                    }
+                    self.hi
+                } else if counts < self.lo {
+                    if e_a >= 0.0 {
+                        integral_v = next;
+                    }
+                    self.lo
+                } else {
+                    integral_v = next;
+                    counts
+                }
+            })
+            .collect()
+    }
+}
+
+/// ADC codes through the loop: a reference step followed in, then a reference far beyond
+/// the output's reach (the output clamps, the integral holds) and back.
+const LOOP_STEPS: [(i64, i64); 12] = [
+    (300, 0),
+    (300, 60),
+    (300, 150),
+    (300, 240),
+    (300, 290),
+    (300, 310),
+    (300, 300),
+    (4000, 300),
+    (4000, 300),
+    (4000, 320),
+    (300, 320),
+    (300, 300),
+];
+
 /// The numbers of one plan, read from its `plan.json`.
 struct Facts {
     stem: String,
@@ -61,6 +146,8 @@ struct Facts {
     /// Three-phase: (ADC trigger compare, sampling compare max) from
     /// `plan.json` `three_phase.sampling`.
     three_phase: Option<(u64, u64)>,
+    /// A brushed current loop with integer gains, from `plan.json`.
+    current_loop: Option<LoopFacts>,
     header: String,
     module: String,
 }
@@ -130,6 +217,7 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
                 json_u64(tp, "sampling.max_high_side_compare"),
             )
         }),
+        current_loop: LoopFacts::read(&json),
         header: text(&format!("{stem}.h")),
         module: text(&format!("{stem}.rs")),
         stem,
@@ -378,6 +466,21 @@ fn c_host_program(f: &Facts) -> String {
                 "    expect(\"{c}_compare_from_fraction({arg})\", {c}_compare_from_fraction({arg}), {want}ULL);"
             );
         }
+    }
+    if let Some(lf) = f.current_loop {
+        // ADC code in, compare out: the integer helper against the plan's SI figures,
+        // within one count (the gains are rounded to whole numbers at the plan's Q format).
+        let _ = writeln!(s, "    {{\n        {c}_loop_t st = {{ 0 }};");
+        for (k, (&(r, adc), want)) in LOOP_STEPS.iter().zip(lf.expected(&LOOP_STEPS)).enumerate() {
+            let _ = writeln!(
+                s,
+                "        {{\n            long long got = (long long){c}_loop_step(&st, {r}L, {adc}L);\n            \
+                 if (got < {lo}LL || got > {hi}LL) {{\n                printf(\"FAIL loop step {k}: %lld, want {want:.3}\\n\", got);\n                failures++;\n            }}\n        }}",
+                lo = (want - 1.0).ceil() as i64,
+                hi = (want + 1.0).floor() as i64,
+            );
+        }
+        s.push_str("    }\n");
     }
     // Every q16: never decreasing, and 0 or within the allowed range.
     let _ = writeln!(
@@ -738,6 +841,28 @@ fn rust_host_tests(cases: &[Facts]) -> String {
                  assert_eq!(pwm.calls, vec![{want}], \"requests: {list}\");\n    }}\n"
             );
         }
+        if let Some(lf) = f.current_loop {
+            let steps = LOOP_STEPS
+                .iter()
+                .map(|(r, a)| format!("({r}, {a})"))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let want = lf
+                .expected(&LOOP_STEPS)
+                .iter()
+                .map(|w| format!("{w:.4}"))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let _ = write!(
+                s,
+                "\n    /// ADC code in, compare out: within one count of the plan's SI figures.\n    \
+                 #[test]\n    fn loop_step_follows_the_plan() {{\n        \
+                 let mut st = LoopState::default();\n        \
+                 for ((r, adc), want) in [{steps}].into_iter().zip([{want}]) {{\n            \
+                 let got = st.step(r, adc) as f64;\n            \
+                 assert!((got - want).abs() <= 1.0, \"{{got}} for {{want}}\");\n        }}\n    }}\n"
+            );
+        }
         s.push_str("}\n");
     }
     s
@@ -772,8 +897,9 @@ fn rust_module_host_tests() {
         describe(&o),
         rust_host_tests(&cases)
     );
-    // Four tests per module (constants, constructors, two maxima) ran.
-    let want = 4 * cases.len();
+    // Four tests per module (constants, constructors, two maxima) ran, and one per
+    // current loop with integer gains.
+    let want = 4 * cases.len() + cases.iter().filter(|c| c.current_loop.is_some()).count();
     assert!(
         stdout_of(&o).contains(&format!("test result: ok. {want} passed")),
         "expected {want} passing tests\n{}",

@@ -189,8 +189,8 @@ fn compare_never_marks_a_blocked_switch_best() {
     );
 }
 
-/// The winch's board without its over-current path (and the design without
-/// its limit's burst).
+/// The winch's board without its over-current path and its current sensing
+/// (and the design without its limit's burst and its current loop).
 fn winch_without_limit(dir: &Path) {
     let board = dir.join("heron-hb48.yaml");
     let text = fs::read_to_string(&board).expect("board");
@@ -202,10 +202,16 @@ fn winch_without_limit(dir: &Path) {
         dir,
         "winch.yaml",
         "winch.yaml",
-        &[(
-            "  current_limit:\n    burst: { current: \"20 A\", duration: \"3 s\" }\n",
-            "",
-        )],
+        &[
+            (
+                "  current_limit:\n    burst: { current: \"20 A\", duration: \"3 s\" }\n",
+                "",
+            ),
+            (
+                "  current_loop:                 # the firmware's current loop on the sampled current\n    phase_margin_deg: 60\n    fixed_point: { fraction_bits: 12 }\n",
+                "",
+            ),
+        ],
     );
 }
 

@@ -1211,36 +1211,17 @@ fn check_board_stage(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
             "unipolar switching places the two legs' pulses symmetrically on an up-down (centre-aligned) count, which doubles the ripple frequency; add `centre`, or use `modulation: bipolar`",
         ));
     }
-    match (st.topology, &b.current_sensing) {
-        (TopologySpec::ThreePhase, None) => {
-            return Err(c.fail(
-                "current_sensing",
-                "missing; a three-phase bridge needs `current_sensing: { settle_time: ..., sample_time: ... }` (low-side shunts, sampled in the middle of the low-side on-time)",
-            ));
-        }
-        (TopologySpec::ThreePhase, Some(cs)) => {
-            c.non_negative("current_sensing.settle_time", cs.settle_time.si, 1e-3, S)?;
-            c.within(
-                "current_sensing.sample_time",
-                cs.sample_time.si,
-                0.0,
-                1e-3,
-                S,
-            )?;
-            if !t.alignments.contains(&AlignmentSpec::Centre) {
-                return Err(c.fail(
-                    "timer.alignments",
-                    "a three-phase bridge samples its phase currents in the middle of the low-side on-time, at the bottom of an up-down count; add `centre`",
-                ));
-            }
-        }
-        (_, Some(_)) => {
-            return Err(c.fail(
-                "current_sensing",
-                "only a three-phase bridge samples its phase currents here; remove it",
-            ));
-        }
-        (_, None) => {}
+    check_sensing(b, c)?;
+
+    if let Some(u) = t
+        .update_divider
+        .as_ref()
+        .filter(|u| !(1..=65_536).contains(&u.max))
+    {
+        return Err(c.fail(
+            "timer.update_divider.max",
+            format!("{} is out of range; expected 1 to 65536", u.max),
+        ));
     }
     if st.topology != TopologySpec::LowSide && st.freewheel_diode.is_some() {
         return Err(c.fail("stage.freewheel_diode", "a bridge freewheels through its own switches; a freewheel diode belongs to `low-side` only"));
@@ -1515,6 +1496,93 @@ const MIN_MOTOR_RESISTANCE_OHM: f64 = 1e-6;
 /// PWM frequency is a short circuit).
 const MIN_MOTOR_INDUCTANCE_H: f64 = 1e-9;
 
+/// The current sensing: required on a three-phase bridge (sampled at the
+/// top of an up-down count); on a brushed stage it needs the shunt's place.
+fn check_sensing(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
+    let (st, t) = (&b.stage, &b.timer);
+    if let Some(cs) = &b.current_sensing {
+        c.non_negative("current_sensing.settle_time", cs.settle_time.si, 1e-3, S)?;
+        c.within(
+            "current_sensing.sample_time",
+            cs.sample_time.si,
+            0.0,
+            1e-3,
+            S,
+        )?;
+    }
+    match (st.topology, &b.current_sensing) {
+        (TopologySpec::ThreePhase, None) => {
+            return Err(c.fail(
+                "current_sensing",
+                "missing; a three-phase bridge needs `current_sensing: { settle_time: ..., sample_time: ... }` (low-side shunts, sampled in the middle of the low-side on-time)",
+            ));
+        }
+        (TopologySpec::ThreePhase, Some(_)) => {
+            if !t.alignments.contains(&AlignmentSpec::Centre) {
+                return Err(c.fail(
+                    "timer.alignments",
+                    "a three-phase bridge samples its phase currents in the middle of the low-side on-time, at the bottom of an up-down count; add `centre`",
+                ));
+            }
+        }
+        (_, Some(cs)) => {
+            if cs.place.is_none() && b.overcurrent.is_none() {
+                return Err(c.fail(
+                    "current_sensing.place",
+                    "missing; expected where the shunt sits: `supply-return`, `leg` or `phase` (or the board's `overcurrent.shunt.place`)",
+                ));
+            }
+        }
+        (_, None) => {}
+    }
+    if let Some(cs) = &b.current_sensing {
+        check_sensing_extras(b, cs, c)?;
+    }
+    Ok(())
+}
+
+/// The current sensing's shunt place and ADC: a three-phase bridge's shunts
+/// sit in the legs; a place given twice must agree; the ADC within bounds of
+/// our own choice (6 to 24 bits, a full scale above 0 and at most 100 V).
+fn check_sensing_extras(
+    b: &BoardSpec,
+    cs: &CurrentSensingSpec,
+    c: &Check,
+) -> Result<(), InputError> {
+    let three_phase = b.stage.topology == TopologySpec::ThreePhase;
+    match (cs.place, b.overcurrent.as_ref().map(|o| o.shunt.place)) {
+        (Some(p), _) if three_phase && p != ShuntPlaceSpec::Leg => {
+            return Err(c.fail(
+                "current_sensing.place",
+                "a three-phase bridge's current sensing reads low-side shunts in its legs; expected `leg` or no place",
+            ));
+        }
+        (Some(p), Some(o)) if !three_phase && p != o => {
+            return Err(c.fail(
+                "current_sensing.place",
+                "differs from `overcurrent.shunt.place`; one shunt serves both, expected the same place or none here",
+            ));
+        }
+        _ => {}
+    }
+    if let Some(adc) = &cs.adc {
+        if !(6..=24).contains(&adc.bits) {
+            return Err(c.fail(
+                "current_sensing.adc.bits",
+                format!("{} is out of range; expected 6 to 24", adc.bits),
+            ));
+        }
+        c.within(
+            "current_sensing.adc.full_scale",
+            adc.full_scale.si,
+            0.0,
+            100.0,
+            V,
+        )?;
+    }
+    Ok(())
+}
+
 /// Checks on the design file; returns (back-EMF at the operating speed,
 /// k_e in V·s/rad, junction limit in °C).
 fn check_design(
@@ -1559,7 +1627,58 @@ fn check_design(
         }
     }
     check_range_objective(d, &c)?;
+    if let Some(cl) = &d.current_loop {
+        check_current_loop(b, cl, &c)?;
+    }
     Ok((emf, k_e, t_j_limit))
+}
+
+/// The current loop: the board must sample the current; the rate and margin
+/// within bounds of our own choice (a rate above 0 and at most 1 MHz, a phase
+/// margin of 30° to 80°, 0 to 30 fraction bits); integer gains need the ADC
+/// and the shunt's amplifier chain (`overcurrent`) to scale the current.
+fn check_current_loop(b: &BoardSpec, cl: &CurrentLoopSpec, c: &Check) -> Result<(), InputError> {
+    let Some(cs) = &b.current_sensing else {
+        return Err(c.fail(
+            "current_loop",
+            format!("the board \"{}\" has no `current_sensing`; the loop needs the sampled current (add `current_sensing: {{ settle_time: ..., sample_time: ..., place: ... }}` to the board)", b.name),
+        ));
+    };
+    if let Some(r) = &cl.rate {
+        c.within("current_loop.rate", r.si, 0.0, 1e6, Dimension::Frequency)?;
+    }
+    if let Some(pm) = cl.phase_margin_deg.filter(|pm| !(30.0..=80.0).contains(pm)) {
+        return Err(c.fail(
+            "current_loop.phase_margin_deg",
+            format!("{pm} is out of range; expected 30 to 80 (degrees)"),
+        ));
+    }
+    if let Some(fp) = &cl.fixed_point {
+        if fp.fraction_bits > 30 {
+            return Err(c.fail(
+                "current_loop.fixed_point.fraction_bits",
+                format!("{} is out of range; expected 0 to 30", fp.fraction_bits),
+            ));
+        }
+        if cs.adc.is_none() || b.overcurrent.is_none() {
+            return Err(c.fail(
+                "current_loop.fixed_point",
+                "integer gains scale the current by the ADC and the shunt chain; the board needs `current_sensing.adc` and `overcurrent` (its shunt and amplifier)",
+            ));
+        }
+        let sensed = match b.stage.topology {
+            TopologySpec::ThreePhase => Some(ShuntPlaceSpec::Leg),
+            _ => cs.place,
+        };
+        let chain = b.overcurrent.as_ref().map(|o| o.shunt.place);
+        if sensed.is_some_and(|p| Some(p) != chain) {
+            return Err(c.fail(
+                "current_loop.fixed_point",
+                "integer gains scale the current by the `overcurrent` shunt and amplifier, but the board samples the current at another shunt; use float gains, or sample at the protected shunt",
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// The supply range.

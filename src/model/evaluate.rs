@@ -21,11 +21,11 @@ use crate::model::physics::params::{
 };
 use crate::model::physics::ratings::{self, Finding, RatingInputs, Severity};
 use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
-use crate::model::physics::switching;
 use crate::model::physics::thermal::{self, JunctionTemperature};
 use crate::model::physics::three_phase::{
     self, BackEmfShape, Chop, LossLines, MotorParams, SixStepPoint, ThreePhaseStage, ZeroSequence,
 };
+use crate::model::physics::{sampling, switching};
 use crate::model::timer::{
     self, Alignment, CompareLimits, DeadTimeGenerator, DeadTimeSegment, Prescaler, PwmSetting,
     TimerModel,
@@ -83,6 +83,19 @@ pub struct Evaluator {
     pub commands: three_phase::CommandMemo,
     /// The design's operating range (`None`: the rated point alone).
     pub range: Option<OperatingRange>,
+    /// A brushed stage's current sensing, when the board has one.
+    pub sensing: Option<BrushedSensing>,
+}
+
+/// A brushed stage's shunt, as the sampling sees it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BrushedSensing {
+    pub stage: sampling::BrushedStage,
+    pub place: sampling::ShuntPlace,
+    /// Amplifier settling after the sensed state begins, s.
+    pub settle_s: f64,
+    /// ADC acquisition, s.
+    pub acquire_s: f64,
 }
 
 /// What a three-phase bridge adds to the evaluator.
@@ -375,6 +388,33 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
     }
 }
 
+/// A brushed stage's current sensing: the board's `current_sensing`, its
+/// shunt place there or in `overcurrent`.
+fn brushed_sensing(d: &Design) -> Option<BrushedSensing> {
+    use sampling::{BrushedStage, ShuntPlace};
+    let cs = d.board.current_sensing.as_ref()?;
+    let stage = match (d.board.stage.topology, d.board.stage.modulation) {
+        (TopologySpec::LowSide, _) => BrushedStage::LowSide,
+        (TopologySpec::HalfBridge, _) => BrushedStage::HalfBridge,
+        (TopologySpec::HBridge, Some(ModulationSpec::Unipolar)) => BrushedStage::HBridgeUnipolar,
+        (TopologySpec::HBridge, _) => BrushedStage::HBridgeBipolar,
+        (TopologySpec::ThreePhase, _) => return None,
+    };
+    let place = cs
+        .place
+        .or_else(|| d.board.overcurrent.as_ref().map(|o| o.shunt.place))?;
+    Some(BrushedSensing {
+        stage,
+        place: match place {
+            ShuntPlaceSpec::SupplyReturn => ShuntPlace::SupplyReturn,
+            ShuntPlaceSpec::Leg => ShuntPlace::Leg,
+            ShuntPlaceSpec::Phase => ShuntPlace::Phase,
+        },
+        settle_s: cs.settle_time.si,
+        acquire_s: cs.sample_time.si,
+    })
+}
+
 /// The three-phase part of a design's evaluator, when its board is one.
 fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
     if d.board.stage.topology != TopologySpec::ThreePhase {
@@ -539,6 +579,7 @@ impl Evaluator {
             three_phase: three_phase_model(d),
             commands: three_phase::CommandMemo::default(),
             range: crate::input::design::operating_range(s),
+            sensing: brushed_sensing(d),
         }
     }
 

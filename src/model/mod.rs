@@ -12,10 +12,12 @@
 //! Monte Carlo format no words (details are data, formatted when shown).
 
 pub mod current_limit;
+pub mod current_loop;
 pub mod evaluate;
 pub mod physics;
 pub mod range;
 pub mod register_check;
+pub mod register_sampling;
 pub mod solve;
 pub mod spread;
 pub mod sweep;

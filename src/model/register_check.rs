@@ -25,6 +25,7 @@
 
 use crate::input::design::Design;
 use crate::model::current_limit::CurrentLimitOut;
+use crate::model::current_loop::SamplingOut;
 use crate::model::evaluate::Evaluator;
 use crate::model::evaluate::ThreePhaseCase;
 use crate::model::solve::{Candidate, Solution};
@@ -85,6 +86,8 @@ pub struct RegisterView<'a> {
     pub three_phase: Option<&'a ThreePhaseOut>,
     /// The current limit's record (with the board's over-current path).
     pub current_limit: Option<&'a CurrentLimitOut>,
+    /// A brushed stage's current sampling.
+    pub sampling: Option<&'a SamplingOut>,
 }
 
 impl<'a> RegisterView<'a> {
@@ -99,6 +102,7 @@ impl<'a> RegisterView<'a> {
             hearing_limit_hz: hearing_limit_of(plan),
             three_phase: plan.three_phase.as_ref(),
             current_limit: plan.current_limit.as_ref(),
+            sampling: plan.sampling.as_ref(),
         }
     }
 }
@@ -117,6 +121,7 @@ pub fn check_solution(
         let (cases, load) = (plan::cases_out(ev, c), plan::load_out(ev, c));
         let three_phase = plan::three_phase_out(d, ev, c);
         let limit = crate::model::current_limit::plan(d, ev, c).map(|l| l.0);
+        let sampling = crate::model::current_loop::sampling_out(ev, c);
         check(&RegisterView {
             topology: &topology,
             pwm: &pwm,
@@ -126,6 +131,7 @@ pub fn check_solution(
             hearing_limit_hz: plan::hearing_limit_hz(ev),
             three_phase: three_phase.as_ref(),
             current_limit: limit.as_ref(),
+            sampling: sampling.as_ref(),
         })
     };
     let Some(chosen) = &sol.chosen else {
@@ -192,6 +198,11 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
             ),
         }
         return out;
+    }
+    if let Some(s) = v.sampling {
+        let limits = (v.pwm.compare_min, v.pwm.compare_max);
+        let stage_at = |c: u64| stage(v, &regs, c);
+        crate::model::register_sampling::check(v.topology, &regs, stage_at, s, limits, &mut out);
     }
     for case in v.cases {
         if !(0.0..=1.0).contains(&case.compare_duty) {

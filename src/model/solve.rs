@@ -23,6 +23,7 @@ use serde::Serialize;
 
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
 use crate::model::physics::params::{HBridgeModulation, Topology};
+use crate::model::physics::sampling::{self, BrushedSampling, SamplingTimer, SenseState};
 use crate::model::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
 use crate::model::range::{RangePoint, RangeResult, junction_key};
 use crate::model::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
@@ -495,6 +496,37 @@ impl Evaluator {
         ))
     }
 
+    /// A brushed stage's current sampling at a setting
+    /// (`sampling::brushed_sampling`): `None` without current sensing,
+    /// `Some(None)` when no duty holds the window.
+    pub fn brushed_sampling(
+        &self,
+        s: &PwmSetting,
+        t_dead_s: f64,
+    ) -> Option<Option<BrushedSampling>> {
+        let bs = self.sensing?;
+        let t = self.sampling_timer(s, t_dead_s)?;
+        Some(sampling::brushed_sampling(bs.stage, bs.place, &t))
+    }
+
+    /// The timer setting and sensing chain a brushed stage's sampling window
+    /// is built on (`None` without current sensing).
+    pub fn sampling_timer(&self, s: &PwmSetting, t_dead_s: f64) -> Option<SamplingTimer> {
+        let bs = self.sensing?;
+        Some(SamplingTimer {
+            centre: s.alignment == Alignment::Centre,
+            duty_steps: s.duty_steps,
+            tick_s: s.divider as f64 / self.timer.clock_hz,
+            dead_s: if self.needs_dead_time() {
+                t_dead_s
+            } else {
+                0.0
+            },
+            settle_s: bs.settle_s,
+            acquire_s: bs.acquire_s,
+        })
+    }
+
     /// What the output pulses must respect at dead time `t_dead_s` (see
     /// [`timer::duty_limits`]): the board's minimum pulse, and on a
     /// bootstrapped bridge the low side's refresh time, both after the dead
@@ -560,6 +592,9 @@ impl Evaluator {
         let sampling = self.sampling_window(s, dead.seconds);
         if let Some(w) = &sampling {
             checks.push(self.sampling_check(w, &high_bus, m_low_bus));
+        }
+        if let Some(w) = self.brushed_sampling(s, dead.seconds) {
+            checks.push(brushed_sampling_check(w.as_ref(), duty_needed));
         }
         checks.push(self.frequency_band_check(f));
         for k in &mut checks {
@@ -800,31 +835,15 @@ impl Evaluator {
             Err(ThreePhaseError::NoSamplingWindow {
                 min_low_side_on_s,
                 period_s,
-            }) => ConstraintCheck {
-                name: "sampling-window",
-                limit: 0.0,
-                value: None,
-                margin: None,
-                unit: "",
-                pass: false,
-                binding: false,
-                detail: format!(
+            }) => no_sampling_window(
+                format!(
                     "settling, dead time and sampling need {} of low-side time, not less than the period {}",
                     fmt_t(*min_low_side_on_s),
                     fmt_t(*period_s)
                 )
                 .into(),
-            },
-            Err(e) => ConstraintCheck {
-                name: "sampling-window",
-                limit: 0.0,
-                value: None,
-                margin: None,
-                unit: "",
-                pass: false,
-                binding: false,
-                detail: format!("no sampling window: {e:?}").into(),
-            },
+            ),
+            Err(e) => no_sampling_window(format!("no sampling window: {e:?}").into()),
             Ok(win) if low_side_chop => {
                 let need = 1.0 - win.max_high_side_duty;
                 lower(
@@ -853,6 +872,58 @@ impl Evaluator {
                 .into(),
             ),
         }
+    }
+}
+
+/// A failed `sampling-window` constraint without a value: no duty holds the window.
+fn no_sampling_window(detail: Detail) -> ConstraintCheck {
+    ConstraintCheck {
+        name: "sampling-window",
+        limit: 0.0,
+        value: None,
+        margin: None,
+        unit: "",
+        pass: false,
+        binding: false,
+        detail,
+    }
+}
+
+/// The `sampling-window` constraint of a brushed stage: the needed compare
+/// duties `(low, high)` inside the duties at which the sensed state holds
+/// settling, dead time and acquisition (`sampling::brushed_sampling`).
+fn brushed_sampling_check(w: Option<&BrushedSampling>, needed: (f64, f64)) -> ConstraintCheck {
+    let Some(w) = w else {
+        return no_sampling_window(
+            "settling, dead time and sampling do not fit in the sensed switching state at any duty"
+                .into(),
+        );
+    };
+    let state = match w.state {
+        SenseState::On => "on-time",
+        SenseState::Off => "off-time",
+        SenseState::Active => "active state (leg A high, leg B low)",
+    };
+    let why = format!(
+        "the shunt is read in the middle of the {state}, which must last {} (dead time, settle, sample)",
+        fmt_t(w.min_state_s)
+    );
+    if w.duty_min > 0.0 {
+        lower(
+            "sampling-window",
+            w.duty_min,
+            Some(needed.0),
+            "",
+            format!("{why}: compare duty at least {:.1} %", 100.0 * w.duty_min).into(),
+        )
+    } else {
+        upper(
+            "sampling-window",
+            w.duty_max,
+            Some(needed.1),
+            "",
+            format!("{why}: compare duty at most {:.1} %", 100.0 * w.duty_max).into(),
+        )
     }
 }
 
@@ -1947,7 +2018,7 @@ fn explain_conflict(
             "dead-time" => "slow the dead-time clock (clock_divider) or speed up the turn-off (lower r_gate_off)".into(),
             "turn-off-peak" => "slow the turn-off (raise r_gate_off), shorten the commutation loop (lower loop_inductance), or choose a switch with a higher V_DSS".into(),
             "duty-range" => "lower the minimum pulse, shorten the bootstrap refresh time, or run at a lower frequency".into(),
-            "sampling-window" => "shorten the shunt amplifier's settling or the ADC sampling time, use min-max zero sequence, or run at a lower frequency".into(),
+            "sampling-window" => "shorten the shunt amplifier's settling or the ADC sampling time, run at a lower frequency, or move the shunt (a three-phase bridge: use min-max zero sequence)".into(),
             _ => String::new(),
         };
         relax.push(format!("{}: {}", k.name, advice));

@@ -1099,6 +1099,25 @@ pub fn verify(
     })
 }
 
+/// One PWM period of the written registers from the current `i0_a` at its start (not the
+/// steady state): the current's pieces over `[0, T)`, the last ending at `T`. A transient
+/// simulation drives this period by period with the compares firmware writes.
+pub fn run_period(
+    regs: &TimerRegisters,
+    stage: &Stage,
+    circuit: &Circuit,
+    i0_a: f64,
+) -> Result<Vec<CurrentPiece>, VerifyError> {
+    circuit.validate()?;
+    let segments = build_segments(regs, stage, circuit)?;
+    let mut pieces = Vec::with_capacity(segments.len() + 4);
+    Solver {
+        segments: &segments,
+    }
+    .run_period(i0_a, Some(&mut pieces));
+    Ok(pieces)
+}
+
 fn mean_and_rms(pieces: &[CurrentPiece], period_s: f64) -> (f64, f64) {
     let mean = pieces.iter().map(CurrentPiece::integral).sum::<f64>() / period_s;
     let square = pieces

@@ -126,6 +126,18 @@ pub struct Context {
     /// The operating range's worst points: rows `{label, value}` (empty
     /// without a range).
     pub range_rows: Vec<Row>,
+    /// A brushed stage samples its current: emit the trigger part.
+    pub sampling: bool,
+    pub sampling_literals: SamplingLiterals,
+    /// The sampling explained (empty without it).
+    pub sampling_rows: Vec<Row>,
+    /// The design asked for a current loop: emit its part.
+    pub current_loop: bool,
+    /// A brushed loop gets a step helper (a three-phase loop runs in d–q).
+    pub loop_helper: bool,
+    pub loop_literals: LoopLiterals,
+    /// The current loop explained (empty without one).
+    pub loop_rows: Vec<Row>,
     /// The rationale as plain text lines, for comment blocks.
     pub rationale_lines: Vec<String>,
     /// The register init sequence, one step per line (C names).
@@ -170,4 +182,45 @@ pub struct StageLiterals {
     pub duty_zero_lines: Vec<String>,
     /// What the firmware must know before it enables the outputs.
     pub enable_note: String,
+}
+
+/// A brushed stage's sampling, as literals.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct SamplingLiterals {
+    /// A fixed trigger count (else the count follows the compare).
+    pub fixed: bool,
+    pub trigger_count: String,
+    pub counting_up: bool,
+    /// `(compare + TRIGGER_ADD)/2 − TRIGGER_LEAD` when the count follows the compare.
+    pub trigger_add: String,
+    pub trigger_lead: String,
+    pub compare_min: String,
+    pub compare_max: String,
+    /// −1 when the shunt reads the motor current reversed.
+    pub sign: String,
+    pub state: String,
+}
+
+/// The current loop, as literals.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct LoopLiterals {
+    pub update_divider: String,
+    pub rate_millihz: String,
+    pub rate_text: String,
+    /// The compare of zero volts and the loop's clamp (the compare limits and, with a
+    /// sampling window, its compares).
+    pub zero_compare: String,
+    pub compare_lo: String,
+    pub compare_hi: String,
+    pub kp_v_per_a: String,
+    pub ki_v_per_a_s: String,
+    pub period_s: String,
+    pub counts_per_volt: String,
+    pub fixed: bool,
+    pub fraction_bits: String,
+    pub kp_q: String,
+    pub ki_q: String,
+    pub zero_code: String,
+    pub amps_per_code: String,
+    pub round_half: String,
 }

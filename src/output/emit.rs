@@ -203,6 +203,13 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         limit,
         limit_rows: crate::output::limit::rows(plan.current_limit.as_ref(), plan.pwm.min_pulse_s),
         range_rows: crate::output::range_out::range_rows(plan.operating_range.as_ref()),
+        sampling: plan.sampling.is_some(),
+        sampling_literals: crate::output::loop_out::sampling_literals(plan.sampling.as_ref()),
+        sampling_rows: crate::output::loop_out::sampling_rows(plan),
+        current_loop: plan.current_loop.is_some(),
+        loop_helper: plan.current_loop.is_some() && plan.three_phase.is_none(),
+        loop_literals: crate::output::loop_out::loop_literals(plan),
+        loop_rows: crate::output::loop_out::loop_rows(plan),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,
         rust_init_steps,
@@ -541,6 +548,16 @@ fn register_check_rows(plan: &Plan) -> Vec<Row> {
                 a(load),
                 a(c.ripple_pp_a),
                 a(ripple)
+            ),
+        });
+    }
+    if let (Some(before), Some(after)) = (r.sample_low_on_before_s, r.sample_low_on_after_s) {
+        rows.push(Row {
+            label: "sampling".into(),
+            value: format!(
+                "at the written trigger, over the compares the plan allows, the sampled state has held {} before and holds {} after (settling and sampling need no more)",
+                t(before),
+                t(after)
             ),
         });
     }
@@ -992,6 +1009,8 @@ fn rationale_lines(c: &Context) -> Vec<String> {
     );
     table(&mut out, "Operating figures", &c.figures);
     table(&mut out, "Current limit", &c.limit_rows);
+    table(&mut out, "Current sampling", &c.sampling_rows);
+    table(&mut out, "Current loop", &c.loop_rows);
     table(
         &mut out,
         "Worst case over part and operating spreads",

@@ -407,6 +407,46 @@ fn current_limit(out: &mut String, plan: &Plan, ctx: &Context) {
     kv_table(out, &ctx.limit_rows);
 }
 
+/// The current sampling and loop: the explanation rows and the step response of the
+/// sampled current, one point per control update, with the reference.
+fn current_loop(out: &mut String, plan: &Plan, ctx: &Context) {
+    if !ctx.sampling_rows.is_empty() {
+        h2(out, "current-sampling", "Current sampling");
+        kv_table(out, &ctx.sampling_rows);
+    }
+    let Some(l) = &plan.current_loop else {
+        return;
+    };
+    h2(out, "current-loop", "Current loop");
+    let ys = &l.step_response;
+    let top = ys.iter().copied().fold(1.0, f64::max) * 1.1;
+    let n = ys.len().max(2) as f64 - 1.0;
+    let x = |k: f64| 50.0 + 560.0 * k / n;
+    let y = |v: f64| 170.0 - 150.0 * (v / top).clamp(0.0, 1.0);
+    let points: Vec<String> = ys
+        .iter()
+        .enumerate()
+        .map(|(k, v)| format!("{:.1},{:.1}", x(k as f64), y(*v)))
+        .collect();
+    let period_s = l.update_divider as f64 / l.pwm_rate_hz;
+    let end_time = format_quantity(n * period_s, Dimension::Time, 3);
+    let _ = writeln!(
+        out,
+        "<svg class=\"step\" viewBox=\"0 0 640 200\" role=\"img\" aria-label=\"step response of the sampled current\">\n\
+         <line x1=\"50\" y1=\"170\" x2=\"610\" y2=\"170\" stroke=\"#555\"/><line x1=\"50\" y1=\"20\" x2=\"50\" y2=\"170\" stroke=\"#555\"/>\n\
+         <line x1=\"50\" y1=\"{r:.1}\" x2=\"610\" y2=\"{r:.1}\" stroke=\"#888\" stroke-dasharray=\"4 3\"><title>reference</title></line>\n\
+         <polyline fill=\"none\" stroke=\"#36c\" stroke-width=\"1.5\" points=\"{pts}\"><title>sampled current, {os:.1} % overshoot</title></polyline>\n\
+         <text x=\"45\" y=\"{r:.1}\" font-size=\"10\" text-anchor=\"end\">1</text><text x=\"45\" y=\"174\" font-size=\"10\" text-anchor=\"end\">0</text>\n\
+         <text x=\"50\" y=\"188\" font-size=\"10\">0</text><text x=\"610\" y=\"188\" font-size=\"10\" text-anchor=\"end\">{end}</text>\n</svg>",
+        r = y(1.0),
+        pts = points.join(" "),
+        os = l.overshoot_pct,
+        end = escape(&end_time),
+    );
+    out.push_str("<p>The sampled current after a unit step of the reference, one point per control update (the loop's exact discrete model: sample, computation delay, PWM hold, R–L); dashed: the reference.</p>\n");
+    kv_table(out, &ctx.loop_rows);
+}
+
 fn opt_c(t: Option<f64>) -> String {
     t.map(|t| format_quantity(t, Dimension::Temperature, 3))
         .unwrap_or_else(|| "runaway".into())
@@ -517,6 +557,7 @@ pub fn report_html(plan: &Plan, ctx: &Context, loss_svg: &str, thermal_svg: &str
     losses(&mut out, plan, ctx);
     figures(&mut out, ctx);
     current_limit(&mut out, plan, ctx);
+    current_loop(&mut out, plan, ctx);
     alternatives(&mut out, plan);
     findings(&mut out, ctx);
     assumptions(&mut out, ctx);

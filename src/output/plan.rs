@@ -208,6 +208,13 @@ pub struct Plan {
     /// when the board has none).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub current_limit: Option<crate::model::current_limit::CurrentLimitOut>,
+    /// A brushed stage's current sampling (absent without the board's
+    /// `current_sensing`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sampling: Option<crate::model::current_loop::SamplingOut>,
+    /// The current loop the design asked for.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub current_loop: Option<crate::model::current_loop::CurrentLoopOut>,
     pub feasible_band_hz: Option<[f64; 2]>,
     pub alternatives: Vec<AlternativeOut>,
     /// When infeasible: why, and the nearest compromise.
@@ -495,8 +502,9 @@ pub struct RegisterCheck {
     /// Shortest low-side output pulse at `compare_max` (a single switch: its off-time), s.
     pub shortest_low_pulse_s: f64,
     pub cases: Vec<CaseCheck>,
-    /// Sinusoidal three-phase: at the current-sampling trigger, the shortest time the sampled
-    /// legs' low sides have been on, and will stay on, over the compares the plan allows, s.
+    /// At the current-sampling trigger, the shortest time the sampled state (sinusoidal
+    /// three-phase: the sampled legs' low sides) has held, and will hold, over the compares
+    /// the plan allows, s.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sample_low_on_before_s: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -1194,6 +1202,13 @@ pub fn build_on(
         }));
         sort_findings(&mut findings);
     }
+    let (current_loop, loop_findings) = crate::model::current_loop::plan(d, ev, c);
+    findings.extend(loop_findings.iter().map(|f| FindingOut {
+        severity: model::severity_name(f.severity).into(),
+        code: f.code.into(),
+        message: f.message.clone(),
+    }));
+    sort_findings(&mut findings);
     let blocked_by = blockers(&findings);
     let v_err = dead_time_error_v(ev, c);
     Some(Plan {
@@ -1221,6 +1236,8 @@ pub fn build_on(
         three_phase: three_phase_out(d, ev, c),
         operating_range: crate::output::range_out::range_out(ev, c),
         current_limit: limit.map(|l| l.0),
+        sampling: crate::model::current_loop::sampling_out(ev, c),
+        current_loop,
         feasible_band_hz: sol.feasible_band_hz.map(|(a, b)| [a, b]),
         alternatives: alternatives_out(sol),
         conflict: sol.conflict.clone(),

@@ -337,6 +337,9 @@ pub struct TimerSpec {
     /// Whether the MCU has a floating-point unit (emitted code may use `float`).
     #[serde(default)]
     pub fpu: bool,
+    /// The update-event divider, when the timer has one (without it the
+    /// compares take effect every period).
+    pub update_divider: Option<UpdateDividerSpec>,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -439,15 +442,38 @@ pub enum ChopSpec {
     Complementary,
 }
 
-/// Low-side shunt current sensing of a three-phase bridge: the ADC samples
-/// in the middle of the low-side on-time of a centre-aligned timer.
+/// Shunt current sensing read by the ADC: a three-phase bridge's low-side
+/// shunts, sampled in the middle of the low-side on-time of a centre-aligned
+/// timer; a brushed stage's shunt, sampled in the middle of the switching
+/// state it sees the motor current in.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct CurrentSensingSpec {
-    /// Time the shunt amplifier needs after the low side turns on.
+    /// Time the shunt amplifier needs after the sensed state begins.
     pub settle_time: Q<Second>,
     /// ADC sampling (acquisition) time.
     pub sample_time: Q<Second>,
+    /// Where the shunt sits (brushed stages; default: the board's
+    /// `overcurrent.shunt.place`; a three-phase bridge's are `leg`).
+    pub place: Option<ShuntPlaceSpec>,
+    /// The ADC that reads the amplifier (for fixed-point loop gains).
+    pub adc: Option<AdcSpec>,
+}
+
+/// The ADC reading the current: `bits` over 0 to `full_scale`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AdcSpec {
+    pub bits: u32,
+    pub full_scale: Q<Volt>,
+}
+
+/// The timer's update-event divider: the compares written take effect at
+/// every `n`-th PWM period's update event, `1 ≤ n ≤ max`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct UpdateDividerSpec {
+    pub max: u32,
 }
 
 #[derive(Debug, Clone, Deserialize)]
@@ -589,6 +615,28 @@ pub struct DesignSpec {
     /// The speeds and loads the drive runs at (optional; without it the
     /// rated point alone).
     pub operating_range: Option<OperatingRangeSpec>,
+    /// The motor current loop to tune (optional; needs the board's
+    /// `current_sensing`).
+    pub current_loop: Option<CurrentLoopSpec>,
+}
+
+/// The current loop the firmware closes on the sampled current.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CurrentLoopSpec {
+    /// Control updates per second asked for (default: one per PWM period).
+    pub rate: Option<Q<Hertz>>,
+    /// Phase margin asked for, degrees (default 60).
+    pub phase_margin_deg: Option<f64>,
+    /// Integer gains for firmware without floating point.
+    pub fixed_point: Option<FixedPointSpec>,
+}
+
+/// Integer gains: `gain·2^fraction_bits` in compare counts per ADC code.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FixedPointSpec {
+    pub fraction_bits: u32,
 }
 
 /// The speed range and how the load current follows the speed.

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:d443f5400c0a2c66d28ae5a145a14b21ff34dd92ba0b44888a9bbe1ca08ab330)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:45301223b6a181601ea37cbb0facced1d435bee00773ccc026abc23d2ab55909)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -69,6 +69,7 @@
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
  *   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.0 mA peak to peak (plan 754.0 mA)
  *   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 803.7 mA peak to peak (plan 805.4 mA)
+ *   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 1.50 µs before and holds 2.43 µs after (settling and sampling need no more)
  *   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
  *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
  *

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:3f1b4684788da221394c9b85f24cac449621c9ed74c6eb72abe2800d920f2ea1)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:4e1f60e1581bf1a53ccd91b8ecf992050084c8990e3d1feca2ac7bc3c1af32ec)
  *
  * Chosen setting
  *   design         winch
@@ -12,7 +12,7 @@
  *   resolution     5119 duty steps (12.3 bits)
  *   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
  *   duty limits    compare 32 to 5063 (0.6 % to 98.9 %); the load needs 3.9 % to 96.1 %
- *   feasible band  11.721 kHz to 37.879 kHz
+ *   feasible band  11.721 kHz to 13.902 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         145 °C     63.5 °C     81.5 K  ok
@@ -22,6 +22,7 @@
  *   resolution         10.00 bits  12.32 bits  2.32 bits  ok
  *   dead-time              125 ns      118 ns    7.22 ns  ok
  *   duty-range            98.91 %     96.12 %     2.78 %  ok
+ *   sampling-window        3.24 %      3.88 %     0.63 %  ok
  *   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
  *
  * Over the operating range (worst points)
@@ -69,6 +70,21 @@
  *   burst           junction 84.9 °C (leg-b-low at 20.0 A for 3.00 s: steady state at the burst's 4.78 W, the board giving no thermal transient data)
  *   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
  *
+ * Current sampling
+ *   sampled at   the middle of the off-time (a ramp's middle is the period's mean current: regular sampling)
+ *   ADC trigger  count 5089 matched while counting up, 30 ticks before the middle
+ *   window       the sensed state must last 2.750 µs (dead time, settling, acquisition): compares 166..4953 (3.2 %..96.8 %)
+ *   sign         the shunt reads the motor current as the plan counts it
+ *
+ * Current loop
+ *   rate         11.72 kHz = PWM 11.72 kHz / update divider 1 (none asked: one update per PWM period)
+ *   timing       sample 42.66 µs after the update event; the compare it gives takes effect at the next one: delay 85.32 µs (that plus half the held period); conversion and control code must fit in 42.41 µs
+ *   plant        R 204.1 mΩ (motor and channels at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
+ *   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5497 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
+ *   loop         crossover 988.5 Hz, phase margin 60.0°, step overshoot 7.2 %, rise to 90 % in 256.0 µs (exact discrete model: sample, delay, PWM hold, R–L)
+ *   fixed point  Q12: K_p 6977 (6976.587), K_i·T 380 (379.689) in compare counts per ADC code; 1.6113e-2 A per code, zero current at code 0
+ *   bus          the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)
+ *
  * Worst case over part and operating spreads
  *   junction    68.8 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
  *   total-loss  5.80 W; ok; hot: V_th min, supply 54.0 V
@@ -84,11 +100,12 @@
  *   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
  *   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
  *   range-lowest-duty case  at compare duty 52.538 %: mean current 12.00 A (plan 12.00 A), ripple 327.9 mA peak to peak (plan 327.9 mA)
+ *   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.01 µs before and holds 1.63 µs after (settling and sampling need no more)
  *   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
  *
  * Alternatives
- *   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +598 mW total loss, +1.8 K junction, -647 mA ripple, -0.77 bits resolution
- *   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1915 mW total loss, +5.7 K junction, -1080 mA ripple, -1.69 bits resolution
+ *   rounder-frequency  12.000 kHz (divider 1, 10000 ticks, centre): +20 mW total loss, +0.1 K junction, -36 mA ripple, -0.03 bits resolution
+ *   highest-frequency  13.902 kHz (divider 1, 8632 ticks, centre): +155 mW total loss, +0.5 K junction, -245 mA ripple, -0.25 bits resolution
  *
  * Findings
  *   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
@@ -110,8 +127,8 @@
  *   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
  *
  * Inputs
- *   winch.yaml                sha256 d18d1e481e2778b02c619cf0590b4dfc09b2a234f149e1fecca24a993512c9ca
- *   heron-hb48.yaml           sha256 55451a06be438249f90e098e451be2275c6c8a484d7d545e3067fbc675f35811
+ *   winch.yaml                sha256 a1ee5ff7e1b10960c1692686c884c89d3a4a8ce2b8700a9fb3009f7b6e2d0ad7
+ *   heron-hb48.yaml           sha256 3b32658551b2c89a7906d64bcb0e7cc03a951a8d880c233ca899ae6de18c9566
  *   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
  */
 #ifndef WINCH_PWM_H
@@ -161,6 +178,39 @@
 /* 1: a fault turns the outputs off until the next period (cycle-by-cycle);
  * 0: until firmware clears it (latched). */
 #define WINCH_PWM_LIMIT_CYCLE_BY_CYCLE 1
+/* Current sampling: the shunt is read in the middle of the off-time
+ * (a ramp's middle is the period's mean current). */
+/* ADC trigger: this count, matched while counting up (a spare compare channel). */
+#define WINCH_PWM_ADC_TRIGGER_COUNT 5089U
+#define WINCH_PWM_ADC_TRIGGER_COUNTING_UP 1
+/* Compares at which the sensed state holds settling, dead time and sampling;
+ * outside them the sample is not valid. */
+#define WINCH_PWM_SAMPLING_COMPARE_MIN 166U
+#define WINCH_PWM_SAMPLING_COMPARE_MAX 4953U
+/* 1: the shunt reads the motor current; -1: reversed. */
+#define WINCH_PWM_SHUNT_SIGN (1)
+/* Current loop: one update every LOOP_UPDATE_DIVIDER PWM periods (11.72 kHz);
+ * the gains and their reasons are in the rationale. */
+#define WINCH_PWM_LOOP_UPDATE_DIVIDER 1U
+#define WINCH_PWM_LOOP_RATE_MILLIHZ 11721039ULL
+/* PI gains in SI units: volts per ampere, volts per ampere-second; the update
+ * period in seconds; compare counts per volt of output at the nominal supply. */
+#define WINCH_PWM_LOOP_KP_V_PER_A 1.9823720159607603e0
+#define WINCH_PWM_LOOP_KI_V_PER_A_S 1.2645496945990035e3
+#define WINCH_PWM_LOOP_PERIOD_S 8.531666666666668e-5
+#define WINCH_PWM_LOOP_COUNTS_PER_VOLT 5.3322916666666664e1
+/* The compare of zero volts, and the loop output's clamp. */
+#define WINCH_PWM_LOOP_ZERO_COMPARE 2560
+#define WINCH_PWM_LOOP_COMPARE_LO 166
+#define WINCH_PWM_LOOP_COMPARE_HI 4953
+/* Integer gains in compare counts per ADC code, times 2^LOOP_FRACTION_BITS
+ * (1.611328e-2 A per code; the integral gain per update). */
+#define WINCH_PWM_LOOP_FRACTION_BITS 12
+#define WINCH_PWM_LOOP_KP_Q 6977L
+#define WINCH_PWM_LOOP_KI_Q 380L
+#define WINCH_PWM_LOOP_ROUND 2048
+/* The ADC code at zero current. */
+#define WINCH_PWM_ADC_ZERO_CODE 0L
 
 /*
  * Init sequence (register names differ per MCU; values are above):
@@ -229,6 +279,68 @@ static inline uint32_t winch_pwm_compare_from_fraction(float duty)
     }
     q = (uint32_t)(duty * 65536.0f + 0.5f);
     return winch_pwm_compare_from_q16(q == 0U ? 1U : q);
+}
+
+/* Current-loop state (integer): the integral in compare counts times
+ * 2^LOOP_FRACTION_BITS. Start it at 0 with the outputs disabled. */
+typedef struct {
+    int64_t integral;
+} winch_pwm_loop_t;
+
+/* One current-loop update, integer only. ref_code: the wanted current in ADC
+ * codes from zero current; adc_code: the converted sample. Returns the compare
+ * for the next update event, within LOOP_COMPARE_LO..LOOP_COMPARE_HI; the
+ * integral holds while the output is clamped (anti-windup). */
+static inline uint32_t winch_pwm_loop_step(winch_pwm_loop_t *s, int32_t ref_code, int32_t adc_code)
+{
+    const int64_t one = (int64_t)1 << WINCH_PWM_LOOP_FRACTION_BITS;
+    const int64_t lo = ((int64_t)WINCH_PWM_LOOP_COMPARE_LO - (int64_t)WINCH_PWM_LOOP_ZERO_COMPARE) * one;
+    const int64_t hi = ((int64_t)WINCH_PWM_LOOP_COMPARE_HI - (int64_t)WINCH_PWM_LOOP_ZERO_COMPARE) * one;
+    int64_t e = (int64_t)ref_code - (int64_t)WINCH_PWM_SHUNT_SIGN * ((int64_t)adc_code - WINCH_PWM_ADC_ZERO_CODE);
+    int64_t integral = s->integral + (int64_t)WINCH_PWM_LOOP_KI_Q * e;
+    int64_t u = (int64_t)WINCH_PWM_LOOP_KP_Q * e + integral;
+    if (u > hi) {
+        u = hi;
+        if (e > 0) {
+            integral = s->integral;
+        }
+    } else if (u < lo) {
+        u = lo;
+        if (e < 0) {
+            integral = s->integral;
+        }
+    }
+    s->integral = integral;
+    return (uint32_t)(((uint64_t)((int64_t)WINCH_PWM_LOOP_ZERO_COMPARE * one + u) + WINCH_PWM_LOOP_ROUND) >> WINCH_PWM_LOOP_FRACTION_BITS);
+}
+
+/* Current-loop state (floating point): the integral in volts. */
+typedef struct {
+    float integral_v;
+} winch_pwm_loop_f_t;
+
+/* One current-loop update in SI units: ref_a and measured_a in amperes (the
+ * measured current with SHUNT_SIGN and the sensing scale applied). Returns the
+ * compare for the next update event, within LOOP_COMPARE_LO..LOOP_COMPARE_HI;
+ * the integral holds while the output is clamped (anti-windup). */
+static inline uint32_t winch_pwm_loop_step_f(winch_pwm_loop_f_t *s, float ref_a, float measured_a)
+{
+    float e = ref_a - measured_a;
+    float integral = s->integral_v + (float)WINCH_PWM_LOOP_KI_V_PER_A_S * (float)WINCH_PWM_LOOP_PERIOD_S * e;
+    float counts = (float)WINCH_PWM_LOOP_ZERO_COMPARE + ((float)WINCH_PWM_LOOP_KP_V_PER_A * e + integral) * (float)WINCH_PWM_LOOP_COUNTS_PER_VOLT;
+    if (counts > (float)WINCH_PWM_LOOP_COMPARE_HI) {
+        counts = (float)WINCH_PWM_LOOP_COMPARE_HI;
+        if (e > 0.0f) {
+            integral = s->integral_v;
+        }
+    } else if (!(counts >= (float)WINCH_PWM_LOOP_COMPARE_LO)) {
+        counts = (float)WINCH_PWM_LOOP_COMPARE_LO;
+        if (!(e >= 0.0f)) {
+            integral = s->integral_v;
+        }
+    }
+    s->integral_v = integral;
+    return (uint32_t)(counts + 0.5f);
 }
 
 #endif /* WINCH_PWM_H */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:05998deed3083185639a970a35538529b690e462cfb3b296913a6ac3c13d5e61)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:0eb7a951c9849d08e61a4046a5839eb0d1b7533c89f9c283435f3fff57753eb4)
 //!
 //! Chosen setting
 //!   design         winch
@@ -11,7 +11,7 @@
 //!   resolution     5119 duty steps (12.3 bits)
 //!   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
 //!   duty limits    compare 32 to 5063 (0.6 % to 98.9 %); the load needs 3.9 % to 96.1 %
-//!   feasible band  11.721 kHz to 37.879 kHz
+//!   feasible band  11.721 kHz to 13.902 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         145 °C     63.5 °C     81.5 K  ok
@@ -21,6 +21,7 @@
 //!   resolution         10.00 bits  12.32 bits  2.32 bits  ok
 //!   dead-time              125 ns      118 ns    7.22 ns  ok
 //!   duty-range            98.91 %     96.12 %     2.78 %  ok
+//!   sampling-window        3.24 %      3.88 %     0.63 %  ok
 //!   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
 //!
 //! Over the operating range (worst points)
@@ -68,6 +69,21 @@
 //!   burst           junction 84.9 °C (leg-b-low at 20.0 A for 3.00 s: steady state at the burst's 4.78 W, the board giving no thermal transient data)
 //!   stall           27.0 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 154 °C at hot R_ds(on) (Computed in steady state: the board gives no thermal transient data, so the 500 ms stall time is not used (R_th(j-a) 7.30 K/W))
 //!
+//! Current sampling
+//!   sampled at   the middle of the off-time (a ramp's middle is the period's mean current: regular sampling)
+//!   ADC trigger  count 5089 matched while counting up, 30 ticks before the middle
+//!   window       the sensed state must last 2.750 µs (dead time, settling, acquisition): compares 166..4953 (3.2 %..96.8 %)
+//!   sign         the shunt reads the motor current as the plan counts it
+//!
+//! Current loop
+//!   rate         11.72 kHz = PWM 11.72 kHz / update divider 1 (none asked: one update per PWM period)
+//!   timing       sample 42.66 µs after the update event; the compare it gives takes effect at the next one: delay 85.32 µs (that plus half the held period); conversion and control code must fit in 42.41 µs
+//!   plant        R 204.1 mΩ (motor and channels at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
+//!   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5497 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
+//!   loop         crossover 988.5 Hz, phase margin 60.0°, step overshoot 7.2 %, rise to 90 % in 256.0 µs (exact discrete model: sample, delay, PWM hold, R–L)
+//!   fixed point  Q12: K_p 6977 (6976.587), K_i·T 380 (379.689) in compare counts per ADC code; 1.6113e-2 A per code, zero current at code 0
+//!   bus          the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)
+//!
 //! Worst case over part and operating spreads
 //!   junction    68.8 °C (limit 145 °C); ok; hot: V_th min, supply 40.0 V
 //!   total-loss  5.80 W; ok; hot: V_th min, supply 54.0 V
@@ -83,11 +99,12 @@
 //!   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
 //!   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
 //!   range-lowest-duty case  at compare duty 52.538 %: mean current 12.00 A (plan 12.00 A), ripple 327.9 mA peak to peak (plan 327.9 mA)
+//!   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.01 µs before and holds 1.63 µs after (settling and sampling need no more)
 //!   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
 //!
 //! Alternatives
-//!   rounder-frequency  20.000 kHz (divider 1, 6000 ticks, centre): +598 mW total loss, +1.8 K junction, -647 mA ripple, -0.77 bits resolution
-//!   highest-frequency  37.879 kHz (divider 1, 3168 ticks, centre): +1915 mW total loss, +5.7 K junction, -1080 mA ripple, -1.69 bits resolution
+//!   rounder-frequency  12.000 kHz (divider 1, 10000 ticks, centre): +20 mW total loss, +0.1 K junction, -36 mA ripple, -0.03 bits resolution
+//!   highest-frequency  13.902 kHz (divider 1, 8632 ticks, centre): +155 mW total loss, +0.5 K junction, -245 mA ripple, -0.25 bits resolution
 //!
 //! Findings
 //!   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
@@ -109,8 +126,8 @@
 //!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
 //!
 //! Inputs
-//!   winch.yaml                sha256 d18d1e481e2778b02c619cf0590b4dfc09b2a234f149e1fecca24a993512c9ca
-//!   heron-hb48.yaml           sha256 55451a06be438249f90e098e451be2275c6c8a484d7d545e3067fbc675f35811
+//!   winch.yaml                sha256 a1ee5ff7e1b10960c1692686c884c89d3a4a8ce2b8700a9fb3009f7b6e2d0ad7
+//!   heron-hb48.yaml           sha256 3b32658551b2c89a7906d64bcb0e7cc03a951a8d880c233ca899ae6de18c9566
 //!   switches/corrie-100.yaml  sha256 b376b085f2d49cf222861c7579f007155166c8a38da60a84924774039d8e631a
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either. Leg A takes the compare c; leg B takes DUTY_STEPS − c with the same polarity on the same up-down counter, so the load sees two pulses per period centred between the counter's bottom and top (ripple at twice the PWM frequency).
@@ -172,6 +189,45 @@ pub const LIMIT_FILTER_SAMPLES: u32 = 8;
 /// True: a fault turns the outputs off until the next period (cycle-by-cycle);
 /// false: until firmware clears it (latched).
 pub const LIMIT_CYCLE_BY_CYCLE: bool = true;
+// Current sampling: the shunt is read in the middle of the off-time
+// (a ramp's middle is the period's mean current).
+/// ADC trigger: this count, matched while counting up (a spare compare channel).
+pub const ADC_TRIGGER_COUNT: u32 = 5089;
+/// True when the trigger count is matched while counting up.
+pub const ADC_TRIGGER_COUNTING_UP: bool = true;
+/// Smallest compare at which the sensed state holds settling, dead time and sampling.
+pub const SAMPLING_COMPARE_MIN: u32 = 166;
+/// Largest compare at which the sensed state holds settling, dead time and sampling.
+pub const SAMPLING_COMPARE_MAX: u32 = 4953;
+/// 1: the shunt reads the motor current; −1: reversed.
+pub const SHUNT_SIGN: i64 = 1;
+/// Current loop: one update every `LOOP_UPDATE_DIVIDER` PWM periods (11.72 kHz).
+pub const LOOP_UPDATE_DIVIDER: u32 = 1;
+/// The loop's update rate in millihertz.
+pub const LOOP_RATE_MILLIHZ: u64 = 11721039;
+/// Proportional gain, V/A.
+pub const LOOP_KP_V_PER_A: f32 = 1.9823720159607603e0;
+/// Integral gain, V/(A·s).
+pub const LOOP_KI_V_PER_A_S: f32 = 1.2645496945990035e3;
+/// The update period, s.
+pub const LOOP_PERIOD_S: f32 = 8.531666666666668e-5;
+/// Compare counts per volt of loop output at the nominal supply.
+pub const LOOP_COUNTS_PER_VOLT: f32 = 5.3322916666666664e1;
+/// The compare of zero volts.
+pub const LOOP_ZERO_COMPARE: i64 = 2560;
+/// The loop output's clamp, low.
+pub const LOOP_COMPARE_LO: i64 = 166;
+/// The loop output's clamp, high.
+pub const LOOP_COMPARE_HI: i64 = 4953;
+/// Integer gains are in compare counts per ADC code times `2^LOOP_FRACTION_BITS`
+/// (1.611328e-2 A per code).
+pub const LOOP_FRACTION_BITS: u32 = 12;
+/// Proportional gain, integer.
+pub const LOOP_KP_Q: i64 = 6977;
+/// Integral gain per update, integer.
+pub const LOOP_KI_Q: i64 = 380;
+/// The ADC code at zero current.
+pub const ADC_ZERO_CODE: i64 = 0;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
@@ -246,4 +302,71 @@ pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Res
     let value = if nearest < lowest { lowest } else { nearest };
     let value = if value > highest { highest } else { value };
     pwm.set_duty_cycle(value as u16)
+}
+
+/// Current-loop state (integer): the integral in compare counts times
+/// `2^LOOP_FRACTION_BITS`. Start it at zero with the outputs disabled.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct LoopState {
+    integral: i64,
+}
+
+impl LoopState {
+    /// One current-loop update, integer only: `ref_code` the wanted current in
+    /// ADC codes from zero current, `adc_code` the converted sample. Returns the
+    /// compare for the next update event, within `LOOP_COMPARE_LO..=LOOP_COMPARE_HI`;
+    /// the integral holds while the output is clamped (anti-windup).
+    pub fn step(&mut self, ref_code: i32, adc_code: i32) -> u32 {
+        let one = 1i64 << LOOP_FRACTION_BITS;
+        let lo = (LOOP_COMPARE_LO - LOOP_ZERO_COMPARE) * one;
+        let hi = (LOOP_COMPARE_HI - LOOP_ZERO_COMPARE) * one;
+        let e = i64::from(ref_code) - SHUNT_SIGN * (i64::from(adc_code) - ADC_ZERO_CODE);
+        let mut integral = self.integral + LOOP_KI_Q * e;
+        let mut u = LOOP_KP_Q * e + integral;
+        if u > hi {
+            u = hi;
+            if e > 0 {
+                integral = self.integral;
+            }
+        } else if u < lo {
+            u = lo;
+            if e < 0 {
+                integral = self.integral;
+            }
+        }
+        self.integral = integral;
+        let half = (one >> 1) as u64;
+        (((LOOP_ZERO_COMPARE * one + u) as u64 + half) >> LOOP_FRACTION_BITS) as u32
+    }
+}
+
+/// Current-loop state (floating point): the integral in volts.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct LoopStateF {
+    integral_v: f32,
+}
+
+impl LoopStateF {
+    /// One current-loop update in SI units: `ref_a` and `measured_a` in amperes
+    /// (the measured current with the shunt's sign and scale applied). Returns the
+    /// compare for the next update event, within `LOOP_COMPARE_LO..=LOOP_COMPARE_HI`;
+    /// the integral holds while the output is clamped (anti-windup).
+    pub fn step(&mut self, ref_a: f32, measured_a: f32) -> u32 {
+        let e = ref_a - measured_a;
+        let mut integral = self.integral_v + LOOP_KI_V_PER_A_S * LOOP_PERIOD_S * e;
+        let mut counts = LOOP_ZERO_COMPARE as f32 + (LOOP_KP_V_PER_A * e + integral) * LOOP_COUNTS_PER_VOLT;
+        if counts > LOOP_COMPARE_HI as f32 {
+            counts = LOOP_COMPARE_HI as f32;
+            if e > 0.0 {
+                integral = self.integral_v;
+            }
+        } else if !(counts >= LOOP_COMPARE_LO as f32) {
+            counts = LOOP_COMPARE_LO as f32;
+            if !(e >= 0.0) {
+                integral = self.integral_v;
+            }
+        }
+        self.integral_v = integral;
+        (counts + 0.5) as u32
+    }
 }

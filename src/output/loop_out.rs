@@ -1,0 +1,220 @@
+//! The current sampling and current loop records turned into code literals and explanation
+//! rows (the numbers come from `model::current_loop`; only formatted here).
+
+use crate::input::units::{Dimension, format_quantity};
+use crate::model::current_loop::SamplingOut;
+use crate::output::context::{LoopLiterals, Row, SamplingLiterals};
+use crate::output::plan::Plan;
+
+fn q(v: f64, dim: Dimension) -> String {
+    format_quantity(v, dim, 4)
+}
+
+/// The sampling literals (defaults without a sampling plan).
+pub fn sampling_literals(s: Option<&SamplingOut>) -> SamplingLiterals {
+    let Some(s) = s else {
+        return SamplingLiterals::default();
+    };
+    SamplingLiterals {
+        fixed: s.trigger == "fixed",
+        trigger_count: s.trigger_count.to_string(),
+        counting_up: s.counting_up,
+        trigger_add: s.trigger_add.to_string(),
+        trigger_lead: s.lead_ticks.to_string(),
+        compare_min: s.compare_min.to_string(),
+        compare_max: s.compare_max.to_string(),
+        sign: if s.sign < 0.0 { "-1" } else { "1" }.into(),
+        state: s.state.clone(),
+    }
+}
+
+/// The loop's compare clamp: the plan's compare limits, narrowed by a sampling window.
+fn loop_clamp(plan: &Plan) -> (u64, u64) {
+    let (mut lo, mut hi) = (plan.pwm.compare_min, plan.pwm.compare_max);
+    if let Some(s) = &plan.sampling {
+        lo = lo.max(s.compare_min);
+        hi = hi.min(s.compare_max);
+    }
+    if let Some(t) = plan.three_phase.as_ref().and_then(|t| t.sampling.as_ref()) {
+        hi = hi.min(t.max_high_side_compare);
+    }
+    (lo, hi)
+}
+
+/// The loop literals (defaults without a loop).
+pub fn loop_literals(plan: &Plan) -> LoopLiterals {
+    let Some(l) = &plan.current_loop else {
+        return LoopLiterals::default();
+    };
+    let (lo, hi) = loop_clamp(plan);
+    let zero = (l.zero_volt_duty * plan.timer.duty_steps as f64).round() as u64;
+    let fp = l.fixed_point.as_ref();
+    LoopLiterals {
+        update_divider: l.update_divider.to_string(),
+        rate_millihz: format!("{}", (l.rate_hz * 1000.0).round() as u64),
+        rate_text: q(l.rate_hz, Dimension::Frequency),
+        zero_compare: zero.to_string(),
+        compare_lo: lo.to_string(),
+        compare_hi: hi.to_string(),
+        kp_v_per_a: format!("{:e}", l.kp_v_per_a),
+        ki_v_per_a_s: format!("{:e}", l.ki_v_per_a_s),
+        period_s: format!("{:e}", l.update_divider as f64 / l.pwm_rate_hz),
+        counts_per_volt: format!("{:e}", l.counts_per_volt),
+        fixed: fp.is_some(),
+        fraction_bits: fp.map_or(0, |f| f.fraction_bits).to_string(),
+        kp_q: fp.map_or(0, |f| f.kp).to_string(),
+        ki_q: fp.map_or(0, |f| f.ki).to_string(),
+        zero_code: fp.map_or(0, |f| f.zero_code).to_string(),
+        amps_per_code: fp.map_or(String::new(), |f| format!("{:.6e}", f.amps_per_code)),
+        round_half: fp
+            .map_or(0, |f| {
+                if f.fraction_bits > 0 {
+                    1u64 << (f.fraction_bits - 1)
+                } else {
+                    0
+                }
+            })
+            .to_string(),
+    }
+}
+
+/// The sampling explained, a row per choice.
+pub fn sampling_rows(plan: &Plan) -> Vec<Row> {
+    let Some(s) = &plan.sampling else {
+        return Vec::new();
+    };
+    let t = |v: f64| q(v, Dimension::Time);
+    let row = |label: &str, value: String| Row {
+        label: label.into(),
+        value,
+    };
+    let state = match s.state.as_str() {
+        "on-time" => {
+            "the middle of the on-time (a ramp's middle is the period's mean current: regular sampling)"
+        }
+        "off-time" => {
+            "the middle of the off-time (a ramp's middle is the period's mean current: regular sampling)"
+        }
+        _ => {
+            "the middle of the active state, leg A high and leg B low (the supply-return shunt carries the motor current only then)"
+        }
+    };
+    let trigger = if s.trigger == "fixed" {
+        format!(
+            "count {} matched while counting {}, {} ticks before the middle",
+            s.trigger_count,
+            if s.counting_up { "up" } else { "down" },
+            s.lead_ticks
+        )
+    } else {
+        format!(
+            "(compare + {})/2 − {} each period, counting up (the middle moves with the duty); {} at the rated compare",
+            s.trigger_add, s.lead_ticks, s.trigger_at_rated
+        )
+    };
+    vec![
+        row("sampled at", state.into()),
+        row("ADC trigger", trigger),
+        row(
+            "window",
+            format!(
+                "the sensed state must last {} (dead time, settling, acquisition): compares {}..{} ({:.1} %..{:.1} %)",
+                t(s.min_state_s),
+                s.compare_min,
+                s.compare_max,
+                100.0 * s.duty_min,
+                100.0 * s.duty_max
+            ),
+        ),
+        row(
+            "sign",
+            if s.sign < 0.0 {
+                "the shunt reads the motor current reversed (it flows up through the low side)"
+                    .into()
+            } else {
+                "the shunt reads the motor current as the plan counts it".into()
+            },
+        ),
+    ]
+}
+
+/// The current loop explained, a row per choice.
+pub fn loop_rows(plan: &Plan) -> Vec<Row> {
+    let Some(l) = &plan.current_loop else {
+        return Vec::new();
+    };
+    let t = |v: f64| q(v, Dimension::Time);
+    let hz = |v: f64| q(v, Dimension::Frequency);
+    let row = |label: &str, value: String| Row {
+        label: label.into(),
+        value,
+    };
+    let asked = l
+        .rate_asked_hz
+        .map_or("none asked: one update per PWM period".to_string(), |a| {
+            format!("{} asked", hz(a))
+        });
+    let mut rows = vec![
+        row(
+            "rate",
+            format!(
+                "{} = PWM {} / update divider {} ({asked})",
+                hz(l.rate_hz),
+                hz(l.pwm_rate_hz),
+                l.update_divider
+            ),
+        ),
+        row(
+            "timing",
+            format!(
+                "sample {} after the update event; the compare it gives takes effect at the next one: delay {} (that plus half the held period); conversion and control code must fit in {}",
+                t(l.sample_offset_s),
+                t(l.delay_s),
+                t(l.compute_budget_s)
+            ),
+        ),
+        row(
+            "plant",
+            format!(
+                "R {} (motor and channels at the rated junction temperature), L {}; {} per unit of compare duty",
+                q(l.resistance_ohm, Dimension::Resistance),
+                q(l.inductance_h, Dimension::Inductance),
+                q(l.volts_per_duty, Dimension::Voltage)
+            ),
+        ),
+        row(
+            "gains",
+            format!(
+                "K_p = α·L = {:.4} V/A, K_i = α·R = {:.4} V/(A·s), α = 2π·{} (internal model control, Harnefors and Nee 1998), set for a {:.0}° phase margin with the delay",
+                l.kp_v_per_a,
+                l.ki_v_per_a_s,
+                hz(l.bandwidth_hz),
+                l.phase_margin_asked_deg
+            ),
+        ),
+        row(
+            "loop",
+            format!(
+                "crossover {}, phase margin {:.1}°, step overshoot {:.1} %, rise to 90 % in {} (exact discrete model: sample, delay, PWM hold, R–L)",
+                hz(l.crossover_hz),
+                l.phase_margin_deg,
+                l.overshoot_pct,
+                t(l.rise_time_s)
+            ),
+        ),
+    ];
+    if let Some(f) = &l.fixed_point {
+        rows.push(row(
+            "fixed point",
+            format!(
+                "Q{}: K_p {} ({:.3}), K_i·T {} ({:.3}) in compare counts per ADC code; {:.4e} A per code, zero current at code {}",
+                f.fraction_bits, f.kp, f.kp_exact, f.ki, f.ki_exact, f.amps_per_code, f.zero_code
+            ),
+        ));
+    }
+    rows.push(row(
+        "bus",
+        "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)".into(),
+    ));
+    rows
+}
