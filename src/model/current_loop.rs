@@ -86,8 +86,10 @@ pub struct CurrentLoopOut {
     /// PWM periods per control update.
     pub update_divider: u64,
     pub rate_hz: f64,
-    /// From the update event to the instant whose averaged current the sample reads, s.
+    /// The loop's sample offset τ (`sampling::BrushedSampling::offset_s`), s.
     pub sample_offset_s: f64,
+    /// From the update event to the acquisition's middle at the rated compare, s.
+    pub sample_instant_s: f64,
     /// Sample to the new compare's taking effect plus half the held period, s.
     pub delay_s: f64,
     /// From the end of acquisition to the next update event, s: the conversion and the
@@ -332,6 +334,13 @@ pub fn plan(
     };
     findings.extend(reversal_finding(ev, c));
     let (volts_per_duty, zero_volt_duty) = pwm_gain(ev, ev.rated.v_bus_v);
+    findings.extend(floor_finding(
+        ev,
+        c,
+        w.as_ref(),
+        (volts_per_duty, zero_volt_duty),
+        plant.r_ohm,
+    ));
     let counts_per_volt = s.duty_steps as f64 / volts_per_duty;
     let fixed = spec
         .fixed_point
@@ -353,6 +362,7 @@ pub fn plan(
         update_divider: n,
         rate_hz: pwm_hz / n as f64,
         sample_offset_s: offset,
+        sample_instant_s: instant,
         delay_s: design.delay_s,
         compute_budget_s: timing.period_s - instant - 0.5 * acquire,
         resistance_ohm: plant.r_ohm,
@@ -388,6 +398,40 @@ fn reversal_finding(ev: &Evaluator, c: &Candidate) -> Option<LoopFinding> {
             "At the rated case the ripple ({pp:.3} A peak to peak) exceeds twice the current ({i:.3} A): the current reverses within each PWM period and the dead time's voltage follows it, so the loop's margin and overshoot differ from the figures stated; raise the PWM frequency or the inductance."
         ),
     })
+}
+
+/// Share of the rated current a standstill may carry at the loop's lowest compare before a
+/// finding says so (own bound).
+const FLOOR_SHARE: f64 = 0.1;
+
+/// A warning when the loop's lowest compare (the compare limits within the sampling window)
+/// still drives a stalled motor with more than [`FLOOR_SHARE`] of the rated current: a loop
+/// asked for zero current cannot give it, the outputs must then be disabled instead.
+fn floor_finding(
+    ev: &Evaluator,
+    c: &Candidate,
+    w: Option<&BrushedSampling>,
+    (volts_per_duty, zero_volt_duty): (f64, f64),
+    r_ohm: f64,
+) -> Option<LoopFinding> {
+    let s = pwm_setting(&c.setting);
+    let steps = s.duty_steps as f64;
+    let lo = c
+        .duty_limits
+        .map_or(0, |l| l.min_counts)
+        .max(w?.compare_min) as f64;
+    let v = (lo / steps - zero_volt_duty) * volts_per_duty;
+    let i = v / r_ohm;
+    let rated = c.rated.case.load_current_a.abs();
+    (i > FLOOR_SHARE * rated).then(|| LoopFinding {
+        severity: Severity::Warning,
+        code: "current-loop-floor",
+        message: format!(
+            "The loop's lowest compare ({lo:.0} counts: the compare limits within the sampling window) puts {v:.2} V on the motor, {i:.2} A at standstill ({:.0} % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or read the current where the window allows small duties (a leg or phase shunt).",
+            100.0 * i / rated
+        ),
+    })
+    .filter(|_| ev.three_phase.is_none())
 }
 
 /// The integer gains: `K·(A per code)·(counts per V)·2^q`, the integral per update

@@ -167,10 +167,10 @@ pub fn loop_rows(plan: &Plan) -> Vec<Row> {
         row(
             "timing",
             format!(
-                "sample {} after the update event; the compare it gives takes effect at the next one: delay {} (that plus half the held period); conversion and control code must fit in {}",
-                t(l.sample_offset_s),
-                t(l.delay_s),
-                t(l.compute_budget_s)
+                "the sample's middle {} after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in {}; the loop sees the sample as the averaged current {} after the update event",
+                t(l.sample_instant_s),
+                t(l.compute_budget_s),
+                t(l.sample_offset_s)
             ),
         ),
         row(

@@ -386,6 +386,54 @@ mod tests {
         assert!((off.offset_s(&t, 0.5) - 18.75e-6).abs() < 1e-15);
     }
 
+    /// Every topology and shunt place, on both counts, against the circuit worked by hand:
+    /// where does the shunt carry the motor current, and in which sense?
+    #[test]
+    fn every_shunt_place_reads_the_state_it_carries_the_current_in() {
+        use BrushedStage::*;
+        use SenseState::*;
+        use ShuntPlace::*;
+        let table = [
+            // A single switch: its source shunt carries the current only while it is on.
+            (LowSide, SupplyReturn, [(On, 1.0), (On, 1.0)]),
+            (LowSide, Leg, [(On, 1.0), (On, 1.0)]),
+            // A half-bridge: the supply only while the high side is on; the low side's shunt
+            // only while it freewheels, upwards.
+            (HalfBridge, SupplyReturn, [(On, 1.0), (On, 1.0)]),
+            (HalfBridge, Leg, [(Off, -1.0), (Off, -1.0)]),
+            // Bipolar: the supply carries ±I always (read while A is high); leg B's low side
+            // carries it while A is high.
+            (HBridgeBipolar, SupplyReturn, [(On, 1.0), (On, 1.0)]),
+            (HBridgeBipolar, Leg, [(On, 1.0), (On, 1.0)]),
+            // Unipolar: the supply only in the active state; leg B's low side in the zero
+            // state of both low sides, at the top.
+            (
+                HBridgeUnipolar,
+                SupplyReturn,
+                [(Active, 1.0), (Active, 1.0)],
+            ),
+            (HBridgeUnipolar, Leg, [(Off, 1.0), (Off, 1.0)]),
+        ];
+        for (stage, place, [centre, edge]) in table {
+            assert_eq!(
+                sensed_state(stage, place, true),
+                centre,
+                "{stage:?} {place:?}"
+            );
+            assert_eq!(
+                sensed_state(stage, place, false),
+                edge,
+                "{stage:?} {place:?}"
+            );
+        }
+        // A phase shunt always carries it: the top of an up-down count, the on-time's
+        // middle of an up-count.
+        for stage in [LowSide, HalfBridge, HBridgeBipolar, HBridgeUnipolar] {
+            assert_eq!(sensed_state(stage, Phase, true), (Off, 1.0));
+            assert_eq!(sensed_state(stage, Phase, false), (On, 1.0));
+        }
+    }
+
     #[test]
     fn no_window_when_the_states_are_too_short() {
         let t = SamplingTimer {

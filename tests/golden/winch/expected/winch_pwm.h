@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:4e1f60e1581bf1a53ccd91b8ecf992050084c8990e3d1feca2ac7bc3c1af32ec)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:c7930c2dd017c858f0a7fff96a9b9d2da4c13b651dc7f9dd590a78e18b374a7d)
  *
  * Chosen setting
  *   design         winch
@@ -78,7 +78,7 @@
  *
  * Current loop
  *   rate         11.72 kHz = PWM 11.72 kHz / update divider 1 (none asked: one update per PWM period)
- *   timing       sample 42.66 µs after the update event; the compare it gives takes effect at the next one: delay 85.32 µs (that plus half the held period); conversion and control code must fit in 42.41 µs
+ *   timing       the sample's middle 42.66 µs after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 42.41 µs; the loop sees the sample as the averaged current 42.66 µs after the update event
  *   plant        R 204.1 mΩ (motor and channels at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
  *   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5497 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
  *   loop         crossover 988.5 Hz, phase margin 60.0°, step overshoot 7.2 %, rise to 90 % in 256.0 µs (exact discrete model: sample, delay, PWM hold, R–L)

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:0eb7a951c9849d08e61a4046a5839eb0d1b7533c89f9c283435f3fff57753eb4)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:d79ff728edfe28c6ba147c3491060a99a8aa6dbcdfe06dc903b39337eccc5d89)
 //!
 //! Chosen setting
 //!   design         winch
@@ -77,7 +77,7 @@
 //!
 //! Current loop
 //!   rate         11.72 kHz = PWM 11.72 kHz / update divider 1 (none asked: one update per PWM period)
-//!   timing       sample 42.66 µs after the update event; the compare it gives takes effect at the next one: delay 85.32 µs (that plus half the held period); conversion and control code must fit in 42.41 µs
+//!   timing       the sample's middle 42.66 µs after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 42.41 µs; the loop sees the sample as the averaged current 42.66 µs after the update event
 //!   plant        R 204.1 mΩ (motor and channels at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
 //!   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5497 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
 //!   loop         crossover 988.5 Hz, phase margin 60.0°, step overshoot 7.2 %, rise to 90 % in 256.0 µs (exact discrete model: sample, delay, PWM hold, R–L)
