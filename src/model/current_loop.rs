@@ -90,6 +90,9 @@ pub struct CurrentLoopOut {
     pub sample_offset_s: f64,
     /// From the update event to the acquisition's middle at the rated compare, s.
     pub sample_instant_s: f64,
+    /// A brushed stage's sample less the mean current of its PWM period at the rated case,
+    /// A (the R–L's curvature; 0 for straight ramps).
+    pub sample_bias_a: Option<f64>,
     /// Sample to the new compare's taking effect plus half the held period, s.
     pub delay_s: f64,
     /// From the end of acquisition to the next update event, s: the conversion and the
@@ -184,16 +187,23 @@ fn pwm_gain(ev: &Evaluator, v_bus_v: f64) -> (f64, f64) {
     }
 }
 
-/// The loop's resistance: the motor (a phase of a three-phase motor) plus the channels in
-/// its path (two on an H-bridge, one otherwise) at the rated case's junction temperature
-/// (the limit when it has none).
+/// The loop's resistance: the motor (a phase of a three-phase motor) plus what the current
+/// flows through on average: the channels in its path (two on an H-bridge, one otherwise) at
+/// the rated case's junction temperature (the limit when it has none); a single switch only
+/// for its duty, the freewheel diode's slope resistance for the rest.
 fn loop_resistance_ohm(ev: &Evaluator, c: &Candidate) -> f64 {
-    let switches = match ev.stage.topology {
-        Topology::HBridge(_) if ev.three_phase.is_none() => 2.0,
-        _ => 1.0,
-    };
     let t_j = c.rated.junction_c.unwrap_or(ev.limits.t_j_max_c);
-    ev.motor_r_ohm + switches * losses::r_ds_on_ohm(&ev.stage.switch, t_j)
+    let r_ds = losses::r_ds_on_ohm(&ev.stage.switch, t_j);
+    let path = match ev.stage.topology {
+        Topology::HBridge(_) if ev.three_phase.is_none() => 2.0 * r_ds,
+        Topology::LowSide => {
+            let d = c.rated.compare_duty.clamp(0.0, 1.0);
+            let r_d = ev.stage.diode.as_ref().map_or(0.0, |f| f.r_d_ohm);
+            d * r_ds + (1.0 - d) * r_d
+        }
+        _ => r_ds,
+    };
+    ev.motor_r_ohm + path
 }
 
 /// The update divider for the asked rate: the nearest whole number of PWM periods within
@@ -219,8 +229,9 @@ fn sample_timing(ev: &Evaluator, c: &Candidate, w: Option<&BrushedSampling>) -> 
     Some((w.offset_s(&t, d), w.instant_s(&t, d)))
 }
 
-/// A brushed stage's exact sampled plant (`sampled_plant::switched_plant`) at the rated
-/// compare and current: the carrier and load-voltage levels of its topology (a single switch
+/// A brushed stage's exact sampled plant (`sampled_plant::switched_plant`) and the sample's
+/// bias against the period's mean (`sampled_plant::sample_bias_a`) at the rated compare and
+/// current: the carrier and load-voltage levels of its topology (a single switch
 /// puts the freewheel diode's `−V_f` on the motor while off; a bipolar bridge `−V`), the
 /// sample where the sampling plan puts it.
 fn switched(
@@ -229,7 +240,7 @@ fn switched(
     w: &BrushedSampling,
     n: u64,
     plant: &RlPlant,
-) -> Option<DiscretePlant> {
+) -> Option<(DiscretePlant, f64)> {
     let s = pwm_setting(&c.setting);
     let centre = s.alignment == crate::model::timer::Alignment::Centre;
     let v = ev.rated.v_bus_v;
@@ -267,12 +278,11 @@ fn switched(
         v_off_v: v_off,
         sample,
     };
-    sampled_plant::switched_plant(
-        plant,
-        &period,
-        c.rated.compare_duty,
-        c.rated.case.load_current_a,
-    )
+    let (d, i) = (c.rated.compare_duty, c.rated.case.load_current_a);
+    Some((
+        sampled_plant::switched_plant(plant, &period, d, i)?,
+        sampled_plant::sample_bias_a(plant, &period, d, i),
+    ))
 }
 
 /// The plan's current loop (`None` when the design asks for none or the stage samples no
@@ -319,9 +329,12 @@ pub fn plan(
         l_h: ev.motor_l_h,
     };
     let asked_pm = spec.phase_margin_deg.unwrap_or(DEFAULT_PHASE_MARGIN_DEG);
-    let discrete = match &w {
-        Some(w) => switched(ev, c, w, n, &plant),
-        None => Some(DiscretePlant::held(&plant, &timing)),
+    let (discrete, bias) = match &w {
+        Some(w) => match switched(ev, c, w, n, &plant) {
+            Some((dp, bias)) => (Some(dp), Some(bias)),
+            None => (None, None),
+        },
+        None => (Some(DiscretePlant::held(&plant, &timing)), None),
     };
     let design = discrete.and_then(|dp| cl::design_loop(&plant, &dp, timing.delay_s(), asked_pm));
     let Some(design) = design else {
@@ -363,6 +376,7 @@ pub fn plan(
         rate_hz: pwm_hz / n as f64,
         sample_offset_s: offset,
         sample_instant_s: instant,
+        sample_bias_a: bias,
         delay_s: design.delay_s,
         compute_budget_s: timing.period_s - instant - 0.5 * acquire,
         resistance_ohm: plant.r_ohm,
@@ -384,18 +398,24 @@ pub fn plan(
     (Some(out), findings)
 }
 
-/// A warning when the rated current reverses within each PWM period (ripple peak to peak
-/// above twice the mean) on a stage with dead time: the dead time's voltage then follows the
-/// current, a gain the loop figures leave out (the register-level simulation of the tests
-/// sees the step overshoot collapse there).
+/// A warning when the rated current does not stay one-signed and continuous through each PWM
+/// period (ripple peak to peak above twice the mean): on a bridge it reverses and the dead
+/// time's voltage follows it; on a single switch it falls to zero and stays there
+/// (discontinuous conduction). Either way the plant is no longer the R–L the loop figures
+/// assume (the register-level simulation of the tests sees the step overshoot collapse there).
 fn reversal_finding(ev: &Evaluator, c: &Candidate) -> Option<LoopFinding> {
     let i = c.rated.case.load_current_a.abs();
     let pp = c.rated.ripple.peak_to_peak_a;
-    (ev.needs_dead_time() && ev.three_phase.is_none() && pp > 2.0 * i).then(|| LoopFinding {
+    let what = if ev.needs_dead_time() {
+        "the current reverses within each PWM period and the dead time's voltage follows it"
+    } else {
+        "the current falls to zero within each PWM period (discontinuous conduction)"
+    };
+    (ev.three_phase.is_none() && pp > 2.0 * i).then(|| LoopFinding {
         severity: Severity::Warning,
         code: "current-loop-reversal",
         message: format!(
-            "At the rated case the ripple ({pp:.3} A peak to peak) exceeds twice the current ({i:.3} A): the current reverses within each PWM period and the dead time's voltage follows it, so the loop's margin and overshoot differ from the figures stated; raise the PWM frequency or the inductance."
+            "At the rated case the ripple ({pp:.3} A peak to peak) exceeds twice the current ({i:.3} A): {what}, so the loop's margin and overshoot differ from the figures stated; raise the PWM frequency or the inductance."
         ),
     })
 }

@@ -99,16 +99,24 @@ pub fn sampling_rows(plan: &Plan) -> Vec<Row> {
             "the middle of the active state, leg A high and leg B low (the supply-return shunt carries the motor current only then)"
         }
     };
+    let shifted = if s.shift_ticks > 0 {
+        format!(
+            ", which lies {} ticks (half the dead time) after the reference's",
+            s.shift_ticks
+        )
+    } else {
+        String::new()
+    };
     let trigger = if s.trigger == "fixed" {
         format!(
-            "count {} matched while counting {}, {} ticks before the middle",
+            "count {} matched while counting {}, {} ticks before the state's middle{shifted}",
             s.trigger_count,
             if s.counting_up { "up" } else { "down" },
             s.lead_ticks
         )
     } else {
         format!(
-            "(compare + {})/2 − {} each period, counting up (the middle moves with the duty); {} at the rated compare",
+            "(compare + {})/2 − {} each period, counting up (the middle moves with the duty{shifted}); {} at the rated compare",
             s.trigger_add, s.lead_ticks, s.trigger_at_rated
         )
     };
@@ -174,13 +182,36 @@ pub fn loop_rows(plan: &Plan) -> Vec<Row> {
             ),
         ),
         row(
+            "reading",
+            match l.sample_bias_a {
+                Some(b) => format!(
+                    "at the rated case the sample reads the PWM period's mean current {} (the R–L's curvature; a straight ramp's middle is its mean); the integrator settles on the sample, so the mean is off by as much",
+                    if b.abs() < 5e-5 {
+                        "to within 0.05 mA".to_string()
+                    } else {
+                        format!("{} {}", if b > 0.0 { "plus" } else { "minus" }, q(b.abs(), Dimension::Current))
+                    }
+                ),
+                None => "the sample reads the averaged current at the counter top (the middle of the low-side on-time)".into(),
+            },
+        ),
+        row(
             "plant",
-            format!(
-                "R {} (motor and channels at the rated junction temperature), L {}; {} per unit of compare duty",
-                q(l.resistance_ohm, Dimension::Resistance),
-                q(l.inductance_h, Dimension::Inductance),
-                q(l.volts_per_duty, Dimension::Voltage)
-            ),
+            if plan.three_phase.is_some() {
+                format!(
+                    "per phase R {} (winding and one channel at the rated junction temperature), L {}; {} of phase voltage per unit of leg duty; the same gains serve the d and q loops of a round-rotor motor, the cross-coupling ω_e·L left to the firmware's decoupling (the three-phase loop is not closed on the register-level simulation; the brushed loops are)",
+                    q(l.resistance_ohm, Dimension::Resistance),
+                    q(l.inductance_h, Dimension::Inductance),
+                    q(l.volts_per_duty, Dimension::Voltage)
+                )
+            } else {
+                format!(
+                    "R {} (motor, and the channels, or on a single switch its channel and the freewheel diode by their shares of the period, at the rated junction temperature), L {}; {} per unit of compare duty",
+                    q(l.resistance_ohm, Dimension::Resistance),
+                    q(l.inductance_h, Dimension::Inductance),
+                    q(l.volts_per_duty, Dimension::Voltage)
+                )
+            },
         ),
         row(
             "gains",
@@ -214,7 +245,11 @@ pub fn loop_rows(plan: &Plan) -> Vec<Row> {
     }
     rows.push(row(
         "bus",
-        "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)".into(),
+        if plan.three_phase.is_some() {
+            "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrators while the voltage vector is limited".into()
+        } else {
+            "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)".into()
+        },
     ));
     rows
 }

@@ -56,9 +56,10 @@ pub struct SwitchedPeriod {
     pub v_on_v: f64,
     pub v_off_v: f64,
     pub sample: SampleAt,
-    /// The on-level's start after the reference's rise, s: the dead time on a complementary
-    /// leg carrying forward current (its body diode holds the off-level until the switch turns
-    /// on); 0 on a single switch or a unipolar bridge. The sample is as late again by half.
+    /// The dead time on complementary outputs carrying forward current, s (0 on a single
+    /// switch): the on-level starts this late after the reference's rise (the leg's body diode
+    /// holds the off-level until the switch turns on); on a unipolar bridge leg A turns high
+    /// and leg B low this late. The sample is half of it late.
     pub dead_s: f64,
 }
 
@@ -80,12 +81,16 @@ fn intervals(w: &SwitchedPeriod, d: f64) -> Vec<(f64, f64, f64)> {
             ]
         }
         Carrier::CentreUnipolar => {
-            let leg = |duty: f64, x: f64| x < 0.5 * duty * t || x >= t - 0.5 * duty * t;
+            // Forward current: leg A (current out) turns high a dead time late, leg B
+            // (current in) turns low a dead time late.
+            let td = w.dead_s;
+            let a = |x: f64| x < 0.5 * d * t || x >= t - 0.5 * d * t + td;
+            let b = |x: f64| x < 0.5 * (1.0 - d) * t + td || x >= t - 0.5 * (1.0 - d) * t;
             let mut cuts = [
                 0.0,
                 0.5 * d * t,
-                0.5 * (1.0 - d) * t,
-                t - 0.5 * d * t,
+                (t - 0.5 * d * t + td).min(t),
+                (0.5 * (1.0 - d) * t + td).min(t),
                 t - 0.5 * (1.0 - d) * t,
                 t,
             ];
@@ -94,8 +99,7 @@ fn intervals(w: &SwitchedPeriod, d: f64) -> Vec<(f64, f64, f64)> {
                 .filter(|c| c[1] > c[0])
                 .map(|c| {
                     let mid = 0.5 * (c[0] + c[1]);
-                    let v =
-                        f64::from(u8::from(leg(d, mid))) - f64::from(u8::from(leg(1.0 - d, mid)));
+                    let v = f64::from(u8::from(a(mid))) - f64::from(u8::from(b(mid)));
                     (c[0], c[1], on * v)
                 })
                 .collect()
@@ -147,6 +151,38 @@ fn control_period(p: &RlPlant, w: &SwitchedPeriod, e_v: f64, x: f64, d: f64) -> 
         }
     }
     (i, y)
+}
+
+/// `∫ i dt` over `dt` from `i0` under `v` (exact; linear when R is 0).
+fn charge(p: &RlPlant, i0: f64, v: f64, e_v: f64, dt: f64) -> f64 {
+    if p.r_ohm <= 0.0 {
+        return i0 * dt + 0.5 * (v - e_v) * dt * dt / p.l_h;
+    }
+    let i_inf = (v - e_v) / p.r_ohm;
+    let tau = p.l_h / p.r_ohm;
+    i_inf * dt + (i0 - i_inf) * tau * -(-dt / tau).exp_m1()
+}
+
+/// The sample's bias at compare duty `d` carrying the mean current `i_a` (the back-EMF set
+/// as in [`switched_plant`]), A: the sample less the mean current of the PWM period it is
+/// taken in, in the periodic steady state. Zero for straight ramps; the R–L's curvature
+/// moves it (own derivation, exact exponentials).
+pub fn sample_bias_a(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> f64 {
+    let single = SwitchedPeriod {
+        periods_per_update: 1,
+        ..*w
+    };
+    let e_v = mean_v(&single, d) - p.r_ohm * i_a;
+    let (f0, _) = control_period(p, &single, e_v, 0.0, d);
+    let (f1, _) = control_period(p, &single, e_v, 1.0, d);
+    let x0 = f0 / (1.0 - (f1 - f0));
+    let (_, y) = control_period(p, &single, e_v, x0, d);
+    let (mut i, mut q) = (x0, 0.0);
+    for (t0, t1, v) in intervals(&single, d) {
+        q += charge(p, i, v, e_v, t1 - t0);
+        i = advance(p, i, v, e_v, t1 - t0);
+    }
+    y - q / w.pwm_period_s
 }
 
 /// The discrete plant at compare duty `d` carrying the mean current `i_a` (the back-EMF set
@@ -238,6 +274,33 @@ mod tests {
             "{} vs {expected}",
             p.b0
         );
+    }
+
+    #[test]
+    fn a_straight_ramp_is_read_at_its_mean() {
+        // Almost no R: straight ramps, the middle of either state is the period's mean.
+        let straight = RlPlant {
+            r_ohm: 1e-6,
+            l_h: 400e-6,
+        };
+        for (carrier, sample) in [
+            (Carrier::Centre, SampleAt::Share(0.0)),
+            (Carrier::Centre, SampleAt::Share(0.5)),
+            (Carrier::Edge, SampleAt::OnMiddle),
+            (Carrier::Edge, SampleAt::OffMiddle),
+            (Carrier::CentreUnipolar, SampleAt::Share(0.25)),
+        ] {
+            let w = period(carrier, sample);
+            let bias = sample_bias_a(&straight, &w, 0.7, 5.0);
+            assert!(bias.abs() < 1e-6, "{carrier:?} {sample:?}: {bias}");
+        }
+        // A short time constant bends the ramps: the bias grows with T/τ.
+        let bent = RlPlant {
+            r_ohm: 8.0,
+            l_h: 400e-6,
+        };
+        let w = period(Carrier::Centre, SampleAt::Share(0.5));
+        assert!(sample_bias_a(&bent, &w, 0.3, 1.0).abs() > 1e-3);
     }
 
     #[test]

@@ -137,17 +137,15 @@ impl SamplingTimer {
     }
 }
 
-/// Ticks the sensed state's middle lies after the reference's: half the dead time on a leg
-/// with complementary outputs (the incoming switch of each state turns on a dead time late,
-/// and the body diode the forward current forces on holds the old level meanwhile), none on
-/// a single switch or a unipolar bridge (whose states, with forward current, begin at the
-/// reference edges through the diodes).
+/// Ticks the sensed state's middle lies after the reference's: half the dead time on a stage
+/// with complementary outputs (with forward current the leg it flows out of turns high a dead
+/// time late, its low-side diode holding it low meanwhile, and the leg it flows into turns
+/// low a dead time late, its high-side diode holding it high: every state begins, or ends, a
+/// dead time after its reference edge on the same side), none on a single switch.
 fn dead_time_shift_ticks(stage: BrushedStage, t: &SamplingTimer) -> u64 {
     match stage {
-        BrushedStage::HalfBridge | BrushedStage::HBridgeBipolar => {
-            (0.5 * t.dead_s / t.tick_s).round() as u64
-        }
-        _ => 0,
+        BrushedStage::LowSide => 0,
+        _ => (0.5 * t.dead_s / t.tick_s).round() as u64,
     }
 }
 
@@ -203,7 +201,7 @@ pub fn brushed_sampling(
         // Active between P − c and c on each count, its middle ⌈P/2⌉ or ⌊P/2⌋ from the
         // edges: c ≥ ⌈P/2⌉ + need.
         (SenseState::Active, _) => (
-            fixed((p / 2).checked_sub(lead)?, true),
+            fixed((p / 2 + shift).checked_sub(lead)?, true),
             p.div_ceil(2) + past,
             p,
         ),
@@ -299,7 +297,7 @@ mod tests {
     // - a complementary leg's states are centred half a dead time late, round(10.8) = 11
     //   ticks, and must last 2·(0.25 + 1) + 0.3 = 2.8 µs: half of it 100.8 ticks, so 102
     //   counts on each side of the middle (strictly past, one more for the shift's rounding);
-    // - a single switch or a unipolar bridge: 2·(0.25 + 0.3 + 1) = 3.1 µs, 111.6 ticks, 112.
+    // - a single switch: 2·(0.25 + 0.3 + 1) = 3.1 µs, 111.6 ticks, 112.
     const TIMER: SamplingTimer = SamplingTimer {
         centre: true,
         duty_steps: 1800,
@@ -351,14 +349,15 @@ mod tests {
         )
         .unwrap();
         assert_eq!(s.state, SenseState::Active);
+        // The active state's middle half a dead time past P/2.
         assert_eq!(
             s.trigger,
             TriggerRule::Fixed {
-                count: 900 - 18,
+                count: 900 + 11 - 18,
                 counting_up: true
             }
         );
-        assert_eq!(s.compare_min, 900 + 112);
+        assert_eq!(s.compare_min, 900 + 102);
         assert!((s.offset_s(&TIMER, 0.4) - 12.5e-6).abs() < 1e-15);
     }
 
@@ -366,7 +365,14 @@ mod tests {
     fn a_unipolar_leg_shunt_is_read_in_the_zero_state_at_the_top() {
         let s = brushed_sampling(BrushedStage::HBridgeUnipolar, ShuntPlace::Leg, &TIMER).unwrap();
         assert_eq!(s.state, SenseState::Off);
-        assert_eq!((s.compare_min, s.compare_max), (112, 1800 - 112));
+        assert_eq!(
+            s.trigger,
+            TriggerRule::Fixed {
+                count: 1800 - 7,
+                counting_up: true
+            }
+        );
+        assert_eq!((s.compare_min, s.compare_max), (102, 1800 - 102));
     }
 
     #[test]

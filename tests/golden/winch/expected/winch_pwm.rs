@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:d79ff728edfe28c6ba147c3491060a99a8aa6dbcdfe06dc903b39337eccc5d89)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:ba73aed0fe2c2b027bfb87d89068b67ebe0c18bcb4494e0a35b65fc6b02b7fcd)
 //!
 //! Chosen setting
 //!   design         winch
@@ -11,7 +11,7 @@
 //!   resolution     5119 duty steps (12.3 bits)
 //!   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
 //!   duty limits    compare 32 to 5063 (0.6 % to 98.9 %); the load needs 3.9 % to 96.1 %
-//!   feasible band  11.721 kHz to 13.902 kHz
+//!   feasible band  11.721 kHz to 14.486 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         145 °C     63.5 °C     81.5 K  ok
@@ -21,7 +21,7 @@
 //!   resolution         10.00 bits  12.32 bits  2.32 bits  ok
 //!   dead-time              125 ns      118 ns    7.22 ns  ok
 //!   duty-range            98.91 %     96.12 %     2.78 %  ok
-//!   sampling-window        3.24 %      3.88 %     0.63 %  ok
+//!   sampling-window        3.11 %      3.88 %     0.77 %  ok
 //!   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
 //!
 //! Over the operating range (worst points)
@@ -71,17 +71,18 @@
 //!
 //! Current sampling
 //!   sampled at   the middle of the off-time (a ramp's middle is the period's mean current: regular sampling)
-//!   ADC trigger  count 5089 matched while counting up, 30 ticks before the middle
-//!   window       the sensed state must last 2.750 µs (dead time, settling, acquisition): compares 166..4953 (3.2 %..96.8 %)
+//!   ADC trigger  count 5096 matched while counting up, 30 ticks before the state's middle, which lies 7 ticks (half the dead time) after the reference's
+//!   window       the sensed state must last 2.625 µs (dead time, settling, acquisition): compares 159..4960 (3.1 %..96.9 %)
 //!   sign         the shunt reads the motor current as the plan counts it
 //!
 //! Current loop
 //!   rate         11.72 kHz = PWM 11.72 kHz / update divider 1 (none asked: one update per PWM period)
-//!   timing       the sample's middle 42.66 µs after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 42.41 µs; the loop sees the sample as the averaged current 42.66 µs after the update event
-//!   plant        R 204.1 mΩ (motor and channels at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
-//!   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5497 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
+//!   timing       the sample's middle 42.72 µs after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 42.35 µs; the loop sees the sample as the averaged current 42.66 µs after the update event
+//!   reading      at the rated case the sample reads the PWM period's mean current minus 2.295 mA (the R–L's curvature; a straight ramp's middle is its mean); the integrator settles on the sample, so the mean is off by as much
+//!   plant        R 204.1 mΩ (motor, and the channels, or on a single switch its channel and the freewheel diode by their shares of the period, at the rated junction temperature), L 320.0 µH; 96.00 V per unit of compare duty
+//!   gains        K_p = α·L = 1.9824 V/A, K_i = α·R = 1264.5502 V/(A·s), α = 2π·986.0 Hz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
 //!   loop         crossover 988.5 Hz, phase margin 60.0°, step overshoot 7.2 %, rise to 90 % in 256.0 µs (exact discrete model: sample, delay, PWM hold, R–L)
-//!   fixed point  Q12: K_p 6977 (6976.587), K_i·T 380 (379.689) in compare counts per ADC code; 1.6113e-2 A per code, zero current at code 0
+//!   fixed point  Q12: K_p 6977 (6976.590), K_i·T 380 (379.689) in compare counts per ADC code; 1.6113e-2 A per code, zero current at code 0
 //!   bus          the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)
 //!
 //! Worst case over part and operating spreads
@@ -99,12 +100,12 @@
 //!   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
 //!   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
 //!   range-lowest-duty case  at compare duty 52.538 %: mean current 12.00 A (plan 12.00 A), ripple 327.9 mA peak to peak (plan 327.9 mA)
-//!   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.01 µs before and holds 1.63 µs after (settling and sampling need no more)
+//!   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.01 µs before and holds 1.52 µs after (settling and sampling need no more)
 //!   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
 //!
 //! Alternatives
 //!   rounder-frequency  12.000 kHz (divider 1, 10000 ticks, centre): +20 mW total loss, +0.1 K junction, -36 mA ripple, -0.03 bits resolution
-//!   highest-frequency  13.902 kHz (divider 1, 8632 ticks, centre): +155 mW total loss, +0.5 K junction, -245 mA ripple, -0.25 bits resolution
+//!   highest-frequency  14.486 kHz (divider 1, 8284 ticks, centre): +197 mW total loss, +0.6 K junction, -298 mA ripple, -0.31 bits resolution
 //!
 //! Findings
 //!   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
@@ -192,13 +193,13 @@ pub const LIMIT_CYCLE_BY_CYCLE: bool = true;
 // Current sampling: the shunt is read in the middle of the off-time
 // (a ramp's middle is the period's mean current).
 /// ADC trigger: this count, matched while counting up (a spare compare channel).
-pub const ADC_TRIGGER_COUNT: u32 = 5089;
+pub const ADC_TRIGGER_COUNT: u32 = 5096;
 /// True when the trigger count is matched while counting up.
 pub const ADC_TRIGGER_COUNTING_UP: bool = true;
 /// Smallest compare at which the sensed state holds settling, dead time and sampling.
-pub const SAMPLING_COMPARE_MIN: u32 = 166;
+pub const SAMPLING_COMPARE_MIN: u32 = 159;
 /// Largest compare at which the sensed state holds settling, dead time and sampling.
-pub const SAMPLING_COMPARE_MAX: u32 = 4953;
+pub const SAMPLING_COMPARE_MAX: u32 = 4960;
 /// 1: the shunt reads the motor current; −1: reversed.
 pub const SHUNT_SIGN: i64 = 1;
 /// Current loop: one update every `LOOP_UPDATE_DIVIDER` PWM periods (11.72 kHz).
@@ -206,9 +207,9 @@ pub const LOOP_UPDATE_DIVIDER: u32 = 1;
 /// The loop's update rate in millihertz.
 pub const LOOP_RATE_MILLIHZ: u64 = 11721039;
 /// Proportional gain, V/A.
-pub const LOOP_KP_V_PER_A: f32 = 1.9823720159607603e0;
+pub const LOOP_KP_V_PER_A: f32 = 1.982372837162854e0;
 /// Integral gain, V/(A·s).
-pub const LOOP_KI_V_PER_A_S: f32 = 1.2645496945990035e3;
+pub const LOOP_KI_V_PER_A_S: f32 = 1.2645502184415761e3;
 /// The update period, s.
 pub const LOOP_PERIOD_S: f32 = 8.531666666666668e-5;
 /// Compare counts per volt of loop output at the nominal supply.
@@ -216,9 +217,9 @@ pub const LOOP_COUNTS_PER_VOLT: f32 = 5.3322916666666664e1;
 /// The compare of zero volts.
 pub const LOOP_ZERO_COMPARE: i64 = 2560;
 /// The loop output's clamp, low.
-pub const LOOP_COMPARE_LO: i64 = 166;
+pub const LOOP_COMPARE_LO: i64 = 159;
 /// The loop output's clamp, high.
-pub const LOOP_COMPARE_HI: i64 = 4953;
+pub const LOOP_COMPARE_HI: i64 = 4960;
 /// Integer gains are in compare counts per ADC code times `2^LOOP_FRACTION_BITS`
 /// (1.611328e-2 A per code).
 pub const LOOP_FRACTION_BITS: u32 = 12;
