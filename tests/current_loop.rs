@@ -781,3 +781,34 @@ fn a_current_reversing_each_period_is_flagged() {
     let p = winch_plan(("", ""), &[]);
     assert!(!p.findings.iter().any(|f| f.code == "current-loop-reversal"));
 }
+
+/// A unipolar bridge's supply-return shunt reads the current in the active state only (leg A
+/// high, leg B low): the sampling window bounds leg A's lowest compare duty, not the needed
+/// range's low end (which is leg B's duty), so the winch plans without its standstill hold and
+/// cannot hold 12 A at standstill, where the active state is shorter than the window.
+#[test]
+fn a_unipolar_supply_return_shunt_bounds_leg_a() {
+    let place = ("place: leg }", "place: supply-return }");
+    let hold = (
+        "    standstill: { current: \"12 A\" }   # holding the load with the motor stopped\n",
+        "",
+    );
+    let p = winch_plan(place, &[hold]);
+    assert!(p.feasible, "{:?}", p.blocked_by);
+    let k = p
+        .constraints
+        .iter()
+        .find(|k| k.name == "sampling-window")
+        .unwrap();
+    let sampling = p.sampling.as_ref().unwrap();
+    assert_eq!(sampling.state, "active");
+    // Leg A's lowest compare duty over the range (300 rpm at the highest supply), above
+    // the window's P/2 + 2.625 µs worth of counts.
+    assert!(
+        k.value.unwrap() > 0.5 && k.value.unwrap() >= k.limit,
+        "{k:?}"
+    );
+    assert!(p.findings.iter().any(|f| f.code == "current-loop-floor"));
+    let p = winch_plan(place, &[]);
+    assert!(!p.feasible);
+}

@@ -594,7 +594,15 @@ impl Evaluator {
             checks.push(self.sampling_check(w, &high_bus, m_low_bus));
         }
         if let Some(w) = self.brushed_sampling(s, dead.seconds) {
-            checks.push(brushed_sampling_check(w.as_ref(), duty_needed));
+            // Leg A's lowest compare duty (the needed range of a unipolar bridge spans both
+            // legs' duties): the highest supply's, or the range's lowest.
+            let leg_a_low = range
+                .as_ref()
+                .and_then(|r| r.duty_low)
+                .map_or(high_bus.compare_duty, |e| {
+                    e.value.min(high_bus.compare_duty)
+                });
+            checks.push(brushed_sampling_check(w.as_ref(), duty_needed, leg_a_low));
         }
         checks.push(self.frequency_band_check(f));
         for k in &mut checks {
@@ -891,8 +899,15 @@ fn no_sampling_window(detail: Detail) -> ConstraintCheck {
 
 /// The `sampling-window` constraint of a brushed stage: the needed compare
 /// duties `(low, high)` inside the duties at which the sensed state holds
-/// settling, dead time and acquisition (`sampling::brushed_sampling`).
-fn brushed_sampling_check(w: Option<&BrushedSampling>, needed: (f64, f64)) -> ConstraintCheck {
+/// settling, dead time and acquisition (`sampling::brushed_sampling`); a
+/// unipolar bridge's active state bounds leg A's lowest compare duty
+/// `leg_a_low` (its needed range spans both legs, whose zero state at the
+/// top the symmetric window bounds on both).
+fn brushed_sampling_check(
+    w: Option<&BrushedSampling>,
+    needed: (f64, f64),
+    leg_a_low: f64,
+) -> ConstraintCheck {
     let Some(w) = w else {
         return no_sampling_window(
             "settling, dead time and sampling do not fit in the sensed switching state at any duty"
@@ -908,11 +923,16 @@ fn brushed_sampling_check(w: Option<&BrushedSampling>, needed: (f64, f64)) -> Co
         "the shunt is read in the middle of the {state}, which must last {} (dead time, settle, sample)",
         fmt_t(w.min_state_s)
     );
+    let low = if w.state == SenseState::Active {
+        leg_a_low
+    } else {
+        needed.0
+    };
     if w.duty_min > 0.0 {
         lower(
             "sampling-window",
             w.duty_min,
-            Some(needed.0),
+            Some(low),
             "",
             format!("{why}: compare duty at least {:.1} %", 100.0 * w.duty_min).into(),
         )
