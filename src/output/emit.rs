@@ -209,7 +209,7 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         current_loop: plan.current_loop.is_some(),
         loop_helper: plan.current_loop.is_some() && plan.three_phase.is_none(),
         loop_literals: crate::output::loop_out::loop_literals(plan),
-        loop_rows: crate::output::loop_out::loop_rows(plan),
+        loop_rows: crate::output::loop_out::loop_rows(plan, fpu),
         rationale_lines: Vec::new(),
         init_steps: c_init_steps,
         rust_init_steps,

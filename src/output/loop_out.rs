@@ -146,8 +146,9 @@ pub fn sampling_rows(plan: &Plan) -> Vec<Row> {
     ]
 }
 
-/// The current loop explained, a row per choice.
-pub fn loop_rows(plan: &Plan) -> Vec<Row> {
+/// The current loop explained, a row per choice; `fpu`: the board has one (a float helper
+/// is emitted).
+pub fn loop_rows(plan: &Plan, fpu: bool) -> Vec<Row> {
     let Some(l) = &plan.current_loop else {
         return Vec::new();
     };
@@ -243,13 +244,14 @@ pub fn loop_rows(plan: &Plan) -> Vec<Row> {
             ),
         ));
     }
+    let helpers = plan.three_phase.is_none() && (fpu || l.fixed_point.is_some());
     rows.push(row(
         "bus",
-        if plan.three_phase.is_some() {
-            "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrators while the voltage vector is limited".into()
-        } else {
-            "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)".into()
-        },
+        format!(
+            "the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator{} while the output is clamped{}",
+            if plan.three_phase.is_some() { "s" } else { "" },
+            if helpers { " (the helpers do)" } else { "" }
+        ),
     ));
     rows
 }
