@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:5ef8dc92742f963cc11ffd918599b6fffe5442f7cb86751181c2a9e6c878230c)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:38daaf9fa2c7bd6fa80ea32dac95de5160dbfdeeba532eec697472d437d9e98b)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -119,6 +119,10 @@
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define BELT_FEEDER_PWM_COMPARE_MIN 40U
 #define BELT_FEEDER_PWM_COMPARE_MAX 4342U
+/* Compare counts a leg's dead time takes from its output pulse (dead time x
+ * frequency x DUTY_STEPS, rounded): add them for current out of the leg, take
+ * them away for current into it (see belt_feeder_pwm_compare_compensated). */
+#define BELT_FEEDER_PWM_DEAD_TIME_COMP_COUNTS 13U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low side on, braking a turning motor, once enabled). */
 #define BELT_FEEDER_PWM_INIT_COMPARE 0U
@@ -192,6 +196,30 @@ static inline uint32_t belt_feeder_pwm_compare_from_fraction(float duty)
     }
     q = (uint32_t)(duty * 65536.0f + 0.5f);
     return belt_feeder_pwm_compare_from_q16(q == 0U ? 1U : q);
+}
+
+/* A leg's compare with its dead time made up for the sign of its current
+ * (current_out: 1 when the current flows out of the leg, 0 into it), kept
+ * within COMPARE_MIN..COMPARE_MAX; 0 stays 0 (off). Near zero current the
+ * sign is uncertain: keep the last sign or leave the compare alone there. */
+static inline uint32_t belt_feeder_pwm_compare_compensated(uint32_t compare, int current_out)
+{
+    uint64_t c = compare;
+    if (compare == 0U) {
+        return 0U;
+    }
+    if (current_out) {
+        c += BELT_FEEDER_PWM_DEAD_TIME_COMP_COUNTS;
+    } else {
+        c = c > BELT_FEEDER_PWM_DEAD_TIME_COMP_COUNTS ? c - BELT_FEEDER_PWM_DEAD_TIME_COMP_COUNTS : 0U;
+    }
+    if (c < BELT_FEEDER_PWM_COMPARE_MIN) {
+        return BELT_FEEDER_PWM_COMPARE_MIN;
+    }
+    if (c > BELT_FEEDER_PWM_COMPARE_MAX) {
+        return BELT_FEEDER_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
 }
 
 #endif /* BELT_FEEDER_PWM_H */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:8c847ba8e0f6815284b077fa0555e66184538bacb38b228f070f0d6c14318525)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d30177dee2277f2d6602a7d80cb83b5364b7426529ff845b0b6020e258381b41)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -128,6 +128,9 @@ pub const DEAD_TIME_TICKS: u32 = 13;
 pub const COMPARE_MIN: u32 = 40;
 /// Largest compare value allowed.
 pub const COMPARE_MAX: u32 = 4342;
+/// Compare counts a leg's dead time takes from its output pulse (dead time ×
+/// frequency × `DUTY_STEPS`, rounded); see [`Duty::compensated`].
+pub const DEAD_TIME_COMP_COUNTS: u32 = 13;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the low side on, braking a turning motor, once enabled).
 pub const INIT_COMPARE: u32 = 0;
@@ -188,6 +191,21 @@ impl Duty {
     /// The compare value.
     pub const fn counts(self) -> u32 {
         self.0
+    }
+
+    /// This duty with the leg's dead time made up for the sign of its current
+    /// (`current_out`: the current flows out of the leg): `DEAD_TIME_COMP_COUNTS`
+    /// added, or taken away for current into it, within the allowed range; off
+    /// stays off. Near zero current the sign is uncertain: keep the last sign or
+    /// leave the duty alone there.
+    pub const fn compensated(self, current_out: bool) -> Duty {
+        if self.0 == 0 {
+            return Duty::OFF;
+        }
+        let c = self.0 as u64;
+        let k = DEAD_TIME_COMP_COUNTS as u64;
+        let moved = if current_out { c + k } else if c > k { c - k } else { 1 };
+        Duty::from_counts(moved)
     }
 }
 

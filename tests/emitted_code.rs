@@ -148,6 +148,8 @@ struct Facts {
     three_phase: Option<(u64, u64)>,
     /// A brushed current loop with integer gains, from `plan.json`.
     current_loop: Option<LoopFacts>,
+    /// The dead-time compensation in counts (rounded; 0 without dead time).
+    dead_time_comp: u64,
     header: String,
     module: String,
 }
@@ -218,6 +220,10 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
             )
         }),
         current_loop: LoopFacts::read(&json),
+        dead_time_comp: json["pwm"]["dead_time_comp_counts"]
+            .as_f64()
+            .expect("pwm.dead_time_comp_counts")
+            .round() as u64,
         header: text(&format!("{stem}.h")),
         module: text(&format!("{stem}.rs")),
         stem,
@@ -466,6 +472,29 @@ fn c_host_program(f: &Facts) -> String {
                 "    expect(\"{c}_compare_from_fraction({arg})\", {c}_compare_from_fraction({arg}), {want}ULL);"
             );
         }
+    }
+    if f.dead_time_ticks > 0 {
+        // The dead-time compensation: the written counts added for current out of the leg,
+        // taken away for current into it, within the compare limits; off stays off.
+        let mid = f.mid();
+        let k = f.dead_time_comp;
+        let cases = [
+            (mid, 1, mid + k),
+            (mid, 0, mid - k),
+            (0, 1, 0),
+            (f.compare_max, 1, f.compare_max),
+            (f.compare_min, 0, f.compare_min),
+        ];
+        for (c_in, out, want) in cases {
+            let _ = writeln!(
+                s,
+                "    expect(\"{c}_compare_compensated({c_in}, {out})\", (unsigned long long){c}_compare_compensated({c_in}U, {out}), {want}ULL);"
+            );
+        }
+        let _ = writeln!(
+            s,
+            "    expect(\"{m}_DEAD_TIME_COMP_COUNTS (plan.json)\", (unsigned long long){m}_DEAD_TIME_COMP_COUNTS, {k}ULL);"
+        );
     }
     if let Some(lf) = f.current_loop {
         // ADC code in, compare out: the integer helper against the plan's SI figures,
@@ -789,7 +818,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
              assert_eq!(DEAD_TIME_CODE as u64, {dtc});\n        \
              assert_eq!(DEAD_TIME_TICKS as u64, {dtt});\n        \
              assert_eq!(COMPARE_MIN as u64, {min});\n        \
-             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}    }}\n\n    \
+             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}    }}\n\n    \
              #[test]\n    fn constructors_give_the_closed_form() {{\n        \
              let got: Vec<u64> = [{list}].iter().map(|d| d.counts() as u64).collect();\n        \
              assert_eq!(got, vec![{counts}]);\n        \
@@ -811,6 +840,21 @@ fn rust_host_tests(cases: &[Facts]) -> String {
             max = f.compare_max,
             mid = f.mid(),
             tiny = f.tiny_q16(),
+            comp = if f.dead_time_ticks > 0 {
+                format!(
+                    "        assert_eq!(DEAD_TIME_COMP_COUNTS as u64, {k});\n        \
+                     assert_eq!(Duty::from_counts({mid}).compensated(true).counts() as u64, {up});\n        \
+                     assert_eq!(Duty::from_counts({mid}).compensated(false).counts() as u64, {down});\n        \
+                     assert_eq!(Duty::OFF.compensated(true), Duty::OFF);\n        \
+                     assert_eq!(Duty::MAX.compensated(true), Duty::MAX);\n",
+                    k = f.dead_time_comp,
+                    mid = f.mid(),
+                    up = f.mid() + f.dead_time_comp,
+                    down = f.mid() - f.dead_time_comp
+                )
+            } else {
+                String::new()
+            },
             extra = match f.three_phase {
                 Some((trigger, sampling_max)) => format!(
                     "        assert_eq!(CHANNELS, 3);\n        \

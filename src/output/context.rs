@@ -52,6 +52,8 @@ pub struct TimerLiterals {
     pub dead_time_ns: String,
     pub compare_min: String,
     pub compare_max: String,
+    /// Compare counts that make up a leg's dead time (rounded; 0 without one).
+    pub dead_time_comp: String,
     /// PWM frequency in millihertz, an exact integer for code.
     pub frequency_millihz: String,
     pub frequency_text: String,

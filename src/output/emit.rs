@@ -253,6 +253,7 @@ fn timer_literals(plan: &Plan) -> TimerLiterals {
         dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
         compare_min: plan.pwm.compare_min.to_string(),
         compare_max: plan.pwm.compare_max.to_string(),
+        dead_time_comp: format!("{}", plan.pwm.dead_time_comp_counts.round() as u64),
         frequency_millihz: format!("{}", (plan.pwm.frequency_hz * 1000.0).round() as u64),
         frequency_text: q(plan.pwm.frequency_hz, Dimension::Frequency, 5),
         c_count_type: if big { "uint64_t" } else { "uint32_t" }.into(),

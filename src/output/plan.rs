@@ -483,6 +483,11 @@ pub struct Pwm {
     pub duty_needed: [f64; 2],
     /// Output-voltage error from the dead time, V (at the nominal supply).
     pub dead_time_voltage_error_v: f64,
+    /// Compare counts a leg's dead time takes from its output pulse, `t_dead·f·duty_steps`
+    /// (0 without complementary outputs): added for current out of the leg, taken away for
+    /// current into it, they make up the dead time's voltage (common practice).
+    #[serde(default)]
+    pub dead_time_comp_counts: f64,
     /// The board's shortest allowed output pulse, s (0 when not given).
     pub min_pulse_s: f64,
     /// Bootstrap refresh time the low side must stay on, s.
@@ -1084,6 +1089,11 @@ pub fn pwm_out(ev: &Evaluator, c: &Candidate, v_err: f64) -> Pwm {
         compare_max: limits.map(|l| l.max_counts).unwrap_or(0),
         duty_needed: [c.duty_needed.0, c.duty_needed.1],
         dead_time_voltage_error_v: v_err,
+        dead_time_comp_counts: if ev.needs_dead_time() {
+            c.dead_time.seconds * c.setting.frequency_hz * c.setting.duty_steps as f64
+        } else {
+            0.0
+        },
         min_pulse_s: ev.timer.compare.min_pulse_s,
         refresh_s: ev.stage.bootstrap_refresh_s,
         shortest_high_pulse_s: limits.map(|l| l.shortest_high_pulse_s).unwrap_or(0.0),

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:77269f6b45388aae496f6823288ca1b43ef929b01d8f960fbaa8ecfbafeeb726)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:04100bca0ed1e366bc3c0ce8c745aca735d5aedca6f1ee0f53a758990962ebde)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -119,6 +119,10 @@
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define CONVEYOR_CENTRE_PWM_COMPARE_MIN 20U
 #define CONVEYOR_CENTRE_PWM_COMPARE_MAX 2170U
+/* Compare counts a leg's dead time takes from its output pulse (dead time x
+ * frequency x DUTY_STEPS, rounded): add them for current out of the leg, take
+ * them away for current into it (see conveyor_centre_pwm_compare_compensated). */
+#define CONVEYOR_CENTRE_PWM_DEAD_TIME_COMP_COUNTS 6U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low side on, braking a turning motor, once enabled). */
 #define CONVEYOR_CENTRE_PWM_INIT_COMPARE 0U
@@ -192,6 +196,30 @@ static inline uint32_t conveyor_centre_pwm_compare_from_fraction(float duty)
     }
     q = (uint32_t)(duty * 65536.0f + 0.5f);
     return conveyor_centre_pwm_compare_from_q16(q == 0U ? 1U : q);
+}
+
+/* A leg's compare with its dead time made up for the sign of its current
+ * (current_out: 1 when the current flows out of the leg, 0 into it), kept
+ * within COMPARE_MIN..COMPARE_MAX; 0 stays 0 (off). Near zero current the
+ * sign is uncertain: keep the last sign or leave the compare alone there. */
+static inline uint32_t conveyor_centre_pwm_compare_compensated(uint32_t compare, int current_out)
+{
+    uint64_t c = compare;
+    if (compare == 0U) {
+        return 0U;
+    }
+    if (current_out) {
+        c += CONVEYOR_CENTRE_PWM_DEAD_TIME_COMP_COUNTS;
+    } else {
+        c = c > CONVEYOR_CENTRE_PWM_DEAD_TIME_COMP_COUNTS ? c - CONVEYOR_CENTRE_PWM_DEAD_TIME_COMP_COUNTS : 0U;
+    }
+    if (c < CONVEYOR_CENTRE_PWM_COMPARE_MIN) {
+        return CONVEYOR_CENTRE_PWM_COMPARE_MIN;
+    }
+    if (c > CONVEYOR_CENTRE_PWM_COMPARE_MAX) {
+        return CONVEYOR_CENTRE_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
 }
 
 #endif /* CONVEYOR_CENTRE_PWM_H */

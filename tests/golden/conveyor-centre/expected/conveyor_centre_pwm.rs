@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:89e01e294b323aeb522719d3a4653d558e73b83b45c7961ec665403b3631f41c)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:f3d0d76afd6baac85d6dd0c60cf8ce389918e0a5dd45ce07df38b985d97e4b88)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -128,6 +128,9 @@ pub const DEAD_TIME_TICKS: u32 = 13;
 pub const COMPARE_MIN: u32 = 20;
 /// Largest compare value allowed.
 pub const COMPARE_MAX: u32 = 2170;
+/// Compare counts a leg's dead time takes from its output pulse (dead time ×
+/// frequency × `DUTY_STEPS`, rounded); see [`Duty::compensated`].
+pub const DEAD_TIME_COMP_COUNTS: u32 = 6;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the low side on, braking a turning motor, once enabled).
 pub const INIT_COMPARE: u32 = 0;
@@ -188,6 +191,21 @@ impl Duty {
     /// The compare value.
     pub const fn counts(self) -> u32 {
         self.0
+    }
+
+    /// This duty with the leg's dead time made up for the sign of its current
+    /// (`current_out`: the current flows out of the leg): `DEAD_TIME_COMP_COUNTS`
+    /// added, or taken away for current into it, within the allowed range; off
+    /// stays off. Near zero current the sign is uncertain: keep the last sign or
+    /// leave the duty alone there.
+    pub const fn compensated(self, current_out: bool) -> Duty {
+        if self.0 == 0 {
+            return Duty::OFF;
+        }
+        let c = self.0 as u64;
+        let k = DEAD_TIME_COMP_COUNTS as u64;
+        let moved = if current_out { c + k } else if c > k { c - k } else { 1 };
+        Duty::from_counts(moved)
     }
 }
 

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:45301223b6a181601ea37cbb0facced1d435bee00773ccc026abc23d2ab55909)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:de288c49d88d76b2c045a583ca1b985aaaa322af72a6164f95b0c3c4090100f1)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -134,6 +134,10 @@
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define PUMP_BLDC_PWM_COMPARE_MIN 20U
 #define PUMP_BLDC_PWM_COMPARE_MAX 2943U
+/* Compare counts a leg's dead time takes from its output pulse (dead time x
+ * frequency x DUTY_STEPS, rounded): add them for current out of the leg, take
+ * them away for current into it (see pump_bldc_pwm_compare_compensated). */
+#define PUMP_BLDC_PWM_DEAD_TIME_COMP_COUNTS 7U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low sides on, braking a turning motor, once enabled). */
 #define PUMP_BLDC_PWM_INIT_COMPARE 0U
@@ -243,6 +247,30 @@ static inline uint32_t pump_bldc_pwm_compare_from_fraction(float duty)
     }
     q = (uint32_t)(duty * 65536.0f + 0.5f);
     return pump_bldc_pwm_compare_from_q16(q == 0U ? 1U : q);
+}
+
+/* A leg's compare with its dead time made up for the sign of its current
+ * (current_out: 1 when the current flows out of the leg, 0 into it), kept
+ * within COMPARE_MIN..COMPARE_MAX; 0 stays 0 (off). Near zero current the
+ * sign is uncertain: keep the last sign or leave the compare alone there. */
+static inline uint32_t pump_bldc_pwm_compare_compensated(uint32_t compare, int current_out)
+{
+    uint64_t c = compare;
+    if (compare == 0U) {
+        return 0U;
+    }
+    if (current_out) {
+        c += PUMP_BLDC_PWM_DEAD_TIME_COMP_COUNTS;
+    } else {
+        c = c > PUMP_BLDC_PWM_DEAD_TIME_COMP_COUNTS ? c - PUMP_BLDC_PWM_DEAD_TIME_COMP_COUNTS : 0U;
+    }
+    if (c < PUMP_BLDC_PWM_COMPARE_MIN) {
+        return PUMP_BLDC_PWM_COMPARE_MIN;
+    }
+    if (c > PUMP_BLDC_PWM_COMPARE_MAX) {
+        return PUMP_BLDC_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
 }
 
 #endif /* PUMP_BLDC_PWM_H */

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:aa9101e5e542ecd412e434dd130673c9f3d2f80c870c782b4ac410202007be65)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:4c38bd2c94f7651dfdf00d1828cd08aac131285b104fb0a2c28b0682cb7ffb6c)
  *
  * Chosen setting
  *   design         winch
@@ -165,6 +165,10 @@
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */
 #define WINCH_PWM_COMPARE_MIN 32U
 #define WINCH_PWM_COMPARE_MAX 5063U
+/* Compare counts a leg's dead time takes from its output pulse (dead time x
+ * frequency x DUTY_STEPS, rounded): add them for current out of the leg, take
+ * them away for current into it (see winch_pwm_compare_compensated). */
+#define WINCH_PWM_DEAD_TIME_COMP_COUNTS 7U
 /* The compare the init sequence loads while the outputs are disabled
  * (0: the low sides on, braking a turning motor, once enabled). */
 #define WINCH_PWM_INIT_COMPARE 0U
@@ -280,6 +284,30 @@ static inline uint32_t winch_pwm_compare_from_fraction(float duty)
     }
     q = (uint32_t)(duty * 65536.0f + 0.5f);
     return winch_pwm_compare_from_q16(q == 0U ? 1U : q);
+}
+
+/* A leg's compare with its dead time made up for the sign of its current
+ * (current_out: 1 when the current flows out of the leg, 0 into it), kept
+ * within COMPARE_MIN..COMPARE_MAX; 0 stays 0 (off). Near zero current the
+ * sign is uncertain: keep the last sign or leave the compare alone there. */
+static inline uint32_t winch_pwm_compare_compensated(uint32_t compare, int current_out)
+{
+    uint64_t c = compare;
+    if (compare == 0U) {
+        return 0U;
+    }
+    if (current_out) {
+        c += WINCH_PWM_DEAD_TIME_COMP_COUNTS;
+    } else {
+        c = c > WINCH_PWM_DEAD_TIME_COMP_COUNTS ? c - WINCH_PWM_DEAD_TIME_COMP_COUNTS : 0U;
+    }
+    if (c < WINCH_PWM_COMPARE_MIN) {
+        return WINCH_PWM_COMPARE_MIN;
+    }
+    if (c > WINCH_PWM_COMPARE_MAX) {
+        return WINCH_PWM_COMPARE_MAX;
+    }
+    return (uint32_t)c;
 }
 
 /* Current-loop state (integer): the integral in compare counts times

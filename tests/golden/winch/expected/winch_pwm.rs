@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:ba73aed0fe2c2b027bfb87d89068b67ebe0c18bcb4494e0a35b65fc6b02b7fcd)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:035af03a50b83f5b032754112f5c7e2325bcc609e3e12f81bdd5c8e95a9534ab)
 //!
 //! Chosen setting
 //!   design         winch
@@ -175,6 +175,9 @@ pub const DEAD_TIME_TICKS: u32 = 15;
 pub const COMPARE_MIN: u32 = 32;
 /// Largest compare value allowed.
 pub const COMPARE_MAX: u32 = 5063;
+/// Compare counts a leg's dead time takes from its output pulse (dead time ×
+/// frequency × `DUTY_STEPS`, rounded); see [`Duty::compensated`].
+pub const DEAD_TIME_COMP_COUNTS: u32 = 7;
 /// The compare the init sequence loads while the outputs are disabled
 /// (0: the low sides on, braking a turning motor, once enabled).
 pub const INIT_COMPARE: u32 = 0;
@@ -283,6 +286,21 @@ impl Duty {
     /// The compare value.
     pub const fn counts(self) -> u32 {
         self.0
+    }
+
+    /// This duty with the leg's dead time made up for the sign of its current
+    /// (`current_out`: the current flows out of the leg): `DEAD_TIME_COMP_COUNTS`
+    /// added, or taken away for current into it, within the allowed range; off
+    /// stays off. Near zero current the sign is uncertain: keep the last sign or
+    /// leave the duty alone there.
+    pub const fn compensated(self, current_out: bool) -> Duty {
+        if self.0 == 0 {
+            return Duty::OFF;
+        }
+        let c = self.0 as u64;
+        let k = DEAD_TIME_COMP_COUNTS as u64;
+        let moved = if current_out { c + k } else if c > k { c - k } else { 1 };
+        Duty::from_counts(moved)
     }
 }
 
