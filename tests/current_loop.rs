@@ -22,9 +22,8 @@ use pwmplan::design::load_design;
 use pwmplan::load::Origin;
 use pwmplan::model::Evaluator;
 use pwmplan::model::current_loop::{CurrentLoopOut, SamplingOut};
-use pwmplan::model::timer::Alignment;
 use pwmplan::model::verify::{
-    self, Circuit, CurrentPiece, LegCompare, LegState, Stage, SwitchInterval, TimerRegisters,
+    self, Circuit, CurrentPiece, LegState, SwitchInterval, TimerRegisters,
 };
 use pwmplan::plan::{self, Plan};
 use pwmplan::register_check;
@@ -47,22 +46,6 @@ struct Drive {
     acquire_s: f64,
     settle_s: f64,
     centre: bool,
-}
-
-fn stage(topology: &str, steps: u64, compare: u64) -> Stage {
-    let a = LegCompare::new(compare);
-    match topology {
-        "low-side" => Stage::LowSide(a),
-        "h-bridge-bipolar" => Stage::HBridge {
-            a,
-            b: LegCompare::inverted(compare),
-        },
-        "h-bridge-unipolar" => Stage::HBridge {
-            a,
-            b: LegCompare::new(steps - compare),
-        },
-        _ => Stage::HalfBridge(a),
-    }
 }
 
 fn current_at(pieces: &[CurrentPiece], t: f64) -> f64 {
@@ -103,7 +86,7 @@ impl Drive {
     }
 
     fn pieces(&self, c: u64, i0: f64) -> Vec<CurrentPiece> {
-        let st = stage(&self.topology, self.regs.duty_steps(), c);
+        let st = written_stage(&self.topology, self.regs.duty_steps(), c);
         verify::run_period(&self.regs, &st, &self.circuit, i0).expect("period")
     }
 
@@ -299,7 +282,7 @@ fn shunt_sees(topology: &str, place: &str, iv: &SwitchInterval) -> bool {
 /// At compare `c`, the shunt's state holds from `settle` before the trigger to the end of
 /// the acquisition, and (phase shunt) no leg switches in that span. Returns what is wrong.
 fn window_holds(d: &Drive, place: &str, c: u64) -> Result<(), String> {
-    let st = stage(&d.topology, d.regs.duty_steps(), c);
+    let st = written_stage(&d.topology, d.regs.duty_steps(), c);
     let v = verify::verify(&d.regs, &st, &d.circuit).map_err(|e| format!("{e:?}"))?;
     let t = d.period_s();
     let start = d.trigger_s(c) - d.settle_s;
@@ -416,16 +399,7 @@ fn random_case(
         .find(|c| c.name == "rated")
         .ok_or("no rated case")?;
     let centre = p.pwm.alignment == "centre";
-    let regs = TimerRegisters {
-        tick_s: p.timer.divider as f64 / p.timer.clock_hz,
-        alignment: if centre {
-            Alignment::Centre
-        } else {
-            Alignment::Edge
-        },
-        period_ticks: p.timer.period_ticks,
-        dead_time_s: p.timer.dead_time_s,
-    };
+    let regs = written_registers(&p);
     let circuit = Circuit {
         r_ohm: p.load.r_ohm,
         l_h: p.load.l_h,

@@ -11,29 +11,13 @@ use std::path::Path;
 use pwmplan::design::load_design;
 use pwmplan::load::Origin;
 use pwmplan::model::Evaluator;
-use pwmplan::model::timer::Alignment;
-use pwmplan::model::verify::{self, Circuit, LegCompare, Stage, TimerRegisters};
+use pwmplan::model::verify::{self, Circuit};
 use pwmplan::plan::{self, Plan};
 use pwmplan::solve;
 
 #[path = "random_design/mod.rs"]
 mod random_design;
 use random_design::*;
-
-fn stage(topology: &str, steps: u64, compare: u64) -> Stage {
-    let a = LegCompare::new(compare);
-    match topology {
-        "h-bridge-bipolar" => Stage::HBridge {
-            a,
-            b: LegCompare::inverted(compare),
-        },
-        "h-bridge-unipolar" => Stage::HBridge {
-            a,
-            b: LegCompare::new(steps - compare),
-        },
-        _ => Stage::HalfBridge(a),
-    }
-}
 
 fn random_plan(r: &mut Rng, dir: &Path, kind: usize) -> Option<Plan> {
     let (topology, modulation) = TOPOLOGIES[kind];
@@ -54,16 +38,7 @@ fn random_plan(r: &mut Rng, dir: &Path, kind: usize) -> Option<Plan> {
 /// would not hold through the period).
 fn check(p: &Plan) -> Option<(f64, f64)> {
     let rated = p.cases.iter().find(|c| c.name == "rated")?;
-    let regs = TimerRegisters {
-        tick_s: p.timer.divider as f64 / p.timer.clock_hz,
-        alignment: if p.pwm.alignment == "centre" {
-            Alignment::Centre
-        } else {
-            Alignment::Edge
-        },
-        period_ticks: p.timer.period_ticks,
-        dead_time_s: p.timer.dead_time_s,
-    };
+    let regs = written_registers(p);
     let circuit = Circuit {
         r_ohm: p.load.r_ohm,
         l_h: p.load.l_h,
@@ -80,8 +55,8 @@ fn check(p: &Plan) -> Option<(f64, f64)> {
     if moved >= steps || c == 0 {
         return None;
     }
-    let plain = verify::verify(&regs, &stage(&p.topology, steps, c), &circuit).ok()?;
-    let fixed = verify::verify(&regs, &stage(&p.topology, steps, moved), &circuit).ok()?;
+    let plain = verify::verify(&regs, &written_stage(&p.topology, steps, c), &circuit).ok()?;
+    let fixed = verify::verify(&regs, &written_stage(&p.topology, steps, moved), &circuit).ok()?;
     if !plain.continuous || !fixed.continuous || plain.min_a <= 0.0 || fixed.min_a <= 0.0 {
         return None;
     }

@@ -1,10 +1,47 @@
 //! Random invented designs of every topology, shared by the tests that check plans on
-//! designs the project was not built around (`register_verifier`, `operating_range`).
+//! designs the project was not built around (`register_verifier`, `operating_range`,
+//! `current_loop`, `dead_time_compensation`), and a plan's registers as the verifier takes
+//! them.
 //! Every value is invented; the draws are fixed by the seed.
 
 #![allow(dead_code)]
 
+use pwmplan::model::timer::Alignment;
+use pwmplan::model::verify::{LegCompare, Stage, TimerRegisters};
+use pwmplan::plan::Plan;
 use pwmplan::solve::Objective;
+
+/// The timer registers a plan writes, as the verifier takes them.
+pub fn written_registers(p: &Plan) -> TimerRegisters {
+    TimerRegisters {
+        tick_s: p.timer.divider as f64 / p.timer.clock_hz,
+        alignment: if p.pwm.alignment == "centre" {
+            Alignment::Centre
+        } else {
+            Alignment::Edge
+        },
+        period_ticks: p.timer.period_ticks,
+        dead_time_s: p.timer.dead_time_s,
+    }
+}
+
+/// A brushed plan's legs at leg A's compare `compare` (the emitted convention: a bipolar
+/// bridge's leg B inverted, a unipolar bridge's at `steps − compare`).
+pub fn written_stage(topology: &str, steps: u64, compare: u64) -> Stage {
+    let a = LegCompare::new(compare);
+    match topology {
+        "low-side" => Stage::LowSide(a),
+        "h-bridge-bipolar" => Stage::HBridge {
+            a,
+            b: LegCompare::inverted(compare),
+        },
+        "h-bridge-unipolar" => Stage::HBridge {
+            a,
+            b: LegCompare::new(steps - compare),
+        },
+        _ => Stage::HalfBridge(a),
+    }
+}
 
 /// SplitMix64 (Steele, Lea, Flood, *Fast splittable pseudorandom number generators*, OOPSLA
 /// 2014): a small, fixed-seed generator so every run draws the same designs.
