@@ -473,6 +473,30 @@ fn c_host_program(f: &Facts) -> String {
             );
         }
     }
+    if f.header.contains(&format!("{c}_unsampled_leg(")) {
+        // The leg not to sample: the largest compare (the shortest low-side time), the
+        // first on a tie.
+        let triples: [([u64; 3], u64); 6] = [
+            ([10, 20, 30], 2),
+            ([30, 20, 10], 0),
+            ([10, 30, 20], 1),
+            ([20, 20, 10], 0),
+            ([5, 9, 9], 1),
+            ([7, 7, 7], 0),
+        ];
+        let ty = if f.header.contains(&format!("uint64_t {c}_compare_from_q16")) {
+            "uint64_t"
+        } else {
+            "uint32_t"
+        };
+        for (t, want) in triples {
+            let _ = writeln!(
+                s,
+                "    {{\n        const {ty} cmp[3] = {{ {}U, {}U, {}U }};\n        expect(\"{c}_unsampled_leg({t:?})\", (unsigned long long){c}_unsampled_leg(cmp), {want}ULL);\n    }}",
+                t[0], t[1], t[2]
+            );
+        }
+    }
     if f.dead_time_ticks > 0 {
         // The dead-time compensation: the written counts added for current out of the leg,
         // taken away for current into it, within the compare limits; off stays off.
@@ -818,7 +842,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
              assert_eq!(DEAD_TIME_CODE as u64, {dtc});\n        \
              assert_eq!(DEAD_TIME_TICKS as u64, {dtt});\n        \
              assert_eq!(COMPARE_MIN as u64, {min});\n        \
-             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}    }}\n\n    \
+             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}{pick}    }}\n\n    \
              #[test]\n    fn constructors_give_the_closed_form() {{\n        \
              let got: Vec<u64> = [{list}].iter().map(|d| d.counts() as u64).collect();\n        \
              assert_eq!(got, vec![{counts}]);\n        \
@@ -840,6 +864,14 @@ fn rust_host_tests(cases: &[Facts]) -> String {
             max = f.compare_max,
             mid = f.mid(),
             tiny = f.tiny_q16(),
+            pick = if f.module.contains("pub const fn unsampled_leg(") {
+                "        assert_eq!(unsampled_leg([Duty::from_q16(10000), Duty::from_q16(30000), Duty::from_q16(20000)]), 1);\n        \
+                 assert_eq!(unsampled_leg([Duty::from_q16(20000), Duty::from_q16(20000), Duty::from_q16(10000)]), 0);\n        \
+                 assert_eq!(unsampled_leg([Duty::from_q16(5000), Duty::from_q16(9000), Duty::from_q16(12000)]), 2);\n"
+                    .to_string()
+            } else {
+                String::new()
+            },
             comp = if f.dead_time_ticks > 0 {
                 format!(
                     "        assert_eq!(DEAD_TIME_COMP_COUNTS as u64, {k});\n        \

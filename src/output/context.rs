@@ -70,6 +70,9 @@ pub struct TimerLiterals {
 pub struct ThreePhaseLiterals {
     /// `sinusoidal` or `six-step`, with its option.
     pub modulation: String,
+    /// Sinusoidal modulation: two legs' currents sampled, the third from their sum (emit the
+    /// helper that names the leg not to sample).
+    pub sinusoidal: bool,
     /// Compare value matched on the up-count that starts the ADC.
     pub adc_trigger_compare: String,
     /// Trigger lead before the counter top, ns.

@@ -665,6 +665,7 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
     let t = |x: f64| q(x, Dimension::Time, 3);
     let mut out = ThreePhaseLiterals {
         modulation: tp.modulation.clone(),
+        sinusoidal: tp.modulation == "sinusoidal",
         adc_trigger_compare: "0".into(),
         trigger_ns: "0".into(),
         sampling_compare_max: "0".into(),

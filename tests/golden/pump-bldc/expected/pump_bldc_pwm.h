@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:de288c49d88d76b2c045a583ca1b985aaaa322af72a6164f95b0c3c4090100f1)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:3adb5dbcedaf5f519a0a0630c4faf0456fa2674a213687a4ef0ffaa643e0afe3)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -231,6 +231,23 @@ static inline void pump_bldc_pwm_compare_abc_from_q16(const uint32_t duty_q16[3]
     for (k = 0U; k < 3U; k++) {
         compare[k] = pump_bldc_pwm_compare_from_q16(duty_q16[k]);
     }
+}
+
+/* The leg not to sample this period (0, 1 or 2 for A, B, C): the one with the
+ * largest compare, whose low side is on for the shortest time around the
+ * counter top; sample the other two (each within SAMPLING_COMPARE_MAX under the
+ * plan's modulation) and take the third current from i_a + i_b + i_c = 0. On a
+ * tie the first such leg. */
+static inline unsigned int pump_bldc_pwm_unsampled_leg(const uint32_t compare[3])
+{
+    unsigned int k;
+    unsigned int widest = 0U;
+    for (k = 1U; k < 3U; k++) {
+        if (compare[k] > compare[widest]) {
+            widest = k;
+        }
+    }
+    return widest;
 }
 
 /* The same for a duty fraction 0.0 .. 1.0 (the board has an FPU): 0 (or

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:5d64d65f06cf8d62ae63ef437b59b488c51419730e839f2c0a1bb9bf9ecf5f85)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:5964b03d6849a3cd13720ef2665326c2eae5e6fc935dbe729fb94ea8daf4f5f8)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -278,6 +278,22 @@ pub const fn duties_abc(duty_q16: [u32; 3]) -> [Duty; 3] {
         Duty::from_q16(duty_q16[1]),
         Duty::from_q16(duty_q16[2]),
     ]
+}
+
+/// The leg not to sample this period (0, 1 or 2 for A, B, C): the one with the
+/// largest compare, whose low side is on for the shortest time around the
+/// counter top; sample the other two (each within `SAMPLING_COMPARE_MAX` under
+/// the plan's modulation) and take the third current from `i_a + i_b + i_c = 0`.
+/// On a tie the first such leg.
+pub const fn unsampled_leg(duties: [Duty; 3]) -> usize {
+    let mut widest = 0;
+    if duties[1].0 > duties[widest].0 {
+        widest = 1;
+    }
+    if duties[2].0 > duties[widest].0 {
+        widest = 2;
+    }
+    widest
 }
 
 /// Set channels A, B and C (each as [`apply`]); stops at the first error.
