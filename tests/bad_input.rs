@@ -3930,3 +3930,21 @@ error: heron-hb48.yaml:14:28: board.timer.update_divider.max: 0 is out of range;
 "#,
     );
 }
+
+/// A conversion order on a stage that reads one current.
+#[test]
+fn current_sensing_conversion_on_a_brushed_board() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    sample_time: \"0.5 us\"",
+            "    sample_time: \"0.5 us\"\n    conversion: sequential",
+        )],
+        r#"
+error: heron-hb48.yaml:44:17: board.current_sensing.conversion: a brushed stage reads one current; only a three-phase bridge converts two (remove it)
+ 44 |     conversion: sequential
+    |                 ^
+"#,
+    );
+}

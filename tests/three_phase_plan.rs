@@ -183,3 +183,35 @@ fn six_step_variant_plans() {
         assert!((f(&p["ripple"]["mean_a"]) - 10.0).abs() < 1e-6);
     }
 }
+
+/// Two currents converted one after the other on one converter: the window holds both
+/// acquisitions, so the trigger leads the counter top by twice as much and the register
+/// check holds the sampled legs' low sides on through both (`plan` writes only when it
+/// does).
+#[test]
+fn sequential_conversion_doubles_the_window() {
+    let at_once = plan("pump-bldc.yaml", None);
+    let one_by_one = plan(
+        "pump-bldc.yaml",
+        Some((
+            "sample_time: \"0.8 us\" }",
+            "sample_time: \"0.8 us\", conversion: sequential }",
+        )),
+    );
+    let s1 = &at_once["three_phase"]["sampling"];
+    let s2 = &one_by_one["three_phase"]["sampling"];
+    assert_eq!(s1["conversion"], "simultaneous");
+    assert_eq!(s2["conversion"], "sequential");
+    assert!((f(&s2["sample_time_s"]) - 1.6e-6).abs() < 1e-12);
+    // The trigger leads the top by half the acquisition: 0.4 µs, then 0.8 µs (at the
+    // plan's tick, to a tick).
+    let tick = f(&one_by_one["timer"]["divider"]) / f(&one_by_one["timer"]["clock_hz"]);
+    assert!((f(&s1["trigger_before_top_s"]) - 0.4e-6).abs() <= tick);
+    assert!((f(&s2["trigger_before_top_s"]) - 0.8e-6).abs() <= tick);
+    // The register check measured the low sides on from the trigger through both
+    // conversions.
+    let after = f(&one_by_one["register_check"]["sample_low_on_after_s"]);
+    assert!(after + 1e-12 >= 1.6e-6, "{after}");
+    // The window is longer, so the sampled leg's highest duty is lower.
+    assert!(f(&s2["max_high_side_duty"]) < f(&s1["max_high_side_duty"]));
+}

@@ -1565,6 +1565,12 @@ fn check_sensing_extras(
         }
         _ => {}
     }
+    if cs.conversion.is_some() && !three_phase {
+        return Err(c.fail(
+            "current_sensing.conversion",
+            "a brushed stage reads one current; only a three-phase bridge converts two (remove it)",
+        ));
+    }
     if let Some(adc) = &cs.adc {
         if !(6..=24).contains(&adc.bits) {
             return Err(c.fail(

@@ -110,7 +110,7 @@ pub struct ThreePhaseModel {
     pub omega_e_rad_s: f64,
     /// Shunt-amplifier settling after the low side turns on.
     pub settle_s: f64,
-    /// ADC sampling time.
+    /// ADC sampling time the window holds (both acquisitions with sequential conversion).
     pub sample_s: f64,
 }
 
@@ -443,7 +443,12 @@ fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
         back_emf_shape: motor.back_emf_shape,
         omega_e_rad_s: f64::from(motor.pole_pairs) * d.spec.motor.operating_speed.si,
         settle_s: sensing.settle_time.si,
-        sample_s: sensing.sample_time.si,
+        // Two currents on one converter: the window holds both acquisitions, back to back.
+        sample_s: sensing.sample_time.si
+            * match sensing.conversion {
+                Some(ConversionSpec::Sequential) => 2.0,
+                _ => 1.0,
+            },
     })
 }
 

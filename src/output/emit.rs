@@ -682,11 +682,16 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
             out.sampling_compare_max = s.max_high_side_compare.to_string();
             out.sampling_lines = vec![
                 format!(
-                    "PWM mode: {}. The ADC starts at compare {} matched on the UP-count, {} before the counter top, so the {} sample is centred on the top, the middle of the low-side on-time.",
+                    "PWM mode: {}. The ADC starts at compare {} matched on the UP-count, {} before the counter top, so the {} sample{} is centred on the top, the middle of the low-side on-time.",
                     s.pwm_mode,
                     s.trigger_compare,
                     t(s.trigger_before_top_s),
-                    t(s.sample_time_s)
+                    t(s.sample_time_s),
+                    if s.conversion == "sequential" {
+                        " (both currents, converted one after the other)"
+                    } else {
+                        ""
+                    }
                 ),
                 if tp.chop.as_deref() == Some("low-side") {
                     format!(

@@ -149,7 +149,12 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
             .collect(),
         sampling: c.sampling.map(|w| SamplingPlan {
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
-            sample_time_s: sensing.map(|x| x.sample_time.si).unwrap_or(tp.sample_s),
+            sample_time_s: tp.sample_s,
+            conversion: match sensing.and_then(|x| x.conversion) {
+                Some(crate::input::spec::ConversionSpec::Sequential) => "sequential",
+                _ => "simultaneous",
+            }
+            .into(),
             trigger_compare: w.trigger_compare,
             trigger_count: "up".into(),
             trigger_before_top_s: w.trigger_before_top_s,
@@ -448,7 +453,13 @@ pub struct ThreePhaseOut {
 #[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
 pub struct SamplingPlan {
     pub settle_time_s: f64,
+    /// The acquisition the window holds, s: the board's `sample_time`, twice it when the two
+    /// currents are converted one after the other.
     pub sample_time_s: f64,
+    /// `simultaneous` (two converters) or `sequential` (one, both acquisitions in the
+    /// window).
+    #[serde(default)]
+    pub conversion: String,
     /// Compare value matched on the UP-count that starts the ADC conversion.
     pub trigger_compare: u64,
     /// Which count direction's match triggers: `up`.

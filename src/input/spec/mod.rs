@@ -458,6 +458,18 @@ pub struct CurrentSensingSpec {
     pub place: Option<ShuntPlaceSpec>,
     /// The ADC that reads the amplifier (for fixed-point loop gains).
     pub adc: Option<AdcSpec>,
+    /// A three-phase bridge's two phase currents: converted at once on two converters
+    /// (`simultaneous`, the default) or one after the other on one (`sequential`, which
+    /// doubles the acquisition the window must hold).
+    pub conversion: Option<ConversionSpec>,
+}
+
+/// How a three-phase bridge's two sampled currents are converted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ConversionSpec {
+    Simultaneous,
+    Sequential,
 }
 
 /// The ADC reading the current: `bits` over 0 to `full_scale`.
