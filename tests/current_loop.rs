@@ -585,26 +585,6 @@ fn check_case(p: &Plan, d: &Drive, place: &str, label: &str) -> Result<Option<Ou
         .copied()
         .fold(f64::MIN, f64::max);
     let os_sim = 100.0 * (peak - 1.0).max(0.0);
-    if std::env::var("LOOP_DEBUG")
-        .is_ok_and(|f| label.contains(&f) && (os_sim - d.cl.overshoot_pct).abs() > 1.0)
-    {
-        eprintln!(
-            "{label}: R {} L {} sim y {:?}\n plan {:?}",
-            d.circuit.r_ohm,
-            d.circuit.l_h,
-            y.iter()
-                .step_by(4)
-                .take(30)
-                .map(|v| (v * 1000.0).round() / 1000.0)
-                .collect::<Vec<_>>(),
-            d.cl.step_response
-                .iter()
-                .step_by(4)
-                .take(15)
-                .map(|v| (v * 1000.0).round() / 1000.0)
-                .collect::<Vec<_>>()
-        );
-    }
     let Some((_, pm_sim)) = measured_margin(d, c0, i0, 0.1 * i_rated) else {
         return Err(format!("{label}: no crossover found near the plan's"));
     };

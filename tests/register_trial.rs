@@ -7,12 +7,13 @@
 //! event-based simulation of the written values), never against the model itself.
 
 mod common;
+#[path = "random_design/mod.rs"]
+mod random_design;
 
 use std::path::{Path, PathBuf};
 
 use common::{describe, run};
 use pwmplan::plan::{CaseOut, Plan};
-use pwmplan::timer::Alignment;
 use pwmplan::verify::{self, Circuit, LegCompare, Stage, TimerRegisters};
 
 fn fixture() -> PathBuf {
@@ -26,19 +27,6 @@ fn plan_json(dir: &Path, extra: &[&str]) -> Plan {
     let o = run(dir, &args);
     assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
     serde_json::from_slice(&o.stdout).expect("plan.json parses")
-}
-
-fn registers(p: &Plan) -> TimerRegisters {
-    TimerRegisters {
-        tick_s: p.timer.divider as f64 / p.timer.clock_hz,
-        alignment: if p.pwm.alignment == "centre" {
-            Alignment::Centre
-        } else {
-            Alignment::Edge
-        },
-        period_ticks: p.timer.period_ticks,
-        dead_time_s: p.timer.dead_time_s,
-    }
 }
 
 /// The load and drops the plan states, at one of its cases.
@@ -68,7 +56,7 @@ fn unipolar(regs: &TimerRegisters, compare: u64) -> Stage {
 fn unipolar_plan_is_centre_aligned_with_no_line_at_f() {
     let p = plan_json(&fixture(), &[]);
     assert_eq!(p.pwm.alignment, "centre");
-    let regs = registers(&p);
+    let regs = random_design::written_registers(&p);
     let rated = &p.cases[0];
     let c = circuit(&p, rated);
     let v = verify::verify(&regs, &unipolar(&regs, rated.compare), &c).expect("verifies");
@@ -82,7 +70,7 @@ fn unipolar_plan_is_centre_aligned_with_no_line_at_f() {
 #[test]
 fn compare_limits_hold_the_pulses_after_the_dead_time() {
     let p = plan_json(&fixture(), &[]);
-    let regs = registers(&p);
+    let regs = random_design::written_registers(&p);
     let leg = |c: u64| Stage::HalfBridge(LegCompare::new(c));
     let at_min = verify::output_timings(&regs, &leg(p.pwm.compare_min)).expect("timings");
     let at_max = verify::output_timings(&regs, &leg(p.pwm.compare_max)).expect("timings");
@@ -105,7 +93,7 @@ fn compare_limits_hold_the_pulses_after_the_dead_time() {
 #[test]
 fn needed_duty_makes_up_the_dead_time() {
     let p = plan_json(&fixture(), &["--at", "24 kHz"]);
-    let regs = registers(&p);
+    let regs = random_design::written_registers(&p);
     let rated = &p.cases[0];
     let c = circuit(&p, rated);
     let steps = regs.duty_steps() as f64;

@@ -348,7 +348,6 @@ pub fn plan(
     findings.extend(reversal_finding(ev, c));
     let (volts_per_duty, zero_volt_duty) = pwm_gain(ev, ev.rated.v_bus_v);
     findings.extend(floor_finding(
-        ev,
         c,
         w.as_ref(),
         (volts_per_duty, zero_volt_duty),
@@ -428,7 +427,6 @@ const FLOOR_SHARE: f64 = 0.1;
 /// still drives a stalled motor with more than [`FLOOR_SHARE`] of the rated current: a loop
 /// asked for zero current cannot give it, the outputs must then be disabled instead.
 fn floor_finding(
-    ev: &Evaluator,
     c: &Candidate,
     w: Option<&BrushedSampling>,
     (volts_per_duty, zero_volt_duty): (f64, f64),
@@ -451,7 +449,6 @@ fn floor_finding(
             100.0 * i / rated
         ),
     })
-    .filter(|_| ev.three_phase.is_none())
 }
 
 /// The integer gains: `K·(A per code)·(counts per V)·2^q`, the integral per update

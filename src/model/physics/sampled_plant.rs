@@ -163,6 +163,15 @@ fn charge(p: &RlPlant, i0: f64, v: f64, e_v: f64, dt: f64) -> f64 {
     i_inf * dt + (i0 - i_inf) * tau * -(-dt / tau).exp_m1()
 }
 
+/// The periodic steady state at duty `d`: `(x0, a, c)`, the current at the update event
+/// and the map's slopes `∂x_(k+1)/∂x_k`, `∂y_k/∂x_k` (both maps are affine in `x`).
+fn steady_state(p: &RlPlant, w: &SwitchedPeriod, e_v: f64, d: f64) -> (f64, f64, f64) {
+    let (f0, y0) = control_period(p, w, e_v, 0.0, d);
+    let (f1, y1) = control_period(p, w, e_v, 1.0, d);
+    let a = f1 - f0;
+    (f0 / (1.0 - a), a, y1 - y0)
+}
+
 /// The sample's bias at compare duty `d` carrying the mean current `i_a` (the back-EMF set
 /// as in [`switched_plant`]), A: the sample less the mean current of the PWM period it is
 /// taken in, in the periodic steady state. Zero for straight ramps; the R–L's curvature
@@ -173,9 +182,7 @@ pub fn sample_bias_a(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> f64 {
         ..*w
     };
     let e_v = mean_v(&single, d) - p.r_ohm * i_a;
-    let (f0, _) = control_period(p, &single, e_v, 0.0, d);
-    let (f1, _) = control_period(p, &single, e_v, 1.0, d);
-    let x0 = f0 / (1.0 - (f1 - f0));
+    let (x0, _, _) = steady_state(p, &single, e_v, d);
     let (_, y) = control_period(p, &single, e_v, x0, d);
     let (mut i, mut q) = (x0, 0.0);
     for (t0, t1, v) in intervals(&single, d) {
@@ -197,13 +204,7 @@ pub fn switched_plant(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> Opti
     }
     let e_v = mean_v(w, d) - p.r_ohm * i_a;
     // The periodic steady state: x = F(x, d), F affine in x with slope a.
-    let (f0, _) = control_period(p, w, e_v, 0.0, d);
-    let (f1, _) = control_period(p, w, e_v, 1.0, d);
-    let a = f1 - f0;
-    let x0 = f0 / (1.0 - a);
-    let (_, c0) = control_period(p, w, e_v, 0.0, d);
-    let (_, c1) = control_period(p, w, e_v, 1.0, d);
-    let c = c1 - c0;
+    let (x0, a, c) = steady_state(p, w, e_v, d);
     let (xp, yp) = control_period(p, w, e_v, x0, d + h);
     let (xm, ym) = control_period(p, w, e_v, x0, d - h);
     let b = (xp - xm) / (2.0 * h);
