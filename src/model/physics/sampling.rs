@@ -169,14 +169,17 @@ pub fn brushed_sampling(
 ) -> Option<BrushedSampling> {
     let (state, sign) = sensed_state(stage, place, t.centre);
     let lead = (0.5 * t.acquire_s / t.tick_s).round() as u64;
-    let t_c = lead as f64 * t.tick_s;
     let shift = dead_time_shift_ticks(stage, t);
     // Shifted: the state as conducted is a dead time shorter than the reference's and the
     // window sits on its middle; unshifted: the settling counts from the switch's turn-on.
+    // The lead is the acquisition's half rounded to a tick, so t_c and t_s − t_c are each at
+    // most t_s/2 + tick/2: the bound taken, so the need does not fall as the tick grows (a
+    // coarser timer never holds a window a finer one at the same frequency does not).
+    let half = 0.5 * (t.acquire_s + t.tick_s);
     let min_state_s = if shift > 0 {
-        2.0 * (t_c + t.settle_s).max(t.acquire_s - t_c) + t.dead_s
+        2.0 * (half + t.settle_s) + t.dead_s
     } else {
-        2.0 * (t_c + t.dead_s + t.settle_s).max(t.acquire_s - t_c)
+        2.0 * (half + t.dead_s + t.settle_s)
     };
     // The state's half-length in ticks the window needs, and the first whole count past it
     // (strictly past: the state's edge may not fall inside the window; the margin also covers
@@ -294,10 +297,12 @@ mod tests {
 
     // 72 MHz, P = 1800 (centre: 20 kHz), dead time 300 ns (21.6 ticks), settle 1 µs,
     // acquire 0.5 µs; lead = round(0.25 µs · 72 MHz) = 18 ticks = 0.25 µs (hand-worked):
+    // the acquisition's half bounded by 0.25 µs + half a tick (1/144 µs) = 0.256944 µs:
     // - a complementary leg's states are centred half a dead time late, round(10.8) = 11
-    //   ticks, and must last 2·(0.25 + 1) + 0.3 = 2.8 µs: half of it 100.8 ticks, so 102
-    //   counts on each side of the middle (strictly past, one more for the shift's rounding);
-    // - a single switch: 2·(0.25 + 0.3 + 1) = 3.1 µs, 111.6 ticks, 112.
+    //   ticks, and must last 2·(0.256944 + 1) + 0.3 = 2.813889 µs: half of it 101.3 ticks,
+    //   so 103 counts on each side of the middle (strictly past, one more for the shift's
+    //   rounding);
+    // - a single switch: 2·(0.256944 + 0.3 + 1) = 3.113889 µs, 112.1 ticks, 113.
     const TIMER: SamplingTimer = SamplingTimer {
         centre: true,
         duty_steps: 1800,
@@ -320,8 +325,8 @@ mod tests {
                 counting_up: true
             }
         );
-        assert!((s.min_state_s - 2.8e-6).abs() < 1e-12);
-        assert_eq!((s.compare_min, s.compare_max), (0, 1800 - 102));
+        assert!((s.min_state_s - 2.813_888_9e-6).abs() < 1e-12);
+        assert_eq!((s.compare_min, s.compare_max), (0, 1800 - 103));
         assert!((s.offset_s(&TIMER, 0.4) - 25e-6).abs() < 1e-15);
     }
 
@@ -336,7 +341,7 @@ mod tests {
                 counting_up: false
             }
         );
-        assert_eq!((s.compare_min, s.compare_max), (112, 1800));
+        assert_eq!((s.compare_min, s.compare_max), (113, 1800));
         assert_eq!(s.offset_s(&TIMER, 0.4), 0.0);
     }
 
@@ -357,7 +362,7 @@ mod tests {
                 counting_up: true
             }
         );
-        assert_eq!(s.compare_min, 900 + 102);
+        assert_eq!(s.compare_min, 900 + 103);
         assert!((s.offset_s(&TIMER, 0.4) - 12.5e-6).abs() < 1e-15);
     }
 
@@ -372,7 +377,7 @@ mod tests {
                 counting_up: true
             }
         );
-        assert_eq!((s.compare_min, s.compare_max), (102, 1800 - 102));
+        assert_eq!((s.compare_min, s.compare_max), (103, 1800 - 103));
     }
 
     #[test]
@@ -382,12 +387,12 @@ mod tests {
             ..TIMER
         };
         let on = brushed_sampling(BrushedStage::HBridgeBipolar, ShuntPlace::Leg, &t).unwrap();
-        // (1000 + 2·11)/2 − 18; the halving may lose half a count, so 2·102 counts.
+        // (1000 + 2·11)/2 − 18; the halving may lose half a count, so 2·103 counts.
         assert_eq!(on.trigger_count(1000), 511 - 18);
-        assert_eq!((on.compare_min, on.compare_max), (204, 1800));
+        assert_eq!((on.compare_min, on.compare_max), (206, 1800));
         let off = brushed_sampling(BrushedStage::HalfBridge, ShuntPlace::Leg, &t).unwrap();
         assert_eq!(off.trigger_count(1000), 1411 - 18);
-        assert_eq!((off.compare_min, off.compare_max), (0, 1800 - 204));
+        assert_eq!((off.compare_min, off.compare_max), (0, 1800 - 206));
         assert!((off.instant_s(&t, 0.5) - (18.75e-6 + 11.0 / 72e6)).abs() < 1e-15);
         assert!((off.offset_s(&t, 0.5) - 18.75e-6).abs() < 1e-15);
     }

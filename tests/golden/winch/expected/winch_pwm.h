@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:4c38bd2c94f7651dfdf00d1828cd08aac131285b104fb0a2c28b0682cb7ffb6c)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:3c316d3c8f434f5039909c5cd3fa341465e98c2717a374861bef2f9482b17e7b)
  *
  * Chosen setting
  *   design         winch
@@ -12,7 +12,7 @@
  *   resolution     5119 duty steps (12.3 bits)
  *   dead time      125 ns = 15 ticks (code 0x0F); needed 118 ns
  *   duty limits    compare 32 to 5063 (0.6 % to 98.9 %); the load needs 3.9 % to 96.1 %
- *   feasible band  11.721 kHz to 14.486 kHz
+ *   feasible band  11.721 kHz to 14.399 kHz
  *
  * Constraints (limit, value, margin to the limit, status)
  *   junction-rated         145 °C     63.5 °C     81.5 K  ok
@@ -22,7 +22,7 @@
  *   resolution         10.00 bits  12.32 bits  2.32 bits  ok
  *   dead-time              125 ns      118 ns    7.22 ns  ok
  *   duty-range            98.91 %     96.12 %     2.78 %  ok
- *   sampling-window        3.11 %      3.88 %     0.77 %  ok
+ *   sampling-window        3.13 %      3.88 %     0.75 %  ok
  *   frequency-band     10.000 kHz  11.721 kHz   1.72 kHz  ok
  *
  * Over the operating range (worst points)
@@ -73,7 +73,7 @@
  * Current sampling
  *   sampled at   the middle of the off-time (a ramp's middle is the period's mean current: regular sampling)
  *   ADC trigger  count 5096 matched while counting up, 30 ticks before the state's middle, which lies 7 ticks (half the dead time) after the reference's
- *   window       the sensed state must last 2.625 µs (dead time, settling, acquisition): compares 159..4960 (3.1 %..96.9 %)
+ *   window       the sensed state must last 2.633 µs (dead time, settling, acquisition): compares 160..4959 (3.1 %..96.9 %)
  *   sign         the shunt reads the motor current as the plan counts it
  *
  * Current loop
@@ -101,12 +101,12 @@
  *   high-bus case           at compare duty 84.205 %: mean current 12.00 A (plan 12.00 A), ripple 1.564 A peak to peak (plan 1.564 A)
  *   range-ripple case       at compare duty 75.162 %: mean current 12.00 A (plan 12.00 A), ripple 1.800 A peak to peak (plan 1.800 A)
  *   range-lowest-duty case  at compare duty 52.538 %: mean current 12.00 A (plan 12.00 A), ripple 327.9 mA peak to peak (plan 327.9 mA)
- *   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.01 µs before and holds 1.52 µs after (settling and sampling need no more)
+ *   sampling                at the written trigger, over the compares the plan allows, the sampled state has held 1.02 µs before and holds 1.53 µs after (settling and sampling need no more)
  *   current limit           trip window 23.15 A to 26.95 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 27.07 A (plan 27.22 A) with a mean of 26.49 A (plan's stall current 26.95 A)
  *
  * Alternatives
  *   rounder-frequency  12.000 kHz (divider 1, 10000 ticks, centre): +20 mW total loss, +0.1 K junction, -36 mA ripple, -0.03 bits resolution
- *   highest-frequency  14.486 kHz (divider 1, 8284 ticks, centre): +197 mW total loss, +0.6 K junction, -298 mA ripple, -0.31 bits resolution
+ *   highest-frequency  14.399 kHz (divider 1, 8334 ticks, centre): +191 mW total loss, +0.6 K junction, -291 mA ripple, -0.30 bits resolution
  *
  * Findings
  *   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
@@ -190,8 +190,8 @@
 #define WINCH_PWM_ADC_TRIGGER_COUNTING_UP 1
 /* Compares at which the sensed state holds settling, dead time and sampling;
  * outside them the sample is not valid. */
-#define WINCH_PWM_SAMPLING_COMPARE_MIN 159U
-#define WINCH_PWM_SAMPLING_COMPARE_MAX 4960U
+#define WINCH_PWM_SAMPLING_COMPARE_MIN 160U
+#define WINCH_PWM_SAMPLING_COMPARE_MAX 4959U
 /* 1: the shunt reads the motor current; -1: reversed. */
 #define WINCH_PWM_SHUNT_SIGN (1)
 /* Current loop: one update every LOOP_UPDATE_DIVIDER PWM periods (11.72 kHz);
@@ -206,8 +206,8 @@
 #define WINCH_PWM_LOOP_COUNTS_PER_VOLT 5.3322916666666664e1
 /* The compare of zero volts, and the loop output's clamp. */
 #define WINCH_PWM_LOOP_ZERO_COMPARE 2560
-#define WINCH_PWM_LOOP_COMPARE_LO 159
-#define WINCH_PWM_LOOP_COMPARE_HI 4960
+#define WINCH_PWM_LOOP_COMPARE_LO 160
+#define WINCH_PWM_LOOP_COMPARE_HI 4959
 /* Integer gains in compare counts per ADC code, times 2^LOOP_FRACTION_BITS
  * (1.611328e-2 A per code; the integral gain per update). */
 #define WINCH_PWM_LOOP_FRACTION_BITS 12
