@@ -3931,6 +3931,23 @@ error: heron-hb48.yaml:14:28: board.timer.update_divider.max: 0 is out of range;
     );
 }
 
+#[test]
+fn update_divider_each_extreme_not_a_flag() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    fpu: true\n",
+            "    fpu: true\n    update_divider: { max: 4, each_extreme: twice }\n",
+        )],
+        r#"
+error: heron-hb48.yaml:14:45: board.timer.update_divider.each_extreme: expected `true` or `false`, found the text "twice"
+ 14 |     update_divider: { max: 4, each_extreme: twice }
+    |                                             ^
+"#,
+    );
+}
+
 /// A conversion order on a stage that reads one current.
 #[test]
 fn current_sensing_conversion_on_a_brushed_board() {

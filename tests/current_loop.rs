@@ -46,6 +46,8 @@ struct Drive {
     acquire_s: f64,
     settle_s: f64,
     centre: bool,
+    /// The loop samples and updates at both counter extremes.
+    half: bool,
 }
 
 fn current_at(pieces: &[CurrentPiece], t: f64) -> f64 {
@@ -93,7 +95,7 @@ impl Drive {
     /// The emitted helper's PI update (f64): returns the compare and whether it clamped.
     fn pi(&self, integral: &mut f64, e: f64) -> (u64, bool) {
         let cl = &self.cl;
-        let t = cl.update_divider as f64 / cl.pwm_rate_hz;
+        let t = 1.0 / cl.rate_hz;
         let next = *integral + cl.ki_v_per_a_s * t * e;
         let zero = cl.zero_volt_duty * self.regs.duty_steps() as f64;
         let counts = zero + (cl.kp_v_per_a * e + next) * cl.counts_per_volt;
@@ -114,6 +116,62 @@ impl Drive {
         ((counts + 0.5) as u64, false)
     }
 
+    /// The top trigger's acquisition middle in the PWM period, s (sampling at both extremes).
+    fn top_sample_s(&self) -> f64 {
+        let s = &self.sampling;
+        let n = s.top_trigger_count.expect("a top trigger") as f64 * self.regs.tick_s;
+        let t = if s.top_counting_up {
+            n
+        } else {
+            self.period_s() - n
+        };
+        t + 0.5 * self.acquire_s
+    }
+
+    /// The bottom trigger's acquisition middle after the bottom, s (sampling at both
+    /// extremes; the window straddles the bottom, its middle at or after it).
+    fn bottom_sample_s(&self) -> f64 {
+        let mid = self.trigger_s(0) + 0.5 * self.acquire_s;
+        let mid = if mid > 0.5 * self.period_s() {
+            mid - self.period_s()
+        } else {
+            mid
+        };
+        mid.max(0.0)
+    }
+
+    /// `run` for a loop that samples and updates at both extremes: each sample's compare is
+    /// loaded at the next extreme (the period run again once the down count's compare is
+    /// known; the bottom's sample does not depend on it).
+    fn run_half(
+        &self,
+        i_start: f64,
+        c_start: u64,
+        updates: usize,
+        mut compare_for: impl FnMut(usize, f64) -> u64,
+    ) -> (Vec<f64>, f64) {
+        let (mut i, mut up) = (i_start, c_start);
+        let steps = self.regs.duty_steps();
+        let mut samples = Vec::with_capacity(updates);
+        let run = |up: u64, down: u64, i: f64| {
+            let st = written_stage_halves(&self.topology, steps, up, down);
+            verify::run_period(&self.regs, &st, &self.circuit, i).expect("period")
+        };
+        // Whole PWM periods (an odd count runs one update more), so the state handed back is
+        // at a bottom with its up count's compare known.
+        for j in 0..updates.div_ceil(2) {
+            let y = current_at(&run(up, up, i), self.bottom_sample_s());
+            samples.push(y);
+            let down = compare_for(2 * j, y);
+            let pieces = run(up, down, i);
+            i = pieces.last().map_or(i, |p| p.i1_a);
+            let y = current_at(&pieces, self.top_sample_s());
+            samples.push(y);
+            up = compare_for(2 * j + 1, y);
+        }
+        (samples, i)
+    }
+
     /// Runs `updates` control periods with compares from `compare_for(k, y_k)` (y_k the
     /// sample of control period k); returns the samples and the current at the end.
     fn run(
@@ -123,6 +181,9 @@ impl Drive {
         updates: usize,
         mut compare_for: impl FnMut(usize, f64) -> u64,
     ) -> (Vec<f64>, f64) {
+        if self.half {
+            return self.run_half(i_start, c_start, updates, compare_for);
+        }
         let n = self.cl.update_divider as usize;
         let (mut i, mut c) = (i_start, c_start);
         let mut samples = Vec::with_capacity(updates);
@@ -203,7 +264,7 @@ fn cdiv(a: (f64, f64), b: (f64, f64)) -> (f64, f64) {
 /// The emitted helper's controller `K_p + K_i·T·z/(z − 1)` at `z = e^(jθ)`, written here
 /// from its update law (the integral includes the present error).
 fn controller(cl: &CurrentLoopOut, theta: f64) -> (f64, f64) {
-    let t = cl.update_divider as f64 / cl.pwm_rate_hz;
+    let t = 1.0 / cl.rate_hz;
     let z = (theta.cos(), theta.sin());
     let integ = cdiv(z, (z.0 - 1.0, z.1));
     (
@@ -220,8 +281,7 @@ fn measured_loop(d: &Drive, c0: u64, i0: f64, theta: f64, amp_v: f64) -> (f64, f
     let zero = d.cl.zero_volt_duty * d.regs.duty_steps() as f64;
     let cycles = 16.0;
     let per_cycle = std::f64::consts::TAU / theta;
-    let tau_updates =
-        d.circuit.l_h / d.circuit.r_ohm / (d.cl.update_divider as f64 / d.cl.pwm_rate_hz);
+    let tau_updates = d.circuit.l_h / d.circuit.r_ohm / (1.0 / d.cl.rate_hz);
     let warm = (6.0 * tau_updates).max(2.0 * per_cycle).min(4000.0) as usize;
     let fit = (cycles * per_cycle).ceil() as usize;
     let total = warm + fit;
@@ -240,7 +300,7 @@ fn measured_loop(d: &Drive, c0: u64, i0: f64, theta: f64, amp_v: f64) -> (f64, f
 /// Crossover and phase margin (degrees) of the simulated loop: bisection on |C·G| = 1 about
 /// the plan's crossover.
 fn measured_margin(d: &Drive, c0: u64, i0: f64, amp_a: f64) -> Option<(f64, f64)> {
-    let t = d.cl.update_divider as f64 / d.cl.pwm_rate_hz;
+    let t = 1.0 / d.cl.rate_hz;
     let wc = std::f64::consts::TAU * d.cl.crossover_hz;
     let at = |w: f64| {
         let l = measured_loop(d, c0, i0, w * t, amp_a * d.cl.kp_v_per_a);
@@ -282,11 +342,20 @@ fn shunt_sees(topology: &str, place: &str, iv: &SwitchInterval) -> bool {
 /// At compare `c`, the shunt's state holds from `settle` before the trigger to the end of
 /// the acquisition, and (phase shunt) no leg switches in that span. Returns what is wrong.
 fn window_holds(d: &Drive, place: &str, c: u64) -> Result<(), String> {
+    window_holds_at(d, place, c, d.trigger_s(c))?;
+    if d.half {
+        window_holds_at(d, place, c, d.top_sample_s() - 0.5 * d.acquire_s)?;
+    }
+    Ok(())
+}
+
+/// [`window_holds`] for the trigger at `trigger` s into the period.
+fn window_holds_at(d: &Drive, place: &str, c: u64, trigger: f64) -> Result<(), String> {
     let st = written_stage(&d.topology, d.regs.duty_steps(), c);
     let v = verify::verify(&d.regs, &st, &d.circuit).map_err(|e| format!("{e:?}"))?;
     let t = d.period_s();
-    let start = d.trigger_s(c) - d.settle_s;
-    let end = d.trigger_s(c) + d.acquire_s;
+    let start = trigger - d.settle_s;
+    let end = trigger + d.acquire_s;
     // Sample the span finely (a tenth of a tick) against the periodic timeline.
     let steps = (((end - start) / (0.1 * d.regs.tick_s)).ceil() as usize).max(8);
     let mut first: Option<(LegState, Option<LegState>)> = None;
@@ -351,11 +420,33 @@ fn random_case(
     if r.chance(0.5) {
         board = board.replacen("    fpu:", "    update_divider: { max: 8 }\n    fpu:", 1);
     }
-    let rate = if r.chance(0.5) {
+    let mut rate = if r.chance(0.5) {
         format!("rate: \"{:.0} Hz\", ", r.range(3_000.0, 30_000.0))
     } else {
         String::new()
     };
+    // A phase shunt on a board whose compares load at both extremes, asked for a rate above
+    // any PWM rate drawn: on a centre-aligned plan the loop samples and updates every half
+    // period. Drawn from a generator of its own, so the designs drawn before stay the same.
+    let mut own = Rng(r.0 ^ 0x4841_4c46);
+    if place == "phase" && modulation != "unipolar" && own.chance(0.5) {
+        board = board.replacen(
+            "update_divider: { max: 8 }",
+            "update_divider: { max: 8, each_extreme: true }",
+            1,
+        );
+        if !board.contains("each_extreme") {
+            board = board.replacen(
+                "    fpu:",
+                "    update_divider: { max: 1, each_extreme: true }\n    fpu:",
+                1,
+            );
+        }
+        for edge in ["alignments: [edge, centre]", "alignments: [edge]"] {
+            board = board.replacen(edge, "alignments: [centre]", 1);
+        }
+        rate = "rate: \"400 kHz\", ".into();
+    }
     let pm = *r.pick(&[45.0, 55.0, 60.0, 70.0]);
     let design = format!("{design}  current_loop: {{ {rate}phase_margin_deg: {pm} }}\n");
     std::fs::write(dir.join("switch.yaml"), &switch).map_err(|e| e.to_string())?;
@@ -418,7 +509,14 @@ fn random_case(
         v_sd_v: p.load.v_sd_v,
         v_f_v: p.load.freewheel_v_f_v.unwrap_or(0.0),
     };
+    let half = cl.updates_per_pwm_period == 2;
+    if half != sampling.top_trigger_count.is_some() {
+        return Err(format!(
+            "two updates per period without two triggers, or the reverse\n{design}\n{board}"
+        ));
+    }
     let drive = Drive {
+        half,
         regs,
         topology: p.topology.clone(),
         circuit,
@@ -430,7 +528,12 @@ fn random_case(
         settle_s: settle * 1e-6,
         centre,
     };
-    let label = format!("{} {} {place} shunt, {pm}°", p.topology, p.pwm.alignment);
+    let label = format!(
+        "{} {} {place} shunt, {pm}°{}",
+        p.topology,
+        p.pwm.alignment,
+        if half { ", both extremes" } else { "" }
+    );
     Ok(Some((p, drive, label)))
 }
 
@@ -517,7 +620,7 @@ fn check_case(p: &Plan, d: &Drive, place: &str, label: &str) -> Result<Option<Ou
         .find(|c| c.name == "rated")
         .map_or(1.0, |c| c.load_current_a);
     let tau = d.circuit.l_h / d.circuit.r_ohm;
-    let t_c = d.cl.update_divider as f64 / d.cl.pwm_rate_hz;
+    let t_c = 1.0 / d.cl.rate_hz;
     let settle_updates = ((8.0 * tau / t_c) as usize + 200).min(20_000);
     // The step: a tenth of the rated current, or thirty times the current one compare
     // count moves at the crossover (V per count over ω_c·L) where the count is coarse, so
@@ -545,8 +648,13 @@ fn check_case(p: &Plan, d: &Drive, place: &str, label: &str) -> Result<Option<Ou
     }
     // The sample reads the period's mean, less the bias the plan states (the R–L's
     // curvature, at the rated case; here at 90 % of it).
-    let off = d.sample_offset_s(c0).rem_euclid(d.period_s());
-    let sampled = current_at(&pieces, off);
+    // Sampled at both extremes: the plan states the two samples' mean bias (what the
+    // integrator settles on).
+    let sampled = if d.half {
+        0.5 * (current_at(&pieces, d.bottom_sample_s()) + current_at(&pieces, d.top_sample_s()))
+    } else {
+        current_at(&pieces, d.sample_offset_s(c0).rem_euclid(d.period_s()))
+    };
     let bias =
         d.cl.sample_bias_a
             .ok_or("a brushed loop without its sample bias")?;

@@ -67,7 +67,7 @@ impl LoopFacts {
         Some(LoopFacts {
             kp_v_per_a: f(cl, "kp_v_per_a"),
             ki_v_per_a_s: f(cl, "ki_v_per_a_s"),
-            period_s: f(cl, "update_divider") / f(cl, "pwm_rate_hz"),
+            period_s: 1.0 / f(cl, "rate_hz"),
             counts_per_volt: f(cl, "counts_per_volt"),
             amps_per_code: f(fp, "amps_per_code"),
             zero_code: f(fp, "zero_code"),
@@ -150,6 +150,9 @@ struct Facts {
     current_loop: Option<LoopFacts>,
     /// The dead-time compensation in counts (rounded; 0 without dead time).
     dead_time_comp: u64,
+    /// A brushed plan's sampling and loop constants (name without prefix, value), from
+    /// `plan.json` `sampling` and `current_loop`.
+    loop_consts: Vec<(&'static str, u64)>,
     header: String,
     module: String,
 }
@@ -171,6 +174,56 @@ fn json_u64(v: &serde_json::Value, path: &str) -> u64 {
             })
             .unwrap_or_else(|| panic!("plan.json {path} is not a whole number: {other}")),
     }
+}
+
+/// The sampling and loop constants a brushed plan's `plan.json` implies.
+fn loop_consts(json: &serde_json::Value) -> Vec<(&'static str, u64)> {
+    let mut out = Vec::new();
+    let sm = &json["sampling"];
+    if sm.is_object() {
+        out.push((
+            "SAMPLING_COMPARE_MIN",
+            json_u64(json, "sampling.compare_min"),
+        ));
+        out.push((
+            "SAMPLING_COMPARE_MAX",
+            json_u64(json, "sampling.compare_max"),
+        ));
+        if sm["trigger"] == "fixed" {
+            out.push((
+                "ADC_TRIGGER_COUNT",
+                json_u64(json, "sampling.trigger_count"),
+            ));
+            let up = sm["counting_up"].as_bool().expect("sampling.counting_up");
+            out.push(("ADC_TRIGGER_COUNTING_UP", u64::from(up)));
+        }
+        if sm["top_trigger_count"].is_u64() {
+            out.push((
+                "ADC_TRIGGER_TOP_COUNT",
+                json_u64(json, "sampling.top_trigger_count"),
+            ));
+            let up = sm["top_counting_up"].as_bool().expect("top_counting_up");
+            out.push(("ADC_TRIGGER_TOP_COUNTING_UP", u64::from(up)));
+        }
+    }
+    let cl = &json["current_loop"];
+    if cl.is_object() {
+        out.push((
+            "LOOP_UPDATE_DIVIDER",
+            json_u64(json, "current_loop.update_divider"),
+        ));
+        out.push((
+            "LOOP_UPDATES_PER_PERIOD",
+            json_u64(json, "current_loop.updates_per_pwm_period"),
+        ));
+        if cl["update_extremes"].is_u64() {
+            out.push((
+                "LOOP_UPDATE_EXTREMES",
+                json_u64(json, "current_loop.update_extremes"),
+            ));
+        }
+    }
+    out
 }
 
 /// Plan a case and read its facts; the temporary folder lives as long as
@@ -224,6 +277,7 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
             .as_f64()
             .expect("pwm.dead_time_comp_counts")
             .round() as u64,
+        loop_consts: loop_consts(&json),
         header: text(&format!("{stem}.h")),
         module: text(&format!("{stem}.rs")),
         stem,
@@ -356,7 +410,7 @@ fn c_host_program(f: &Facts) -> String {
         ("COMPARE_MIN", f.compare_min),
         ("COMPARE_MAX", f.compare_max),
     ];
-    for (name, want) in consts {
+    for (name, want) in consts.into_iter().chain(f.loop_consts.iter().copied()) {
         let _ = writeln!(
             s,
             "    expect(\"{m}_{name} (plan.json)\", (unsigned long long){m}_{name}, {want}ULL);"
@@ -842,7 +896,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
              assert_eq!(DEAD_TIME_CODE as u64, {dtc});\n        \
              assert_eq!(DEAD_TIME_TICKS as u64, {dtt});\n        \
              assert_eq!(COMPARE_MIN as u64, {min});\n        \
-             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}{pick}    }}\n\n    \
+             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}{pick}{loops}    }}\n\n    \
              #[test]\n    fn constructors_give_the_closed_form() {{\n        \
              let got: Vec<u64> = [{list}].iter().map(|d| d.counts() as u64).collect();\n        \
              assert_eq!(got, vec![{counts}]);\n        \
@@ -864,6 +918,11 @@ fn rust_host_tests(cases: &[Facts]) -> String {
             max = f.compare_max,
             mid = f.mid(),
             tiny = f.tiny_q16(),
+            loops = f
+                .loop_consts
+                .iter()
+                .map(|(name, v)| format!("        assert_eq!({name} as u64, {v});\n"))
+                .collect::<String>(),
             pick = if f.module.contains("pub const fn unsampled_leg(") {
                 "        assert_eq!(unsampled_leg([Duty::from_q16(10000), Duty::from_q16(30000), Duty::from_q16(20000)]), 1);\n        \
                  assert_eq!(unsampled_leg([Duty::from_q16(20000), Duty::from_q16(20000), Duty::from_q16(10000)]), 0);\n        \

@@ -51,6 +51,21 @@ fn edits(case: &Case) -> &'static [(&'static str, &'static str, &'static str)] {
                 "alignments: [edge, centre]",
                 "alignments: [centre]",
             ),
+            (
+                "wren-hb24.yaml",
+                "    fpu: true\n",
+                "    fpu: true\n    update_divider: { max: 8, each_extreme: true }   # the compares load at the top and the bottom\n",
+            ),
+            (
+                "wren-hb24.yaml",
+                "[\"18 K/W\", \"60 s\"]]\n",
+                "[\"18 K/W\", \"60 s\"]]\n  overcurrent:\n    shunt: { resistance: \"10 mohm\", tolerance: \"1 %\", power: \"1 W\", place: phase }   # in series with the motor\n    amplifier: { gain: 20, gain_tolerance: \"2 %\", offset: \"1.65 V\", offset_tolerance: \"10 mV\", settle_time: \"300 ns\" }\n    comparator:\n      threshold: { fixed: \"2.9 V\" }\n      tolerance: \"3 %\"\n      offset: \"10 mV\"\n      delay: \"120 ns\"\n    blanking: { clock_divider: 1, max_ticks: 255 }\n    responses: [cycle-by-cycle]\n  current_sensing: { settle_time: \"0.6 us\", sample_time: \"0.3 us\", adc: { bits: 12, full_scale: \"3.3 V\" } }\n",
+            ),
+            (
+                "conveyor-centre.yaml",
+                "  objective: least-loss\n",
+                "  objective: least-loss\n  current_loop: { rate: \"30 kHz\", fixed_point: { fraction_bits: 12 } }   # sampled and updated at both counter extremes\n",
+            ),
         ],
         _ => &[],
     }

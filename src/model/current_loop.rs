@@ -44,6 +44,10 @@ pub struct SamplingOut {
     pub trigger: String,
     pub trigger_count: u64,
     pub counting_up: bool,
+    /// Sampling at both counter extremes (`state` is then the bottom's on-time): the top's
+    /// trigger, a fixed count in the middle of the off-time, and its direction.
+    pub top_trigger_count: Option<u64>,
+    pub top_counting_up: bool,
     pub trigger_add: u64,
     pub lead_ticks: u64,
     /// The trigger count at the rated case's compare.
@@ -85,6 +89,12 @@ pub struct CurrentLoopOut {
     pub rate_asked_hz: Option<f64>,
     /// PWM periods per control update.
     pub update_divider: u64,
+    /// Control updates per PWM period: 2 where the loop samples and updates at both counter
+    /// extremes (the divider is then 1), else 1.
+    pub updates_per_pwm_period: u64,
+    /// Counter extremes per update, on a timer whose update event comes at each extreme (its
+    /// divider counts extremes), else `None`.
+    pub update_extremes: Option<u64>,
     pub rate_hz: f64,
     /// The loop's sample offset τ (`sampling::BrushedSampling::offset_s`), s.
     pub sample_offset_s: f64,
@@ -137,12 +147,18 @@ pub fn sampling_out(ev: &Evaluator, c: &Candidate) -> Option<SamplingOut> {
         TriggerRule::Fixed { count, counting_up } => ("fixed", count, counting_up, 0),
         TriggerRule::HalfCompare { add, .. } => ("half-compare", 0, true, add),
     };
+    let (top_count, top_up) = match w.top_trigger {
+        Some(TriggerRule::Fixed { count, counting_up }) => (Some(count), counting_up),
+        _ => (None, false),
+    };
     Some(SamplingOut {
         state: state_name(w.state).into(),
         sign: w.sign,
         trigger: trigger.into(),
         trigger_count: count,
         counting_up: up,
+        top_trigger_count: top_count,
+        top_counting_up: top_up,
         trigger_add: add,
         lead_ticks: w.lead_ticks,
         shift_ticks: w.shift_ticks,
@@ -240,6 +256,7 @@ fn switched(
     w: &BrushedSampling,
     n: u64,
     plant: &RlPlant,
+    half: bool,
 ) -> Option<(DiscretePlant, f64)> {
     let s = pwm_setting(&c.setting);
     let centre = s.alignment == crate::model::timer::Alignment::Centre;
@@ -279,10 +296,45 @@ fn switched(
         sample,
     };
     let (d, i) = (c.rated.compare_duty, c.rated.case.load_current_a);
+    if half {
+        return Some((
+            sampled_plant::half_period_plant(plant, &period, d, i)?,
+            sampled_plant::half_period_bias_a(plant, &period, d, i),
+        ));
+    }
     Some((
         sampled_plant::switched_plant(plant, &period, d, i)?,
         sampled_plant::sample_bias_a(plant, &period, d, i),
     ))
+}
+
+/// A warning when the asked rate is above what the loop runs at: the PWM rate (twice it where
+/// the loop updates every half period), saying why the board cannot update faster.
+fn rate_finding(d: &Design, asked: Option<f64>, pwm_hz: f64, half: bool) -> Option<LoopFinding> {
+    let most = if half { 2.0 * pwm_hz } else { pwm_hz };
+    let a = asked.filter(|&a| a > most * 1.0005)?;
+    let each_extreme = d
+        .board
+        .timer
+        .update_divider
+        .as_ref()
+        .is_some_and(|u| u.each_extreme);
+    let why = match (half, each_extreme) {
+        (true, _) => "it samples and updates at both counter extremes, twice per PWM period",
+        (false, true) => {
+            "it updates once per PWM period: sampling at both counter extremes needs a centre-aligned setting and a shunt in series with the motor (`place: phase`) on a stage other than a unipolar bridge"
+        }
+        (false, false) => {
+            "it updates once per PWM period (the compares take effect at one update event per period)"
+        }
+    };
+    Some(LoopFinding {
+        severity: Severity::Warning,
+        code: "current-loop-rate",
+        message: format!(
+            "The current loop was asked to run at {a:.0} Hz, above the {most:.0} Hz it can: {why}."
+        ),
+    })
 }
 
 /// The plan's current loop (`None` when the design asks for none or the stage samples no
@@ -309,19 +361,12 @@ pub fn plan(
         .update_divider
         .as_ref()
         .map_or(1, |u| u64::from(u.max));
+    let half = w.as_ref().is_some_and(|w| w.top_trigger.is_some());
+    let per_period: u64 = if half { 2 } else { 1 };
     let n = update_divider(pwm_hz, asked, max_div);
-    if let Some(a) = asked.filter(|&a| a > pwm_hz * 1.0005) {
-        findings.push(LoopFinding {
-            severity: Severity::Warning,
-            code: "current-loop-rate",
-            message: format!(
-                "The current loop was asked to run at {:.0} Hz, above the PWM rate {:.0} Hz; it updates once per PWM period (the compares take effect at one update event per period).",
-                a, pwm_hz
-            ),
-        });
-    }
+    findings.extend(rate_finding(d, asked, pwm_hz, half));
     let timing = LoopTiming {
-        period_s: n as f64 / pwm_hz,
+        period_s: n as f64 / (pwm_hz * per_period as f64),
         sample_offset_s: offset,
     };
     let plant = RlPlant {
@@ -330,7 +375,7 @@ pub fn plan(
     };
     let asked_pm = spec.phase_margin_deg.unwrap_or(DEFAULT_PHASE_MARGIN_DEG);
     let (discrete, bias) = match &w {
-        Some(w) => match switched(ev, c, w, n, &plant) {
+        Some(w) => match switched(ev, c, w, n, &plant, half) {
             Some((dp, bias)) => (Some(dp), Some(bias)),
             None => (None, None),
         },
@@ -372,7 +417,15 @@ pub fn plan(
         pwm_rate_hz: pwm_hz,
         rate_asked_hz: asked,
         update_divider: n,
-        rate_hz: pwm_hz / n as f64,
+        updates_per_pwm_period: per_period,
+        update_extremes: d
+            .board
+            .timer
+            .update_divider
+            .as_ref()
+            .filter(|u| u.each_extreme && s.alignment == crate::model::timer::Alignment::Centre)
+            .map(|_| 2 * n / per_period),
+        rate_hz: pwm_hz * per_period as f64 / n as f64,
         sample_offset_s: offset,
         sample_instant_s: instant,
         sample_bias_a: bias,
@@ -441,11 +494,16 @@ fn floor_finding(
     let v = (lo / steps - zero_volt_duty) * volts_per_duty;
     let i = v / r_ohm;
     let rated = c.rated.case.load_current_a.abs();
+    let instead = if w?.top_trigger.is_some() {
+        "sample once per PWM period at the counter top (a loop rate no higher than the PWM rate), where small duties leave the off-time long"
+    } else {
+        "read the current where the window allows small duties (a leg or phase shunt)"
+    };
     (i > FLOOR_SHARE * rated).then(|| LoopFinding {
         severity: Severity::Warning,
         code: "current-loop-floor",
         message: format!(
-            "The loop's lowest compare ({lo:.0} counts: the compare limits within the sampling window) puts {v:.2} V on the motor, {i:.2} A at standstill ({:.0} % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or read the current where the window allows small duties (a leg or phase shunt).",
+            "The loop's lowest compare ({lo:.0} counts: the compare limits within the sampling window) puts {v:.2} V on the motor, {i:.2} A at standstill ({:.0} % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or {instead}.",
             100.0 * i / rated
         ),
     })

@@ -96,6 +96,12 @@ pub struct BrushedSensing {
     pub settle_s: f64,
     /// ADC acquisition, s.
     pub acquire_s: f64,
+    /// The loop rate the design asks for, Hz, where the board can sample at both counter
+    /// extremes and update the compares there (an up-down count, a shunt in series with the
+    /// motor, not a unipolar bridge, a timer whose update event comes at each extreme): at a
+    /// centre-aligned setting whose PWM rate is below it the plan samples and updates every
+    /// half period.
+    pub half_period_rate_hz: Option<f64>,
 }
 
 /// What a three-phase bridge adds to the evaluator.
@@ -412,7 +418,23 @@ fn brushed_sensing(d: &Design) -> Option<BrushedSensing> {
         },
         settle_s: cs.settle_time.si,
         acquire_s: cs.sample_time.si,
+        half_period_rate_hz: half_period_rate_hz(d, stage, place),
     })
+}
+
+/// The asked loop rate where the board can update every half period (see
+/// [`BrushedSensing::half_period_rate_hz`]).
+fn half_period_rate_hz(
+    d: &Design,
+    stage: sampling::BrushedStage,
+    place: ShuntPlaceSpec,
+) -> Option<f64> {
+    let each_extreme = d.board.timer.update_divider.as_ref()?.each_extreme;
+    let fits = each_extreme
+        && place == ShuntPlaceSpec::Phase
+        && stage != sampling::BrushedStage::HBridgeUnipolar;
+    fits.then_some(())?;
+    Some(d.spec.current_loop.as_ref()?.rate.as_ref()?.si)
 }
 
 /// The three-phase part of a design's evaluator, when its board is one.

@@ -19,11 +19,7 @@ fn trigger_s(regs: &TimerRegisters, s: &SamplingOut, c: u64) -> f64 {
     } else {
         ((c + s.trigger_add) / 2).saturating_sub(s.lead_ticks)
     };
-    if regs.alignment == Alignment::Centre && !s.counting_up {
-        regs.period_s() - n as f64 * regs.tick_s
-    } else {
-        n as f64 * regs.tick_s
-    }
+    fixed_s(regs, n, s.counting_up)
 }
 
 /// Is `iv` the switching state the plan samples (`on-time`: leg A's high side, or the
@@ -77,9 +73,21 @@ fn held_around(
     (before, after)
 }
 
+/// A fixed count's time in the PWM period, s (see [`trigger_s`]).
+fn fixed_s(regs: &TimerRegisters, count: u64, counting_up: bool) -> f64 {
+    if regs.alignment == Alignment::Centre && !counting_up {
+        regs.period_s() - count as f64 * regs.tick_s
+    } else {
+        count as f64 * regs.tick_s
+    }
+}
+
 /// At the loop's lowest and highest compare (the plan's compare limits within the sampling
 /// window), the sampled state holds `settle_time_s` before the trigger and `sample_time_s`
-/// after it; records the shortest of each.
+/// after it (and, sampled at both extremes, the off-time around the top's trigger); records
+/// the shortest of each. Symmetric compares are the worst case of a loop updating each half
+/// period too: the state around an extreme is bounded by the two compares beside it, each
+/// within the same limits.
 pub fn check(
     topology: &str,
     regs: &TimerRegisters,
@@ -101,14 +109,19 @@ pub fn check(
                 continue;
             }
         };
-        let t = trigger_s(regs, s, c);
-        let (before, after) = held_around(topology, &s.state, &timeline, regs.period_s(), t);
-        worst = (worst.0.min(before), worst.1.min(after));
-        if before + slack < s.settle_time_s || after + slack < s.sample_time_s {
-            out.disagreements.push(format!(
-                "sampling: at compare {c} the trigger finds the {} held {:.4e} s before and {:.4e} s after, the plan promises {:.4e} s settling and {:.4e} s sampling",
-                s.state, before, after, s.settle_time_s, s.sample_time_s
-            ));
+        let mut triggers = vec![(s.state.as_str(), trigger_s(regs, s, c))];
+        if let Some(top) = s.top_trigger_count {
+            triggers.push(("off-time", fixed_s(regs, top, s.top_counting_up)));
+        }
+        for (state, t) in triggers {
+            let (before, after) = held_around(topology, state, &timeline, regs.period_s(), t);
+            worst = (worst.0.min(before), worst.1.min(after));
+            if before + slack < s.settle_time_s || after + slack < s.sample_time_s {
+                out.disagreements.push(format!(
+                    "sampling: at compare {c} the trigger finds the {state} held {before:.4e} s before and {after:.4e} s after, the plan promises {:.4e} s settling and {:.4e} s sampling",
+                    s.settle_time_s, s.sample_time_s
+                ));
+            }
         }
     }
     out.sample_low_on_before_s = Some(worst.0);

@@ -506,7 +506,20 @@ impl Evaluator {
     ) -> Option<Option<BrushedSampling>> {
         let bs = self.sensing?;
         let t = self.sampling_timer(s, t_dead_s)?;
-        Some(sampling::brushed_sampling(bs.stage, bs.place, &t))
+        Some(if self.samples_each_half_period(s) {
+            sampling::phase_shunt_both_extremes(bs.stage, &t)
+        } else {
+            sampling::brushed_sampling(bs.stage, bs.place, &t)
+        })
+    }
+
+    /// Whether a brushed loop samples and updates every half period at this setting: the
+    /// board can (`BrushedSensing::half_period_rate_hz`), the setting is centre-aligned and
+    /// the asked rate is above its PWM rate (by more than the rate's rounding, 0.05 %, own
+    /// bound).
+    pub fn samples_each_half_period(&self, s: &PwmSetting) -> bool {
+        let asked = self.sensing.and_then(|b| b.half_period_rate_hz);
+        s.alignment == Alignment::Centre && asked.is_some_and(|r| r > s.frequency_hz * 1.0005)
     }
 
     /// The timer setting and sensing chain a brushed stage's sampling window
@@ -928,7 +941,7 @@ fn brushed_sampling_check(
     } else {
         needed.0
     };
-    if w.duty_min > 0.0 {
+    let at_least = |why: &str| {
         lower(
             "sampling-window",
             w.duty_min,
@@ -936,7 +949,8 @@ fn brushed_sampling_check(
             "",
             format!("{why}: compare duty at least {:.1} %", 100.0 * w.duty_min).into(),
         )
-    } else {
+    };
+    let at_most = |why: &str| {
         upper(
             "sampling-window",
             w.duty_max,
@@ -944,6 +958,26 @@ fn brushed_sampling_check(
             "",
             format!("{why}: compare duty at most {:.1} %", 100.0 * w.duty_max).into(),
         )
+    };
+    if w.top_trigger.is_none() {
+        return if w.duty_min > 0.0 {
+            at_least(&why)
+        } else {
+            at_most(&why)
+        };
+    }
+    // Read at both extremes: the on-time bounds the lowest duty, the off-time the highest;
+    // the check states the side with the least margin.
+    let both = format!(
+        "the shunt is read every half period, in the middle of the on-time and of the off-time, each of which must last {} (dead time, settle, sample)",
+        fmt_t(w.min_state_s)
+    );
+    let (lo, hi) = (at_least(&both), at_most(&both));
+    let lo_m = lo.margin.unwrap_or(f64::NEG_INFINITY);
+    if lo_m <= hi.margin.unwrap_or(f64::NEG_INFINITY) {
+        lo
+    } else {
+        hi
     }
 }
 

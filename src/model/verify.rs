@@ -154,6 +154,9 @@ pub struct LegCompare {
     /// `false`: reference high while the counter is below `compare` (the emitted convention);
     /// `true`: the reference is inverted (high while the counter is at or above `compare`).
     pub inverted: bool,
+    /// On an up-down count whose compares are loaded at both extremes: the compare in effect
+    /// while counting down (`compare` is then the up count's); `None`: the same as `compare`.
+    pub down: Option<u64>,
 }
 
 impl LegCompare {
@@ -162,6 +165,15 @@ impl LegCompare {
         LegCompare {
             compare,
             inverted: false,
+            down: None,
+        }
+    }
+
+    /// This compare while counting up and `down` while counting down (centre alignment).
+    pub fn halves(self, down: u64) -> Self {
+        LegCompare {
+            down: Some(down),
+            ..self
         }
     }
 
@@ -170,6 +182,7 @@ impl LegCompare {
         LegCompare {
             compare,
             inverted: true,
+            down: None,
         }
     }
 }
@@ -439,16 +452,19 @@ impl LegArcs {
 /// The reference of one leg, from integer ticks (see the module doc's conventions).
 fn reference_arc(regs: &TimerRegisters, leg: LegCompare) -> Result<Arc, VerifyError> {
     let steps = regs.duty_steps();
-    if leg.compare > steps {
+    let down = leg.down.unwrap_or(leg.compare);
+    if let Some(&compare) = [leg.compare, down].iter().find(|&&c| c > steps) {
         return Err(VerifyError::Compare {
-            compare: leg.compare,
+            compare,
             duty_steps: steps,
         });
     }
     let p = regs.period_ticks;
+    // Centre: high from the down count's compare (at `p − down`) through the bottom to the up
+    // count's (at `compare`); one arc over the period, wrapping at the bottom.
     let (start, len) = match regs.alignment {
         Alignment::Edge => (0, leg.compare),
-        Alignment::Centre => ((p - leg.compare) % p, 2 * leg.compare),
+        Alignment::Centre => ((p - down) % p, leg.compare + down),
     };
     let (start, len) = if leg.inverted {
         ((start + len) % p, p - len)
@@ -2015,6 +2031,27 @@ mod tests {
 
     fn half_bridge(r: &TimerRegisters, compare: u64) -> Vec<OutputTiming> {
         output_timings(r, &Stage::HalfBridge(LegCompare::new(compare))).unwrap()
+    }
+
+    /// Hand-computed: centre, 200 ticks (P = 100), dead time 5 ticks, 30 counting up and 50
+    /// counting down: the reference high from 150 (the down count passing 50) through the
+    /// bottom to 30, 80 ticks; the high side on from 155, 75 ticks; the low side on from 35 to
+    /// 150, 115 ticks. A compare past P counting down is refused.
+    #[test]
+    fn compares_loaded_at_each_extreme_by_hand() {
+        let r = regs(Alignment::Centre, 200, 5);
+        let leg = LegCompare::new(30).halves(50);
+        let t = output_timings(&r, &Stage::HalfBridge(leg)).unwrap();
+        assert_eq!(pulses(&t[0]), (Some(75.0), Some(125.0), false));
+        assert_eq!(pulses(&t[1]), (Some(115.0), Some(85.0), false));
+        let (a, _) = stage_arcs(&r, &Stage::HalfBridge(leg)).unwrap();
+        let at = |ticks: f64| a.state_at(ticks * TICK_S, r.period_s());
+        assert_eq!(at(160.0), LegState::High);
+        assert_eq!(at(10.0), LegState::High);
+        assert_eq!(at(32.0), LegState::Dead);
+        assert_eq!(at(100.0), LegState::Low);
+        assert_eq!(at(152.0), LegState::Dead);
+        assert!(output_timings(&r, &Stage::HalfBridge(LegCompare::new(30).halves(101))).is_err());
     }
 
     /// Hand-computed: edge, 100 ticks, dead time 5 ticks, compare 30: reference high 30 ticks,

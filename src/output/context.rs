@@ -204,12 +204,21 @@ pub struct SamplingLiterals {
     /// −1 when the shunt reads the motor current reversed.
     pub sign: String,
     pub state: String,
+    /// Sampled at both counter extremes: the top's trigger count and direction.
+    pub both_extremes: bool,
+    pub top_trigger_count: String,
+    pub top_counting_up: bool,
 }
 
 /// The current loop, as literals.
 #[derive(Debug, Clone, Default, Serialize)]
 pub struct LoopLiterals {
     pub update_divider: String,
+    /// Control updates per PWM period (1, or 2 at both counter extremes).
+    pub updates_per_period: String,
+    /// Counter extremes per update, on a timer whose divider counts extremes.
+    pub counts_extremes: bool,
+    pub update_extremes: String,
     pub rate_millihz: String,
     pub rate_text: String,
     /// The compare of zero volts and the loop's clamp (the compare limits and, with a

@@ -428,7 +428,7 @@ fn current_loop(out: &mut String, plan: &Plan, ctx: &Context) {
         .enumerate()
         .map(|(k, v)| format!("{:.1},{:.1}", x(k as f64), y(*v)))
         .collect();
-    let period_s = l.update_divider as f64 / l.pwm_rate_hz;
+    let period_s = 1.0 / l.rate_hz;
     let end_time = format_quantity(n * period_s, Dimension::Time, 3);
     let _ = writeln!(
         out,

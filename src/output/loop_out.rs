@@ -25,6 +25,9 @@ pub fn sampling_literals(s: Option<&SamplingOut>) -> SamplingLiterals {
         compare_max: s.compare_max.to_string(),
         sign: if s.sign < 0.0 { "-1" } else { "1" }.into(),
         state: s.state.clone(),
+        both_extremes: s.top_trigger_count.is_some(),
+        top_trigger_count: s.top_trigger_count.unwrap_or(0).to_string(),
+        top_counting_up: s.top_counting_up,
     }
 }
 
@@ -51,6 +54,9 @@ pub fn loop_literals(plan: &Plan) -> LoopLiterals {
     let fp = l.fixed_point.as_ref();
     LoopLiterals {
         update_divider: l.update_divider.to_string(),
+        updates_per_period: l.updates_per_pwm_period.to_string(),
+        counts_extremes: l.update_extremes.is_some(),
+        update_extremes: l.update_extremes.unwrap_or(0).to_string(),
         rate_millihz: format!("{}", (l.rate_hz * 1000.0).round() as u64),
         rate_text: q(l.rate_hz, Dimension::Frequency),
         zero_compare: zero.to_string(),
@@ -58,7 +64,7 @@ pub fn loop_literals(plan: &Plan) -> LoopLiterals {
         compare_hi: hi.to_string(),
         kp_v_per_a: format!("{:e}", l.kp_v_per_a),
         ki_v_per_a_s: format!("{:e}", l.ki_v_per_a_s),
-        period_s: format!("{:e}", l.update_divider as f64 / l.pwm_rate_hz),
+        period_s: format!("{:e}", 1.0 / l.rate_hz),
         counts_per_volt: format!("{:e}", l.counts_per_volt),
         fixed: fp.is_some(),
         fraction_bits: fp.map_or(0, |f| f.fraction_bits).to_string(),
@@ -89,6 +95,9 @@ pub fn sampling_rows(plan: &Plan) -> Vec<Row> {
         value,
     };
     let state = match s.state.as_str() {
+        _ if s.top_trigger_count.is_some() => {
+            "both counter extremes, once per half period: the middle of the on-time at the bottom and of the off-time at the top (a shunt in series with the motor carries it in both; a ramp's middle is the period's mean current: regular sampling)"
+        }
         "on-time" => {
             "the middle of the on-time (a ramp's middle is the period's mean current: regular sampling)"
         }
@@ -107,11 +116,21 @@ pub fn sampling_rows(plan: &Plan) -> Vec<Row> {
     } else {
         String::new()
     };
-    let trigger = if s.trigger == "fixed" {
+    let dir = |up: bool| if up { "up" } else { "down" };
+    let trigger = if let Some(top) = s.top_trigger_count {
+        format!(
+            "count {} matched while counting {} and count {} matched while counting {} (two compare channels), each {} ticks before its state's middle{shifted}",
+            s.trigger_count,
+            dir(s.counting_up),
+            top,
+            dir(s.top_counting_up),
+            s.lead_ticks
+        )
+    } else if s.trigger == "fixed" {
         format!(
             "count {} matched while counting {}, {} ticks before the state's middle{shifted}",
             s.trigger_count,
-            if s.counting_up { "up" } else { "down" },
+            dir(s.counting_up),
             s.lead_ticks
         )
     } else {
@@ -163,16 +182,23 @@ pub fn loop_rows(plan: &Plan, fpu: bool) -> Vec<Row> {
         .map_or("none asked: one update per PWM period".to_string(), |a| {
             format!("{} asked", hz(a))
         });
+    let rate = if l.updates_per_pwm_period > 1 {
+        format!(
+            "{} = PWM {} × {}: sampled and updated at both counter extremes ({asked})",
+            hz(l.rate_hz),
+            hz(l.pwm_rate_hz),
+            l.updates_per_pwm_period
+        )
+    } else {
+        format!(
+            "{} = PWM {} / update divider {} ({asked})",
+            hz(l.rate_hz),
+            hz(l.pwm_rate_hz),
+            l.update_divider
+        )
+    };
     let mut rows = vec![
-        row(
-            "rate",
-            format!(
-                "{} = PWM {} / update divider {} ({asked})",
-                hz(l.rate_hz),
-                hz(l.pwm_rate_hz),
-                l.update_divider
-            ),
-        ),
+        row("rate", rate),
         row(
             "timing",
             format!(

@@ -43,6 +43,19 @@ pub fn written_stage(topology: &str, steps: u64, compare: u64) -> Stage {
     }
 }
 
+/// As [`written_stage`] with compares loaded at both extremes of an up-down count: `up`
+/// while counting up, `down` while counting down (not a unipolar bridge, whose legs differ).
+pub fn written_stage_halves(topology: &str, steps: u64, up: u64, down: u64) -> Stage {
+    match written_stage(topology, steps, up) {
+        Stage::LowSide(a) => Stage::LowSide(a.halves(down)),
+        Stage::HalfBridge(a) => Stage::HalfBridge(a.halves(down)),
+        Stage::HBridge { a, b } => Stage::HBridge {
+            a: a.halves(down),
+            b: b.halves(down),
+        },
+    }
+}
+
 /// SplitMix64 (Steele, Lea, Flood, *Fast splittable pseudorandom number generators*, OOPSLA
 /// 2014): a small, fixed-seed generator so every run draws the same designs.
 pub struct Rng(pub u64);

@@ -486,6 +486,10 @@ pub struct AdcSpec {
 #[serde(deny_unknown_fields)]
 pub struct UpdateDividerSpec {
     pub max: u32,
+    /// On an up-down count the update event also comes at the counter top, so the compares
+    /// can change every half period (default `false`: once per period, at the bottom).
+    #[serde(default)]
+    pub each_extreme: bool,
 }
 
 #[derive(Debug, Clone, Deserialize)]

@@ -217,6 +217,94 @@ pub fn switched_plant(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> Opti
     })
 }
 
+/// One half of an up-down PWM period at duty `d` (`top`: the half after the counter top),
+/// its load-voltage intervals from the half's start.
+fn half_intervals(w: &SwitchedPeriod, d: f64, top: bool) -> Vec<(f64, f64, f64)> {
+    let half = 0.5 * w.pwm_period_s;
+    let (lo, hi) = if top { (half, 2.0 * half) } else { (0.0, half) };
+    intervals(w, d)
+        .into_iter()
+        .map(|(a, b, v)| (a.max(lo) - lo, b.min(hi) - lo, v))
+        .filter(|(a, b, _)| b > a)
+        .collect()
+}
+
+/// `(x_end, y)`: the current after one half period from `x`, and its sample half a dead
+/// time after the half's start (the extreme's state's middle).
+fn half_period(p: &RlPlant, w: &SwitchedPeriod, e_v: f64, x: f64, d: f64, top: bool) -> (f64, f64) {
+    let ts = 0.5 * w.dead_s;
+    let (mut i, mut y) = (x, x);
+    for (t0, t1, v) in half_intervals(w, d, top) {
+        if ts > t0 && ts <= t1 {
+            y = advance(p, i, v, e_v, ts - t0);
+        }
+        i = advance(p, i, v, e_v, t1 - t0);
+    }
+    (i, y)
+}
+
+/// The discrete plant of a loop that samples and updates every half period of an up-down
+/// count (`Carrier::Centre`, a shunt in series with the motor read at both extremes), at
+/// compare duty `d` carrying the mean current `i_a`. The two halves are mirror images (on
+/// then off after the bottom, off then on after the top) and their maps differ by the
+/// R–L's decay over the duty's shift, `e^(±(2d − 1)·T/(2τ))` in `b`: the loop is
+/// periodically time-varying, and its plant is taken as the two halves' mean linearisation
+/// (own approximation, exact as `T/τ → 0`; the tests' register-level loop measures what it
+/// leaves). `None` on another carrier or where the pattern gives no voltage per unit duty.
+pub fn half_period_plant(
+    p: &RlPlant,
+    w: &SwitchedPeriod,
+    d: f64,
+    i_a: f64,
+) -> Option<DiscretePlant> {
+    if w.carrier != Carrier::Centre || p.l_h <= 0.0 {
+        return None;
+    }
+    let single = SwitchedPeriod {
+        periods_per_update: 1,
+        ..*w
+    };
+    let h = 1e-6;
+    let d = d.clamp(2.0 * h, 1.0 - 2.0 * h);
+    let k = (mean_v(&single, d + h) - mean_v(&single, d - h)) / (2.0 * h);
+    if k.is_nan() || k.abs() == 0.0 {
+        return None;
+    }
+    let e_v = mean_v(&single, d) - p.r_ohm * i_a;
+    let (x_bottom, _, _) = steady_state(p, &single, e_v, d);
+    let x_top = half_period(p, &single, e_v, x_bottom, d, false).0;
+    let (mut a, mut b, mut c, mut e) = (0.0, 0.0, 0.0, 0.0);
+    for (x, top) in [(x_bottom, false), (x_top, true)] {
+        let run = |x: f64, d: f64| half_period(p, &single, e_v, x, d, top);
+        let ((x1, y1), (x0, y0)) = (run(x + 1.0, d), run(x, d));
+        let ((xp, yp), (xm, ym)) = (run(x, d + h), run(x, d - h));
+        a += 0.5 * (x1 - x0);
+        c += 0.5 * (y1 - y0);
+        b += 0.5 * (xp - xm) / (2.0 * h);
+        e += 0.5 * (yp - ym) / (2.0 * h);
+    }
+    Some(DiscretePlant {
+        a,
+        b1: (c * b - e * a) / k,
+        b0: e / k,
+        period_s: 0.5 * w.pwm_period_s,
+    })
+}
+
+/// The bias of the samples at both extremes against their PWM period's mean current (as
+/// [`sample_bias_a`]), A: the mean of the two, which is what an integrator fed both settles
+/// on.
+pub fn half_period_bias_a(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> f64 {
+    let at = |share: f64| {
+        let w = SwitchedPeriod {
+            sample: SampleAt::Share(share),
+            ..*w
+        };
+        sample_bias_a(p, &w, d, i_a)
+    };
+    0.5 * (at(0.0) + at(0.5))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -262,6 +350,27 @@ mod tests {
             );
             assert!(close(&exact, &held, 2e-3), "{exact:?} vs {held:?}");
         }
+    }
+
+    #[test]
+    fn half_period_updates_are_the_held_model_at_half_the_period() {
+        // Sampled at each extreme, updated at each: the held-voltage plant with T/2 and τ = 0
+        // (b0 = 0, b1 = (1 − e^(−R·T/(2L)))/R), to the ripple's curvature and the halves'
+        // mirror difference.
+        let w = period(Carrier::Centre, SampleAt::Share(0.0));
+        let exact = half_period_plant(&MOTOR, &w, 0.4, 5.0).unwrap();
+        let held = DiscretePlant::held(
+            &MOTOR,
+            &LoopTiming {
+                period_s: 25e-6,
+                sample_offset_s: 0.0,
+            },
+        );
+        assert!(close(&exact, &held, 2e-3), "{exact:?} vs {held:?}");
+        assert_eq!(exact.period_s, 25e-6);
+        // Not on an up-count.
+        let edge = period(Carrier::Edge, SampleAt::OnMiddle);
+        assert!(half_period_plant(&MOTOR, &edge, 0.4, 5.0).is_none());
     }
 
     #[test]

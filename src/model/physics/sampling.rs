@@ -100,6 +100,10 @@ pub struct BrushedSampling {
     /// Sign of the current as the shunt reads it.
     pub sign: f64,
     pub trigger: TriggerRule,
+    /// Sampling at both counter extremes (a loop updating every half period): the second
+    /// trigger, in the middle of the off-time around the top; `trigger` is then the bottom's,
+    /// in the middle of the on-time.
+    pub top_trigger: Option<TriggerRule>,
     /// Ticks the conversion starts before the state's middle.
     pub lead_ticks: u64,
     /// Ticks the state's middle lies after the reference's (half the dead time, or 0).
@@ -231,6 +235,7 @@ pub fn brushed_sampling(
         state,
         sign,
         trigger,
+        top_trigger: None,
         lead_ticks: lead,
         shift_ticks: shift,
         min_state_s,
@@ -238,6 +243,35 @@ pub fn brushed_sampling(
         compare_max,
         duty_min: compare_min as f64 / p as f64,
         duty_max: compare_max as f64 / p as f64,
+    })
+}
+
+/// A shunt in series with the motor read at both extremes of an up-down count, so a loop can
+/// update every half period (the stages whose two states are one on-time and one off-time:
+/// not the unipolar bridge). The bottom's trigger in the middle of the on-time, the top's in
+/// the middle of the off-time, each placed as in [`brushed_sampling`]; both states must hold
+/// the window, so the compares are bounded at both ends. `None` on an up-count, a unipolar
+/// bridge, or where no compare holds both windows.
+pub fn phase_shunt_both_extremes(
+    stage: BrushedStage,
+    t: &SamplingTimer,
+) -> Option<BrushedSampling> {
+    if !t.centre || stage == BrushedStage::HBridgeUnipolar {
+        return None;
+    }
+    // The top's plan: the off-time at the top, compares up to P − past.
+    let top = brushed_sampling(stage, ShuntPlace::Phase, t)?;
+    let p = t.duty_steps;
+    let past = p - top.compare_max;
+    let offset = top.shift_ticks as i64 - top.lead_ticks as i64;
+    let bottom = at_extreme(p, false, offset)?;
+    (past < top.compare_max).then_some(BrushedSampling {
+        state: SenseState::On,
+        trigger: bottom,
+        top_trigger: Some(top.trigger),
+        compare_min: past,
+        duty_min: past as f64 / p as f64,
+        ..top
     })
 }
 
@@ -453,5 +487,30 @@ mod tests {
         };
         // T = 200 ticks ≈ 2.8 µs < 3.5 µs.
         assert!(brushed_sampling(BrushedStage::HalfBridge, ShuntPlace::Leg, &t).is_none());
+    }
+
+    #[test]
+    fn a_phase_shunt_read_at_both_extremes_is_bounded_at_both_ends() {
+        // Hand-worked from the numbers above: the middles 11 ticks past each extreme, the
+        // conversion 18 before: 7 ticks before the bottom (counting down) and 7 before the top
+        // (counting up); 103 counts each side of either middle.
+        let s = phase_shunt_both_extremes(BrushedStage::HalfBridge, &TIMER).unwrap();
+        assert_eq!(s.state, SenseState::On);
+        assert_eq!(s.trigger, fixed(7, false));
+        assert_eq!(s.top_trigger, Some(fixed(1800 - 7, true)));
+        assert_eq!((s.compare_min, s.compare_max), (103, 1800 - 103));
+        assert_eq!(s.offset_s(&TIMER, 0.3), 0.0);
+        // A single switch: no shift, 113 counts; the bottom's conversion 18 ticks before it.
+        let s = phase_shunt_both_extremes(BrushedStage::LowSide, &TIMER).unwrap();
+        assert_eq!(s.trigger, fixed(18, false));
+        assert_eq!(s.top_trigger, Some(fixed(1800 - 18, true)));
+        assert_eq!((s.compare_min, s.compare_max), (113, 1800 - 113));
+        // Not on an up-count, not on a unipolar bridge.
+        let edge = SamplingTimer {
+            centre: false,
+            ..TIMER
+        };
+        assert!(phase_shunt_both_extremes(BrushedStage::HalfBridge, &edge).is_none());
+        assert!(phase_shunt_both_extremes(BrushedStage::HBridgeUnipolar, &TIMER).is_none());
     }
 }

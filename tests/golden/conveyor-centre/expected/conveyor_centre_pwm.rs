@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:f3d0d76afd6baac85d6dd0c60cf8ce389918e0a5dd45ce07df38b985d97e4b88)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:cd60aa8ef5efb5b99b20785029921ee01aadf018b4b097d846230f8ce7c7bf38)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -11,7 +11,7 @@
 //!   resolution     2199 duty steps (11.1 bits)
 //!   dead time      148 ns = 13 ticks (code 0x0D); needed 142 ns
 //!   duty limits    compare 20 to 2170 (0.9 % to 98.7 %); the load needs 67.5 % to 94.4 %
-//!   feasible band  20.009 kHz to 42.969 kHz
+//!   feasible band  20.009 kHz to 31.541 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
 //!   junction-rated         135 °C     56.7 °C     78.3 K  ok
@@ -21,6 +21,7 @@
 //!   resolution         10.00 bits  11.10 bits  1.10 bits  ok
 //!   dead-time              148 ns      142 ns    5.62 ns  ok
 //!   duty-range            98.68 %     94.44 %     4.25 %  ok
+//!   sampling-window       96.59 %     94.44 %     2.15 %  ok
 //!   frequency-band     16.000 kHz  20.009 kHz   4.01 kHz  ok
 //!
 //! Losses at the rated case (whole stage)
@@ -41,6 +42,34 @@
 //!   ripple, high-bus case   363 mA peak to peak at 20.009 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
+//! Current limit
+//!   threshold       fixed, 2.90 V at the comparator
+//!   trips           never below 5.55 A, always above 6.99 A (nominal 6.25 A; shunt in the phase; shunt, amplifier and comparator tolerances stacked worst-case)
+//!   operating peak  3.68 A (the high-bus case's load current plus half its ripple); margin to the lowest trip 1.87 A
+//!   peak            at most 7.03 A (32.4 mA over the highest trip: 8.73 mA in the 265 ns reaction, more where a chopped stall crosses the trip inside the uncut on-time); the switch's I_D (the file gives no I_DM) 100 A (margin 93.0 A)
+//!   reaction        265 ns = filter 0.00 s + comparator 120 ns + driver 90.0 ns + turn-off delay 33.7 ns + voltage rise 21.4 ns
+//!   blanking        455 ns (40 blanking ticks) against a turn-on transient of 447 ns = driver 90.0 ns + turn-on delay 16.3 ns + current rise 2.83 ns + recovery 38.0 ns + ringing none (no loop inductance given) + amplifier settling 300 ns
+//!   filter          none on this board
+//!   uncut on-time   720 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 300 ns)
+//!   response        cycle-by-cycle
+//!   stall           6.99 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 55.4 °C at hot R_ds(on) (Computed over the 250 ms stall through the board's transient thermal impedance Z_th = 1.797 K/W)
+//!
+//! Current sampling
+//!   sampled at   both counter extremes, once per half period: the middle of the on-time at the bottom and of the off-time at the top (a shunt in series with the motor carries it in both; a ramp's middle is the period's mean current: regular sampling)
+//!   ADC trigger  count 7 matched while counting down and count 2192 matched while counting up (two compare channels), each 13 ticks before its state's middle, which lies 6 ticks (half the dead time) after the reference's
+//!   window       the sensed state must last 1.659 µs (dead time, settling, acquisition): compares 75..2124 (3.4 %..96.6 %)
+//!   sign         the shunt reads the motor current as the plan counts it
+//!
+//! Current loop
+//!   rate         40.02 kHz = PWM 20.01 kHz × 2: sampled and updated at both counter extremes (30.00 kHz asked)
+//!   timing       the sample's middle 68.18 ns after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 24.77 µs; the loop sees the sample as the averaged current 0.000 s after the update event
+//!   reading      at the rated case the sample reads the PWM period's mean current minus 103.5 µA (the R–L's curvature; a straight ramp's middle is its mean); the integrator settles on the sample, so the mean is off by as much
+//!   plant        R 622.7 mΩ (motor, and the channels, or on a single switch its channel and the freewheel diode by their shares of the period, at the rated junction temperature), L 850.0 µH; 24.00 V per unit of compare duty
+//!   gains        K_p = α·L = 11.7173 V/A, K_i = α·R = 8584.4071 V/(A·s), α = 2π·2.194 kHz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
+//!   loop         crossover 2.225 kHz, phase margin 60.0°, step overshoot 5.5 %, rise to 90 % in 99.95 µs (exact discrete model: sample, delay, PWM hold, R–L)
+//!   fixed point  Q12: K_p 17714 (17714.294), K_i·T 324 (324.303) in compare counts per ADC code; 4.0283e-3 A per code, zero current at code 2048
+//!   bus          the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)
+//!
 //! Worst case over part and operating spreads
 //!   junction    58.0 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
 //!   total-loss  194 mW; ok; hot: V_th max, supply 28.0 V
@@ -54,13 +83,16 @@
 //!   pulses         shortest high-side pulse 307 ns at COMPARE_MIN, shortest low-side on-time 511 ns at COMPARE_MAX (minimum pulse 300 ns, bootstrap refresh 500 ns)
 //!   rated case     at compare duty 78.745 %: mean current 3.500 A (plan 3.500 A), ripple 238.8 mA peak to peak (plan 238.8 mA)
 //!   high-bus case  at compare duty 67.538 %: mean current 3.500 A (plan 3.500 A), ripple 362.8 mA peak to peak (plan 362.8 mA)
+//!   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 625 ns before and holds 932 ns after (settling and sampling need no more)
+//!   current limit  trip window 5.547 A to 6.993 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 7.001 A (plan 7.026 A) with a mean of 6.894 A (plan's stall current 6.993 A)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, centre): +81 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  42.969 kHz (divider 1, 2048 ticks, centre): +93 mW total loss, +1.2 K junction, -194 mA ripple, -1.10 bits resolution
+//!   rounder-frequency  22.000 kHz (divider 1, 4000 ticks, centre): +8 mW total loss, +0.1 K junction, -33 mA ripple, -0.14 bits resolution
+//!   highest-frequency  31.541 kHz (divider 1, 2790 ticks, centre): +46 mW total loss, +0.6 K junction, -133 mA ripple, -0.66 bits resolution
 //!
 //! Findings
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
+//!   warning  The loop's lowest compare (75 counts: the compare limits within the sampling window) puts 0.82 V on the motor, 1.31 A at standstill (38 % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or sample once per PWM period at the counter top (a loop rate no higher than the PWM rate), where small duties leave the off-time long.
 //!   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
 //!   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up
 //!
@@ -81,8 +113,8 @@
 //!   - Follow local electrical codes and licensed practice for mains-connected or high-energy equipment.
 //!
 //! Inputs
-//!   conveyor-centre.yaml   sha256 a3570c61c199a289d93fb96502a4b8d4dd03685b8a8dd455f5c4a53cf0e79222
-//!   wren-hb24.yaml         sha256 15f203d6d468c9f181ee09a55f6c5a5b17a259432b040956b9080e54de6176f6
+//!   conveyor-centre.yaml   sha256 694a1fcf73fd02c3a87a538f83ab79de2f8396e4e7450ffe9a5d7df2efcff4da
+//!   wren-hb24.yaml         sha256 c8414dcebeb30707ca54fbc27e49cd28ecb6e6ec5d42a538b127d02b4196cb08
 //!   switches/tarn-40.yaml  sha256 66aba222e61d260002fdcede0161454058188910c18dad97d78c8e4682537e11
 //!
 //! PWM mode and polarity these constants assume: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
@@ -98,9 +130,10 @@
 //!   4. Counting mode <- up-down (centre-aligned) (see CENTRE_ALIGNED).
 //!   5. PWM mode and polarity: each channel's output (its high side) is active, level high, while the counter is below the compare value (compare 0: always off; compare = duty steps: always on); its complementary output (the low side) is the inverse, with the dead time inserted before each rising edge of either.
 //!   6. Dead-time register <- DEAD_TIME_CODE (13 ticks, 147.7 ns); write it before the complementary outputs are ever enabled.
-//!   7. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
-//!   8. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
-//!   9. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
+//!   7. Fault input (over-current): blanking after each turn-on <- LIMIT_BLANKING_TICKS ticks (454.5 ns), response <- cycle-by-cycle (see LIMIT_CYCLE_BY_CYCLE); clear any pending fault and arm the input now, before the outputs are ever enabled, so the first pulse is already limited.
+//!   8. Compare register(s) <- INIT_COMPARE (outputs still disabled), then values from Duty::from_q16() through apply() only.
+//!   9. Enable the buffered (shadow) update of the period and compare registers so new values take effect at the period boundary.
+//!   10. Outputs: disabled. Start the counter with the outputs still disabled: the stage coasts. Enabling the outputs is the firmware's own deliberate step, after writing the compare of the wanted duty (enabling with compare 0 turns the low sides on and brakes a turning motor).
 //!
 //! `no_std`-compatible: uses `core` only, plus `embedded-hal` 1.0 for [`apply`].
 
@@ -137,6 +170,64 @@ pub const INIT_COMPARE: u32 = 0;
 /// True when compare 0 with the outputs enabled turns the low side(s) on and
 /// shorts the motor (braking). Coasting is outputs disabled.
 pub const DUTY_ZERO_BRAKES: bool = true;
+// Current limit (fault input): it trips never below 5547 mA and
+// always above 6993 mA of motor current (see the rationale).
+/// Fault input ignored for this many blanking ticks after each turn-on (454.5 ns).
+pub const LIMIT_BLANKING_TICKS: u32 = 40;
+/// True: a fault turns the outputs off until the next period (cycle-by-cycle);
+/// false: until firmware clears it (latched).
+pub const LIMIT_CYCLE_BY_CYCLE: bool = true;
+// Current sampling: the shunt is read in the middle of the on-time
+// (a ramp's middle is the period's mean current).
+/// ADC trigger: this count, matched while counting down (a spare compare channel).
+pub const ADC_TRIGGER_COUNT: u32 = 7;
+/// True when the trigger count is matched while counting up.
+pub const ADC_TRIGGER_COUNTING_UP: bool = false;
+/// Sampled at both counter extremes, once per half period: [`ADC_TRIGGER_COUNT`] is the
+/// bottom's (the middle of the on-time); the top's (the middle of the off-time) is this
+/// count, matched while counting up (a second spare compare channel).
+pub const ADC_TRIGGER_TOP_COUNT: u32 = 2192;
+/// True when the top's trigger count is matched while counting up.
+pub const ADC_TRIGGER_TOP_COUNTING_UP: bool = true;
+/// Smallest compare at which the sensed state holds settling, dead time and sampling.
+pub const SAMPLING_COMPARE_MIN: u32 = 75;
+/// Largest compare at which the sensed state holds settling, dead time and sampling.
+pub const SAMPLING_COMPARE_MAX: u32 = 2124;
+/// 1: the shunt reads the motor current; −1: reversed.
+pub const SHUNT_SIGN: i64 = 1;
+/// Current loop (40.02 kHz): one update every `LOOP_UPDATE_DIVIDER` PWM periods, or
+/// `LOOP_UPDATES_PER_PERIOD` per period when that is above 1.
+pub const LOOP_UPDATE_DIVIDER: u32 = 1;
+/// Control updates per PWM period: 2 samples and updates at both counter extremes.
+pub const LOOP_UPDATES_PER_PERIOD: u32 = 2;
+/// This timer's update divider counts counter extremes (top and bottom): one update every
+/// `LOOP_UPDATE_EXTREMES` extremes.
+pub const LOOP_UPDATE_EXTREMES: u32 = 1;
+/// The loop's update rate in millihertz.
+pub const LOOP_RATE_MILLIHZ: u64 = 40018190;
+/// Proportional gain, V/A.
+pub const LOOP_KP_V_PER_A: f32 = 1.1717256269281528e1;
+/// Integral gain, V/(A·s).
+pub const LOOP_KI_V_PER_A_S: f32 = 8.584407091598805e3;
+/// The update period, s.
+pub const LOOP_PERIOD_S: f32 = 2.4988636363636365e-5;
+/// Compare counts per volt of loop output at the nominal supply.
+pub const LOOP_COUNTS_PER_VOLT: f32 = 9.1625e1;
+/// The compare of zero volts.
+pub const LOOP_ZERO_COMPARE: i64 = 0;
+/// The loop output's clamp, low.
+pub const LOOP_COMPARE_LO: i64 = 75;
+/// The loop output's clamp, high.
+pub const LOOP_COMPARE_HI: i64 = 2124;
+/// Integer gains are in compare counts per ADC code times `2^LOOP_FRACTION_BITS`
+/// (4.028320e-3 A per code).
+pub const LOOP_FRACTION_BITS: u32 = 12;
+/// Proportional gain, integer.
+pub const LOOP_KP_Q: i64 = 17714;
+/// Integral gain per update, integer.
+pub const LOOP_KI_Q: i64 = 324;
+/// The ADC code at zero current.
+pub const ADC_ZERO_CODE: i64 = 2048;
 
 /// A duty as a compare value, always within the allowed range: 0 (off) or
 /// `COMPARE_MIN..=COMPARE_MAX`.
@@ -226,4 +317,71 @@ pub fn apply<P: embedded_hal::pwm::SetDutyCycle>(pwm: &mut P, duty: Duty) -> Res
     let value = if nearest < lowest { lowest } else { nearest };
     let value = if value > highest { highest } else { value };
     pwm.set_duty_cycle(value as u16)
+}
+
+/// Current-loop state (integer): the integral in compare counts times
+/// `2^LOOP_FRACTION_BITS`. Start it at zero with the outputs disabled.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct LoopState {
+    integral: i64,
+}
+
+impl LoopState {
+    /// One current-loop update, integer only: `ref_code` the wanted current in
+    /// ADC codes from zero current, `adc_code` the converted sample. Returns the
+    /// compare for the next update event, within `LOOP_COMPARE_LO..=LOOP_COMPARE_HI`;
+    /// the integral holds while the output is clamped (anti-windup).
+    pub fn step(&mut self, ref_code: i32, adc_code: i32) -> u32 {
+        let one = 1i64 << LOOP_FRACTION_BITS;
+        let lo = (LOOP_COMPARE_LO - LOOP_ZERO_COMPARE) * one;
+        let hi = (LOOP_COMPARE_HI - LOOP_ZERO_COMPARE) * one;
+        let e = i64::from(ref_code) - SHUNT_SIGN * (i64::from(adc_code) - ADC_ZERO_CODE);
+        let mut integral = self.integral + LOOP_KI_Q * e;
+        let mut u = LOOP_KP_Q * e + integral;
+        if u > hi {
+            u = hi;
+            if e > 0 {
+                integral = self.integral;
+            }
+        } else if u < lo {
+            u = lo;
+            if e < 0 {
+                integral = self.integral;
+            }
+        }
+        self.integral = integral;
+        let half = (one >> 1) as u64;
+        (((LOOP_ZERO_COMPARE * one + u) as u64 + half) >> LOOP_FRACTION_BITS) as u32
+    }
+}
+
+/// Current-loop state (floating point): the integral in volts.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct LoopStateF {
+    integral_v: f32,
+}
+
+impl LoopStateF {
+    /// One current-loop update in SI units: `ref_a` and `measured_a` in amperes
+    /// (the measured current with the shunt's sign and scale applied). Returns the
+    /// compare for the next update event, within `LOOP_COMPARE_LO..=LOOP_COMPARE_HI`;
+    /// the integral holds while the output is clamped (anti-windup).
+    pub fn step(&mut self, ref_a: f32, measured_a: f32) -> u32 {
+        let e = ref_a - measured_a;
+        let mut integral = self.integral_v + LOOP_KI_V_PER_A_S * LOOP_PERIOD_S * e;
+        let mut counts = LOOP_ZERO_COMPARE as f32 + (LOOP_KP_V_PER_A * e + integral) * LOOP_COUNTS_PER_VOLT;
+        if counts > LOOP_COMPARE_HI as f32 {
+            counts = LOOP_COMPARE_HI as f32;
+            if e > 0.0 {
+                integral = self.integral_v;
+            }
+        } else if !(counts >= LOOP_COMPARE_LO as f32) {
+            counts = LOOP_COMPARE_LO as f32;
+            if !(e >= 0.0) {
+                integral = self.integral_v;
+            }
+        }
+        self.integral_v = integral;
+        (counts + 0.5) as u32
+    }
 }

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:3c316d3c8f434f5039909c5cd3fa341465e98c2717a374861bef2f9482b17e7b)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:2462f1f964acdc8477aa0330e74ee775b5460542912b9461369b8caefaf7238a)
  *
  * Chosen setting
  *   design         winch
@@ -194,9 +194,12 @@
 #define WINCH_PWM_SAMPLING_COMPARE_MAX 4959U
 /* 1: the shunt reads the motor current; -1: reversed. */
 #define WINCH_PWM_SHUNT_SIGN (1)
-/* Current loop: one update every LOOP_UPDATE_DIVIDER PWM periods (11.72 kHz);
+/* Current loop (11.72 kHz): one update every LOOP_UPDATE_DIVIDER PWM periods, or
+ * LOOP_UPDATES_PER_PERIOD per period when that is above 1;
  * the gains and their reasons are in the rationale. */
 #define WINCH_PWM_LOOP_UPDATE_DIVIDER 1U
+/* Control updates per PWM period: 2 samples and updates at both counter extremes. */
+#define WINCH_PWM_LOOP_UPDATES_PER_PERIOD 1U
 #define WINCH_PWM_LOOP_RATE_MILLIHZ 11721039ULL
 /* PI gains in SI units: volts per ampere, volts per ampere-second; the update
  * period in seconds; compare counts per volt of output at the nominal supply. */

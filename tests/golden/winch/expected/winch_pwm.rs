@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:584003a5c00dca54a4df74187bd8d830e7229e016aecb9955e7ede1ca0e51ab2)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:f84ffae2bbb2c294dc90131b7ea910539b5462ea55461f13bbb3105907ae1083)
 //!
 //! Chosen setting
 //!   design         winch
@@ -205,8 +205,11 @@ pub const SAMPLING_COMPARE_MIN: u32 = 160;
 pub const SAMPLING_COMPARE_MAX: u32 = 4959;
 /// 1: the shunt reads the motor current; −1: reversed.
 pub const SHUNT_SIGN: i64 = 1;
-/// Current loop: one update every `LOOP_UPDATE_DIVIDER` PWM periods (11.72 kHz).
+/// Current loop (11.72 kHz): one update every `LOOP_UPDATE_DIVIDER` PWM periods, or
+/// `LOOP_UPDATES_PER_PERIOD` per period when that is above 1.
 pub const LOOP_UPDATE_DIVIDER: u32 = 1;
+/// Control updates per PWM period: 2 samples and updates at both counter extremes.
+pub const LOOP_UPDATES_PER_PERIOD: u32 = 1;
 /// The loop's update rate in millihertz.
 pub const LOOP_RATE_MILLIHZ: u64 = 11721039;
 /// Proportional gain, V/A.
