@@ -3906,7 +3906,7 @@ fn three_phase_sensing_place_not_leg() {
             "sample_time: \"0.8 us\", place: phase }",
         )],
         r#"
-error: osprey-3p48.yaml:32:75: board.current_sensing.place: a three-phase bridge's current sensing reads low-side shunts in its legs; expected `leg` or no place
+error: osprey-3p48.yaml:32:75: board.current_sensing.place: a three-phase bridge's current sensing reads low-side shunts in its legs or one shunt in the DC link; expected `leg`, `supply-return` or no place
  32 |   current_sensing: { settle_time: "1.5 us", sample_time: "0.8 us", place: phase }
     |                                                                           ^
 "#,
@@ -3962,6 +3962,79 @@ fn current_sensing_conversion_on_a_brushed_board() {
 error: heron-hb48.yaml:44:17: board.current_sensing.conversion: a brushed stage reads one current; only a three-phase bridge converts two (remove it)
  44 |     conversion: sequential
     |                 ^
+"#,
+    );
+}
+
+/// One DC-link shunt needs compares loaded at both counter extremes.
+#[test]
+fn dc_link_without_each_extreme() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "sample_time: \"0.8 us\" }",
+            "sample_time: \"0.8 us\", place: supply-return }",
+        )],
+        r#"
+error: osprey-3p48.yaml:32:75: board.current_sensing.place: a single DC-link shunt needs the compares shifted apart on the up count and given back on the down count, so the timer must load them at both counter extremes; add `update_divider: { max: 1, each_extreme: true }` to the timer (or read low-side shunts: `leg`)
+ 32 |   current_sensing: { settle_time: "1.5 us", sample_time: "0.8 us", place: supply-return }
+    |                                                                           ^
+"#,
+    );
+}
+
+/// One DC-link shunt is read by one channel: no conversion order.
+#[test]
+fn dc_link_with_a_conversion_order() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[
+            case(
+                "osprey-3p48.yaml",
+                "sample_time: \"0.8 us\" }",
+                "sample_time: \"0.8 us\", place: supply-return, conversion: sequential }",
+            ),
+            case(
+                "osprey-3p48.yaml",
+                "    fpu: true\n",
+                "    fpu: true\n    update_divider: { max: 1, each_extreme: true }\n",
+            ),
+        ],
+        r#"
+error: osprey-3p48.yaml:33:102: board.current_sensing.conversion: a single DC-link shunt is read by one channel at two instants; remove it
+ 33 |   current_sensing: { settle_time: "1.5 us", sample_time: "0.8 us", place: supply-return, conversion: sequential }
+    |                                                                                                      ^
+"#,
+    );
+}
+
+/// One DC-link shunt is planned for sinusoidal modulation only.
+#[test]
+fn dc_link_with_six_step() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[
+            case(
+                "osprey-3p48.yaml",
+                "sample_time: \"0.8 us\" }",
+                "sample_time: \"0.8 us\", place: supply-return }",
+            ),
+            case(
+                "osprey-3p48.yaml",
+                "    fpu: true\n",
+                "    fpu: true\n    update_divider: { max: 1, each_extreme: true }\n",
+            ),
+            case(
+                "osprey-3p48.yaml",
+                "sinusoidal: { zero_sequence: min-max }",
+                "six-step: { chop: complementary }",
+            ),
+        ],
+        r#"
+error: osprey-3p48.yaml:33:75: board.current_sensing.place: a single DC-link shunt is planned for sinusoidal modulation only (its two readings in the active vectors); six-step: expected `leg`
+ 33 |   current_sensing: { settle_time: "1.5 us", sample_time: "0.8 us", place: supply-return }
+    |                                                                           ^
 "#,
     );
 }

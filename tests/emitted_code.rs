@@ -38,6 +38,8 @@ use std::process::Command;
 use std::time::Instant;
 
 use common::{CASES, Case, describe, generate, stem};
+use pwmplan::physics::three_phase::dc_link::{self, DcLinkTiming, ShiftedCompares};
+use pwmplan::physics::three_phase::{ZeroSequence, leg_duties};
 
 /// The compare value `compare_from_q16` must give for 100 % and above.
 const Q16_ONE: u64 = 65536;
@@ -146,6 +148,8 @@ struct Facts {
     /// Three-phase: (ADC trigger compare, sampling compare max) from
     /// `plan.json` `three_phase.sampling`.
     three_phase: Option<(u64, u64)>,
+    /// Three-phase with one DC-link shunt: its reading chain from `plan.json`.
+    dc_link: Option<DcLinkTiming>,
     /// A brushed current loop with integer gains, from `plan.json`.
     current_loop: Option<LoopFacts>,
     /// The dead-time compensation in counts (rounded; 0 without dead time).
@@ -266,12 +270,22 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
         compare_min: json_u64(&json, "pwm.compare_min"),
         compare_max: json_u64(&json, "pwm.compare_max"),
         fpu,
-        three_phase: json.get("three_phase").map(|tp| {
-            (
-                json_u64(tp, "sampling.trigger_compare"),
-                json_u64(tp, "sampling.max_high_side_compare"),
-            )
-        }),
+        three_phase: json
+            .get("three_phase")
+            .filter(|tp| tp["sampling"].is_object())
+            .map(|tp| {
+                (
+                    json_u64(tp, "sampling.trigger_compare"),
+                    json_u64(tp, "sampling.max_high_side_compare"),
+                )
+            }),
+        dc_link: json
+            .get("three_phase")
+            .filter(|tp| tp["dc_link"].is_object())
+            .map(|tp| DcLinkTiming {
+                lead_counts: json_u64(tp, "dc_link.lead_counts"),
+                min_vector_counts: json_u64(tp, "dc_link.min_vector_counts"),
+            }),
         current_loop: LoopFacts::read(&json),
         dead_time_comp: json["pwm"]["dead_time_comp_counts"]
             .as_f64()
@@ -384,6 +398,120 @@ fn run_ok(cmd: &mut Command, what: &str) {
 // ---------------------------------------------------------------- C, host
 
 /// The host test program of one case.
+/// Compare triples a DC-link helper is checked on, within the compare limits: a sweep of
+/// angles at several modulation indices (min-max references) and the corners (every leg at
+/// either limit, ties).
+fn dc_link_inputs(f: &Facts, t: &DcLinkTiming) -> Vec<[u64; 3]> {
+    let p = f.duty_steps as f64;
+    let (lo, hi) = (f.compare_min, f.compare_max);
+    let mut out: Vec<[u64; 3]> = [0.0, 0.05, 0.4, 0.9, 1.15]
+        .iter()
+        .flat_map(|&m| {
+            (0..360).step_by(7).map(move |deg| {
+                leg_duties(m, ZeroSequence::MinMax, f64::from(deg).to_radians())
+                    .map(|d| ((d * p).round() as u64).clamp(lo, hi))
+            })
+        })
+        .collect();
+    out.extend([
+        [lo, lo, lo],
+        [hi, hi, hi],
+        [hi, hi - 1, lo],
+        [hi, lo, lo],
+        [lo, hi, hi],
+    ]);
+    // Vectors one count either side of the need, about the middle.
+    let (h, n) = (f.duty_steps / 2, t.min_vector_counts);
+    out.extend([
+        [h + n - 1, h, h - n],
+        [h + n, h, h - n + 1],
+        [h + n, h, h - n],
+        [h - n, h + n + 1, h],
+    ]);
+    out
+}
+
+/// The DC-link helper's expected output (the library's rule, `dc_link::shift_compares`).
+fn dc_link_expected(f: &Facts, t: &DcLinkTiming, c: [u64; 3]) -> Option<ShiftedCompares> {
+    dc_link::shift_compares(c, f.duty_steps, t)
+}
+
+/// The C host program's checks of the DC-link constants and helper.
+fn c_dc_link_checks(s: &mut String, f: &Facts, t: &DcLinkTiming) {
+    let (m, c) = (&f.macro_prefix, &f.stem);
+    let ty = if f.header.contains(&format!("uint64_t {c}_compare_from_q16")) {
+        "uint64_t"
+    } else {
+        "uint32_t"
+    };
+    for (name, want) in [
+        ("DC_LINK_MIN_VECTOR_COUNTS", t.min_vector_counts),
+        ("DC_LINK_TRIGGER_LEAD", t.lead_counts),
+    ] {
+        let _ = writeln!(
+            s,
+            "    expect(\"{m}_{name} (plan.json)\", (unsigned long long){m}_{name}, {want}ULL);"
+        );
+    }
+    for (k, input) in dc_link_inputs(f, t).into_iter().enumerate() {
+        let want = dc_link_expected(f, t, input);
+        let _ = writeln!(
+            s,
+            "    {{\n        const {ty} c[3] = {{ {}U, {}U, {}U }};\n        {ty} up[3], dn[3], tr[2];\n        unsigned int lg[2];\n        int sg[2];\n        int ok = {c}_dc_link_compares(c, up, dn, tr, lg, sg);\n        expect(\"dc_link {k} fits\", (unsigned long long)ok, {}ULL);",
+            input[0],
+            input[1],
+            input[2],
+            u64::from(want.is_some())
+        );
+        let (up, down) = want.map_or((input, input), |w| (w.up, w.down));
+        for j in 0..3 {
+            let _ = writeln!(
+                s,
+                "        expect(\"dc_link {k} up {j}\", up[{j}], {}ULL);\n        expect(\"dc_link {k} down {j}\", dn[{j}], {}ULL);",
+                up[j], down[j]
+            );
+        }
+        if let Some(w) = want {
+            for r in 0..2 {
+                let _ = writeln!(
+                    s,
+                    "        expect(\"dc_link {k} trigger {r}\", tr[{r}], {}ULL);\n        expect(\"dc_link {k} leg {r}\", lg[{r}], {}ULL);\n        expect(\"dc_link {k} sign {r}\", (unsigned long long)(sg[{r}] + 1), {}ULL);",
+                    w.triggers[r],
+                    w.legs[r],
+                    i64::from(w.signs[r]) + 1
+                );
+            }
+        }
+        s.push_str("    }\n");
+    }
+}
+
+/// The Rust host tests' checks of the DC-link constants and helper.
+fn rust_dc_link_checks(f: &Facts) -> String {
+    let Some(t) = &f.dc_link else {
+        return String::new();
+    };
+    let mut s = format!(
+        "        assert_eq!(DC_LINK_MIN_VECTOR_COUNTS, {});\n        assert_eq!(DC_LINK_TRIGGER_LEAD, {});\n",
+        t.min_vector_counts, t.lead_counts
+    );
+    for c in dc_link_inputs(f, t) {
+        let want = match dc_link_expected(f, t, c) {
+            Some(w) => format!(
+                "Some(DcLinkPeriod {{ up: {:?}, down: {:?}, triggers: {:?}, legs: {:?}, signs: {:?} }})",
+                w.up, w.down, w.triggers, w.legs, w.signs
+            ),
+            None => "None".into(),
+        };
+        let _ = writeln!(
+            s,
+            "        assert_eq!(dc_link_compares([Duty::from_counts({}), Duty::from_counts({}), Duty::from_counts({})]), {want});",
+            c[0], c[1], c[2]
+        );
+    }
+    s
+}
+
 fn c_host_program(f: &Facts) -> String {
     let m = &f.macro_prefix;
     let c = &f.stem;
@@ -455,6 +583,9 @@ fn c_host_program(f: &Facts) -> String {
             );
         }
         s.push_str("    }\n");
+    }
+    if let Some(t) = &f.dc_link {
+        c_dc_link_checks(&mut s, f, t);
     }
     // The frequency in mHz from the stated convention, in integers.
     let _ = writeln!(
@@ -656,6 +787,11 @@ fn c_host_winch() {
 #[test]
 fn c_host_pump_bldc() {
     c_host(common::case("pump-bldc"));
+}
+
+#[test]
+fn c_host_pump_dc_link() {
+    c_host(common::case("pump-dc-link"));
 }
 
 #[test]
@@ -896,7 +1032,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
              assert_eq!(DEAD_TIME_CODE as u64, {dtc});\n        \
              assert_eq!(DEAD_TIME_TICKS as u64, {dtt});\n        \
              assert_eq!(COMPARE_MIN as u64, {min});\n        \
-             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}{pick}{loops}    }}\n\n    \
+             assert_eq!(COMPARE_MAX as u64, {max});\n{extra}{comp}{pick}{loops}{dc}    }}\n\n    \
              #[test]\n    fn constructors_give_the_closed_form() {{\n        \
              let got: Vec<u64> = [{list}].iter().map(|d| d.counts() as u64).collect();\n        \
              assert_eq!(got, vec![{counts}]);\n        \
@@ -918,6 +1054,7 @@ fn rust_host_tests(cases: &[Facts]) -> String {
             max = f.compare_max,
             mid = f.mid(),
             tiny = f.tiny_q16(),
+            dc = rust_dc_link_checks(f),
             loops = f
                 .loop_consts
                 .iter()

@@ -67,6 +67,29 @@ fn edits(case: &Case) -> &'static [(&'static str, &'static str, &'static str)] {
                 "  objective: least-loss\n  current_loop: { rate: \"30 kHz\", fixed_point: { fraction_bits: 12 } }   # sampled and updated at both counter extremes\n",
             ),
         ],
+        "pump-dc-link" => &[
+            (
+                "pump-dc-link.yaml",
+                "# pwmplan design: an invented circulation pump with a brushless motor on the Osprey 48 V three-phase bridge.",
+                "# pwmplan design: the circulation pump with one DC-link shunt on the Osprey 48 V three-phase bridge (golden case).",
+            ),
+            ("pump-dc-link.yaml", "name: pump-bldc", "name: pump-dc-link"),
+            (
+                "osprey-3p48.yaml",
+                "name: \"Osprey 48 V three-phase bridge (invented)\"",
+                "name: \"Osprey 48 V three-phase bridge, one DC-link shunt (invented)\"",
+            ),
+            (
+                "osprey-3p48.yaml",
+                "    fpu: true\n",
+                "    fpu: true\n    update_divider: { max: 1, each_extreme: true }   # the compares load at the top and the bottom\n",
+            ),
+            (
+                "osprey-3p48.yaml",
+                "sample_time: \"0.8 us\" }",
+                "sample_time: \"0.8 us\", place: supply-return }   # the over-current shunt, read twice per period",
+            ),
+        ],
         _ => &[],
     }
 }
@@ -211,6 +234,11 @@ fn golden_pump_bldc() {
 #[test]
 fn golden_conveyor_centre() {
     check_case("conveyor-centre");
+}
+
+#[test]
+fn golden_pump_dc_link() {
+    check_case("pump-dc-link");
 }
 
 /// Every folder under `tests/golden/` is a listed case (so a new folder is

@@ -1551,12 +1551,13 @@ fn check_sensing_extras(
 ) -> Result<(), InputError> {
     let three_phase = b.stage.topology == TopologySpec::ThreePhase;
     match (cs.place, b.overcurrent.as_ref().map(|o| o.shunt.place)) {
-        (Some(p), _) if three_phase && p != ShuntPlaceSpec::Leg => {
+        (Some(ShuntPlaceSpec::Phase), _) if three_phase => {
             return Err(c.fail(
                 "current_sensing.place",
-                "a three-phase bridge's current sensing reads low-side shunts in its legs; expected `leg` or no place",
+                "a three-phase bridge's current sensing reads low-side shunts in its legs or one shunt in the DC link; expected `leg`, `supply-return` or no place",
             ));
         }
+        (Some(ShuntPlaceSpec::SupplyReturn), _) if three_phase => check_dc_link(b, cs, c)?,
         (Some(p), Some(o)) if !three_phase && p != o => {
             return Err(c.fail(
                 "current_sensing.place",
@@ -1585,6 +1586,36 @@ fn check_sensing_extras(
             100.0,
             V,
         )?;
+    }
+    Ok(())
+}
+
+/// A three-phase bridge's single DC-link shunt: read in the active vectors of sinusoidal
+/// modulation, with the compares shifted apart on the up count and given back on the down
+/// count (the timer must load them at both extremes), by one channel at two instants.
+fn check_dc_link(b: &BoardSpec, cs: &CurrentSensingSpec, c: &Check) -> Result<(), InputError> {
+    if matches!(b.stage.modulation, Some(ModulationSpec::SixStep { .. })) {
+        return Err(c.fail(
+            "current_sensing.place",
+            "a single DC-link shunt is planned for sinusoidal modulation only (its two readings in the active vectors); six-step: expected `leg`",
+        ));
+    }
+    if !b
+        .timer
+        .update_divider
+        .as_ref()
+        .is_some_and(|u| u.each_extreme)
+    {
+        return Err(c.fail(
+            "current_sensing.place",
+            "a single DC-link shunt needs the compares shifted apart on the up count and given back on the down count, so the timer must load them at both counter extremes; add `update_divider: { max: 1, each_extreme: true }` to the timer (or read low-side shunts: `leg`)",
+        ));
+    }
+    if cs.conversion.is_some() {
+        return Err(c.fail(
+            "current_sensing.conversion",
+            "a single DC-link shunt is read by one channel at two instants; remove it",
+        ));
     }
     Ok(())
 }

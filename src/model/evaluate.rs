@@ -118,6 +118,9 @@ pub struct ThreePhaseModel {
     pub settle_s: f64,
     /// ADC sampling time the window holds (both acquisitions with sequential conversion).
     pub sample_s: f64,
+    /// One shunt in the DC link read in the two active vectors (`physics::three_phase::
+    /// dc_link`) instead of low-side shunts in the legs.
+    pub dc_link: bool,
 }
 
 /// Modulation of a three-phase bridge.
@@ -471,6 +474,7 @@ fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
                 Some(ConversionSpec::Sequential) => 2.0,
                 _ => 1.0,
             },
+        dc_link: sensing.place == Some(ShuntPlaceSpec::SupplyReturn),
     })
 }
 

@@ -28,6 +28,7 @@ use crate::model::current_limit::CurrentLimitOut;
 use crate::model::current_loop::SamplingOut;
 use crate::model::evaluate::Evaluator;
 use crate::model::evaluate::ThreePhaseCase;
+use crate::model::physics::three_phase::ZeroSequence;
 use crate::model::solve::{Candidate, Solution};
 use crate::model::timer::Alignment;
 use crate::model::verify::{
@@ -184,11 +185,21 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
         check_current_limit(l, &mut out);
     }
     if v.topology == "three-phase" {
-        match sinusoidal_sampling(v.three_phase) {
-            Some(s) => check_sampling(&regs, s, &mut out),
-            None => out
-                .not_checked
-                .push("the current-sampling window (six-step sampling)".into()),
+        let dc_link = v.three_phase.and_then(|t| Some((t, t.dc_link.as_ref()?)));
+        match (dc_link, sinusoidal_sampling(v.three_phase)) {
+            (Some((t, d)), _) => {
+                let zs = match t.zero_sequence.as_deref() {
+                    Some("min-max") => ZeroSequence::MinMax,
+                    _ => ZeroSequence::None,
+                };
+                let limits = (v.pwm.compare_min, v.pwm.compare_max);
+                crate::model::register_sampling::check_dc_link(&regs, d, zs, limits, &mut out);
+            }
+            (None, Some(s)) => check_sampling(&regs, s, &mut out),
+            (None, None) => out.not_checked.push(
+                "the current-sampling window (six-step sampling, or no window at this setting)"
+                    .into(),
+            ),
         }
         match v.three_phase.filter(|t| t.modulation == "sinusoidal") {
             Some(t) => check_three_phase_currents(v, &regs, t, &mut out),

@@ -8,7 +8,7 @@
 
 use crate::model::current_loop::SamplingOut;
 use crate::model::timer::Alignment;
-use crate::model::verify::{self, LegState, Stage, SwitchInterval, TimerRegisters};
+use crate::model::verify::{self, LegCompare, LegState, Stage, SwitchInterval, TimerRegisters};
 use crate::output::plan::RegisterCheck;
 
 /// The trigger's time in the PWM period at compare `c`, s (the counter bottom or 0 at
@@ -139,4 +139,105 @@ fn probe_circuit() -> verify::Circuit {
         v_sd_v: 0.0,
         v_f_v: 0.0,
     }
+}
+
+/// Angles per electrical period the DC-link readings are checked at (own choice: two degrees;
+/// the sort of the compares changes only at sector boundaries, which the grid includes).
+const DC_LINK_ANGLES: usize = 180;
+
+/// The legs a DC-link shunt reading sees at `t_s`: each leg's state, `None` while a leg is in
+/// its dead time (the vector not yet settled).
+fn high_legs(regs: &TimerRegisters, legs: &[LegCompare; 3], t_s: f64) -> Option<[bool; 3]> {
+    let mut high = [false; 3];
+    for (h, leg) in high.iter_mut().zip(legs) {
+        *h = match verify::leg_state_at(regs, *leg, t_s).ok()? {
+            LegState::High => true,
+            LegState::Low => false,
+            LegState::Dead => return None,
+        };
+    }
+    Some(high)
+}
+
+/// What the shunt reads with these legs high: `(leg, sign)` when it is one phase current
+/// (one leg high: `+i`; two: `−i` of the low one), `None` on a zero vector.
+fn dc_link_reads(high: [bool; 3]) -> Option<(usize, i8)> {
+    match high.iter().filter(|&&h| h).count() {
+        1 => high.iter().position(|&h| h).map(|k| (k, 1)),
+        2 => high.iter().position(|&h| !h).map(|k| (k, -1)),
+        _ => None,
+    }
+}
+
+/// The DC-link shunt's two readings of every angle (at the needed modulation and at none,
+/// compares within the plan's limits) on the verifier's switch timeline: the shifted compares
+/// fit, each reading's vector has settled the settling time before its trigger and holds
+/// through the acquisition (no leg in its dead time, no leg switching), and it puts the phase
+/// current the plan says through the shunt; records the shortest margins.
+pub fn check_dc_link(
+    regs: &TimerRegisters,
+    d: &crate::output::plan::DcLinkPlan,
+    zero_sequence: crate::model::physics::three_phase::ZeroSequence,
+    limits: (u64, u64),
+    out: &mut RegisterCheck,
+) {
+    use crate::model::physics::three_phase::{dc_link, leg_duties};
+    let p = regs.duty_steps();
+    let timing = dc_link::DcLinkTiming {
+        lead_counts: d.lead_counts,
+        min_vector_counts: d.min_vector_counts,
+    };
+    let tick = regs.tick_s;
+    let mut worst = (f64::INFINITY, f64::INFINITY);
+    for m in [0.0, d.needed_modulation] {
+        for k in 0..DC_LINK_ANGLES {
+            let theta = std::f64::consts::TAU * k as f64 / DC_LINK_ANGLES as f64;
+            let c = leg_duties(m, zero_sequence, theta)
+                .map(|x| ((x * p as f64).round() as u64).clamp(limits.0, limits.1));
+            let Some(s) = dc_link::shift_compares(c, p, &timing) else {
+                out.disagreements.push(format!(
+                    "DC-link sampling: at modulation {m:.3}, {:.0}°, compares {c:?} do not shift to fit the counter",
+                    theta.to_degrees()
+                ));
+                continue;
+            };
+            let legs = [0, 1, 2].map(|x| LegCompare::new(s.up[x]).halves(s.down[x]));
+            for r in 0..2 {
+                let t = s.triggers[r] as f64 * tick;
+                // A thousandth of a tick inside: the window may touch its vector's edges.
+                let eps = 1e-3 * tick;
+                let (start, end) = (t - d.settle_time_s + eps, t + d.sample_time_s - eps);
+                let steps = ((end - start) / (0.25 * tick)).ceil().max(4.0) as usize;
+                let seen: Vec<_> = (0..=steps)
+                    .map(|j| {
+                        high_legs(regs, &legs, start + (end - start) * j as f64 / steps as f64)
+                    })
+                    .collect();
+                let first = seen[0];
+                let held = seen.iter().all(|x| x.is_some() && *x == first);
+                let reads = first.and_then(dc_link_reads);
+                if !held || reads != Some((s.legs[r], s.signs[r])) {
+                    out.disagreements.push(format!(
+                        "DC-link sampling: at modulation {m:.3}, {:.0}°, reading {} (trigger {}) finds the vector unsettled or reading {reads:?}, the plan says leg {} with sign {}",
+                        theta.to_degrees(),
+                        r + 1,
+                        s.triggers[r],
+                        s.legs[r],
+                        s.signs[r]
+                    ));
+                }
+                // The margins: the vector's start and end around the window.
+                let start_edge = if r == 0 {
+                    s.up[s.legs[0]]
+                } else {
+                    s.triggers[0] + d.lead_counts
+                };
+                let before = t - start_edge as f64 * tick - regs.dead_time_s;
+                let after = (s.triggers[r] + d.lead_counts) as f64 * tick - t;
+                worst = (worst.0.min(before), worst.1.min(after));
+            }
+        }
+    }
+    out.sample_low_on_before_s = Some(worst.0);
+    out.sample_low_on_after_s = Some(worst.1);
 }

@@ -24,6 +24,7 @@ use serde::Serialize;
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
 use crate::model::physics::params::{HBridgeModulation, Topology};
 use crate::model::physics::sampling::{self, BrushedSampling, SamplingTimer, SenseState};
+use crate::model::physics::three_phase::dc_link::{self, DcLinkTiming};
 use crate::model::physics::three_phase::{self, Chop, SamplingWindow, ThreePhaseError};
 use crate::model::range::{RangePoint, RangeResult, junction_key};
 use crate::model::timer::{self, Alignment, DeadTimeError, DutyLimits, PwmSetting};
@@ -280,6 +281,17 @@ pub struct Candidate {
     /// Three-phase: the current-sampling window at this setting.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub sampling: Option<SamplingOut>,
+    /// Three-phase with one DC-link shunt: the reading chain in counts at this setting.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dc_link: Option<DcLinkOut>,
+}
+
+/// A single DC-link shunt's reading at a three-phase setting.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct DcLinkOut {
+    pub timing: DcLinkTiming,
+    /// The highest modulation index the load needs (the lowest supply).
+    pub needed_modulation: f64,
 }
 
 /// The low-side shunt sampling window of a three-phase setting.
@@ -485,7 +497,7 @@ impl Evaluator {
         s: &PwmSetting,
         t_dead_s: f64,
     ) -> Option<Result<SamplingWindow, ThreePhaseError>> {
-        let tp = self.three_phase.as_ref()?;
+        let tp = self.three_phase.as_ref().filter(|tp| !tp.dc_link)?;
         let p = u32::try_from(s.duty_steps).unwrap_or(u32::MAX);
         Some(three_phase::sampling_window(
             p,
@@ -494,6 +506,62 @@ impl Evaluator {
             tp.sample_s,
             t_dead_s,
         ))
+    }
+
+    /// A three-phase bridge's single DC-link shunt at a setting (`dc_link::dc_link_timing`
+    /// with one tick = divider / clock); `None` with low-side shunts.
+    pub fn dc_link_timing(&self, s: &PwmSetting, t_dead_s: f64) -> Option<DcLinkTiming> {
+        let tp = self.three_phase.as_ref().filter(|tp| tp.dc_link)?;
+        let tick = s.divider as f64 / self.timer.clock_hz;
+        dc_link::dc_link_timing(tick, tp.settle_s, tp.sample_s, t_dead_s)
+    }
+
+    /// The `sampling-window` constraint of a single DC-link shunt: the half period must hold
+    /// two vectors of the reading's need, bounded by `2·(t_s + t_dead + t_settle + 2·tick)`
+    /// (the counts' rounding taken at its bound, so a finer timer never fails where a coarser
+    /// one holds), and the shifted compares must fit the counter at the needed modulation and at
+    /// none (`dc_link::fits_at`, at the emitted counts).
+    fn dc_link_check(
+        &self,
+        s: &PwmSetting,
+        t: &DcLinkTiming,
+        dead_s: f64,
+        m_needed: f64,
+    ) -> ConstraintCheck {
+        let tick = s.divider as f64 / self.timer.clock_hz;
+        let tp = self.three_phase.as_ref();
+        let need_s = tp.map_or(0.0, |tp| tp.settle_s + tp.sample_s) + dead_s;
+        let limit = 2.0 * (need_s + 2.0 * tick);
+        // The half period: P counts of the up count.
+        let half = s.duty_steps as f64 * tick;
+        let zs = match tp.map(|tp| tp.modulation) {
+            Some(ThreePhaseModulation::Sinusoidal { zero_sequence, .. }) => zero_sequence,
+            _ => three_phase::ZeroSequence::None,
+        };
+        let p = s.duty_steps;
+        let fits = [0.0, m_needed]
+            .iter()
+            .all(|&m| dc_link::fits_at(m, zs, p, t));
+        let why = format!(
+            "one DC-link shunt is read in two active vectors each period, each at least {} ({} counts: dead time, settling, sampling), the compares shifted apart where they are shorter; the half period must hold two",
+            fmt_t(t.min_vector_counts as f64 * tick),
+            t.min_vector_counts
+        );
+        let mut k = lower(
+            "sampling-window",
+            limit,
+            Some(half),
+            "s",
+            why.clone().into(),
+        );
+        if !fits {
+            k.pass = false;
+            k.detail = format!(
+                "{why}, and at modulation {m_needed:.3} a middle compare comes within half a vector of a counter extreme, where the shift does not fit"
+            )
+            .into();
+        }
+        k
     }
 
     /// A brushed stage's current sampling at a setting
@@ -606,6 +674,10 @@ impl Evaluator {
         if let Some(w) = &sampling {
             checks.push(self.sampling_check(w, &high_bus, m_low_bus));
         }
+        let dc_link = self.dc_link_timing(s, dead.seconds);
+        if let Some(t) = &dc_link {
+            checks.push(self.dc_link_check(s, t, dead.seconds, m_low_bus));
+        }
         if let Some(w) = self.brushed_sampling(s, dead.seconds) {
             // Leg A's lowest compare duty (the needed range of a unipolar bridge spans both
             // legs' duties): the highest supply's, or the range's lowest.
@@ -638,6 +710,10 @@ impl Evaluator {
                 min_low_side_on_s: w.min_low_side_on_s,
                 min_low_side_gate_on_s: w.min_low_side_gate_on_s,
                 max_high_side_duty: w.max_high_side_duty,
+            }),
+            dc_link: dc_link.map(|timing| DcLinkOut {
+                timing,
+                needed_modulation: m_low_bus,
             }),
         })
     }

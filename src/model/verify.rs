@@ -449,6 +449,18 @@ impl LegArcs {
     }
 }
 
+/// A complementary leg's switch state at `t_s` into the period (dead time inserted as in
+/// [`verify`]): for checks that need no load, such as which legs a DC-link shunt sees.
+pub fn leg_state_at(
+    regs: &TimerRegisters,
+    leg: LegCompare,
+    t_s: f64,
+) -> Result<LegState, VerifyError> {
+    regs.validate()?;
+    let arcs = leg_arcs(regs, leg, true)?;
+    Ok(arcs.state_at(t_s.rem_euclid(regs.period_s()), regs.period_s()))
+}
+
 /// The reference of one leg, from integer ticks (see the module doc's conventions).
 fn reference_arc(regs: &TimerRegisters, leg: LegCompare) -> Result<Arc, VerifyError> {
     let steps = regs.duty_steps();

@@ -81,6 +81,11 @@ pub struct ThreePhaseLiterals {
     pub sampling_compare_max: String,
     /// The sampling window explained, one line each.
     pub sampling_lines: Vec<String>,
+    /// One shunt in the DC link: the shortest vector a reading needs and the trigger lead,
+    /// counts (emit the shifting helper instead of the low-side constants).
+    pub dc_link: bool,
+    pub dc_link_min_vector: String,
+    pub dc_link_lead: String,
 }
 
 /// The current limit's values as they go into code and text (zeros and

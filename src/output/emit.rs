@@ -670,7 +670,17 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
         trigger_ns: "0".into(),
         sampling_compare_max: "0".into(),
         sampling_lines: Vec::new(),
+        dc_link: false,
+        dc_link_min_vector: "0".into(),
+        dc_link_lead: "0".into(),
     };
+    if let Some(d) = &tp.dc_link {
+        out.dc_link = true;
+        out.dc_link_min_vector = d.min_vector_counts.to_string();
+        out.dc_link_lead = d.lead_counts.to_string();
+        out.sampling_lines = dc_link_lines(d, plan.timer.dead_time_s);
+        return out;
+    }
     match &tp.sampling {
         Some(s) => {
             let needed = s
@@ -724,6 +734,29 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
         ],
     }
     out
+}
+
+/// The DC-link shunt's sampling explained, one line each.
+fn dc_link_lines(d: &crate::output::plan::DcLinkPlan, dead_s: f64) -> Vec<String> {
+    let t = |x: f64| q(x, Dimension::Time, 3);
+    vec![
+        format!(
+            "One shunt in the DC link, read twice per period on the UP-count: in the vector with one leg low (it carries minus that leg's current) and in the vector with one leg high (plus that leg's current); the third current is minus the sum of the two."
+        ),
+        format!(
+            "Each reading needs its vector to last dead time {} + settling {} + sampling {}, {} counts ({}); the conversion starts {} counts before the vector ends, so the acquisition ends at the next edge.",
+            t(dead_s),
+            t(d.settle_time_s),
+            t(d.sample_time_s),
+            d.min_vector_counts,
+            t(d.min_vector_s),
+            d.lead_counts
+        ),
+        format!(
+            "Where a vector is shorter, the helper shifts the compares apart on the up-count and gives the difference back on the down-count, so each leg's on-time per period is kept (compare shifting; the timer loads the compares at both extremes). It fits the counter up to modulation {:.3}; the load needs {:.3}.",
+            d.max_modulation, d.needed_modulation
+        ),
+    ]
 }
 
 /// Which code the init sequence names its constants and helpers for.

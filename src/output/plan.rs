@@ -78,6 +78,12 @@ pub const ASSUMPTIONS: &[&str] = &[
     "audibility from the ripple current's spectrum: significant lines within 60 dB of the strongest and above 1 mA rms",
 ];
 
+/// How a three-phase plan samples its low-side shunts.
+pub const LOW_SIDE_SAMPLING_ASSUMPTION: &str = "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0";
+
+/// How a three-phase plan reads one DC-link shunt.
+pub const DC_LINK_SAMPLING_ASSUMPTION: &str = "current sampling: one shunt in the DC link, read twice per period in the two active vectors of the up-count (minus the current of the leg that is low, then the current of the leg that is high), the compares shifted apart where a vector is shorter than a reading needs and given back on the down-count (each leg's on-time per period kept; the pulse around the counter bottom moves by the change of shift between periods), the third current from i_a + i_b + i_c = 0";
+
 /// The modelling assumptions of a three-phase plan.
 pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     SWITCH_PARAMETERS_ASSUMPTION,
@@ -85,13 +91,42 @@ pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
     "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
-    "current sampling: low-side shunts, two of three phases sampled in the middle of the low-side on-time (around the counter top: high side on while the counter is below the compare), the third from i_a + i_b + i_c = 0",
+    LOW_SIDE_SAMPLING_ASSUMPTION,
     "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
 ];
 
 /// The PWM mode and output polarity a three-phase plan's compare values and
 /// ADC trigger assume (the emitted code's convention).
 pub const THREE_PHASE_PWM_MODE: &str = "centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time";
+
+/// The DC-link shunt's figures of a three-phase plan.
+fn dc_link_plan(
+    tp: &crate::model::evaluate::ThreePhaseModel,
+    c: &Candidate,
+    k: &crate::model::solve::DcLinkOut,
+) -> DcLinkPlan {
+    use crate::model::evaluate::ThreePhaseModulation as M;
+    use crate::model::physics::three_phase::{ZeroSequence, dc_link};
+    let zs = match tp.modulation {
+        M::Sinusoidal { zero_sequence, .. } => zero_sequence,
+        M::SixStep { .. } => ZeroSequence::None,
+    };
+    let m_lin = match zs {
+        ZeroSequence::MinMax => 2.0 / 3f64.sqrt(),
+        ZeroSequence::None => 1.0,
+    };
+    let tick = 1.0 / (c.setting.frequency_hz * c.setting.period_ticks as f64);
+    DcLinkPlan {
+        settle_time_s: tp.settle_s,
+        sample_time_s: tp.sample_s,
+        lead_counts: k.timing.lead_counts,
+        min_vector_counts: k.timing.min_vector_counts,
+        min_vector_s: k.timing.min_vector_counts as f64 * tick,
+        needed_modulation: k.needed_modulation,
+        max_modulation: dc_link::max_modulation(m_lin, zs, c.setting.duty_steps, &k.timing)
+            .unwrap_or(0.0),
+    }
+}
 
 /// The three-phase block of a plan.
 pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<ThreePhaseOut> {
@@ -147,6 +182,7 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
                 })
             })
             .collect(),
+        dc_link: c.dc_link.map(|k| dc_link_plan(tp, c, &k)),
         sampling: c.sampling.map(|w| SamplingPlan {
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: tp.sample_s,
@@ -445,8 +481,28 @@ pub struct ThreePhaseOut {
     /// The operating range's points among the plan's cases (same names).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub range_cases: Vec<NamedThreePhaseCase>,
-    /// The current-sampling window (null when none fits the period).
+    /// The current-sampling window (null when none fits the period, or with a DC-link shunt).
     pub sampling: Option<SamplingPlan>,
+    /// One shunt in the DC link read in two active vectors (only with one).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dc_link: Option<DcLinkPlan>,
+}
+
+/// A three-phase plan's single DC-link shunt (`physics::three_phase::dc_link`).
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct DcLinkPlan {
+    pub settle_time_s: f64,
+    pub sample_time_s: f64,
+    /// Counts from each trigger to the end of its vector (the acquisition, rounded up).
+    pub lead_counts: u64,
+    /// The shortest vector a reading needs, counts and seconds (dead time, settling,
+    /// acquisition).
+    pub min_vector_counts: u64,
+    pub min_vector_s: f64,
+    /// The highest modulation index the load needs, and the highest at which every angle's
+    /// shifted compares fit the counter (up to the linear limit).
+    pub needed_modulation: f64,
+    pub max_modulation: f64,
 }
 
 /// The low-side shunt sampling of a three-phase plan.
@@ -1382,6 +1438,9 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
         ),
         SWITCH_PARAMETERS_ASSUMPTION => {
             on_resistance_assumption(&ev.stage.switch, ev.stage.drive.v_drive_v)
+        }
+        LOW_SIDE_SAMPLING_ASSUMPTION if ev.three_phase.as_ref().is_some_and(|t| t.dc_link) => {
+            DC_LINK_SAMPLING_ASSUMPTION.to_string()
         }
         other => other.to_string(),
     })

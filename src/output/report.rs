@@ -155,6 +155,8 @@ const CONSTANT_KEYS: &[&str] = &[
     "timer.dead_time_code",
     "three_phase.sampling.trigger_compare",
     "three_phase.sampling.max_high_side_compare",
+    "three_phase.dc_link.lead_counts",
+    "three_phase.dc_link.min_vector_counts",
     "current_limit.threshold_code",
     "current_limit.filter_samples",
     "current_limit.blanking_ticks",

@@ -36,7 +36,9 @@ pub struct Case {
 
 /// Every golden case. `conveyor-centre` is `belt-feeder` on a copy of the
 /// board whose timer offers only centre-aligned counting, so the
-/// centre-aligned branches of the templates are generated and compiled too.
+/// centre-aligned branches of the templates are generated and compiled too
+/// (with a series shunt read at both counter extremes); `pump-dc-link` is
+/// `pump-bldc` reading one DC-link shunt instead of low-side shunts.
 pub const CASES: &[Case] = &[
     Case {
         name: "belt-feeder",
@@ -67,6 +69,12 @@ pub const CASES: &[Case] = &[
         board: "wren-hb24.yaml",
         switch: "switches/tarn-40.yaml",
         source: "belt-feeder",
+    },
+    Case {
+        name: "pump-dc-link",
+        board: "osprey-3p48.yaml",
+        switch: "switches/corrie-100.yaml",
+        source: "pump-bldc",
     },
 ];
 

@@ -39,6 +39,7 @@
 
 pub mod averaged;
 pub mod command;
+pub mod dc_link;
 pub mod dead_time;
 pub mod inputs;
 pub mod loss_lines;
