@@ -874,3 +874,59 @@ fn a_unipolar_supply_return_shunt_bounds_leg_a() {
     let p = winch_plan(place, &[]);
     assert!(!p.feasible);
 }
+
+/// The belt feeder's plan on the Wren board with a phase shunt on a timer that loads its
+/// compares at both extremes, asked for an 80 kHz loop, the board's alignments as given.
+fn feeder_both_extremes(alignments: &str) -> Plan {
+    let tmp = tempfile::tempdir().unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let read = |name: &str| std::fs::read_to_string(root.join(name)).unwrap();
+    std::fs::create_dir_all(tmp.path().join("switches")).unwrap();
+    std::fs::write(
+        tmp.path().join("switches/tarn-40.yaml"),
+        read("switches/tarn-40.yaml"),
+    )
+    .unwrap();
+    let board = read("wren-hb24.yaml")
+        .replacen("alignments: [edge, centre]", alignments, 1)
+        .replacen(
+            "    fpu: true\n",
+            "    fpu: true\n    update_divider: { max: 4, each_extreme: true }\n",
+            1,
+        )
+        + "  current_sensing: { settle_time: \"0.6 us\", sample_time: \"0.3 us\", place: phase }\n";
+    let design = read("belt-feeder.yaml") + "  current_loop: { rate: \"80 kHz\" }\n";
+    std::fs::write(tmp.path().join("wren-hb24.yaml"), board).unwrap();
+    std::fs::write(tmp.path().join("belt-feeder.yaml"), design).unwrap();
+    let d = load_design(Origin::Disk(tmp.path().join("belt-feeder.yaml"))).unwrap();
+    let ev = Evaluator::new(&d);
+    let sol = solve::solve(&ev, objective("least-loss"));
+    plan::build(&d, &ev, &sol, None).unwrap()
+}
+
+/// Asked for a loop above the PWM rate where the board can sample at both extremes: a
+/// centre-aligned plan updates twice per period (both triggers written); an edge-aligned one
+/// once, and its warning names the alignment as the reason and how to change it.
+#[test]
+fn a_loop_above_the_pwm_rate_samples_at_both_extremes_where_it_can() {
+    let p = feeder_both_extremes("alignments: [centre]");
+    let cl = p.current_loop.as_ref().unwrap();
+    assert_eq!(p.pwm.alignment, "centre");
+    assert_eq!(cl.updates_per_pwm_period, 2);
+    assert_eq!(cl.update_extremes, Some(1));
+    assert!((cl.rate_hz - 2.0 * cl.pwm_rate_hz).abs() < 1e-6);
+    assert!(p.sampling.as_ref().unwrap().top_trigger_count.is_some());
+    let p = feeder_both_extremes("alignments: [edge]");
+    assert_eq!(p.current_loop.as_ref().unwrap().updates_per_pwm_period, 1);
+    assert!(p.sampling.as_ref().unwrap().top_trigger_count.is_none());
+    let f = p
+        .findings
+        .iter()
+        .find(|f| f.code == "current-loop-rate")
+        .expect("a rate warning");
+    assert!(
+        f.message.contains("edge-aligned") && f.message.contains("list only `centre`"),
+        "{}",
+        f.message
+    );
+}

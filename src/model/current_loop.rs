@@ -310,7 +310,13 @@ fn switched(
 
 /// A warning when the asked rate is above what the loop runs at: the PWM rate (twice it where
 /// the loop updates every half period), saying why the board cannot update faster.
-fn rate_finding(d: &Design, asked: Option<f64>, pwm_hz: f64, half: bool) -> Option<LoopFinding> {
+fn rate_finding(
+    d: &Design,
+    ev: &Evaluator,
+    asked: Option<f64>,
+    pwm_hz: f64,
+    half: bool,
+) -> Option<LoopFinding> {
     let most = if half { 2.0 * pwm_hz } else { pwm_hz };
     let a = asked.filter(|&a| a > most * 1.0005)?;
     let each_extreme = d
@@ -319,12 +325,17 @@ fn rate_finding(d: &Design, asked: Option<f64>, pwm_hz: f64, half: bool) -> Opti
         .update_divider
         .as_ref()
         .is_some_and(|u| u.each_extreme);
-    let why = match (half, each_extreme) {
-        (true, _) => "it samples and updates at both counter extremes, twice per PWM period",
-        (false, true) => {
+    // The board could sample at both extremes; only the setting's alignment stands in the way.
+    let could = ev.sensing.is_some_and(|b| b.half_period_rate_hz.is_some());
+    let why = match (half, each_extreme, could) {
+        (true, _, _) => "it samples and updates at both counter extremes, twice per PWM period",
+        (false, true, true) => {
+            "it updates once per PWM period: the chosen setting is edge-aligned, and sampling at both counter extremes needs an up-down count (list only `centre` in `timer.alignments` to have one)"
+        }
+        (false, true, false) => {
             "it updates once per PWM period: sampling at both counter extremes needs a centre-aligned setting and a shunt in series with the motor (`place: phase`) on a stage other than a unipolar bridge"
         }
-        (false, false) => {
+        (false, false, _) => {
             "it updates once per PWM period (the compares take effect at one update event per period)"
         }
     };
@@ -364,7 +375,7 @@ pub fn plan(
     let half = w.as_ref().is_some_and(|w| w.top_trigger.is_some());
     let per_period: u64 = if half { 2 } else { 1 };
     let n = update_divider(pwm_hz, asked, max_div);
-    findings.extend(rate_finding(d, asked, pwm_hz, half));
+    findings.extend(rate_finding(d, ev, asked, pwm_hz, half));
     let timing = LoopTiming {
         period_s: n as f64 / (pwm_hz * per_period as f64),
         sample_offset_s: offset,
