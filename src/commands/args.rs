@@ -3,7 +3,7 @@
 
 use clap::{Parser, Subcommand};
 
-use super::{check, compare, new, plan, spread, sweep};
+use super::{check, compare, new, plan, shell, spread, sweep};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -36,4 +36,10 @@ pub enum Command {
     New(new::NewArgs),
     /// List the bundled boards, switches and designs.
     Boards,
+    /// Write the shell completion script (bash, zsh, fish, elvish,
+    /// powershell) to standard output.
+    Completions(shell::CompletionsArgs),
+    /// Write the manual page (roff, section 1) to standard output: pwmplan's,
+    /// or with a command's name that command's.
+    Manual(shell::ManualArgs),
 }

@@ -5,14 +5,14 @@
 //! (infeasible / out of date), never as a panic.
 //!
 //! A file per command (`plan`, `check`, `sweep`, `compare`, `spread`, `new`,
-//! `boards`); the shared parts: arguments ([`args`]), failures
+//! `boards`; `completions` and `manual` in `shell`); the shared parts: arguments ([`args`]), failures
 //! ([`failure`]), solving a design ([`solved`]) and the output folder's
 //! writes and lock ([`files`]). This file only dispatches.
 
 use std::io::Write;
 use std::process::ExitCode;
 
-use clap::Parser;
+use clap::{CommandFactory, Parser};
 
 pub mod args;
 pub mod boards;
@@ -22,6 +22,7 @@ pub mod failure;
 pub mod files;
 pub mod new;
 pub mod plan;
+pub mod shell;
 pub mod solved;
 pub mod spread;
 pub mod sweep;
@@ -73,5 +74,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
         Command::Compare(a) => compare::run(a, out),
         Command::Spread(a) => spread::run(a, out, err),
         Command::Boards => boards::run(out),
+        Command::Completions(a) => shell::completions(a, Args::command(), out),
+        Command::Manual(a) => shell::manual(a, Args::command(), out),
     }
 }
