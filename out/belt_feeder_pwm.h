@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:38daaf9fa2c7bd6fa80ea32dac95de5160dbfdeeba532eec697472d437d9e98b)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:b109aa022d29483c0c05906de48899fe87fc6f9d1cc32e3b1769899a4ff7cef4)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -60,10 +60,10 @@
  *   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +81 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
  *   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +164 mW total loss, +2.1 K junction, -242 mA ripple, -1.58 bits resolution
  *
- * Findings
- *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
- *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
- *   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+ * Findings (`pwmplan explain CODE` says what a bracketed code means)
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes. [vdss-margin-low]
+ *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size) [c-rss-scaled-to-q-gd]
+ *   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)

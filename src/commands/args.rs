@@ -3,7 +3,7 @@
 
 use clap::{Parser, Subcommand};
 
-use super::{check, compare, new, plan, shell, spread, sweep};
+use super::{check, compare, explain, new, plan, shell, spread, sweep};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -36,6 +36,9 @@ pub enum Command {
     New(new::NewArgs),
     /// List the bundled boards, switches and designs.
     Boards,
+    /// What a finding code means and where its rule comes from (without a
+    /// code, the list of codes).
+    Explain(explain::ExplainArgs),
     /// Write the shell completion script (bash, zsh, fish, elvish,
     /// powershell) to standard output.
     Completions(shell::CompletionsArgs),

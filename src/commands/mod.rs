@@ -5,7 +5,7 @@
 //! (infeasible / out of date), never as a panic.
 //!
 //! A file per command (`plan`, `check`, `sweep`, `compare`, `spread`, `new`,
-//! `boards`; `completions` and `manual` in `shell`); the shared parts: arguments ([`args`]), failures
+//! `boards`, `explain`; `completions` and `manual` in `shell`); the shared parts: arguments ([`args`]), failures
 //! ([`failure`]), solving a design ([`solved`]) and the output folder's
 //! writes and lock ([`files`]). This file only dispatches.
 
@@ -18,6 +18,7 @@ pub mod args;
 pub mod boards;
 pub mod check;
 pub mod compare;
+pub mod explain;
 pub mod failure;
 pub mod files;
 pub mod new;
@@ -74,6 +75,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
         Command::Compare(a) => compare::run(a, out),
         Command::Spread(a) => spread::run(a, out, err),
         Command::Boards => boards::run(out),
+        Command::Explain(a) => explain::run(a, out),
         Command::Completions(a) => shell::completions(a, Args::command(), out),
         Command::Manual(a) => shell::manual(a, Args::command(), out),
     }

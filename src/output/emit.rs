@@ -148,7 +148,8 @@ pub fn context(plan: &Plan, fpu: bool) -> Context {
         .iter()
         .map(|f| Row {
             label: f.severity.clone(),
-            value: f.message.clone(),
+            // The code, for `pwmplan explain CODE`.
+            value: format!("{} [{}]", f.message, f.code),
         })
         .collect();
     let inputs = plan
@@ -1062,7 +1063,11 @@ fn rationale_lines(c: &Context) -> Vec<String> {
         &c.register_check,
     );
     table(&mut out, "Alternatives", &c.alternatives);
-    table(&mut out, "Findings", &c.findings);
+    table(
+        &mut out,
+        "Findings (`pwmplan explain CODE` says what a bracketed code means)",
+        &c.findings,
+    );
     out.push("Assumptions".into());
     out.extend(c.assumptions.iter().map(|a| format!("  - {a}")));
     out.push(String::new());

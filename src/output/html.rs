@@ -483,7 +483,9 @@ fn findings(out: &mut String, ctx: &Context) {
         out.push_str("<p>None.</p>\n");
         return;
     }
-    out.push_str("<table class=\"findings\"><tbody>\n");
+    out.push_str(
+        "<p><code>pwmplan explain CODE</code> says what a bracketed code means and where its rule comes from.</p>\n<table class=\"findings\"><tbody>\n",
+    );
     for f in &ctx.findings {
         let sev = match f.label.as_str() {
             "error" | "warning" | "info" => f.label.as_str(),

@@ -11,6 +11,7 @@
 
 pub mod context;
 pub mod emit;
+pub mod explain;
 pub mod html;
 pub mod limit;
 pub mod loop_out;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:223ee876a4a331c2942cba15d342a71b4d7a0497d579f3fcb21676accb034f3f)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:869b70ba7f93d7b4152071581ebcb9fc0ed9f530a507a26fe7380bce76f557bb)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -91,11 +91,11 @@
  *   rounder-frequency  22.000 kHz (divider 1, 4000 ticks, centre): +8 mW total loss, +0.1 K junction, -33 mA ripple, -0.14 bits resolution
  *   highest-frequency  31.541 kHz (divider 1, 2790 ticks, centre): +46 mW total loss, +0.6 K junction, -133 mA ripple, -0.66 bits resolution
  *
- * Findings
- *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes.
- *   warning  The loop's lowest compare (75 counts: the compare limits within the sampling window) puts 0.82 V on the motor, 1.31 A at standstill (38 % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or sample once per PWM period at the counter top (a loop rate no higher than the PWM rate), where small duties leave the off-time long.
- *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size)
- *   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+ * Findings (`pwmplan explain CODE` says what a bracketed code means)
+ *   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes. [vdss-margin-low]
+ *   warning  The loop's lowest compare (75 counts: the compare limits within the sampling window) puts 0.82 V on the motor, 1.31 A at standstill (38 % of the rated current): a zero reference cannot be followed there. Disable the outputs (coast) for small references, or sample once per PWM period at the counter top (a loop rate no higher than the PWM rate), where small duties leave the off-time long. [current-loop-floor]
+ *   info     the C_rss curve gives a Miller charge of 13.5 nC over the gate-charge test swing from 20.0 V (half of V_DSS; q_g.at_v_ds not given) down to the on state; it is scaled by ×1.03 to Q_gd 14.0 nC (the curve sets the shape of C_gd, Q_gd its size) [c-rss-scaled-to-q-gd]
+ *   info     the dead time costs about 70.9 mV of mean output voltage (0.30 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:5964b03d6849a3cd13720ef2665326c2eae5e6fc935dbe729fb94ea8daf4f5f8)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:dce6afd950476bdc42628f8a64707fd71f421a67351e6faa4156b0b90a4cf095)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -76,8 +76,8 @@
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +625 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
 //!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1255 mW total loss, +1.9 K junction, -403 mA ripple, -1.00 bits resolution
 //!
-//! Findings
-//!   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+//! Findings (`pwmplan explain CODE` says what a bracketed code means)
+//!   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)

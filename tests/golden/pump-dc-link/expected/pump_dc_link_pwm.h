@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:21f871dc87be3f1c943a6dfd3f66c240ff00be28215bd347dc3f3b4413f24208)
+ * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:e2d5d545197b85b6394f73cd85eba90a91c9d1414b28239f0f288b6ec6c6c256)
  *
  * Chosen setting
  *   design            pump-dc-link
@@ -77,8 +77,8 @@
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +625 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
  *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1255 mW total loss, +1.9 K junction, -403 mA ripple, -1.00 bits resolution
  *
- * Findings
- *   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+ * Findings (`pwmplan explain CODE` says what a bracketed code means)
+ *   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)

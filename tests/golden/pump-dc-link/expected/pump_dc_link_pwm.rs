@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:7a2e78cb6c2407ea0d0b1862d8800deda81cd7e37b47c3315d582a75aa75220a)
+//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:6d35b356671ed6384adcbefee10750758ad8a5e3c2547a186cc241a094890aba)
 //!
 //! Chosen setting
 //!   design            pump-dc-link
@@ -76,8 +76,8 @@
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +625 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
 //!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1255 mW total loss, +1.9 K junction, -403 mA ripple, -1.00 bits resolution
 //!
-//! Findings
-//!   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+//! Findings (`pwmplan explain CODE` says what a bracketed code means)
+//!   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)

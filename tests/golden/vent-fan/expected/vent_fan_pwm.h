@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:a76018ab5edb995f5b40e10f4b5623533ee647a711913e46aaf3ee540437df1f)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:5ba5e54244f703c20e904d2030222841f2b5bdf42b3b123bcc386f43c7088af1)
  *
  * Chosen setting
  *   design         vent-fan
@@ -73,8 +73,8 @@
  *   rounder-frequency  20.000 kHz (divider 1, 2200 ticks, edge): +3 mW total loss, ±0 K junction, -114 mA ripple, -0.56 bits resolution
  *   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -163 mA ripple, -0.88 bits resolution
  *
- * Findings
- *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
+ * Findings (`pwmplan explain CODE` says what a bracketed code means)
+ *   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period [no-full-on]
  *
  * Assumptions
  *   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve

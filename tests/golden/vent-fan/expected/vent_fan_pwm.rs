@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:96f3d6dc9d05cb9496469e9acbb3400b94941d4e112c4f518f1f33ad5f1f09f2)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:3fbc12ffd40320d97f11d40ea3f3e79389422e187d9b85e0c96f6a1d37e966e1)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -72,8 +72,8 @@
 //!   rounder-frequency  20.000 kHz (divider 1, 2200 ticks, edge): +3 mW total loss, ±0 K junction, -114 mA ripple, -0.56 bits resolution
 //!   highest-frequency  25.000 kHz (divider 1, 1760 ticks, edge): +7 mW total loss, ±0 K junction, -163 mA ripple, -0.88 bits resolution
 //!
-//! Findings
-//!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period
+//! Findings (`pwmplan explain CODE` says what a bracketed code means)
+//!   info  100 % duty is not used: the compare limit keeps a minimum off-pulse each period [no-full-on]
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:f84ffae2bbb2c294dc90131b7ea910539b5462ea55461f13bbb3105907ae1083)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:9a3be025b65320a66334726cc9639965447d0297c96c9d9c3a57a106e3bbee48)
 //!
 //! Chosen setting
 //!   design         winch
@@ -107,8 +107,8 @@
 //!   rounder-frequency  12.000 kHz (divider 1, 10000 ticks, centre): +20 mW total loss, +0.1 K junction, -36 mA ripple, -0.03 bits resolution
 //!   highest-frequency  14.399 kHz (divider 1, 8334 ticks, centre): +191 mW total loss, +0.6 K junction, -291 mA ripple, -0.30 bits resolution
 //!
-//! Findings
-//!   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up
+//! Findings (`pwmplan explain CODE` says what a bracketed code means)
+//!   info  the dead time costs about 141 mV of mean output voltage (0.29 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
