@@ -759,27 +759,37 @@ fn the_written_loop_has_the_margin_and_overshoot_the_plan_states() {
     );
 }
 
-/// The winch's plan with its board and design edited: `(from, to)` text replacements.
-fn winch_plan(board_edit: (&str, &str), design_edits: &[(&str, &str)]) -> Plan {
+/// A bundled design's least-loss plan with its board's and design's text edited (`edit`
+/// takes the file's text): `(design, board, switch)` file names under `boards/`.
+fn edited_plan(
+    (design, board, switch): (&str, &str, &str),
+    edit_board: impl Fn(String) -> String,
+    edit_design: impl Fn(String) -> String,
+) -> Plan {
     let tmp = tempfile::tempdir().unwrap();
     let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
     let read = |name: &str| std::fs::read_to_string(root.join(name)).unwrap();
     std::fs::create_dir_all(tmp.path().join("switches")).unwrap();
-    std::fs::write(
-        tmp.path().join("switches/corrie-100.yaml"),
-        read("switches/corrie-100.yaml"),
-    )
-    .unwrap();
-    let board = read("heron-hb48.yaml").replacen(board_edit.0, board_edit.1, 1);
-    let design = design_edits
-        .iter()
-        .fold(read("winch.yaml"), |t, (from, to)| t.replacen(from, to, 1));
-    std::fs::write(tmp.path().join("heron-hb48.yaml"), board).unwrap();
-    std::fs::write(tmp.path().join("winch.yaml"), design).unwrap();
-    let d = load_design(Origin::Disk(tmp.path().join("winch.yaml"))).unwrap();
+    std::fs::write(tmp.path().join(switch), read(switch)).unwrap();
+    std::fs::write(tmp.path().join(board), edit_board(read(board))).unwrap();
+    std::fs::write(tmp.path().join(design), edit_design(read(design))).unwrap();
+    let d = load_design(Origin::Disk(tmp.path().join(design))).unwrap();
     let ev = Evaluator::new(&d);
     let sol = solve::solve(&ev, objective("least-loss"));
     plan::build(&d, &ev, &sol, None).unwrap()
+}
+
+/// The winch's plan with its board and design edited: `(from, to)` text replacements.
+fn winch_plan(board_edit: (&str, &str), design_edits: &[(&str, &str)]) -> Plan {
+    edited_plan(
+        ("winch.yaml", "heron-hb48.yaml", "switches/corrie-100.yaml"),
+        |t| t.replacen(board_edit.0, board_edit.1, 1),
+        |t| {
+            design_edits
+                .iter()
+                .fold(t, |t, (from, to)| t.replacen(from, to, 1))
+        },
+    )
 }
 
 /// The update divider: the nearest whole number of PWM periods to the asked rate within the
@@ -878,30 +888,23 @@ fn a_unipolar_supply_return_shunt_bounds_leg_a() {
 /// The belt feeder's plan on the Wren board with a phase shunt on a timer that loads its
 /// compares at both extremes, asked for an 80 kHz loop, the board's alignments as given.
 fn feeder_both_extremes(alignments: &str) -> Plan {
-    let tmp = tempfile::tempdir().unwrap();
-    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
-    let read = |name: &str| std::fs::read_to_string(root.join(name)).unwrap();
-    std::fs::create_dir_all(tmp.path().join("switches")).unwrap();
-    std::fs::write(
-        tmp.path().join("switches/tarn-40.yaml"),
-        read("switches/tarn-40.yaml"),
+    edited_plan(
+        (
+            "belt-feeder.yaml",
+            "wren-hb24.yaml",
+            "switches/tarn-40.yaml",
+        ),
+        |t| {
+            t.replacen("alignments: [edge, centre]", alignments, 1)
+                .replacen(
+                    "    fpu: true\n",
+                    "    fpu: true\n    update_divider: { max: 4, each_extreme: true }\n",
+                    1,
+                )
+                + "  current_sensing: { settle_time: \"0.6 us\", sample_time: \"0.3 us\", place: phase }\n"
+        },
+        |t| t + "  current_loop: { rate: \"80 kHz\" }\n",
     )
-    .unwrap();
-    let board = read("wren-hb24.yaml")
-        .replacen("alignments: [edge, centre]", alignments, 1)
-        .replacen(
-            "    fpu: true\n",
-            "    fpu: true\n    update_divider: { max: 4, each_extreme: true }\n",
-            1,
-        )
-        + "  current_sensing: { settle_time: \"0.6 us\", sample_time: \"0.3 us\", place: phase }\n";
-    let design = read("belt-feeder.yaml") + "  current_loop: { rate: \"80 kHz\" }\n";
-    std::fs::write(tmp.path().join("wren-hb24.yaml"), board).unwrap();
-    std::fs::write(tmp.path().join("belt-feeder.yaml"), design).unwrap();
-    let d = load_design(Origin::Disk(tmp.path().join("belt-feeder.yaml"))).unwrap();
-    let ev = Evaluator::new(&d);
-    let sol = solve::solve(&ev, objective("least-loss"));
-    plan::build(&d, &ev, &sol, None).unwrap()
 }
 
 /// Asked for a loop above the PWM rate where the board can sample at both extremes: a

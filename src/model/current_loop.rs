@@ -318,7 +318,7 @@ fn rate_finding(
     half: bool,
 ) -> Option<LoopFinding> {
     let most = if half { 2.0 * pwm_hz } else { pwm_hz };
-    let a = asked.filter(|&a| a > most * 1.0005)?;
+    let a = asked.filter(|&a| a > most * cl::RATE_ABOVE)?;
     let each_extreme = d
         .board
         .timer

@@ -436,7 +436,9 @@ fn half_period_rate_hz(
     let fits = each_extreme
         && place == ShuntPlaceSpec::Phase
         && stage != sampling::BrushedStage::HBridgeUnipolar;
-    fits.then_some(())?;
+    if !fits {
+        return None;
+    }
     Some(d.spec.current_loop.as_ref()?.rate.as_ref()?.si)
 }
 

@@ -22,6 +22,7 @@ use std::cmp::Ordering;
 use serde::Serialize;
 
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase, ThreePhaseModulation};
+use crate::model::physics::current_loop::RATE_ABOVE;
 use crate::model::physics::params::{HBridgeModulation, Topology};
 use crate::model::physics::sampling::{self, BrushedSampling, SamplingTimer, SenseState};
 use crate::model::physics::three_phase::dc_link::{self, DcLinkTiming};
@@ -583,11 +584,11 @@ impl Evaluator {
 
     /// Whether a brushed loop samples and updates every half period at this setting: the
     /// board can (`BrushedSensing::half_period_rate_hz`), the setting is centre-aligned and
-    /// the asked rate is above its PWM rate (by more than the rate's rounding, 0.05 %, own
-    /// bound).
+    /// the asked rate is above its PWM rate (by more than the rate's rounding,
+    /// `current_loop::RATE_ABOVE`).
     pub fn samples_each_half_period(&self, s: &PwmSetting) -> bool {
         let asked = self.sensing.and_then(|b| b.half_period_rate_hz);
-        s.alignment == Alignment::Centre && asked.is_some_and(|r| r > s.frequency_hz * 1.0005)
+        s.alignment == Alignment::Centre && asked.is_some_and(|r| r > s.frequency_hz * RATE_ABOVE)
     }
 
     /// The timer setting and sensing chain a brushed stage's sampling window

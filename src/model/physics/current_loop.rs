@@ -36,6 +36,10 @@
 
 use std::f64::consts::PI;
 
+/// A loop rate asked for counts as above a rate only beyond this factor of it, so the rate's
+/// own rounding (a PWM rate quantised to the timer) does not decide (own bound: 0.05 %).
+pub const RATE_ABOVE: f64 = 1.0005;
+
 /// The current loop's timing.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LoopTiming {

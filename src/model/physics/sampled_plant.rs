@@ -192,17 +192,28 @@ pub fn sample_bias_a(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> f64 {
     y - q / w.pwm_period_s
 }
 
-/// The discrete plant at compare duty `d` carrying the mean current `i_a` (the back-EMF set
-/// so that the averaged circuit carries it: `E = v̄(d) − R·I`). `None` where the pattern
-/// gives no voltage per unit duty.
-pub fn switched_plant(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> Option<DiscretePlant> {
-    let h = 1e-6;
+/// The duty step of the central differences.
+const DUTY_STEP: f64 = 1e-6;
+
+/// `(d, K, E)`: the duty kept two steps inside 0..1, the mean load voltage per unit duty and
+/// the back-EMF at which the averaged circuit carries `i_a` (`E = v̄(d) − R·I`); `None`
+/// where the pattern gives no voltage per unit duty or the plant has no inductance.
+fn operating_point(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> Option<(f64, f64, f64)> {
+    let h = DUTY_STEP;
     let d = d.clamp(2.0 * h, 1.0 - 2.0 * h);
     let k = (mean_v(w, d + h) - mean_v(w, d - h)) / (2.0 * h);
     if k.is_nan() || k.abs() == 0.0 || p.l_h <= 0.0 {
         return None;
     }
-    let e_v = mean_v(w, d) - p.r_ohm * i_a;
+    Some((d, k, mean_v(w, d) - p.r_ohm * i_a))
+}
+
+/// The discrete plant at compare duty `d` carrying the mean current `i_a` (the back-EMF set
+/// so that the averaged circuit carries it: `E = v̄(d) − R·I`). `None` where the pattern
+/// gives no voltage per unit duty.
+pub fn switched_plant(p: &RlPlant, w: &SwitchedPeriod, d: f64, i_a: f64) -> Option<DiscretePlant> {
+    let (d, k, e_v) = operating_point(p, w, d, i_a)?;
+    let h = DUTY_STEP;
     // The periodic steady state: x = F(x, d), F affine in x with slope a.
     let (x0, a, c) = steady_state(p, w, e_v, d);
     let (xp, yp) = control_period(p, w, e_v, x0, d + h);
@@ -257,20 +268,15 @@ pub fn half_period_plant(
     d: f64,
     i_a: f64,
 ) -> Option<DiscretePlant> {
-    if w.carrier != Carrier::Centre || p.l_h <= 0.0 {
+    if w.carrier != Carrier::Centre {
         return None;
     }
     let single = SwitchedPeriod {
         periods_per_update: 1,
         ..*w
     };
-    let h = 1e-6;
-    let d = d.clamp(2.0 * h, 1.0 - 2.0 * h);
-    let k = (mean_v(&single, d + h) - mean_v(&single, d - h)) / (2.0 * h);
-    if k.is_nan() || k.abs() == 0.0 {
-        return None;
-    }
-    let e_v = mean_v(&single, d) - p.r_ohm * i_a;
+    let (d, k, e_v) = operating_point(p, &single, d, i_a)?;
+    let h = DUTY_STEP;
     let (x_bottom, _, _) = steady_state(p, &single, e_v, d);
     let x_top = half_period(p, &single, e_v, x_bottom, d, false).0;
     let (mut a, mut b, mut c, mut e) = (0.0, 0.0, 0.0, 0.0);
