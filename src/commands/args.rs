@@ -3,7 +3,7 @@
 
 use clap::{Parser, Subcommand};
 
-use super::{check, compare, explain, new, plan, shell, spread, sweep};
+use super::{check, compare, explain, new, plan, schema, shell, spread, sweep};
 
 #[derive(Debug, Parser)]
 #[command(
@@ -39,6 +39,9 @@ pub enum Command {
     /// What a finding code means and where its rule comes from (without a
     /// code, the list of codes).
     Explain(explain::ExplainArgs),
+    /// The JSON Schema of the input files, for YAML editors: one kind's to
+    /// standard output, or all three into a folder with --out.
+    Schema(schema::SchemaArgs),
     /// Write the shell completion script (bash, zsh, fish, elvish,
     /// powershell) to standard output.
     Completions(shell::CompletionsArgs),

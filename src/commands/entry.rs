@@ -8,7 +8,7 @@ use clap::{CommandFactory, Parser};
 
 use super::args::{Args, Command};
 use super::failure::Failure;
-use super::{boards, check, compare, explain, new, plan, shell, spread, sweep};
+use super::{boards, check, compare, explain, new, plan, schema, shell, spread, sweep};
 
 /// Parse the process arguments, run, print, and return the exit status.
 pub fn main() -> ExitCode {
@@ -51,6 +51,7 @@ pub fn run(args: Args, out: &mut dyn Write, err: &mut dyn Write) -> Result<u8, F
         Command::Spread(a) => spread::run(a, out, err),
         Command::Boards => boards::run(out),
         Command::Explain(a) => explain::run(a, out),
+        Command::Schema(a) => schema::run(a, out),
         Command::Completions(a) => shell::completions(a, Args::command(), out),
         Command::Manual(a) => shell::manual(a, Args::command(), out),
     }

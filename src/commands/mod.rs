@@ -5,7 +5,7 @@
 //! (infeasible / out of date), never as a panic.
 //!
 //! A file per command (`plan`, `check`, `sweep`, `compare`, `spread`, `new`,
-//! `boards`, `explain`; `completions` and `manual` in `shell`); the shared parts: arguments ([`args`]), failures
+//! `boards`, `explain`, `schema`; `completions` and `manual` in `shell`); the shared parts: arguments ([`args`]), failures
 //! ([`failure`]), solving a design ([`solved`]) and the output folder's
 //! writes and lock ([`files`]). This file only dispatches.
 
@@ -27,6 +27,8 @@ pub mod files;
 pub mod new;
 #[cfg(feature = "cli")]
 pub mod plan;
+#[cfg(feature = "cli")]
+pub mod schema;
 #[cfg(feature = "cli")]
 pub mod shell;
 #[cfg_attr(not(feature = "cli"), allow(dead_code))]

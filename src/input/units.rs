@@ -621,6 +621,46 @@ fn starts_numeric(unit: &str) -> bool {
     unit.starts_with(|c: char| c.is_ascii_digit() || c == '.' || c == ',')
 }
 
+/// The text `parse_quantity` accepts for `dim`, as a regular expression
+/// (the ECMA-262 subset JSON Schema's `pattern` uses): an optional sign, the
+/// number `number_len` reads, optional spaces, one spelling of a unit of that
+/// dimension with any prefix its row allows. Built from `UNITS`, so the
+/// schema follows the parser; `tests/schema.rs` checks every spelling and
+/// the refusals against both.
+pub fn schema_pattern(dim: Dimension) -> String {
+    let mut spellings: Vec<String> = UNITS
+        .iter()
+        .filter(|d| d.dim == dim)
+        .flat_map(|d| {
+            std::iter::once(d.spelling.to_string()).chain(
+                d.prefixes
+                    .iter()
+                    .map(move |p| format!("{}{}", p.symbol, d.spelling)),
+            )
+        })
+        .collect();
+    // Longest first, so an alternation never stops at a shorter spelling.
+    spellings.sort_by(|a, b| b.len().cmp(&a.len()).then(a.cmp(b)));
+    spellings.dedup();
+    let units: Vec<String> = spellings.iter().map(|u| regex_escape(u)).collect();
+    format!(
+        "^\\s*[-+\u{2212}]?(?:[0-9]+\\.?[0-9]*|\\.[0-9]+)(?:[eE][-+]?[0-9]+)?\\s*(?:{})\\s*$",
+        units.join("|")
+    )
+}
+
+/// `text` with the regular-expression metacharacters escaped.
+fn regex_escape(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for c in text.chars() {
+        if "\\^$.|?*+()[]{}".contains(c) {
+            out.push('\\');
+        }
+        out.push(c);
+    }
+    out
+}
+
 /// Parses `text` as a quantity of dimension `dim`; returns the SI value
 /// (°C for `Temperature`, K for `TemperatureDifference`, a fraction for `Ratio`).
 pub fn parse_quantity(text: &str, dim: Dimension) -> Result<f64, UnitError> {

@@ -9,6 +9,8 @@
 //! [`crate::input::design`], not here.
 
 pub mod quantity;
+#[cfg(feature = "schema")]
+pub mod schema;
 
 use serde::Deserialize;
 
@@ -22,6 +24,7 @@ pub use quantity::{
 
 /// A switch file: `switch: { ... }`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct SwitchFile {
     pub switch: SwitchSpec,
@@ -29,8 +32,10 @@ pub struct SwitchFile {
 
 /// One N-channel MOSFET as its datasheet describes it.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct SwitchSpec {
+    #[serde(deserialize_with = "quantity::text")]
     pub name: String,
     /// Drain-source breakdown voltage.
     pub v_dss: Q<Volt>,
@@ -76,6 +81,7 @@ pub struct SwitchSpec {
 
 /// A pulsed current rating.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct PulsedCurrentSpec {
     pub value: Q<Ampere>,
@@ -83,6 +89,7 @@ pub struct PulsedCurrentSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct RdsOnSpec {
     pub typ: Q<Ohm>,
@@ -96,6 +103,7 @@ pub struct RdsOnSpec {
 
 /// R_ds(on) (typical) at one gate-source voltage.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct RdsOnPointSpec {
     pub typ: Q<Ohm>,
@@ -105,6 +113,7 @@ pub struct RdsOnPointSpec {
 /// Normalised R_ds(on) curve points `[temperature, factor]` (1.0 at 25 °C),
 /// or a per-kelvin coefficient.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum RdsOnTemperatureSpec {
     Points(Vec<(Q<Celsius>, f64)>),
@@ -112,6 +121,7 @@ pub enum RdsOnTemperatureSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct GateChargeSpec {
     pub typ: Q<Coulomb>,
@@ -132,6 +142,7 @@ pub struct GateChargeSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct CapacitanceSpec {
     /// Drain-source voltage the three capacitances are given at.
@@ -145,6 +156,7 @@ pub struct CapacitanceSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct EossSpec {
     pub value: Q<Joule>,
@@ -152,6 +164,7 @@ pub struct EossSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct BodyDiodeSpec {
     /// Forward voltage.
@@ -174,6 +187,7 @@ pub struct BodyDiodeSpec {
 
 /// Conditions under which a datasheet states Q_rr.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct RecoveryTestSpec {
     /// Forward current before the commutation.
@@ -188,14 +202,17 @@ pub struct RecoveryTestSpec {
 
 /// A board file: `board: { ... }`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct BoardFile {
     pub board: BoardSpec,
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct BoardSpec {
+    #[serde(deserialize_with = "quantity::text")]
     pub name: String,
     pub timer: TimerSpec,
     pub stage: StageSpec,
@@ -212,6 +229,7 @@ pub struct BoardSpec {
 /// The board's over-current path: shunt → amplifier → comparator → the
 /// timer's fault input (filter, blanking) → the outputs.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct OvercurrentSpec {
     pub shunt: ShuntSpec,
@@ -230,6 +248,7 @@ pub struct OvercurrentSpec {
 
 /// The current-sense resistor.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct ShuntSpec {
     pub resistance: Q<Ohm>,
@@ -244,6 +263,7 @@ pub struct ShuntSpec {
 
 /// Where the shunt sits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum ShuntPlaceSpec {
     SupplyReturn,
@@ -253,6 +273,7 @@ pub enum ShuntPlaceSpec {
 
 /// The sense amplifier: V_out = gain·I·R_shunt + offset.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct SenseAmplifierSpec {
     /// Voltage gain (a plain number, V/V).
@@ -270,6 +291,7 @@ pub struct SenseAmplifierSpec {
 
 /// The fault comparator.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct FaultComparatorSpec {
     /// Its threshold: `{ programmable: { full_scale, code_bits } }` (a
@@ -285,6 +307,7 @@ pub struct FaultComparatorSpec {
 
 /// A comparator threshold.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum ThresholdSpec {
     Programmable { full_scale: Q<Volt>, code_bits: u32 },
@@ -294,6 +317,7 @@ pub enum ThresholdSpec {
 /// The fault input's digital filter: a fault passes after `N` consecutive
 /// samples at the chosen clock.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct FaultFilterSpec {
     /// Sample clocks offered.
@@ -305,6 +329,7 @@ pub struct FaultFilterSpec {
 /// The fault input's blanking after each turn-on, in ticks of the timer
 /// clock divided by `clock_divider`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct BlankingSpec {
     pub clock_divider: u32,
@@ -313,6 +338,7 @@ pub struct BlankingSpec {
 
 /// What the timer does when the fault input trips.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum FaultResponseSpec {
     /// The outputs turn off until the next period starts.
@@ -322,6 +348,7 @@ pub enum FaultResponseSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct TimerSpec {
     /// Timer input clock (before the prescaler).
@@ -343,6 +370,7 @@ pub struct TimerSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum PrescalerSpec {
     /// Any divider from `min` to `max`; the register holds divider − 1.
@@ -352,6 +380,7 @@ pub enum PrescalerSpec {
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "snake_case")]
 pub enum AlignmentSpec {
     Edge,
@@ -359,6 +388,7 @@ pub enum AlignmentSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum DeadTimeSpec {
     /// No dead-time generator: complementary outputs need external delay.
@@ -386,6 +416,7 @@ pub enum DeadTimeSpec {
 /// Codes `first_code .. first_code + count` give
 /// `(base + code − first_code) · step` dead-time ticks.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct DeadTimeSegmentSpec {
     pub first_code: u32,
@@ -395,6 +426,7 @@ pub struct DeadTimeSegmentSpec {
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum TopologySpec {
     LowSide,
@@ -407,6 +439,7 @@ pub enum TopologySpec {
 /// `three-phase` bridge `sinusoidal: { zero_sequence: none | min-max }` or
 /// `six-step: { chop: high-side | low-side | complementary }`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub enum ModulationSpec {
     Bipolar,
@@ -424,6 +457,7 @@ pub enum ModulationSpec {
 
 /// Zero-sequence signal added to the three sinusoidal references.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum ZeroSequenceSpec {
     /// Plain sinusoidal PWM (linear up to m = 1).
@@ -435,6 +469,7 @@ pub enum ZeroSequenceSpec {
 
 /// Which switch chops in six-step.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum ChopSpec {
     HighSide,
@@ -447,6 +482,7 @@ pub enum ChopSpec {
 /// timer; a brushed stage's shunt, sampled in the middle of the switching
 /// state it sees the motor current in.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct CurrentSensingSpec {
     /// Time the shunt amplifier needs after the sensed state begins.
@@ -466,6 +502,7 @@ pub struct CurrentSensingSpec {
 
 /// How a three-phase bridge's two sampled currents are converted.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum ConversionSpec {
     Simultaneous,
@@ -474,6 +511,7 @@ pub enum ConversionSpec {
 
 /// The ADC reading the current: `bits` over 0 to `full_scale`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct AdcSpec {
     pub bits: u32,
@@ -483,6 +521,7 @@ pub struct AdcSpec {
 /// The timer's update-event divider: the compares written take effect at
 /// every `n`-th PWM period's update event, `1 ≤ n ≤ max`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct UpdateDividerSpec {
     pub max: u32,
@@ -493,6 +532,7 @@ pub struct UpdateDividerSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct StageSpec {
     pub topology: TopologySpec,
@@ -540,6 +580,7 @@ impl<'de> Deserialize<'de> for SwitchRef {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct DiodeSpec {
     pub v_f: Q<Volt>,
@@ -552,6 +593,7 @@ pub struct DiodeSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct GateDriverSpec {
     /// Gate drive voltage.
@@ -572,6 +614,7 @@ pub struct GateDriverSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum HighSideSupplySpec {
     Bootstrap {
@@ -585,6 +628,7 @@ pub enum HighSideSupplySpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct ThermalSpec {
     /// Junction-to-ambient for each switch as mounted (overrides the chain).
@@ -602,16 +646,20 @@ pub struct ThermalSpec {
 
 /// A design file: `design: { ... }`.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct DesignFile {
     pub design: DesignSpec,
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct DesignSpec {
+    #[serde(deserialize_with = "quantity::text")]
     pub name: String,
     /// A board file path relative to this file, or `bundled:NAME`.
+    #[serde(deserialize_with = "quantity::text")]
     pub board: String,
     pub supply: SupplySpec,
     pub motor: MotorSpec,
@@ -638,6 +686,7 @@ pub struct DesignSpec {
 
 /// The current loop the firmware closes on the sampled current.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct CurrentLoopSpec {
     /// Control updates per second asked for (default: one per PWM period).
@@ -650,6 +699,7 @@ pub struct CurrentLoopSpec {
 
 /// Integer gains: `gain·2^fraction_bits` in compare counts per ADC code.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct FixedPointSpec {
     pub fraction_bits: u32,
@@ -657,6 +707,7 @@ pub struct FixedPointSpec {
 
 /// The speed range and how the load current follows the speed.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct OperatingRangeSpec {
     pub speed: SpeedSpanSpec,
@@ -675,6 +726,7 @@ pub struct OperatingRangeSpec {
 /// One point of the time profile: a speed of the range (0 for standstill
 /// holding) and its share of the operating time.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct ProfilePointSpec {
     pub speed: Q<RadPerSecond>,
@@ -683,6 +735,7 @@ pub struct ProfilePointSpec {
 
 /// The drive holding its load at zero speed.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct StandstillSpec {
     /// The current held (a three-phase bridge: the phase-current peak, or
@@ -692,6 +745,7 @@ pub struct StandstillSpec {
 
 /// Lowest and highest operating speed.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct SpeedSpanSpec {
     pub min: Q<RadPerSecond>,
@@ -700,6 +754,7 @@ pub struct SpeedSpanSpec {
 
 /// The load line: the motor current at each speed of the range.
 #[derive(Debug, Clone, Default, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 pub enum LoadLineSpec {
     /// The rated current at every speed.
@@ -713,6 +768,7 @@ pub enum LoadLineSpec {
 
 /// One point of a load-line table.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct LoadPointSpec {
     pub speed: Q<RadPerSecond>,
@@ -721,6 +777,7 @@ pub struct LoadPointSpec {
 
 /// What the design asks of the current limit.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct CurrentLimitSpec {
     /// A current the drive must deliver in short bursts (start-up,
@@ -735,6 +792,7 @@ pub struct CurrentLimitSpec {
 
 /// A burst current and how long it lasts.
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct BurstSpec {
     pub current: Q<Ampere>,
@@ -744,6 +802,7 @@ pub struct BurstSpec {
 /// Spreads of the parts the switch file does not describe, each written as
 /// ± a share of nominal (`"10 %"`); a missing one does not spread.
 #[derive(Debug, Clone, Default, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct TolerancesSpec {
     /// How the Monte Carlo draws a parameter between its limits.
@@ -761,6 +820,7 @@ pub struct TolerancesSpec {
 
 /// How a spread parameter is drawn between its limits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "snake_case")]
 pub enum DistributionSpec {
     /// Uniform between the limits.
@@ -771,6 +831,7 @@ pub enum DistributionSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct SupplySpec {
     pub nominal: Q<Volt>,
@@ -779,6 +840,7 @@ pub struct SupplySpec {
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum MotorKind {
     BrushedDc,
@@ -788,6 +850,7 @@ pub enum MotorKind {
 
 /// Shape of a brushless motor's phase back-EMF.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum BackEmfShapeSpec {
     #[default]
@@ -796,6 +859,7 @@ pub enum BackEmfShapeSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct MotorSpec {
     pub kind: MotorKind,
@@ -828,6 +892,7 @@ pub struct MotorSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct AmbientSpec {
     pub min: Q<Celsius>,
@@ -835,6 +900,7 @@ pub struct AmbientSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct ConstraintsSpec {
     #[serde(default)]
@@ -856,6 +922,7 @@ pub struct ConstraintsSpec {
 
 /// What a worst-case failure does to the plan (`constraints.worst_case`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum WorstCasePolicySpec {
     /// The plan is infeasible; the failing constraint and corner are named.
@@ -866,6 +933,7 @@ pub enum WorstCasePolicySpec {
 }
 
 #[derive(Debug, Clone, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum AudibleSpec {
     /// No significant ripple line below the hearing limit (default 20 kHz).
@@ -880,6 +948,7 @@ pub enum AudibleSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields, rename_all = "snake_case")]
 pub enum JunctionLimitSpec {
     /// Hottest junction allowed.
@@ -889,6 +958,7 @@ pub enum JunctionLimitSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct FrequencyBandSpec {
     pub min: Option<Q<Hertz>>,
@@ -896,6 +966,7 @@ pub struct FrequencyBandSpec {
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(rename_all = "kebab-case")]
 pub enum ObjectiveSpec {
     /// Least total loss: switches, diodes, gate drive and ripple copper loss.
@@ -912,6 +983,7 @@ pub enum ObjectiveSpec {
 }
 
 #[derive(Debug, Clone, Deserialize)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
 #[serde(deny_unknown_fields)]
 pub struct OutputsSpec {
     #[serde(default = "yes")]

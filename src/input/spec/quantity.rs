@@ -263,3 +263,22 @@ impl<'de, A: Dim, B: Dim> Deserialize<'de> for Either2<A, B> {
         d.deserialize_any(EitherVisitor(PhantomData))
     }
 }
+
+/// A text field (a name, a file reference): a YAML string. A plain number or
+/// `true`/`false` is refused rather than silently turned into text, so the
+/// parser and the JSON Schema (`type: string`) agree; quoted, it is text.
+pub fn text<'de, D: Deserializer<'de>>(d: D) -> Result<String, D::Error> {
+    struct TextVisitor;
+    impl<'de> Visitor<'de> for TextVisitor {
+        type Value = String;
+
+        fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+            f.write_str("a text (a number or true/false counts as text only in quotes)")
+        }
+
+        fn visit_str<E: de::Error>(self, v: &str) -> Result<String, E> {
+            Ok(v.to_string())
+        }
+    }
+    d.deserialize_any(TextVisitor)
+}
