@@ -264,7 +264,7 @@ fn motor_inductance_tolerance(d: &Design) -> f64 {
 
 /// The highest current of normal operation: each checked case's peak (the
 /// load plus half the ripple; three-phase: the phase-current peak or the
-/// DC-link current plus half the ripple), the burst current in place of the
+/// six-step line current plus half the ripple), the burst current in place of the
 /// rated one, and the ripple raised by the motor inductance's tolerance
 /// (ripple ∝ 1/L, common practice for a PWM-driven R-L load).
 fn operating_peak(d: &Design, c: &Candidate) -> (f64, String) {

@@ -753,9 +753,13 @@ pub struct ThreePhaseCase {
     /// Highest duty of the leg the current sampling depends on.
     pub sampled_leg_duty_max: f64,
     pub electrical_frequency_hz: f64,
-    /// Rated current as the model takes it: phase peak (sinusoidal) or
-    /// DC-link line current (six-step).
+    /// Rated current as the model takes it: the phase-current peak (sinusoidal) or the line
+    /// current, the mean current in the two conducting phases (six-step).
     pub current_a: f64,
+    /// Mean current drawn from the DC link, A (the other current; `#[serde(default)]` reads
+    /// plans written before it).
+    #[serde(default)]
+    pub dc_link_mean_a: f64,
     /// Each high-side and each low-side switch, W.
     pub high_side_w: f64,
     pub low_side_w: f64,
@@ -1510,6 +1514,7 @@ impl Evaluator {
             sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(m),
             electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
             current_a: i_pk,
+            dc_link_mean_a: three_phase::sinusoidal_dc_link_mean_a(m, i_pk, point.power_factor),
             high_side_w: 0.0,
             low_side_w: 0.0,
             high_side_junction_c: None,
@@ -1734,6 +1739,7 @@ impl Evaluator {
             sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(d),
             electrical_frequency_hz: f_e,
             current_a: case.load_current_a,
+            dc_link_mean_a: three_phase::six_step_dc_link_mean_a(&w, d),
             high_side_w: 0.0,
             low_side_w: 0.0,
             high_side_junction_c: None,

@@ -86,6 +86,21 @@ pub struct ThreePhaseLiterals {
     pub dc_link: bool,
     pub dc_link_min_vector: String,
     pub dc_link_lead: String,
+    /// Six-step: emit the commutation table.
+    pub six_step: bool,
+    /// Each direction's six sectors, phase indices (0 = A, 1 = B, 2 = C) as `0, 0, 1, 1, 2, 2`.
+    pub six_step_positive_forward: String,
+    pub six_step_negative_forward: String,
+    pub six_step_floating_forward: String,
+    pub six_step_positive_reverse: String,
+    pub six_step_negative_reverse: String,
+    pub six_step_floating_reverse: String,
+    /// The negative phase's low side chops (else the positive phase's high side).
+    pub six_step_chop_low_side: bool,
+    /// The chopping leg's other switch runs complementarily.
+    pub six_step_complementary: bool,
+    /// The table and the chopping explained, one line each.
+    pub six_step_lines: Vec<String>,
 }
 
 /// The current limit's values as they go into code and text (zeros and

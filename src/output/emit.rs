@@ -645,12 +645,67 @@ fn three_phase_summary(tp: &crate::output::plan::ThreePhaseOut) -> String {
         _ => String::new(),
     };
     format!(
-        "{how}; {point} at the rated case ({} {}); electrical frequency {}; channels {} share the period, the compare limits and the dead time",
+        "{how}; {point} at the rated case ({} {}, {} mean from the DC link); electrical frequency {}; channels {} share the period, the compare limits and the dead time",
         q(tp.rated.current_a, Dimension::Current, 3),
         tp.current_meaning,
+        q(tp.rated.dc_link_mean_a, Dimension::Current, 3),
         q(tp.electrical_frequency_hz, Dimension::Frequency, 4),
         tp.channels.join(", ")
     )
+}
+
+/// The six-step commutation table as code literals and rationale lines.
+fn six_step_literals(
+    out: &mut ThreePhaseLiterals,
+    table: &crate::output::plan::SixStepTable,
+    chop: Option<&str>,
+) {
+    use crate::output::plan::SectorPhases;
+    let index = |p: &str| match p {
+        "A" => "0",
+        "B" => "1",
+        _ => "2",
+    };
+    let row = |forward: bool, pick: fn(&SectorPhases) -> &str| {
+        table
+            .sectors
+            .iter()
+            .map(|r| index(pick(if forward { &r.forward } else { &r.reverse })))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    out.six_step = true;
+    out.six_step_positive_forward = row(true, |p| &p.positive);
+    out.six_step_negative_forward = row(true, |p| &p.negative);
+    out.six_step_floating_forward = row(true, |p| &p.floating);
+    out.six_step_positive_reverse = row(false, |p| &p.positive);
+    out.six_step_negative_reverse = row(false, |p| &p.negative);
+    out.six_step_floating_reverse = row(false, |p| &p.floating);
+    out.six_step_chop_low_side = chop == Some("low-side");
+    out.six_step_complementary = chop == Some("complementary");
+    let mut lines = vec![
+        "Sector k (0 to 5) covers the electrical angle 30° + 60°·k to 90° + 60°·k of phase A's back-EMF (e_a = E·sin θ, or the trapezoid through zero at θ = 0; B and C lag by 120° and 240°). Forward runs A → B → C; reverse swaps the positive and negative phases.".to_string(),
+        String::new(),
+        "| sector | θ from | θ to | forward + | forward − | forward open | reverse + | reverse − | reverse open |".into(),
+        "|---:|---:|---:|---|---|---|---|---|---|".into(),
+    ];
+    for r in &table.sectors {
+        lines.push(format!(
+            "| {} | {}° | {}° | {} | {} | {} | {} | {} | {} |",
+            r.sector,
+            r.from_deg,
+            r.to_deg,
+            r.forward.positive,
+            r.forward.negative,
+            r.forward.floating,
+            r.reverse.positive,
+            r.reverse.negative,
+            r.reverse.floating
+        ));
+    }
+    lines.push(String::new());
+    lines.push(format!("In each sector {}.", table.chopping));
+    out.six_step_lines = lines;
 }
 
 /// The three-phase literals of a plan (defaults for the other stages).
@@ -674,7 +729,11 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
         dc_link: false,
         dc_link_min_vector: "0".into(),
         dc_link_lead: "0".into(),
+        ..ThreePhaseLiterals::default()
     };
+    if let Some(table) = &tp.six_step_table {
+        six_step_literals(&mut out, table, tp.chop.as_deref());
+    }
     if let Some(d) = &tp.dc_link {
         out.dc_link = true;
         out.dc_link_min_vector = d.min_vector_counts.to_string();

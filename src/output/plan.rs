@@ -151,7 +151,7 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
                 Chop::LowSide => "low-side",
                 Chop::Complementary => "complementary",
             }),
-            "DC-link (line) current",
+            "line current (the mean in the two conducting phases)",
         ),
     };
     let period_s = 1.0 / c.setting.frequency_hz;
@@ -183,6 +183,10 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
             })
             .collect(),
         dc_link: c.dc_link.map(|k| dc_link_plan(tp, c, &k)),
+        six_step_table: match tp.modulation {
+            M::SixStep { chop } => Some(six_step_table(chop)),
+            M::Sinusoidal { .. } => None,
+        },
         sampling: c.sampling.map(|w| SamplingPlan {
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: tp.sample_s,
@@ -486,6 +490,73 @@ pub struct ThreePhaseOut {
     /// One shunt in the DC link read in two active vectors (only with one).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dc_link: Option<DcLinkPlan>,
+    /// Six-step: the commutation table (only under six-step).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub six_step_table: Option<SixStepTable>,
+}
+
+/// Six-step commutation (`physics::three_phase::sectors`): per sector of phase A's
+/// back-EMF angle and per direction, the phases on each rail and the floating one.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SixStepTable {
+    /// Which switch chops at the PWM duty and which is held on, in words.
+    pub chopping: String,
+    pub sectors: Vec<SectorRow>,
+}
+
+/// One 60° sector.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SectorRow {
+    pub sector: u32,
+    /// Electrical angle of phase A's back-EMF where the sector starts and ends, degrees.
+    pub from_deg: f64,
+    pub to_deg: f64,
+    pub forward: SectorPhases,
+    pub reverse: SectorPhases,
+}
+
+/// The phases of one sector: `A`, `B` or `C`.
+#[derive(Debug, Clone, Serialize, Deserialize, PartialEq)]
+pub struct SectorPhases {
+    pub positive: String,
+    pub negative: String,
+    pub floating: String,
+}
+
+/// The commutation table of a six-step plan.
+fn six_step_table(chop: crate::model::physics::three_phase::Chop) -> SixStepTable {
+    use crate::model::physics::three_phase::Chop;
+    use crate::model::physics::three_phase::sectors::{
+        PHASES, SECTORS, sector_drive, sector_start_deg,
+    };
+    let phases = |d: crate::model::physics::three_phase::sectors::SectorDrive| SectorPhases {
+        positive: PHASES[d.positive].into(),
+        negative: PHASES[d.negative].into(),
+        floating: PHASES[d.floating].into(),
+    };
+    let chopping = match chop {
+        Chop::HighSide => {
+            "the positive phase's high side switches at the PWM duty (its low side stays off; the off-time current freewheels in that low side's body diode); the negative phase's low side is held on"
+        }
+        Chop::LowSide => {
+            "the negative phase's low side switches at the PWM duty (its high side stays off; the off-time current freewheels in that high side's body diode); the positive phase's high side is held on"
+        }
+        Chop::Complementary => {
+            "the positive phase's high side switches at the PWM duty and its low side complementarily, with the dead time; the negative phase's low side is held on"
+        }
+    };
+    SixStepTable {
+        chopping: format!("{chopping}; both switches of the floating phase are off"),
+        sectors: (0..SECTORS)
+            .map(|k| SectorRow {
+                sector: k as u32,
+                from_deg: sector_start_deg(k),
+                to_deg: (sector_start_deg(k) + 60.0) % 360.0,
+                forward: phases(sector_drive(k, true)),
+                reverse: phases(sector_drive(k, false)),
+            })
+            .collect(),
+    }
 }
 
 /// A three-phase plan's single DC-link shunt (`physics::three_phase::dc_link`).

@@ -739,7 +739,7 @@ pub struct ProfilePointSpec {
 #[serde(deny_unknown_fields)]
 pub struct StandstillSpec {
     /// The current held (a three-phase bridge: the phase-current peak, or
-    /// the DC-link current in six-step, as `rated_current`).
+    /// the line current in six-step, as `rated_current`).
     pub current: Q<Ampere>,
 }
 
@@ -880,8 +880,9 @@ pub struct MotorSpec {
     pub rated_voltage: Option<Q<Volt>>,
     pub no_load_speed: Option<Q<RadPerSecond>>,
     /// Continuous current at the rated load. Brushless: the phase-current
-    /// peak under sinusoidal modulation, the DC-link (line) current under
-    /// six-step.
+    /// peak under sinusoidal modulation; under six-step the line current,
+    /// the mean current in the two conducting phases (not the DC-link mean,
+    /// which is about the chopping duty times it).
     pub rated_current: Q<Ampere>,
     /// Speed at the rated load.
     pub operating_speed: Q<RadPerSecond>,

@@ -188,13 +188,22 @@ impl Segment {
 
     /// `∫ i dt` over the interval (A·s): `i_start·d + (i_inf − i_start)·τ·h(d/τ)` (closed form).
     fn integral_a_s(&self) -> f64 {
+        self.integral_over_a_s(self.duration_s())
+    }
+
+    /// `∫ i dt` over the interval's first `t_s` (clamped into it), A·s: the closed form above
+    /// with `t` for `d`.
+    pub fn integral_over_a_s(&self, t_s: f64) -> f64 {
         match *self {
             Segment::Exponential {
                 duration_s,
                 i_start_a,
                 i_inf_a,
                 tau_s,
-            } => i_start_a * duration_s + (i_inf_a - i_start_a) * tau_s * h_int(duration_s / tau_s),
+            } => {
+                let t = t_s.clamp(0.0, duration_s);
+                i_start_a * t + (i_inf_a - i_start_a) * tau_s * h_int(t / tau_s)
+            }
             Segment::Zero { .. } => 0.0,
         }
     }

@@ -46,6 +46,7 @@ pub mod loss_lines;
 pub mod pattern;
 pub mod phase_ripple;
 pub mod sampling;
+pub mod sectors;
 pub mod sinusoidal;
 pub mod six_step;
 
@@ -842,5 +843,88 @@ mod tests {
         );
         let r = sinusoidal_ripple(&st, 0.0, 0.5, ZeroSequence::None, 72, 20e3, 10);
         assert!(r.is_err());
+    }
+
+    /// The DC-link means against independent numeric integrals: six-step, Simpson's rule over
+    /// the chopping switch's on-time of the exact waveform (continuous and discontinuous);
+    /// sinusoidal, the period mean of Σ d_k·i_k over 3600 angles (none and min-max), which
+    /// the power-balance formula must equal.
+    #[test]
+    fn dc_link_means_against_numeric_integrals() {
+        let (sw, drv) = (example_switch(), example_drive());
+        let st = stage(&sw, &drv);
+        let motor = MotorParams {
+            r_phase_ohm: 0.1,
+            l_phase_h: 100e-6,
+            ke_v_s_per_rad: 0.01,
+            pole_pairs: 4,
+            back_emf_shape: BackEmfShape::Trapezoidal,
+        };
+        let we = motor.electrical_rad_s(3000.0);
+        for (i_a, chop) in [
+            (10.0, Chop::HighSide),
+            (10.0, Chop::Complementary),
+            (0.05, Chop::HighSide),
+        ] {
+            let d = six_step_duty(&st, &motor, we, chop, i_a, 0.01).unwrap();
+            let w = six_step_ripple(&st, &motor, we, d, chop, 0.01).unwrap();
+            let (t_on, n) = (d * w.period_s(), 2000);
+            let h = t_on / n as f64;
+            let simpson: f64 = (0..=n)
+                .map(|k| {
+                    let c = if k == 0 || k == n {
+                        1.0
+                    } else if k % 2 == 1 {
+                        4.0
+                    } else {
+                        2.0
+                    };
+                    c * w.value_at(k as f64 * h)
+                })
+                .sum::<f64>()
+                * h
+                / 3.0;
+            let numeric = simpson / w.period_s();
+            let closed = six_step_dc_link_mean_a(&w, d);
+            assert!(
+                (closed - numeric).abs() < 1e-6 * i_a.max(1.0),
+                "{chop:?} {i_a} A: {closed} vs {numeric}"
+            );
+            assert!(closed > 0.0 && closed < i_a, "below the line current");
+        }
+        for zs in [ZeroSequence::None, ZeroSequence::MinMax] {
+            let (m, i_pk, phi) = (0.8, 12.0, 0.5f64);
+            let n = 3600;
+            let mean: f64 = (0..n)
+                .map(|k| {
+                    let th = 2.0 * std::f64::consts::PI * k as f64 / n as f64;
+                    let v: Vec<f64> = (0..3)
+                        .map(|j| m * (th - 2.0 * std::f64::consts::PI * j as f64 / 3.0).sin())
+                        .collect();
+                    let z = match zs {
+                        ZeroSequence::None => 0.0,
+                        ZeroSequence::MinMax => {
+                            let (hi, lo) = v
+                                .iter()
+                                .fold((f64::MIN, f64::MAX), |(a, b), x| (a.max(*x), b.min(*x)));
+                            -(hi + lo) / 2.0
+                        }
+                    };
+                    (0..3)
+                        .map(|j| {
+                            let i = i_pk
+                                * (th - 2.0 * std::f64::consts::PI * j as f64 / 3.0 - phi).sin();
+                            0.5 * (1.0 + v[j] + z) * i
+                        })
+                        .sum::<f64>()
+                })
+                .sum::<f64>()
+                / n as f64;
+            let formula = sinusoidal_dc_link_mean_a(m, i_pk, phi.cos());
+            assert!(
+                (mean - formula).abs() < 1e-9 * i_pk,
+                "{zs:?}: {mean} vs {formula}"
+            );
+        }
     }
 }

@@ -517,3 +517,12 @@ pub fn sinusoidal_point_with_series(
         harmonics_settled: true,
     })
 }
+
+/// Mean DC-link current of a lossless bridge under sinusoidal modulation, A:
+/// `I_dc = ¾·m·Î·cos φ`, the power balance `V·I_dc = (3/2)·(m·V/2)·Î·cos φ` (m the phase
+/// voltage's fundamental peak over V/2, φ between phase voltage and current; a zero sequence
+/// adds nothing, the three currents sum to zero). Holmes and Lipo, *Pulse Width Modulation
+/// for Power Converters*, 2003, from memory. The bridge's own loss, drawn on top, is left out.
+pub fn sinusoidal_dc_link_mean_a(modulation_index: f64, i_peak_a: f64, power_factor: f64) -> f64 {
+    0.75 * modulation_index * i_peak_a * power_factor
+}

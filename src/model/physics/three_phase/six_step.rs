@@ -44,6 +44,27 @@ pub fn six_step_ripple(
     )?)
 }
 
+/// Mean DC-link (bus) current over a PWM period, A: the bus carries the line current only
+/// while the chopping switch conducts, `(1/T)·∫₀^{D·T} i dt`; in every chop variant the
+/// off-time loop closes inside the bridge (a body diode or the complementary channel), so the
+/// bus carries nothing then (common practice; Krishnan, *Permanent Magnet Synchronous and
+/// Brushless DC Motor Drives*, 2010, ch. 9, from memory). The dead times and the commutation
+/// transient are left out. `w`'s segments start at the chopping switch's turn-on.
+pub fn six_step_dc_link_mean_a(w: &RippleWaveform, duty: f64) -> f64 {
+    let on_s = duty.clamp(0.0, 1.0) * w.period_s();
+    let mut t = 0.0;
+    let mut charge = 0.0;
+    for s in w.segments() {
+        let take = (on_s - t).min(s.duration_s());
+        if take <= 0.0 {
+            break;
+        }
+        charge += s.integral_over_a_s(take);
+        t += s.duration_s();
+    }
+    charge / w.period_s()
+}
+
 /// Averaged-model duty for a mean line current I in continuous conduction: complementary
 /// V·D = E_ll + R_ll·I; diode freewheel V·D − V_sd·(1 − D) = E_ll + R_ll·I (volt-second balance
 /// of L·di/dt = v − R·i − E over a period, common practice; Krishnan 2010 for the line-to-line

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:dce6afd950476bdc42628f8a64707fd71f421a67351e6faa4156b0b90a4cf095)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:812f894b405b8ae81a89f223364fac361160da484b29ece1365d833e65f6089d)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -11,7 +11,7 @@
 //!   resolution        2999 duty steps (11.6 bits)
 //!   dead time         125 ns = 15 ticks (code 0x0F); needed 119 ns
 //!   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.4 % to 76.6 %
-//!   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
+//!   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak, 3.73 A mean from the DC link); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
 //!   current sampling  PWM mode: centre-aligned (up-down) counter; each channel's high side is active while the counter is below its compare (compare 0 off, duty_steps fully on), so its pulse is centred on the counter bottom and the low side conducts around the counter top; the complementary low-side output is the inverse with the dead time. The ADC starts at compare 2951 matched on the UP-count, 400 ns before the counter top, so the 800 ns sample is centred on the top, the middle of the low-side on-time. The window needs the low side on for 2 × (trigger lead 400 ns + dead time 125 ns + settling 1.50 µs) = 4.05 µs of the 50.0 µs period, so a sampled leg's high-side duty is at most 91.9 % (compare 2756); the load needs 72.8 %.
 //!   feasible band     20.007 kHz to 40.000 kHz
 //!

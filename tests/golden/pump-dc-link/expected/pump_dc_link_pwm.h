@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:e2d5d545197b85b6394f73cd85eba90a91c9d1414b28239f0f288b6ec6c6c256)
+ * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:1fd94c76883f06bef27f9e18c1839ea0e1fda511a25b745449f61dced9b683c4)
  *
  * Chosen setting
  *   design            pump-dc-link
@@ -12,7 +12,7 @@
  *   resolution        2999 duty steps (11.6 bits)
  *   dead time         125 ns = 15 ticks (code 0x0F); needed 119 ns
  *   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.4 % to 76.6 %
- *   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
+ *   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak, 3.73 A mean from the DC link); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
  *   current sampling  One shunt in the DC link, read twice per period on the UP-count: in the vector with one leg low (it carries minus that leg's current) and in the vector with one leg high (plus that leg's current); the third current is minus the sum of the two. Each reading needs its vector to last dead time 125 ns + settling 1.50 µs + sampling 800 ns, 291 counts (2.43 µs); the conversion starts 96 counts before the vector ends, so the acquisition ends at the next edge. Where a vector is shorter, the helper shifts the compares apart on the up-count and gives the difference back on the down-count, so each leg's on-time per period is kept (compare shifting; the timer loads the compares at both extremes). It fits the counter up to modulation 1.155; the load needs 0.609.
  *   feasible band     20.007 kHz to 40.000 kHz
  *

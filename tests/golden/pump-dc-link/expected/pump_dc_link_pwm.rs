@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:6d35b356671ed6384adcbefee10750758ad8a5e3c2547a186cc241a094890aba)
+//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:c9f8c0b9ab41640286d4859872c4405ab4093d8307fe16af4de376faaca5d3b4)
 //!
 //! Chosen setting
 //!   design            pump-dc-link
@@ -11,7 +11,7 @@
 //!   resolution        2999 duty steps (11.6 bits)
 //!   dead time         125 ns = 15 ticks (code 0x0F); needed 119 ns
 //!   duty limits       compare 20 to 2943 (0.7 % to 98.1 %); the load needs 23.4 % to 76.6 %
-//!   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
+//!   three-phase       sinusoidal, zero sequence min-max; m 0.514, cos φ 0.967 at the rated case (10.0 A phase-current peak, 3.73 A mean from the DC link); electrical frequency 200.0 Hz; channels A, B, C share the period, the compare limits and the dead time
 //!   current sampling  One shunt in the DC link, read twice per period on the UP-count: in the vector with one leg low (it carries minus that leg's current) and in the vector with one leg high (plus that leg's current); the third current is minus the sum of the two. Each reading needs its vector to last dead time 125 ns + settling 1.50 µs + sampling 800 ns, 291 counts (2.43 µs); the conversion starts 96 counts before the vector ends, so the acquisition ends at the next edge. Where a vector is shorter, the helper shifts the compares apart on the up-count and gives the difference back on the down-count, so each leg's on-time per period is kept (compare shifting; the timer loads the compares at both extremes). It fits the counter up to modulation 1.155; the load needs 0.609.
 //!   feasible band     20.007 kHz to 40.000 kHz
 //!
