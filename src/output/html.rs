@@ -67,7 +67,7 @@ tr.total td { font-weight: bold; border-top: 2px solid var(--ink); }
 .cautions li { margin: 3px 0; }
 .conflict { border: 2px solid var(--fail-ink); background: var(--fail); border-radius: 4px; padding: 8px 18px; }
 figure { margin: 10px 0 18px; page-break-inside: avoid; break-inside: avoid; }
-figure svg { display: block; width: 100%; height: auto; max-width: 960px; border: 1px solid var(--rule); }
+figure svg { display: block; width: 100%; height: auto; max-width: 900px; border: 1px solid var(--rule); }
 figcaption { color: var(--muted); font-size: 12px; margin-top: 4px; }
 code, .mono { font-family: "DejaVu Sans Mono", "Liberation Mono", Consolas, monospace; font-size: 12px; }
 .hash { word-break: break-all; }

@@ -8,23 +8,31 @@
 //! whose `class` names it (`series conduction`, `limit ripple-limit`,
 //! `chosen`), and every tick carries its value in `data-value`, so tests can
 //! read the plot back. Text is escaped for XML.
+//!
+//! Both pictures are `PLOT_W` (900 px) wide, so they fit a 900 px column
+//! at their own size; the legend and the failing spans' key go under the
+//! plot, laid out from estimated text widths ([`crate::output::legend`]),
+//! and the height grows to hold them (`tests/plot_layout.rs` measures the
+//! texts in a browser).
 
 use std::fmt::Write as _;
 
 use crate::input::units::{Dimension, format_quantity};
 use crate::model::evaluate::LossFigures;
 use crate::model::sweep::SweepRow;
+pub use crate::output::legend::escape;
+use crate::output::legend::{
+    CHOSEN, INK, Swatch, legend, n, span_key, span_letter, text, text_width,
+};
 
 /// The SVG namespace, needed by a standalone `.svg` file; the HTML report
 /// strips it (inline SVG in HTML5 is in that namespace already).
 pub const SVG_NAMESPACE_ATTR: &str = r#" xmlns="http://www.w3.org/2000/svg""#;
 
 const FONT: &str = "DejaVu Sans, Liberation Sans, Arial, Helvetica, sans-serif";
-const INK: &str = "#222222";
 const GRID: &str = "#d9d9d9";
 const GRID_MINOR: &str = "#eeeeee";
 const LIMIT: &str = "#b2182b";
-const CHOSEN: &str = "#111111";
 
 /// One loss component: key (CSS class), legend label, colour, and value.
 struct Component {
@@ -105,28 +113,6 @@ pub fn loss_colour(label: &str) -> Option<&'static str> {
         .iter()
         .find(|c| c.label == label)
         .map(|c| c.colour)
-}
-
-/// Escape text for XML and HTML (element content and quoted attributes).
-pub fn escape(text: &str) -> String {
-    let mut out = String::with_capacity(text.len());
-    for ch in text.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
-
-/// A coordinate at two decimals, never `-0.00`.
-fn n(v: f64) -> String {
-    let s = format!("{:.2}", if v.is_finite() { v } else { 0.0 });
-    if s == "-0.00" { "0.00".into() } else { s }
 }
 
 /// A number with up to three decimals and no trailing zeros.
@@ -323,23 +309,6 @@ fn svg_open(out: &mut String, width: f64, height: f64, title: &str) {
     );
 }
 
-/// A text element; `extra` holds further attributes (its own `fill`
-/// replaces the default ink).
-fn text(out: &mut String, x: f64, y: f64, anchor: &str, extra: &str, body: &str) {
-    let fill = if extra.contains(" fill=") {
-        String::new()
-    } else {
-        format!(r#" fill="{INK}""#)
-    };
-    let _ = writeln!(
-        out,
-        r#"<text x="{}" y="{}" text-anchor="{anchor}"{fill}{extra}>{}</text>"#,
-        n(x),
-        n(y),
-        escape(body)
-    );
-}
-
 fn line(out: &mut String, class: &str, (x1, y1): (f64, f64), (x2, y2): (f64, f64), style: &str) {
     let _ = writeln!(
         out,
@@ -387,9 +356,9 @@ fn x_grid(out: &mut String, ax: &LogAxis, fr: Frame, labels: bool) {
     }
 }
 
-/// Value grid with tick labels left of the frame, and the axis title
-/// rotated along it.
-fn y_grid(out: &mut String, ax: &LinAxis, fr: Frame, factor: f64, title: &str) {
+/// Value grid with tick labels (class `tick_class`) left of the frame, and
+/// the axis title rotated along it.
+fn y_grid(out: &mut String, ax: &LinAxis, fr: Frame, factor: f64, title: &str, tick_class: &str) {
     let d = ax.decimals(factor);
     for v in ax.ticks() {
         let y = ax.y(v);
@@ -402,7 +371,7 @@ fn y_grid(out: &mut String, ax: &LinAxis, fr: Frame, factor: f64, title: &str) {
         );
         let _ = writeln!(
             out,
-            r#"<text class="tick y-tick" data-value="{}" x="{}" y="{}" text-anchor="end" fill="{INK}">{:.d$}</text>"#,
+            r#"<text class="tick {tick_class}" data-value="{}" x="{}" y="{}" text-anchor="end" fill="{INK}">{:.d$}</text>"#,
             v,
             n(fr.left - 6.0),
             n(y + 4.0),
@@ -465,11 +434,7 @@ fn boundary(a: &SweepRow, b: &SweepRow, band: Option<[f64; 2]>) -> f64 {
 /// Runs of infeasible rows as frequency spans, edges as [`boundary`]
 /// places them, the axis end where the run reaches it. Each with the names
 /// of the constraints that fail in it.
-fn infeasible_runs(
-    rows: &[&SweepRow],
-    ax: &LogAxis,
-    band: Option<[f64; 2]>,
-) -> Vec<(f64, f64, Vec<String>)> {
+fn infeasible_runs(rows: &[&SweepRow], ax: &LogAxis, band: Option<[f64; 2]>) -> Vec<Run> {
     let mut runs = Vec::new();
     let mut i = 0;
     while i < rows.len() {
@@ -502,15 +467,12 @@ fn infeasible_runs(
     runs
 }
 
-/// Wash out the infeasible spans and name what fails there, at height
-/// `label_y` (no names when `None`).
-fn shade_infeasible(
-    out: &mut String,
-    runs: &[(f64, f64, Vec<String>)],
-    ax: &LogAxis,
-    fr: Frame,
-    label_y: Option<f64>,
-) {
+/// A failing span: its ends on the axis and the constraints failing in it.
+type Run = (f64, f64, Vec<String>);
+
+/// Wash out the failing spans (`class` names the wash), each with the
+/// constraints that fail there as its tooltip.
+fn shade_infeasible(out: &mut String, runs: &[Run], ax: &LogAxis, fr: Frame, class: &str) {
     for (lo, hi, names) in runs {
         let (x0, x1) = (ax.x(*lo), ax.x(*hi));
         let why = if names.is_empty() {
@@ -520,7 +482,7 @@ fn shade_infeasible(
         };
         let _ = writeln!(
             out,
-            r##"<rect class="infeasible" x="{}" y="{}" width="{}" height="{}" fill="#ffffff" fill-opacity="0.62"><title>{}</title></rect>"##,
+            r##"<rect class="{class}" x="{}" y="{}" width="{}" height="{}" fill="#ffffff" fill-opacity="0.62"><title>{}</title></rect>"##,
             n(x0),
             n(fr.top),
             n((x1 - x0).max(0.0)),
@@ -529,27 +491,76 @@ fn shade_infeasible(
         );
         let _ = writeln!(
             out,
-            r##"<rect class="infeasible-strip" x="{}" y="{}" width="{}" height="4" fill="#9e9e9e"/>"##,
+            r##"<rect class="{class}-strip" x="{}" y="{}" width="{}" height="4" fill="#9e9e9e"/>"##,
             n(x0),
             n(fr.top),
             n((x1 - x0).max(0.0))
         );
-        // About 6 px per character at 10 px type.
-        let fits = x1 - x0 > 6.0 * why.chars().count() as f64 + 8.0;
-        if let Some(y) = label_y.filter(|_| fits) {
-            text(
-                out,
-                (x0 + x1) / 2.0,
-                y,
-                "middle",
-                r##" class="infeasible-label" font-size="10" fill-opacity="0.8""##,
-                &why,
-            );
-        }
     }
 }
 
-/// A vertical marker at the chosen frequency, with its label at the top.
+/// The letter of the `i`-th failing span: A to Z, then a to z, then `*`.
+fn span_mark(i: usize) -> char {
+    let i = u8::try_from(i).unwrap_or(u8::MAX);
+    match i {
+        0..=25 => char::from(b'A' + i),
+        26..=51 => char::from(b'a' + (i - 26)),
+        _ => '*',
+    }
+}
+
+/// The span's place and what fails there, for the key:
+/// `below 14.1 kHz: fails ripple, audible`.
+fn span_words(run: &Run, ax: &LogAxis) -> String {
+    let (lo, hi, names) = run;
+    let f = |v: f64| format_quantity(v, Dimension::Frequency, 3);
+    let place = match (*lo <= ax.lo, *hi >= ax.hi) {
+        (true, true) => "everywhere swept".to_string(),
+        (true, false) => format!("below {}", f(*hi)),
+        (false, true) => format!("above {}", f(*lo)),
+        (false, false) => format!("{} to {}", f(*lo), f(*hi)),
+    };
+    if names.is_empty() {
+        format!("{place}: infeasible")
+    } else {
+        format!("{place}: fails {}", names.join(", "))
+    }
+}
+
+/// Least distance between two span letters' centres.
+const LETTER_PITCH: f64 = 12.0;
+
+/// Each failing span's letter above the frame, over the span (pushed
+/// apart where spans are narrower than a letter, and kept over the
+/// frame); returns the key's entries: each letter with its words.
+fn span_letters(out: &mut String, runs: &[Run], ax: &LogAxis, fr: Frame) -> Vec<(char, String)> {
+    let (lo, hi) = (fr.left + 6.0, fr.right - 6.0);
+    let mut xs: Vec<f64> = Vec::with_capacity(runs.len());
+    for (a, b, _) in runs {
+        let centre = ((ax.x(*a) + ax.x(*b)) / 2.0).clamp(lo, hi);
+        let prev = xs.last().map_or(f64::NEG_INFINITY, |p| p + LETTER_PITCH);
+        xs.push(centre.max(prev));
+    }
+    // Back from the right end, so a crowd pushed past it comes back inside.
+    let mut next = hi + LETTER_PITCH;
+    for x in xs.iter_mut().rev() {
+        *x = x.min(next - LETTER_PITCH);
+        next = *x;
+    }
+    let _ = writeln!(out, r#"<g class="span-letters">"#);
+    let keys = runs
+        .iter()
+        .zip(&xs)
+        .enumerate()
+        .map(|(i, (run, x))| {
+            span_letter(out, *x, fr.top - 6.0, span_mark(i));
+            (span_mark(i), span_words(run, ax))
+        })
+        .collect();
+    let _ = writeln!(out, "</g>");
+    keys
+}
+
 /// A vertical marker at the chosen frequency, with its label (on a white
 /// plate, so lines under it stay readable) at height `label_y`.
 fn chosen_line(out: &mut String, ax: &LogAxis, fr: Frame, f: f64, label_y: Option<f64>) {
@@ -565,8 +576,7 @@ fn chosen_line(out: &mut String, ax: &LogAxis, fr: Frame, f: f64, label_y: Optio
         return;
     };
     let label = format!("chosen {}", format_quantity(f, Dimension::Frequency, 5));
-    // About 7.4 px per character of 12 px bold type.
-    let w = 7.4 * label.chars().count() as f64 + 8.0;
+    let w = text_width(&label, 12.0, true) + 8.0;
     let (x0, tx, anchor) = if fr.right - x > w + 8.0 {
         (x + 2.0, x + 6.0, "start")
     } else {
@@ -590,14 +600,22 @@ fn chosen_line(out: &mut String, ax: &LogAxis, fr: Frame, f: f64, label_y: Optio
 }
 
 /// Label height in the junction panel: near the top, but clear of the
-/// limit line.
+/// limit line and of the limit's label (baselines 18 px apart: a line of
+/// 12 px type is about 14 px tall).
 fn clear_of(limit_y: f64, fr: Frame) -> f64 {
     let y = fr.top + 30.0;
-    if (limit_y - (y - 5.0)).abs() < 14.0 {
-        limit_y + 22.0
+    let label_y = limit_label_y(limit_y, fr);
+    if (limit_y - (y - 5.0)).abs() < 14.0 || (label_y - y).abs() < 18.0 {
+        label_y.max(limit_y) + 22.0
     } else {
         y
     }
+}
+
+/// A limit label's baseline: above its line at `y`, or below it when the
+/// frame's top is too close.
+fn limit_label_y(y: f64, fr: Frame) -> f64 {
+    if y - fr.top < 22.0 { y + 15.0 } else { y - 6.0 }
 }
 
 fn chosen_dot(out: &mut String, class: &str, x: f64, y: f64, value: f64) {
@@ -627,66 +645,6 @@ fn interpolate(rows: &[&SweepRow], f: f64, get: impl Fn(&SweepRow) -> Option<f64
     Some(a + t * (b - a))
 }
 
-/// One legend entry kind.
-enum Swatch<'a> {
-    Fill(&'a str),
-    Line {
-        colour: &'a str,
-        dash: Option<&'a str>,
-    },
-    Wash,
-    Dot,
-}
-
-/// A legend column at `(x, y)`, one entry per 20 px.
-fn legend(out: &mut String, x: f64, y: f64, entries: &[(Swatch, String)]) {
-    let _ = writeln!(out, r#"<g class="legend">"#);
-    for (i, (sw, label)) in entries.iter().enumerate() {
-        let yy = y + 20.0 * i as f64;
-        match sw {
-            Swatch::Fill(c) => {
-                let _ = writeln!(
-                    out,
-                    r#"<rect x="{}" y="{}" width="18" height="12" fill="{c}"/>"#,
-                    n(x),
-                    n(yy - 10.0)
-                );
-            }
-            Swatch::Line { colour, dash } => {
-                let dash = dash
-                    .map(|d| format!(r#" stroke-dasharray="{d}""#))
-                    .unwrap_or_default();
-                let _ = writeln!(
-                    out,
-                    r#"<line x1="{}" y1="{}" x2="{}" y2="{}" stroke="{colour}" stroke-width="2"{dash}/>"#,
-                    n(x),
-                    n(yy - 4.0),
-                    n(x + 18.0),
-                    n(yy - 4.0)
-                );
-            }
-            Swatch::Wash => {
-                let _ = writeln!(
-                    out,
-                    r##"<rect x="{}" y="{}" width="18" height="12" fill="#f1f1f1" stroke="#9e9e9e" stroke-width="1"/>"##,
-                    n(x),
-                    n(yy - 10.0)
-                );
-            }
-            Swatch::Dot => {
-                let _ = writeln!(
-                    out,
-                    r##"<circle cx="{}" cy="{}" r="5" fill="#ffffff" stroke="{CHOSEN}" stroke-width="2"/>"##,
-                    n(x + 9.0),
-                    n(yy - 4.0)
-                );
-            }
-        }
-        text(out, x + 26.0, yy, "start", "", label);
-    }
-    let _ = writeln!(out, "</g>");
-}
-
 /// A message in place of a plot when there is nothing to draw.
 fn empty_plot(title: &str, width: f64, height: f64) -> String {
     let mut out = String::new();
@@ -712,14 +670,67 @@ fn scaled_unit(max: f64, unit: &str) -> (f64, String) {
     }
 }
 
-const LOSS_W: f64 = 960.0;
-const LOSS_H: f64 = 470.0;
+/// Width of both plots: at their own size they fit a 900 px column.
+const PLOT_W: f64 = 900.0;
+const EMPTY_H: f64 = 470.0;
+/// A loss band thinner than this over most of the sweep cannot be seen in
+/// the stack: it is drawn again, at its own scale, in a panel below.
+const THIN_PX: f64 = 2.0;
+
+/// The frame of a panel from `top` to `bottom`: room on the left for the
+/// value ticks and the axis title, the full width otherwise (the legend
+/// goes below).
+fn panel_frame(top: f64, bottom: f64) -> Frame {
+    Frame {
+        left: 78.0,
+        right: PLOT_W - 24.0,
+        top,
+        bottom,
+    }
+}
+
+fn plot_title(out: &mut String, fr: Frame, title: &str) {
+    text(
+        out,
+        fr.left,
+        24.0,
+        "start",
+        r#" class="plot-title" font-size="15" font-weight="bold""#,
+        title,
+    );
+}
+
+/// The picture: `body` with the legend and the failing spans' key laid out
+/// under `axis_fr` (the panel carrying the frequency axis and its title),
+/// the height grown to hold them.
+fn finish(
+    title: &str,
+    body: String,
+    axis_fr: Frame,
+    entries: &[(Swatch, String)],
+    keys: &[(char, String)],
+) -> String {
+    let (x, width) = (axis_fr.left, PLOT_W - axis_fr.left - 16.0);
+    let mut below = String::new();
+    let mut y = axis_fr.bottom + 70.0;
+    y += legend(&mut below, x, y, width, entries);
+    y += span_key(&mut below, x, y + 4.0, width, keys);
+    let mut out = String::new();
+    svg_open(&mut out, PLOT_W, y - 6.0, title);
+    out.push_str(&body);
+    out.push_str(&below);
+    out.push_str("</svg>\n");
+    out
+}
 
 /// Loss components of the whole stage at the rated case, stacked against
 /// PWM frequency on a logarithmic axis: one filled polygon per nonzero
 /// component (`class="series <component>"`), the total as a line, the
-/// infeasible spans washed out and labelled with what fails there, the
-/// solver's feasible band edges dotted, the chosen setting marked.
+/// infeasible spans washed out and lettered above the frame (the key under
+/// the legend says what fails in each), the solver's feasible band edges
+/// dotted, the chosen setting marked. Components too thin to see in the
+/// stack are drawn again as lines at their own scale in a lower panel
+/// (`class="panel thin-bands"`), and the legend says so.
 pub fn loss_plot_svg(
     rows: &[SweepRow],
     chosen_hz: Option<f64>,
@@ -727,16 +738,11 @@ pub fn loss_plot_svg(
 ) -> String {
     let title = "Power loss of the stage against PWM frequency (rated case)";
     let rows = sorted(rows);
-    let fr = Frame {
-        left: 78.0,
-        right: 740.0,
-        top: 44.0,
-        bottom: 400.0,
-    };
+    let fr = panel_frame(56.0, 412.0);
     let mut fs: Vec<f64> = rows.iter().map(|r| r.frequency_hz).collect();
     fs.extend(chosen_hz);
     let Some(ax) = LogAxis::spanning(&fs, fr.left, fr.right).filter(|_| !rows.is_empty()) else {
-        return empty_plot(title, LOSS_W, LOSS_H);
+        return empty_plot(title, PLOT_W, EMPTY_H);
     };
     let comps: Vec<&Component> = COMPONENTS
         .iter()
@@ -744,48 +750,151 @@ pub fn loss_plot_svg(
         .collect();
     let max = stack_max(&rows, &comps);
     let ay = LinAxis::spanning(&[0.0, max], true, fr.bottom, fr.top);
-    let (factor, unit) = scaled_unit(ay.hi, "W");
-
-    let mut out = String::new();
-    svg_open(&mut out, LOSS_W, LOSS_H, title);
-    text(
-        &mut out,
-        fr.left,
-        24.0,
-        "start",
-        r#" class="plot-title" font-size="15" font-weight="bold""#,
-        title,
-    );
-    x_grid(&mut out, &ax, fr, true);
-    y_grid(&mut out, &ay, fr, factor, &format!("Power loss ({unit})"));
-    stacked_areas(&mut out, &rows, &comps, &ax, &ay);
-    total_line(&mut out, &rows, &ax, &ay);
-    let range_drawn = range_band(&mut out, &rows, &ax, &ay);
-
+    let thin = thin_components(&rows, &comps, &ay);
     let runs = infeasible_runs(&rows, &ax, band_hz);
-    shade_infeasible(&mut out, &runs, &ax, fr, Some(fr.top + 18.0));
-    let band = band_edges(&mut out, band_hz, &ax, fr);
-    let mut chosen_drawn = false;
-    if let Some(f) = chosen_hz.filter(|f| ax.contains(*f)) {
-        chosen_line(&mut out, &ax, fr, f, Some(fr.top + 30.0));
-        if let Some(v) = interpolate(&rows, f, |r| Some(r.losses_w.total)) {
-            chosen_dot(&mut out, "chosen-total", ax.x(f), ay.y(v), v);
-            chosen_drawn = true;
+    let chosen = chosen_hz.filter(|f| ax.contains(*f));
+    let p = SharedAxis {
+        rows,
+        ax,
+        runs,
+        chosen,
+    };
+
+    let mut body = String::new();
+    plot_title(&mut body, fr, title);
+    let drawn = stack_panel(&mut body, &p, fr, &comps, &ay, band_hz, thin.is_empty());
+    let axis_fr = if thin.is_empty() {
+        fr
+    } else {
+        thin_panel(&mut body, &p, fr, &thin)
+    };
+    x_title(&mut body, axis_fr);
+    let keys = span_letters(&mut body, &p.runs, &p.ax, fr);
+    let entries = loss_legend_entries(&comps, &thin, drawn);
+    finish(title, body, axis_fr, &entries, &keys)
+}
+
+/// What the loss panel drew, for its legend.
+#[derive(Clone, Copy)]
+struct StackDrawn {
+    chosen: bool,
+    band: bool,
+    range: bool,
+}
+
+/// The stacked loss panel in `fr` on value axis `ay`: grids (frequency
+/// labels when `x_labels`), the stack, the total, the range band, the
+/// washed failing spans, the band edges and the chosen setting.
+fn stack_panel(
+    out: &mut String,
+    p: &SharedAxis,
+    fr: Frame,
+    comps: &[&Component],
+    ay: &LinAxis,
+    band_hz: Option<[f64; 2]>,
+    x_labels: bool,
+) -> StackDrawn {
+    let (rows, ax) = (&p.rows, &p.ax);
+    let (factor, unit) = scaled_unit(ay.hi, "W");
+    x_grid(out, ax, fr, x_labels);
+    y_grid(
+        out,
+        ay,
+        fr,
+        factor,
+        &format!("Power loss ({unit})"),
+        "y-tick",
+    );
+    stacked_areas(out, rows, comps, ax, ay);
+    total_line(out, rows, ax, ay);
+    let range = range_band(out, rows, ax, ay);
+    shade_infeasible(out, &p.runs, ax, fr, "infeasible");
+    let band = !band_edges(out, band_hz, ax, fr).is_empty();
+    let mut chosen = false;
+    if let Some(f) = p.chosen {
+        chosen_line(out, ax, fr, f, Some(fr.top + 30.0));
+        if let Some(v) = interpolate(rows, f, |r| Some(r.losses_w.total)) {
+            chosen_dot(out, "chosen-total", ax.x(f), ay.y(v), v);
+            chosen = true;
         }
     }
-    frame_border(&mut out, fr);
-    x_title(&mut out, fr);
-    let mut entries = loss_legend_entries(&comps, chosen_drawn, !runs.is_empty(), !band.is_empty());
-    if range_drawn {
-        let outline = Swatch::Line {
-            colour: INK,
-            dash: Some("2 2"),
-        };
-        entries.insert(1, (outline, "range: least to most".into()));
+    frame_border(out, fr);
+    StackDrawn {
+        chosen,
+        band,
+        range,
     }
-    legend(&mut out, fr.right + 22.0, fr.top + 12.0, &entries);
-    out.push_str("</svg>\n");
-    out
+}
+
+/// The components whose band in the stack (axis `ay`) is thinner than
+/// [`THIN_PX`] at most of the rows.
+fn thin_components<'c>(
+    rows: &[&SweepRow],
+    comps: &[&'c Component],
+    ay: &LinAxis,
+) -> Vec<&'c Component> {
+    let px_per_unit = (ay.bottom - ay.top) / (ay.hi - ay.lo);
+    comps
+        .iter()
+        .filter(|c| {
+            let thin = rows
+                .iter()
+                .filter(|r| (c.get)(&r.losses_w) * px_per_unit < THIN_PX)
+                .count();
+            2 * thin > rows.len()
+        })
+        .copied()
+        .collect()
+}
+
+/// The panel under the stack: each thin component as a line on a value
+/// axis of its own (nothing enlarged: the axis says the scale), with the
+/// frequency ticks, the washed spans and the chosen frequency. Returns its
+/// frame.
+fn thin_panel(out: &mut String, p: &SharedAxis, above: Frame, thin: &[&Component]) -> Frame {
+    let fr = panel_frame(above.bottom + 18.0, above.bottom + 128.0);
+    let values: Vec<f64> = p
+        .rows
+        .iter()
+        .flat_map(|r| thin.iter().map(|c| (c.get)(&r.losses_w)))
+        .collect();
+    let ad = LinAxis::spanning(&values, true, fr.bottom, fr.top);
+    let (factor, unit) = scaled_unit(ad.hi, "W");
+    let _ = writeln!(out, r#"<g class="panel thin-bands">"#);
+    x_grid(out, &p.ax, fr, true);
+    y_grid(
+        out,
+        &ad,
+        fr,
+        factor,
+        &format!("Thin bands ({unit})"),
+        "thin-y-tick",
+    );
+    for c in thin {
+        let segs = segments(&p.rows, &p.ax, &ad, |r| Some((c.get)(&r.losses_w)));
+        let d: Vec<String> = segs.iter().map(|s| path_data(s)).collect();
+        let _ = writeln!(
+            out,
+            r#"<path class="thin-band {k}" d="{}" fill="none" stroke="{}" stroke-width="2" stroke-linejoin="round"/>"#,
+            d.join(" "),
+            c.colour,
+            k = c.key
+        );
+    }
+    shade_infeasible(out, &p.runs, &p.ax, fr, "infeasible-thin");
+    if let Some(f) = p.chosen {
+        let x = p.ax.x(f);
+        line(
+            out,
+            "chosen thin-chosen-line",
+            (x, fr.top),
+            (x, fr.bottom),
+            &format!(r#"stroke="{CHOSEN}" stroke-width="1.2" stroke-dasharray="2 3""#),
+        );
+    }
+    frame_border(out, fr);
+    let _ = writeln!(out, "</g>");
+    fr
 }
 
 /// The height the loss axis must reach: the larger of the stacked
@@ -905,13 +1014,14 @@ fn band_edges(out: &mut String, band_hz: Option<[f64; 2]>, ax: &LogAxis, fr: Fra
     band
 }
 
-/// The loss plot's legend: the total, the components top first, and the
-/// chosen dot, the wash and the band edges when drawn.
+/// The loss plot's legend: the total, the range band when drawn, the
+/// components top first (a thin one says where it is drawn to be seen),
+/// the chosen dot and the band edges when drawn. The failing spans have
+/// their own key.
 fn loss_legend_entries(
     comps: &[&Component],
-    chosen_drawn: bool,
-    washed: bool,
-    band_drawn: bool,
+    thin: &[&Component],
+    drawn: StackDrawn,
 ) -> Vec<(Swatch<'static>, String)> {
     let mut entries: Vec<(Swatch, String)> = vec![(
         Swatch::Line {
@@ -920,19 +1030,25 @@ fn loss_legend_entries(
         },
         "total".into(),
     )];
-    entries.extend(
-        comps
-            .iter()
-            .rev()
-            .map(|c| (Swatch::Fill(c.colour), c.label.to_string())),
-    );
-    if chosen_drawn {
+    if drawn.range {
+        let outline = Swatch::Line {
+            colour: INK,
+            dash: Some("2 2"),
+        };
+        entries.push((outline, "range: least to most".into()));
+    }
+    entries.extend(comps.iter().rev().map(|c| {
+        let label = if thin.iter().any(|t| t.key == c.key) {
+            format!("{} (lower panel)", c.label)
+        } else {
+            c.label.to_string()
+        };
+        (Swatch::Fill(c.colour), label)
+    }));
+    if drawn.chosen {
         entries.push((Swatch::Dot, "chosen setting".into()));
     }
-    if washed {
-        entries.push((Swatch::Wash, "fails a constraint".into()));
-    }
-    if band_drawn {
+    if drawn.band {
         entries.push((
             Swatch::Line {
                 colour: "#4d4d4d",
@@ -971,24 +1087,24 @@ fn segments(
     segs
 }
 
+/// A polyline's points (`x,y x,y …`) as one path sub-path.
+fn path_data(points: &str) -> String {
+    let mut pts = points.split(' ');
+    let first = pts.next().unwrap_or("0,0");
+    let rest: Vec<&str> = pts.collect();
+    if rest.is_empty() {
+        format!("M{first}")
+    } else {
+        format!("M{first} L{}", rest.join(" "))
+    }
+}
+
 fn series(out: &mut String, id: &str, colour: &str, dash: Option<&str>, segs: &[String]) {
     let dash = dash
         .map(|d| format!(r#" stroke-dasharray="{d}""#))
         .unwrap_or_default();
     // One element per series: a path with one sub-path per segment.
-    let d: Vec<String> = segs
-        .iter()
-        .map(|s| {
-            let mut pts = s.split(' ');
-            let first = pts.next().unwrap_or("0,0");
-            let rest: Vec<&str> = pts.collect();
-            if rest.is_empty() {
-                format!("M{first}")
-            } else {
-                format!("M{first} L{}", rest.join(" "))
-            }
-        })
-        .collect();
+    let d: Vec<String> = segs.iter().map(|s| path_data(s)).collect();
     let _ = writeln!(
         out,
         r#"<path id="thermal-{id}" class="series {id}" d="{}" fill="none" stroke="{colour}" stroke-width="2"{dash} stroke-linejoin="round"/>"#,
@@ -1006,8 +1122,7 @@ fn limit_line(out: &mut String, class: &str, ay: &LinAxis, fr: Frame, value: f64
         n(fr.right),
         n(y)
     );
-    // Above the line, or below it when the frame's top is too close.
-    let ty = if y - fr.top < 22.0 { y + 15.0 } else { y - 6.0 };
+    let ty = limit_label_y(y, fr);
     text(
         out,
         fr.right - 6.0,
@@ -1018,8 +1133,7 @@ fn limit_line(out: &mut String, class: &str, ay: &LinAxis, fr: Frame, value: f64
     );
 }
 
-const THERMAL_W: f64 = 960.0;
-const THERMAL_H: f64 = 640.0;
+const THERMAL_EMPTY_H: f64 = 640.0;
 const RATED: &str = "#0072b2";
 const HIGH_BUS: &str = "#d55e00";
 const RIPPLE: &str = "#009e73";
@@ -1028,7 +1142,9 @@ const RIPPLE: &str = "#009e73";
 /// ripple against PWM frequency, in two stacked panels sharing the
 /// logarithmic frequency axis; the junction limit and the ripple limit as
 /// dashed lines (`class="limit junction-limit"`, `"limit ripple-limit"`),
-/// infeasible spans washed out, the chosen setting marked in both.
+/// infeasible spans washed out and lettered above the upper panel (the key
+/// under the legend says what fails in each), the chosen setting marked in
+/// both; one legend under both panels.
 pub fn thermal_ripple_plot_svg(
     rows: &[SweepRow],
     t_j_limit_c: f64,
@@ -1037,22 +1153,13 @@ pub fn thermal_ripple_plot_svg(
 ) -> String {
     let title = "Junction temperature and motor-current ripple against PWM frequency";
     let rows = sorted(rows);
-    let top_fr = Frame {
-        left: 78.0,
-        right: 740.0,
-        top: 44.0,
-        bottom: 300.0,
-    };
-    let low_fr = Frame {
-        top: 330.0,
-        bottom: 570.0,
-        ..top_fr
-    };
+    let top_fr = panel_frame(56.0, 312.0);
+    let low_fr = panel_frame(342.0, 582.0);
     let mut fs: Vec<f64> = rows.iter().map(|r| r.frequency_hz).collect();
     fs.extend(chosen_hz);
     let Some(ax) = LogAxis::spanning(&fs, top_fr.left, top_fr.right).filter(|_| !rows.is_empty())
     else {
-        return empty_plot(title, THERMAL_W, THERMAL_H);
+        return empty_plot(title, PLOT_W, THERMAL_EMPTY_H);
     };
     let mut temps: Vec<f64> = rows
         .iter()
@@ -1077,20 +1184,18 @@ pub fn thermal_ripple_plot_svg(
         chosen,
     };
 
-    let mut out = String::new();
-    svg_open(&mut out, THERMAL_W, THERMAL_H, title);
-    text(
-        &mut out,
-        top_fr.left,
-        24.0,
-        "start",
-        r#" class="plot-title" font-size="15" font-weight="bold""#,
-        title,
-    );
-    junction_panel(&mut out, &shared, top_fr, &at, t_j_limit_c);
-    ripple_panel(&mut out, &shared, low_fr, &ar, ripple_limit_a);
-    out.push_str("</svg>\n");
-    out
+    let mut body = String::new();
+    plot_title(&mut body, top_fr, title);
+    let dots = junction_panel(&mut body, &shared, top_fr, &at, t_j_limit_c);
+    let (dot, range_drawn) = ripple_panel(&mut body, &shared, low_fr, &ar, ripple_limit_a);
+    let keys = span_letters(&mut body, &shared.runs, &shared.ax, top_fr);
+    let runaway = shared
+        .rows
+        .iter()
+        .any(|r| r.junction_c.is_none() || r.junction_high_bus_c.is_none());
+    let entries =
+        thermal_legend_entries(ripple_limit_a.is_some(), dots || dot, range_drawn, runaway);
+    finish(title, body, low_fr, &entries, &keys)
 }
 
 /// What the two panels of the thermal and ripple plot share: the sorted
@@ -1104,23 +1209,24 @@ struct SharedAxis<'r> {
 }
 
 /// The upper panel: junction temperatures at the rated and the highest
-/// supply on axis `at`, the junction limit, the chosen setting, its legend.
-fn junction_panel(out: &mut String, p: &SharedAxis, top_fr: Frame, at: &LinAxis, t_j_limit_c: f64) {
+/// supply on axis `at`, the junction limit, the chosen setting; whether
+/// the chosen dots were drawn.
+fn junction_panel(
+    out: &mut String,
+    p: &SharedAxis,
+    top_fr: Frame,
+    at: &LinAxis,
+    t_j_limit_c: f64,
+) -> bool {
     let (rows, ax) = (&p.rows, &p.ax);
     let _ = writeln!(out, r#"<g class="panel junction">"#);
     x_grid(out, ax, top_fr, false);
-    y_grid(out, at, top_fr, 1.0, "Junction temperature (°C)");
+    y_grid(out, at, top_fr, 1.0, "Junction temperature (°C)", "y-tick");
     let rated = segments(rows, ax, at, |r| r.junction_c);
     let high = segments(rows, ax, at, |r| r.junction_high_bus_c);
     series(out, "junction-rated", RATED, None, &rated);
     series(out, "junction-high-bus", HIGH_BUS, None, &high);
-    shade_infeasible(
-        out,
-        &p.runs,
-        ax,
-        top_fr,
-        Some((top_fr.top + top_fr.bottom) / 2.0),
-    );
+    shade_infeasible(out, &p.runs, ax, top_fr, "infeasible");
     limit_line(
         out,
         "junction-limit",
@@ -1157,70 +1263,32 @@ fn junction_panel(out: &mut String, p: &SharedAxis, top_fr: Frame, at: &LinAxis,
         }
     }
     frame_border(out, top_fr);
-    let runaway = rows
-        .iter()
-        .any(|r| r.junction_c.is_none() || r.junction_high_bus_c.is_none());
-    let entries = junction_legend_entries(dots, !p.runs.is_empty(), runaway);
-    legend(out, top_fr.right + 22.0, top_fr.top + 12.0, &entries);
     let _ = writeln!(out, "</g>");
-}
-
-/// The junction panel's legend: both supplies and the limit, then the
-/// chosen dots, the wash and the runaway gaps when drawn.
-fn junction_legend_entries(
-    dots: bool,
-    washed: bool,
-    runaway: bool,
-) -> Vec<(Swatch<'static>, String)> {
-    let mut entries = vec![
-        (
-            Swatch::Line {
-                colour: RATED,
-                dash: None,
-            },
-            "rated supply".to_string(),
-        ),
-        (
-            Swatch::Line {
-                colour: HIGH_BUS,
-                dash: None,
-            },
-            "highest supply".to_string(),
-        ),
-        (
-            Swatch::Line {
-                colour: LIMIT,
-                dash: Some("7 4"),
-            },
-            "junction limit".to_string(),
-        ),
-    ];
-    if dots {
-        entries.push((Swatch::Dot, "chosen setting".into()));
-    }
-    if washed {
-        entries.push((Swatch::Wash, "fails a constraint".into()));
-    }
-    if runaway {
-        entries.push((Swatch::Wash, "gap: thermal runaway".into()));
-    }
-    entries
+    dots
 }
 
 /// The lower panel: the worst ripple of both supplies on axis `ar`, the
-/// ripple limit when there is one, the chosen setting, its legend.
+/// ripple limit when there is one, the chosen setting; whether the chosen
+/// dot and the range's worst were drawn.
 fn ripple_panel(
     out: &mut String,
     p: &SharedAxis,
     low_fr: Frame,
     ar: &LinAxis,
     ripple_limit_a: Option<f64>,
-) {
+) -> (bool, bool) {
     let (rows, ax) = (&p.rows, &p.ax);
     let (rf, ru) = scaled_unit(ar.hi, "A");
     let _ = writeln!(out, r#"<g class="panel ripple">"#);
     x_grid(out, ax, low_fr, true);
-    y_grid(out, ar, low_fr, rf, &format!("Ripple, peak to peak ({ru})"));
+    y_grid(
+        out,
+        ar,
+        low_fr,
+        rf,
+        &format!("Ripple, peak to peak ({ru})"),
+        "y-tick",
+    );
     let rip = segments(rows, ax, ar, |r| Some(r.ripple_pp_a));
     series(out, "ripple", RIPPLE, None, &rip);
     let over_range = segments(rows, ax, ar, |r| r.range.and_then(|x| x.ripple_pp_max_a));
@@ -1228,7 +1296,7 @@ fn ripple_panel(
     if range_drawn {
         series(out, "ripple-range", RIPPLE, Some("3 3"), &over_range);
     }
-    shade_infeasible(out, &p.runs, ax, low_fr, None);
+    shade_infeasible(out, &p.runs, ax, low_fr, "infeasible");
     if let Some(lim) = ripple_limit_a {
         limit_line(
             out,
@@ -1252,45 +1320,44 @@ fn ripple_panel(
     }
     frame_border(out, low_fr);
     x_title(out, low_fr);
-    let entries = ripple_legend_entries(ripple_limit_a.is_some(), dot, range_drawn);
-    legend(out, low_fr.right + 22.0, low_fr.top + 12.0, &entries);
     let _ = writeln!(out, "</g>");
+    (dot, range_drawn)
 }
 
-/// The ripple panel's legend: the ripple, then the limit and the chosen
-/// dot when drawn.
-fn ripple_legend_entries(
+/// The legend under both panels, each entry naming its panel: the
+/// junctions and their limit, the ripple (over the range when drawn) and
+/// its limit, then the chosen dots and the runaway gaps when drawn. The
+/// failing spans have their own key.
+fn thermal_legend_entries(
     limit_drawn: bool,
     dot: bool,
     range_drawn: bool,
+    runaway: bool,
 ) -> Vec<(Swatch<'static>, String)> {
-    let mut entries = vec![(
-        Swatch::Line {
-            colour: RIPPLE,
-            dash: None,
-        },
-        "worst of both supplies".to_string(),
-    )];
+    let line = |colour, dash| Swatch::Line { colour, dash };
+    let mut entries = vec![
+        (line(RATED, None), "junction, rated supply".to_string()),
+        (line(HIGH_BUS, None), "junction, highest supply".to_string()),
+        (line(LIMIT, Some("7 4")), "junction limit".to_string()),
+        (
+            line(RIPPLE, None),
+            "ripple, worst of both supplies".to_string(),
+        ),
+    ];
     if range_drawn {
         entries.push((
-            Swatch::Line {
-                colour: RIPPLE,
-                dash: Some("3 3"),
-            },
-            "worst over the range".into(),
+            line(RIPPLE, Some("3 3")),
+            "ripple, worst over the range".into(),
         ));
     }
     if limit_drawn {
-        entries.push((
-            Swatch::Line {
-                colour: LIMIT,
-                dash: Some("7 4"),
-            },
-            "ripple limit".into(),
-        ));
+        entries.push((line(LIMIT, Some("7 4")), "ripple limit".into()));
     }
     if dot {
         entries.push((Swatch::Dot, "chosen setting".into()));
+    }
+    if runaway {
+        entries.push((Swatch::Wash(None), "gap: thermal runaway".into()));
     }
     entries
 }
