@@ -149,9 +149,11 @@ const fn six(
 const NONE: ZeroSequence = ZeroSequence::None;
 const MINMAX: ZeroSequence = ZeroSequence::MinMax;
 
-/// The cases: 24–72 V, 16–24 kHz, m 0.5–1.1, cos φ 0.64–1, 6–20 A peak, both
-/// zero sequences; six-step with each chop at 400 Hz, and T3L with a line
-/// time constant 2L/2R of 2.5 ms and L·I/V of about half its 833 µs sector
+/// The cases: 12–100 V, 16–40 kHz, m 0.5–1.1, cos φ 0.64–1 and one
+/// generating (T08, φ = 150°), 5–20 A peak, both zero sequences, all five
+/// devices; T07 and T08 were added after the first six were compared, as a
+/// check on new ground; six-step with each chop at 400 Hz, and T3L with a line
+/// time constant 2L/2R of 2.5 ms and L·I/V of about a quarter of its 833 µs sector
 /// (a long commutation).
 pub const TP_CASES: &[TpCase] = &[
     sine(
@@ -231,6 +233,32 @@ pub const TP_CASES: &[TpCase] = &[
         (0.1, 120.0),
         200.0,
         (10.0, 4.7),
+    ),
+    sine(
+        "T07",
+        "crag-150",
+        100.0,
+        40.0,
+        NONE,
+        0.7,
+        5.0,
+        30.0,
+        (0.5, 500.0),
+        300.0,
+        (10.0, 4.7),
+    ),
+    sine(
+        "T08",
+        "fell-30",
+        12.0,
+        20.0,
+        MINMAX,
+        0.8,
+        10.0,
+        150.0,
+        (0.05, 50.0),
+        150.0,
+        (4.7, 2.2),
     ),
     six(
         "T3H",
