@@ -49,8 +49,8 @@ fn print_all(cmp: &[TpComparison]) {
 /// phase-current ripple within 3 % (the issue's bounds; measured: total
 /// median 1.9 %, worst 6.1 % (T07, 100 V at 40 kHz, its edges +8.5 %);
 /// conduction worst +2.97 % (T07, at the bound: pwmplan books the channel
-/// over the whole commanded duty, dead times included, and the error grows with
-/// t_d·f_sw, 1.2 % there); ripple worst 2.3 %). The rms is the fundamental
+/// over the whole commanded duty, dead times included, so it is high by
+/// about 2·t_d·f_sw, 2.4 % there); ripple worst 2.3 %). The rms is the fundamental
 /// fed in plus the model's ripple, so it is checked tighter (0.5 %).
 #[test]
 fn sinusoidal_bridge_within_the_issue_bounds() {
