@@ -7,7 +7,7 @@
 //! committed reference CSVs (no ngspice needed, e.g. after a model change).
 //! `-- three-phase` runs the three-phase bridge reference instead
 //! (`three_phase_reference.csv`, `three_phase_errors.csv` / `.md`, about
-//! two minutes), and `-- three-phase --errors-only` only its comparison.
+//! two and a half minutes), and `-- three-phase --errors-only` only its comparison.
 #[path = "../tests/spice/harness.rs"]
 mod harness;
 #[path = "../tests/spice/leg.rs"]

@@ -28,7 +28,8 @@
 //! The run starts from the ideal bridge's steady-state phase currents (the
 //! inductors' initial conditions: the sinusoidal phasor solution, or ±I in
 //! the first sector's pair for six-step), settles for half an electrical
-//! period (sinusoidal) or a whole one (six-step), and measures the next
+//! period (sinusoidal) or two (six-step, whose initial currents are rough),
+//! and measures the next
 //! electrical period. Windows and figures: `tests/spice/README.md`.
 #![allow(dead_code)]
 
@@ -317,7 +318,7 @@ impl TpCase {
     pub fn settle_periods(&self) -> usize {
         match self.scheme {
             Scheme::Sine { .. } => self.per_electrical() / 2,
-            Scheme::SixStep { .. } => self.per_electrical(),
+            Scheme::SixStep { .. } => 2 * self.per_electrical(),
         }
     }
 
