@@ -223,14 +223,24 @@ pub const NGSPICE_TIMEOUT_S: u64 = 120;
 /// [`NGSPICE_TIMEOUT_S`]); the netlist's control block must `wrdata out.txt
 /// ...`. Returns the table and ngspice's stdout (for `echo` values).
 pub fn run_ngspice_with_stdout(netlist: &str, tag: &str) -> Result<(Table, String), String> {
+    run_ngspice_within(netlist, tag, NGSPICE_TIMEOUT_S)
+}
+
+/// As [`run_ngspice_with_stdout`], with its own time limit in seconds (the
+/// three-phase bridge runs take longer than the single-device circuits).
+pub fn run_ngspice_within(
+    netlist: &str,
+    tag: &str,
+    timeout_s: u64,
+) -> Result<(Table, String), String> {
     let dir = work_dir(tag)?;
     std::fs::write(dir.join("case.cir"), netlist).map_err(|e| e.to_string())?;
-    let result = run_in(&dir, tag);
+    let result = run_in(&dir, tag, timeout_s);
     let _ = std::fs::remove_dir_all(&dir);
     result
 }
 
-fn run_in(dir: &std::path::Path, tag: &str) -> Result<(Table, String), String> {
+fn run_in(dir: &std::path::Path, tag: &str, timeout_s: u64) -> Result<(Table, String), String> {
     let mut child = Command::new("ngspice")
         .arg("-b")
         .arg("-o")
@@ -245,7 +255,7 @@ fn run_in(dir: &std::path::Path, tag: &str) -> Result<(Table, String), String> {
     loop {
         match child.try_wait() {
             Ok(Some(_)) => break,
-            Ok(None) if start.elapsed().as_secs() > NGSPICE_TIMEOUT_S => {
+            Ok(None) if start.elapsed().as_secs() > timeout_s => {
                 let _ = child.kill();
                 let _ = child.wait();
                 return Err(format!("ngspice timed out on {tag}"));
