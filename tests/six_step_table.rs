@@ -73,6 +73,16 @@ fn mean_emf(shape: fn(f64) -> f64, k: usize, p: usize, n: usize) -> f64 {
 }
 
 fn plan_six_step(dir: &Path, chop: &str) -> (String, String) {
+    write_six_step(dir, chop, None);
+    let planned = pwmplan::plan_file(dir.join("d.yaml")).expect("the six-step pump plans");
+    (
+        planned.rust_module().expect("Rust").to_string(),
+        planned.c_header().expect("C").to_string(),
+    )
+}
+
+/// The bundled pump on a six-step copy of its board, its motor inductance replaced if asked.
+fn write_six_step(dir: &Path, chop: &str, inductance: Option<&str>) {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
     std::fs::create_dir_all(dir.join("switches")).expect("folder");
     for f in std::fs::read_dir(root.join("boards/switches")).expect("switches") {
@@ -95,12 +105,31 @@ fn plan_six_step(dir: &Path, chop: &str) -> (String, String) {
         design.contains("board: b.yaml"),
         "the design names the copied board"
     );
+    let design = match inductance {
+        Some(l) => {
+            let at = design.find("inductance: ").expect("the motor's inductance");
+            let end = at + design[at..].find('\n').expect("line end");
+            format!("{}inductance: \"{l}\"{}", &design[..at], &design[end..])
+        }
+        None => design,
+    };
     std::fs::write(dir.join("d.yaml"), design).expect("write design");
-    let planned = pwmplan::plan_file(dir.join("d.yaml")).expect("the six-step pump plans");
-    (
-        planned.rust_module().expect("Rust").to_string(),
-        planned.c_header().expect("C").to_string(),
-    )
+}
+
+/// A motor whose commutation takes most of a sector is refused, naming the finding and
+/// the interval; the bundled pump's own inductance plans with at most a warning.
+#[test]
+fn long_commutation_is_refused_with_its_figure() {
+    let tmp = tempfile::tempdir().expect("temp");
+    write_six_step(tmp.path(), "high-side", Some("2.5 mH"));
+    match pwmplan::plan_file(tmp.path().join("d.yaml")) {
+        Err(pwmplan::PlanError::Infeasible(why)) => {
+            assert!(why.contains("six-step-commutation"), "{why}");
+            assert!(why.contains("% of the") && why.contains("sector"), "{why}");
+        }
+        Err(e) => panic!("refused for another reason: {e}"),
+        Ok(_) => panic!("a 2.5 mH six-step pump plans"),
+    }
 }
 
 #[test]

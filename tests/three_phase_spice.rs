@@ -174,3 +174,65 @@ fn three_phase_reference_reproduces_with_ngspice() {
     close(m.i_pk_a, table.i_pk_a, 1e-3, "T06 current");
     close(m.pp_max_a, table.pp_max_a, 1e-3, "T06 ripple");
 }
+
+/// Issue 21's six-step acceptance taken by detection: every six-step case
+/// whose chopping-switch loss the flat-sector model misses by more than 15 %
+/// is flagged by the plan's `six-step-commutation` finding (its interval
+/// against the sector, at the duty and line current the model plans for),
+/// and the long-commutation case T3L is refused (an error finding) with the
+/// figure.
+#[test]
+fn six_step_commutation_is_flagged_where_the_model_misses() {
+    use pwmplan::output::plan::{COMMUTATION_REFUSE_SHARE, COMMUTATION_WARN_SHARE};
+    use pwmplan::physics::three_phase::{BackEmfShape, MotorParams, six_step_commutation_s};
+    let cmp = comparisons();
+    let mut flagged = 0;
+    for (c, m, p) in cmp
+        .iter()
+        .filter(|x| matches!(x.0.scheme, three_phase::Scheme::SixStep { .. }))
+    {
+        let three_phase::Scheme::SixStep { chop, .. } = c.scheme else {
+            continue;
+        };
+        let motor = MotorParams {
+            r_phase_ohm: c.r_phase_ohm,
+            l_phase_h: c.l_phase_h,
+            ke_v_s_per_rad: c.e_v / c.omega_e(),
+            pole_pairs: 1,
+            back_emf_shape: BackEmfShape::Trapezoidal,
+        };
+        let (pos, neg) =
+            six_step_commutation_s(&motor, c.omega_e(), c.v_bus_v, p.duty, chop, m.i_line_a)
+                .expect("an interval that ends");
+        let share = pos.max(neg) * 6.0 * c.f_e_hz;
+        let high_side_err = (p.high_side_w / m.high_side_w() - 1.0).abs();
+        println!(
+            "{}: commutation {:.1} µs, {:.0} % of the sector; high-side loss {:+.0} %",
+            c.id,
+            1e6 * pos.max(neg),
+            100.0 * share,
+            100.0 * (p.high_side_w / m.high_side_w() - 1.0)
+        );
+        if high_side_err > 0.15 {
+            assert!(
+                share > COMMUTATION_WARN_SHARE,
+                "{} missed by {high_side_err} but not flagged",
+                c.id
+            );
+            flagged += 1;
+        }
+        if c.id == "T3L" {
+            assert!(
+                share > COMMUTATION_REFUSE_SHARE,
+                "T3L refused: share {share}"
+            );
+        } else {
+            assert!(
+                share <= COMMUTATION_REFUSE_SHARE,
+                "{} not refused: share {share}",
+                c.id
+            );
+        }
+    }
+    assert!(flagged >= 3, "{flagged} six-step cases flagged");
+}

@@ -143,6 +143,11 @@ pub const EXPLANATIONS: &[Explanation] = &[
         OWN,
     ),
     e(
+        "six-step-commutation",
+        "Under six-step, after each commutation the off-going phase keeps its current flowing through a body diode until the voltage across its inductance has driven it to zero; the model takes each sector's current flat and leaves that interval out, so the needed duty and the chopping switch's loss come out low. A warning above 5 % of the 60° sector, an error (the plan refused) above a third of it; the interval is L·I over that voltage at the sector boundary.",
+        "Krishnan, Permanent Magnet Synchronous and Brushless DC Motor Drives, 2010, ch. 9 (from memory); the linearised interval and both bounds are our own",
+    ),
+    e(
         "stall-needs-current-limit",
         "A stall at the highest supply draws more than the switch or motor may carry for the stall time, and the board has no current limit to stop it.",
         COMMON,
