@@ -625,8 +625,8 @@ fn starts_numeric(unit: &str) -> bool {
 /// (the ECMA-262 subset JSON Schema's `pattern` uses): an optional sign, the
 /// number `number_len` reads, optional spaces, one spelling of a unit of that
 /// dimension with any prefix its row allows. Built from `UNITS`, so the
-/// schema follows the parser; `tests/schema.rs` checks every spelling and
-/// the refusals against both.
+/// schema follows the parser; `tests/schema.rs` checks the bundled files'
+/// spellings, probes of prefixes, signs and exponents, and refusals against both.
 pub fn schema_pattern(dim: Dimension) -> String {
     let mut spellings: Vec<String> = UNITS
         .iter()
