@@ -215,3 +215,88 @@ fn sequential_conversion_doubles_the_window() {
     // The window is longer, so the sampled leg's highest duty is lower.
     assert!(f(&s2["max_high_side_duty"]) < f(&s1["max_high_side_duty"]));
 }
+
+/// The worst case holds the sampling window too (issue 21, item 3): with the
+/// shunt amplifier's settling lengthened until the window's limit falls between
+/// the typical parts' sampled duty and the worst corner's (at the lowest supply
+/// and the lowest threshold), the plan's own `sampling-window` constraint passes
+/// and the worst case fails it at that corner, which blocks the plan; the row
+/// carries the corner's figure against the same limit.
+#[test]
+fn worst_case_holds_the_sampling_window() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    copy_tree(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
+        dir.path(),
+    );
+    let board = dir.path().join("osprey-3p48.yaml");
+    let text = fs::read_to_string(&board).expect("board");
+    let from = "settle_time: \"1.5 us\", sample_time";
+    assert!(text.contains(from), "the bundled board's settling");
+    fs::write(
+        &board,
+        text.replacen(from, "settle_time: \"6.2 us\", sample_time", 1),
+    )
+    .expect("write board");
+    let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .current_dir(dir.path())
+        .args([
+            "plan",
+            "pump-bldc.yaml",
+            "--at",
+            "20 kHz",
+            "--json",
+            "--no-write",
+        ])
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(
+        o.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let p: serde_json::Value = serde_json::from_slice(&o.stdout).expect("plan JSON");
+    let nominal = p["constraints"]
+        .as_array()
+        .expect("constraints")
+        .iter()
+        .find(|k| k["name"] == "sampling-window")
+        .expect("the sampling-window constraint");
+    assert_eq!(
+        nominal["pass"], true,
+        "typical parts hold the window: {nominal}"
+    );
+    let row = p["worst_case"]["rows"]
+        .as_array()
+        .expect("worst-case rows")
+        .iter()
+        .find(|r| r["name"] == "sampling-window")
+        .expect("a worst-case sampling-window row");
+    assert_eq!(row["pass"], false, "{row}");
+    assert!(f(&row["value"]) > f(&row["limit"]), "{row}");
+    assert!(
+        (f(&row["limit"]) - f(&nominal["limit"])).abs() < 1e-9,
+        "one limit: {row} {nominal}"
+    );
+    assert!(
+        f(&row["value"]) > f(&nominal["value"]),
+        "the corner is worse than typical"
+    );
+    assert!(
+        row["corner"]
+            .as_str()
+            .is_some_and(|c| c.contains("supply 40.0 V")),
+        "{row}"
+    );
+    let blocked: Vec<&str> = p["blocked_by"]
+        .as_array()
+        .expect("blocked_by")
+        .iter()
+        .filter_map(|b| b["code"].as_str())
+        .collect();
+    assert!(
+        blocked.contains(&"worst-case-sampling-window"),
+        "{blocked:?}"
+    );
+}

@@ -532,7 +532,7 @@ pub fn sample_values(s: &Spreads, seed: u64, index: u64) -> Values {
 /// are the same (`junction` covers `junction-rated` and `junction-high-bus`,
 /// one case per sample); `operating-point` fails when the rated current
 /// cannot be reached or the switch cannot be modelled at the sample.
-pub const CONSTRAINTS: [&str; 8] = [
+pub const CONSTRAINTS: [&str; 9] = [
     "operating-point",
     "junction",
     "ripple",
@@ -541,6 +541,7 @@ pub const CONSTRAINTS: [&str; 8] = [
     "duty-range",
     "resolution",
     "frequency-band",
+    "sampling-window",
 ];
 
 const OPERATING_POINT: u16 = 1 << 0;
@@ -551,6 +552,7 @@ const DEAD_TIME: u16 = 1 << 4;
 const DUTY_RANGE: u16 = 1 << 5;
 const RESOLUTION: u16 = 1 << 6;
 const FREQUENCY_BAND: u16 = 1 << 7;
+const SAMPLING_WINDOW: u16 = 1 << 8;
 
 /// Margin counted as passing, as the solver does (1e-9 in the limit's unit).
 const EPS: f64 = 1e-9;
@@ -595,8 +597,79 @@ struct Context<'a> {
     f_hz: f64,
     dead: DeadTimeChoice,
     duty: Option<DutyLimits>,
+    /// A three-phase bridge's current-sampling window at this setting (none on the other
+    /// stages, or when no duty holds it: then a fixed failure).
+    sampling: Option<SamplingLimit>,
     /// Failures that depend on the setting only.
     fixed_failures: u16,
+}
+
+/// What a three-phase sample's sampling window holds it to: the figure
+/// [`SamplingLimit::value`] reads off an evaluated case must not exceed `limit`.
+#[derive(Debug, Clone, Copy)]
+enum SamplingLimit {
+    /// Low-side shunts: the sampled leg's highest high-side duty at most the window's.
+    SampledLeg { limit: f64 },
+    /// Six-step low-side chopping: the chopping low side's off share (1 − duty) at most
+    /// the window's high-side duty, so its on-time holds the window.
+    ChoppingLowSide { limit: f64 },
+    /// One DC-link shunt: the modulation index at most the highest at which the shifted
+    /// compares fit at every angle (`dc_link::max_modulation`).
+    DcLink { limit: f64 },
+}
+
+impl SamplingLimit {
+    /// The limit and the case's figure against it (`None` when the case has no
+    /// three-phase figures).
+    fn of(self, r: &CaseResult) -> (f64, Option<f64>) {
+        let tp = r.three_phase.as_ref();
+        match self {
+            SamplingLimit::SampledLeg { limit } => (limit, tp.map(|t| t.sampled_leg_duty_max)),
+            SamplingLimit::ChoppingLowSide { limit } => {
+                (limit, tp.and_then(|t| t.chop_duty).map(|d| 1.0 - d))
+            }
+            SamplingLimit::DcLink { limit } => (limit, tp.and_then(|t| t.modulation_index)),
+        }
+    }
+}
+
+/// The sampling window of a three-phase setting, as the solver's `sampling-window` check
+/// takes it (`Err` when no duty holds it).
+fn sampling_limit(
+    ev: &Evaluator,
+    pwm: &PwmSetting,
+    dead_s: f64,
+) -> Option<Result<SamplingLimit, ()>> {
+    use crate::model::evaluate::ThreePhaseModulation as M;
+    use crate::model::physics::three_phase::{Chop, ZeroSequence, dc_link};
+    let tp = ev.three_phase.as_ref()?;
+    if let Some(t) = ev.dc_link_timing(pwm, dead_s) {
+        let zs = match tp.modulation {
+            M::Sinusoidal { zero_sequence, .. } => zero_sequence,
+            M::SixStep { .. } => ZeroSequence::None,
+        };
+        let m_lin = if zs == ZeroSequence::MinMax {
+            2.0 / 3f64.sqrt()
+        } else {
+            1.0
+        };
+        return Some(
+            dc_link::max_modulation(m_lin, zs, pwm.duty_steps, &t)
+                .map(|limit| SamplingLimit::DcLink { limit })
+                .ok_or(()),
+        );
+    }
+    let win = ev.sampling_window(pwm, dead_s)?;
+    Some(win.map_err(|_| ()).map(|w| match tp.modulation {
+        M::SixStep {
+            chop: Chop::LowSide,
+        } => SamplingLimit::ChoppingLowSide {
+            limit: w.max_high_side_duty,
+        },
+        _ => SamplingLimit::SampledLeg {
+            limit: w.max_high_side_duty,
+        },
+    }))
 }
 
 impl<'a> Context<'a> {
@@ -617,12 +690,21 @@ impl<'a> Context<'a> {
         if ev.needs_dead_time() && dead.code.is_none() {
             fixed |= DEAD_TIME;
         }
+        let sampling = match sampling_limit(ev, &pwm, dead.seconds) {
+            Some(Ok(limit)) => Some(limit),
+            Some(Err(())) => {
+                fixed |= SAMPLING_WINDOW;
+                None
+            }
+            None => None,
+        };
         Context {
             base: ev,
             spreads: spreads(d, ev),
             f_hz: f,
             dead: *dead,
             duty,
+            sampling,
             fixed_failures: fixed,
         }
     }
@@ -678,6 +760,12 @@ impl<'a> Context<'a> {
         let ev = self.base;
         if !duty_fits(duty_needed(ev, r.compare_duty), self.duty.as_ref()) {
             failed |= DUTY_RANGE;
+        }
+        if let Some(limit) = self.sampling {
+            let (limit, value) = limit.of(r);
+            if value.is_some_and(|v| v > limit + EPS) {
+                failed |= SAMPLING_WINDOW;
+            }
         }
         failed
     }
@@ -1300,6 +1388,11 @@ pub struct WorstCase {
     /// Highest channel duty needed against the timer's limit.
     pub duty_range: WorstValue,
     pub dead_time: WorstDeadTime,
+    /// Three-phase: the figure the current-sampling window bounds (the sampled leg's
+    /// high-side duty; six-step low-side chopping, the chopping low side's off share; one
+    /// DC-link shunt, the modulation index) against the window's limit at this setting.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sampling: Option<WorstValue>,
     /// Corners where the rated current cannot be reached.
     pub unreachable: Vec<String>,
     /// Every constraint holds at every corner (the setting-only checks,
@@ -1363,6 +1456,7 @@ pub fn worst_case(
         reason: "no significant audible line at any corner".into(),
     };
     let mut unreachable = Vec::new();
+    let mut sampled = None;
     for c in &hot {
         let name = c.label.clone();
         let Some(r) = c.ev.case(&c.ev.rated, f, dead.seconds) else {
@@ -1381,6 +1475,9 @@ pub fn worst_case(
             f64::INFINITY
         };
         keep_max(&mut duty, Some(duty_value), &name);
+        if let Some(limit) = ctx.sampling {
+            keep_max(&mut sampled, limit.of(&r).1, &name);
+        }
         if !r.acoustic.pass && audible.pass {
             audible = WorstAudible {
                 pass: false,
@@ -1402,7 +1499,9 @@ pub fn worst_case(
     let junction = worst_value(tj, Some(l.t_j_max_c), "°C");
     let total_loss = worst_value(loss, None, "W");
     let ripple = worst_value(ripple, l.ripple_pp_max_a, "A");
-    let pass = junction.pass
+    let sampling = sampling_worst(&ctx, sampled);
+    let pass = sampling.as_ref().is_none_or(|w| w.pass)
+        && junction.pass
         && ripple.pass
         && audible.pass
         && duty_range.pass
@@ -1418,9 +1517,31 @@ pub fn worst_case(
         audible,
         duty_range,
         dead_time,
+        sampling,
         unreachable,
         pass,
     }
+}
+
+/// The worst case's sampling-window row: the worst corner's figure against the window's
+/// limit; a setting where no duty holds the window fails with no value.
+fn sampling_worst(ctx: &Context, worst: Option<(Option<f64>, String)>) -> Option<WorstValue> {
+    if ctx.fixed_failures & SAMPLING_WINDOW != 0 {
+        return Some(WorstValue {
+            value: None,
+            limit: None,
+            unit: "",
+            corner: "no duty holds the sampling window at this setting".into(),
+            pass: false,
+        });
+    }
+    let limit = ctx.sampling?;
+    let l = match limit {
+        SamplingLimit::SampledLeg { limit }
+        | SamplingLimit::ChoppingLowSide { limit }
+        | SamplingLimit::DcLink { limit } => limit,
+    };
+    Some(worst_value(worst, Some(l), ""))
 }
 
 fn worst_dead(d: &Design, ev: &Evaluator, dead: &DeadTimeChoice) -> WorstDeadTime {
@@ -1627,6 +1748,19 @@ fn worst_text(o: &mut String, wc: &WorstCase) {
             .unwrap_or_default(),
         verdict(duty.pass)
     ));
+    if let Some(w) = &wc.sampling {
+        let pct = |v: f64| format!("{:.1} %", 100.0 * v);
+        o.push_str(&format!(
+            "  {:<18}{:>11}  {:<18}{}\n",
+            "sampling window",
+            w.value.map(pct).unwrap_or_else(|| "none".into()),
+            w.limit
+                .map(|l| format!("limit {}", pct(l)))
+                .unwrap_or_default(),
+            verdict(w.pass)
+        ));
+        o.push_str(&wrap(&w.corner, "    at", 7));
+    }
     o.push_str(&format!(
         "  {:<18}{:>11}  {:<18}{}\n",
         "audible",

@@ -358,6 +358,9 @@ fn worst_case_out(w: &crate::model::spread::WorstCase) -> WorstCaseOut {
             pass: w.dead_time.pass,
         });
     }
+    if let Some(v) = &w.sampling {
+        rows.push(row("sampling-window", v));
+    }
     rows.push(WorstRow {
         name: "audible".into(),
         value: None,

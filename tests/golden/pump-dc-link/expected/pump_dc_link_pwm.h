@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:e5425afc563cbc1900b150a2f614f572b5ac6a58c19a993e65cce5a591d46c6d)
+ * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:2d139aca61cee59fa7d96013c053fd6a73e05622490dfce238b9f10f54c23d3f)
  *
  * Chosen setting
  *   design            pump-dc-link
@@ -57,13 +57,14 @@
  *   stall           12.7 A (cycle-by-cycle: a stall is chopped at the trip's highest edge); junction 74.3 °C at hot R_ds(on) (Computed in steady state: the design gives no stall time (R_th(j-a) 9.30 K/W))
  *
  * Worst case over part and operating spreads
- *   junction    51.3 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
- *   total-loss  4.13 W; ok; hot: V_th min, supply 54.0 V
- *   ripple      807 mA; ok; hot: V_th min, supply 54.0 V
- *   duty-range  76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
- *   dead-time   needs 119 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
- *   audible     ok; no significant audible line at any corner
- *   corners     4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
+ *   junction         51.3 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
+ *   total-loss       4.13 W; ok; hot: V_th min, supply 54.0 V
+ *   ripple           807 mA; ok; hot: V_th min, supply 54.0 V
+ *   duty-range       76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
+ *   dead-time        needs 119 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
+ *   sampling-window  61.78 % (limit 115.47 %); ok; hot: V_th min, supply 40.0 V
+ *   audible          ok; no significant audible line at any corner
+ *   corners          4 evaluated; loss and T_j rise monotonically with R_ds(on) at 25 °C, Q_g, Q_gd, R_g,int, Q_rr, ambient, so the hot corners take their maxima; both ends of V_th, supply (not monotonic in the model)
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
