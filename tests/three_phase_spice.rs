@@ -47,10 +47,9 @@ fn print_all(cmp: &[TpComparison]) {
 /// 16–40 kHz, 5–20 A, m 0.5–1.1, cos φ 0.64–1 and −0.87): total bridge loss
 /// within a median 5 % and worst 12 %, conduction within 3 %, the
 /// phase-current ripple within 3 % (the issue's bounds; measured: total
-/// median 1.9 %, worst 6.1 % (T07, 100 V at 40 kHz, its edges +8.5 %);
-/// conduction worst +2.97 % (T07, at the bound: pwmplan books the channel
-/// over the whole commanded duty, dead times included, so it is high by
-/// about 2·t_d·f_sw, 2.4 % there); ripple worst 2.3 %). The rms is the fundamental
+/// median 1.1 %, worst 5.1 % (T07, 100 V at 40 kHz, its edges +8.5 %);
+/// conduction worst 0.6 % (2.97 % before the channels gave the diode its
+/// share of the dead times); ripple worst 2.3 %). The rms is the fundamental
 /// fed in plus the model's ripple, so it is checked tighter (0.5 %).
 #[test]
 fn sinusoidal_bridge_within_the_issue_bounds() {

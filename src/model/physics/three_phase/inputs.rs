@@ -146,6 +146,7 @@ impl ThreePhaseStage<'_> {
             e_on_j: tr.e_on_j,
             e_off_j: tr.e_off_j,
             dead_time_diode_j: forward::forward_voltage_v(self.sw, i) * i * t_s,
+            dead_time_diode_s: t_s,
             recovery_switch_j,
             recovery_diode_j,
         })
@@ -184,6 +185,9 @@ pub struct EdgePair {
     pub e_on_j: f64,
     pub e_off_j: f64,
     pub dead_time_diode_j: f64,
+    /// Time the partner's body diode carries the current over the period's two dead times,
+    /// s: the channels carry it for the rest of the period only.
+    pub dead_time_diode_s: f64,
     pub recovery_switch_j: f64,
     pub recovery_diode_j: f64,
 }

@@ -100,7 +100,11 @@ pub fn min_max_forward_correction(modulation_index: f64, phi_rad: f64) -> f64 {
 ///   m·cos φ/(3π)), summing to I_pk²·R/4 with synchronous rectification (Wintrich, Nicolai,
 ///   Tursky, Reimann, *Application Manual Power Semiconductors*, 2nd ed., 2015, inverter
 ///   conduction losses with r_CE → R_ds(on) and V_CE0 = 0; from memory); with min-max zero
-///   sequence the split is shifted by `min_max_forward_correction` (own derivation);
+///   sequence the split is shifted by `min_max_forward_correction` (own derivation); the
+///   reverse line less the dead times, when the body diode and no channel carries the current:
+///   2·t_dead per period while the switch is the leg's soft side, half the electrical period
+///   with a mean i² of I_pk²/4, so I_pk²·R·t_dead·f/2 (own derivation; the sample sum takes
+///   each angle's diode share instead);
 /// - dead-time body diode V_sd·(2/π)·I_pk·t_dead·f: per leg two dead times per period, both in
 ///   the body diode of the switch not carrying forward current (low side for i > 0, see
 ///   `losses`), and the mean of |i| over the half period in which that is a given switch is
@@ -138,7 +142,7 @@ pub fn sinusoidal_losses_closed_form(
     let gate = stage.gate(f, 2.0 * i / PI)?;
     let lines = LossLines {
         conduction_forward_w: i * i * r * (0.125 + m_cos + shift),
-        conduction_reverse_w: i * i * r * (0.125 - m_cos - shift),
+        conduction_reverse_w: i * i * r * (0.125 - m_cos - shift - 0.5 * stage.t_dead_s * f),
         body_diode_w: sw.v_sd_v * 2.0 / PI * i * stage.t_dead_s * f,
         switching_w: f * (e_on + e_off) / PI,
         reverse_recovery_w: (0.5 + 0.125) * sw.q_rr_c * v * f,
@@ -294,6 +298,7 @@ pub fn sinusoidal_loss_samples(
                     e_on_j: e_on_pk * k_lin,
                     e_off_j: e_off_pk * k_lin,
                     dead_time_diode_j: sw.v_sd_v * i.abs() * 2.0 * stage.t_dead_s,
+                    dead_time_diode_s: 2.0 * stage.t_dead_s,
                     recovery_switch_j: sw.q_rr_c * v,
                     recovery_diode_j: 0.25 * sw.q_rr_c * v,
                 }
@@ -320,6 +325,12 @@ pub fn sinusoidal_loss_samples(
             hard.output_capacitance_w += e_oss * f;
             soft.reverse_recovery_w += e.recovery_diode_j * f;
             soft.body_diode_w += e.dead_time_diode_j * f;
+            // While the diode carries the current no channel does: the leg's two channels
+            // conduct for the period less the diode's time (the duties d and 1 − d cover the
+            // whole period). Taken from the soft side, whose diode it is, in its reverse
+            // conduction (common practice: one conducting path at a time).
+            soft.conduction_reverse_w =
+                (soft.conduction_reverse_w - e.dead_time_diode_s * f * i2r).max(0.0);
         }
         lines.push((hs, ls));
     }

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:139be26eba0c460b706936b449beafa09aa73dab6aa124c535bf67ed6e90e0cd)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:fdbfb4e9fe2fb4eee46208c0491006f4925953537639dae9385bd086347a0c2b)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -27,14 +27,14 @@
  *   frequency-band     16.000 kHz  20.007 kHz   4.01 kHz  ok
  *
  * Losses at the rated case (whole stage)
- *   conduction           1.69 W
+ *   conduction           1.68 W
  *   switching            340 mW
  *   output capacitance   79.2 mW
  *   reverse recovery     666 mW
  *   dead-time diode      78.3 mW
  *   gate drive           82.4 mW
  *   motor ripple copper  9.43 mW
- *   total                2.94 W
+ *   total                2.93 W
  *
  * Operating figures
  *   rated case              48.0 V supply, 45.0 °C ambient, 10.0 A load
@@ -58,7 +58,7 @@
  *
  * Worst case over part and operating spreads
  *   junction         51.3 °C (limit 145 °C); ok; hot: V_th min, supply 54.0 V
- *   total-loss       4.13 W; ok; hot: V_th min, supply 54.0 V
+ *   total-loss       4.12 W; ok; hot: V_th min, supply 54.0 V
  *   ripple           807 mA; ok; hot: V_th min, supply 54.0 V
  *   duty-range       76.75 % (limit 98.13 %); ok; hot: V_th min, supply 40.0 V
  *   dead-time        needs 119 ns against 125 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -75,8 +75,8 @@
  *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
  *
  * Alternatives
- *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +625 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
- *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1255 mW total loss, +1.9 K junction, -403 mA ripple, -1.00 bits resolution
+ *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +621 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
+ *   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +1246 mW total loss, +1.8 K junction, -403 mA ripple, -1.00 bits resolution
  *
  * Findings (`pwmplan explain CODE` says what a bracketed code means)
  *   info  the dead time costs about 120 mV of mean output voltage (0.25 % of the nominal supply) where it opposes the current; the compare duties above already make it up [dead-time-voltage-error]
