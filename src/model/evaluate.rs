@@ -136,6 +136,14 @@ pub enum ThreePhaseModulation {
 }
 
 impl ThreePhaseModulation {
+    /// The zero sequence added to the references (six-step: none).
+    pub fn zero_sequence(&self) -> ZeroSequence {
+        match *self {
+            ThreePhaseModulation::Sinusoidal { zero_sequence, .. } => zero_sequence,
+            ThreePhaseModulation::SixStep { .. } => ZeroSequence::None,
+        }
+    }
+
     /// Highest leg duty over the electrical period at index m: ½(1 + k·m)
     /// with k = 1 without zero sequence and √3/2 with min-max (the largest
     /// half line-to-line reference, Holmes, Lipo, *Pulse Width Modulation for

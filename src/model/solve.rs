@@ -535,10 +535,9 @@ impl Evaluator {
         let limit = 2.0 * (need_s + 2.0 * tick);
         // The half period: P counts of the up count.
         let half = s.duty_steps as f64 * tick;
-        let zs = match tp.map(|tp| tp.modulation) {
-            Some(ThreePhaseModulation::Sinusoidal { zero_sequence, .. }) => zero_sequence,
-            _ => three_phase::ZeroSequence::None,
-        };
+        let zs = tp.map_or(three_phase::ZeroSequence::None, |tp| {
+            tp.modulation.zero_sequence()
+        });
         let p = s.duty_steps;
         let fits = [0.0, m_needed]
             .iter()

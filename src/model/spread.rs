@@ -605,7 +605,7 @@ struct Context<'a> {
 }
 
 /// What a three-phase sample's sampling window holds it to: the figure
-/// [`SamplingLimit::value`] reads off an evaluated case must not exceed `limit`.
+/// [`SamplingLimit::of`] reads off an evaluated case must not exceed `limit`.
 #[derive(Debug, Clone, Copy)]
 enum SamplingLimit {
     /// Low-side shunts: the sampled leg's highest high-side duty at most the window's.
@@ -619,16 +619,22 @@ enum SamplingLimit {
 }
 
 impl SamplingLimit {
-    /// The limit and the case's figure against it (`None` when the case has no
-    /// three-phase figures).
-    fn of(self, r: &CaseResult) -> (f64, Option<f64>) {
-        let tp = r.three_phase.as_ref();
+    fn limit(self) -> f64 {
         match self {
-            SamplingLimit::SampledLeg { limit } => (limit, tp.map(|t| t.sampled_leg_duty_max)),
-            SamplingLimit::ChoppingLowSide { limit } => {
-                (limit, tp.and_then(|t| t.chop_duty).map(|d| 1.0 - d))
-            }
-            SamplingLimit::DcLink { limit } => (limit, tp.and_then(|t| t.modulation_index)),
+            SamplingLimit::SampledLeg { limit }
+            | SamplingLimit::ChoppingLowSide { limit }
+            | SamplingLimit::DcLink { limit } => limit,
+        }
+    }
+
+    /// The case's figure against the limit (`None` when the case has no three-phase
+    /// figures).
+    fn of(self, r: &CaseResult) -> Option<f64> {
+        let tp = r.three_phase.as_ref()?;
+        match self {
+            SamplingLimit::SampledLeg { .. } => Some(tp.sampled_leg_duty_max),
+            SamplingLimit::ChoppingLowSide { .. } => tp.chop_duty.map(|d| 1.0 - d),
+            SamplingLimit::DcLink { .. } => tp.modulation_index,
         }
     }
 }
@@ -641,20 +647,12 @@ fn sampling_limit(
     dead_s: f64,
 ) -> Option<Result<SamplingLimit, ()>> {
     use crate::model::evaluate::ThreePhaseModulation as M;
-    use crate::model::physics::three_phase::{Chop, ZeroSequence, dc_link};
+    use crate::model::physics::three_phase::{Chop, dc_link};
     let tp = ev.three_phase.as_ref()?;
     if let Some(t) = ev.dc_link_timing(pwm, dead_s) {
-        let zs = match tp.modulation {
-            M::Sinusoidal { zero_sequence, .. } => zero_sequence,
-            M::SixStep { .. } => ZeroSequence::None,
-        };
-        let m_lin = if zs == ZeroSequence::MinMax {
-            2.0 / 3f64.sqrt()
-        } else {
-            1.0
-        };
+        let zs = tp.modulation.zero_sequence();
         return Some(
-            dc_link::max_modulation(m_lin, zs, pwm.duty_steps, &t)
+            dc_link::max_modulation(zs.linear_limit(), zs, pwm.duty_steps, &t)
                 .map(|limit| SamplingLimit::DcLink { limit })
                 .ok_or(()),
         );
@@ -761,11 +759,10 @@ impl<'a> Context<'a> {
         if !duty_fits(duty_needed(ev, r.compare_duty), self.duty.as_ref()) {
             failed |= DUTY_RANGE;
         }
-        if let Some(limit) = self.sampling {
-            let (limit, value) = limit.of(r);
-            if value.is_some_and(|v| v > limit + EPS) {
-                failed |= SAMPLING_WINDOW;
-            }
+        if let Some(limit) = self.sampling
+            && limit.of(r).is_some_and(|v| v > limit.limit() + EPS)
+        {
+            failed |= SAMPLING_WINDOW;
         }
         failed
     }
@@ -1476,7 +1473,7 @@ pub fn worst_case(
         };
         keep_max(&mut duty, Some(duty_value), &name);
         if let Some(limit) = ctx.sampling {
-            keep_max(&mut sampled, limit.of(&r).1, &name);
+            keep_max(&mut sampled, limit.of(&r), &name);
         }
         if !r.acoustic.pass && audible.pass {
             audible = WorstAudible {
@@ -1535,13 +1532,7 @@ fn sampling_worst(ctx: &Context, worst: Option<(Option<f64>, String)>) -> Option
             pass: false,
         });
     }
-    let limit = ctx.sampling?;
-    let l = match limit {
-        SamplingLimit::SampledLeg { limit }
-        | SamplingLimit::ChoppingLowSide { limit }
-        | SamplingLimit::DcLink { limit } => limit,
-    };
-    Some(worst_value(worst, Some(l), ""))
+    Some(worst_value(worst, Some(ctx.sampling?.limit()), ""))
 }
 
 fn worst_dead(d: &Design, ev: &Evaluator, dead: &DeadTimeChoice) -> WorstDeadTime {

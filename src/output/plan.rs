@@ -105,16 +105,8 @@ fn dc_link_plan(
     c: &Candidate,
     k: &crate::model::solve::DcLinkOut,
 ) -> DcLinkPlan {
-    use crate::model::evaluate::ThreePhaseModulation as M;
-    use crate::model::physics::three_phase::{ZeroSequence, dc_link};
-    let zs = match tp.modulation {
-        M::Sinusoidal { zero_sequence, .. } => zero_sequence,
-        M::SixStep { .. } => ZeroSequence::None,
-    };
-    let m_lin = match zs {
-        ZeroSequence::MinMax => 2.0 / 3f64.sqrt(),
-        ZeroSequence::None => 1.0,
-    };
+    use crate::model::physics::three_phase::dc_link;
+    let zs = tp.modulation.zero_sequence();
     let tick = 1.0 / (c.setting.frequency_hz * c.setting.period_ticks as f64);
     DcLinkPlan {
         settle_time_s: tp.settle_s,
@@ -123,8 +115,13 @@ fn dc_link_plan(
         min_vector_counts: k.timing.min_vector_counts,
         min_vector_s: k.timing.min_vector_counts as f64 * tick,
         needed_modulation: k.needed_modulation,
-        max_modulation: dc_link::max_modulation(m_lin, zs, c.setting.duty_steps, &k.timing)
-            .unwrap_or(0.0),
+        max_modulation: dc_link::max_modulation(
+            zs.linear_limit(),
+            zs,
+            c.setting.duty_steps,
+            &k.timing,
+        )
+        .unwrap_or(0.0),
     }
 }
 
