@@ -23,7 +23,7 @@ use crate::model::physics::ratings::{self, Finding, RatingInputs, Severity};
 use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
 use crate::model::physics::thermal::{self, JunctionTemperature};
 use crate::model::physics::three_phase::{
-    self, BackEmfShape, Chop, LossLines, MotorParams, SixStepPoint, ThreePhaseStage, ZeroSequence,
+    self, BackEmfShape, Chop, LossLines, MotorParams, ThreePhaseStage, ZeroSequence,
 };
 use crate::model::physics::{sampling, switching};
 use crate::model::timer::{
@@ -768,6 +768,10 @@ pub struct ThreePhaseCase {
     /// plans written before it).
     #[serde(default)]
     pub dc_link_mean_a: f64,
+    /// Six-step: the off-going phase's diode freewheel after a commutation, as simulated
+    /// (written only for six-step).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub commutation: Option<CommutationFigure>,
     /// Each high-side and each low-side switch, W.
     pub high_side_w: f64,
     pub low_side_w: f64,
@@ -793,6 +797,41 @@ pub struct ThreePhaseCase {
     /// (written only when true).
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub dead_time_harmonics_unsettled: bool,
+}
+
+/// Six-step: how long the off-going phase's current takes to reach zero
+/// after a commutation (the longer of the two kinds, positive and negative
+/// rail), against the sector.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct CommutationFigure {
+    /// The longer freewheel, s (the sector when it does not end).
+    pub freewheel_s: f64,
+    /// The sector, s.
+    pub sector_s: f64,
+    /// Whether the current reached zero before the next commutation.
+    pub settles: bool,
+}
+
+/// The commutation figure of a simulation, against the sector π/(3·ω_e)
+/// (the simulation's own holds a whole number of PWM periods).
+fn commutation_figure(
+    sim: &three_phase::SixStepSimulation,
+    omega_e_rad_s: f64,
+) -> CommutationFigure {
+    let settles = sim.commutation_s.iter().all(Option::is_some);
+    let freewheel_s = if settles {
+        sim.commutation_s
+            .iter()
+            .flatten()
+            .fold(0.0, |a: f64, &b| a.max(b))
+    } else {
+        std::f64::consts::PI / 3.0 / omega_e_rad_s
+    };
+    CommutationFigure {
+        freewheel_s,
+        sector_s: std::f64::consts::PI / 3.0 / omega_e_rad_s,
+        settles,
+    }
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -1199,12 +1238,15 @@ impl Evaluator {
                 let m = self.three_phase_modulation(tp, case, f_hz, t_dead_s, 0.0)?;
                 return Some(tp.modulation.leg_duty_max(m));
             }
-            let m = self.modulation_for_load(case, f_hz)?;
-            let drops = self.leg_drops(case, f_hz, t_dead_s);
-            return Some(
-                tp.modulation.leg_duty_max(m)
-                    + three_phase_duty_allowance(&drops, case.load_current_a.abs()),
-            );
+            // Six-step: the simulated duty holds the dead time, the diodes and
+            // R_ds(on), here at the junction limit (as `leg_drops`).
+            let ThreePhaseModulation::SixStep { chop } = tp.modulation else {
+                return None;
+            };
+            let d = self.leg_drops(case, f_hz, t_dead_s);
+            let r = [d.r_ds_on_ohm; 2];
+            let sim = self.six_step_simulation(tp, case, f_hz, d.t_dead_s, chop, r)?;
+            return Some(tp.modulation.leg_duty_max(sim.duty));
         }
         let (m, w) = self.modulation_and_waveform(case, f_hz)?;
         let d = self.stage_duty_and_waveform(case, m, w, f_hz, t_dead_s).0;
@@ -1248,17 +1290,6 @@ pub struct StageDrops {
     pub r_ds_on_ohm: f64,
     /// Body-diode forward voltage, V.
     pub v_sd_v: f64,
-}
-
-/// Extra compare duty a three-phase leg needs at its highest duty so that
-/// the dead time and the drops do not cut the voltage the modulation asks
-/// for: the whole dead-time loss of one leg with its diode, t_d·f·(V + 2·V_SD),
-/// and the switch drop at the peak current, I·R_ds(on), over the bus (a
-/// conservative bound of our own from [`leg_voltage::offset_v`] with the
-/// current out of the leg at both edges).
-fn three_phase_duty_allowance(drops: &StageDrops, i_peak_a: f64) -> f64 {
-    let x = drops.t_dead_s * drops.f_sw_hz;
-    (x * (drops.v_bus_v + 2.0 * drops.v_sd_v) + i_peak_a * drops.r_ds_on_ohm) / drops.v_bus_v
 }
 
 /// The stage's loss split so that the lines add up to the total: the
@@ -1360,7 +1391,6 @@ impl Evaluator {
         t_dead_s: f64,
         r_path_ohm: f64,
     ) -> Option<f64> {
-        let motor = self.motor_params(tp);
         match tp.modulation {
             ThreePhaseModulation::Sinusoidal {
                 zero_sequence,
@@ -1368,15 +1398,41 @@ impl Evaluator {
             } => self
                 .sinusoidal_command(tp, case, f_hz, t_dead_s, current_advance_rad, zero_sequence)
                 .map(|c| c.point.modulation_index),
-            ThreePhaseModulation::SixStep { chop } => three_phase::six_step_duty(
-                &self.bridge(case, f_hz, t_dead_s),
-                &motor,
-                tp.omega_e_rad_s,
-                chop,
-                case.load_current_a,
-                r_path_ohm,
-            )
-            .ok(),
+            ThreePhaseModulation::SixStep { chop } => self
+                .six_step_simulation(tp, case, f_hz, t_dead_s, chop, [0.5 * r_path_ohm; 2])
+                .map(|s| s.duty),
+        }
+    }
+
+    /// Six-step simulated switch by switch through its commutations at the
+    /// chopping duty that holds the case's line current
+    /// (`three_phase::six_step_simulated`), with the high- and low-side
+    /// R_ds(on) `r_ds_ohm`.
+    pub fn six_step_simulation(
+        &self,
+        tp: &ThreePhaseModel,
+        case: &OperatingCase,
+        f_hz: f64,
+        t_dead_s: f64,
+        chop: Chop,
+        r_ds_ohm: [f64; 2],
+    ) -> Option<three_phase::SixStepSimulation> {
+        let circuit = three_phase::SixStepCircuit {
+            stage: self.bridge(case, f_hz, t_dead_s),
+            motor: self.motor_params(tp),
+            omega_e_rad_s: tp.omega_e_rad_s,
+            chop,
+            r_ds_ohm,
+        };
+        let guess = three_phase::six_step_duty_guess(&circuit, case.load_current_a);
+        match three_phase::six_step_simulated(&circuit, case.load_current_a, guess) {
+            Ok(s) => Some(s),
+            // Full duty, with the current it reaches: the duty-range check
+            // then refuses the setting, naming the duty.
+            Err(three_phase::ThreePhaseError::DutyUnreachable {
+                i_at_full_duty_a, ..
+            }) => three_phase::six_step_simulated_at(&circuit, 1.0, i_at_full_duty_a).ok(),
+            Err(_) => None,
         }
     }
 
@@ -1442,13 +1498,9 @@ impl Evaluator {
                 self.case_six_step(tp, case, f_hz, t_dead_s, chop)
             }
         }?;
+        // Six-step's simulated duty already makes up the dead time, the
+        // diodes and R_ds(on) at the junction temperatures.
         r.compare_duty = tp.modulation.leg_duty_max(r.modulation);
-        if let ThreePhaseModulation::SixStep { .. } = tp.modulation {
-            // Six-step's duty does not make up the bridge's losses: bound them.
-            let drops = self.leg_drops(case, f_hz, t_dead_s);
-            let i_peak = r.ripple.max_a.abs().max(case.load_current_a.abs());
-            r.compare_duty += three_phase_duty_allowance(&drops, i_peak);
-        }
         Some(r)
     }
 
@@ -1523,6 +1575,7 @@ impl Evaluator {
             electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
             current_a: i_pk,
             dc_link_mean_a: three_phase::sinusoidal_dc_link_mean_a(m, i_pk, point.power_factor),
+            commutation: None,
             high_side_w: 0.0,
             low_side_w: 0.0,
             high_side_junction_c: None,
@@ -1643,11 +1696,13 @@ impl Evaluator {
         Some((compare_duty, ripple.pp_max_a, acoustic))
     }
 
-    /// Six-step case. The duty is solved for the line current with the two
-    /// switches of the path in the loop (R_ds(on) at the side temperatures,
-    /// starting from ambient, solved twice); each side's junction is iterated
-    /// on its own lines of `six_step_losses` (a side's lines depend on its own
-    /// T_j only).
+    /// Six-step case, simulated switch by switch through its commutations
+    /// (`six_step_simulation`): the duty holds the line current with each
+    /// side's R_ds(on) at its junction temperature (from ambient, solved
+    /// twice); each side's junction is iterated on its own lines (a side's
+    /// lines depend on its own T_j only, through R_ds(on)). The PWM ripple
+    /// and its audibility are the flat-sector line current's at that duty
+    /// (`six_step_ripple`), placed around the simulated mean.
     fn case_six_step(
         &self,
         tp: &ThreePhaseModel,
@@ -1658,79 +1713,66 @@ impl Evaluator {
     ) -> Option<CaseResult> {
         let st = &self.stage;
         let bridge = self.bridge(case, f_hz, t_dead_s);
-        let motor = self.motor_params(tp);
         let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
-        let f_e = tp.omega_e_rad_s / (2.0 * std::f64::consts::PI);
+        let r_at = |t: f64| thermal::r_ds_on_ohm(&st.switch, t);
         let (mut t_hi, mut t_lo) = (case.t_ambient_c, case.t_ambient_c);
         let mut last = None;
         for _ in 0..2 {
-            let r_path =
-                thermal::r_ds_on_ohm(&st.switch, t_hi) + thermal::r_ds_on_ohm(&st.switch, t_lo);
-            let d = self.three_phase_modulation(tp, case, f_hz, t_dead_s, r_path)?;
-            let w =
-                three_phase::six_step_ripple(&bridge, &motor, tp.omega_e_rad_s, d, chop, r_path)
-                    .ok()?;
-            let pt = SixStepPoint {
-                chop,
-                duty: d,
-                f_e_hz: f_e,
-            };
-            let side = |high: bool| {
-                thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
-                    three_phase::six_step_losses(&bridge, &pt, &w, t, t)
-                        .map(|l| {
-                            if high {
-                                l.high_side.total_w()
-                            } else {
-                                l.low_side.total_w()
-                            }
-                        })
-                        .unwrap_or(f64::NAN)
+            let sim =
+                self.six_step_simulation(tp, case, f_hz, t_dead_s, chop, [r_at(t_hi), r_at(t_lo)])?;
+            let side_w = |high: bool, t: f64| {
+                sim.losses(&bridge, r_at(t), r_at(t)).map_or(f64::NAN, |l| {
+                    if high {
+                        l.high_side.total_w()
+                    } else {
+                        l.low_side.total_w()
+                    }
                 })
+            };
+            let slow = self.follows_fundamental(tp);
+            let side = |high: bool| {
+                let fast = thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
+                    side_w(high, t)
+                });
+                if !slow {
+                    return fast;
+                }
+                let (th, period_s) = (&st.thermal, fundamental_period_s(tp));
+                let swing = thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
+                    let p = side_w(high, t);
+                    thermal::periodic_peak_rise_k(th, &six_step_conduction_shape(p), period_s)
+                        / r_th
+                });
+                hotter(fast, swing)
             };
             let (jh, jl) = (side(true), side(false));
             t_hi = jh.t_j_c().unwrap_or(t_max);
             t_lo = jl.t_j_c().unwrap_or(t_max);
-            last = Some((d, w, pt, jh, jl));
+            last = Some((sim, jh, jl));
         }
-        let (d, w, pt, jh, jl) = last?;
-        let (jh, jl) = if self.follows_fundamental(tp) {
-            let slow = |high: bool| {
-                let (th, period_s) = (&st.thermal, fundamental_period_s(tp));
-                thermal::junction_temperature(case.t_ambient_c, r_th, t_max, |t| {
-                    let side = three_phase::six_step_losses(&bridge, &pt, &w, t, t).map(|l| {
-                        if high {
-                            l.high_side.total_w()
-                        } else {
-                            l.low_side.total_w()
-                        }
-                    });
-                    side.map_or(f64::NAN, |p| {
-                        thermal::periodic_peak_rise_k(th, &six_step_conduction_shape(p), period_s)
-                            / r_th
-                    })
-                })
-            };
-            (hotter(jh, slow(true)), hotter(jl, slow(false)))
-        } else {
-            (jh, jl)
-        };
-        let l = three_phase::six_step_losses(&bridge, &pt, &w, t_hi, t_lo).ok()?;
+        let (sim, jh, jl) = last?;
+        let l = sim.losses(&bridge, r_at(t_hi), r_at(t_lo)).ok()?;
+        let motor = self.motor_params(tp);
+        let r_path = r_at(t_hi) + r_at(t_lo);
+        let d = sim.duty;
+        let w = three_phase::six_step_ripple(&bridge, &motor, tp.omega_e_rad_s, d, chop, r_path)
+            .ok()?;
+        let shift = sim.held_mean_a - w.i_avg_a();
         let sides = SideResult {
             high: l.high_side,
             low: l.low_side,
             t_high: jh,
             t_low: jl,
             gate_outside_w: l.gate_driver_w + l.gate_external_w,
-            i_on_a: w.value_at(0.0).abs(),
-            i_off_a: w.value_at(d * w.period_s()).abs(),
+            i_on_a: (w.value_at(0.0) + shift).abs(),
+            i_off_a: (w.value_at(d * w.period_s()) + shift).abs(),
         };
         let acoustic = acoustics::assess(&w, &self.audible, &self.significance).ok()?;
         let ripple_fig = RippleFigures {
-            mean_a: w.i_avg_a(),
-            rms_a: w.i_rms_a(),
-            max_a: w.i_max_a(),
-            min_a: w.i_min_a(),
+            mean_a: sim.held_mean_a,
+            rms_a: sim.held_mean_a.hypot(w.ripple_rms_a()),
+            max_a: w.i_max_a() + shift,
+            min_a: w.i_min_a() + shift,
             peak_to_peak_a: w.ripple_pp_a(),
             ac_rms_a: w.ripple_rms_a(),
             continuous: w.continuous(),
@@ -1745,9 +1787,10 @@ impl Evaluator {
             chop_duty: Some(d),
             leg_duty_max: tp.modulation.leg_duty_max(d),
             sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(d),
-            electrical_frequency_hz: f_e,
+            electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
             current_a: case.load_current_a,
-            dc_link_mean_a: three_phase::six_step_dc_link_mean_a(&w, d),
+            dc_link_mean_a: sim.dc_link_mean_a,
+            commutation: Some(commutation_figure(&sim, tp.omega_e_rad_s)),
             high_side_w: 0.0,
             low_side_w: 0.0,
             high_side_junction_c: None,

@@ -204,7 +204,7 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
         match v.three_phase.filter(|t| t.modulation == "sinusoidal") {
             Some(t) => check_three_phase_currents(v, &regs, t, &mut out),
             None => out.not_checked.push(
-                "six-step phase currents (the commutation is not modelled yet; see the README)"
+                "six-step phase currents (the register-level bridge drives complementary legs only, without an open phase; the switch-by-switch six-step model is held against ngspice instead, see the README)"
                     .into(),
             ),
         }

@@ -144,8 +144,8 @@ pub const EXPLANATIONS: &[Explanation] = &[
     ),
     e(
         "six-step-commutation",
-        "Under six-step, after each commutation the off-going phase keeps its current flowing through a body diode until the voltage across its inductance has driven it to zero; the model takes each sector's current flat and leaves that interval out, so the needed duty and the chopping switch's loss come out low. A warning above 5 % of the 60° sector, an error (the plan refused) above a third of it; the interval is L·I over that voltage at the sector boundary.",
-        "Krishnan, Permanent Magnet Synchronous and Brushless DC Motor Drives, 2010, ch. 9 (from memory); the linearised interval and both bounds are our own",
+        "Under six-step, after each commutation the off-going phase keeps its current flowing through a body diode until the voltage across its inductance has driven it to zero. The plan simulates the bridge switch by switch, so the duty and the losses include that interval; a warning when it exceeds a quarter of the 60° sector (the torque dips for that long every sector, and a sensorless drive cannot see the floating phase's back-EMF until it ends), an error (the plan refused) when the current has not reached zero by the next commutation.",
+        "Krishnan, Permanent Magnet Synchronous and Brushless DC Motor Drives, 2010, ch. 9 (from memory); both bounds are our own",
     ),
     e(
         "stall-needs-current-limit",

@@ -89,7 +89,7 @@ pub const THREE_PHASE_ASSUMPTIONS: &[&str] = &[
     SWITCH_PARAMETERS_ASSUMPTION,
     SWITCHING_ASSUMPTION,
     "sinusoidal: star-connected non-salient motor, phase voltage E + (R + jωL)·I plus what the legs lose, made up edge by edge (each dead time clamped by the diode in the direction of the current at that edge, the 5th to 25th current harmonics it drives followed, or where those do not settle the period-averaged bridge followed in time), and raised by x/sin x, x = π·f_e/f, for one compare written per PWM period; losses averaged over 720 angles of the electrical period; ripple in the small-ripple limit, carrier sidebands lumped on the carrier harmonics",
-    "six-step: 120° blocks, line current as the exact periodic R-L-back-EMF solution of the two conducting phases; commutation transients not modelled (their diode-freewheel interval is estimated against the sector: the six-step-commutation finding)",
+    "six-step: 120° blocks simulated switch by switch to their periodic steady state (ideal switches with R_ds(on), body diodes at their forward voltage, dead times, the star motor's three currents with the back-EMF shape), so each commutation's diode freewheel and the floating phase's diode conduction are in the duty and the losses; commutation at a PWM period boundary; the PWM ripple and its audibility from the two conducting phases' exact R-L-back-EMF solution at that duty",
     "the six switches thermally independent, each with the board's junction-to-ambient path; all high sides alike, all low sides alike",
     LOW_SIDE_SAMPLING_ASSUMPTION,
     "rated load at the hottest ambient; ripple and switching loss checked again at the highest supply",
@@ -990,7 +990,7 @@ fn findings(
     }
     out.extend(bootstrap_finding(d, ev, c));
     out.extend(bootstrap_hold_up_finding(d, ev));
-    out.extend(six_step_commutation_finding(ev, c));
+    out.extend(six_step_commutation_finding(c));
     out.extend(dead_time_harmonics_finding(c));
     if matches!(ev.stage.topology, Topology::LowSide)
         && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
@@ -1216,67 +1216,50 @@ fn bootstrap_hold_up_finding(d: &Design, ev: &Evaluator) -> Option<FindingOut> {
     Some(finding(severity, "bootstrap-hold-up", what))
 }
 
-/// Share of a 60° sector above which the diode freewheel after a six-step commutation is
-/// worth a warning, and above which the plan is refused: our own bounds. Against the
-/// three-phase circuit reference (`tests/spice/three_phase_errors.md`), 22–23 % of the
-/// sector by this estimate left the needed duty 16–17 % and the chopping switch's loss up to
-/// 60 % low; at 76 % the duty came out 39 % and that loss 87 % low.
-pub const COMMUTATION_WARN_SHARE: f64 = 0.05;
-pub const COMMUTATION_REFUSE_SHARE: f64 = 1.0 / 3.0;
+/// Share of a 60° sector above which the off-going phase's diode freewheel after a six-step
+/// commutation is worth a warning (our own bound: a quarter of the sector leaves the torque
+/// dipping for that long every sector and, on a sensorless drive, that much of the floating
+/// phase's back-EMF hidden behind the diode clamp).
+pub const COMMUTATION_WARN_SHARE: f64 = 0.25;
 
 /// Six-step: the off-going phase's diode freewheel after each commutation against the
-/// sector, at the rated and high-bus cases (`six_step_commutation_s`); the model takes the
-/// sector's current flat and leaves this interval out.
-fn six_step_commutation_finding(ev: &Evaluator, c: &Candidate) -> Option<FindingOut> {
-    use crate::model::evaluate::ThreePhaseModulation as M;
-    let tp = ev.three_phase.as_ref()?;
-    let M::SixStep { chop } = tp.modulation else {
+/// sector, as simulated switch by switch at the rated and high-bus cases
+/// ([`crate::model::evaluate::CommutationFigure`]). The model includes the interval; the
+/// finding is a warning above [`COMMUTATION_WARN_SHARE`] and an error (the plan refused) when
+/// the current has not reached zero by the next commutation, where the block pattern no longer
+/// describes the drive (the "never settles within a sector").
+fn six_step_commutation_finding(c: &Candidate) -> Option<FindingOut> {
+    let mut worst: Option<(crate::model::evaluate::CommutationFigure, &str)> = None;
+    for (r, case) in [(&c.rated, "rated"), (&c.high_bus, "high-bus")] {
+        let Some(f) = r.three_phase.as_ref().and_then(|t| t.commutation) else {
+            continue;
+        };
+        let worse = |w: &crate::model::evaluate::CommutationFigure| {
+            (!f.settles && w.settles) || f.freewheel_s / f.sector_s > w.freewheel_s / w.sector_s
+        };
+        if worst.as_ref().is_none_or(|(w, _)| worse(w)) {
+            worst = Some((f, case));
+        }
+    }
+    let (f, case) = worst?;
+    let share = f.freewheel_s / f.sector_s;
+    if f.settles && share <= COMMUTATION_WARN_SHARE {
         return None;
-    };
-    let motor = ev.motor_params(tp);
-    let sector_s = std::f64::consts::PI / 3.0 / tp.omega_e_rad_s;
-    let mut worst: Option<(f64, &str)> = None;
-    for (case, r) in [(&ev.rated, &c.rated), (&ev.high_bus, &c.high_bus)] {
-        let duty = r.three_phase.as_ref()?.chop_duty?;
-        let t = crate::model::physics::three_phase::six_step_commutation_s(
-            &motor,
-            tp.omega_e_rad_s,
-            case.v_bus_v,
-            duty,
-            chop,
-            case.load_current_a,
+    }
+    let sector = format_quantity(f.sector_s, Dimension::Time, 3);
+    let what = if f.settles {
+        format!(
+            "six-step: after each commutation the off-going phase keeps conducting through a body diode for {} at the {case} case, {:.0} % of the {sector} sector (simulated switch by switch; the losses and the duty include it): the torque dips for that long every sector, and a sensorless drive cannot see the floating phase's back-EMF until it ends",
+            format_quantity(f.freewheel_s, Dimension::Time, 3),
+            100.0 * share,
         )
-        .map_or(f64::INFINITY, |(p, n)| p.max(n));
-        if worst.is_none_or(|(w, _)| t > w) {
-            worst = Some((t, case.name));
-        }
-    }
-    let (t, case) = worst?;
-    let share = t / sector_s;
-    if share <= COMMUTATION_WARN_SHARE {
-        return None;
-    }
-    let refuse = share > COMMUTATION_REFUSE_SHARE;
-    let what = format!(
-        "six-step: after each commutation the off-going phase keeps conducting through a body diode for {} at the {case} case, {} of the {} sector (the motor's L·I against the voltage that drives its current to zero); the model takes each sector's current flat and leaves this interval out, so the needed duty and the chopping switch's loss come out low (against a circuit simulation, at 22–23 % of the sector by this estimate: duty 16–17 % low, chopping-switch loss up to 60 % low){}",
-        format_quantity(t, Dimension::Time, 3),
-        if share.is_finite() {
-            format!("{:.0} %", 100.0 * share)
-        } else {
-            "all".into()
-        },
-        format_quantity(sector_s, Dimension::Time, 3),
-        if refuse {
-            format!(
-                "; above {:.0} % of the sector the plan is refused: run the motor with sinusoidal modulation, at a lower current or speed, or with a motor of less inductance",
-                100.0 * COMMUTATION_REFUSE_SHARE
-            )
-        } else {
-            String::new()
-        }
-    );
+    } else {
+        format!(
+            "six-step: at the {case} case the off-going phase's current has not reached zero when the next commutation comes ({sector} sectors): three phases conduct all the time and the block pattern no longer describes the drive; run the motor with sinusoidal modulation, at a lower current or speed, or with a motor of less inductance"
+        )
+    };
     Some(finding(
-        if refuse { "error" } else { "warning" },
+        if f.settles { "warning" } else { "error" },
         "six-step-commutation",
         what,
     ))

@@ -44,7 +44,7 @@ use pwmplan::physics::losses;
 use pwmplan::physics::params::GateDrive;
 use pwmplan::physics::three_phase::{
     self as tp, BackEmfShape, Chop, LossLines, MotorParams, PhaseCurrent, RippleCommand,
-    SinusoidalPoint, SixStepPoint, ThreePhaseStage, ZeroSequence,
+    SinusoidalPoint, ThreePhaseStage, ZeroSequence,
 };
 
 /// How the bridge is modulated.
@@ -144,6 +144,15 @@ const fn six(
         i_a,
         phi_deg: 0.0,
         e_v,
+    }
+}
+
+/// A six-step case at its own carrier and dead time.
+const fn at_pwm(c: TpCase, f_sw_khz: f64, t_dead_ns: f64) -> TpCase {
+    TpCase {
+        f_sw_hz: f_sw_khz * 1e3,
+        t_dead_s: t_dead_ns * 1e-9,
+        ..c
     }
 }
 
@@ -300,6 +309,95 @@ pub const TP_CASES: &[TpCase] = &[
         0.7,
         (6.0, 3.0),
         (0.4, 1000.0),
+    ),
+    // Added after the switch-by-switch six-step model was compared on the
+    // four above, as a check on new ground: every device, 12–100 V,
+    // 16–40 kHz, 150–800 Hz, each chop, duties 0.3–0.9, one light load in
+    // discontinuous conduction (T3F). Each carrier holds a whole number of
+    // PWM periods per sector (the harness commutates at period boundaries).
+    at_pwm(
+        six(
+            "T3A",
+            "brack-40",
+            36.0,
+            300.0,
+            Chop::HighSide,
+            0.45,
+            (11.0, 5.0),
+            (0.25, 150.0),
+        ),
+        19.8,
+        300.0,
+    ),
+    at_pwm(
+        six(
+            "T3B",
+            "rigg-100",
+            72.0,
+            250.0,
+            Chop::LowSide,
+            0.85,
+            (11.0, 25.0),
+            (0.5, 400.0),
+        ),
+        16.5,
+        400.0,
+    ),
+    at_pwm(
+        six(
+            "T3D",
+            "crag-150",
+            100.0,
+            500.0,
+            Chop::Complementary,
+            0.6,
+            (5.0, 25.0),
+            (1.0, 500.0),
+        ),
+        33.0,
+        250.0,
+    ),
+    at_pwm(
+        six(
+            "T3E",
+            "fell-30",
+            12.0,
+            800.0,
+            Chop::Complementary,
+            0.9,
+            (9.0, 4.5),
+            (0.1, 40.0),
+        ),
+        38.4,
+        150.0,
+    ),
+    at_pwm(
+        six(
+            "T3F",
+            "hause-60",
+            48.0,
+            150.0,
+            Chop::HighSide,
+            0.3,
+            (0.5, 6.5),
+            (1.0, 200.0),
+        ),
+        19.8,
+        200.0,
+    ),
+    at_pwm(
+        six(
+            "T3G",
+            "brack-40",
+            24.0,
+            600.0,
+            Chop::LowSide,
+            0.9,
+            (16.0, 9.5),
+            (0.08, 40.0),
+        ),
+        25.2,
+        200.0,
     ),
 ];
 
@@ -972,17 +1070,20 @@ pub fn predict_bridge(
                 pole_pairs: 1,
                 back_emf_shape: BackEmfShape::Trapezoidal,
             };
-            let r_path = 2.0 * losses::r_ds_on_ohm(&sw, 25.0);
+            let r_ds = losses::r_ds_on_ohm(&sw, 25.0);
             let w_e = c.omega_e();
-            let d =
-                tp::six_step_duty(&stage, &motor, w_e, chop, m.i_line_a, r_path).map_err(err)?;
-            let w = tp::six_step_ripple(&stage, &motor, w_e, d, chop, r_path).map_err(err)?;
-            let pt = SixStepPoint {
+            let circuit = tp::SixStepCircuit {
+                stage,
+                motor,
+                omega_e_rad_s: w_e,
                 chop,
-                duty: d,
-                f_e_hz: c.f_e_hz,
+                r_ds_ohm: [r_ds, r_ds],
             };
-            let l = tp::six_step_losses(&stage, &pt, &w, 25.0, 25.0).map_err(err)?;
+            let guess = tp::six_step_duty_guess(&circuit, m.i_line_a);
+            let sim = tp::six_step_simulated(&circuit, m.i_line_a, guess).map_err(err)?;
+            let d = sim.duty;
+            let w = tp::six_step_ripple(&stage, &motor, w_e, d, chop, 2.0 * r_ds).map_err(err)?;
+            let l = sim.losses(&stage, r_ds, r_ds).map_err(err)?;
             bridge_lines(&l.high_side, &l.low_side, &mut p);
             p.duty = d;
             p.pp_max_a = w.ripple_pp_a();

@@ -49,6 +49,9 @@ pub mod sampling;
 pub mod sectors;
 pub mod sinusoidal;
 pub mod six_step;
+pub mod six_step_circuit;
+mod six_step_run;
+pub mod six_step_sim;
 
 pub use averaged::*;
 pub use command::*;
@@ -60,6 +63,8 @@ pub use phase_ripple::*;
 pub use sampling::*;
 pub use sinusoidal::*;
 pub use six_step::*;
+pub use six_step_circuit::SixStepCircuit;
+pub use six_step_sim::*;
 
 #[cfg(test)]
 mod tests {

@@ -52,9 +52,13 @@ pub fn sector_drive(k: usize, forward: bool) -> SectorDrive {
     }
 }
 
-/// The table of one direction, sector 0 first.
+/// The table of one direction, sector 0 first (worked out once per
+/// direction: the simulation reads it at every step).
 pub fn sector_table(forward: bool) -> [SectorDrive; SECTORS] {
-    std::array::from_fn(|k| sector_drive(k, forward))
+    static TABLES: std::sync::OnceLock<[[SectorDrive; SECTORS]; 2]> = std::sync::OnceLock::new();
+    let t =
+        TABLES.get_or_init(|| [true, false].map(|fw| std::array::from_fn(|k| sector_drive(k, fw))));
+    t[usize::from(!forward)]
 }
 
 #[cfg(test)]

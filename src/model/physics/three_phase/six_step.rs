@@ -148,6 +148,10 @@ pub enum SixStepRole {
     /// The partner of the chopping switch in the same leg during that leg's 120°: body diode
     /// (`HighSide`/`LowSide` chop) or synchronous channel + dead-time diode (`Complementary`).
     Freewheeling,
+    /// The floating phase's switches and the held switch's leg partner: the off-going
+    /// current's body diode after a commutation, any diode conduction the floating phase's
+    /// back-EMF drives (switch-by-switch model only).
+    Idle,
 }
 
 /// One role's losses, averaged over the electrical period (already × its 1/3 share).
@@ -577,19 +581,35 @@ fn assemble_roles(
         Chop::Complementary if k.t - stage.t_dead_s > k.t_on + stage.t_dead_s => k.f3,
         _ => 0.0,
     };
-    let mut roles = Vec::with_capacity(3);
+    with_gate_drive(
+        stage,
+        i_plateau,
+        vec![
+            (SixStepRole::Chopping, chop_side, chop, chop_cycles),
+            (SixStepRole::Conducting, chop_side.other(), cond, k.f_e),
+            (
+                SixStepRole::Freewheeling,
+                chop_side.other(),
+                free,
+                free_cycles,
+            ),
+        ],
+    )
+}
+
+/// Each role's gate drive at its rate of gate cycles per switch (the plateau at
+/// `i_plateau_a`; its internal share in the role's lines, the driver's and the external
+/// resistors' for all six switches), and the per-side sums of the roles (each switch of a
+/// side plays every role of that side over the electrical period).
+pub(super) fn with_gate_drive(
+    stage: &ThreePhaseStage<'_>,
+    i_plateau_a: f64,
+    items: Vec<(SixStepRole, Side, LossLines, f64)>,
+) -> Result<SixStepLosses> {
+    let mut roles = Vec::with_capacity(items.len());
     let (mut driver, mut external) = (0.0, 0.0);
-    for (role, side, mut lines, cycles) in [
-        (SixStepRole::Chopping, chop_side, chop, chop_cycles),
-        (SixStepRole::Conducting, chop_side.other(), cond, k.f_e),
-        (
-            SixStepRole::Freewheeling,
-            chop_side.other(),
-            free,
-            free_cycles,
-        ),
-    ] {
-        let g = stage.gate(cycles, i_plateau)?;
+    for (role, side, mut lines, cycles) in items {
+        let g = stage.gate(cycles, i_plateau_a)?;
         lines.gate_internal_w = g.internal_w;
         driver += 3.0 * g.driver_w;
         external += 3.0 * g.external_w;
@@ -663,7 +683,7 @@ pub fn six_step_commutation_s(
 
 /// The 120°-flat trapezoid of unit height rising through zero at θ = 0 (common practice for
 /// block-commutated motors): linear over ±30°, flat from 30° to 150° and from 210° to 330°.
-fn trapezoid(theta_rad: f64) -> f64 {
+pub(super) fn trapezoid(theta_rad: f64) -> f64 {
     let d = theta_rad.to_degrees().rem_euclid(360.0);
     match d {
         x if x < 30.0 => x / 30.0,
