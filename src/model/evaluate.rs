@@ -462,7 +462,7 @@ fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
             zero_sequence: crate::input::design::zero_sequence(zero_sequence),
             current_advance_rad: d.spec.motor.current_advance_deg.unwrap_or(0.0).to_radians(),
         },
-        ModulationSpec::SixStep { chop } => ThreePhaseModulation::SixStep {
+        ModulationSpec::SixStep { chop, .. } => ThreePhaseModulation::SixStep {
             chop: match chop {
                 ChopSpec::HighSide => Chop::HighSide,
                 ChopSpec::LowSide => Chop::LowSide,
