@@ -563,6 +563,16 @@ fn register_check_rows(plan: &Plan) -> Vec<Row> {
             ),
         });
     }
+    if let (Some(before), Some(after)) = (r.back_emf_before_s, r.back_emf_after_s) {
+        rows.push(Row {
+            label: "back-EMF sampling".into(),
+            value: format!(
+                "at the written back-EMF triggers, at the ends of the on-times each window claims and at the rated one, the chopping leg's state read has held {} before and holds {} after (settling and sampling need no more)",
+                t(before),
+                t(after)
+            ),
+        });
+    }
     if let (Some(peak), Some(mean), Some(l)) = (
         r.limit_stall_peak_a,
         r.limit_stall_mean_a,
@@ -733,6 +743,14 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
     };
     if let Some(table) = &tp.six_step_table {
         six_step_literals(&mut out, table, tp.chop.as_deref());
+    }
+    if let Some(b) = &tp.back_emf {
+        crate::output::back_emf_out::back_emf_literals(
+            &mut out,
+            b,
+            tp.chop.as_deref().unwrap_or(""),
+            plan.pwm.frequency_hz,
+        );
     }
     if let Some(d) = &tp.dc_link {
         out.dc_link = true;
