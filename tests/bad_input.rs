@@ -1315,6 +1315,42 @@ error: osprey-3p48.yaml:17:25: board.stage.modulation.six-step.chop: unknown val
     );
 }
 
+/// A rotor-position method the tool does not know (sensorless six-step is `back-emf`).
+#[test]
+fn six_step_unknown_rotor_position() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "sinusoidal: { zero_sequence: min-max }",
+            "six-step: { chop: high-side, rotor_position: sensorless }",
+        )],
+        r#"
+error: osprey-3p48.yaml:17:52: board.stage.modulation.six-step.rotor_position: unknown value `sensorless`; expected one of `position-sensors`, `back-emf`
+ 17 |       six-step: { chop: high-side, rotor_position: sensorless }
+    |                                                    ^
+"#,
+    );
+}
+
+/// A rotor position given as a number instead of a name.
+#[test]
+fn six_step_rotor_position_not_a_name() {
+    bad_input(
+        "pump-bldc.yaml",
+        &[case(
+            "osprey-3p48.yaml",
+            "sinusoidal: { zero_sequence: min-max }",
+            "six-step: { chop: low-side, rotor_position: [back-emf] }",
+        )],
+        r#"
+error: osprey-3p48.yaml:17:51: board.stage.modulation.six-step.rotor_position: expected one of the listed words, found a list
+ 17 |       six-step: { chop: low-side, rotor_position: [back-emf] }
+    |                                                   ^
+"#,
+    );
+}
+
 /// A brushless motor without its pole pairs.
 #[test]
 fn brushless_needs_pole_pairs() {

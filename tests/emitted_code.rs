@@ -157,8 +157,47 @@ struct Facts {
     /// A brushed plan's sampling and loop constants (name without prefix, value), from
     /// `plan.json` `sampling` and `current_loop`.
     loop_consts: Vec<(&'static str, u64)>,
+    /// Sensorless six-step: the back-EMF constants (name without prefix, value) and the
+    /// off-time threshold in signed millivolts, from `plan.json` `three_phase.back_emf`.
+    back_emf: Option<(Vec<(&'static str, u64)>, i64)>,
     header: String,
     module: String,
+}
+
+/// The back-EMF constants `plan.json` implies (`three_phase.back_emf`), or `None` without
+/// sensorless six-step.
+fn back_emf_consts(json: &serde_json::Value) -> Option<(Vec<(&'static str, u64)>, i64)> {
+    let b = json.get("three_phase")?.get("back_emf")?;
+    let up = |k: &str| u64::from(b[k] == "up");
+    let consts = vec![
+        ("BEMF_ON_ADC_TRIGGER_COUNT", json_u64(b, "on_trigger_count")),
+        ("BEMF_ON_ADC_TRIGGER_UP", up("on_trigger_direction")),
+        ("BEMF_ON_COUNTS_MIN", json_u64(b, "on_counts_min")),
+        (
+            "BEMF_OFF_ADC_TRIGGER_COUNT",
+            json_u64(b, "off_trigger_count"),
+        ),
+        ("BEMF_OFF_ADC_TRIGGER_UP", up("off_trigger_direction")),
+        ("BEMF_OFF_COUNTS_MAX", json_u64(b, "off_counts_max")),
+        (
+            "BEMF_OFF_THRESHOLD_AT_BUS",
+            u64::from(b["off_threshold_rail"] == "positive"),
+        ),
+        ("BEMF_BLANKING_PERIODS", json_u64(b, "blanking_periods")),
+        (
+            "BEMF_COMMUTATION_DELAY_DEG",
+            b["zero_crossing_to_commutation_deg"]
+                .as_f64()
+                .expect("zero_crossing_to_commutation_deg")
+                .round() as u64,
+        ),
+    ];
+    let mv = (1e3
+        * b["off_threshold_offset_v"]
+            .as_f64()
+            .expect("off_threshold_offset_v"))
+    .round() as i64;
+    Some((consts, mv))
 }
 
 fn json_u64(v: &serde_json::Value, path: &str) -> u64 {
@@ -292,6 +331,7 @@ fn facts(case: &Case) -> (tempfile::TempDir, Facts) {
             .expect("pwm.dead_time_comp_counts")
             .round() as u64,
         loop_consts: loop_consts(&json),
+        back_emf: back_emf_consts(&json),
         header: text(&format!("{stem}.h")),
         module: text(&format!("{stem}.rs")),
         stem,
@@ -587,6 +627,20 @@ fn c_host_program(f: &Facts) -> String {
     if let Some(t) = &f.dc_link {
         c_dc_link_checks(&mut s, f, t);
     }
+    if let Some((consts, mv)) = &f.back_emf {
+        for (name, want) in consts {
+            let _ = writeln!(
+                s,
+                "    expect(\"{m}_{name} (plan.json)\", (unsigned long long){m}_{name}, {want}ULL);"
+            );
+        }
+        // Signed: compared as offsets from 1 000 000 mV.
+        let _ = writeln!(
+            s,
+            "    expect(\"{m}_BEMF_OFF_THRESHOLD_MV (plan.json)\", (unsigned long long)(1000000LL + {m}_BEMF_OFF_THRESHOLD_MV), {}ULL);",
+            1_000_000 + mv
+        );
+    }
     // The frequency in mHz from the stated convention, in integers.
     let _ = writeln!(
         s,
@@ -792,6 +846,11 @@ fn c_host_pump_bldc() {
 #[test]
 fn c_host_pump_dc_link() {
     c_host(common::case("pump-dc-link"));
+}
+
+#[test]
+fn c_host_pump_sensorless() {
+    c_host(common::case("pump-sensorless"));
 }
 
 #[test]

@@ -90,6 +90,33 @@ fn edits(case: &Case) -> &'static [(&'static str, &'static str, &'static str)] {
                 "sample_time: \"0.8 us\", place: supply-return }   # the over-current shunt, read twice per period",
             ),
         ],
+        "pump-sensorless" => &[
+            (
+                "pump-sensorless.yaml",
+                "# pwmplan design: an invented circulation pump with a brushless motor on the Osprey 48 V three-phase bridge.",
+                "# pwmplan design: the circulation pump with a trapezoidal motor, sensorless six-step on the Osprey 48 V three-phase bridge (golden case).",
+            ),
+            (
+                "pump-sensorless.yaml",
+                "name: pump-bldc",
+                "name: pump-sensorless",
+            ),
+            (
+                "pump-sensorless.yaml",
+                "back_emf_shape: sinusoidal",
+                "back_emf_shape: trapezoidal",
+            ),
+            (
+                "osprey-3p48.yaml",
+                "name: \"Osprey 48 V three-phase bridge (invented)\"",
+                "name: \"Osprey 48 V three-phase bridge, sensorless six-step (invented)\"",
+            ),
+            (
+                "osprey-3p48.yaml",
+                "sinusoidal: { zero_sequence: min-max }",
+                "six-step: { chop: high-side, rotor_position: back-emf }   # the floating phase's back-EMF",
+            ),
+        ],
         _ => &[],
     }
 }
@@ -239,6 +266,11 @@ fn golden_conveyor_centre() {
 #[test]
 fn golden_pump_dc_link() {
     check_case("pump-dc-link");
+}
+
+#[test]
+fn golden_pump_sensorless() {
+    check_case("pump-sensorless");
 }
 
 /// Every folder under `tests/golden/` is a listed case (so a new folder is

@@ -462,7 +462,7 @@ fn three_phase_model(d: &Design) -> Option<ThreePhaseModel> {
             zero_sequence: crate::input::design::zero_sequence(zero_sequence),
             current_advance_rad: d.spec.motor.current_advance_deg.unwrap_or(0.0).to_radians(),
         },
-        ModulationSpec::SixStep { chop } => ThreePhaseModulation::SixStep {
+        ModulationSpec::SixStep { chop, .. } => ThreePhaseModulation::SixStep {
             chop: match chop {
                 ChopSpec::HighSide => Chop::HighSide,
                 ChopSpec::LowSide => Chop::LowSide,
@@ -1245,7 +1245,7 @@ impl Evaluator {
             };
             let d = self.leg_drops(case, f_hz, t_dead_s);
             let r = [d.r_ds_on_ohm; 2];
-            let sim = self.six_step_simulation(tp, case, f_hz, d.t_dead_s, chop, r)?;
+            let sim = self.six_step_simulation(tp, case, f_hz, d.t_dead_s, chop, r, None)?;
             return Some(tp.modulation.leg_duty_max(sim.duty));
         }
         let (m, w) = self.modulation_and_waveform(case, f_hz)?;
@@ -1399,7 +1399,7 @@ impl Evaluator {
                 .sinusoidal_command(tp, case, f_hz, t_dead_s, current_advance_rad, zero_sequence)
                 .map(|c| c.point.modulation_index),
             ThreePhaseModulation::SixStep { chop } => self
-                .six_step_simulation(tp, case, f_hz, t_dead_s, chop, [0.5 * r_path_ohm; 2])
+                .six_step_simulation(tp, case, f_hz, t_dead_s, chop, [0.5 * r_path_ohm; 2], None)
                 .map(|s| s.duty),
         }
     }
@@ -1407,7 +1407,9 @@ impl Evaluator {
     /// Six-step simulated switch by switch through its commutations at the
     /// chopping duty that holds the case's line current
     /// (`three_phase::six_step_simulated`), with the high- and low-side
-    /// R_ds(on) `r_ds_ohm`.
+    /// R_ds(on) `r_ds_ohm`, the search starting from `duty_guess` (else the
+    /// flat-sector estimate).
+    #[allow(clippy::too_many_arguments)]
     pub fn six_step_simulation(
         &self,
         tp: &ThreePhaseModel,
@@ -1416,6 +1418,7 @@ impl Evaluator {
         t_dead_s: f64,
         chop: Chop,
         r_ds_ohm: [f64; 2],
+        duty_guess: Option<f64>,
     ) -> Option<three_phase::SixStepSimulation> {
         let circuit = three_phase::SixStepCircuit {
             stage: self.bridge(case, f_hz, t_dead_s),
@@ -1424,7 +1427,8 @@ impl Evaluator {
             chop,
             r_ds_ohm,
         };
-        let guess = three_phase::six_step_duty_guess(&circuit, case.load_current_a);
+        let guess = duty_guess
+            .unwrap_or_else(|| three_phase::six_step_duty_guess(&circuit, case.load_current_a));
         match three_phase::six_step_simulated(&circuit, case.load_current_a, guess) {
             Ok(s) => Some(s),
             // Full duty, with the current it reaches: the duty-range check
@@ -1716,10 +1720,11 @@ impl Evaluator {
         let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
         let r_at = |t: f64| thermal::r_ds_on_ohm(&st.switch, t);
         let (mut t_hi, mut t_lo) = (case.t_ambient_c, case.t_ambient_c);
-        let mut last = None;
+        let mut last: Option<(three_phase::SixStepSimulation, _, _)> = None;
         for _ in 0..2 {
-            let sim =
-                self.six_step_simulation(tp, case, f_hz, t_dead_s, chop, [r_at(t_hi), r_at(t_lo)])?;
+            let guess = last.as_ref().map(|l| l.0.duty);
+            let r_ds = [r_at(t_hi), r_at(t_lo)];
+            let sim = self.six_step_simulation(tp, case, f_hz, t_dead_s, chop, r_ds, guess)?;
             let side_w = |high: bool, t: f64| {
                 sim.losses(&bridge, r_at(t), r_at(t)).map_or(f64::NAN, |l| {
                     if high {

@@ -201,6 +201,11 @@ pub fn check(v: &RegisterView) -> RegisterCheck {
                     .into(),
             ),
         }
+        if let Some((t, b)) = v.three_phase.and_then(|t| Some((t, t.back_emf.as_ref()?))) {
+            let low_side = t.chop.as_deref() == Some("low-side");
+            let limits = (v.pwm.compare_min, v.pwm.compare_max);
+            crate::model::register_sampling::check_back_emf(&regs, b, low_side, limits, &mut out);
+        }
         match v.three_phase.filter(|t| t.modulation == "sinusoidal") {
             Some(t) => check_three_phase_currents(v, &regs, t, &mut out),
             None => out.not_checked.push(

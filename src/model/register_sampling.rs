@@ -241,3 +241,73 @@ pub fn check_dc_link(
     out.sample_low_on_before_s = Some(worst.0);
     out.sample_low_on_after_s = Some(worst.1);
 }
+
+/// Sensorless six-step: the back-EMF triggers on the verifier's switch timeline of the
+/// chopping leg, at the ends of the on-times each window claims within the plan's compare
+/// limits and at the rated on-time: the state read (the chopping switch's on-time, or its
+/// off-time) has held the settling time before the trigger and holds through the
+/// acquisition. The verifier's states start a dead time after their reference edge, as the
+/// plan's window takes them. Records the shortest of each.
+pub fn check_back_emf(
+    regs: &TimerRegisters,
+    b: &crate::output::back_emf_out::BackEmfPlan,
+    chop_low_side: bool,
+    limits: (u64, u64),
+    out: &mut RegisterCheck,
+) {
+    let p = regs.duty_steps();
+    // On-time counts n against the chopping channel's compare.
+    let (n_lo, n_hi) = if chop_low_side {
+        (p.saturating_sub(limits.1), p.saturating_sub(limits.0))
+    } else {
+        limits
+    };
+    let compare = |n: u64| if chop_low_side { p - n } else { n };
+    // The verifier's leg: `on-time` is the high side conducting, `off-time` the low side.
+    let (on_state, off_state) = if chop_low_side {
+        ("off-time", "on-time")
+    } else {
+        ("on-time", "off-time")
+    };
+    let on_t = fixed_s(regs, b.on_trigger_count, b.on_trigger_direction == "up");
+    let off_t = fixed_s(regs, b.off_trigger_count, b.off_trigger_direction == "up");
+    let mut checks = Vec::new();
+    let rated = b.rated_counts;
+    for n in [b.on_counts_min.max(n_lo), n_hi, rated] {
+        if n >= b.on_counts_min && (n_lo..=n_hi).contains(&n) {
+            checks.push((n, on_state, on_t, "on-time"));
+        }
+    }
+    for n in [n_lo, b.off_counts_max.min(n_hi), rated] {
+        if n <= b.off_counts_max && (n_lo..=n_hi).contains(&n) {
+            checks.push((n, off_state, off_t, "off-time"));
+        }
+    }
+    let slack = 1e-12;
+    let mut worst = (f64::INFINITY, f64::INFINITY);
+    for (n, state, t, window) in checks {
+        let c = compare(n);
+        let stage = Stage::HalfBridge(LegCompare::new(c));
+        let timeline = match verify::verify(regs, &stage, &probe_circuit()) {
+            Ok(v) => v.timeline,
+            Err(e) => {
+                out.disagreements.push(format!(
+                    "back-EMF sampling: the verifier refused compare {c}: {e}"
+                ));
+                continue;
+            }
+        };
+        let (before, after) = held_around("half-bridge", state, &timeline, regs.period_s(), t);
+        worst = (worst.0.min(before), worst.1.min(after));
+        if before + slack < b.settle_time_s || after + slack < b.sample_time_s {
+            out.disagreements.push(format!(
+                "back-EMF sampling: at {n} on-time counts (compare {c}) the {window} trigger finds the state held {before:.4e} s before and {after:.4e} s after, the plan promises {:.4e} s settling and {:.4e} s sampling",
+                b.settle_time_s, b.sample_time_s
+            ));
+        }
+    }
+    if worst.0.is_finite() {
+        out.back_emf_before_s = Some(worst.0);
+        out.back_emf_after_s = Some(worst.1);
+    }
+}

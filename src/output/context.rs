@@ -101,6 +101,25 @@ pub struct ThreePhaseLiterals {
     pub six_step_complementary: bool,
     /// The table and the chopping explained, one line each.
     pub six_step_lines: Vec<String>,
+    /// Sensorless six-step: emit the back-EMF sampling constants
+    /// (`output::back_emf_out`): the trigger counts and their count direction in the
+    /// chopping switch's on-time and off-time, the least on-time counts for the first and the
+    /// most for the second, the off-time threshold (mV from a rail; C form parenthesised),
+    /// whether that rail is the bus, the blanking in PWM periods, the delay in degrees.
+    pub bemf: bool,
+    pub bemf_on_trigger_count: String,
+    pub bemf_on_trigger_up: bool,
+    pub bemf_on_counts_min: String,
+    pub bemf_off_trigger_count: String,
+    pub bemf_off_trigger_up: bool,
+    pub bemf_off_counts_max: String,
+    pub bemf_off_threshold_mv: String,
+    pub bemf_off_threshold_mv_c: String,
+    pub bemf_off_at_bus: bool,
+    pub bemf_blanking_periods: String,
+    pub bemf_delay_deg: String,
+    /// The sampling explained, one line each (empty without it).
+    pub bemf_lines: Vec<String>,
 }
 
 /// The current limit's values as they go into code and text (zeros and

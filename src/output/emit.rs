@@ -406,6 +406,13 @@ fn constraint_rows(plan: &Plan) -> Vec<ConstraintRow> {
         .collect()
 }
 
+/// Whether the plan drives a three-phase bridge in six-step.
+fn six_step(plan: &Plan) -> bool {
+    plan.three_phase
+        .as_ref()
+        .is_some_and(|t| t.modulation == "six-step")
+}
+
 /// The loss rows, one per term, then the total.
 fn loss_rows(plan: &Plan) -> Vec<Row> {
     let l = &plan.losses_w;
@@ -427,7 +434,14 @@ fn loss_rows(plan: &Plan) -> Vec<Row> {
             value: watts(l.reverse_recovery),
         },
         Row {
-            label: "dead-time diode".into(),
+            // Under six-step the body diodes also carry the off-time
+            // freewheel and each commutation's.
+            label: if six_step(plan) {
+                "body diode"
+            } else {
+                "dead-time diode"
+            }
+            .into(),
             value: watts(l.dead_time_diode),
         },
         Row {
@@ -558,6 +572,16 @@ fn register_check_rows(plan: &Plan) -> Vec<Row> {
             label: "sampling".into(),
             value: format!(
                 "at the written trigger, over the compares the plan allows, the sampled state has held {} before and holds {} after (settling and sampling need no more)",
+                t(before),
+                t(after)
+            ),
+        });
+    }
+    if let (Some(before), Some(after)) = (r.back_emf_before_s, r.back_emf_after_s) {
+        rows.push(Row {
+            label: "back-EMF sampling".into(),
+            value: format!(
+                "at the written back-EMF triggers, at the ends of the on-times each window claims and at the rated one, the chopping leg's state read has held {} before and holds {} after (settling and sampling need no more)",
                 t(before),
                 t(after)
             ),
@@ -733,6 +757,14 @@ fn three_phase_literals(plan: &Plan) -> ThreePhaseLiterals {
     };
     if let Some(table) = &tp.six_step_table {
         six_step_literals(&mut out, table, tp.chop.as_deref());
+    }
+    if let Some(b) = &tp.back_emf {
+        crate::output::back_emf_out::back_emf_literals(
+            &mut out,
+            b,
+            tp.chop.as_deref().unwrap_or(""),
+            plan.pwm.frequency_hz,
+        );
     }
     if let Some(d) = &tp.dc_link {
         out.dc_link = true;

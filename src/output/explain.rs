@@ -28,6 +28,11 @@ pub const EXPLANATIONS: &[Explanation] = &[
         OWN,
     ),
     e(
+        "back-emf-sampling",
+        "Sensorless six-step reads the floating phase's back-EMF in the chopping switch's on-time (against half the bus) or in its off-time (against a rail); each read needs the dead time, the settling and the acquisition inside one state. A warning where some on-times hold neither window, or where the blanking after a commutation (the off-going phase clamped by a body diode) reaches the zero crossing 30° into the sector.",
+        "Krishnan, Permanent Magnet Synchronous and Brushless DC Motor Drives, 2010, ch. 9 (from memory); the window's arithmetic is our own",
+    ),
+    e(
         "bootstrap-capacitor-small",
         "The bootstrap capacitor is below the capacitance that holds the high-side gate within 10 % droop over the longest on-time at this frequency and duty (gate charge plus the quiescent current over that time): the gate drive falls and R_ds(on) rises. Use the capacitance the finding names.",
         "common practice; the 10 % droop is our own bound",

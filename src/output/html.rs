@@ -296,7 +296,7 @@ fn loss_value(l: &LossFigures, label: &str) -> Option<f64> {
         "switching" => l.switching,
         "output capacitance" => l.output_capacitance,
         "reverse recovery" => l.reverse_recovery,
-        "dead-time diode" => l.dead_time_diode,
+        "dead-time diode" | "body diode" => l.dead_time_diode,
         "gate drive" => l.gate_drive,
         "freewheel diode" => l.freewheel_diode,
         "motor ripple copper" => l.motor_ripple_copper,

@@ -9,6 +9,7 @@
 //! Must never: compute physics or search settings (numbers arrive from the
 //! model and are only formatted here), read input files, or write a file.
 
+pub mod back_emf_out;
 pub mod context;
 pub mod emit;
 pub mod explain;

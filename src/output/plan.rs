@@ -184,6 +184,7 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
             M::SixStep { chop } => Some(six_step_table(chop)),
             M::Sinusoidal { .. } => None,
         },
+        back_emf: crate::output::back_emf_out::back_emf_plan(d, ev, c),
         sampling: c.sampling.map(|w| SamplingPlan {
             settle_time_s: sensing.map(|x| x.settle_time.si).unwrap_or(tp.settle_s),
             sample_time_s: tp.sample_s,
@@ -493,6 +494,10 @@ pub struct ThreePhaseOut {
     /// Six-step: the commutation table (only under six-step).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub six_step_table: Option<SixStepTable>,
+    /// Sensorless six-step (`six-step: { rotor_position: back-emf }`): where to read the
+    /// floating phase's back-EMF, the thresholds, the blanking after a commutation.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub back_emf: Option<crate::output::back_emf_out::BackEmfPlan>,
 }
 
 /// Six-step commutation (`physics::three_phase::sectors`): per sector of phase A's
@@ -652,6 +657,12 @@ pub struct RegisterCheck {
     pub sample_low_on_before_s: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sample_low_on_after_s: Option<f64>,
+    /// Sensorless six-step: at the back-EMF triggers, the shortest time the state read has
+    /// held, and will hold, over the on-times each window claims, s.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub back_emf_before_s: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub back_emf_after_s: Option<f64>,
     /// The current limit's chopped stall on the written threshold, blanking
     /// and filter (at the highest-trip corner): its highest and mean current.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -991,6 +1002,7 @@ fn findings(
     out.extend(bootstrap_finding(d, ev, c));
     out.extend(bootstrap_hold_up_finding(d, ev));
     out.extend(six_step_commutation_finding(c));
+    out.extend(back_emf_finding(d, ev, c));
     out.extend(dead_time_harmonics_finding(c));
     if matches!(ev.stage.topology, Topology::LowSide)
         && c.duty_limits.is_some_and(|l| l.max_duty < 1.0)
@@ -1222,6 +1234,18 @@ fn bootstrap_hold_up_finding(d: &Design, ev: &Evaluator) -> Option<FindingOut> {
 /// phase's back-EMF hidden behind the diode clamp).
 pub const COMMUTATION_WARN_SHARE: f64 = 0.25;
 
+/// The simulated commutation figures of the rated and high-bus cases, with the cases' names.
+fn commutation_figures(
+    c: &Candidate,
+) -> [(
+    Option<crate::model::evaluate::CommutationFigure>,
+    &'static str,
+); 2] {
+    let of =
+        |r: &crate::model::evaluate::CaseResult| r.three_phase.as_ref().and_then(|t| t.commutation);
+    [(of(&c.rated), "rated"), (of(&c.high_bus), "high-bus")]
+}
+
 /// Six-step: the off-going phase's diode freewheel after each commutation against the
 /// sector, as simulated switch by switch at the rated and high-bus cases
 /// ([`crate::model::evaluate::CommutationFigure`]). The model includes the interval; the
@@ -1230,8 +1254,8 @@ pub const COMMUTATION_WARN_SHARE: f64 = 0.25;
 /// describes the drive (the "never settles within a sector").
 fn six_step_commutation_finding(c: &Candidate) -> Option<FindingOut> {
     let mut worst: Option<(crate::model::evaluate::CommutationFigure, &str)> = None;
-    for (r, case) in [(&c.rated, "rated"), (&c.high_bus, "high-bus")] {
-        let Some(f) = r.three_phase.as_ref().and_then(|t| t.commutation) else {
+    for (f, case) in commutation_figures(c) {
+        let Some(f) = f else {
             continue;
         };
         let worse = |w: &crate::model::evaluate::CommutationFigure| {
@@ -1262,6 +1286,51 @@ fn six_step_commutation_finding(c: &Candidate) -> Option<FindingOut> {
         if f.settles { "warning" } else { "error" },
         "six-step-commutation",
         what,
+    ))
+}
+
+/// Sensorless six-step: a warning where the floating phase cannot be read at some on-times
+/// (no window at all, or a gap between the on-time's least and the off-time's most), or
+/// where the blanking after a commutation reaches the zero crossing 30° into the sector.
+fn back_emf_finding(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<FindingOut> {
+    use crate::output::back_emf_out as b;
+    let w = b::window(d, ev, c)?;
+    let Some(w) = w else {
+        return Some(finding(
+            "warning",
+            "back-emf-sampling",
+            "sensorless six-step: at this setting neither the chopping switch's on-time nor its off-time can hold the dead time, the settling and the acquisition of the floating phase's back-EMF (see current_sensing); lengthen the period or shorten the settling".into(),
+        ));
+    };
+    let p = b::back_emf_plan(d, ev, c)?;
+    if !w.covers_every_duty() {
+        return Some(finding(
+            "warning",
+            "back-emf-sampling",
+            format!(
+                "sensorless six-step: on-times from {} to {} counts hold neither back-EMF window (the on-time needs {} counts or more, the off-time {} or fewer): the floating phase cannot be read there; lengthen the period or shorten the settling",
+                w.off_counts_max + 1,
+                w.on_counts_min - 1,
+                w.on_counts_min,
+                w.off_counts_max
+            ),
+        ));
+    }
+    let late = p.blanking.iter().find(|x| {
+        x.electrical_deg
+            .is_none_or(|deg| deg >= p.zero_crossing_to_commutation_deg)
+    })?;
+    Some(finding(
+        "warning",
+        "back-emf-sampling",
+        format!(
+            "sensorless six-step: at the {} case the blanking after a commutation ({}) reaches the floating phase's zero crossing 30° into the sector: the crossing is hidden under the diode clamp; run slower or at less current, or with a motor of less inductance",
+            late.case,
+            match (late.periods, late.electrical_deg) {
+                (Some(n), Some(deg)) => format!("{n} PWM periods, {deg:.1}°"),
+                _ => "the off-going current never reaches zero".into(),
+            }
+        ),
     ))
 }
 
@@ -1618,7 +1687,7 @@ fn switching_assumption(
                 recovery_assumption(sw)
             ),
             format!(
-                "under sinusoidal modulation, at each of the 720 angles, {}; under six-step, dead-time diode conduction for the whole dead time at the datasheet V_sd (the diode's share is not yet applied there)",
+                "under sinusoidal modulation, at each of the 720 angles, {}; under six-step, body-diode conduction (the off-time freewheel, the dead times, each commutation's freewheel, the floating phase's) at V_SD(I) for as long as the simulated circuit puts the current in a diode, its gate edges taken as instant (the diode's share of a dead time is not shortened by the switches' delays there)",
                 forward_voltage_assumption(sw)
             ),
         )

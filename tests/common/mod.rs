@@ -76,6 +76,12 @@ pub const CASES: &[Case] = &[
         switch: "switches/corrie-100.yaml",
         source: "pump-bldc",
     },
+    Case {
+        name: "pump-sensorless",
+        board: "osprey-3p48.yaml",
+        switch: "switches/corrie-100.yaml",
+        source: "pump-bldc",
+    },
 ];
 
 /// The case of a name; panics on a typo in a test.

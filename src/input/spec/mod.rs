@@ -452,7 +452,24 @@ pub enum ModulationSpec {
     /// Six-step block commutation with one chopping switch.
     SixStep {
         chop: ChopSpec,
+        /// How the firmware knows the rotor's position: `position-sensors` (the default) or `back-emf` (sensorless: the floating phase's back-EMF zero crossing;
+        /// the plan then gives where in the PWM period to sample it, the thresholds, the
+        /// blanking after each commutation and the delay to the next).
+        #[serde(default)]
+        rotor_position: RotorPositionSpec,
     },
+}
+
+/// How a six-step drive finds the rotor's position.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, Default)]
+#[cfg_attr(feature = "schema", derive(schemars::JsonSchema))]
+#[serde(rename_all = "kebab-case")]
+pub enum RotorPositionSpec {
+    /// Position sensors on the motor (nothing more is planned).
+    #[default]
+    PositionSensors,
+    /// Sensorless: the back-EMF of the floating phase, sampled in the PWM period.
+    BackEmf,
 }
 
 /// Zero-sequence signal added to the three sinusoidal references.

@@ -155,7 +155,7 @@ fn dead_time_shift_ticks(stage: BrushedStage, t: &SamplingTimer) -> u64 {
 
 /// A fixed trigger `offset` ticks after (or, negative, before) a counter extreme: the bottom
 /// (`top` false) or the top at `p`.
-fn at_extreme(p: u64, top: bool, offset: i64) -> Option<TriggerRule> {
+pub(crate) fn at_extreme(p: u64, top: bool, offset: i64) -> Option<TriggerRule> {
     let k = offset.unsigned_abs();
     Some(match (top, offset >= 0) {
         (false, true) => fixed(k, true),

@@ -38,6 +38,7 @@
 //! this file only declares them and re-exports their public names.
 
 pub mod averaged;
+pub mod back_emf_sensing;
 pub mod command;
 pub mod dc_link;
 pub mod dead_time;

@@ -142,7 +142,7 @@ pub fn six_step_simulated(
         x: [0.0, -i_target_a],
         jacobian: None,
     };
-    let tol = 1e-7 * i_target_a.abs().max(1e-3);
+    let tol = 1e-6 * i_target_a.abs().max(1e-3);
     let mut bracket = ((0.0, f64::NAN), (1.0, f64::NAN));
     let d0 = duty_guess.clamp(0.0, 1.0);
     let mut a = (d0, search.held_mean_a(d0) - i_target_a);
