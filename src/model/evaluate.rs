@@ -1381,7 +1381,7 @@ impl Evaluator {
     }
 
     /// m (sinusoidal, from the motor by `sinusoidal_point_from_motor`) or
-    /// the six-step chopping duty for the case's current (`six_step_duty`,
+    /// the six-step chopping duty for the case's current (`six_step_simulation`,
     /// `r_path_ohm` of switches in the line path).
     fn three_phase_modulation(
         &self,

@@ -304,7 +304,7 @@ pub(super) fn solve_piece(
     });
     let mut piece = piece_for(c, &terminals, i, e);
     for _ in 0..3 {
-        let Some(joined) = join_open_phase(c, &terminals, &piece, i, e) else {
+        let Some(joined) = join_open_phase(c, &terminals, i, e) else {
             break;
         };
         terminals = joined.0;
@@ -319,7 +319,6 @@ pub(super) fn solve_piece(
 fn join_open_phase(
     c: &SixStepCircuit<'_>,
     terminals: &[Terminal; 3],
-    piece: &Piece,
     i: [f64; 3],
     e: [f64; 3],
 ) -> Option<([Terminal; 3], Piece)> {
@@ -344,7 +343,6 @@ fn join_open_phase(
             return Some((t, p));
         }
     }
-    let _ = piece;
     None
 }
 
