@@ -10,7 +10,7 @@ use std::collections::HashMap;
 use std::sync::{Arc, Mutex};
 
 use super::averaged::{AveragedDrive, averaged_current, difference_jacobian, newton_step};
-use super::dead_time::{LegConditions, error_impedance_ohm};
+use super::dead_time::{LegConditions, PhaseCurrent, error_impedance_warm_ohm};
 use super::inputs::*;
 use super::sinusoidal::{
     BridgeDrops, MotorOperatingPoint, SinusoidalCommand, sinusoidal_point_with_drops,
@@ -40,7 +40,7 @@ fn held(mut command: SinusoidalCommand, hold: f64) -> SinusoidalCommand {
 const MAX_COMMAND_STEPS: usize = 12;
 
 /// The sinusoidal leg command with the bridge's dead times and switch drops made up edge by
-/// edge: the phasor equation with the error impedance of [`error_impedance_ohm`] in series,
+/// edge: the phasor equation with the error impedance of [`super::dead_time::error_impedance_ohm`] in series,
 /// which itself depends on the command's modulation index and the current's lag behind it;
 /// solved by fixed-point iteration from the square-wave make-up of
 /// [`sinusoidal_point_with_drops`] (own method). The modulation index returned is the one to
@@ -71,11 +71,17 @@ pub fn sinusoidal_command_edge_by_edge(
         )?,
         hold,
     );
+    // Each step's harmonic balance starts from the last one's currents.
+    let mut warm = Vec::new();
     for _ in 0..MAX_COMMAND_STEPS {
         let lag = command.voltage_lead_rad - at.current_advance_rad;
         let m = command.point.modulation_index;
         let motor_ohm = (motor.r_phase_ohm, at.omega_e_rad_s * motor.l_phase_h);
-        let z = error_impedance_ohm(m, at.zero_sequence, at.i_peak_a, lag, motor_ohm, legs);
+        let current = PhaseCurrent {
+            peak_a: at.i_peak_a,
+            lag_rad: lag,
+        };
+        let z = error_impedance_warm_ohm(m, at.zero_sequence, current, motor_ohm, legs, &mut warm);
         if !z.harmonics_settled {
             // The harmonic balance does not settle: the averaged bridge in time instead.
             return averaged_command(motor, at, legs, hold, command);

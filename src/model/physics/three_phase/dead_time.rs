@@ -297,12 +297,18 @@ fn distorted_current_a(
     current_lag_rad: f64,
     motor_ohm: (f64, f64),
     c: &LegConditions,
+    warm_harmonics_a: &[f64],
 ) -> (Vec<f64>, bool) {
     let n = pattern.angles() as f64;
     let fundamental: Vec<f64> = (0..pattern.angles())
         .map(|k| i_peak_a * (2.0 * PI * (k as f64 + 0.5) / n - current_lag_rad).sin())
         .collect();
     let mut current = fundamental.clone();
+    if warm_harmonics_a.len() == current.len() {
+        for (cur, h) in current.iter_mut().zip(warm_harmonics_a) {
+            *cur += h;
+        }
+    }
     let (r, x) = motor_ohm;
     if !(r > 0.0 || x > 0.0) {
         return (fundamental, true);
@@ -384,6 +390,30 @@ pub fn error_impedance_ohm(
         peak_a: i_peak_a,
         lag_rad: current_lag_rad,
     };
+    let mut cold = Vec::new();
+    error_impedance_warm_ohm(
+        modulation_index,
+        zero_sequence,
+        current,
+        motor_ohm,
+        c,
+        &mut cold,
+    )
+}
+
+/// [`error_impedance_ohm`] with the harmonic balance started from `warm_harmonics_a` (the
+/// current's harmonic part at each of the [`EDGE_ANGLES`] midpoints, from a nearby command;
+/// empty: from the undistorted current), which it leaves holding this solve's (empty when
+/// it did not settle). The answer is the same fixed point within the balance's tolerance;
+/// a command solve's next step starts near the last one's currents (own economy).
+pub fn error_impedance_warm_ohm(
+    modulation_index: f64,
+    zero_sequence: ZeroSequence,
+    current: PhaseCurrent,
+    motor_ohm: (f64, f64),
+    c: &LegConditions,
+    warm_harmonics_a: &mut Vec<f64>,
+) -> ErrorImpedance {
     error_impedance_over(
         EDGE_ANGLES,
         modulation_index,
@@ -391,6 +421,7 @@ pub fn error_impedance_ohm(
         current,
         motor_ohm,
         c,
+        warm_harmonics_a,
     )
 }
 
@@ -402,6 +433,7 @@ fn error_impedance_over(
     current: PhaseCurrent,
     motor_ohm: (f64, f64),
     c: &LegConditions,
+    warm_harmonics_a: &mut Vec<f64>,
 ) -> ErrorImpedance {
     let PhaseCurrent { peak_a, lag_rad } = current;
     if peak_a <= 0.0 {
@@ -412,7 +444,18 @@ fn error_impedance_over(
         };
     }
     let pattern = LegPattern::new(modulation_index, zero_sequence, c, angles);
-    let (current, harmonics_settled) = distorted_current_a(&pattern, peak_a, lag_rad, motor_ohm, c);
+    let (current, harmonics_settled) =
+        distorted_current_a(&pattern, peak_a, lag_rad, motor_ohm, c, warm_harmonics_a);
+    warm_harmonics_a.clear();
+    if harmonics_settled {
+        let n = angles as f64;
+        warm_harmonics_a.extend(
+            current
+                .iter()
+                .enumerate()
+                .map(|(k, i)| i - peak_a * (2.0 * PI * (k as f64 + 0.5) / n - lag_rad).sin()),
+        );
+    }
     let error: Vec<f64> = (0..angles)
         .map(|k| pattern.error_v(k, current[k], c))
         .collect();
@@ -558,8 +601,24 @@ mod tests {
                 peak_a: i,
                 lag_rad: lag,
             };
-            let coarse = error_impedance_over(360, m, ZeroSequence::None, current, motor, &c);
-            let fine = error_impedance_over(1440, m, ZeroSequence::None, current, motor, &c);
+            let coarse = error_impedance_over(
+                360,
+                m,
+                ZeroSequence::None,
+                current,
+                motor,
+                &c,
+                &mut Vec::new(),
+            );
+            let fine = error_impedance_over(
+                1440,
+                m,
+                ZeroSequence::None,
+                current,
+                motor,
+                &c,
+                &mut Vec::new(),
+            );
             assert!(
                 coarse.harmonics_settled && fine.harmonics_settled,
                 "{m} {i} {motor:?}"

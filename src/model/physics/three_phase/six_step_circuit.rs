@@ -102,13 +102,21 @@ impl SixStepCircuit<'_> {
         let e_pk = self.motor.phase_emf_peak_v(self.omega_e_rad_s);
         let theta = std::f64::consts::FRAC_PI_6
             + 2.0 * std::f64::consts::PI * t_s / self.electrical_period_s();
-        std::array::from_fn(|k| {
-            let th = theta - 2.0 * std::f64::consts::PI * k as f64 / 3.0;
-            e_pk * match self.motor.back_emf_shape {
-                BackEmfShape::Sinusoidal => th.sin(),
-                BackEmfShape::Trapezoidal => trapezoid(th),
+        match self.motor.back_emf_shape {
+            // sin(θ − 2πk/3) from one sine and cosine (angle difference).
+            BackEmfShape::Sinusoidal => {
+                let (sin, cos) = theta.sin_cos();
+                let half_root3 = 0.5 * 3f64.sqrt();
+                [
+                    e_pk * sin,
+                    e_pk * (-0.5 * sin - half_root3 * cos),
+                    e_pk * (-0.5 * sin + half_root3 * cos),
+                ]
             }
-        })
+            BackEmfShape::Trapezoidal => std::array::from_fn(|k| {
+                e_pk * trapezoid(theta - 2.0 * std::f64::consts::PI * k as f64 / 3.0)
+            }),
+        }
     }
 
     /// The sector of PWM period `k` (negative: before the window), 0..6.
