@@ -220,8 +220,14 @@ fn joint_newton(
     let mut z = [0.0, -i_target_a, duty_guess.clamp(0.02, 0.98)];
     let mut r = residual(z);
     let steps = [1e-6 * scale, 1e-6 * scale, 1e-6];
-    let mut j = [[0.0; 3]; 3];
-    for (col, h) in steps.into_iter().enumerate() {
+    // Where the window is many time constants L/R long, the end forgets the
+    // start (its slope is below e^(−W·R/L)): the start columns are −I and
+    // zero, and Broyden's updates correct what that leaves (our own economy:
+    // two windows fewer for a slow rotor).
+    let forgets = (-window * c.motor.r_phase_ohm / c.motor.l_phase_h).exp() < FORGOTTEN_START;
+    let mut j = [[-1.0, 0.0, 0.0], [0.0, -1.0, 0.0], [0.0; 3]];
+    let first_column = if forgets { 2 } else { 0 };
+    for (col, h) in steps.into_iter().enumerate().skip(first_column) {
         let mut zh = z;
         zh[col] += h;
         let rh = residual(zh);
@@ -251,6 +257,10 @@ fn joint_newton(
     }
     None
 }
+
+/// The start's weight in the window's end below which the joint Newton takes
+/// the start columns of its first Jacobian as known (our own bound).
+const FORGOTTEN_START: f64 = 1e-9;
 
 /// Steps the joint Newton takes before handing over to the secant (our own
 /// bound: it converges in three to five where the map is smooth).
