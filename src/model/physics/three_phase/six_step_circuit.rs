@@ -99,9 +99,21 @@ impl SixStepCircuit<'_> {
     /// The three back-EMFs at time `t_s` (θ = 30° at t = 0, the start of
     /// sector 0; the angle convention of [`super::sectors`]).
     pub(super) fn emfs_v(&self, t_s: f64) -> [f64; 3] {
-        let e_pk = self.motor.phase_emf_peak_v(self.omega_e_rad_s);
-        let theta = std::f64::consts::FRAC_PI_6
-            + 2.0 * std::f64::consts::PI * t_s / self.electrical_period_s();
+        self.emfs_with(self.emf_clock(), t_s)
+    }
+
+    /// The EMF peak and the simulated electrical period, `(V, s)`: what
+    /// [`Self::emfs_with`] needs, fixed for a window.
+    pub(super) fn emf_clock(&self) -> (f64, f64) {
+        (
+            self.motor.phase_emf_peak_v(self.omega_e_rad_s),
+            self.electrical_period_s(),
+        )
+    }
+
+    /// [`Self::emfs_v`] with [`Self::emf_clock`]'s figures given.
+    pub(super) fn emfs_with(&self, (e_pk, period_s): (f64, f64), t_s: f64) -> [f64; 3] {
+        let theta = std::f64::consts::FRAC_PI_6 + 2.0 * std::f64::consts::PI * t_s / period_s;
         match self.motor.back_emf_shape {
             // sin(θ − 2πk/3) from one sine and cosine (angle difference).
             BackEmfShape::Sinusoidal => {
@@ -178,9 +190,10 @@ impl SixStepCircuit<'_> {
         let periods = 2 * self.periods_per_sector() as i64;
         let (td, end) = (self.stage.t_dead_s, self.window_s());
         let mut start = [false; DEVICES];
-        let mut edges = Vec::new();
+        let mut edges = Vec::with_capacity(8 * periods.max(0) as usize + 16);
+        let mut merged: Vec<(f64, f64)> = Vec::with_capacity(2 * periods.max(0) as usize + 8);
         for (device, on_at_start) in start.iter_mut().enumerate() {
-            let mut merged: Vec<(f64, f64)> = Vec::new();
+            merged.clear();
             for k in -2..periods {
                 for (a, b) in self.ideal_on(k, device, duty) {
                     if b <= a {
@@ -192,7 +205,7 @@ impl SixStepCircuit<'_> {
                     }
                 }
             }
-            for (a, b) in merged {
+            for &(a, b) in &merged {
                 let a = a + td;
                 if b <= a {
                     continue;

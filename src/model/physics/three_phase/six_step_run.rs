@@ -84,6 +84,11 @@ struct Run<'c, 'a> {
     /// Book the switches' tallies and edges (else only the held charge:
     /// the steady-state search needs no more).
     full: bool,
+    /// The circuit's [`SixStepCircuit::emf_clock`], fixed for the window.
+    emf_clock: (f64, f64),
+    /// The PWM period, s, and the periods in a sector, fixed for the window.
+    period_s: f64,
+    periods_per_sector: i64,
 }
 
 /// Run the window at chopping duty `duty` from the phase currents `i0`
@@ -104,6 +109,9 @@ pub(super) fn run_window(
         rec: WindowRecord::default(),
         off_going: boundaries(c),
         full,
+        emf_clock: c.emf_clock(),
+        period_s: c.period_s(),
+        periods_per_sector: c.periods_per_sector() as i64,
     };
     run.note_boundaries();
     let mut k = 0;
@@ -141,6 +149,13 @@ fn boundaries(c: &SixStepCircuit<'_>) -> [Option<(usize, f64)>; 2] {
 }
 
 impl Run<'_, '_> {
+    /// [`SixStepCircuit::sector_at`] from the window's fixed figures.
+    fn sector_at(&self, t_s: f64) -> usize {
+        let k = (t_s / self.period_s).floor() as i64;
+        k.div_euclid(self.periods_per_sector)
+            .rem_euclid(super::sectors::SECTORS as i64) as usize
+    }
+
     /// At a sector boundary: the off-going phase's current.
     fn note_boundaries(&mut self) {
         for b in 0..2 {
@@ -160,7 +175,7 @@ impl Run<'_, '_> {
         while self.t < t_end && guard < 10_000 {
             guard += 1;
             let d_max = (t_end - self.t).min(max_piece);
-            let e = self.c.emfs_v(self.t + 0.5 * d_max);
+            let e = self.c.emfs_with(self.emf_clock, self.t + 0.5 * d_max);
             let piece = solve_piece(self.c, &self.gates, self.i, e);
             let crossing = (0..3)
                 .filter(|&k| matches!(piece.terminals[k], Terminal::Diode { .. }))
@@ -205,7 +220,7 @@ impl Run<'_, '_> {
     /// Book a piece of length `d_s` into the switches' tallies, the held
     /// phase's and the bus's charge.
     fn tally(&mut self, piece: &Piece, d_s: f64) {
-        let s = self.c.sector_at(self.t + 0.5 * d_s);
+        let s = self.sector_at(self.t + 0.5 * d_s);
         for k in (0..3).filter(|_| self.full) {
             let (q, q2) = split_moments(piece, k, d_s);
             match piece.terminals[k] {
