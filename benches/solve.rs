@@ -8,7 +8,11 @@
 //! (d) the same, each run into a new empty folder (all seven files written);
 //! (e) `solve` on the winch (boards/winch.yaml, unipolar H-bridge) with its
 //!     operating range (300 to 3600 rpm, constant torque), and (f) the same
-//!     design with the range removed: what judging a range costs.
+//!     design with the range removed: what judging a range costs;
+//! (g) `solve` on the pump (boards/pump-bldc.yaml) with its board switched to
+//!     six-step low-side chopping and a 300 to 3000 rpm range (each setting's
+//!     cases simulated switch by switch; median of 3), and (h) the same at
+//!     its rated point.
 //! Run with `cargo bench --bench solve`.
 
 use std::path::Path;
@@ -23,17 +27,49 @@ use pwmplan::timer::{Alignment, Prescaler, TimerModel};
 
 const RUNS: usize = 20;
 
-/// Median of `RUNS` timings of `f`, with the last result.
-fn median_of<T>(mut f: impl FnMut() -> T) -> (Duration, T) {
-    let mut times = Vec::with_capacity(RUNS);
+/// The bundled pump in a temporary folder, its board switched to six-step
+/// low-side chopping and a 300 to 3000 rpm range added: the folder (kept
+/// while it is used) and the design's path.
+fn six_step_pump() -> Result<(tempfile::TempDir, std::path::PathBuf), String> {
+    let boards = Path::new(env!("CARGO_MANIFEST_DIR")).join("boards");
+    let dir = tempfile::tempdir().map_err(|e| e.to_string())?;
+    let read = |name: &str| std::fs::read_to_string(boards.join(name)).map_err(|e| e.to_string());
+    let write = |name: &str, text: String| {
+        std::fs::write(dir.path().join(name), text).map_err(|e| e.to_string())
+    };
+    std::fs::create_dir_all(dir.path().join("switches")).map_err(|e| e.to_string())?;
+    write(
+        "switches/corrie-100.yaml",
+        read("switches/corrie-100.yaml")?,
+    )?;
+    let board = read("osprey-3p48.yaml")?.replace(
+        "sinusoidal: { zero_sequence: min-max }",
+        "six-step: { chop: low-side }",
+    );
+    write("osprey-3p48.yaml", board)?;
+    let mut design = read("pump-bldc.yaml")?.trim_end().to_string();
+    design.push_str("\n  operating_range: { speed: { min: \"300 rpm\", max: \"3000 rpm\" } }\n");
+    write("pump-bldc.yaml", design)?;
+    let path = dir.path().join("pump-bldc.yaml");
+    Ok((dir, path))
+}
+
+/// Median of `RUNS` timings of `f` after an untimed warm-up, with the last result.
+fn median_of<T>(f: impl FnMut() -> T) -> (Duration, T) {
+    median_of_n(RUNS, f)
+}
+
+/// Median of `n` timings of `f` after an untimed warm-up, with the last result.
+fn median_of_n<T>(n: usize, mut f: impl FnMut() -> T) -> (Duration, T) {
+    let mut times = Vec::with_capacity(n);
     let mut last = f(); // warm-up, not timed
-    for _ in 0..RUNS {
+    for _ in 0..n {
         let start = Instant::now();
         last = f();
         times.push(start.elapsed());
     }
     times.sort();
-    (times[RUNS / 2], last)
+    (times[n / 2], last)
 }
 
 fn ms(d: Duration) -> f64 {
@@ -145,6 +181,22 @@ fn main() {
             row("(f) solve, winch at its rated point", d, Some(&sol));
         }
         Err(e) => println!("(e), (f): the winch design does not load: {e}"),
+    }
+    match six_step_pump() {
+        Ok((dir, path)) => match load_design(Origin::Disk(path)) {
+            Ok(p) => {
+                let ranged = Evaluator::new(&p);
+                let mut single = ranged.clone();
+                single.range = None;
+                let (d, sol) = median_of_n(3, || solve::solve(&ranged, Objective::LeastLoss));
+                row("(g) solve, six-step pump over 300-3000 rpm", d, Some(&sol));
+                let (d, sol) = median_of_n(5, || solve::solve(&single, Objective::LeastLoss));
+                row("(h) solve, six-step pump at its rated point", d, Some(&sol));
+                drop(dir);
+            }
+            Err(e) => println!("(g), (h): the six-step pump does not load: {e}"),
+        },
+        Err(e) => println!("(g), (h): not timed: {e}"),
     }
     // Built by cargo for benchmarks with the bench (release) profile:
     // target/release/pwmplan.
