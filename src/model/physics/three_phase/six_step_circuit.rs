@@ -96,12 +96,6 @@ impl SixStepCircuit<'_> {
         self.electrical_period_s() / 3.0
     }
 
-    /// The three back-EMFs at time `t_s` (θ = 30° at t = 0, the start of
-    /// sector 0; the angle convention of [`super::sectors`]).
-    pub(super) fn emfs_v(&self, t_s: f64) -> [f64; 3] {
-        self.emfs_with(self.emf_clock(), t_s)
-    }
-
     /// The EMF peak and the simulated electrical period, `(V, s)`: what
     /// [`Self::emfs_with`] needs, fixed for a window.
     pub(super) fn emf_clock(&self) -> (f64, f64) {
@@ -111,7 +105,9 @@ impl SixStepCircuit<'_> {
         )
     }
 
-    /// [`Self::emfs_v`] with [`Self::emf_clock`]'s figures given.
+    /// The three back-EMFs at time `t_s` (θ = 30° at t = 0, the start of
+    /// sector 0; the angle convention of [`super::sectors`]), from
+    /// [`Self::emf_clock`]'s figures.
     pub(super) fn emfs_with(&self, (e_pk, period_s): (f64, f64), t_s: f64) -> [f64; 3] {
         let theta = std::f64::consts::FRAC_PI_6 + 2.0 * std::f64::consts::PI * t_s / period_s;
         match self.motor.back_emf_shape {
@@ -133,13 +129,12 @@ impl SixStepCircuit<'_> {
 
     /// The sector of PWM period `k` (negative: before the window), 0..6.
     pub(super) fn sector_of_period(&self, k: i64) -> usize {
-        let n = self.periods_per_sector() as i64;
-        k.div_euclid(n).rem_euclid(SECTORS as i64) as usize
+        sector_of_period_in(k, self.periods_per_sector() as i64)
     }
 
     /// The sector at time `t_s` of the window.
     pub(super) fn sector_at(&self, t_s: f64) -> usize {
-        self.sector_of_period((t_s / self.period_s()).floor() as i64)
+        sector_at_in(t_s, self.period_s(), self.periods_per_sector() as i64)
     }
 
     /// Role of `device` in sector `s`.
@@ -285,6 +280,17 @@ impl Piece {
             inf * inf * d_s + 2.0 * inf * beta * tau * g1 + 0.5 * beta * beta * tau * g2,
         )
     }
+}
+
+/// The sector (0..6) of PWM period `k` with `n` periods a sector.
+pub(super) fn sector_of_period_in(k: i64, n: i64) -> usize {
+    k.div_euclid(n).rem_euclid(SECTORS as i64) as usize
+}
+
+/// The sector at window time `t_s` with PWM period `period_s` and `n`
+/// periods a sector.
+pub(super) fn sector_at_in(t_s: f64, period_s: f64, n: i64) -> usize {
+    sector_of_period_in((t_s / period_s).floor() as i64, n)
 }
 
 /// The terminals and the piece solution for gates `gates`, currents `i`

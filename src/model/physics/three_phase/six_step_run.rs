@@ -151,9 +151,7 @@ fn boundaries(c: &SixStepCircuit<'_>) -> [Option<(usize, f64)>; 2] {
 impl Run<'_, '_> {
     /// [`SixStepCircuit::sector_at`] from the window's fixed figures.
     fn sector_at(&self, t_s: f64) -> usize {
-        let k = (t_s / self.period_s).floor() as i64;
-        k.div_euclid(self.periods_per_sector)
-            .rem_euclid(super::sectors::SECTORS as i64) as usize
+        sector_at_in(t_s, self.period_s, self.periods_per_sector)
     }
 
     /// At a sector boundary: the off-going phase's current.
@@ -310,7 +308,7 @@ impl Run<'_, '_> {
     /// open terminal at `v_n + e_k`, clamped to the rails.
     fn open_v_ds(&self, phase: usize, high: bool) -> f64 {
         let v = self.c.stage.v_bus_v;
-        let e = self.c.emfs_v(self.t);
+        let e = self.c.emfs_with(self.emf_clock, self.t);
         let piece = solve_piece(self.c, &self.gates, self.i, e);
         let mut sum = 0.0;
         let mut n = 0.0;
