@@ -374,3 +374,30 @@ fn case_inputs_follow_the_bundled_files() {
         stale.join("\n")
     );
 }
+
+/// Compiling the templates in top-level pieces (`output::pieces`, to keep
+/// compiling cheap) renders every file of every golden case exactly as the
+/// templates compiled whole do, and as pieces cut at every allowed line.
+#[test]
+fn templates_in_pieces_render_as_whole() {
+    use pwmplan::cli::solved::{generate_with, solve_design};
+    use pwmplan::emit::Templates;
+    let whole = Templates::load_in_pieces(None, usize::MAX).expect("bundled templates compile");
+    let finest = Templates::load_in_pieces(None, 1).expect("bundled templates compile");
+    let usual = Templates::load(None).expect("bundled templates compile");
+    for case in CASES {
+        let dir = case_dir(case);
+        let design = dir.join(common::design_file(case));
+        let solved = solve_design(Some(&design), None, false).expect("the case plans");
+        let texts = |t: &Templates| {
+            generate_with(&solved, t)
+                .expect("the files render")
+                .into_iter()
+                .map(|f| (f.name, f.text))
+                .collect::<Vec<_>>()
+        };
+        let reference = texts(&whole);
+        assert_eq!(texts(&usual), reference, "{}", case.name);
+        assert_eq!(texts(&finest), reference, "{}", case.name);
+    }
+}

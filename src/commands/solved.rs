@@ -155,7 +155,7 @@ pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<Genera
 
 /// The files `plan` writes for a solved design, with templates already
 /// compiled.
-pub(super) fn generate_with(s: &Solved, t: &Templates) -> Result<Vec<GeneratedFile>, Failure> {
+pub fn generate_with(s: &Solved, t: &Templates) -> Result<Vec<GeneratedFile>, Failure> {
     let o = &s.design.spec.outputs;
     let (from, to) = review_range(&s.evaluator);
     let rows = sweep::sweep(

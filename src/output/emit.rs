@@ -8,12 +8,14 @@
 //! timestamps, fixed number formats, stable order. No I/O here except
 //! reading an override template folder; files are returned as data.
 
+use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 use handlebars::Handlebars;
 use heck::{ToShoutySnakeCase, ToSnakeCase};
 
 use crate::input::units::{Dimension, format_quantity};
+use crate::output::pieces;
 use crate::output::plan::Plan;
 
 // The context types and the sealing live in their own modules so `html` and
@@ -1173,17 +1175,76 @@ fn rationale_lines(c: &Context) -> Vec<String> {
 }
 
 /// The template set: the bundled one, or a folder that overrides it.
-pub struct Templates {
+///
+/// Each template is compiled in top-level pieces ([`pieces`]), rendered
+/// one after another into one text; `whole` keeps each template's text to
+/// name a render error's line in the template as written.
+#[derive(Clone)]
+pub struct Templates(std::sync::Arc<CompiledTemplates>);
+
+struct CompiledTemplates {
     hb: Handlebars<'static>,
+    pieces: BTreeMap<String, Vec<String>>,
+    whole: BTreeMap<String, String>,
+}
+
+/// A handlebars registry as pwmplan renders: strict, no escaping.
+fn registry() -> Handlebars<'static> {
+    let mut hb = Handlebars::new();
+    hb.set_strict_mode(true);
+    hb.register_escape_fn(handlebars::no_escape);
+    hb
+}
+
+/// Register `text` as `name`'s pieces (named `name#0`, `name#1`, ...), or
+/// whole where it does not cut into pieces that each compile; the names
+/// registered, in order.
+fn register_in_pieces(
+    hb: &mut Handlebars<'static>,
+    name: &str,
+    text: &str,
+    piece_bytes: usize,
+) -> Result<Vec<String>, handlebars::TemplateError> {
+    let parts = pieces::top_level_pieces(text, piece_bytes);
+    if parts.len() > 1 {
+        let names: Vec<String> = (0..parts.len()).map(|i| format!("{name}#{i}")).collect();
+        let compiled = names
+            .iter()
+            .zip(&parts)
+            .all(|(n, p)| hb.register_template_string(n, p).is_ok());
+        if compiled {
+            return Ok(names);
+        }
+        for n in &names {
+            hb.unregister_template(n);
+        }
+    }
+    hb.register_template_string(name, text)?;
+    Ok(vec![name.to_string()])
 }
 
 impl Templates {
     /// The bundled templates, or those of `dir` when given (every bundled
-    /// name must exist there).
+    /// name must exist there). The bundled set is compiled once per process
+    /// and shared.
     pub fn load(dir: Option<&Path>) -> Result<Templates, EmitError> {
-        let mut hb = Handlebars::new();
-        hb.set_strict_mode(true);
-        hb.register_escape_fn(handlebars::no_escape);
+        static BUNDLED: std::sync::OnceLock<Result<Templates, EmitError>> =
+            std::sync::OnceLock::new();
+        match dir {
+            None => BUNDLED
+                .get_or_init(|| Templates::load_in_pieces(None, pieces::PIECE_BYTES))
+                .clone(),
+            Some(_) => Templates::load_in_pieces(dir, pieces::PIECE_BYTES),
+        }
+    }
+
+    /// As [`Templates::load`], each template cut into pieces of about
+    /// `piece_bytes` (`usize::MAX`: whole, as a test compares).
+    #[doc(hidden)]
+    pub fn load_in_pieces(dir: Option<&Path>, piece_bytes: usize) -> Result<Templates, EmitError> {
+        let mut hb = registry();
+        let mut pieces = BTreeMap::new();
+        let mut whole = BTreeMap::new();
         for (name, text) in BUNDLED_TEMPLATES {
             let text = match dir {
                 None => text.to_string(),
@@ -1223,22 +1284,34 @@ impl Templates {
                     text
                 }
             };
-            hb.register_template_string(name, text)
-                .map_err(|e| EmitError::Template {
+            let names = register_in_pieces(&mut hb, name, &text, piece_bytes).map_err(|e| {
+                EmitError::Template {
                     file: dir
                         .map(|d| d.join(name).display().to_string())
                         .unwrap_or_else(|| name.to_string()),
                     message: e.to_string(),
-                })?;
+                }
+            })?;
+            pieces.insert(name.to_string(), names);
+            whole.insert(name.to_string(), text);
         }
-        Ok(Templates { hb })
+        Ok(Templates(std::sync::Arc::new(CompiledTemplates {
+            hb,
+            pieces,
+            whole,
+        })))
     }
 
     /// Render `name`, stopping with an error once the text passes
     /// [`MAX_RENDERED_BYTES`].
     fn render(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
         let mut out = CappedWriter::default();
-        match self.hb.render_to_write(name, ctx, &mut out) {
+        let names = self.0.pieces.get(name).map_or(&[][..], Vec::as_slice);
+        let rendered = names
+            .iter()
+            .try_for_each(|n| self.0.hb.render_to_write(n, ctx, &mut out))
+            .map_err(|e| self.error_in_whole(name, ctx).unwrap_or(e));
+        match rendered {
             Ok(()) => String::from_utf8(out.bytes).map_err(|_| EmitError::Render {
                 template: name.to_string(),
                 message: "the rendered text is not UTF-8".into(),
@@ -1258,6 +1331,16 @@ impl Templates {
 }
 
 impl Templates {
+    /// The error rendering `name` whole gives, which names the line in the
+    /// template as written (a piece's error counts lines from the piece).
+    fn error_in_whole(&self, name: &str, ctx: &Context) -> Option<handlebars::RenderError> {
+        let mut hb = registry();
+        hb.register_template_string(name, self.0.whole.get(name)?)
+            .ok()?;
+        hb.render_to_write(name, ctx, &mut CappedWriter::default())
+            .err()
+    }
+
     /// Render `name` and seal it; the text must carry the marker exactly
     /// once, or the hand-edit guard could not recognise the file later.
     fn render_sealed(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
@@ -1456,6 +1539,23 @@ pub fn plan_json(plan: &Plan) -> String {
 
 #[cfg(test)]
 mod tests {
+    /// The two long bundled templates really compile in pieces (not whole
+    /// after a failed cut), each piece smaller than a third of the template.
+    #[test]
+    fn long_templates_compile_in_pieces() {
+        let t = super::Templates::load(None).expect("bundled templates compile");
+        for (name, text) in super::BUNDLED_TEMPLATES {
+            let names = &t.0.pieces[*name];
+            if text.len() > 4 * super::pieces::PIECE_BYTES {
+                assert!(names.len() >= 4, "{name}: {names:?}");
+                for n in names {
+                    let piece = t.0.hb.get_template(n).expect("registered");
+                    assert!(piece.elements.len() < text.matches("{{").count() / 3, "{n}");
+                }
+            }
+        }
+    }
+
     /// The bundled templates are within the shape bounds; comments may
     /// mention anything.
     #[test]

@@ -17,6 +17,7 @@ pub mod html;
 pub mod legend;
 pub mod limit;
 pub mod loop_out;
+pub mod pieces;
 pub mod plan;
 pub mod range_out;
 pub mod report;

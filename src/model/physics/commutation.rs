@@ -665,10 +665,41 @@ mod tests {
 
     #[test]
     fn step_count_converged() {
+        // The rise's steps against 20 times as many, over light and heavy
+        // loads, fast and slow gates, both partners: energies (against the
+        // terminal energy) and times within 1e-3. (A fourth-order step at a
+        // quarter of the steps was tried and failed this test by 6 % on the
+        // slow gate at heavy load: the Miller plateau is a stiff mode, the
+        // gate's time constant against the channel's transconductance, and
+        // an explicit step must stay short against it.)
         let sw = curved_switch();
-        let base = turn_off(&circuit(&sw, 8.0, 4.0)).expect("finishes");
-        let fine = turn_off_with_steps(&circuit(&sw, 8.0, 4.0), 4000.0).expect("finishes");
-        assert!((base.e_terminal_j / fine.e_terminal_j - 1.0).abs() < 1e-3);
+        let mut worst: f64 = 0.0;
+        for i in [0.3, 2.0, 8.0, 30.0] {
+            for r in [1.0, 4.0, 20.0] {
+                for bridge in [false, true] {
+                    let mut c = circuit(&sw, i, r);
+                    if bridge {
+                        c.partner = Partner::Switch(c.c_oss);
+                    }
+                    let base = turn_off(&c).expect("finishes");
+                    let fine = turn_off_with_steps(&c, 4000.0).expect("finishes");
+                    let e = fine.e_terminal_j;
+                    for (a, b, scale) in [
+                        (base.e_terminal_j, fine.e_terminal_j, e),
+                        (base.e_channel_j, fine.e_channel_j, e),
+                        (base.t_rise_s, fine.t_rise_s, fine.t_rise_s),
+                        (
+                            base.t_half_handover_s,
+                            fine.t_half_handover_s,
+                            fine.t_half_handover_s,
+                        ),
+                    ] {
+                        worst = worst.max((a - b).abs() / scale);
+                    }
+                }
+            }
+        }
+        assert!(worst < 1e-3, "worst relative difference {worst:e}");
     }
 
     fn rise_circuit(sw: &SwitchModel, r_ohm: f64, l_h: f64) -> TurnOnCircuit<'_> {
