@@ -2985,6 +2985,43 @@ error: heron-hb48.yaml:18:22: board.stage.loop_inductance: 5.00 µH is out of ra
     );
 }
 
+/// The common-source inductance: a negative inductance is no source lead.
+#[test]
+fn common_source_inductance_negative() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    switch: switches/corrie-100.yaml",
+            "    switch: switches/corrie-100.yaml\n    common_source_inductance: \"-2 nH\"",
+        )],
+        r#"
+error: heron-hb48.yaml:18:31: board.stage.common_source_inductance: -2.00 nH is out of range; expected 0 to 100 nH
+ 18 |     common_source_inductance: "-2 nH"
+    |                               ^
+"#,
+    );
+}
+
+/// The common-source inductance is part of the commutation loop, so it
+/// cannot exceed the loop's whole inductance.
+#[test]
+fn common_source_inductance_above_the_loop() {
+    bad_input(
+        "winch.yaml",
+        &[case(
+            "heron-hb48.yaml",
+            "    switch: switches/corrie-100.yaml",
+            "    switch: switches/corrie-100.yaml\n    loop_inductance: \"4 nH\"\n    common_source_inductance: \"6 nH\"",
+        )],
+        r#"
+error: heron-hb48.yaml:19:31: board.stage.common_source_inductance: 6.00 nH is more than the whole commutation loop's 4.00 nH; expected a part of `loop_inductance` (the source lead is inside the loop)
+ 19 |     common_source_inductance: "6 nH"
+    |                               ^
+"#,
+    );
+}
+
 /// The gate-charge test current: a negative current is no test point.
 #[test]
 fn gate_charge_test_current_negative() {

@@ -1232,17 +1232,7 @@ fn check_board_stage(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
             "missing; a low-side stage needs the diode the motor current freewheels through while the switch is off (`freewheel_diode: { v_f: ..., q_rr: ..., t_rr: ..., i_f: ..., v_rrm: ... }`)",
         ));
     }
-    if let Some(l) = &st.loop_inductance {
-        // Bound of our own choice: 0 < L ≤ 1 µH (a power loop is a few nH to
-        // a few tens of nH; a µH is wiring, not a loop).
-        c.within(
-            "stage.loop_inductance",
-            l.si,
-            0.0,
-            1e-6,
-            Dimension::Inductance,
-        )?;
-    }
+    check_stray_inductances(st, c)?;
     if let Some(m) = &st.v_ds_margin {
         // Bound of our own choice: a margin of 0 to 90 % of V_DSS.
         c.non_negative("stage.v_ds_margin", m.si, 0.9, Dimension::Ratio)?;
@@ -1258,6 +1248,45 @@ fn check_board_stage(b: &BoardSpec, c: &Check) -> Result<(), InputError> {
         c.within("stage.freewheel_diode.v_rrm", d.v_rrm.si, 0.0, 5000.0, V)?;
     }
 
+    Ok(())
+}
+
+/// The stage's stray inductances: the commutation loop and its part in the
+/// source lead.
+fn check_stray_inductances(st: &StageSpec, c: &Check) -> Result<(), InputError> {
+    if let Some(l) = &st.loop_inductance {
+        // Bound of our own choice: 0 < L ≤ 1 µH (a power loop is a few nH to
+        // a few tens of nH; a µH is wiring, not a loop).
+        c.within(
+            "stage.loop_inductance",
+            l.si,
+            0.0,
+            1e-6,
+            Dimension::Inductance,
+        )?;
+    }
+    if let Some(l_s) = &st.common_source_inductance {
+        // Bound of our own choice: 0 ≤ L_s ≤ 100 nH (a package source lead
+        // is a few nH; a Kelvin source connection makes it about 0).
+        c.non_negative(
+            "stage.common_source_inductance",
+            l_s.si,
+            100e-9,
+            Dimension::Inductance,
+        )?;
+        if let Some(l) = &st.loop_inductance
+            && l_s.si > l.si
+        {
+            return Err(c.fail(
+                "stage.common_source_inductance",
+                format!(
+                    "{} is more than the whole commutation loop's {}; expected a part of `loop_inductance` (the source lead is inside the loop)",
+                    format_quantity(l_s.si, Dimension::Inductance, 3),
+                    format_quantity(l.si, Dimension::Inductance, 3)
+                ),
+            ));
+        }
+    }
     Ok(())
 }
 

@@ -205,6 +205,16 @@ pub const DEFAULT_V_DS_MARGIN: f64 = 0.2;
 pub const DEFAULT_F_MAX_HZ: f64 = 100_000.0;
 
 /// Gate-driver output resistance from a peak current: R = V_drive/I_peak
+/// The commutation loop's inductance: the board's `loop_inductance`, or the
+/// common-source inductance alone where only that is given (the source lead
+/// is part of the loop), else 0.
+fn loop_inductance_h(stage: &crate::input::spec::StageSpec) -> f64 {
+    stage
+        .loop_inductance
+        .or(stage.common_source_inductance)
+        .map_or(0.0, |l| l.si)
+}
+
 /// (common practice for datasheets that give peak currents).
 fn driver_resistance(e: &Either2<Ohm, Ampere>, v_drive_v: f64) -> f64 {
     if e.is_first() { e.si } else { v_drive_v / e.si }
@@ -386,7 +396,8 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
             r_ext_off_ohm: g.r_gate_off.si,
             prop_delay_s: g.propagation_delay.si,
             mismatch_s: g.delay_mismatch.si,
-            loop_inductance_h: board.stage.loop_inductance.map_or(0.0, |l| l.si),
+            loop_inductance_h: loop_inductance_h(&board.stage),
+            common_source_inductance_h: board.stage.common_source_inductance.map_or(0.0, |l| l.si),
         },
         diode: board.stage.freewheel_diode.as_ref().map(|d| DiodeModel {
             v_f_v: d.v_f.si,
@@ -604,7 +615,7 @@ impl Evaluator {
                     .and_then(|b| b.max)
                     .map(|f| f.si)
                     .unwrap_or(DEFAULT_F_MAX_HZ),
-                v_ds_peak_max_v: d.board.stage.loop_inductance.map(|_| {
+                v_ds_peak_max_v: (loop_inductance_h(&d.board.stage) > 0.0).then(|| {
                     let margin = d
                         .board
                         .stage

@@ -1624,7 +1624,7 @@ fn assumptions_out(ev: &Evaluator) -> Vec<String> {
                 ev.three_phase.is_some(),
                 ev.stage.topology == Topology::LowSide
             ),
-            loop_assumption(&ev.stage.switch, ev.stage.drive.loop_inductance_h)
+            loop_assumption(&ev.stage.switch, &ev.stage.drive)
         ),
         SWITCH_PARAMETERS_ASSUMPTION => {
             on_resistance_assumption(&ev.stage.switch, ev.stage.drive.v_drive_v)
@@ -1670,7 +1670,7 @@ fn switching_assumption(
     low_side: bool,
 ) -> String {
     let turn_off = if crate::model::physics::switching::turn_off_followed(sw) {
-        "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises"
+        "the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; the turn-on's voltage fall followed there too, the channel carrying the load current and what discharges its own C_ds and charges the partner's"
     } else {
         "the turn-off with the whole load current in the channel through the Miller swing (the switch file has no C_rss curve or no g_fs; conservative)"
     };
@@ -1700,8 +1700,17 @@ fn switching_assumption(
 /// What the commutation-loop inductance does in the switching model.
 fn loop_assumption(
     sw: &crate::model::physics::params::SwitchModel,
-    loop_inductance_h: f64,
+    drive: &crate::model::physics::params::GateDrive,
 ) -> String {
+    let loop_inductance_h = drive.loop_inductance_h;
+    let source = if drive.common_source_inductance_h > 0.0 {
+        format!(
+            "; common-source inductance {} in the gate loop: the gate sees the driver less L_s·di/dt, so both current edges slow (the gate-charge method's current transitions by L_s·I/V_od; the followed rise and fall carry it in their gate equation); the partner's reverse phase at the slower slope is not booked (a half-bridge's E_on comes out low and its E_off high by about as much)",
+            format_quantity(drive.common_source_inductance_h, Dimension::Inductance, 3)
+        )
+    } else {
+        "; common-source inductance not given (a Kelvin source: the gate loop shares none of the power loop)".to_string()
+    };
     if loop_inductance_h > 0.0 {
         let (turn_off, turn_on) = if crate::model::physics::switching::turn_off_followed(sw) {
             (
@@ -1715,11 +1724,11 @@ fn loop_assumption(
             )
         };
         format!(
-            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint); {turn_on}",
+            "commutation-loop inductance {}: {turn_off} (devices[].v_peak_off_v, the turn-off-peak constraint); {turn_on}{source}",
             format_quantity(loop_inductance_h, Dimension::Inductance, 3)
         )
     } else {
-        "stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted".to_string()
+        "stray inductance not given (stage.loop_inductance, stage.common_source_inductance): no turn-off overshoot is checked, no turn-on voltage dip is counted and the gate loop shares none of the power loop".to_string()
     }
 }
 

@@ -213,12 +213,23 @@ pub fn board_text(r: &mut Rng, topology: &str, modulation: &str, three_phase: bo
         String::new()
     };
     // A commutation-loop inductance on every third clock value, derived from
-    // the clock rather than drawn, so the other draws stay as they were.
-    let loop_line = if (clock_mhz as u64).is_multiple_of(3) {
-        format!(
-            "\n    loop_inductance: \"{} nH\"",
-            2 + (clock_mhz as u64) % 9
-        )
+    // the clock rather than drawn, so the other draws stay as they were; on
+    // even clocks half of it in the source lead, and on other fifth clocks a
+    // common-source inductance alone.
+    let clock = clock_mhz as u64;
+    let loop_line = if clock.is_multiple_of(3) {
+        let loop_nh = 2 + clock % 9;
+        let source = if clock.is_multiple_of(2) {
+            format!(
+                "\n    common_source_inductance: \"{:.1} nH\"",
+                0.5 * loop_nh as f64
+            )
+        } else {
+            String::new()
+        };
+        format!("\n    loop_inductance: \"{loop_nh} nH\"{source}")
+    } else if clock.is_multiple_of(5) {
+        "\n    common_source_inductance: \"1.5 nH\"".to_string()
     } else {
         String::new()
     };

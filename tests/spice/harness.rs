@@ -870,8 +870,20 @@ pub struct SwitchCase {
     /// External gate resistor, turn-off path.
     pub r_off_ohm: f64,
     /// Commutation-loop inductance between the bus source and the leg, H
-    /// (0: none).
+    /// (0: none); the loop's whole inductance is this plus `l_source_h`.
     pub l_loop_h: f64,
+    /// Common-source inductance, H (0: none): between the measured switch's
+    /// source and the power ground, where the gate driver returns, so it is
+    /// in the gate loop and in the commutation loop.
+    pub l_source_h: f64,
+}
+
+impl SwitchCase {
+    /// The commutation loop's whole inductance: the bus side and the
+    /// common-source part (what a board's `loop_inductance` states).
+    pub fn loop_total_h(&self) -> f64 {
+        self.l_loop_h + self.l_source_h
+    }
 }
 
 #[allow(clippy::too_many_arguments)] // a table row constructor
@@ -895,6 +907,7 @@ const fn sc(
         r_on_ohm,
         r_off_ohm,
         l_loop_h: 0.0,
+        l_source_h: 0.0,
     }
 }
 
@@ -913,6 +926,14 @@ const fn with_loop(case: SwitchCase, l_loop_nh: f64) -> SwitchCase {
 }
 
 use Circuit::{HalfBridge as HB, LowSide as LS};
+
+/// A case with a common-source inductance of `l_source_nh` nH.
+const fn with_source(case: SwitchCase, l_source_nh: f64) -> SwitchCase {
+    SwitchCase {
+        l_source_h: l_source_nh * 1e-9,
+        ..case
+    }
+}
 
 /// The switching reference cases (12–100 V, 1–30 A, 2–47 Ω, 5 V and 10–12 V;
 /// light-load cases where the output capacitance dominates: S17, S21, S25–S27).
@@ -950,6 +971,23 @@ pub const SWITCH_CASES: &[SwitchCase] = &[
     with_loop(sc("S31", "rigg-100", HB, 36.0, 20.0, 12.0, 4.7, 2.2), 6.0),
     with_loop(sc("S32", "crag-150", LS, 100.0, 5.0, 12.0, 10.0, 4.7), 10.0),
     with_loop(sc("S33", "fell-30", HB, 12.0, 25.0, 10.0, 4.7, 2.2), 3.0),
+    // Common-source inductance, alone and with a loop on the bus side
+    // (added before the model took it in).
+    with_source(sc("S34", "hause-60", LS, 24.0, 10.0, 10.0, 10.0, 4.7), 2.0),
+    with_source(
+        with_loop(sc("S35", "brack-40", HB, 24.0, 20.0, 12.0, 4.7, 2.2), 3.0),
+        1.5,
+    ),
+    with_source(
+        with_loop(sc("S36", "rigg-100", LS, 48.0, 10.0, 10.0, 10.0, 4.7), 4.0),
+        3.0,
+    ),
+    with_source(sc("S37", "fell-30", HB, 12.0, 25.0, 10.0, 2.2, 2.2), 1.0),
+    with_source(
+        with_loop(sc("S38", "crag-150", LS, 96.0, 5.0, 12.0, 10.0, 4.7), 5.0),
+        4.0,
+    ),
+    with_source(sc("S39", "hause-60", HB, 36.0, 15.0, 10.0, 4.7, 2.2), 5.0),
 ];
 
 /// Load inductance giving the nominal current after the first pulse.
@@ -976,7 +1014,7 @@ pub fn netlist_switching(case: &SwitchCase) -> Result<String, String> {
     let _ = writeln!(
         n,
         ".options reltol=1e-4 abstol=1e-6 vntol=1e-5 method=gear\n\
-         {supply}L1 bus sw {l}\nVSNS sw d 0\nM1 d g 0 {m}\n\
+         {supply}L1 bus sw {l}\nVSNS sw d 0\nM1 d g {source} {m}\n\
          VCTL ctl 0 PWL(0 0 {a} 0 {b} 1 {c} 1 {d} 0 {e} 0 {f} 1)\n\
          BDRV 0 g I = v(ctl)*({vd}-v(g))/{r_on} - (1-v(ctl))*v(g)/{r_off}",
         supply = if case.l_loop_h > 0.0 {
@@ -984,11 +1022,17 @@ pub fn netlist_switching(case: &SwitchCase) -> Result<String, String> {
                 "VBUS busx 0 {}\nRLOOP busx busr {LOOP_RESISTANCE_OHM}\nLLOOP busr bus {}\n",
                 case.v_bus_v, case.l_loop_h
             )
+        } else if case.l_source_h > 0.0 {
+            format!(
+                "VBUS busx 0 {}\nRLOOP busx bus {LOOP_RESISTANCE_OHM}\n",
+                case.v_bus_v
+            )
         } else {
             format!("VBUS bus 0 {}\n", case.v_bus_v)
         },
         l = load_inductance_h(case),
         m = dev.stem,
+        source = if case.l_source_h > 0.0 { "s" } else { "0" },
         a = T_START_S - 0.5e-9,
         b = T_START_S + 0.5e-9,
         c = t_off - 0.5e-9,
@@ -1012,11 +1056,22 @@ pub fn netlist_switching(case: &SwitchCase) -> Result<String, String> {
     // The loop's ring with the partner's capacitance lasts a few ns: a 1 ns
     // step keeps it alive numerically (it never decays in 10 µs at 1 ns and
     // decays as 2L/R at 0.05 ns, checked on S29), so loop cases step finer.
-    let max_step = if case.l_loop_h > 0.0 { "0.05n" } else { "1n" };
+    let max_step = if case.loop_total_h() > 0.0 {
+        "0.05n"
+    } else {
+        "1n"
+    };
+    // With a common-source inductance the drain and gate are measured
+    // against the die's source (the measurement subtracts v(s)).
+    let (source_lead, source_probe) = if case.l_source_h > 0.0 {
+        (format!("LSRC s 0 {}\n", case.l_source_h), " v(s)")
+    } else {
+        (String::new(), "")
+    };
     let _ = write!(
         n,
-        ".control\n{WR}tran 0.5n {t_end} 0 {max_step}\n\
-         wrdata out.txt v(d) v(g) i(vsns) i(l1)\nquit\n.endc\n.end\n"
+        "{source_lead}.control\n{WR}tran 0.5n {t_end} 0 {max_step}\n\
+         wrdata out.txt v(d) v(g) i(vsns) i(l1){source_probe}\nquit\n.endc\n.end\n"
     );
     Ok(n)
 }
@@ -1065,8 +1120,16 @@ impl SwitchMeasured {
 /// Measure a double-pulse waveform.
 pub fn measure_switching(case: &SwitchCase, tab: &Table) -> Result<SwitchMeasured, String> {
     let t = tab.col("time")?;
-    let vd = tab.col("v(d)")?;
-    let vg = tab.col("v(g)")?;
+    // Drain and gate against the die's source where a common-source
+    // inductance lifts it off the ground.
+    let (vd, vg) = match tab.col("v(s)") {
+        Ok(vs) => {
+            let less = |c: &[f64]| c.iter().zip(vs).map(|(a, b)| a - b).collect::<Vec<f64>>();
+            (less(tab.col("v(d)")?), less(tab.col("v(g)")?))
+        }
+        Err(_) => (tab.col("v(d)")?.to_vec(), tab.col("v(g)")?.to_vec()),
+    };
+    let (vd, vg) = (&vd[..], &vg[..]);
     let id = tab.col("i(vsns)")?;
     let il = tab.col("i(l1)")?;
     let (t_off, t_on, _) = command_times_s();
@@ -1105,8 +1168,18 @@ pub fn measure_switching(case: &SwitchCase, tab: &Table) -> Result<SwitchMeasure
     let v_on = vd[vd.len() - 1];
     let t_end = crossing(t, vd, v_on + 0.02 * (v - v_on), false, kc)
         .ok_or_else(|| err("V_DS never falls"))?;
-    let t_i2 = crossing(t, id, 0.02 * i_on, true, k).ok_or_else(|| err("I_D never 2 %"))?;
     let t_i10 = crossing(t, id, 0.1 * i_on, true, k).ok_or_else(|| err("I_D never 10 %"))?;
+    // Conduction starts at the last upward 2 % crossing before 10 %: with a
+    // common-source inductance the gate loop rings through the source lead
+    // at the command and its displacement current crosses 2 % before the
+    // channel conducts (without one the first crossing is the only one).
+    let mut t_i2 = crossing(t, id, 0.02 * i_on, true, k).ok_or_else(|| err("I_D never 2 %"))?;
+    while let Some(next) = crossing(t, id, 0.02 * i_on, true, index_at(t, t_i2) + 1) {
+        if next >= t_i10 {
+            break;
+        }
+        t_i2 = next;
+    }
     let t_i90 = crossing(t, id, 0.9 * i_on, true, k).ok_or_else(|| err("I_D never 90 %"))?;
     let t_v90 = crossing(t, vd, 0.9 * v, false, kc).ok_or_else(|| err("V_DS never 90 %"))?;
     let t_v10 = crossing(t, vd, 0.1 * v, false, kc).ok_or_else(|| err("V_DS never 10 %"))?;
@@ -1136,7 +1209,8 @@ pub fn gate_drive(case: &SwitchCase) -> GateDrive {
         r_ext_off_ohm: case.r_off_ohm,
         prop_delay_s: 0.0,
         mismatch_s: 0.0,
-        loop_inductance_h: case.l_loop_h,
+        loop_inductance_h: case.loop_total_h(),
+        common_source_inductance_h: case.l_source_h,
     }
 }
 
@@ -1467,7 +1541,7 @@ pub fn predict_ripple(
 // ---------------------------------------------------------------- CSV files
 
 /// Header of `switching_reference.csv`.
-pub const SWITCHING_HEADER: &str = "id,device,circuit,v_bus_v,i_nominal_a,v_drive_v,r_ext_on_ohm,r_ext_off_ohm,l_loop_h,\
+pub const SWITCHING_HEADER: &str = "id,device,circuit,v_bus_v,i_nominal_a,v_drive_v,r_ext_on_ohm,r_ext_off_ohm,l_loop_h,l_source_h,\
 i_on_a,i_off_a,e_on_j,e_off_j,q_rec_c,t_d_on_s,t_ri_s,t_fv_s,t_d_off_s,t_rv_s,t_fi_s,t_cond_start_s,t_cond_end_s,v_peak_off_v";
 
 /// Header of `ripple_reference.csv`.
@@ -1476,7 +1550,7 @@ pub const RIPPLE_HEADER: &str =
 
 pub fn switching_row(c: &SwitchCase, m: &SwitchMeasured) -> String {
     format!(
-        "{},{},{},{},{},{},{},{},{},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e}",
+        "{},{},{},{},{},{},{},{},{},{},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e},{:.6e}",
         c.id,
         c.device,
         c.circuit.name(),
@@ -1486,6 +1560,7 @@ pub fn switching_row(c: &SwitchCase, m: &SwitchMeasured) -> String {
         c.r_on_ohm,
         c.r_off_ohm,
         c.l_loop_h,
+        c.l_source_h,
         m.i_on_a,
         m.i_off_a,
         m.e_on_j,
@@ -1563,14 +1638,15 @@ pub fn read_switching(text: &str) -> Result<Vec<(SwitchCase, SwitchMeasured)>, S
             && num(&f[5])? == case.v_drive_v
             && num(&f[6])? == case.r_on_ohm
             && num(&f[7])? == case.r_off_ohm
-            && num(&f[8])? == case.l_loop_h;
+            && num(&f[8])? == case.l_loop_h
+            && num(&f[9])? == case.l_source_h;
         if !same {
             return Err(format!(
                 "{}: conditions differ from SWITCH_CASES; regenerate",
                 case.id
             ));
         }
-        let v: Vec<f64> = f[9..].iter().map(|s| num(s)).collect::<Result<_, _>>()?;
+        let v: Vec<f64> = f[10..].iter().map(|s| num(s)).collect::<Result<_, _>>()?;
         out.push((
             case,
             SwitchMeasured {
@@ -1646,6 +1722,10 @@ pub struct SwitchError {
     pub e_err_const_q_rr: f64,
     /// The same error for `switching::transitions_first_order`.
     pub e_err_first_order: f64,
+    /// The same error with the common-source inductance left out of the
+    /// gate loop (kept in the commutation loop); equal to `e_err` where the
+    /// case has none.
+    pub e_err_without_source: f64,
     /// Dead-time need ≥ simulated interval.
     pub dead_time_covered: bool,
 }
@@ -1684,6 +1764,15 @@ pub fn switching_errors(
             )
             .map_err(|e| format!("{}: {e:?}", case.id))?;
             let fo_total = fo.e_on_j + fo.e_off_j + pred.e_rr_const_j;
+            let without_source = predict_switching(
+                &sw,
+                &SwitchCase {
+                    l_loop_h: case.loop_total_h(),
+                    l_source_h: 0.0,
+                    ..*case
+                },
+                meas,
+            )?;
             Ok(SwitchError {
                 case: *case,
                 meas: *meas,
@@ -1692,6 +1781,7 @@ pub fn switching_errors(
                 e_err_sim_charge: (with_sim - sim) / sim,
                 e_err_const_q_rr: (with_const - sim) / sim,
                 e_err_first_order: (fo_total - sim) / sim,
+                e_err_without_source: (without_source.e_total_j() - sim) / sim,
                 dead_time_covered: pred.dead_time_need_s >= meas.interval_s(),
             })
         })
@@ -1791,7 +1881,7 @@ pub fn errors_csv(sw: &[SwitchError], rp: &[RippleErrorRow]) -> String {
 pub fn circuit_summary(all: &[SwitchError]) -> String {
     let sw: Vec<SwitchError> = all
         .iter()
-        .filter(|e| e.case.l_loop_h == 0.0)
+        .filter(|e| e.case.loop_total_h() == 0.0)
         .cloned()
         .collect();
     let stats = |v: Vec<f64>| {
@@ -1823,7 +1913,7 @@ pub fn circuit_summary(all: &[SwitchError]) -> String {
 /// The cases with a commutation-loop inductance: the turn-off peak's error
 /// range and E_on + E_off's median and worst |error|.
 pub fn loop_summary(all: &[SwitchError]) -> String {
-    let with: Vec<&SwitchError> = all.iter().filter(|e| e.case.l_loop_h > 0.0).collect();
+    let with: Vec<&SwitchError> = all.iter().filter(|e| e.case.loop_total_h() > 0.0).collect();
     let range = |v: &[f64]| {
         v.iter()
             .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
@@ -1844,10 +1934,18 @@ pub fn loop_summary(all: &[SwitchError]) -> String {
         .map(|e| e.pred.e_off_j / e.meas.e_off_j - 1.0)
         .collect();
     let ((lo, hi), (on_lo, on_hi), (off_lo, off_hi)) = (range(&peak), range(&e_on), range(&e_off));
+    let (l_lo, l_hi) = range(
+        &with
+            .iter()
+            .map(|e| 1e9 * e.case.loop_total_h())
+            .collect::<Vec<_>>(),
+    );
     format!(
-        "With a commutation-loop inductance ({} cases, 2–10 nH): turn-off peak V_DS from {:+.1} % to {:+.1} %; \
+        "With a commutation-loop inductance ({} cases, {:.0}–{:.0} nH): turn-off peak V_DS from {:+.1} % to {:+.1} %; \
          E_on + E_off median |error| {:.1} %, worst {:.1} %; E_on off by {:+.2} to {:+.2} µJ, E_off by {:+.1} % to {:+.1} %.\n",
         with.len(),
+        l_lo,
+        l_hi,
         100.0 * lo,
         100.0 * hi,
         100.0 * median_abs(&e),
@@ -1859,14 +1957,41 @@ pub fn loop_summary(all: &[SwitchError]) -> String {
     )
 }
 
+/// The cases with a common-source inductance: E_on + E_off's median and
+/// worst |error|, and the same with the source lead left out of the gate
+/// loop (what the model gave before it took the inductance in).
+pub fn source_summary(all: &[SwitchError]) -> String {
+    let with: Vec<&SwitchError> = all.iter().filter(|e| e.case.l_source_h > 0.0).collect();
+    let worst = |v: &[f64]| v.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
+    let e: Vec<f64> = with.iter().map(|e| e.e_err).collect();
+    let without: Vec<f64> = with.iter().map(|e| e.e_err_without_source).collect();
+    let (l_lo, l_hi) = with.iter().fold((f64::INFINITY, 0.0_f64), |(a, b), e| {
+        (
+            a.min(1e9 * e.case.l_source_h),
+            b.max(1e9 * e.case.l_source_h),
+        )
+    });
+    format!(
+        "With a common-source inductance ({} of the loop cases, {:.0}–{:.0} nH in the source lead): E_on + E_off median |error| {:.1} %, \
+         worst {:.1} %; without the source lead's L·di/dt in the gate loop: median {:.1} %, worst {:.1} %.\n",
+        with.len(),
+        l_lo,
+        l_hi,
+        100.0 * median_abs(&e),
+        100.0 * worst(&e),
+        100.0 * median_abs(&without),
+        100.0 * worst(&without)
+    )
+}
+
 /// The per-case error table in Markdown (`errors.md`).
 pub fn errors_md(all: &[SwitchError], rp: &[RippleErrorRow]) -> String {
     let sw = all;
-    let n_loop = all.iter().filter(|e| e.case.l_loop_h > 0.0).count();
+    let n_loop = all.iter().filter(|e| e.case.loop_total_h() > 0.0).count();
     let errs: Vec<f64> = sw.iter().map(|e| e.e_err).collect();
     let worst = errs.iter().fold(0.0_f64, |a, x| a.max(x.abs()));
     // The alternatives below know no loop: compared on the cases without one.
-    let plain = || sw.iter().filter(|e| e.case.l_loop_h == 0.0);
+    let plain = || sw.iter().filter(|e| e.case.loop_total_h() == 0.0);
     let simq: Vec<f64> = plain().map(|e| e.e_err_sim_charge).collect();
     let constq: Vec<f64> = plain().map(|e| e.e_err_const_q_rr).collect();
     let fo: Vec<f64> = plain().map(|e| e.e_err_first_order).collect();
@@ -1906,12 +2031,13 @@ pub fn errors_md(all: &[SwitchError], rp: &[RippleErrorRow]) -> String {
     );
     let _ = writeln!(s, "{}", circuit_summary(sw));
     let _ = writeln!(s, "{}", loop_summary(all));
-    s.push_str("| case | device | circuit | V | I_off/I_on A | drive V | R_on/R_off Ω | E sim µJ | E pred µJ | error | E_on sim/pred µJ | E_off sim/pred µJ | recovery Q·V µJ | dead-time interval/need ns | loop nH | V_DS peak sim/pred V |\n|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|\n");
+    let _ = writeln!(s, "{}", source_summary(all));
+    s.push_str("| case | device | circuit | V | I_off/I_on A | drive V | R_on/R_off Ω | E sim µJ | E pred µJ | error | E_on sim/pred µJ | E_off sim/pred µJ | recovery Q·V µJ | dead-time interval/need ns | loop (source) nH | V_DS peak sim/pred V |\n|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|\n");
     for e in all {
         let c = &e.case;
         let _ = writeln!(
             s,
-            "| {} | {} | {} | {} | {:.2}/{:.2} | {} | {}/{} | {:.3} | {:.3} | {:+.1} % | {:.3}/{:.3} | {:.3}/{:.3} | {:.3} | {:.1}/{:.1} | {} | {:.1}/{:.1} |",
+            "| {} | {} | {} | {} | {:.2}/{:.2} | {} | {}/{} | {:.3} | {:.3} | {:+.1} % | {:.3}/{:.3} | {:.3}/{:.3} | {:.3} | {:.1}/{:.1} | {}{} | {:.1}/{:.1} |",
             c.id,
             c.device,
             c.circuit.name(),
@@ -1931,7 +2057,12 @@ pub fn errors_md(all: &[SwitchError], rp: &[RippleErrorRow]) -> String {
             1e6 * e.pred.e_rr_j,
             1e9 * e.meas.interval_s(),
             1e9 * e.pred.dead_time_need_s,
-            (1e9 * c.l_loop_h).round(),
+            (1e10 * c.loop_total_h()).round() / 10.0,
+            if c.l_source_h > 0.0 {
+                format!(" ({})", (1e10 * c.l_source_h).round() / 10.0)
+            } else {
+                String::new()
+            },
             e.meas.v_peak_off_v,
             e.pred.v_peak_off_v
         );

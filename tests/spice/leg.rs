@@ -187,6 +187,7 @@ pub fn predict_leg(root: &std::path::Path, c: &LegCase) -> Result<(f64, f64, f64
         prop_delay_s: 0.0,
         mismatch_s: 0.0,
         loop_inductance_h: 0.0,
+        common_source_inductance_h: 0.0,
     };
     let tr = switching::transitions_at(
         &sw,

@@ -1004,6 +1004,7 @@ pub fn tp_drive(c: &TpCase) -> GateDrive {
         prop_delay_s: 0.0,
         mismatch_s: 0.0,
         loop_inductance_h: 0.0,
+        common_source_inductance_h: 0.0,
     }
 }
 

@@ -564,6 +564,12 @@ pub struct StageSpec {
     /// the switch and the partner (or freewheel diode) and back (optional).
     #[serde(default)]
     pub loop_inductance: Option<Q<Henry>>,
+    /// Common-source inductance: the part of the commutation loop in the
+    /// switch's source lead that the gate driver's return also passes
+    /// through (package source lead and any shared trace; part of
+    /// `loop_inductance` when both are given; optional).
+    #[serde(default)]
+    pub common_source_inductance: Option<Q<Henry>>,
     /// Share of V_DSS the turn-off peak must stay below (optional; 20 %).
     #[serde(default)]
     pub v_ds_margin: Option<Q<Ratio>>,

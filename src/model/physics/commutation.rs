@@ -192,6 +192,23 @@ pub struct TurnOffCircuit<'a> {
     /// Commutation-loop inductance (bus capacitor, partner, switch), H; 0
     /// when the board does not give it.
     pub loop_inductance_h: f64,
+    /// The part of the loop in the source lead that the gate loop shares,
+    /// H ([`gate_drive_less_source_lead_v`]); 0 when not given.
+    pub common_source_inductance_h: f64,
+}
+
+/// The drive the gate sees through a common-source inductance L_s: the
+/// driver's voltage `v_drive_v` less L_s·di_D/dt, the source lead's voltage
+/// at the drain current's slope `di_dt_a_per_s`, which the gate loop
+/// passes through (the common-source inductance of Ren, Xu, Zhou, Lee,
+/// *Analytical Loss Model of Power MOSFET*, IEEE Trans. Power Electronics
+/// 21(2), 2006, §II). A rising current takes drive away at turn-on and a
+/// falling one gives it back at turn-off: both slow the current's edge. The
+/// source lead's share of the gate current's own slope is neglected (own
+/// simplification: the gate current is a small fraction of the drain
+/// current).
+pub fn gate_drive_less_source_lead_v(v_drive_v: f64, l_s_h: f64, di_dt_a_per_s: f64) -> f64 {
+    v_drive_v - l_s_h * di_dt_a_per_s
 }
 
 /// A hard turn-off with capacitance sharing.
@@ -264,6 +281,11 @@ const RISE_STEPS: f64 = 200.0;
 /// with `RISE_STEPS` by the convergence test).
 const GATE_STEP_V: f64 = 0.01;
 
+/// A followed edge that has not moved the drain by one step's worth of
+/// voltage in this many steps has stalled (a few hundred steps make a whole
+/// edge; own bound) and is not followed: the gate-charge figures stand.
+const STALL_STEPS: usize = 2_000;
+
 /// The hard turn-off of `c`, from the Miller plateau at the load current
 /// until the channel current has fallen to `CURRENT_END_FRACTION` of it.
 /// `None` when the circuit is not physical (no gate resistance, no
@@ -288,9 +310,18 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     let (mut e_ch, mut e_term, mut t_rise) = (0.0, 0.0, 0.0);
     let dx_max = v / rise_steps;
     let crss = CrssCurve::of_switch(c.switch);
-    for _ in 0..200_000 {
+    let mut x_before = x;
+    for k in 0..200_000 {
         if x >= v {
             break;
+        }
+        if k % STALL_STEPS == STALL_STEPS - 1 {
+            if x - x_before < dx_max {
+                // Stalled (an extreme switch file: a channel law so steep
+                // that the gate steps crawl): not followed.
+                return None;
+            }
+            x_before = x;
         }
         let (xd, yd, _) = rates(c, &crss, x, y);
         let dt = (dx_max / xd.abs().max(1e-30)).min(GATE_STEP_V / yd.abs().max(1e-30));
@@ -330,6 +361,109 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     })
 }
 
+/// A hard turn-on's voltage fall followed at the node: what it dissipates
+/// in the channel beyond the partner's capacitance, and how long it takes.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VoltageFall {
+    /// ∫v_DS·I_L dt over the fall: the load current's share of the terminal
+    /// energy (the partner's capacitance current is booked with the
+    /// partner's charge, `recovery`, and the switch's own output capacitance
+    /// discharges inside it).
+    pub e_load_j: f64,
+    /// From the start of the fall until v_DS reaches the on-state voltage
+    /// plus 2 % of the swing (the double-pulse test's window end).
+    pub t_fall_s: f64,
+}
+
+/// The voltage fall of a hard turn-on, from the drain at `v_start_v` (where
+/// the current rise left it) and the gate carrying the load current, until
+/// the drain reaches the on-state voltage plus 2 % of the swing: the node
+/// equations of [`rates`] with the gate driven towards `v_drive_v` through
+/// `c.r_gate_ohm` (the turn-on circuit of Ren et al. 2006, §II: the channel
+/// carries the load current plus what discharges the switch's own
+/// capacitances and charges the partner's, so the plateau stands above the
+/// load current's and the gate current is less than the gate-charge
+/// method's). Midpoint steps as the turn-off's rise. `None` when it does not
+/// finish.
+pub fn voltage_fall(c: &TurnOffCircuit<'_>, v_drive_v: f64, v_start_v: f64) -> Option<VoltageFall> {
+    voltage_fall_with_steps(c, v_drive_v, v_start_v, FALL_REFINE)
+}
+
+/// The fall's steps against the rise's: 0.5 takes steps twice as long (own
+/// choice, held by `voltage_fall_steps_converged`: within 1e-3 of a step
+/// twenty times finer).
+const FALL_REFINE: f64 = 0.5;
+
+/// [`voltage_fall`] with its steps divided by `refine`.
+fn voltage_fall_with_steps(
+    c: &TurnOffCircuit<'_>,
+    v_drive_v: f64,
+    v_start_v: f64,
+    refine: f64,
+) -> Option<VoltageFall> {
+    let (v, i_l) = (c.v_bus_v, c.i_load_a);
+    let v_end = c.v_on_v + CURRENT_END_FRACTION * (v_start_v - c.v_on_v);
+    if !(c.r_gate_ohm > 0.0 && v_start_v > v_end && i_l > 0.0 && c.switch.c_iss_f > 0.0) {
+        return None;
+    }
+    let crss = CrssCurve::of_switch(c.switch);
+    let fall_rates = |x: f64, y: f64| {
+        let (c_gs, c_gd, c_node, _) = node_capacitances(c, &crss, x, y);
+        let b_drain = i_l - c.channel.current_a(y);
+        node_rates(
+            (c_gs, c_gd, c_node),
+            b_drain,
+            (v_drive_v - y) / c.r_gate_ohm,
+        )
+    };
+    // A channel that cannot carry the load current at full drive cannot
+    // pull the node down in saturation: no fall to follow (the gate-charge
+    // method's figures stand).
+    if c.channel.current_a(v_drive_v) <= i_l {
+        return None;
+    }
+    let (mut x, mut y) = (v_start_v, c.channel.gate_voltage_v(i_l));
+    let (mut e, mut t) = (0.0, 0.0);
+    let (dx_max, dy_max) = (v / RISE_STEPS / refine, GATE_STEP_V / refine);
+    // A fall takes a few hundred steps (a few thousand at the convergence
+    // test's refinement); one that has not finished after FALL_MAX_STEPS, or
+    // has not moved the node by a step's worth in the last STALL_STEPS, has
+    // stalled (an extreme switch file) and is not followed (own bounds).
+    const FALL_MAX_STEPS: usize = 100_000;
+    let mut x_before = x;
+    for k in 0..FALL_MAX_STEPS {
+        if k % STALL_STEPS == STALL_STEPS - 1 {
+            if x_before - x < dx_max {
+                return None;
+            }
+            x_before = x;
+        }
+        if x <= v_end {
+            return Some(VoltageFall {
+                e_load_j: e,
+                t_fall_s: t,
+            });
+        }
+        let (xd, yd) = fall_rates(x, y);
+        let dt = (dx_max / xd.abs().max(1e-30)).min(dy_max / yd.abs().max(1e-30));
+        let (xm, ym) = (x + 0.5 * dt * xd, y + 0.5 * dt * yd);
+        let (xd, yd) = fall_rates(xm, ym);
+        let dt = if x + dt * xd < v_end {
+            (v_end - x) / xd
+        } else {
+            dt
+        };
+        if !(dt.is_finite() && dt > 0.0) {
+            return None;
+        }
+        e += xm * i_l * dt;
+        x += dt * xd;
+        y += dt * yd;
+        t += dt;
+    }
+    None
+}
+
 /// The current fall once the node has reached the bus, with the loop
 /// inductance L between the bus capacitor and the partner: the partner's
 /// diode takes the freewheel current z through L, so the node stands at
@@ -338,17 +472,22 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
 /// −y/R_g; and the loop, L·ż = x − V (the circuit of Ren et al. 2006, §II,
 /// with its drain-loop inductance; the partner's capacitance is clamped by
 /// its conducting diode; the diode's forward drop is neglected, own
-/// simplification). Integrated by midpoint steps until the channel current
+/// simplification). The gate sees the driver's 0 V less the source lead's
+/// L_s·di_D/dt with di_D/dt = −ż ([`gate_drive_less_source_lead_v`]).
+/// Integrated by midpoint steps until the channel current
 /// has fallen to the end fraction and the drain voltage has passed its first
 /// peak; the peak is the turn-off overshoot. `None` when it does not finish.
 fn clamped_fall_with_loop(c: &TurnOffCircuit<'_>, crss: &CrssCurve, y0_v: f64) -> Option<TurnOff> {
     let (v, i_l, l) = (c.v_bus_v, c.i_load_a, c.loop_inductance_h);
     let c_gs = c_gs_f(c.switch);
+    let l_s = c.common_source_inductance_h;
     let rates = |x: f64, y: f64, z: f64| {
         let caps = (c_gs, crss.c_gd_f((x - y).max(0.0)), c.c_oss.c_ds_f(x));
         let b_drain = i_l - c.channel.current_a(y) - z;
-        let (x_dot, y_dot) = node_rates(caps, b_drain, -y / c.r_gate_ohm);
-        (x_dot, y_dot, (x - v) / l)
+        let z_dot = (x - v) / l;
+        let b_gate = (gate_drive_less_source_lead_v(0.0, l_s, -z_dot) - y) / c.r_gate_ohm;
+        let (x_dot, y_dot) = node_rates(caps, b_drain, b_gate);
+        (x_dot, y_dot, z_dot)
     };
     let dt = loop_step_s(&c.c_oss, crss, c_gs, c.r_gate_ohm, v, l);
     let i_end = CURRENT_END_FRACTION * i_l;
@@ -426,6 +565,9 @@ pub struct TurnOnCircuit<'a> {
     pub i_load_a: f64,
     /// Commutation-loop inductance, H (> 0).
     pub loop_inductance_h: f64,
+    /// The part of the loop in the source lead that the gate loop shares,
+    /// H; 0 when not given.
+    pub common_source_inductance_h: f64,
 }
 
 /// A hard turn-on's current rise followed in time against the loop
@@ -454,7 +596,9 @@ pub struct CurrentRise {
 /// inductance; the diode's forward drop and the loop's resistance are
 /// neglected, own simplification). The drain's fall pulls charge out of the
 /// gate through C_gd, which slows the channel: the feedback that keeps a
-/// large loop's dip from taking the whole bus voltage at once. Where the
+/// large loop's dip from taking the whole bus voltage at once. A
+/// common-source inductance L_s takes L_s·ż off the drive
+/// ([`gate_drive_less_source_lead_v`]). Where the
 /// drain reaches 0 V the channel leaves saturation and carries the loop's
 /// current (x held at 0). Midpoint steps as in `clamped_fall_with_loop`.
 /// `None` when the circuit is not physical or the rise does not finish.
@@ -467,15 +611,17 @@ pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
     }
     let crss = CrssCurve::of_switch(c.switch);
     let c_gs = c_gs_f(c.switch);
+    let l_s = c.common_source_inductance_h;
     let rates = |x: f64, y: f64, z: f64| {
         let caps = (c_gs, crss.c_gd_f((x - y).max(0.0)), c.c_oss.c_ds_f(x));
-        let b_gate = (c.v_drive_v - y) / c.r_gate_ohm;
+        let z_dot = (v - x) / l;
+        let b_gate = (gate_drive_less_source_lead_v(c.v_drive_v, l_s, z_dot) - y) / c.r_gate_ohm;
         let (x_dot, y_dot) = node_rates(caps, z - c.channel.current_a(y), b_gate);
         if x <= 0.0 && x_dot < 0.0 {
             // Out of saturation at 0 V: the drain stays, the gate charges.
-            return (0.0, b_gate / (caps.0 + caps.1), (v - x) / l);
+            return (0.0, b_gate / (caps.0 + caps.1), z_dot);
         }
-        (x_dot, y_dot, (v - x) / l)
+        (x_dot, y_dot, z_dot)
     };
     let dt = loop_step_s(&c.c_oss, &crss, c_gs, c.r_gate_ohm, v, l);
     let (mut x, mut y, mut z) = (v, v_th, 0.0);
@@ -508,7 +654,8 @@ pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
 /// Time step of an edge followed against the loop inductance `l_h`: a
 /// 200th of the loop's own period with the switch's output capacitance,
 /// 2π·√(L·C_oss(V)), or of the gate's time constant R_g·(C_gs + C_gd(V)),
-/// whichever is shorter (own choice; see the convergence tests).
+/// whichever is shorter (own choice; see the convergence tests, which
+/// cover a common-source inductance too).
 fn loop_step_s(
     c_oss: &OutputCapacitance,
     crss: &CrssCurve,
@@ -558,6 +705,7 @@ mod tests {
             i_load_a: i_a,
             v_on_v: 0.0,
             loop_inductance_h: 0.0,
+            common_source_inductance_h: 0.0,
         }
     }
 
@@ -643,9 +791,12 @@ mod tests {
             }
         }
         let bound = lo;
-        for (r_g, at_least) in [(0.05, 0.9), (5.0, 0.0)] {
+        // A common-source inductance (half the loop) slows the fall, never
+        // past the bound.
+        for (r_g, at_least, l_s) in [(0.05, 0.9, 0.0), (5.0, 0.0, 0.0), (5.0, 0.0, 0.5 * l)] {
             let mut c = circuit(&sw, i, r_g);
             c.loop_inductance_h = l;
+            c.common_source_inductance_h = l_s;
             let t = turn_off(&c).expect("finishes");
             assert!(
                 t.v_peak_v <= bound * 1.001,
@@ -712,6 +863,7 @@ mod tests {
             v_bus_v: 24.0,
             i_load_a: 10.0,
             loop_inductance_h: l_h,
+            common_source_inductance_h: 0.0,
         }
     }
 
@@ -747,6 +899,139 @@ mod tests {
         );
         assert!((r.t_rise_s / t - 1.0).abs() < 0.02, "{} vs {t}", r.t_rise_s);
         assert!(r.v_end_v > 23.5);
+    }
+
+    #[test]
+    fn common_source_inductance_stretches_the_rise_as_the_gate_law_says() {
+        // With the source lead's L_s in the gate loop, R·i_g = V_drv − y −
+        // L_s·di/dt and di/dt = g_m(y)·ẏ, so (R·C + L_s·g_m(y))·ẏ = V_drv − y
+        // and the rise lasts ∫(R·C + L_s·g_m(y))/(V_drv − y) dy from
+        // threshold to the gate voltage carrying I (own derivation; the
+        // drain's dip through C_gd neglected, so a switch whose C_rss is
+        // 1 pF; its C_oss 3 pF and a 0.1 nH loop, so that the loop follows
+        // the channel at once, its ring 0.1 ns against a 0.7 ns rise): an
+        // independent quadrature against the integrated rise, with none, half
+        // and all of the loop in the source lead.
+        let mut sw = flat_switch();
+        (sw.c_rss_f, sw.c_oss_f, sw.e_oss_j, sw.q_oss_c) = (1e-12, 3e-12, None, None);
+        let c_g = c_gs_f(&sw) + sw.c_rss_f;
+        for l_s in [0.0, 0.05e-9, 0.1e-9] {
+            let mut c = rise_circuit(&sw, 5.0, 0.1e-9);
+            c.common_source_inductance_h = l_s;
+            let r = current_rise_with_loop(&c).expect("finishes");
+            let (y_end, n) = (c.channel.gate_voltage_v(10.0), 100_000);
+            let v_th = c.channel.v_th_v();
+            let h = (y_end - v_th) / n as f64;
+            let t: f64 = (0..n)
+                .map(|k| {
+                    let y = v_th + (k as f64 + 0.5) * h;
+                    let g_m =
+                        (c.channel.current_a(y + 1e-6) - c.channel.current_a(y - 1e-6)) / 2e-6;
+                    (5.0 * c_g + l_s * g_m) / (10.0 - y) * h
+                })
+                .sum();
+            assert!(
+                (r.t_rise_s / t - 1.0).abs() < 0.01,
+                "L_s {l_s}: {} vs {t}",
+                r.t_rise_s
+            );
+        }
+    }
+
+    #[test]
+    fn common_source_inductance_slows_the_turn_off_fall() {
+        // The falling drain current's L_s·di/dt holds the gate up: the
+        // channel lets go later and dissipates more; with none of the loop
+        // in the source lead the result is the plain loop's, exactly.
+        let sw = curved_switch();
+        let at = |l_s: f64| {
+            let mut c = circuit(&sw, 10.0, 2.0);
+            (c.loop_inductance_h, c.common_source_inductance_h) = (4e-9, l_s);
+            turn_off(&c).expect("finishes")
+        };
+        let (none, half, all) = (at(0.0), at(2e-9), at(4e-9));
+        assert!(none.t_half_handover_s < half.t_half_handover_s);
+        assert!(half.t_half_handover_s < all.t_half_handover_s);
+        assert!(none.e_channel_j < half.e_channel_j && half.e_channel_j < all.e_channel_j);
+        // A slower fall overshoots less.
+        assert!(all.v_peak_v < none.v_peak_v, "{all:?} {none:?}");
+        let mut plain = circuit(&sw, 10.0, 2.0);
+        plain.loop_inductance_h = 4e-9;
+        assert_eq!(turn_off(&plain), Some(none));
+    }
+
+    #[test]
+    fn voltage_fall_with_a_slow_gate_is_the_miller_plateau() {
+        // A weak gate against a heavy load: the gate stands on a plateau and
+        // moves C_gd·dv at I_g = (V_drv − V_plt)/R, the gate-charge method's
+        // t_fv = Q_gd/I_g (Graovac, Pürschel, Kiep 2006). The plateau carries
+        // I plus the node's own discharge, (C_ds(v) + C_gd)·|dv/dt| with
+        // |dv/dt| = I_g/C_gd (own derivation from the same two node
+        // equations with the gate still), so it stands higher where C_ds(v)
+        // is large: solved by bisection at each of 2 000 drain voltages, and
+        // t = Σ C_gd·Δv/I_g(v), E = Σ v·I·C_gd·Δv/I_g(v) (a quadrature over
+        // the voltage, independent of the time steps). The output
+        // capacitance is taken constant (grading 0) so the plateau stands
+        // still; a graded C_ds raises it as the drain falls and the gate's
+        // own charge then slows the fall (+5 % here with the default law),
+        // which the node equations hold and this quadrature would not.
+        let sw = flat_switch();
+        let (r, i) = (200.0, 30.0);
+        let mut c = circuit(&sw, i, r);
+        c.c_oss.grading = 0.0;
+        let f = voltage_fall(&c, 10.0, 24.0).expect("finishes");
+        let v_end = CURRENT_END_FRACTION * 24.0;
+        let c_gd = sw.c_rss_f;
+        let plateau = |v: f64| {
+            let c_ds = c.c_oss.c_ds_f(v);
+            let (mut lo, mut hi) = (c.channel.gate_voltage_v(i), 10.0);
+            for _ in 0..100 {
+                let y = 0.5 * (lo + hi);
+                if c.channel.current_a(y) < i + (c_ds + c_gd) * (10.0 - y) / (r * c_gd) {
+                    lo = y;
+                } else {
+                    hi = y;
+                }
+            }
+            lo
+        };
+        let gate_current = |v: f64| (10.0 - plateau(v)) / r;
+        // The gate first climbs from the load current's plateau to this one
+        // through R·(C_gs + C_gd) with the drain still at the bus.
+        let y0 = c.channel.gate_voltage_v(i);
+        let t0 = r * (c_gs_f(&sw) + c_gd) * ((10.0 - y0) / (10.0 - plateau(24.0))).ln();
+        let n = 2000;
+        let dv = (24.0 - v_end) / n as f64;
+        let (t, e) = (0..n).fold((t0, 24.0 * i * t0), |(t, e), k| {
+            let v = v_end + (k as f64 + 0.5) * dv;
+            let dt = c_gd * dv / gate_current(v);
+            (t + dt, e + v * i * dt)
+        });
+        assert!((f.t_fall_s / t - 1.0).abs() < 0.02, "{} vs {t}", f.t_fall_s);
+        assert!((f.e_load_j / e - 1.0).abs() < 0.02, "{} vs {e}", f.e_load_j);
+    }
+
+    #[test]
+    fn voltage_fall_steps_converged() {
+        // Against the same fall at a twentieth of the step (own bound 1e-3).
+        let sw = curved_switch();
+        for (i, r, bridge) in [(2.0, 4.0, false), (20.0, 4.0, true), (8.0, 20.0, true)] {
+            let mut c = circuit(&sw, i, r);
+            if bridge {
+                c.partner = Partner::Switch(c.c_oss);
+            }
+            let base = voltage_fall(&c, 10.0, 24.0).expect("finishes");
+            let fine =
+                voltage_fall_with_steps(&c, 10.0, 24.0, 20.0 * FALL_REFINE).expect("finishes");
+            assert!(
+                (base.e_load_j / fine.e_load_j - 1.0).abs() < 1e-3,
+                "{base:?} {fine:?}"
+            );
+            assert!(
+                (base.t_fall_s / fine.t_fall_s - 1.0).abs() < 1e-3,
+                "{base:?} {fine:?}"
+            );
+        }
     }
 
     #[test]

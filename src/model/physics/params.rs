@@ -132,6 +132,11 @@ pub struct GateDrive {
     /// it. Kept with the drive because both are what the board puts around
     /// each switch, and every edge computation takes them together.
     pub loop_inductance_h: f64,
+    /// Common-source inductance, H: the part of the loop in the switch's
+    /// source lead that the gate loop shares; 0 when not given (a Kelvin
+    /// source, or not known). Part of `loop_inductance_h` where that is
+    /// given; without it the loop is taken as this alone.
+    pub common_source_inductance_h: f64,
 }
 
 /// A discrete freewheel diode.
@@ -291,6 +296,7 @@ pub(crate) mod fixtures {
             prop_delay_s: 50e-9,
             mismatch_s: 10e-9,
             loop_inductance_h: 0.0,
+            common_source_inductance_h: 0.0,
         }
     }
 

@@ -450,6 +450,7 @@ mod tests {
             prop_delay_s: 0.0,
             mismatch_s: 0.0,
             loop_inductance_h: 0.0,
+            common_source_inductance_h: 0.0,
         };
         let f = check_gate_driver_strength(&sw, &pin).unwrap();
         assert_eq!(f.code, "weak-gate-driver");

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:6018dc0401910ca9ff728678d178ccee671f64cbe204d3f28b661bbe32928be3)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:17864f821bff1f0960c3b72bde49a4a0108319e10d77b3f7c3db0b82916e66a0)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -14,8 +14,8 @@
 //!   feasible band  20.005 kHz to 59.986 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         135 °C     56.7 °C     78.3 K  ok
-//!   junction-high-bus      135 °C     56.8 °C     78.2 K  ok
+//!   junction-rated         135 °C     56.8 °C     78.2 K  ok
+//!   junction-high-bus      135 °C     56.9 °C     78.1 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
 //!   audible            20.000 kHz  20.005 kHz    4.55 Hz  binds
 //!   resolution         10.00 bits  12.10 bits  2.10 bits  ok
@@ -25,25 +25,25 @@
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
-//!   switching            11.4 mW
+//!   switching            14.9 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     17.3 mW
 //!   dead-time diode      12.5 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.95 mW
-//!   total                119 mW
+//!   total                123 mW
 //!
 //! Operating figures
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
-//!   junction                56.7 °C at the rated case, 56.8 °C at the high-bus case (limit 135 °C)
+//!   junction                56.8 °C at the rated case, 56.9 °C at the high-bus case (limit 135 °C)
 //!   ripple, rated case      239 mA peak to peak at 20.005 kHz (continuous), 68.9 mA rms
 //!   ripple, high-bus case   363 mA peak to peak at 20.005 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Worst case over part and operating spreads
-//!   junction    58.0 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  194 mW; ok; hot: V_th max, supply 28.0 V
+//!   junction    58.2 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
+//!   total-loss  199 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.45 % (limit 98.70 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 142 ns against 148 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -56,8 +56,8 @@
 //!   high-bus case  at compare duty 67.538 %: mean current 3.500 A (plan 3.500 A), ripple 362.9 mA peak to peak (plan 362.9 mA)
 //!
 //! Alternatives
-//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +81 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
-//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +164 mW total loss, +2.1 K junction, -242 mA ripple, -1.58 bits resolution
+//!   rounder-frequency  40.000 kHz (divider 1, 2200 ticks, edge): +85 mW total loss, +1.1 K junction, -181 mA ripple, -1.00 bits resolution
+//!   highest-frequency  59.986 kHz (divider 1, 1467 ticks, edge): +171 mW total loss, +2.3 K junction, -242 mA ripple, -1.58 bits resolution
 //!
 //! Findings (`pwmplan explain CODE` says what a bracketed code means)
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes. [vdss-margin-low]
@@ -66,7 +66,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; the turn-on's voltage fall followed there too, the channel carrying the load current and what discharges its own C_ds and charges the partner's; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance, stage.common_source_inductance): no turn-off overshoot is checked, no turn-on voltage dip is counted and the gate loop shares none of the power loop
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path

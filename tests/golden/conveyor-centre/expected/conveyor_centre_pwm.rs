@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:c0e24cc9259c501b9e6b2389821b1faa7f411d8fdb65bfd0aebcdb75b97bd021)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:16e0786f60f3a5fa2725a42e5828c494a0429f1f4e7895c3f1831f0e0423505b)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -14,8 +14,8 @@
 //!   feasible band  20.009 kHz to 31.541 kHz
 //!
 //! Constraints (limit, value, margin to the limit, status)
-//!   junction-rated         135 °C     56.7 °C     78.3 K  ok
-//!   junction-high-bus      135 °C     56.8 °C     78.2 K  ok
+//!   junction-rated         135 °C     56.8 °C     78.2 K  ok
+//!   junction-high-bus      135 °C     56.9 °C     78.1 K  ok
 //!   ripple                 875 mA      363 mA     512 mA  ok
 //!   audible            20.000 kHz  20.009 kHz    9.10 Hz  binds
 //!   resolution         10.00 bits  11.10 bits  1.10 bits  ok
@@ -26,18 +26,18 @@
 //!
 //! Losses at the rated case (whole stage)
 //!   conduction           33.5 mW
-//!   switching            11.4 mW
+//!   switching            14.9 mW
 //!   output capacitance   9.12 mW
 //!   reverse recovery     17.3 mW
 //!   dead-time diode      12.5 mW
 //!   gate drive           32.5 mW
 //!   motor ripple copper  2.94 mW
-//!   total                119 mW
+//!   total                123 mW
 //!
 //! Operating figures
 //!   rated case              24.0 V supply, 55.0 °C ambient, 3.50 A load
 //!   high-bus case           28.0 V supply, 55.0 °C ambient, 3.50 A load
-//!   junction                56.7 °C at the rated case, 56.8 °C at the high-bus case (limit 135 °C)
+//!   junction                56.8 °C at the rated case, 56.9 °C at the high-bus case (limit 135 °C)
 //!   ripple, rated case      239 mA peak to peak at 20.009 kHz (continuous), 68.9 mA rms
 //!   ripple, high-bus case   363 mA peak to peak at 20.009 kHz (continuous), 105 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
@@ -65,14 +65,14 @@
 //!   timing       the sample's middle 68.18 ns after the update event (at the rated compare); its compare takes effect at the next update event, so conversion and control code must fit in 24.77 µs; the loop sees the sample as the averaged current 0.000 s after the update event
 //!   reading      at the rated case the sample reads the PWM period's mean current minus 103.5 µA (the R–L's curvature; a straight ramp's middle is its mean); the integrator settles on the sample, so the mean is off by as much
 //!   plant        R 622.7 mΩ (motor, and the channels, or on a single switch its channel and the freewheel diode by their shares of the period, at the rated junction temperature), L 850.0 µH; 24.00 V per unit of compare duty
-//!   gains        K_p = α·L = 11.7173 V/A, K_i = α·R = 8584.4071 V/(A·s), α = 2π·2.194 kHz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
+//!   gains        K_p = α·L = 11.7173 V/A, K_i = α·R = 8584.4201 V/(A·s), α = 2π·2.194 kHz (internal model control, Harnefors and Nee 1998), set for a 60° phase margin with the delay
 //!   loop         crossover 2.225 kHz, phase margin 60.0°, step overshoot 5.5 %, rise to 90 % in 99.95 µs (exact discrete model: sample, delay, PWM hold, R–L)
 //!   fixed point  Q12: K_p 17714 (17714.294), K_i·T 324 (324.303) in compare counts per ADC code; 4.0283e-3 A per code, zero current at code 2048
 //!   bus          the gains hold at the nominal supply; scale the output by V_nominal/V_bus where the bus moves (feed-forward), and hold the integrator while the output is clamped (the helpers do)
 //!
 //! Worst case over part and operating spreads
-//!   junction    58.0 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
-//!   total-loss  194 mW; ok; hot: V_th max, supply 28.0 V
+//!   junction    58.2 °C (limit 135 °C); ok; hot: V_th max, supply 28.0 V
+//!   total-loss  199 mW; ok; hot: V_th max, supply 28.0 V
 //!   ripple      363 mA (limit 875 mA); ok; hot: V_th min, supply 28.0 V
 //!   duty-range  94.45 % (limit 98.68 %); ok; hot: V_th min, supply 20.0 V
 //!   dead-time   needs 142 ns against 148 ns chosen; ok; R_sink, R_g,int, Q_gd, Q_gs max; V_th min; V_drv max against R_source, R_g,int min; V_th min; V_drv max
@@ -88,7 +88,7 @@
 //!
 //! Alternatives
 //!   rounder-frequency  22.000 kHz (divider 1, 4000 ticks, centre): +8 mW total loss, +0.1 K junction, -33 mA ripple, -0.14 bits resolution
-//!   highest-frequency  31.541 kHz (divider 1, 2790 ticks, centre): +46 mW total loss, +0.6 K junction, -133 mA ripple, -0.66 bits resolution
+//!   highest-frequency  31.541 kHz (divider 1, 2790 ticks, centre): +48 mW total loss, +0.7 K junction, -133 mA ripple, -0.66 bits resolution
 //!
 //! Findings (`pwmplan explain CODE` says what a bracketed code means)
 //!   warning  V_DSS 40.0 V is only 1.43x the highest bus 28.0 V; 1.5-2x is usual for ringing and back-EMF spikes. [vdss-margin-low]
@@ -98,7 +98,7 @@
 //!
 //! Assumptions
 //!   - switch parameters at datasheet typical values; R_ds(on) follows the datasheet temperature curve; R_ds(on) as given at V_GS = 10.0 V, not moved to the 12.0 V drive (no second datasheet point)
-//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance): no turn-off overshoot is checked and no turn-on voltage dip is counted
+//!   - switching by the gate-charge method (plateau, Q_gs2, Q_gd through driver, external and internal gate resistance); the turn-off followed at the switch node, the switch's own C_ds and the partner's C_oss taking part of the load current while the node rises; the turn-on's voltage fall followed there too, the channel carrying the load current and what discharges its own C_ds and charges the partner's; bridge partner's recovery: no stored charge (Q_rr is no more than the output charge Q_oss(V_R) of the datasheet's Q_rr test (100 A/µs from 25.0 A at 20.0 V)), plus charging its output capacitance (Q_oss·V − E_oss); dead-time diode conduction for its share of each dead time, from the outgoing switch's hand-over (turn-off delay, node swing, half the current fall; or, after a soft turn-off, the gate down to the plateau and half-way to threshold) until the incoming switch has taken the current (half its current rise after its delay; or, at a soft turn-on, its gate from the Miller-kicked voltage up to threshold plus the diode's transit time) at V_sd(I): the datasheet V_sd at 25.0 A (assumed: the Q_rr test's forward current; the switch file gives no body_diode.v_sd_at), lowered by kT/q·ln(I_test/I) below it, no ohmic rise above it; stray inductance not given (stage.loop_inductance, stage.common_source_inductance): no turn-off overshoot is checked, no turn-on voltage dip is counted and the gate loop shares none of the power loop
 //!   - motor current: exact periodic R-L-back-EMF solution of the terminal voltage the stage really applies: each dead time held by the body diode the current forces on (until the current reaches zero), the switches' drop at R_ds(on) at the junction limit, the freewheel diode at its forward voltage; the compare duties are solved with it
 //!   - checked on the written registers by an independent register-level simulation (plan.json register_check): every output pulse at the compare limits, and at each case the mean current, ripple and lowest audible line
 //!   - devices thermally independent, each with the board's junction-to-ambient path
@@ -206,9 +206,9 @@ pub const LOOP_UPDATE_EXTREMES: u32 = 1;
 /// The loop's update rate in millihertz.
 pub const LOOP_RATE_MILLIHZ: u64 = 40018190;
 /// Proportional gain, V/A.
-pub const LOOP_KP_V_PER_A: f32 = 1.1717256269281528e1;
+pub const LOOP_KP_V_PER_A: f32 = 1.1717256119855302e1;
 /// Integral gain, V/(A·s).
-pub const LOOP_KI_V_PER_A_S: f32 = 8.584407091598805e3;
+pub const LOOP_KI_V_PER_A_S: f32 = 8.584420082279474e3;
 /// The update period, s.
 pub const LOOP_PERIOD_S: f32 = 2.4988636363636365e-5;
 /// Compare counts per volt of loop output at the nominal supply.
