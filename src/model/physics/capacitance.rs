@@ -13,7 +13,7 @@ use super::params::SwitchModel;
 /// Below this voltage the drain-source junction law is held constant, so the
 /// power law's singularity at 0 V never enters a time step (own bound; the
 /// charge below it is under 1 % of the total for any grading below 0.9).
-const C_DS_FLOOR_V: f64 = 0.05;
+pub(crate) const C_DS_FLOOR_V: f64 = 0.05;
 
 /// The curve as given when it is already usable (every point finite and
 /// positive, voltages increasing): the common case, borrowed, no copy.
@@ -99,6 +99,32 @@ impl CrssCurve {
                 .collect(),
             c_rss_f: sw.c_rss_f,
         }
+    }
+
+    /// C_gd at `v_ds_v`, as [`c_gd_f`], given ln `v_ds_v` (for a caller
+    /// that has it already; only read between the curve's points).
+    pub fn c_gd_with_ln_f(&self, v_ds_v: f64, ln_v: f64) -> f64 {
+        let pts = &self.points;
+        let (Some(first), Some(last)) = (pts.first(), pts.last()) else {
+            return self.c_rss_f;
+        };
+        if v_ds_v <= first[0] {
+            return first[1];
+        }
+        if v_ds_v >= last[0] {
+            return last[1];
+        }
+        for w in pts.windows(2) {
+            let (p0, p1) = (w[0], w[1]);
+            if v_ds_v >= p0[0] && v_ds_v <= p1[0] {
+                if p1[0] <= p0[0] {
+                    return p0[1];
+                }
+                let x = (ln_v - p0[2]) / (p1[2] - p0[2]);
+                return (p0[3] + x * (p1[3] - p0[3])).exp();
+            }
+        }
+        last[1]
     }
 
     /// C_gd at `v_ds_v`, as [`c_gd_f`].

@@ -20,7 +20,7 @@
 //! guessed. No stray inductance here: the node is clamped at the bus once the
 //! freewheel path conducts.
 
-use super::capacitance::{CrssCurve, OutputCapacitance, c_gd_f};
+use super::capacitance::{C_DS_FLOOR_V, CrssCurve, OutputCapacitance, c_gd_f};
 use super::params::SwitchModel;
 
 /// The drain current below which a turn-off has ended: 2 % of the switched
@@ -155,9 +155,11 @@ pub enum Partner {
     Diode,
 }
 
+#[cfg(test)]
 impl Partner {
     /// The partner's capacitance when the switch under study is at `v_ds_v`
-    /// on a bus of `v_bus_v` (the partner then blocks V − v).
+    /// on a bus of `v_bus_v` (the partner then blocks V − v): the laws as
+    /// written, which [`NodeLaws`] must equal.
     fn capacitance_f(&self, crss: &CrssCurve, v_bus_v: f64, v_ds_v: f64) -> f64 {
         match self {
             Partner::Switch(law) => {
@@ -166,6 +168,74 @@ impl Partner {
             }
             Partner::Diode => 0.0,
         }
+    }
+}
+
+/// An output-capacitance power law C_ds = C_spec·(V_spec/v)^m written as
+/// exp(ln K − m·ln v), ln K = ln C_spec + m·ln V_spec, with v floored as
+/// `OutputCapacitance::c_ds_f` floors it: the same law, one logarithm and
+/// one exponential in place of a power (the edges' integrations evaluate it
+/// at every step; equal to `c_ds_f` within rounding, tested).
+#[derive(Debug, Clone, Copy)]
+struct LogLaw {
+    ln_k: f64,
+    m: f64,
+}
+
+impl LogLaw {
+    fn of(law: &OutputCapacitance) -> Self {
+        LogLaw {
+            ln_k: law.c_ds_spec_f.ln() + law.grading * law.v_spec_v.ln(),
+            m: law.grading,
+        }
+    }
+
+    /// C_ds at the voltage whose floored logarithm is `ln_v`.
+    fn at_ln(&self, ln_v: f64) -> f64 {
+        (self.ln_k - self.m * ln_v).exp()
+    }
+}
+
+/// The capacitances of a node prepared for its integration: the C_rss
+/// curve with its logarithms, the switch's and the partner's output laws
+/// as [`LogLaw`]s (the partner's C_gd and C_ds share the logarithm of its
+/// voltage).
+struct NodeLaws {
+    crss: CrssCurve,
+    own: LogLaw,
+    partner: Option<LogLaw>,
+}
+
+impl NodeLaws {
+    fn of(c: &TurnOffCircuit<'_>) -> Self {
+        NodeLaws {
+            crss: CrssCurve::of_switch(c.switch),
+            own: LogLaw::of(&c.c_oss),
+            partner: match c.partner {
+                Partner::Switch(law) => Some(LogLaw::of(&law)),
+                Partner::Diode => None,
+            },
+        }
+    }
+
+    /// C_ds at `v_v` through `law`.
+    fn c_ds_f(law: &LogLaw, v_v: f64) -> f64 {
+        law.at_ln(v_v.max(C_DS_FLOOR_V).ln())
+    }
+
+    /// The partner's C_gd + C_ds with the switch at `v_ds_v` on `v_bus_v`.
+    fn partner_f(&self, v_bus_v: f64, v_ds_v: f64) -> f64 {
+        let Some(law) = &self.partner else {
+            return 0.0;
+        };
+        let v_p = (v_bus_v - v_ds_v).max(0.0);
+        let ln_floored = v_p.max(C_DS_FLOOR_V).ln();
+        let ln_v = if v_p >= C_DS_FLOOR_V {
+            ln_floored
+        } else {
+            v_p.ln()
+        };
+        self.crss.c_gd_with_ln_f(v_p, ln_v) + law.at_ln(ln_floored)
     }
 }
 
@@ -241,14 +311,19 @@ fn c_gs_f(sw: &SwitchModel) -> f64 {
 /// Node capacitances at one state: (C_gs, C_gd, C_ds + C_partner, C_partner).
 fn node_capacitances(
     c: &TurnOffCircuit<'_>,
-    crss: &CrssCurve,
+    laws: &NodeLaws,
     v_ds_v: f64,
     v_gs_v: f64,
 ) -> (f64, f64, f64, f64) {
-    let c_gd = crss.c_gd_f((v_ds_v - v_gs_v).max(0.0));
+    let c_gd = laws.crss.c_gd_f((v_ds_v - v_gs_v).max(0.0));
     let c_gs = c_gs_f(c.switch);
-    let c_partner = c.partner.capacitance_f(crss, c.v_bus_v, v_ds_v);
-    (c_gs, c_gd, c.c_oss.c_ds_f(v_ds_v) + c_partner, c_partner)
+    let c_partner = laws.partner_f(c.v_bus_v, v_ds_v);
+    (
+        c_gs,
+        c_gd,
+        NodeLaws::c_ds_f(&laws.own, v_ds_v) + c_partner,
+        c_partner,
+    )
 }
 
 /// (dv_DS/dt, dv_GS/dt) while the node is free to rise. Kirchhoff at the
@@ -256,8 +331,8 @@ fn node_capacitances(
 /// −C_gd·ẋ + (C_gs + C_gd)·ẏ = −y/R_g (Ren et al. 2006, §II, the turn-off
 /// circuit), solved as a 2×2 linear system.
 /// Also returns the partner's capacitance there (the terminal energy needs it).
-fn rates(c: &TurnOffCircuit<'_>, crss: &CrssCurve, x: f64, y: f64) -> (f64, f64, f64) {
-    let (c_gs, c_gd, c_node, c_partner) = node_capacitances(c, crss, x, y);
+fn rates(c: &TurnOffCircuit<'_>, laws: &NodeLaws, x: f64, y: f64) -> (f64, f64, f64) {
+    let (c_gs, c_gd, c_node, c_partner) = node_capacitances(c, laws, x, y);
     let b_drain = c.i_load_a - c.channel.current_a(y);
     let (x_dot, y_dot) = node_rates((c_gs, c_gd, c_node), b_drain, -y / c.r_gate_ohm);
     (x_dot, y_dot, c_partner)
@@ -309,7 +384,8 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
     let mut y = c.channel.gate_voltage_v(i_l);
     let (mut e_ch, mut e_term, mut t_rise) = (0.0, 0.0, 0.0);
     let dx_max = v / rise_steps;
-    let crss = CrssCurve::of_switch(c.switch);
+    let laws = NodeLaws::of(c);
+    let crss = &laws.crss;
     let mut x_before = x;
     for k in 0..200_000 {
         if x >= v {
@@ -323,10 +399,10 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
             }
             x_before = x;
         }
-        let (xd, yd, _) = rates(c, &crss, x, y);
+        let (xd, yd, _) = rates(c, &laws, x, y);
         let dt = (dx_max / xd.abs().max(1e-30)).min(GATE_STEP_V / yd.abs().max(1e-30));
         let (xm, ym) = (x + 0.5 * dt * xd, y + 0.5 * dt * yd);
-        let (xd, yd, c_p) = rates(c, &crss, xm, ym);
+        let (xd, yd, c_p) = rates(c, &laws, xm, ym);
         let dt = if x + dt * xd > v { (v - x) / xd } else { dt };
         if !(dt.is_finite() && dt > 0.0) {
             return None;
@@ -342,7 +418,7 @@ fn turn_off_with_steps(c: &TurnOffCircuit<'_>, rise_steps: f64) -> Option<TurnOf
         return None;
     }
     if c.loop_inductance_h > 0.0 {
-        let fall = clamped_fall_with_loop(c, &crss, y)?;
+        let fall = clamped_fall_with_loop(c, crss, y)?;
         return Some(TurnOff {
             e_channel_j: e_ch + fall.e_channel_j,
             e_terminal_j: e_term + fall.e_terminal_j,
@@ -406,9 +482,9 @@ fn voltage_fall_with_steps(
     if !(c.r_gate_ohm > 0.0 && v_start_v > v_end && i_l > 0.0 && c.switch.c_iss_f > 0.0) {
         return None;
     }
-    let crss = CrssCurve::of_switch(c.switch);
+    let laws = NodeLaws::of(c);
     let fall_rates = |x: f64, y: f64| {
-        let (c_gs, c_gd, c_node, _) = node_capacitances(c, &crss, x, y);
+        let (c_gs, c_gd, c_node, _) = node_capacitances(c, &laws, x, y);
         let b_drain = i_l - c.channel.current_a(y);
         node_rates(
             (c_gs, c_gd, c_node),
@@ -706,6 +782,28 @@ mod tests {
             v_on_v: 0.0,
             loop_inductance_h: 0.0,
             common_source_inductance_h: 0.0,
+        }
+    }
+
+    #[test]
+    fn node_laws_equal_the_capacitance_laws() {
+        // The prepared laws of the integrations against the laws as written
+        // (`OutputCapacitance::c_ds_f`, the C_rss curve, the partner's sum),
+        // from 0 V over the floor and every curve segment to the bus.
+        for sw in [curved_switch(), flat_switch()] {
+            let mut c = circuit(&sw, 8.0, 4.0);
+            c.partner = Partner::Switch(c.c_oss);
+            let laws = NodeLaws::of(&c);
+            for k in 0..=2400 {
+                let v = 24.0 * k as f64 / 2400.0;
+                let own = NodeLaws::c_ds_f(&laws.own, v);
+                assert!((own / c.c_oss.c_ds_f(v) - 1.0).abs() < 1e-12, "{v} V");
+                let partner = c.partner.capacitance_f(&laws.crss, 24.0, v);
+                assert!(
+                    (laws.partner_f(24.0, v) / partner - 1.0).abs() < 1e-12,
+                    "{v} V"
+                );
+            }
         }
     }
 
