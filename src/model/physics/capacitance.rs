@@ -129,27 +129,7 @@ impl CrssCurve {
 
     /// C_gd at `v_ds_v`, as [`c_gd_f`].
     pub fn c_gd_f(&self, v_ds_v: f64) -> f64 {
-        let pts = &self.points;
-        let (Some(first), Some(last)) = (pts.first(), pts.last()) else {
-            return self.c_rss_f;
-        };
-        if v_ds_v <= first[0] {
-            return first[1];
-        }
-        if v_ds_v >= last[0] {
-            return last[1];
-        }
-        for w in pts.windows(2) {
-            let (p0, p1) = (w[0], w[1]);
-            if v_ds_v >= p0[0] && v_ds_v <= p1[0] {
-                if p1[0] <= p0[0] {
-                    return p0[1];
-                }
-                let x = (v_ds_v.ln() - p0[2]) / (p1[2] - p0[2]);
-                return (p0[3] + x * (p1[3] - p0[3])).exp();
-            }
-        }
-        last[1]
+        self.c_gd_with_ln_f(v_ds_v, v_ds_v.ln())
     }
 }
 
