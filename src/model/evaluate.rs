@@ -204,7 +204,6 @@ pub const DEFAULT_V_DS_MARGIN: f64 = 0.2;
 /// hard-switched silicon motor stages).
 pub const DEFAULT_F_MAX_HZ: f64 = 100_000.0;
 
-/// Gate-driver output resistance from a peak current: R = V_drive/I_peak
 /// The commutation loop's inductance: the board's `loop_inductance`, or the
 /// common-source inductance alone where only that is given (the source lead
 /// is part of the loop), else 0.
@@ -215,6 +214,7 @@ fn loop_inductance_h(stage: &crate::input::spec::StageSpec) -> f64 {
         .map_or(0.0, |l| l.si)
 }
 
+/// Gate-driver output resistance from a peak current: R = V_drive/I_peak
 /// (common practice for datasheets that give peak currents).
 fn driver_resistance(e: &Either2<Ohm, Ampere>, v_drive_v: f64) -> f64 {
     if e.is_first() { e.si } else { v_drive_v / e.si }

@@ -194,6 +194,11 @@ impl LogLaw {
     fn at_ln(&self, ln_v: f64) -> f64 {
         (self.ln_k - self.m * ln_v).exp()
     }
+
+    /// C_ds at `v_v` (floored as the law floors it).
+    fn at(&self, v_v: f64) -> f64 {
+        self.at_ln(v_v.max(C_DS_FLOOR_V).ln())
+    }
 }
 
 /// The capacitances of a node prepared for its integration: the C_rss
@@ -216,11 +221,6 @@ impl NodeLaws {
                 Partner::Diode => None,
             },
         }
-    }
-
-    /// C_ds at `v_v` through `law`.
-    fn c_ds_f(law: &LogLaw, v_v: f64) -> f64 {
-        law.at_ln(v_v.max(C_DS_FLOOR_V).ln())
     }
 
     /// The partner's C_gd + C_ds with the switch at `v_ds_v` on `v_bus_v`.
@@ -318,12 +318,7 @@ fn node_capacitances(
     let c_gd = laws.crss.c_gd_f((v_ds_v - v_gs_v).max(0.0));
     let c_gs = c_gs_f(c.switch);
     let c_partner = laws.partner_f(c.v_bus_v, v_ds_v);
-    (
-        c_gs,
-        c_gd,
-        NodeLaws::c_ds_f(&laws.own, v_ds_v) + c_partner,
-        c_partner,
-    )
+    (c_gs, c_gd, laws.own.at(v_ds_v) + c_partner, c_partner)
 }
 
 /// (dv_DS/dt, dv_GS/dt) while the node is free to rise. Kirchhoff at the
@@ -730,8 +725,7 @@ pub fn current_rise_with_loop(c: &TurnOnCircuit<'_>) -> Option<CurrentRise> {
 /// Time step of an edge followed against the loop inductance `l_h`: a
 /// 200th of the loop's own period with the switch's output capacitance,
 /// 2π·√(L·C_oss(V)), or of the gate's time constant R_g·(C_gs + C_gd(V)),
-/// whichever is shorter (own choice; see the convergence tests, which
-/// cover a common-source inductance too).
+/// whichever is shorter (own choice; see the convergence tests).
 fn loop_step_s(
     c_oss: &OutputCapacitance,
     crss: &CrssCurve,
@@ -796,7 +790,7 @@ mod tests {
             let laws = NodeLaws::of(&c);
             for k in 0..=2400 {
                 let v = 24.0 * k as f64 / 2400.0;
-                let own = NodeLaws::c_ds_f(&laws.own, v);
+                let own = laws.own.at(v);
                 assert!((own / c.c_oss.c_ds_f(v) - 1.0).abs() < 1e-12, "{v} V");
                 let partner = c.partner.capacitance_f(&laws.crss, 24.0, v);
                 assert!(
