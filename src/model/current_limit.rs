@@ -523,7 +523,7 @@ fn edge_timings(ev: &Evaluator, i_a: f64, settle_s: f64) -> (TurnOnTransient, f6
     let drive = &ev.stage.drive;
     let v = ev.high_bus.v_bus_v;
     let r_on = losses::r_ds_on_ohm(sw, sw.t_j_max_c);
-    let tr = switching::transitions(sw, drive, v, i_a, i_a, r_on).ok();
+    let tr = switching::gate_charge_timing(sw, drive, v, i_a, i_a, r_on).ok();
     let t_rr_s = match (&ev.stage.diode, ev.stage.topology) {
         (Some(dd), Topology::LowSide) => dd.t_rr_s,
         _ => sw.t_rr_s,

@@ -1102,7 +1102,8 @@ impl Evaluator {
         let st = &self.stage;
         let i = case.load_current_a.abs().max(1e-3);
         let r_hot = thermal::r_ds_on_ohm(&st.switch, self.limits.t_j_max_c);
-        let tr = switching::transitions(&st.switch, &st.drive, case.v_bus_v, i, i, r_hot).ok()?;
+        let tr =
+            switching::gate_charge_timing(&st.switch, &st.drive, case.v_bus_v, i, i, r_hot).ok()?;
         let mut inp = DeadTimeInputs::from_transitions(&tr, &st.drive);
         inp.margin = self.dead_time_margin;
         deadtime::dead_time_need_s(&inp)

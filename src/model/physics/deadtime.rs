@@ -101,7 +101,7 @@ pub fn pair_need_s(
 ) -> Option<f64> {
     let tr = |d: &PairDevice| {
         let r_hot = r_ds_on_ohm(d.switch, d.t_j_max_c);
-        switching::transitions(d.switch, d.drive, v_bus_v, i_a, i_a, r_hot).ok()
+        switching::gate_charge_timing(d.switch, d.drive, v_bus_v, i_a, i_a, r_hot).ok()
     };
     let slow = tr(off)?;
     let fast = tr(on)?;

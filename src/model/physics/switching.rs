@@ -579,6 +579,39 @@ pub fn transitions_at(
     r_ds_on_ohm: f64,
     partner: NodePartner,
 ) -> Result<Transitions, SwitchingError> {
+    let (mut tr, rise) = gate_charge_edges(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm)?;
+    follow_edges(&mut tr, &rise, sw, drive, r_ds_on_ohm, partner)?;
+    Ok(tr)
+}
+
+/// The gate-charge method's delays and transition times of [`transitions`]
+/// (t_d(on), t_ri, t_fv, t_d(off), t_rv, t_fi), without following the edges
+/// at the node (refinement 4), which changes only the energies, the
+/// turn-on's voltage-fall time t_fv, the turn-off peak, the node's swing and
+/// the hand-over time. The dead-time need and the current limit's edge
+/// timing use none of those, so they take this and do not follow edges only
+/// to drop them.
+pub fn gate_charge_timing(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    r_ds_on_ohm: f64,
+) -> Result<Transitions, SwitchingError> {
+    Ok(gate_charge_edges(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm)?.0)
+}
+
+/// Refinements 1–3 and 5 of [`transitions`]: the gate-charge edges, and the
+/// turn-on's current rise the followed voltage fall starts from.
+fn gate_charge_edges(
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    v_bus_v: f64,
+    i_on_a: f64,
+    i_off_a: f64,
+    r_ds_on_ohm: f64,
+) -> Result<(Transitions, TurnOnRise), SwitchingError> {
     // Every Miller figure of the first-order pass is replaced below, so it
     // takes the datasheet Q_gd rather than evaluating the curve twice.
     let mut tr = first_order(sw, drive, v_bus_v, i_on_a, i_off_a, &|_, _| sw.q_gd_c)?;
@@ -642,17 +675,32 @@ pub fn transitions_at(
     tr.t_partner_half_s = tr.t_d_off_s + tr.t_rv_s + 0.5 * tr.t_fi_s;
     tr.t_node_swing_s = tr.t_rv_s;
     tr.e_on_j = rise.e_ri_j + e_fv;
+    tr.e_off_j = crossover_energy_j(v, i_off, 0.0, t_fi) + e_rv;
+    tr.e_off_terminal_j = tr.e_off_j;
+    tr.v_peak_off_v = first_order_peak_v(v, drive.loop_inductance_h, i_off, t_fi);
+    Ok((tr, rise))
+}
+
+/// Refinement 4 of [`transitions`] on the gate-charge edges `tr`: the
+/// turn-on's voltage fall and the turn-off followed at the node, where the
+/// switch file allows it (`followed_circuit`).
+fn follow_edges(
+    tr: &mut Transitions,
+    rise: &TurnOnRise,
+    sw: &SwitchModel,
+    drive: &GateDrive,
+    r_ds_on_ohm: f64,
+    partner: NodePartner,
+) -> Result<(), SwitchingError> {
+    let (v, i_on, i_off) = (tr.v_bus_v, tr.i_on_a, tr.i_off_a);
     let r_on = turn_on_resistance_ohm(drive, sw.r_g_int_ohm)?;
     let fall_circuit = followed_circuit(sw, drive, r_on, v, i_on, r_ds_on_ohm, partner);
-    if let Some(f) =
-        fall_circuit.and_then(|c| commutation::voltage_fall(&c, drive.v_drive_v, v_start_on))
+    if let Some(f) = fall_circuit
+        .and_then(|c| commutation::voltage_fall(&c, drive.v_drive_v, rise.v_fall_start_v))
     {
         tr.e_on_j = rise.e_ri_j + f.e_load_j;
         tr.t_fv_s = f.t_fall_s;
     }
-    tr.e_off_j = crossover_energy_j(v, i_off, 0.0, t_fi) + e_rv;
-    tr.e_off_terminal_j = tr.e_off_j;
-    tr.v_peak_off_v = first_order_peak_v(v, drive.loop_inductance_h, i_off, t_fi);
     if let Some(t) = shared_turn_off(sw, drive, v, i_off, r_ds_on_ohm, partner) {
         tr.e_off_j = t.e_channel_j;
         tr.e_off_terminal_j = t.e_terminal_j;
@@ -660,7 +708,7 @@ pub fn transitions_at(
         tr.t_partner_half_s = tr.t_d_off_s + t.t_half_handover_s;
         tr.t_node_swing_s = t.t_rise_s;
     }
-    Ok(tr)
+    Ok(())
 }
 
 /// When a channel carrying `i_a` lets its own body diode take the current
@@ -1137,6 +1185,31 @@ mod tests {
     /// whole current in the channel (refinement 2 alone), and the terminal
     /// exceeds the channel by about the energy stored in the switch's own
     /// output capacitance (within the gate loop's share of the C_gd current).
+    /// The dead-time need's timing without the followed edges gives the
+    /// very times the full edges give (following changes only energies, the
+    /// turn-on's t_fv, the peak and the hand-over), on a switch whose edges
+    /// are followed, at a light and a heavy load, with and without a loop.
+    #[test]
+    fn gate_charge_timing_is_the_full_edges_timing() {
+        let sw = curved_switch();
+        assert!(turn_off_followed(&sw));
+        for l_h in [0.0, 5e-9] {
+            let mut d = example_drive();
+            d.loop_inductance_h = l_h;
+            for i_a in [0.5, 10.0] {
+                let full = transitions(&sw, &d, 24.0, i_a, i_a, 5e-3).unwrap();
+                let gc = gate_charge_timing(&sw, &d, 24.0, i_a, i_a, 5e-3).unwrap();
+                let times = |t: &Transitions| {
+                    [t.t_d_on_s, t.t_ri_s, t.t_d_off_s, t.t_rv_s, t.t_fi_s].map(f64::to_bits)
+                };
+                assert_eq!(times(&full), times(&gc), "L {l_h} H, {i_a} A");
+                // The followed edges did move the energies: the shortcut
+                // really skips work the full edges do.
+                assert_ne!(full.e_off_j.to_bits(), gc.e_off_j.to_bits());
+            }
+        }
+    }
+
     #[test]
     fn shared_turn_off_below_the_gate_charge_turn_off() {
         let sw = curved_switch();
