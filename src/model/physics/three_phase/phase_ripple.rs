@@ -141,33 +141,21 @@ pub fn sinusoidal_ripple_at(
         .min(max_lines as f64)
         .min(f64::from(u32::MAX)) as u32;
     let mut power = vec![0.0; n_lines as usize];
-    let (mut pp_max, mut at, mut ms_sum) = (0.0_f64, 0.0, 0.0);
+    let (mut pp_at, mut ms_sum) = (Vec::with_capacity(n_angles), 0.0);
+    let step_rad = 2.0 * PI / n_angles as f64;
+    let pattern_at = |theta: f64| match current {
+        None => phase_voltage_pattern(
+            leg_duties(modulation_index, zero_sequence, theta),
+            stage.v_bus_v,
+            t_s,
+        ),
+        Some(c) => dead_time_pattern(stage, l_phase_h, command, c, theta),
+    };
     for j in 0..n_angles {
-        let theta = 2.0 * PI * j as f64 / n_angles as f64;
-        let d = leg_duties(modulation_index, zero_sequence, theta);
-        let pattern = match current {
-            None => phase_voltage_pattern(d, stage.v_bus_v, t_s),
-            Some(c) => {
-                let legs = LegConditions {
-                    v_bus_v: stage.v_bus_v,
-                    f_sw_hz: stage.f_sw_hz,
-                    t_dead_s: stage.t_dead_s,
-                    r_switch_ohm: 0.0,
-                    v_sd_v: 0.0,
-                    l_phase_h,
-                };
-                let edges = [0, 1, 2].map(|x| {
-                    let i = c.peak_a * (theta - 2.0 * PI * x as f64 / 3.0 - c.lag_rad).sin();
-                    effective_edges(d, x, i, &legs)
-                });
-                phase_voltage_between(edges.map(|e| e.0), edges.map(|e| e.1), stage.v_bus_v, t_s)
-            }
-        };
+        let theta = step_rad * j as f64;
+        let pattern = pattern_at(theta);
         let (pp, ms) = period_ripple(&pattern, l_phase_h, t_s);
-        if pp > pp_max {
-            pp_max = pp;
-            at = theta;
-        }
+        pp_at.push(pp);
         ms_sum += ms;
         for (k, p) in power.iter_mut().enumerate() {
             let n = k as u32 + 1;
@@ -176,6 +164,9 @@ pub fn sinusoidal_ripple_at(
             *p += amp * amp;
         }
     }
+    let (pp_max, at) = refined_largest_ripple(&pp_at, step_rad, |theta| {
+        period_ripple(&pattern_at(theta), l_phase_h, t_s).0
+    });
     let na = n_angles as f64;
     let lines = power
         .iter()
@@ -193,3 +184,88 @@ pub fn sinusoidal_ripple_at(
         lines,
     })
 }
+
+/// The phase voltage of one period at angle `theta` with each leg's pulse as the dead time
+/// leaves it for the phase currents of `c` ([`effective_edges`]).
+fn dead_time_pattern(
+    stage: &ThreePhaseStage<'_>,
+    l_phase_h: f64,
+    command: &RippleCommand,
+    c: PhaseCurrent,
+    theta: f64,
+) -> Vec<(f64, f64, f64)> {
+    let d = leg_duties(command.modulation_index, command.zero_sequence, theta);
+    let legs = LegConditions {
+        v_bus_v: stage.v_bus_v,
+        f_sw_hz: stage.f_sw_hz,
+        t_dead_s: stage.t_dead_s,
+        r_switch_ohm: 0.0,
+        v_sd_v: 0.0,
+        l_phase_h,
+    };
+    let edges = [0, 1, 2].map(|x| {
+        let i = c.peak_a * (theta - 2.0 * PI * x as f64 / 3.0 - c.lag_rad).sin();
+        effective_edges(d, x, i, &legs)
+    });
+    phase_voltage_between(
+        edges.map(|e| e.0),
+        edges.map(|e| e.1),
+        stage.v_bus_v,
+        1.0 / stage.f_sw_hz,
+    )
+}
+
+/// Steps each coarse angle's neighbourhood is refined in (own choice, held by
+/// `largest_ripple_refined_to_a_dense_scan`).
+const RIPPLE_REFINE_STEPS: usize = 16;
+/// Coarse local maxima within this fraction of the coarse largest ripple are refined (own
+/// choice: the ripple changes by a few per cent between coarse angles at most where the
+/// dead time moves an edge; a jump up where an edge changes side leaves a coarse local
+/// maximum just after it).
+const RIPPLE_REFINE_BAND: f64 = 0.05;
+
+/// The largest ripple over every angle and where it is, from the ripple `pp_at` at the
+/// coarse angles `step_rad` apart: each coarse local maximum within [`RIPPLE_REFINE_BAND`]
+/// of the coarse largest has the step either side of it scanned in [`RIPPLE_REFINE_STEPS`] steps
+/// by `pp_of` (the largest swing can lie between coarse angles: where the dead time moves an
+/// edge, or at a kink of the min-max zero sequence; an asynchronous PWM meets every angle).
+fn refined_largest_ripple(pp_at: &[f64], step_rad: f64, pp_of: impl Fn(f64) -> f64) -> (f64, f64) {
+    let coarse = pp_at.iter().copied().fold(0.0_f64, f64::max);
+    let (mut best, mut at) = (0.0_f64, 0.0);
+    for (j, &pp) in pp_at.iter().enumerate() {
+        if pp > best {
+            (best, at) = (pp, step_rad * j as f64);
+        }
+    }
+    let scan = |centre: f64, step: f64, best: &mut (f64, f64)| {
+        let sub = step / RIPPLE_REFINE_STEPS as f64;
+        for k in 1..2 * RIPPLE_REFINE_STEPS {
+            let theta = centre + sub * (k as f64 - RIPPLE_REFINE_STEPS as f64);
+            let pp = pp_of(theta);
+            if pp > best.0 {
+                *best = (pp, theta.rem_euclid(2.0 * PI));
+            }
+        }
+    };
+    let mut found = (best, at);
+    let n = pp_at.len();
+    for (j, &pp) in pp_at.iter().enumerate() {
+        let local_max = pp >= pp_at[(j + n - 1) % n] && pp >= pp_at[(j + 1) % n];
+        if local_max && pp >= coarse * (1.0 - RIPPLE_REFINE_BAND) {
+            scan(step_rad * j as f64, step_rad, &mut found);
+        }
+    }
+    // The largest swing may sit at a jump (a dead-time edge changing side with its
+    // current's sign): zoom in on it.
+    let mut step = step_rad / RIPPLE_REFINE_STEPS as f64;
+    for _ in 0..RIPPLE_ZOOMS {
+        let centre = found.1;
+        scan(centre, step, &mut found);
+        step /= RIPPLE_REFINE_STEPS as f64;
+    }
+    found
+}
+
+/// Zooms around the refined largest ripple, each `RIPPLE_REFINE_STEPS` finer (own choice:
+/// three take a 5° step to 0.001°).
+const RIPPLE_ZOOMS: usize = 3;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:57cbaeec414b9eec9073b8c7e2938b30ec64cf4bea85ea1d5726c8c5f1c69cb2)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:11d0737c9320db52b15850a10956b55c22a83bd60400f4283ae319a27a782420)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -68,8 +68,8 @@
  *
  * Checked on the registers (independent simulation of the written values)
  *   pulses         shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
- *   rated case     at compare duty 72.251 %: mean current 9.998 A (plan 10.00 A), ripple 752.0 mA peak to peak (plan 754.0 mA)
- *   high-bus case  at compare duty 69.808 %: mean current 9.998 A (plan 10.00 A), ripple 803.7 mA peak to peak (plan 805.4 mA)
+ *   rated case     at compare duty 72.252 %: mean current 9.998 A (plan 10.00 A), ripple 754.5 mA peak to peak (plan 754.0 mA)
+ *   high-bus case  at compare duty 69.809 %: mean current 9.998 A (plan 10.00 A), ripple 805.9 mA peak to peak (plan 805.4 mA)
  *   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 1.50 µs before and holds 2.43 µs after (settling and sampling need no more)
  *   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
  *   not checked    three-phase phase currents are held to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: the ripple model takes the dead time's diode levels as whole edge shifts, approximate where the dead time's voltage is large against the phase voltage
