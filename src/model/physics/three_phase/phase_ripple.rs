@@ -16,7 +16,8 @@ use crate::model::physics::acoustics::Line;
 /// Phase-current ripple of sinusoidal / space-vector PWM.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PhaseRipple {
-    /// Largest peak-to-peak ripple over the angles, A.
+    /// Largest peak-to-peak ripple over every angle, A (refined between the coarse angles,
+    /// `refined_largest_ripple`).
     pub pp_max_a: f64,
     /// Electrical angle θ where it occurs, rad.
     pub pp_max_angle_rad: f64,
@@ -230,11 +231,10 @@ const RIPPLE_REFINE_BAND: f64 = 0.05;
 /// by `pp_of` (the largest swing can lie between coarse angles: where the dead time moves an
 /// edge, or at a kink of the min-max zero sequence; an asynchronous PWM meets every angle).
 fn refined_largest_ripple(pp_at: &[f64], step_rad: f64, pp_of: impl Fn(f64) -> f64) -> (f64, f64) {
-    let coarse = pp_at.iter().copied().fold(0.0_f64, f64::max);
-    let (mut best, mut at) = (0.0_f64, 0.0);
+    let (mut coarse, mut at) = (0.0_f64, 0.0);
     for (j, &pp) in pp_at.iter().enumerate() {
-        if pp > best {
-            (best, at) = (pp, step_rad * j as f64);
+        if pp > coarse {
+            (coarse, at) = (pp, step_rad * j as f64);
         }
     }
     let scan = |centre: f64, step: f64, best: &mut (f64, f64)| {
@@ -247,7 +247,7 @@ fn refined_largest_ripple(pp_at: &[f64], step_rad: f64, pp_of: impl Fn(f64) -> f
             }
         }
     };
-    let mut found = (best, at);
+    let mut found = (coarse, at);
     let n = pp_at.len();
     for (j, &pp) in pp_at.iter().enumerate() {
         let local_max = pp >= pp_at[(j + n - 1) % n] && pp >= pp_at[(j + 1) % n];
@@ -267,5 +267,5 @@ fn refined_largest_ripple(pp_at: &[f64], step_rad: f64, pp_of: impl Fn(f64) -> f
 }
 
 /// Zooms around the refined largest ripple, each `RIPPLE_REFINE_STEPS` finer (own choice:
-/// three take a 5° step to 0.001°).
+/// after the first scan's 0.3° steps at the default 72 angles, three reach below 0.001°).
 const RIPPLE_ZOOMS: usize = 3;
