@@ -527,8 +527,9 @@ pub fn transitions_memo(
 ///    capacitance sharing (`commutation::turn_off`): part of the load current
 ///    charges the switch's own C_ds and discharges the partner's output
 ///    capacitance, so the channel current falls during the voltage rise.
-///    The times stay the gate-charge method's (the dead-time need is built
-///    on them; see `tests/spice`).
+///    The times the dead-time need is built on stay the gate-charge
+///    method's ([`gate_charge_timing`]; see `tests/spice`); the turn-on's
+///    voltage fall is followed too and gives its own t_fv.
 /// 5. With a loop inductance, the turn-on's current rise from
 ///    [`turn_on_rise`]: the loop's dip, the slope the partner recovers at and
 ///    the drain voltage the Miller fall starts from.

@@ -144,13 +144,12 @@ pub fn sinusoidal_ripple_at(
     let mut power = vec![0.0; n_lines as usize];
     let (mut pp_at, mut ms_sum) = (Vec::with_capacity(n_angles), 0.0);
     let step_rad = 2.0 * PI / n_angles as f64;
-    let pattern_at = |theta: f64| match current {
-        None => phase_voltage_pattern(
-            leg_duties(modulation_index, zero_sequence, theta),
-            stage.v_bus_v,
-            t_s,
-        ),
-        Some(c) => dead_time_pattern(stage, l_phase_h, command, c, theta),
+    let pattern_at = |theta: f64| {
+        let d = leg_duties(modulation_index, zero_sequence, theta);
+        match current {
+            None => phase_voltage_pattern(d, stage.v_bus_v, t_s),
+            Some(c) => dead_time_pattern(stage, l_phase_h, d, c, theta),
+        }
     };
     for j in 0..n_angles {
         let theta = step_rad * j as f64;
@@ -186,16 +185,15 @@ pub fn sinusoidal_ripple_at(
     })
 }
 
-/// The phase voltage of one period at angle `theta` with each leg's pulse as the dead time
-/// leaves it for the phase currents of `c` ([`effective_edges`]).
+/// The phase voltage of one period at angle `theta` with each leg's pulse of the commanded
+/// duties `d` as the dead time leaves it for the phase currents of `c` ([`effective_edges`]).
 fn dead_time_pattern(
     stage: &ThreePhaseStage<'_>,
     l_phase_h: f64,
-    command: &RippleCommand,
+    d: [f64; 3],
     c: PhaseCurrent,
     theta: f64,
 ) -> Vec<(f64, f64, f64)> {
-    let d = leg_duties(command.modulation_index, command.zero_sequence, theta);
     let legs = LegConditions {
         v_bus_v: stage.v_bus_v,
         f_sw_hz: stage.f_sw_hz,
