@@ -173,16 +173,33 @@ fn sampler_moments_match_closed_forms() {
 
 /// With no spread at all every sample is the typical evaluation, to the
 /// last bit, for both distributions; the worst case is the typical case and
-/// the worst dead-time need is the solver's need.
+/// the worst dead-time need is the solver's need. A sample follows its
+/// switching edges at each current (`EdgeModel::AtEachCurrent`) where the
+/// plan's search interpolates them between fixed currents: the bit-for-bit
+/// reference is the typical evaluation with the edges followed at each
+/// current, and the plan's own figures are within 1e-5 of it.
 #[test]
 fn zero_spread_reproduces_the_typical_evaluation() {
     let mut d = demo();
     no_spread(&mut d);
     let ev = Evaluator::new(&d);
     let (setting, dead) = solved(&ev);
-    let typ = ev
+    let mut at_each = ev.clone();
+    at_each.stage.edges = pwmplan::physics::params::EdgeModel::AtEachCurrent;
+    let typ = at_each
         .case(&ev.rated, setting.frequency_hz, dead.seconds)
         .expect("typical case");
+    let planned = ev
+        .case(&ev.rated, setting.frequency_hz, dead.seconds)
+        .expect("typical case");
+    let rel = |a: f64, b: f64| ((a - b) / b).abs();
+    assert!(rel(planned.losses.total, typ.losses.total) < 1e-5);
+    assert!(
+        rel(
+            planned.junction_c.expect("settles"),
+            typ.junction_c.expect("settles")
+        ) < 1e-5
+    );
     let t_j = typ.junction_c.expect("settles");
     for dist in ["uniform", "normal"] {
         if let Some(t) = d.spec.tolerances.as_mut() {

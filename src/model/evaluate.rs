@@ -16,8 +16,8 @@ use crate::model::physics::leg_voltage::{self, DeadTimeConditions, EdgeCurrents,
 use crate::model::physics::load_line::OperatingRange;
 use crate::model::physics::losses::{self, DeviceRole, StageLosses};
 use crate::model::physics::params::{
-    DiodeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint, RdsOnTemperature,
-    RecoveryTest, SwitchModel, ThermalPath, Topology,
+    DiodeModel, EdgeModel, GateDrive, HBridgeModulation, LoadCurrent, OperatingPoint,
+    RdsOnTemperature, RecoveryTest, SwitchModel, ThermalPath, Topology,
 };
 use crate::model::physics::ratings::{self, Finding, RatingInputs, Severity};
 use crate::model::physics::ripple::{self, Drive, MotorLoad, RippleWaveform};
@@ -41,6 +41,9 @@ pub struct StageModel {
     pub thermal: ThermalPath,
     /// Bootstrap refresh time, when the high side is bootstrapped.
     pub bootstrap_refresh_s: Option<f64>,
+    /// How the followed switching edges are taken: interpolated for the
+    /// plan's search, at each current in `spread`'s samples and corners.
+    pub edges: EdgeModel,
 }
 
 /// One operating case the settings must hold at.
@@ -387,6 +390,7 @@ pub fn stage_model(board: &BoardSpec, sw: &SwitchSpec) -> StageModel {
     switch.r_ds_on_25_ohm *= losses::r_ds_on_drive_factor(&switch, v_drive);
     StageModel {
         topology,
+        edges: EdgeModel::Interpolated,
         switch,
         drive: GateDrive {
             v_drive_v: v_drive,
@@ -976,6 +980,7 @@ impl Evaluator {
             f_sw_hz: f_hz,
             t_dead_s,
             t_ambient_c: case.t_ambient_c,
+            edges: st.edges,
         };
         let temps = thermal::stage_junction_temperatures(
             st.topology,

@@ -28,6 +28,7 @@ use crate::input::units::{Dimension, format_quantity};
 use crate::model::evaluate::{CaseResult, Evaluator, OperatingCase};
 use crate::model::physics::deadtime::{self, PairDevice};
 use crate::model::physics::losses::r_ds_on_drive_factor;
+use crate::model::physics::params::EdgeModel;
 use crate::model::solve::{DeadTimeChoice, Setting};
 use crate::model::timer::{self, Alignment, DutyLimits, PwmSetting};
 
@@ -366,6 +367,10 @@ pub fn apply(base: &Evaluator, x: &Values, out: &mut Evaluator) {
     d.r_source_ohm = v(Param::DriverSource);
     d.r_sink_ohm = v(Param::DriverSink);
     d.v_drive_v = v(Param::DriverSupply);
+    // Each point has its own switch, asked for at a few currents only: the
+    // edges are followed at those currents rather than at four grid nodes
+    // around each.
+    out.stage.edges = EdgeModel::AtEachCurrent;
 }
 
 /// Rated load at the point's supply and ambient.

@@ -479,7 +479,10 @@ fn book_dead_times(diode: &mut EdgeBook, hard: &EdgeBook, ctx: &Ctx<'_>) -> Resu
         hard.hard_on_a,
         hard.hard_off_a,
         sw.r_ds_on_25_ohm,
-        ctx.partner,
+        switching::NodeEdges {
+            partner: ctx.partner,
+            model: op.edges,
+        },
     )?;
     let edges = dead_time_diode::LegEdges {
         switch: sw,
@@ -574,7 +577,10 @@ fn mosfet_loss(
         book.hard_on_a,
         book.hard_off_a,
         sw.r_ds_on_25_ohm,
-        ctx.partner,
+        switching::NodeEdges {
+            partner: ctx.partner,
+            model: op.edges,
+        },
     )?;
     let plateau = switching::plateau_voltage_v(sw, ctx.load.i_avg_a)?;
     let gate = gate_drive_loss(sw, ctx.drive, f, plateau)?;
@@ -856,6 +862,7 @@ mod tests {
             f_sw_hz: 20e3,
             t_dead_s: 300e-9,
             t_ambient_c: 25.0,
+            edges: Default::default(),
         }
     }
 
@@ -935,6 +942,7 @@ mod tests {
             f_sw_hz: 20e3,
             t_dead_s: 100e-9,
             t_ambient_c: 25.0,
+            edges: Default::default(),
         };
         let flat = triangular_load(1.0, 0.0);
         let s = stage_losses(

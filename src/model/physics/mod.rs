@@ -23,6 +23,7 @@ pub mod current_limit;
 pub mod current_loop;
 pub mod dead_time_diode;
 pub mod deadtime;
+pub mod edge_interpolation;
 pub mod forward;
 pub mod leg_voltage;
 pub mod load_line;

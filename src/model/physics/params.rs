@@ -220,6 +220,25 @@ pub struct OperatingPoint {
     pub t_dead_s: f64,
     /// Ambient temperature.
     pub t_ambient_c: f64,
+    /// How the followed switching edges are taken at the switched currents.
+    pub edges: EdgeModel,
+}
+
+/// How the followed switching edges (`switching::transitions`, refinement
+/// 4) are taken at a switched current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum EdgeModel {
+    /// Followed at each current asked for: what a single evaluation with
+    /// its own switch (a Monte Carlo sample, a corner) costs least with.
+    #[default]
+    AtEachCurrent,
+    /// Followed at fixed currents and interpolated between them
+    /// (`edge_interpolation`): what the frequency search, which asks for the
+    /// same switch at hundreds of nearby currents, costs least with;
+    /// within 1e-4 of the edge pair's energy and 1e-3 of each time of
+    /// `AtEachCurrent` (tested in `switching`). Boards with a loop
+    /// inductance are followed at each current either way.
+    Interpolated,
 }
 
 #[cfg(test)]

@@ -627,6 +627,7 @@ mod tests {
             f_sw_hz: 20e3,
             t_dead_s: 200e-9,
             t_ambient_c: 40.0,
+            edges: Default::default(),
         };
         let load = triangular_load(8.0, 2.0);
         let (sw, drive) = (example_switch(), example_drive());

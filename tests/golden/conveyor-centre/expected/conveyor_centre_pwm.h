@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:adcc958d5824a60c44fa66540c2994831e8a9f5af3eb2aeb32fb342c72001453)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:70e0ded21b964a4904ee3ff0af98e64fedc2fbf5aa6213c9d9750be46e89363d)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -196,8 +196,8 @@
 #define CONVEYOR_CENTRE_PWM_LOOP_RATE_MILLIHZ 40018190ULL
 /* PI gains in SI units: volts per ampere, volts per ampere-second; the update
  * period in seconds; compare counts per volt of output at the nominal supply. */
-#define CONVEYOR_CENTRE_PWM_LOOP_KP_V_PER_A 1.1717256119855302e1
-#define CONVEYOR_CENTRE_PWM_LOOP_KI_V_PER_A_S 8.584420082279474e3
+#define CONVEYOR_CENTRE_PWM_LOOP_KP_V_PER_A 1.1717256119850177e1
+#define CONVEYOR_CENTRE_PWM_LOOP_KI_V_PER_A_S 8.584420082505103e3
 #define CONVEYOR_CENTRE_PWM_LOOP_PERIOD_S 2.4988636363636365e-5
 #define CONVEYOR_CENTRE_PWM_LOOP_COUNTS_PER_VOLT 9.1625e1
 /* The compare of zero volts, and the loop output's clamp. */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:16e0786f60f3a5fa2725a42e5828c494a0429f1f4e7895c3f1831f0e0423505b)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:427604d984fd51c5fc54e6870901e41034c06853f564a14f69175a917b70f803)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -206,9 +206,9 @@ pub const LOOP_UPDATE_EXTREMES: u32 = 1;
 /// The loop's update rate in millihertz.
 pub const LOOP_RATE_MILLIHZ: u64 = 40018190;
 /// Proportional gain, V/A.
-pub const LOOP_KP_V_PER_A: f32 = 1.1717256119855302e1;
+pub const LOOP_KP_V_PER_A: f32 = 1.1717256119850177e1;
 /// Integral gain, V/(A·s).
-pub const LOOP_KI_V_PER_A_S: f32 = 8.584420082279474e3;
+pub const LOOP_KI_V_PER_A_S: f32 = 8.584420082505103e3;
 /// The update period, s.
 pub const LOOP_PERIOD_S: f32 = 2.4988636363636365e-5;
 /// Compare counts per volt of loop output at the nominal supply.
