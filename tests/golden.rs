@@ -375,9 +375,10 @@ fn case_inputs_follow_the_bundled_files() {
     );
 }
 
-/// Compiling the templates in top-level pieces (`output::pieces`, to keep
-/// compiling cheap) renders every file of every golden case exactly as the
-/// templates compiled whole do, and as pieces cut at every allowed line.
+/// Compiling the templates in pieces (`output::pieces`, to keep compiling
+/// cheap) renders every file of every golden case exactly as the templates
+/// compiled whole do, as pieces cut at every allowed line, and with the
+/// three-phase pieces left out of the compile.
 #[test]
 fn templates_in_pieces_render_as_whole() {
     use pwmplan::cli::solved::{generate_with, solve_design};
@@ -385,6 +386,11 @@ fn templates_in_pieces_render_as_whole() {
     let whole = Templates::load_in_pieces(None, usize::MAX).expect("bundled templates compile");
     let finest = Templates::load_in_pieces(None, 1).expect("bundled templates compile");
     let usual = Templates::load(None).expect("bundled templates compile");
+    // The three-phase pieces left out, as `plan` compiles for a design that
+    // is not three-phase; the three-phase cases then compile them when
+    // rendering.
+    let without_three_phase =
+        Templates::load_expecting_false(None, &["three_phase"]).expect("bundled templates compile");
     for case in CASES {
         let dir = case_dir(case);
         let design = dir.join(common::design_file(case));
@@ -399,5 +405,6 @@ fn templates_in_pieces_render_as_whole() {
         let reference = texts(&whole);
         assert_eq!(texts(&usual), reference, "{}", case.name);
         assert_eq!(texts(&finest), reference, "{}", case.name);
+        assert_eq!(texts(&without_three_phase), reference, "{}", case.name);
     }
 }

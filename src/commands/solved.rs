@@ -46,7 +46,11 @@ pub fn solve_design(
     at: Option<f64>,
     worst_case: bool,
 ) -> Result<Solved, Failure> {
-    let design = load(design)?;
+    solve_loaded(load(design)?, at, worst_case)
+}
+
+/// [`solve_design`] on a design already loaded.
+pub fn solve_loaded(design: Design, at: Option<f64>, worst_case: bool) -> Result<Solved, Failure> {
     let ev = Evaluator::new(&design);
     if let Some(f) = at {
         // Refuse a pinned frequency the timer cannot come near before
@@ -156,16 +160,29 @@ pub fn generate_files(s: &Solved, templates: Option<&Path>) -> Result<Vec<Genera
 /// The files `plan` writes for a solved design, with templates already
 /// compiled.
 pub fn generate_with(s: &Solved, t: &Templates) -> Result<Vec<GeneratedFile>, Failure> {
-    let o = &s.design.spec.outputs;
+    generate_from_rows(s, &plot_rows(s), t)
+}
+
+/// The sweep behind the plots of a solved design.
+pub fn plot_rows(s: &Solved) -> Vec<sweep::SweepRow> {
     let (from, to) = review_range(&s.evaluator);
-    let rows = sweep::sweep(
+    sweep::sweep(
         &s.evaluator,
         &sweep::log_space(from, to, PLOT_POINTS),
         Some(s.plan.pwm.frequency_hz),
-    );
+    )
+}
+
+/// [`generate_with`] on the plots' sweep already made (`plot_rows`).
+pub fn generate_from_rows(
+    s: &Solved,
+    rows: &[sweep::SweepRow],
+    t: &Templates,
+) -> Result<Vec<GeneratedFile>, Failure> {
+    let o = &s.design.spec.outputs;
     Ok(emit::generate(
         &s.plan,
-        &rows,
+        rows,
         s.design.board.timer.fpu,
         o.c,
         o.rust,

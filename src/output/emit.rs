@@ -1184,8 +1184,36 @@ pub struct Templates(std::sync::Arc<CompiledTemplates>);
 
 struct CompiledTemplates {
     hb: Handlebars<'static>,
-    pieces: BTreeMap<String, Vec<String>>,
+    pieces: BTreeMap<String, Vec<Piece>>,
     whole: BTreeMap<String, String>,
+}
+
+/// One piece of a template as registered.
+struct Piece {
+    /// Its name in the registry (`name#i`, or the template's own name when
+    /// it is whole).
+    name: String,
+    /// The flag it renders nothing without (`pieces::gate`).
+    gate: Option<String>,
+    /// Its text where it was left out of the registry (compiled when a
+    /// render needs it); `None` when compiled.
+    left_out: Option<String>,
+}
+
+/// Whether `value` is false as the `if` helper tests it (missing, null,
+/// false, 0, an empty text or list; the Handlebars language's truthiness,
+/// <https://handlebarsjs.com/guide/builtin-helpers.html>). A missing value
+/// counts as not false here, so a piece is skipped only on a value present
+/// and false.
+fn known_false(value: Option<&serde_json::Value>) -> bool {
+    use serde_json::Value;
+    match value {
+        Some(Value::Null) | Some(Value::Bool(false)) => true,
+        Some(Value::Number(n)) => n.as_f64() == Some(0.0),
+        Some(Value::String(t)) => t.is_empty(),
+        Some(Value::Array(a)) => a.is_empty(),
+        _ => false,
+    }
 }
 
 /// A handlebars registry as pwmplan renders: strict, no escaping.
@@ -1197,30 +1225,50 @@ fn registry() -> Handlebars<'static> {
 }
 
 /// Register `text` as `name`'s pieces (named `name#0`, `name#1`, ...), or
-/// whole where it does not cut into pieces that each compile; the names
-/// registered, in order.
+/// whole where it does not cut into pieces that each compile; the pieces in
+/// order. A piece gated by one of `false_flags` (`pieces::gate`) is left
+/// out, kept as text: the caller expects those flags false, and a render
+/// that finds one true compiles it then.
 fn register_in_pieces(
     hb: &mut Handlebars<'static>,
     name: &str,
     text: &str,
     piece_bytes: usize,
-) -> Result<Vec<String>, handlebars::TemplateError> {
+    false_flags: &[&str],
+) -> Result<Vec<Piece>, handlebars::TemplateError> {
     let parts = pieces::top_level_pieces(text, piece_bytes);
     if parts.len() > 1 {
-        let names: Vec<String> = (0..parts.len()).map(|i| format!("{name}#{i}")).collect();
-        let compiled = names
+        let out: Vec<Piece> = parts
+            .iter()
+            .enumerate()
+            .map(|(i, p)| {
+                let gate = pieces::gate(p).map(str::to_string);
+                let skip = gate.as_deref().is_some_and(|g| false_flags.contains(&g));
+                Piece {
+                    name: format!("{name}#{i}"),
+                    gate,
+                    left_out: skip.then(|| p.clone()),
+                }
+            })
+            .collect();
+        let compiled = out
             .iter()
             .zip(&parts)
-            .all(|(n, p)| hb.register_template_string(n, p).is_ok());
+            .filter(|(piece, _)| piece.left_out.is_none())
+            .all(|(piece, p)| hb.register_template_string(&piece.name, p).is_ok());
         if compiled {
-            return Ok(names);
+            return Ok(out);
         }
-        for n in &names {
-            hb.unregister_template(n);
+        for piece in &out {
+            hb.unregister_template(&piece.name);
         }
     }
     hb.register_template_string(name, text)?;
-    Ok(vec![name.to_string()])
+    Ok(vec![Piece {
+        name: name.to_string(),
+        gate: None,
+        left_out: None,
+    }])
 }
 
 impl Templates {
@@ -1238,10 +1286,39 @@ impl Templates {
         }
     }
 
+    /// The bundled templates without compiling the pieces that render
+    /// nothing while the context's `false_flags` are false (the caller's
+    /// expectation; a piece a render finds needed after all is compiled
+    /// then): `plan` knows before it solves whether a design is
+    /// three-phase. A folder's templates are compiled in full, every
+    /// piece checked, as [`Templates::load`] does.
+    pub fn load_expecting_false(
+        dir: Option<&Path>,
+        false_flags: &[&str],
+    ) -> Result<Templates, EmitError> {
+        match dir {
+            None if !false_flags.is_empty() => {
+                Templates::load_pieces_expecting_false(None, pieces::PIECE_BYTES, false_flags)
+            }
+            _ => Templates::load(dir),
+        }
+    }
+
     /// As [`Templates::load`], each template cut into pieces of about
     /// `piece_bytes` (`usize::MAX`: whole, as a test compares).
     #[doc(hidden)]
     pub fn load_in_pieces(dir: Option<&Path>, piece_bytes: usize) -> Result<Templates, EmitError> {
+        Templates::load_pieces_expecting_false(dir, piece_bytes, &[])
+    }
+
+    /// [`Templates::load_in_pieces`] leaving out the pieces gated by
+    /// `false_flags` (`register_in_pieces`).
+    #[doc(hidden)]
+    pub fn load_pieces_expecting_false(
+        dir: Option<&Path>,
+        piece_bytes: usize,
+        false_flags: &[&str],
+    ) -> Result<Templates, EmitError> {
         let mut hb = registry();
         let mut pieces = BTreeMap::new();
         let mut whole = BTreeMap::new();
@@ -1284,14 +1361,13 @@ impl Templates {
                     text
                 }
             };
-            let names = register_in_pieces(&mut hb, name, &text, piece_bytes).map_err(|e| {
-                EmitError::Template {
+            let names = register_in_pieces(&mut hb, name, &text, piece_bytes, false_flags)
+                .map_err(|e| EmitError::Template {
                     file: dir
                         .map(|d| d.join(name).display().to_string())
                         .unwrap_or_else(|| name.to_string()),
                     message: e.to_string(),
-                }
-            })?;
+                })?;
             pieces.insert(name.to_string(), names);
             whole.insert(name.to_string(), text);
         }
@@ -1306,10 +1382,15 @@ impl Templates {
     /// [`MAX_RENDERED_BYTES`].
     fn render(&self, name: &str, ctx: &Context) -> Result<String, EmitError> {
         let mut out = CappedWriter::default();
-        let names = self.0.pieces.get(name).map_or(&[][..], Vec::as_slice);
-        let rendered = names
-            .iter()
-            .try_for_each(|n| self.0.hb.render_to_write(n, ctx, &mut out))
+        let pieces = self.0.pieces.get(name).map_or(&[][..], Vec::as_slice);
+        // The context is turned into the engine's data once, not once per
+        // piece (that took longer than rendering the pieces).
+        let rendered = handlebars::Context::wraps(ctx)
+            .and_then(|data| {
+                pieces
+                    .iter()
+                    .try_for_each(|p| self.render_piece(p, &data, &mut out))
+            })
             .map_err(|e| self.error_in_whole(name, ctx).unwrap_or(e));
         match rendered {
             Ok(()) => String::from_utf8(out.bytes).map_err(|_| EmitError::Render {
@@ -1331,6 +1412,30 @@ impl Templates {
 }
 
 impl Templates {
+    /// Render one piece: nothing where its gate is false, compiled now
+    /// where it was left out.
+    fn render_piece(
+        &self,
+        p: &Piece,
+        data: &handlebars::Context,
+        out: &mut CappedWriter,
+    ) -> Result<(), handlebars::RenderError> {
+        if p.gate
+            .as_deref()
+            .is_some_and(|g| known_false(data.data().get(g)))
+        {
+            return Ok(());
+        }
+        match &p.left_out {
+            None => self.0.hb.render_with_context_to_write(&p.name, data, out),
+            Some(text) => {
+                let mut hb = registry();
+                hb.register_template_string(&p.name, text)?;
+                hb.render_with_context_to_write(&p.name, data, out)
+            }
+        }
+    }
+
     /// The error rendering `name` whole gives, which names the line in the
     /// template as written (a piece's error counts lines from the piece).
     fn error_in_whole(&self, name: &str, ctx: &Context) -> Option<handlebars::RenderError> {
@@ -1464,28 +1569,45 @@ pub fn generate(
     templates: &Templates,
 ) -> Result<Vec<GeneratedFile>, EmitError> {
     let ctx = context(plan, fpu);
+    let mut files = templated_files(&ctx, c, rust, templates)?;
+    files.extend(other_files(plan, rows, &ctx));
+    Ok(files)
+}
+
+/// The C header, the Rust module (each when asked for) and the rationale.
+fn templated_files(
+    ctx: &Context,
+    c: bool,
+    rust: bool,
+    templates: &Templates,
+) -> Result<Vec<GeneratedFile>, EmitError> {
     let stem = &ctx.names.file_stem;
     let mut files = Vec::new();
     if c {
         files.push(GeneratedFile {
             name: format!("{stem}.h").into(),
-            text: templates.render_sealed("c_header.h.hbs", &ctx)?,
+            text: templates.render_sealed("c_header.h.hbs", ctx)?,
         });
     }
     if rust {
         files.push(GeneratedFile {
             name: format!("{stem}.rs").into(),
-            text: templates.render_sealed("rust_module.rs.hbs", &ctx)?,
+            text: templates.render_sealed("rust_module.rs.hbs", ctx)?,
         });
     }
     files.push(GeneratedFile {
         name: "rationale.md".into(),
-        text: templates.render_sealed("rationale.md.hbs", &ctx)?,
+        text: templates.render_sealed("rationale.md.hbs", ctx)?,
     });
-    files.push(GeneratedFile {
-        name: "plan.json".into(),
-        text: seal(&plan_json(plan)),
-    });
+    Ok(files)
+}
+
+/// `plan.json`, the two plots and the HTML report.
+fn other_files(
+    plan: &Plan,
+    rows: &[crate::model::sweep::SweepRow],
+    ctx: &Context,
+) -> Vec<GeneratedFile> {
     let chosen = Some(plan.pwm.frequency_hz);
     let ripple_limit = plan
         .constraints
@@ -1499,20 +1621,25 @@ pub fn generate(
         ripple_limit,
         chosen,
     );
-    let html = crate::output::html::report_html(plan, &ctx, &loss_svg, &thermal_svg);
-    files.push(GeneratedFile {
-        name: "loss.svg".into(),
-        text: svg_with_marker(&loss_svg),
-    });
-    files.push(GeneratedFile {
-        name: "thermal.svg".into(),
-        text: svg_with_marker(&thermal_svg),
-    });
-    files.push(GeneratedFile {
-        name: "report.html".into(),
-        text: seal(&html),
-    });
-    Ok(files)
+    let html = crate::output::html::report_html(plan, ctx, &loss_svg, &thermal_svg);
+    vec![
+        GeneratedFile {
+            name: "plan.json".into(),
+            text: seal(&plan_json(plan)),
+        },
+        GeneratedFile {
+            name: "loss.svg".into(),
+            text: svg_with_marker(&loss_svg),
+        },
+        GeneratedFile {
+            name: "thermal.svg".into(),
+            text: svg_with_marker(&thermal_svg),
+        },
+        GeneratedFile {
+            name: "report.html".into(),
+            text: seal(&html),
+        },
+    ]
 }
 
 /// A plot as a file: an XML comment with the sealed marker after the
@@ -1545,7 +1672,7 @@ mod tests {
     fn long_templates_compile_in_pieces() {
         let t = super::Templates::load(None).expect("bundled templates compile");
         for (name, text) in super::BUNDLED_TEMPLATES {
-            let names = &t.0.pieces[*name];
+            let names: Vec<&str> = t.0.pieces[*name].iter().map(|p| p.name.as_str()).collect();
             if text.len() > 4 * super::pieces::PIECE_BYTES {
                 assert!(names.len() >= 4, "{name}: {names:?}");
                 for n in names {
