@@ -174,8 +174,11 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     let mut sampled = 0usize;
     // Alternatives withheld because their registers disagree with their figures.
     let mut withheld_total = 0usize;
-    // Three-phase plans whose phase currents the verifier compared.
+    // Three-phase plans whose phase currents the verifier compared, and those of them
+    // whose registers put a significant carrier group at or below the hearing limit (the
+    // lowest one compared with the plan's lowest line).
     let mut currents_checked = 0usize;
+    let mut lines_compared = 0usize;
     // Plans whose current limit's chopped stall the verifier compared.
     let mut limits_checked = 0usize;
     for i in 0..n {
@@ -207,6 +210,13 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
         }
         if plan.topology == "three-phase" && !check.cases.is_empty() {
             currents_checked += 1;
+            if check
+                .cases
+                .iter()
+                .any(|c| c.lowest_audible_line_hz.is_some())
+            {
+                lines_compared += 1;
+            }
         }
         if check.limit_stall_mean_a.is_some() {
             limits_checked += 1;
@@ -275,6 +285,11 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
     assert!(
         sinusoidal == 0 || currents_checked * 10 >= n * sinusoidal,
         "only {currents_checked} three-phase plans had their phase currents compared"
+    );
+    eprintln!("{lines_compared} three-phase plans with an audible carrier group compared");
+    assert!(
+        sinusoidal == 0 || lines_compared * 10 >= currents_checked,
+        "only {lines_compared} of {currents_checked} three-phase plans had an audible line to compare"
     );
     // Withholding keeps unverified figures out of the output, but each one is a place where
     // the model is outside its accuracy: at most one plan in fifty (own bound).
