@@ -302,3 +302,42 @@ fn worst_case_holds_the_sampling_window() {
         "{blocked:?}"
     );
 }
+
+/// A design that avoids a band above the hearing limit: the plan judges its
+/// lines' significance up to that band, so the register check does not compare
+/// the lowest line (it says so: not compared) and still plans; with the lines
+/// allowed, the same design's cases are compared (the carrier groups measured
+/// on the registers, `register_check::carrier_groups_rms_a`).
+#[test]
+fn avoided_bands_above_the_hearing_limit_are_not_compared() {
+    let dir = tempfile::tempdir().expect("temporary folder");
+    copy_tree(
+        &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
+        dir.path(),
+    );
+    let design = fs::read_to_string(dir.path().join("pump-bldc.yaml")).expect("design");
+    for (audible, compared) in [
+        (r#"audible: { avoid: [["24 kHz", "40 kHz"]] }"#, false),
+        ("audible: allowed", true),
+    ] {
+        let text = design.replacen("audible: inaudible", audible, 1);
+        fs::write(dir.path().join("edited.yaml"), text).expect("write design");
+        let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+            .current_dir(dir.path())
+            .args(["plan", "edited.yaml", "--json", "--no-write"])
+            .output()
+            .expect("run pwmplan");
+        assert_eq!(
+            o.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let p: serde_json::Value = serde_json::from_slice(&o.stdout).expect("plan.json parses");
+        let cases = p["register_check"]["cases"].as_array().expect("cases");
+        assert!(!cases.is_empty(), "{audible}: no case checked");
+        for c in cases {
+            assert_eq!(c["line_near_threshold"], !compared, "{audible}: {c}");
+        }
+    }
+}

@@ -85,6 +85,10 @@ pub struct RegisterView<'a> {
     pub load: &'a LoadOut,
     /// The hearing limit the audibility verdict used, Hz.
     pub hearing_limit_hz: f64,
+    /// The design avoids bands of frequencies (`constraints.audible.avoid`): a
+    /// three-phase plan then judged its lines' significance up to the highest band,
+    /// which may lie above the hearing limit, so its lowest line is not compared.
+    pub avoids_bands: bool,
     /// A three-phase bridge's own record (modulation, motor, sampling trigger).
     pub three_phase: Option<&'a ThreePhaseOut>,
     /// The current limit's record (with the board's over-current path).
@@ -103,6 +107,7 @@ impl<'a> RegisterView<'a> {
             cases: &plan.cases,
             load: &plan.load,
             hearing_limit_hz: hearing_limit_of(plan),
+            avoids_bands: avoids_bands(plan),
             three_phase: plan.three_phase.as_ref(),
             current_limit: plan.current_limit.as_ref(),
             sampling: plan.sampling.as_ref(),
@@ -132,6 +137,10 @@ pub fn check_solution(
             cases: &cases,
             load: &load,
             hearing_limit_hz: plan::hearing_limit_hz(ev),
+            avoids_bands: matches!(
+                ev.audible,
+                crate::model::physics::acoustics::AudibleMode::AvoidBands { .. }
+            ),
             three_phase: three_phase.as_ref(),
             current_limit: limit.as_ref(),
             sampling: sampling.as_ref(),
@@ -564,6 +573,15 @@ fn hearing_limit_of(plan: &Plan) -> f64 {
         .unwrap_or(DEFAULT_HEARING_LIMIT_HZ)
 }
 
+/// Whether the plan's audible constraint is the avoided-bands kind: its limit is 0 and its
+/// value the count of lines in the bands (`solve`'s audible check; an allowed one has no
+/// value, an inaudible one its hearing limit).
+fn avoids_bands(plan: &Plan) -> bool {
+    plan.constraints
+        .iter()
+        .any(|c| c.name == "audible" && c.limit == 0.0 && c.value.is_some())
+}
+
 /// The lowest significant line at or below `limit_hz` (`None`: none), and whether some line
 /// there lies within [`SIGNIFICANCE_GUARD_DB`] of the significance floor (then either verdict
 /// is right within the two methods' rounding and the line is not compared).
@@ -878,8 +896,13 @@ fn three_phase_case(
     // Carrier groups up to the hearing limit, named by the written frequency.
     let f_sw_written = 1.0 / regs.period_s();
     let groups = (v.hearing_limit_hz / f_sw_written + 1e-9).floor() as u64;
-    let rms = carrier_groups_rms_a(&sim.boundaries, n as u64, u64::from(cycles), groups);
-    let (line, near) = lowest_significant_group(&rms, f_sw_written);
+    let (line, near) = if v.avoids_bands {
+        // Not compared: see `RegisterView::avoids_bands`.
+        (None, true)
+    } else {
+        let rms = carrier_groups_rms_a(&sim.boundaries, n as u64, u64::from(cycles), groups);
+        lowest_significant_group(&rms, f_sw_written)
+    };
     Ok(CaseCheck {
         name: case.name.clone(),
         compare_duty: peak as f64 / steps,
