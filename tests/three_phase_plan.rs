@@ -21,14 +21,36 @@ fn copy_tree(from: &Path, to: &Path) {
     }
 }
 
-/// Plan `design` from a copy of `boards/` (after `edit` of the board) and
-/// return its `plan.json`.
-fn plan(design: &str, edit: Option<(&str, &str)>) -> serde_json::Value {
+/// A temporary copy of `boards/`.
+fn boards_copy() -> tempfile::TempDir {
     let dir = tempfile::tempdir().expect("temporary folder");
     copy_tree(
         &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
         dir.path(),
     );
+    dir
+}
+
+/// `pwmplan` with `args` in `dir`, exiting with `status`; its JSON output.
+fn run_json(dir: &Path, args: &[&str], status: i32) -> serde_json::Value {
+    let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
+        .current_dir(dir)
+        .args(args)
+        .output()
+        .expect("run pwmplan");
+    assert_eq!(
+        o.status.code(),
+        Some(status),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    serde_json::from_slice(&o.stdout).expect("plan JSON")
+}
+
+/// Plan `design` from a copy of `boards/` (after `edit` of the board) and
+/// return its `plan.json`.
+fn plan(design: &str, edit: Option<(&str, &str)>) -> serde_json::Value {
+    let dir = boards_copy();
     if let Some((from, to)) = edit {
         let p = dir.path().join("osprey-3p48.yaml");
         let text = fs::read_to_string(&p).expect("board");
@@ -226,11 +248,7 @@ fn sequential_conversion_doubles_the_window() {
 /// carries the corner's figure against the same limit.
 #[test]
 fn worst_case_holds_the_sampling_window() {
-    let dir = tempfile::tempdir().expect("temporary folder");
-    copy_tree(
-        &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
-        dir.path(),
-    );
+    let dir = boards_copy();
     let board = dir.path().join("osprey-3p48.yaml");
     let text = fs::read_to_string(&board).expect("board");
     let from = "settle_time: \"1.5 us\", sample_time";
@@ -240,25 +258,18 @@ fn worst_case_holds_the_sampling_window() {
         text.replacen(from, "settle_time: \"6.2 us\", sample_time", 1),
     )
     .expect("write board");
-    let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
-        .current_dir(dir.path())
-        .args([
+    let p = run_json(
+        dir.path(),
+        &[
             "plan",
             "pump-bldc.yaml",
             "--at",
             "20 kHz",
             "--json",
             "--no-write",
-        ])
-        .output()
-        .expect("run pwmplan");
-    assert_eq!(
-        o.status.code(),
-        Some(1),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
+        ],
+        1,
     );
-    let p: serde_json::Value = serde_json::from_slice(&o.stdout).expect("plan JSON");
     let nominal = p["constraints"]
         .as_array()
         .expect("constraints")
@@ -310,11 +321,7 @@ fn worst_case_holds_the_sampling_window() {
 /// on the registers, `register_check::carrier_groups_rms_a`).
 #[test]
 fn avoided_bands_above_the_hearing_limit_are_not_compared() {
-    let dir = tempfile::tempdir().expect("temporary folder");
-    copy_tree(
-        &Path::new(env!("CARGO_MANIFEST_DIR")).join("boards"),
-        dir.path(),
-    );
+    let dir = boards_copy();
     let design = fs::read_to_string(dir.path().join("pump-bldc.yaml")).expect("design");
     for (audible, compared) in [
         (r#"audible: { avoid: [["24 kHz", "40 kHz"]] }"#, false),
@@ -322,18 +329,11 @@ fn avoided_bands_above_the_hearing_limit_are_not_compared() {
     ] {
         let text = design.replacen("audible: inaudible", audible, 1);
         fs::write(dir.path().join("edited.yaml"), text).expect("write design");
-        let o = Command::new(env!("CARGO_BIN_EXE_pwmplan"))
-            .current_dir(dir.path())
-            .args(["plan", "edited.yaml", "--json", "--no-write"])
-            .output()
-            .expect("run pwmplan");
-        assert_eq!(
-            o.status.code(),
-            Some(0),
-            "{}",
-            String::from_utf8_lossy(&o.stderr)
+        let p = run_json(
+            dir.path(),
+            &["plan", "edited.yaml", "--json", "--no-write"],
+            0,
         );
-        let p: serde_json::Value = serde_json::from_slice(&o.stdout).expect("plan.json parses");
         let cases = p["register_check"]["cases"].as_array().expect("cases");
         assert!(!cases.is_empty(), "{audible}: no case checked");
         for c in cases {

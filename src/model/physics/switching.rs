@@ -445,6 +445,44 @@ pub fn current_rise_time_s(
     })
 }
 
+/// The last few results of a function of a switch, a drive and a key, each
+/// kept with copies of its inputs and returned only for equal inputs (the
+/// switch and the drive compared field by field, the cheap key first); the
+/// oldest is replaced first.
+struct RecentRing<K, V> {
+    entries: Vec<(K, SwitchModel, GateDrive, V)>,
+    /// The slot the next result replaces once the ring is full.
+    next: usize,
+}
+
+impl<K: PartialEq, V: Clone> RecentRing<K, V> {
+    const fn new() -> Self {
+        RecentRing {
+            entries: Vec::new(),
+            next: 0,
+        }
+    }
+
+    /// The result kept for these inputs.
+    fn find(&self, key: &K, sw: &SwitchModel, drive: &GateDrive) -> Option<V> {
+        self.entries
+            .iter()
+            .find(|(k, s, d, _)| k == key && s == sw && d == drive)
+            .map(|e| e.3.clone())
+    }
+
+    /// Keep `value` for these inputs, at most `size` results in all.
+    fn keep(&mut self, size: usize, key: K, sw: &SwitchModel, drive: &GateDrive, value: V) {
+        let entry = (key, sw.clone(), drive.clone(), value);
+        if self.entries.len() < size {
+            self.entries.push(entry);
+        } else {
+            self.entries[self.next] = entry;
+        }
+        self.next = (self.next + 1) % size;
+    }
+}
+
 /// The node's partner and how its followed edges are taken.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct NodeEdges {
@@ -466,16 +504,9 @@ pub fn transitions_memo(
     r_ds_on_ohm: f64,
     node: NodeEdges,
 ) -> Result<Transitions, SwitchingError> {
-    type Entry = (
-        SwitchModel,
-        GateDrive,
-        ([u64; 4], NodeEdges),
-        Result<Transitions, SwitchingError>,
-    );
+    type Ring = RecentRing<([u64; 4], NodeEdges), Result<Transitions, SwitchingError>>;
     thread_local! {
-        // A ring of recent results and the slot the next one replaces.
-        static MEMO: std::cell::RefCell<(Vec<Entry>, usize)> =
-            const { std::cell::RefCell::new((Vec::new(), 0)) };
+        static MEMO: std::cell::RefCell<Ring> = const { std::cell::RefCell::new(RecentRing::new()) };
     }
     const SIZE: usize = 16;
     let key = (
@@ -487,27 +518,11 @@ pub fn transitions_memo(
         ],
         node,
     );
-    let hit = MEMO.with(|m| {
-        m.borrow()
-            .0
-            .iter()
-            .find(|(s, d, k, _)| *k == key && s == sw && d == drive)
-            .map(|(_, _, _, r)| r.clone())
-    });
-    if let Some(r) = hit {
+    if let Some(r) = MEMO.with(|m| m.borrow().find(&key, sw, drive)) {
         return r;
     }
     let r = transitions_at_node(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm, node);
-    MEMO.with(|m| {
-        let (ring, next) = &mut *m.borrow_mut();
-        let entry = (sw.clone(), drive.clone(), key, r.clone());
-        if ring.len() < SIZE {
-            ring.push(entry);
-        } else {
-            ring[*next] = entry;
-        }
-        *next = (*next + 1) % SIZE;
-    });
+    MEMO.with(|m| m.borrow_mut().keep(SIZE, key, sw, drive, r.clone()));
     r
 }
 
@@ -597,7 +612,7 @@ pub fn transitions_at(
 
 /// [`transitions_at`] with the followed figures taken as `node.model`
 /// says: at the currents themselves, or interpolated over the switched
-/// current (`follow_edges_interpolated`).
+/// current (`follow_edges`).
 pub fn transitions_at_node(
     sw: &SwitchModel,
     drive: &GateDrive,
@@ -608,11 +623,7 @@ pub fn transitions_at_node(
     node: NodeEdges,
 ) -> Result<Transitions, SwitchingError> {
     let (mut tr, rise) = gate_charge_edges(sw, drive, v_bus_v, i_on_a, i_off_a, r_ds_on_ohm)?;
-    let follow = match node.model {
-        EdgeModel::AtEachCurrent => follow_edges,
-        EdgeModel::Interpolated => follow_edges_interpolated,
-    };
-    follow(&mut tr, &rise, sw, drive, r_ds_on_ohm, node.partner)?;
+    follow_edges(&mut tr, &rise, sw, drive, r_ds_on_ohm, node)?;
     Ok(tr)
 }
 
@@ -715,59 +726,33 @@ fn gate_charge_edges(
 
 /// Refinement 4 of [`transitions`] on the gate-charge edges `tr`: the
 /// turn-on's voltage fall and the turn-off followed at the node, where the
-/// switch file allows it (`followed_circuit`).
+/// switch file allows it (`followed_circuit`). With
+/// [`EdgeModel::Interpolated`] each followed figure is interpolated over the
+/// switched current from the edges followed at fixed currents
+/// (`edge_interpolation`, remembered for the process) where the four nodes
+/// around the current are all followed and the board gives no loop
+/// inductance; otherwise, and with [`EdgeModel::AtEachCurrent`], the edge is
+/// followed at the current itself. The interpolation is within 1e-4 of the
+/// edge pair's energy and 1e-3 of each time (tested; the times carry the
+/// integration's own step error, about 1e-3).
 fn follow_edges(
     tr: &mut Transitions,
     rise: &TurnOnRise,
     sw: &SwitchModel,
     drive: &GateDrive,
     r_ds_on_ohm: f64,
-    partner: NodePartner,
+    node: NodeEdges,
 ) -> Result<(), SwitchingError> {
-    let (v, i_on, i_off) = (tr.v_bus_v, tr.i_on_a, tr.i_off_a);
-    let fall = followed_fall(
-        sw,
-        drive,
-        v,
-        i_on,
-        rise.v_fall_start_v,
-        r_ds_on_ohm,
-        partner,
-    )?;
-    let off = shared_turn_off(sw, drive, v, i_off, r_ds_on_ohm, partner);
-    apply_followed(tr, rise, fall, off);
-    Ok(())
-}
-
-/// [`follow_edges`] with each followed figure interpolated over the
-/// switched current from the followed edges at fixed currents
-/// (`edge_interpolation`, remembered for the process), where the four
-/// nodes around the current are all followed and the board gives no loop
-/// inductance; at the current itself otherwise. Within 1e-4 of the edge
-/// pair's energy and 1e-3 of each time of [`follow_edges`] (tested; the
-/// times carry the integration's own step error, about 1e-3).
-fn follow_edges_interpolated(
-    tr: &mut Transitions,
-    rise: &TurnOnRise,
-    sw: &SwitchModel,
-    drive: &GateDrive,
-    r_ds_on_ohm: f64,
-    partner: NodePartner,
-) -> Result<(), SwitchingError> {
-    if drive.loop_inductance_h > 0.0 {
-        // With a loop the turn-off's fall is integrated in fixed time
-        // steps up to its first peak, and its figures jump by up to a few
-        // parts in a thousand between neighbouring currents as the step
-        // count changes (measured by the test below): more than an
-        // interpolation should add, so each current is followed itself.
-        return follow_edges(tr, rise, sw, drive, r_ds_on_ohm, partner);
-    }
-    turn_on_resistance_ohm(drive, sw.r_g_int_ohm)?;
-    if !turn_off_followed(sw) {
-        return Ok(());
-    }
-    let (v, i_on, i_off) = (tr.v_bus_v, tr.i_on_a, tr.i_off_a);
-    let node = |kind: FollowedKind, k: i64| {
+    let (v, i_on, i_off, partner) = (tr.v_bus_v, tr.i_on_a, tr.i_off_a, node.partner);
+    // With a loop the turn-off's fall is integrated in fixed time steps up
+    // to its first peak, and its figures jump by up to a few parts in a
+    // thousand between neighbouring currents as the step count changes
+    // (measured by the test below): more than an interpolation should add,
+    // so each current is followed itself.
+    let interpolating = node.model == EdgeModel::Interpolated
+        && drive.loop_inductance_h <= 0.0
+        && turn_off_followed(sw);
+    let at_node = |kind: FollowedKind, k: i64| {
         let key = NodeKey {
             bits: [v.to_bits(), r_ds_on_ohm.to_bits()],
             partner,
@@ -778,7 +763,12 @@ fn follow_edges_interpolated(
             followed_at_node(sw, drive, v, r_ds_on_ohm, partner, kind, k)
         })
     };
-    let fall = match edge_interpolation::interpolate(i_on, |k| node(FollowedKind::Fall, k)) {
+    let interpolated = |kind: FollowedKind, i_a: f64| {
+        interpolating
+            .then(|| edge_interpolation::interpolate(i_a, |k| at_node(kind, k)))
+            .flatten()
+    };
+    let fall = match interpolated(FollowedKind::Fall, i_on) {
         Some([e, t, ..]) => Some(commutation::VoltageFall {
             e_load_j: e,
             t_fall_s: t,
@@ -793,11 +783,21 @@ fn follow_edges_interpolated(
             partner,
         )?,
     };
-    let off = match edge_interpolation::interpolate(i_off, |k| node(FollowedKind::TurnOff, k)) {
+    let off = match interpolated(FollowedKind::TurnOff, i_off) {
         Some(f) => Some(turn_off_of_figures(f)),
         None => shared_turn_off(sw, drive, v, i_off, r_ds_on_ohm, partner),
     };
-    apply_followed(tr, rise, fall, off);
+    if let Some(f) = fall {
+        tr.e_on_j = rise.e_ri_j + f.e_load_j;
+        tr.t_fv_s = f.t_fall_s;
+    }
+    if let Some(t) = off {
+        tr.e_off_j = t.e_channel_j;
+        tr.e_off_terminal_j = t.e_terminal_j;
+        tr.v_peak_off_v = t.v_peak_v;
+        tr.t_partner_half_s = tr.t_d_off_s + t.t_half_handover_s;
+        tr.t_node_swing_s = t.t_rise_s;
+    }
     Ok(())
 }
 
@@ -879,32 +879,19 @@ fn node_memo(
     key: NodeKey,
     compute: impl FnOnce() -> Option<[f64; 5]>,
 ) -> Option<[f64; 5]> {
-    type Entry = (NodeKey, SwitchModel, GateDrive, Option<[f64; 5]>);
-    // A ring of recent nodes and the slot the next one replaces.
-    static NODES: std::sync::Mutex<(Vec<Entry>, usize)> = std::sync::Mutex::new((Vec::new(), 0));
+    static NODES: std::sync::Mutex<RecentRing<NodeKey, Option<[f64; 5]>>> =
+        std::sync::Mutex::new(RecentRing::new());
     const SIZE: usize = 256;
     let ring = || {
         NODES
             .lock()
             .unwrap_or_else(std::sync::PoisonError::into_inner)
     };
-    let hit = ring()
-        .0
-        .iter()
-        .find(|(k, s, d, _)| *k == key && s == sw && d == drive)
-        .map(|e| e.3);
-    if let Some(r) = hit {
+    if let Some(r) = ring().find(&key, sw, drive) {
         return r;
     }
     let r = compute();
-    let (ring, next) = &mut *ring();
-    let entry = (key, sw.clone(), drive.clone(), r);
-    if ring.len() < SIZE {
-        ring.push(entry);
-    } else {
-        ring[*next] = entry;
-    }
-    *next = (*next + 1) % SIZE;
+    ring().keep(SIZE, key, sw, drive, r);
     r
 }
 
@@ -922,26 +909,6 @@ fn followed_fall(
     let r_on = turn_on_resistance_ohm(drive, sw.r_g_int_ohm)?;
     let c = followed_circuit(sw, drive, r_on, v_bus_v, i_on_a, r_ds_on_ohm, partner);
     Ok(c.and_then(|c| commutation::voltage_fall(&c, drive.v_drive_v, v_start_v)))
-}
-
-/// The followed figures on the gate-charge edges `tr` (each where followed).
-fn apply_followed(
-    tr: &mut Transitions,
-    rise: &TurnOnRise,
-    fall: Option<commutation::VoltageFall>,
-    off: Option<commutation::TurnOff>,
-) {
-    if let Some(f) = fall {
-        tr.e_on_j = rise.e_ri_j + f.e_load_j;
-        tr.t_fv_s = f.t_fall_s;
-    }
-    if let Some(t) = off {
-        tr.e_off_j = t.e_channel_j;
-        tr.e_off_terminal_j = t.e_terminal_j;
-        tr.v_peak_off_v = t.v_peak_v;
-        tr.t_partner_half_s = tr.t_d_off_s + t.t_half_handover_s;
-        tr.t_node_swing_s = t.t_rise_s;
-    }
 }
 
 /// When a channel carrying `i_a` lets its own body diode take the current
