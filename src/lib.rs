@@ -33,6 +33,8 @@ pub use commands as cli;
 #[doc(hidden)]
 pub use input::{bundled, design, diagnostic, load, locate, spec, units};
 #[doc(hidden)]
-pub use model::{physics, register_check, solve, spread, sweep, timer, verify};
+pub use model::{
+    physics, register_basis, register_check, register_six_step, solve, spread, sweep, timer, verify,
+};
 #[doc(hidden)]
 pub use output::{emit, html, plan, report, svg};

@@ -812,6 +812,10 @@ pub struct ThreePhaseCase {
     /// (written only when true).
     #[serde(default, skip_serializing_if = "std::ops::Not::not")]
     pub dead_time_harmonics_unsettled: bool,
+    /// Six-step: the on-resistance of a high side and of a low side that the chopping duty
+    /// was solved with (each at its own junction temperature), Ω.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub r_ds_on_sides_ohm: Option<[f64; 2]>,
 }
 
 /// Six-step: how long the off-going phase's current takes to reach zero
@@ -1606,6 +1610,7 @@ impl Evaluator {
             closed_form_deviation_rel: Some(report.closed_form_deviation_rel),
             voltage_lead_rad: Some(command.voltage_lead_rad),
             dead_time_harmonics_unsettled: !command.harmonics_settled,
+            r_ds_on_sides_ohm: None,
         };
         self.three_phase_result(case, m, sides, ripple_fig, copper, acoustic, extra)
     }
@@ -1737,7 +1742,7 @@ impl Evaluator {
         let (r_th, t_max) = (st.thermal.r_th_ja_k_per_w, st.switch.t_j_max_c);
         let r_at = |t: f64| thermal::r_ds_on_ohm(&st.switch, t);
         let (mut t_hi, mut t_lo) = (case.t_ambient_c, case.t_ambient_c);
-        let mut last: Option<(three_phase::SixStepSimulation, _, _)> = None;
+        let mut last: Option<(three_phase::SixStepSimulation, _, _, [f64; 2])> = None;
         for _ in 0..2 {
             let guess = last.as_ref().map(|l| l.0.duty);
             let r_ds = [r_at(t_hi), r_at(t_lo)];
@@ -1770,13 +1775,16 @@ impl Evaluator {
             let (jh, jl) = (side(true), side(false));
             t_hi = jh.t_j_c().unwrap_or(t_max);
             t_lo = jl.t_j_c().unwrap_or(t_max);
-            last = Some((sim, jh, jl));
+            last = Some((sim, jh, jl, r_ds));
         }
-        let (sim, jh, jl) = last?;
+        let (sim, jh, jl, r_ds) = last?;
         let l = sim.losses(&bridge, r_at(t_hi), r_at(t_lo)).ok()?;
         let motor = self.motor_params(tp);
         let r_path = r_at(t_hi) + r_at(t_lo);
-        let d = sim.duty;
+        // The chopping switch's turn-on waits the dead time (the dead-time generator delays
+        // each output's rising edge, common practice), so the line sees its on-state for
+        // D·T − t_dead: the ripple's duty (the switch-by-switch simulation holds the rest).
+        let d = (sim.duty - t_dead_s * f_hz).clamp(0.0, 1.0);
         let w = three_phase::six_step_ripple(&bridge, &motor, tp.omega_e_rad_s, d, chop, r_path)
             .ok()?;
         let shift = sim.held_mean_a - w.i_avg_a();
@@ -1806,9 +1814,9 @@ impl Evaluator {
             modulation: "six-step".into(),
             modulation_index: None,
             power_factor: None,
-            chop_duty: Some(d),
-            leg_duty_max: tp.modulation.leg_duty_max(d),
-            sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(d),
+            chop_duty: Some(sim.duty),
+            leg_duty_max: tp.modulation.leg_duty_max(sim.duty),
+            sampled_leg_duty_max: tp.modulation.sampled_leg_duty_max(sim.duty),
             electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
             current_a: case.load_current_a,
             dc_link_mean_a: sim.dc_link_mean_a,
@@ -1822,8 +1830,17 @@ impl Evaluator {
             closed_form_deviation_rel: None,
             voltage_lead_rad: None,
             dead_time_harmonics_unsettled: false,
+            r_ds_on_sides_ohm: Some(r_ds),
         };
-        self.three_phase_result(case, d, sides, ripple_fig, copper, acoustic.into(), extra)
+        self.three_phase_result(
+            case,
+            sim.duty,
+            sides,
+            ripple_fig,
+            copper,
+            acoustic.into(),
+            extra,
+        )
     }
 
     /// Assemble the case: the six device rows, the loss split (lines add up

@@ -78,8 +78,9 @@
 //! currents, at the trigger. Convention: PWM period `n` runs from counter bottom to counter
 //! bottom and shows compare `n`'s waveform (a compare update takes effect at the bottom); a
 //! high-side turn-on delayed past the bottom (dead time longer than the compare interval) is
-//! taken with the new period's compare (assumption). Two phases blocked at once (deep
-//! discontinuous conduction) is refused, not simulated.
+//! taken with the new period's compare (assumption). [`verify_three_phase_drives`] also
+//! enables each leg's outputs per PWM period, as six-step drives a bridge (a chopped output,
+//! a held one, a floating leg), and the back-EMF may be trapezoidal ([`EmfShape`]).
 
 use crate::model::timer::Alignment;
 use std::fmt;
@@ -269,9 +270,6 @@ pub enum VerifyError {
     NoSteadyState,
     /// A sampling trigger's counter value beyond the counter's range.
     Trigger(u64),
-    /// Two phases of a three-phase bridge blocked at once (deep discontinuous conduction):
-    /// not simulated.
-    DeepDiscontinuous,
     /// More diode events in one interval than the three-phase solver handles (should not
     /// happen; reported, never hidden).
     TooManyEvents,
@@ -301,10 +299,6 @@ impl fmt::Display for VerifyError {
             VerifyError::Trigger(c) => {
                 write!(f, "trigger counter value {c} beyond the counter's range")
             }
-            VerifyError::DeepDiscontinuous => write!(
-                f,
-                "two phases blocked at once (deep discontinuous conduction) is not simulated"
-            ),
             VerifyError::TooManyEvents => {
                 write!(f, "too many diode events in one switching interval")
             }
@@ -1414,9 +1408,9 @@ fn leg_sample(arcs: &LegArcs, t_s: f64, period_s: f64) -> LegSample {
 // Three-phase: phase currents
 // ---------------------------------------------------------------------------------------------
 
-/// A star-connected three-phase motor (neutral floating), per phase, with a sinusoidal
-/// back-EMF `e_k(t) = emf_peak_v·sin(ω·t + emf_angle_rad − k·2π/3)`, `k` = 0, 1, 2 for legs
-/// a, b, c, `ω = 2π/(N·T)` with `N` PWM periods per electrical period.
+/// A star-connected three-phase motor (neutral floating), per phase, with a back-EMF
+/// `e_k(t) = emf_peak_v·s(ω·t + emf_angle_rad − k·2π/3)`, `s` the shape ([`EmfShape`]),
+/// `k` = 0, 1, 2 for legs a, b, c, `ω = 2π/(N·T)` with `N` PWM periods per electrical period.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ThreePhaseLoad {
     /// Phase resistance, Ω (> 0).
@@ -1427,14 +1421,56 @@ pub struct ThreePhaseLoad {
     pub emf_peak_v: f64,
     /// Angle of phase a's back-EMF at `t = 0`, rad.
     pub emf_angle_rad: f64,
+    pub emf_shape: EmfShape,
+}
+
+/// The shape `s(θ)` of each phase's back-EMF, of unit peak.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum EmfShape {
+    /// `sin θ`.
+    Sinusoidal,
+    /// The 120°-flat trapezoid rising through zero at θ = 0, linear over ±30° (common
+    /// practice for block-commutated motors), taken as its Fourier series up to
+    /// [`TRAPEZOID_HARMONICS`] without the multiples of three, which a star winding with a
+    /// floating neutral cancels in every line quantity ([`emf_harmonics`]).
+    Trapezoidal,
+}
+
+/// Highest harmonic of the trapezoidal back-EMF kept (our own bound: the coefficients fall
+/// as 1/h², the 97th is 2.6·10⁻⁴ of the peak).
+pub const TRAPEZOID_HARMONICS: u32 = 97;
+
+/// `(h, b_h)` with `s(θ) = Σ b_h·sin(h·θ)`. The trapezoid is odd and half-wave symmetric, so
+/// only odd `h`, `b_h = (4/π)∫₀^{π/2} s(θ)·sin(hθ) dθ = 4·sin(hα)/(π·α·h²)` with the ramp
+/// `α = π/6` (Fourier sine series, own evaluation of the integral); the multiples of three
+/// are left out (see [`EmfShape::Trapezoidal`]).
+pub fn emf_harmonics(shape: EmfShape) -> &'static [(u32, f64)] {
+    static TRAPEZOID: std::sync::OnceLock<Vec<(u32, f64)>> = std::sync::OnceLock::new();
+    match shape {
+        EmfShape::Sinusoidal => &[(1, 1.0)],
+        EmfShape::Trapezoidal => TRAPEZOID.get_or_init(|| {
+            let alpha = std::f64::consts::PI / 6.0;
+            (1..=TRAPEZOID_HARMONICS)
+                .filter(|h| h % 2 == 1 && h % 3 != 0)
+                .map(|h| {
+                    let hf = f64::from(h);
+                    let b = 4.0 * (hf * alpha).sin() / (std::f64::consts::PI * alpha * hf * hf);
+                    (h, b)
+                })
+                .collect()
+        }),
+    }
 }
 
 /// The bridge's supply and switches, SI units.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct BridgeSwitches {
     pub v_bus_v: f64,
-    /// On-resistance of each conducting switch, Ω.
+    /// On-resistance of each conducting high-side switch, Ω.
     pub r_ds_on_ohm: f64,
+    /// On-resistance of each conducting low-side switch, Ω (the high side's when the two
+    /// sides run at one junction temperature).
+    pub r_ds_on_low_ohm: f64,
     /// Body-diode forward voltage, V.
     pub v_sd_v: f64,
 }
@@ -1465,6 +1501,9 @@ pub struct ThreePhaseVerification {
     pub boundaries: Vec<(f64, [f64; 3])>,
     /// Largest phase-current change over one electrical period from the solution, A.
     pub residual_a: f64,
+    /// All three currents stopped together somewhere in the period (two phases blocked at
+    /// once: deep discontinuous conduction).
+    pub currents_stopped: bool,
 }
 
 /// What a recording run of the three-phase solver collects.
@@ -1552,14 +1591,17 @@ enum Mode {
 /// phase currents `i = B·z`, `M = L·BᵀB`, `K = Bᵀ·diag(R + r_k)·B` (loop equations through the
 /// floating neutral: `Bᵀ·1 = 0` removes its voltage; own derivation). The exact solution is
 /// `z(t) = z_p(t) + e^(A(t−t0))·(z(t0) − z_p(t0))`, `A = −M⁻¹K`, with the particular
-/// solution `z_p(t) = K⁻¹Bᵀa + Im(w·e^(jωt))`, `(jωI − A)·w = −E·e^(jφ)·M⁻¹Bᵀu`,
-/// `u_k = e^(−j2πk/3)` (linear ODE with sinusoidal forcing: common practice).
-#[derive(Debug, Clone, Copy)]
+/// solution `z_p(t) = K⁻¹Bᵀa + Σ_h Im(w_h·e^(jhωt))`, `(jhωI − A)·w_h =
+/// −E·b_h·e^(jhφ)·M⁻¹Bᵀu_h`, `u_{h,k} = e^(−j2πhk/3)`, one term per harmonic `(h, b_h)` of the
+/// back-EMF's shape ([`emf_harmonics`]; linear ODE with sinusoidal forcing, superposed:
+/// common practice).
+#[derive(Debug, Clone)]
 struct Coupled {
     basis: [[f64; 2]; 3],
     a: M2,
     z_const: V2,
-    w: [Complex; 2],
+    /// Per harmonic, in rising order: `h` and `w_h`.
+    w: Vec<(u32, [Complex; 2])>,
     omega: f64,
     /// Per phase `(a_k, r_k)`: the leg voltage `a_k − r_k·i_k`.
     legs: [(f64, f64); 3],
@@ -1593,13 +1635,10 @@ impl Coupled {
         let mut m = [[0.0; 2]; 2];
         let mut k = [[0.0; 2]; 2];
         let mut bta = [0.0; 2];
-        let mut btu = [Complex::new(0.0, 0.0); 2];
         for (p, row) in b.iter().enumerate() {
             let g = load.r_ohm + legs[p].1;
-            let u = Complex::unit(2.0 * std::f64::consts::PI * p as f64 / 3.0);
             for r in 0..2 {
                 bta[r] += row[r] * legs[p].0;
-                btu[r] = btu[r].add(u.scale(row[r]));
                 for c in 0..2 {
                     m[r][c] += load.l_h * row[r] * row[c];
                     k[r][c] += g * row[r] * row[c];
@@ -1614,20 +1653,42 @@ impl Coupled {
         let m_inv = m2_inv(&m);
         let mk = m2_mul(&m_inv, &k);
         let a = [[-mk[0][0], -mk[0][1]], [-mk[1][0], -mk[1][1]]];
-        let emf =
-            Complex::new(0.0, 0.0).sub(Complex::unit(-load.emf_angle_rad).scale(load.emf_peak_v));
-        let c = [0, 1].map(|r| {
-            m_inv[r][0..2]
-                .iter()
-                .zip(btu)
-                .fold(Complex::new(0.0, 0.0), |acc, (&x, u)| acc.add(u.scale(x)))
-                .mul(emf)
-        });
+        // u_{h,k} = e^(−j2πhk/3) repeats with h mod 3.
+        let btu_of = |h: u32| {
+            let mut btu = [Complex::new(0.0, 0.0); 2];
+            for (p, row) in b.iter().enumerate() {
+                let u =
+                    Complex::unit(2.0 * std::f64::consts::PI * f64::from(h % 3) * p as f64 / 3.0);
+                for r in 0..2 {
+                    btu[r] = btu[r].add(u.scale(row[r]));
+                }
+            }
+            btu
+        };
+        let btu_by_residue = [btu_of(0), btu_of(1), btu_of(2)];
+        let mut angle_powers = HarmonicPowers::new(Complex::unit(-load.emf_angle_rad));
+        let w = emf_harmonics(load.emf_shape)
+            .iter()
+            .map(|&(h, b_h)| {
+                let hf = f64::from(h);
+                let btu = btu_by_residue[(h % 3) as usize];
+                let emf =
+                    Complex::new(0.0, 0.0).sub(angle_powers.at(h).scale(load.emf_peak_v * b_h));
+                let c = [0, 1].map(|r| {
+                    m_inv[r][0..2]
+                        .iter()
+                        .zip(btu)
+                        .fold(Complex::new(0.0, 0.0), |acc, (&x, u)| acc.add(u.scale(x)))
+                        .mul(emf)
+                });
+                (h, complex_solve(&a, hf * omega, c))
+            })
+            .collect();
         Coupled {
             basis: b,
             a,
             z_const: m2_mul_v(&m2_inv(&k), bta),
-            w: complex_solve(&a, omega, c),
+            w,
             omega,
             legs,
             mode,
@@ -1635,13 +1696,26 @@ impl Coupled {
     }
 
     fn particular(&self, t: f64) -> V2 {
-        let e = Complex::unit(-self.omega * t);
-        [0, 1].map(|r| self.z_const[r] + self.w[r].mul(e).im)
+        let mut z = self.z_const;
+        let mut powers = HarmonicPowers::new(Complex::unit(-self.omega * t));
+        for (h, w) in &self.w {
+            let e = powers.at(*h);
+            for r in 0..2 {
+                z[r] += w[r].mul(e).im;
+            }
+        }
+        z
     }
 
-    fn z_at(&self, z0: V2, t0: f64, t: f64) -> V2 {
+    /// The free part of the solution from `z0` at `t0`: `z(t0) − z_p(t0)`, which
+    /// [`Coupled::z_from`] carries to any later instant.
+    fn free_part(&self, z0: V2, t0: f64) -> V2 {
         let p0 = self.particular(t0);
-        let d = m2_mul_v(&m2_exp(&self.a, t - t0), [z0[0] - p0[0], z0[1] - p0[1]]);
+        [z0[0] - p0[0], z0[1] - p0[1]]
+    }
+
+    fn z_from(&self, free: V2, t0: f64, t: f64) -> V2 {
+        let d = m2_mul_v(&m2_exp(&self.a, t - t0), free);
         let p = self.particular(t);
         [p[0] + d[0], p[1] + d[1]]
     }
@@ -1662,7 +1736,49 @@ impl Coupled {
 
 fn phase_emf(load: &ThreePhaseLoad, omega: f64, k: usize, t: f64) -> f64 {
     let angle = omega * t + load.emf_angle_rad - 2.0 * std::f64::consts::PI * k as f64 / 3.0;
-    load.emf_peak_v * angle.sin()
+    // sin(h·x) = −Im(e^(−jx)^h).
+    let mut powers = HarmonicPowers::new(Complex::unit(angle));
+    -emf_harmonics(load.emf_shape)
+        .iter()
+        .map(|&(h, b_h)| b_h * powers.at(h).im)
+        .sum::<f64>()
+        * load.emf_peak_v
+}
+
+/// `z^h` for rising `h` by repeated multiplication from the last power (one sine and cosine
+/// per instant instead of one per harmonic; |z| = 1, so the rounding stays near 1e-15 per
+/// step).
+struct HarmonicPowers {
+    base: Complex,
+    last_h: u32,
+    last: Complex,
+}
+
+impl HarmonicPowers {
+    fn new(base: Complex) -> Self {
+        HarmonicPowers {
+            base,
+            last_h: 0,
+            last: Complex::new(1.0, 0.0),
+        }
+    }
+
+    /// `base^h`, `h` not below the last one asked for.
+    fn at(&mut self, h: u32) -> Complex {
+        let mut step = Complex::new(1.0, 0.0);
+        let mut p = self.base;
+        let mut n = h.saturating_sub(self.last_h);
+        while n > 0 {
+            if n & 1 == 1 {
+                step = step.mul(p);
+            }
+            p = p.mul(p);
+            n >>= 1;
+        }
+        self.last = self.last.mul(step);
+        self.last_h = h;
+        self.last
+    }
 }
 
 fn z_of(mode: Mode, i: [f64; 3]) -> V2 {
@@ -1682,16 +1798,128 @@ struct Interval3 {
     sample: Option<[LegSample; 3]>,
 }
 
+/// One leg's drive over a PWM period: its compare and polarity, and which of its two outputs
+/// are enabled. A disabled output stays off whatever the compare; six-step floats a leg with
+/// both disabled and chops one output with the other disabled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct LegDrive {
+    pub compare: LegCompare,
+    pub high_enabled: bool,
+    pub low_enabled: bool,
+}
+
+impl LegDrive {
+    /// Both outputs enabled: a complementary leg at normal polarity.
+    pub fn complementary(compare: u64) -> Self {
+        LegDrive {
+            compare: LegCompare::new(compare),
+            high_enabled: true,
+            low_enabled: true,
+        }
+    }
+}
+
+/// The leg's arcs with its disabled outputs removed.
+fn drive_arcs(regs: &TimerRegisters, d: LegDrive) -> Result<LegArcs, VerifyError> {
+    let mut arcs = leg_arcs(regs, d.compare, true)?;
+    if !d.high_enabled {
+        arcs.high = Arc {
+            start_s: 0.0,
+            len_s: 0.0,
+        };
+    }
+    if !d.low_enabled {
+        arcs.low = None;
+    }
+    Ok(arcs)
+}
+
+/// How long a reference arc has held its level at the end of the period, and until when it
+/// holds it from the start, s: `(high_for, high_until, low_for, low_until)` (a period-long
+/// level counts as the whole period).
+fn level_run(reference: Arc, period_s: f64) -> (f64, f64, f64, f64) {
+    let end = period_s * (1.0 - 1e-12);
+    let (high_at_end, high_at_start) = (
+        reference.contains(end, period_s),
+        reference.contains(0.0, period_s),
+    );
+    let full = reference.len_s >= period_s;
+    let stop = (reference.start_s + reference.len_s).rem_euclid(period_s);
+    let high_for = if full {
+        period_s
+    } else if high_at_end {
+        period_s - reference.start_s
+    } else {
+        0.0
+    };
+    let high_until = if full {
+        period_s
+    } else if high_at_start {
+        stop
+    } else {
+        0.0
+    };
+    let low = reference.complement(period_s);
+    let low_stop = (low.start_s + low.len_s).rem_euclid(period_s);
+    let empty = reference.len_s <= 0.0;
+    let low_for = if empty {
+        period_s
+    } else if !high_at_end {
+        period_s - low.start_s
+    } else {
+        0.0
+    };
+    let low_until = if empty {
+        period_s
+    } else if !high_at_start {
+        low_stop
+    } else {
+        0.0
+    };
+    (high_for, high_until, low_for, low_until)
+}
+
+/// A leg's state at `t_s` within the first dead time of a centre-aligned period, where the
+/// dead-time generator still looks back across the counter bottom into the previous period
+/// (its reference arc `previous`): an output is on when its reference level has held since
+/// the dead time before `t_s`, counting the time it held at the end of the previous period
+/// (dead-time insertion on the continuous reference, common practice). The reference runs
+/// whether or not an output is enabled (dead-time generators sit ahead of the output
+/// enables: common practice).
+fn entry_state(
+    d: LegDrive,
+    now: Arc,
+    previous: Arc,
+    dead_s: f64,
+    t_s: f64,
+    period_s: f64,
+) -> LegState {
+    let (_, high_until, _, low_until) = level_run(now, period_s);
+    let (high_for, _, low_for, _) = level_run(previous, period_s);
+    if d.high_enabled && t_s < high_until && high_for + t_s >= dead_s {
+        LegState::High
+    } else if d.low_enabled && t_s < low_until && low_for + t_s >= dead_s {
+        LegState::Low
+    } else {
+        LegState::Dead
+    }
+}
+
 fn period_intervals(
     regs: &TimerRegisters,
-    compares: [u64; 3],
+    drives: [LegDrive; 3],
+    previous: [LegDrive; 3],
     trigger_s: f64,
     offset_s: f64,
 ) -> Result<Vec<Interval3>, VerifyError> {
     let t = regs.period_s();
     let mut arcs = Vec::with_capacity(3);
-    for c in compares {
-        arcs.push(leg_arcs(regs, LegCompare::new(c), true)?);
+    for d in drives {
+        arcs.push(drive_arcs(regs, d)?);
+    }
+    let mut before = Vec::with_capacity(3);
+    for p in previous {
+        before.push(reference_arc(regs, p.compare)?);
     }
     let mut cuts = vec![0.0, t, trigger_s];
     for leg in &arcs {
@@ -1699,6 +1927,20 @@ fn period_intervals(
             if let Some((r, f)) = arc.edges(t) {
                 cuts.extend([r, f]);
             }
+        }
+    }
+    // Centre alignment: the first dead time of the period depends on the previous compare.
+    let dead = regs.dead_time_s;
+    let entry = regs.alignment == Alignment::Centre && dead > 0.0 && dead < t;
+    if entry {
+        cuts.push(dead);
+        for b in &before {
+            let (high_for, _, low_for, _) = level_run(*b, t);
+            cuts.extend(
+                [dead - high_for, dead - low_for]
+                    .into_iter()
+                    .filter(|&x| x > 0.0 && x < dead),
+            );
         }
     }
     cuts.sort_by(f64::total_cmp);
@@ -1714,10 +1956,17 @@ fn period_intervals(
         .enumerate()
         .map(|(n, w)| {
             let mid = 0.5 * (w[0] + w[1]);
+            let state = |k: usize| {
+                if entry && mid < dead {
+                    entry_state(drives[k], arcs[k].reference, before[k], dead, mid, t)
+                } else {
+                    arcs[k].state_at(mid, t)
+                }
+            };
             Interval3 {
                 t0_s: offset_s + w[0],
                 t1_s: offset_s + w[1],
-                legs: [0, 1, 2].map(|k| arcs[k].state_at(mid, t)),
+                legs: [0, 1, 2].map(state),
                 sample: (Some(n) == sample_at)
                     .then(|| [0, 1, 2].map(|k| leg_sample(&arcs[k], trigger_s, t))),
             }
@@ -1732,7 +1981,13 @@ struct Sim3<'a> {
     /// The switches as a `Circuit` for [`leg_terminal`] (only `v_bus_v`, `r_ds_on_ohm`,
     /// `v_sd_v` are read).
     switches: Circuit,
+    /// On-resistance of a conducting low side, Ω (`switches` holds the high side's).
+    r_low_ohm: f64,
     omega: f64,
+    /// The largest current any state drives toward, A (`(V + V_sd + E)/R`).
+    current_scale_a: f64,
+    /// Set when every current stopped at once somewhere in a run.
+    stopped: std::cell::Cell<bool>,
 }
 
 /// The event functions of one mode: currents through floating legs keep their sign; a blocked
@@ -1766,7 +2021,12 @@ impl Sim3<'_> {
     fn coupled(&self, mode: Mode, legs: [LegState; 3], positive: [bool; 3]) -> Coupled {
         let terms = [0, 1, 2].map(|p| {
             let t = leg_terminal(legs[p], positive[p], &self.switches);
-            (t.a_v, t.r_ohm)
+            let r = if legs[p] == LegState::Low {
+                self.r_low_ohm
+            } else {
+                t.r_ohm
+            };
+            (t.a_v, r)
         });
         Coupled::new(mode, terms, self.load, self.omega)
     }
@@ -1778,7 +2038,7 @@ impl Sim3<'_> {
         legs: [LegState; 3],
         i: [f64; 3],
         t: f64,
-    ) -> Result<(Coupled, Watch), VerifyError> {
+    ) -> Result<Option<(Coupled, Watch)>, VerifyError> {
         let mut positive = i.map(|x| x > 0.0);
         let zero: Vec<usize> = (0..3)
             .filter(|&p| legs[p] == LegState::Dead && i[p] == 0.0)
@@ -1797,7 +2057,20 @@ impl Sim3<'_> {
                     mode = Mode::Open(*k);
                 }
             }
-            _ => return Err(VerifyError::DeepDiscontinuous),
+            _ => {
+                self.stopped.set(true);
+                // Every current is zero (two are, and they sum to zero): the first floating
+                // leg whose open voltage passes a diode threshold conducts with the driven
+                // leg, the other stays blocked; none: the bridge idles.
+                let Some(v) = self.idle_voltages(legs, t) else {
+                    return Ok(None);
+                };
+                let Some(&(k, _)) = v.iter().find(|&&(_, x)| self.idle_margin(x) <= 0.0) else {
+                    return Ok(None);
+                };
+                positive[k] = v.iter().any(|&(p, x)| p == k && x < 0.0);
+                mode = Mode::Open(v.iter().map(|&(p, _)| p).find(|&p| p != k).unwrap_or(k));
+            }
         }
         let coupled = self.coupled(mode, legs, positive);
         let open = match mode {
@@ -1808,7 +2081,86 @@ impl Sim3<'_> {
             .filter(|&p| legs[p] == LegState::Dead && Some(p) != open)
             .map(|p| (p, if positive[p] { 1.0 } else { -1.0 }))
             .collect();
-        Ok((coupled, Watch { signs, open }))
+        Ok(Some((coupled, Watch { signs, open })))
+    }
+
+    /// With every current zero and one leg driven, the open voltage of each floating leg
+    /// `(leg, v)`: no current flows, so the neutral sits at the driven leg's voltage less its
+    /// back-EMF and each floating terminal at the neutral plus its own (Kirchhoff's laws;
+    /// own derivation). `None` with no leg driven (the bridge then stays idle: a line-to-line
+    /// back-EMF above the bus plus two diode drops, which would rectify into the bus, is not
+    /// simulated; assumption).
+    fn idle_voltages(&self, legs: [LegState; 3], t: f64) -> Option<[(usize, f64); 2]> {
+        let driven: Vec<usize> = (0..3).filter(|&p| legs[p] != LegState::Dead).collect();
+        let [j] = driven.as_slice() else {
+            return None;
+        };
+        let a_v = leg_terminal(legs[*j], true, &self.switches).a_v;
+        let v_n = a_v - phase_emf(self.load, self.omega, *j, t);
+        let (k1, k2) = others(*j);
+        let open = |k: usize| (k, v_n + phase_emf(self.load, self.omega, k, t));
+        Some([open(k1), open(k2)])
+    }
+
+    /// Whether no event can lie between `a` and `b` (currents and time at the ends of a
+    /// piece in one mode): each watched quantity, with ends `f_a`, `f_b` and a bound `k` on
+    /// its rate of change, stays above `(f_a + f_b − k·Δt)/2` over the piece (the least a
+    /// function with |f′| ≤ k can reach between two values; own derivation), so when that
+    /// is positive the grid search is skipped.
+    fn quiet(&self, c: &Coupled, watch: &Watch, a: ([f64; 3], f64), b: ([f64; 3], f64)) -> bool {
+        let dt = b.1 - a.1;
+        let i_max =
+            a.0.iter()
+                .chain(&b.0)
+                .fold(self.current_scale_a, |m, x| m.max(x.abs()));
+        let sw = &self.switches;
+        let r_max = sw.r_ds_on_ohm.max(self.r_low_ohm);
+        // |L·di/dt| ≤ the largest leg-to-leg voltage, back-EMFs and resistive drops (a
+        // generous bound: each term at its extreme at once).
+        let rate_i = (2.0 * (sw.v_bus_v + 2.0 * sw.v_sd_v)
+            + 3.0 * self.emf_peak_bound_v()
+            + 3.0 * (self.load.r_ohm + r_max) * i_max)
+            / self.load.l_h;
+        let rate_v = r_max * rate_i + 2.0 * self.emf_rate_v_per_s();
+        let stays = |fa: f64, fb: f64, k: f64| 0.5 * (fa + fb - k * dt) > 0.0;
+        let currents = watch
+            .signs
+            .iter()
+            .all(|&(p, sign)| stays(a.0[p] * sign, b.0[p] * sign, rate_i));
+        currents
+            && watch.open.is_none_or(|k| {
+                let m = |(i, t): ([f64; 3], f64)| {
+                    self.idle_margin(c.floating_leg_v(k, i, t, self.load))
+                };
+                stays(m(a), m(b), rate_v)
+            })
+    }
+
+    /// A bound on any phase's back-EMF, V (the trapezoid's truncated series overshoots its
+    /// peak by under 1 %; 5 % allowed).
+    fn emf_peak_bound_v(&self) -> f64 {
+        let shape = match self.load.emf_shape {
+            EmfShape::Sinusoidal => 1.0,
+            EmfShape::Trapezoidal => 1.05,
+        };
+        shape * self.load.emf_peak_v.abs()
+    }
+
+    /// A bound on any phase back-EMF's rate of change, V/s: E·ω for the sine; the
+    /// trapezoid's ramp is E per 30°, E·ω·6/π, and its truncated series overshoots that
+    /// slope (Gibbs; 2.5 allowed against 1.91).
+    fn emf_rate_v_per_s(&self) -> f64 {
+        let slope = match self.load.emf_shape {
+            EmfShape::Sinusoidal => 1.0,
+            EmfShape::Trapezoidal => 2.5,
+        };
+        slope * self.load.emf_peak_v.abs() * self.omega
+    }
+
+    /// How far an open terminal voltage lies inside the diode thresholds (≤ 0: a diode
+    /// conducts).
+    fn idle_margin(&self, v: f64) -> f64 {
+        (v + self.switches.v_sd_v).min(self.switches.v_bus_v + self.switches.v_sd_v - v)
     }
 
     fn event_min(&self, c: &Coupled, watch: &Watch, i: [f64; 3], t: f64) -> f64 {
@@ -1831,11 +2183,36 @@ impl Sim3<'_> {
         let (mut t, t1) = (iv.t0_s, iv.t1_s);
         let mut i = i0;
         for _ in 0..MAX_EVENTS_PER_INTERVAL {
-            let (c, watch) = self.choose(iv.legs, i, t)?;
-            let z0 = z_of(c.mode, i);
-            let at = |tt: f64| c.currents(c.z_at(z0, t, tt));
+            let Some((c, watch)) = self.choose(iv.legs, i, t)? else {
+                // Idle until a floating leg's open voltage reaches a diode threshold.
+                let margin = |tt: f64| {
+                    self.idle_voltages(iv.legs, tt).map_or(f64::INFINITY, |v| {
+                        v.iter()
+                            .map(|&(_, x)| self.idle_margin(x))
+                            .fold(f64::INFINITY, f64::min)
+                    })
+                };
+                // The open voltages move with the back-EMFs only (no current flows).
+                let rate = 2.0 * self.emf_rate_v_per_s();
+                if 0.5 * (margin(t) + margin(t1) - rate * (t1 - t)) > 0.0 {
+                    return Ok([0.0; 3]);
+                }
+                match first_event(t, t1, margin) {
+                    Some(te) => {
+                        t = te;
+                        continue;
+                    }
+                    None => return Ok([0.0; 3]),
+                }
+            };
+            let free = c.free_part(z_of(c.mode, i), t);
+            let at = |tt: f64| c.currents(c.z_from(free, t, tt));
             if watch.signs.is_empty() && watch.open.is_none() {
                 return Ok(at(t1));
+            }
+            let end = at(t1);
+            if self.quiet(&c, &watch, (i, t), (end, t1)) {
+                return Ok(end);
             }
             let f = |tt: f64| self.event_min(&c, &watch, at(tt), tt);
             let Some(te) = first_event(t, t1, f) else {
@@ -1844,7 +2221,11 @@ impl Sim3<'_> {
             i = at(te);
             for &(p, s) in &watch.signs {
                 if i[p] * s <= 0.0 {
-                    i = zero_phase(i, p);
+                    // With a phase already blocked, the last two currents stop together.
+                    i = match c.mode {
+                        Mode::Open(_) => [0.0; 3],
+                        Mode::Full => zero_phase(i, p),
+                    };
                 }
             }
             t = te;
@@ -1914,8 +2295,9 @@ fn three_phase_sample(legs: [LegSample; 3], i: [f64; 3], t: f64) -> ThreePhaseSa
 /// bisected, so two events closer than 1/16 of such an interval would be missed (assumption:
 /// floating intervals are dead times, short against τ). The fixed point over the electrical
 /// period is found by Newton steps with a difference Jacobian, falling back to plain
-/// iteration (the map is a contraction). Two phases blocked at once (deep discontinuous
-/// conduction) is refused with [`VerifyError::DeepDiscontinuous`].
+/// iteration (the map is a contraction). When two phases are blocked at once every current
+/// is zero: the bridge idles until a floating leg's open voltage reaches a diode threshold
+/// ([`Sim3::idle_voltages`]).
 pub fn verify_three_phase(
     regs: &TimerRegisters,
     compares: &[[u64; 3]],
@@ -1937,6 +2319,23 @@ pub fn verify_three_phase_cycles(
     switches: &BridgeSwitches,
     cycles: u32,
 ) -> Result<ThreePhaseVerification, VerifyError> {
+    let drives: Vec<[LegDrive; 3]> = compares
+        .iter()
+        .map(|c| c.map(LegDrive::complementary))
+        .collect();
+    verify_three_phase_drives(regs, &drives, trigger, load, switches, cycles)
+}
+
+/// [`verify_three_phase_cycles`] with each leg's outputs enabled or not per PWM period
+/// ([`LegDrive`]): six-step's chopped, held and floating legs.
+pub fn verify_three_phase_drives(
+    regs: &TimerRegisters,
+    drives: &[[LegDrive; 3]],
+    trigger: SampleTrigger,
+    load: &ThreePhaseLoad,
+    switches: &BridgeSwitches,
+    cycles: u32,
+) -> Result<ThreePhaseVerification, VerifyError> {
     regs.validate()?;
     trigger.validate(regs)?;
     let circuit = Circuit {
@@ -1949,24 +2348,37 @@ pub fn verify_three_phase_cycles(
         v_f_v: 0.0,
     };
     circuit.validate()?;
-    if compares.is_empty() || !load.emf_angle_rad.is_finite() || cycles == 0 {
+    let r_low_ok = switches.r_ds_on_low_ohm.is_finite() && switches.r_ds_on_low_ohm >= 0.0;
+    if drives.is_empty() || !load.emf_angle_rad.is_finite() || cycles == 0 || !r_low_ok {
         return Err(VerifyError::Circuit);
     }
     let period_s = regs.period_s();
     let trigger_s = trigger.time_s(regs);
     let mut intervals = Vec::new();
-    for (n, &c) in compares.iter().enumerate() {
-        intervals.extend(period_intervals(regs, c, trigger_s, n as f64 * period_s)?);
+    for (n, &d) in drives.iter().enumerate() {
+        let previous = drives[(n + drives.len() - 1) % drives.len()];
+        intervals.extend(period_intervals(
+            regs,
+            d,
+            previous,
+            trigger_s,
+            n as f64 * period_s,
+        )?);
     }
-    let electrical_s = compares.len() as f64 * period_s;
+    let electrical_s = drives.len() as f64 * period_s;
     let sim = Sim3 {
         intervals: &intervals,
         load,
         switches: circuit,
+        r_low_ohm: switches.r_ds_on_low_ohm,
         omega: 2.0 * std::f64::consts::PI * f64::from(cycles) / electrical_s,
+        current_scale_a: (switches.v_bus_v + switches.v_sd_v + 1.05 * load.emf_peak_v.abs())
+            / load.r_ohm,
+        stopped: std::cell::Cell::new(false),
     };
     let scale = (switches.v_bus_v + switches.v_sd_v + load.emf_peak_v.abs()) / load.r_ohm;
     let start = three_phase_fixed_point(&sim, scale)?;
+    sim.stopped.set(false);
     let mut record = Record::default();
     let end = sim.run(start, Some(&mut record))?;
     let residual_a = (0..3)
@@ -1977,6 +2389,7 @@ pub fn verify_three_phase_cycles(
         samples: record.samples,
         boundaries: record.boundaries,
         residual_a,
+        currents_stopped: sim.stopped.get(),
     })
 }
 

@@ -166,6 +166,13 @@ pub fn three_phase_out(d: &Design, ev: &Evaluator, c: &Candidate) -> Option<Thre
         pole_pairs: tp.pole_pairs,
         k_e_v_s_per_rad: tp.ke_v_s_per_rad,
         back_emf_phase_peak_v: tp.ke_v_s_per_rad * tp.omega_e_rad_s,
+        back_emf_shape: Some(
+            match tp.back_emf_shape {
+                crate::model::physics::three_phase::BackEmfShape::Sinusoidal => "sinusoidal",
+                crate::model::physics::three_phase::BackEmfShape::Trapezoidal => "trapezoidal",
+            }
+            .into(),
+        ),
         electrical_frequency_hz: tp.omega_e_rad_s / (2.0 * std::f64::consts::PI),
         current_meaning: current_meaning.into(),
         rated: c.rated.three_phase.clone()?,
@@ -478,6 +485,10 @@ pub struct ThreePhaseOut {
     pub k_e_v_s_per_rad: f64,
     /// Line-to-neutral back-EMF peak at the operating speed.
     pub back_emf_phase_peak_v: f64,
+    /// The back-EMF's shape: `sinusoidal`, or `trapezoidal` (120° flat, linear over ±30°
+    /// about each zero crossing).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub back_emf_shape: Option<String>,
     pub electrical_frequency_hz: f64,
     /// What `rated_current` is taken as.
     pub current_meaning: String,

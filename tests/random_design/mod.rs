@@ -388,8 +388,14 @@ pub fn design_text(r: &mut Rng, v_dss: f64, three_phase: bool, six_step: bool) -
         // Keep the inductive drop modest: ω_e·L·I below a third of the phase EMF.
         let omega_e = rpm / 60.0 * 2.0 * std::f64::consts::PI * pole_pairs as f64;
         let l = ind.min((e_ll / 3f64.sqrt()) / 3.0 / (omega_e * current));
+        // Six-step motors: sinusoidal or trapezoidal back-EMF, half each.
+        let shape = if six_step && r.chance(0.5) {
+            "\n    back_emf_shape: trapezoidal"
+        } else {
+            ""
+        };
         format!(
-            "kind: brushless\n    resistance: \"{res:.4} ohm\"\n    inductance: \"{l:.4e} H\"\n    back_emf_constant: \"{ke:.4} V/krpm\"\n    pole_pairs: {pole_pairs}\n    rated_current: \"{current:.3} A\"\n    operating_speed: \"{rpm:.2} rpm\""
+            "kind: brushless\n    resistance: \"{res:.4} ohm\"\n    inductance: \"{l:.4e} H\"\n    back_emf_constant: \"{ke:.4} V/krpm\"\n    pole_pairs: {pole_pairs}\n    rated_current: \"{current:.3} A\"\n    operating_speed: \"{rpm:.2} rpm\"{shape}"
         )
     } else {
         let e = r.range(0.0, 0.8) * v_min - current * res;

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:abefe535ba583aa4ecfdffab8db1b01c39c5d7b45605a86da4cca2b0ab3d4ffe)
+//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:a2bd7cb3029ee59dbdf481507d814f997a54b7ae990d21f8555c160f693c6945)
 //!
 //! Chosen setting
 //!   design            pump-sensorless
@@ -40,16 +40,16 @@
 //!   high-bus case           54.0 V supply, 45.0 °C ambient, 10.0 A load
 //!   junction                63.8 °C at the rated case, 65.3 °C at the high-bus case (limit 145 °C)
 //!   ripple, rated case      1.22 A peak to peak at 20.007 kHz (continuous), 352 mA rms
-//!   ripple, high-bus case   1.36 A peak to peak at 20.007 kHz (continuous), 394 mA rms; the larger, checked against the ripple limit
+//!   ripple, high-bus case   1.36 A peak to peak at 20.007 kHz (continuous), 393 mA rms; the larger, checked against the ripple limit
 //!   audibility, rated case  no significant line at or below 20.00 kHz; A-weighted in-band level none
 //!
 //! Current limit
 //!   threshold       code 13 = 670 mV at the comparator
 //!   trips           never below 10.9 A, always above 12.7 A (nominal 11.8 A; shunt in the supply return; shunt, amplifier and comparator tolerances stacked worst-case)
-//!   operating peak  10.7 A (the high-bus case's load current plus half its ripple); margin to the lowest trip 197 mA
+//!   operating peak  10.7 A (the high-bus case's load current plus half its ripple); margin to the lowest trip 198 mA
 //!   peak            at most 12.8 A (102 mA over the highest trip: 24.7 mA in the 228 ns reaction, more where a chopped stall crosses the trip inside the uncut on-time); the switch's I_DM at 100 µs 240 A (margin 227 A)
 //!   reaction        228 ns = filter 8.33 ns + comparator 60.0 ns + driver 120 ns + turn-off delay 26.0 ns + voltage rise 14.1 ns
-//!   blanking        492 ns (59 blanking ticks) against a turn-on transient of 491 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 4.00 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 300 ns
+//!   blanking        492 ns (59 blanking ticks) against a turn-on transient of 491 ns = driver 120 ns + turn-on delay 12.3 ns + current rise 3.99 ns + recovery 55.0 ns + ringing none (no loop inductance given) + amplifier settling 300 ns
 //!   filter          1 sample at 120 MHz (passes a fault held 8.33 ns)
 //!   uncut on-time   720 ns (blanking and reaction): the limit cannot cut a pulse before this; shorter pulses run their commanded length (the compare limits' shortest pulse is 200 ns)
 //!   response        cycle-by-cycle
@@ -67,14 +67,16 @@
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses             shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
+//!   rated case         at compare duty 51.712 %: mean current 10.00 A (plan 10.00 A), ripple 1.218 A peak to peak (plan 1.221 A)
+//!   high-bus case      at compare duty 46.049 %: mean current 10.00 A (plan 10.00 A), ripple 1.360 A peak to peak (plan 1.362 A)
 //!   back-EMF sampling  at the written back-EMF triggers, at the ends of the on-times each window claims and at the rated one, the chopping leg's state read has held 1.52 µs before and holds 808 ns after (settling and sampling need no more)
 //!   current limit      trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.51 A (plan's stall current 12.67 A)
 //!   not checked        the current-sampling window (six-step sampling, or no window at this setting)
-//!   not checked        six-step phase currents (the register-level bridge drives complementary legs only, without an open phase; the switch-by-switch six-step model is held against ngspice instead, see the README)
+//!   not checked        six-step ripple in the PWM periods of a commutation freewheel (three phases share the chopped leg's swing there, so the held phase's is smaller than the two-phase figure the plan gives; the periods of two-phase conduction are compared)
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +249 mW total loss, +0.1 K junction, -453 mA ripple, -0.58 bits resolution
-//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +509 mW total loss, +0.2 K junction, -681 mA ripple, -1.00 bits resolution
+//!   highest-frequency  40.000 kHz (divider 1, 3000 ticks, centre): +509 mW total loss, +0.2 K junction, -680 mA ripple, -1.00 bits resolution
 //!
 //! Findings (`pwmplan explain CODE` says what a bracketed code means)
 //!   warning  six-step: after each commutation the off-going phase keeps conducting through a body diode for 225 µs at the rated case, 27 % of the 833 µs sector (simulated switch by switch; the losses and the duty include it): the torque dips for that long every sector, and a sensorless drive cannot see the floating phase's back-EMF until it ends [six-step-commutation]
@@ -164,8 +166,12 @@ pub const CHANNELS: usize = 3;
 /// sector the phase driven to the positive rail, to the negative rail, and the
 /// floating one (both switches off): 0 = A, 1 = B, 2 = C.
 /// The positive phase's high side switches at the PWM duty; the negative phase's low side is held on.
-/// Change sectors at a PWM update with the outputs of the off-going phase
-/// disabled first.
+/// Channel settings per sector: the positive phase's compare the chopping
+/// counts with only its high output enabled, the negative phase's compare 0
+/// with only its low output enabled, the floating phase's compare 0 with both
+/// outputs disabled. Change sectors in the middle of the chopping switch's
+/// off-time, at the counter top, so that no pulse is split, with the
+/// outputs of the off-going phase disabled first.
 pub const SIX_STEP_SECTORS: usize = 6;
 /// The negative phase's low side chops (else the positive phase's high side).
 pub const SIX_STEP_CHOP_LOW_SIDE: bool = false;
