@@ -6,7 +6,7 @@
 //! **Invariant:** pure; no I/O.
 
 use crate::model::evaluate::ThreePhaseCase;
-use crate::output::plan::{CaseOut, RegisterCheck, ThreePhaseOut};
+use crate::output::plan::{CaseCheck, CaseOut, RegisterCheck, ThreePhaseOut};
 use std::f64::consts::PI;
 
 /// A three-phase plan's cases each with its own record, matched by name in the plan's case
@@ -222,4 +222,15 @@ pub fn period_means_a(
         }
     }
     means
+}
+
+/// Whether the registers' lowest significant audible line is the plan's (or either verdict
+/// is right within the significance guard).
+pub fn same_line(c: &CaseCheck, case: &CaseOut) -> bool {
+    c.line_near_threshold
+        || match (c.lowest_audible_line_hz, case.lowest_audible_line_hz) {
+            (Some(a), Some(b)) => (a - b).abs() <= 1e-6 * b.abs().max(1.0),
+            (None, None) => true,
+            _ => false,
+        }
 }

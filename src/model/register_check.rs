@@ -35,7 +35,7 @@ use crate::model::physics::three_phase::ZeroSequence;
 use crate::model::register_basis::{
     DEFAULT_HEARING_LIMIT_HZ, SIGNIFICANCE_GUARD_DB, SIGNIFICANT_FLOOR_A_RMS, SIGNIFICANT_REL_DB,
     SUB_TICKS, TOLERANCES, carrier_groups_rms_a, lowest_significant_group, period_means_a,
-    three_phase_cases,
+    same_line, three_phase_cases,
 };
 use crate::model::solve::{Candidate, Solution};
 use crate::model::timer::Alignment;
@@ -1030,17 +1030,6 @@ fn compare_three_phase(
             line_text(case.lowest_audible_line_hz)
         ));
     }
-}
-
-/// Whether the registers' lowest significant audible line is the plan's (or either verdict
-/// is right within the significance guard).
-fn same_line(c: &CaseCheck, case: &CaseOut) -> bool {
-    c.line_near_threshold
-        || match (c.lowest_audible_line_hz, case.lowest_audible_line_hz) {
-            (Some(a), Some(b)) => (a - b).abs() <= 1e-6 * b.abs().max(1.0),
-            (None, None) => true,
-            _ => false,
-        }
 }
 
 #[cfg(test)]

@@ -35,7 +35,7 @@
 use crate::model::evaluate::ThreePhaseCase;
 use crate::model::register_basis::{
     SUB_TICKS, TOLERANCES, carrier_groups_rms_a, lowest_significant_group, period_means_a,
-    three_phase_cases,
+    same_line, three_phase_cases,
 };
 use crate::model::verify::{
     self, BridgeSwitches, EmfShape, LegCompare, LegDrive, SampleTrigger, ThreePhaseLoad,
@@ -369,13 +369,7 @@ fn compare(
             case.name, c.ripple_pp_a, plan_pp
         ));
     }
-    let same = c.line_near_threshold
-        || match (c.lowest_audible_line_hz, case.lowest_audible_line_hz) {
-            (Some(a), Some(b)) => (a - b).abs() <= 1e-6 * b.abs().max(1.0),
-            (None, None) => true,
-            _ => false,
-        };
-    if !same {
+    if !same_line(c, case) {
         let text = |l: Option<f64>| l.map_or("none".to_string(), |f| format!("{f:.1} Hz"));
         out.push(format!(
             "{} case: the lowest significant audible carrier group is {} on the registers, {} in the plan",

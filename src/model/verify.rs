@@ -83,7 +83,9 @@
 //! a held one, a floating leg), and the back-EMF may be trapezoidal ([`EmfShape`]).
 
 use crate::model::timer::Alignment;
+use std::cell::RefCell;
 use std::fmt;
+use std::rc::Rc;
 
 /// Fixed-point iterations before the solver gives up (bisection alone needs ~110 on `f64`).
 const MAX_FIXED_POINT_ITERATIONS: usize = 200;
@@ -1728,21 +1730,32 @@ impl Coupled {
     /// `v_n = Σ_conducting (v_j − e_j)/2` (own derivation).
     fn floating_leg_v(&self, k: usize, i: [f64; 3], t: f64, load: &ThreePhaseLoad) -> f64 {
         let (j, l) = others(k);
-        let v =
-            |p: usize| self.legs[p].0 - self.legs[p].1 * i[p] - phase_emf(load, self.omega, p, t);
-        0.5 * (v(j) + v(l)) + phase_emf(load, self.omega, k, t)
+        let e = phase_emfs(load, self.omega, t);
+        let v = |p: usize| self.legs[p].0 - self.legs[p].1 * i[p] - e[p];
+        0.5 * (v(j) + v(l)) + e[k]
     }
 }
 
-fn phase_emf(load: &ThreePhaseLoad, omega: f64, k: usize, t: f64) -> f64 {
-    let angle = omega * t + load.emf_angle_rad - 2.0 * std::f64::consts::PI * k as f64 / 3.0;
+/// The three phases' back-EMFs at `t` (without the multiples of three, which cancel in every
+/// line quantity): phase k's harmonic h is phase a's turned by 2πhk/3, so one run of
+/// harmonic phasors serves all three.
+fn phase_emfs(load: &ThreePhaseLoad, omega: f64, t: f64) -> [f64; 3] {
+    let angle = omega * t + load.emf_angle_rad;
+    let turn = |h: u32, k: usize| {
+        Complex::unit(-2.0 * std::f64::consts::PI * f64::from(h % 3) * k as f64 / 3.0)
+    };
+    let turns = [1, 2].map(|r| [0, 1, 2].map(|k| turn(r, k)));
     // sin(h·x) = −Im(e^(−jx)^h).
     let mut powers = HarmonicPowers::new(Complex::unit(angle));
-    -emf_harmonics(load.emf_shape)
-        .iter()
-        .map(|&(h, b_h)| b_h * powers.at(h).im)
-        .sum::<f64>()
-        * load.emf_peak_v
+    let mut e = [0.0; 3];
+    for &(h, b_h) in emf_harmonics(load.emf_shape) {
+        let z = powers.at(h);
+        let residue = if h % 3 == 2 { 1 } else { 0 };
+        for (k, ek) in e.iter_mut().enumerate() {
+            *ek -= b_h * z.mul(turns[residue][k]).im;
+        }
+    }
+    e.map(|x| x * load.emf_peak_v)
 }
 
 /// `z^h` for rising `h` by repeated multiplication from the last power (one sine and cosine
@@ -1988,7 +2001,15 @@ struct Sim3<'a> {
     current_scale_a: f64,
     /// Set when every current stopped at once somewhere in a run.
     stopped: std::cell::Cell<bool>,
+    /// The coupled solutions built so far ([`Sim3::coupled`]).
+    coupled_seen: RefCell<Vec<(CoupledKey, Rc<Coupled>)>>,
 }
+
+/// What a coupled solution depends on besides the run's motor and speed.
+type CoupledKey = (Mode, [LegState; 3], [bool; 3]);
+
+/// Coupled solutions kept per run (our own bound; a six-step period meets about ten).
+const COUPLED_KEPT: usize = 64;
 
 /// The event functions of one mode: currents through floating legs keep their sign; a blocked
 /// phase's floating leg stays between the diode thresholds. All positive while nothing happens.
@@ -2018,7 +2039,23 @@ impl Sim3<'_> {
         Ok(i)
     }
 
-    fn coupled(&self, mode: Mode, legs: [LegState; 3], positive: [bool; 3]) -> Coupled {
+    /// The coupled solution of a mode, leg states and current directions; the few that recur
+    /// all period long are built once per run and kept.
+    fn coupled(&self, mode: Mode, legs: [LegState; 3], positive: [bool; 3]) -> Rc<Coupled> {
+        let key = (mode, legs, positive);
+        if let Some((_, c)) = self.coupled_seen.borrow().iter().find(|(k, _)| *k == key) {
+            return Rc::clone(c);
+        }
+        let c = Rc::new(self.build_coupled(mode, legs, positive));
+        let mut seen = self.coupled_seen.borrow_mut();
+        if seen.len() >= COUPLED_KEPT {
+            seen.remove(0);
+        }
+        seen.push((key, Rc::clone(&c)));
+        c
+    }
+
+    fn build_coupled(&self, mode: Mode, legs: [LegState; 3], positive: [bool; 3]) -> Coupled {
         let terms = [0, 1, 2].map(|p| {
             let t = leg_terminal(legs[p], positive[p], &self.switches);
             let r = if legs[p] == LegState::Low {
@@ -2038,7 +2075,7 @@ impl Sim3<'_> {
         legs: [LegState; 3],
         i: [f64; 3],
         t: f64,
-    ) -> Result<Option<(Coupled, Watch)>, VerifyError> {
+    ) -> Result<Option<(Rc<Coupled>, Watch)>, VerifyError> {
         let mut positive = i.map(|x| x > 0.0);
         let zero: Vec<usize> = (0..3)
             .filter(|&p| legs[p] == LegState::Dead && i[p] == 0.0)
@@ -2096,9 +2133,10 @@ impl Sim3<'_> {
             return None;
         };
         let a_v = leg_terminal(legs[*j], true, &self.switches).a_v;
-        let v_n = a_v - phase_emf(self.load, self.omega, *j, t);
+        let e = phase_emfs(self.load, self.omega, t);
+        let v_n = a_v - e[*j];
         let (k1, k2) = others(*j);
-        let open = |k: usize| (k, v_n + phase_emf(self.load, self.omega, k, t));
+        let open = |k: usize| (k, v_n + e[k]);
         Some([open(k1), open(k2)])
     }
 
@@ -2375,6 +2413,7 @@ pub fn verify_three_phase_drives(
         current_scale_a: (switches.v_bus_v + switches.v_sd_v + 1.05 * load.emf_peak_v.abs())
             / load.r_ohm,
         stopped: std::cell::Cell::new(false),
+        coupled_seen: RefCell::new(Vec::new()),
     };
     let scale = (switches.v_bus_v + switches.v_sd_v + load.emf_peak_v.abs()) / load.r_ohm;
     let start = three_phase_fixed_point(&sim, scale)?;
