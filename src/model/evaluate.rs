@@ -1785,8 +1785,15 @@ impl Evaluator {
         // each output's rising edge, common practice), so the line sees its on-state for
         // D·T − t_dead: the ripple's duty (the switch-by-switch simulation holds the rest).
         let d = (sim.duty - t_dead_s * f_hz).clamp(0.0, 1.0);
-        let w = three_phase::six_step_ripple(&bridge, &motor, tp.omega_e_rad_s, d, chop, r_path)
-            .ok()?;
+        let w = three_phase::six_step_ripple_largest(
+            &bridge,
+            &motor,
+            tp.omega_e_rad_s,
+            d,
+            chop,
+            r_path,
+        )
+        .ok()?;
         let shift = sim.held_mean_a - w.i_avg_a();
         let sides = SideResult {
             high: l.high_side,

@@ -360,6 +360,18 @@ impl MotorParams {
         }
     }
 
+    /// The lowest line-to-line back-EMF the two conducting phases meet in a 60° sector:
+    /// trapezoidal 2·E_ph (both on their flat tops all sector); sinusoidal
+    /// √3·E_ph·sin 60° = 1.5·E_ph at the sector's edges (the line EMF √3·E_ph·sin over
+    /// 60°..120°; definition).
+    pub fn six_step_line_emf_min_v(&self, omega_e_rad_s: f64) -> f64 {
+        let e = self.phase_emf_peak_v(omega_e_rad_s);
+        match self.back_emf_shape {
+            BackEmfShape::Trapezoidal => 2.0 * e,
+            BackEmfShape::Sinusoidal => 1.5 * e,
+        }
+    }
+
     /// Line-to-line equivalent for six-step: 2R + `r_path_ohm`, 2L, the sector-mean line EMF.
     /// `r_path_ohm` adds the switches in the current path (2·R_ds(on) is our own choice, from
     /// counting the devices: the off-state path holds one channel and one diode or two channels,

@@ -44,6 +44,40 @@ pub fn six_step_ripple(
     )?)
 }
 
+/// [`six_step_ripple`] where the sector's swing is largest: the same waveform in continuous
+/// conduction, where the swing does not depend on the line EMF (superposition); where the
+/// line current stops in each off-time its peak rises as the line EMF falls, so the
+/// waveform at the sector's lowest line EMF when its swing is the larger.
+pub fn six_step_ripple_largest(
+    stage: &ThreePhaseStage<'_>,
+    motor: &MotorParams,
+    omega_e_rad_s: f64,
+    duty: f64,
+    chop: Chop,
+    r_path_ohm: f64,
+) -> Result<RippleWaveform> {
+    let w = six_step_ripple(stage, motor, omega_e_rad_s, duty, chop, r_path_ohm)?;
+    if w.continuous() {
+        return Ok(w);
+    }
+    let lowest = MotorLoad {
+        back_emf_v: motor.six_step_line_emf_min_v(omega_e_rad_s),
+        ..motor.line_line_load(omega_e_rad_s, r_path_ohm)
+    };
+    let edge = ripple::steady_state(
+        &lowest,
+        six_step_drive(chop, stage.sw),
+        stage.v_bus_v,
+        duty,
+        stage.f_sw_hz,
+    )?;
+    Ok(if edge.ripple_pp_a() > w.ripple_pp_a() {
+        edge
+    } else {
+        w
+    })
+}
+
 /// Mean DC-link (bus) current over a PWM period, A: the bus carries the line current only
 /// while the chopping switch conducts, `(1/T)·∫₀^{D·T} i dt`; in every chop variant the
 /// off-time loop closes inside the bridge (a body diode or the complementary channel), so the
