@@ -1500,8 +1500,8 @@ pub struct ThreePhaseVerification {
     /// order over the electrical period, `(time_s, currents_a)`: between two such instants
     /// each current is one exponential segment, so the extremes of a PWM period lie here
     /// (to within the back-EMF's change over one segment). Segments longer than a sixteenth
-    /// of the shortest time constant are recorded in steps of that length, so the record
-    /// taken straight between its instants holds the arcs' integrals.
+    /// of the shortest time constant or of 1/ω_e are recorded in steps of that length, so
+    /// the record taken straight between its instants holds the arcs' integrals.
     pub boundaries: Vec<(f64, [f64; 3])>,
     /// Largest phase-current change over one electrical period from the solution, A.
     pub residual_a: f64,
@@ -2004,8 +2004,9 @@ struct Sim3<'a> {
     /// Set when every current stopped at once somewhere in a run.
     stopped: std::cell::Cell<bool>,
     /// Longest step between recorded instants, s: a sixteenth of the shortest time constant
-    /// `L/(R + r)` (our own bound: a straight line through an exponential arc of that length
-    /// misses its integral by about (1/16)²/12 of the arc's curvature, 3·10⁻⁴).
+    /// `L/(R + r)` or of `1/ω_e`, whichever is shorter (our own bound: a straight line
+    /// through an exponential or sinusoidal arc of that length misses its integral by about
+    /// (1/16)²/12 of the arc's curvature, 3·10⁻⁴).
     record_step_s: f64,
     /// The coupled solutions built so far ([`Sim3::coupled`]).
     coupled_seen: RefCell<Vec<(CoupledKey, Rc<Coupled>)>>,
@@ -2032,7 +2033,7 @@ impl Sim3<'_> {
         let mut i = i0;
         for iv in self.intervals {
             let Some(r) = record.as_deref_mut() else {
-                i = self.advance(iv, i)?;
+                i = self.advance(iv, i, None)?;
                 continue;
             };
             if let Some(legs) = iv.sample {
@@ -2057,7 +2058,7 @@ impl Sim3<'_> {
                     sample: None,
                     ..*iv
                 };
-                i = self.advance(&part, i)?;
+                i = self.advance(&part, i, Some(&mut r.boundaries))?;
                 if p < parts {
                     r.boundaries.push((t1, i));
                 }
@@ -2248,7 +2249,14 @@ impl Sim3<'_> {
     }
 
     /// Advances the currents through one interval, event by event.
-    fn advance(&self, iv: &Interval3, i0: [f64; 3]) -> Result<[f64; 3], VerifyError> {
+    /// With `events`, each diode event's instant and currents are recorded there (a kink of
+    /// the currents inside the interval).
+    fn advance(
+        &self,
+        iv: &Interval3,
+        i0: [f64; 3],
+        mut events: Option<&mut Vec<(f64, [f64; 3])>>,
+    ) -> Result<[f64; 3], VerifyError> {
         let (mut t, t1) = (iv.t0_s, iv.t1_s);
         let mut i = i0;
         for _ in 0..MAX_EVENTS_PER_INTERVAL {
@@ -2269,6 +2277,9 @@ impl Sim3<'_> {
                 match first_event(t, t1, margin) {
                     Some(te) => {
                         t = te;
+                        if let Some(e) = events.as_deref_mut() {
+                            e.push((te, [0.0; 3]));
+                        }
                         continue;
                     }
                     None => return Ok([0.0; 3]),
@@ -2296,6 +2307,9 @@ impl Sim3<'_> {
                         Mode::Full => zero_phase(i, p),
                     };
                 }
+            }
+            if let Some(e) = events.as_deref_mut() {
+                e.push((te, i));
             }
             t = te;
         }
@@ -2444,8 +2458,9 @@ pub fn verify_three_phase_drives(
         current_scale_a: (switches.v_bus_v + switches.v_sd_v + 1.05 * load.emf_peak_v.abs())
             / load.r_ohm,
         stopped: std::cell::Cell::new(false),
-        record_step_s: load.l_h
-            / (load.r_ohm + switches.r_ds_on_ohm.max(switches.r_ds_on_low_ohm))
+        record_step_s: (load.l_h
+            / (load.r_ohm + switches.r_ds_on_ohm.max(switches.r_ds_on_low_ohm)))
+        .min(electrical_s / (2.0 * std::f64::consts::PI * f64::from(cycles)))
             / 16.0,
         coupled_seen: RefCell::new(Vec::new()),
     };

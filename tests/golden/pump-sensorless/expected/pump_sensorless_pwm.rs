@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:a2bd7cb3029ee59dbdf481507d814f997a54b7ae990d21f8555c160f693c6945)
+//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:0d57eea60ff583e49be5ed40eea65a893c90a8adf7c3268afe63c115acb33f06)
 //!
 //! Chosen setting
 //!   design            pump-sensorless
@@ -67,8 +67,8 @@
 //!
 //! Checked on the registers (independent simulation of the written values)
 //!   pulses             shortest high-side pulse 208 ns at COMPARE_MIN, shortest low-side on-time 808 ns at COMPARE_MAX (minimum pulse 200 ns, bootstrap refresh 800 ns)
-//!   rated case         at compare duty 51.712 %: mean current 10.00 A (plan 10.00 A), ripple 1.218 A peak to peak (plan 1.221 A)
-//!   high-bus case      at compare duty 46.049 %: mean current 10.00 A (plan 10.00 A), ripple 1.360 A peak to peak (plan 1.362 A)
+//!   rated case         at compare duty 51.712 %: mean current 9.999 A (plan 10.00 A), ripple 1.218 A peak to peak (plan 1.221 A)
+//!   high-bus case      at compare duty 46.049 %: mean current 9.999 A (plan 10.00 A), ripple 1.360 A peak to peak (plan 1.362 A)
 //!   back-EMF sampling  at the written back-EMF triggers, at the ends of the on-times each window claims and at the rated one, the chopping leg's state read has held 1.52 µs before and holds 808 ns after (settling and sampling need no more)
 //!   current limit      trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.51 A (plan's stall current 12.67 A)
 //!   not checked        the current-sampling window (six-step sampling, or no window at this setting)
