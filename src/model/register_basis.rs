@@ -234,3 +234,16 @@ pub fn same_line(c: &CaseCheck, case: &CaseOut) -> bool {
             _ => false,
         }
 }
+
+/// What disagrees when the registers' lowest significant audible line is not the plan's.
+pub fn line_disagreement(c: &CaseCheck, case: &CaseOut, what: &str) -> Option<String> {
+    let text = |l: Option<f64>| l.map_or("none".to_string(), |f| format!("{f:.6e} Hz"));
+    (!same_line(c, case)).then(|| {
+        format!(
+            "{} case: the lowest significant audible {what} is {} on the registers, {} in the plan",
+            case.name,
+            text(c.lowest_audible_line_hz),
+            text(case.lowest_audible_line_hz)
+        )
+    })
+}

@@ -34,8 +34,8 @@ use crate::model::evaluate::ThreePhaseCase;
 use crate::model::physics::three_phase::ZeroSequence;
 use crate::model::register_basis::{
     DEFAULT_HEARING_LIMIT_HZ, SIGNIFICANCE_GUARD_DB, SIGNIFICANT_FLOOR_A_RMS, SIGNIFICANT_REL_DB,
-    SUB_TICKS, TOLERANCES, carrier_groups_rms_a, lowest_significant_group, period_means_a,
-    same_line, three_phase_cases,
+    SUB_TICKS, TOLERANCES, carrier_groups_rms_a, line_disagreement, lowest_significant_group,
+    period_means_a, three_phase_cases,
 };
 use crate::model::solve::{Candidate, Solution};
 use crate::model::timer::Alignment;
@@ -612,18 +612,7 @@ fn compare_case(v: &RegisterView, case: &CaseOut, c: &CaseCheck, out: &mut Vec<S
             fmt_g(case.ripple_peak_to_peak_a)
         ));
     }
-    if !same_line(c, case) {
-        out.push(format!(
-            "{} case: the lowest significant audible line is {} on the registers, {} in the plan",
-            case.name,
-            line_text(c.lowest_audible_line_hz),
-            line_text(case.lowest_audible_line_hz)
-        ));
-    }
-}
-
-fn line_text(l: Option<f64>) -> String {
-    l.map_or("none".into(), |f| format!("{} Hz", fmt_g(f)))
+    out.extend(line_disagreement(c, case, "line"));
 }
 
 /// Six significant digits, for messages.
@@ -1022,14 +1011,7 @@ fn compare_three_phase(
             case.name, c.ripple_pp_a, plan_pp
         ));
     }
-    if !same_line(c, case) {
-        out.push(format!(
-            "{} case: the lowest significant audible carrier group is {} on the registers, {} in the plan",
-            case.name,
-            line_text(c.lowest_audible_line_hz),
-            line_text(case.lowest_audible_line_hz)
-        ));
-    }
+    out.extend(line_disagreement(c, case, "carrier group"));
 }
 
 #[cfg(test)]

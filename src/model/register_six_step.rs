@@ -34,8 +34,8 @@
 
 use crate::model::evaluate::ThreePhaseCase;
 use crate::model::register_basis::{
-    SUB_TICKS, TOLERANCES, carrier_groups_rms_a, lowest_significant_group, period_means_a,
-    same_line, three_phase_cases,
+    SUB_TICKS, TOLERANCES, carrier_groups_rms_a, line_disagreement, lowest_significant_group,
+    period_means_a, three_phase_cases,
 };
 use crate::model::verify::{
     self, BridgeSwitches, EmfShape, LegCompare, LegDrive, SampleTrigger, ThreePhaseLoad,
@@ -369,13 +369,5 @@ fn compare(
             case.name, c.ripple_pp_a, plan_pp
         ));
     }
-    if !same_line(c, case) {
-        let text = |l: Option<f64>| l.map_or("none".to_string(), |f| format!("{f:.1} Hz"));
-        out.push(format!(
-            "{} case: the lowest significant audible carrier group is {} on the registers, {} in the plan",
-            case.name,
-            text(c.lowest_audible_line_hz),
-            text(case.lowest_audible_line_hz)
-        ));
-    }
+    out.extend(line_disagreement(c, case, "carrier group"));
 }

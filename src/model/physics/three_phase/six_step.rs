@@ -34,9 +34,23 @@ pub fn six_step_ripple(
 ) -> Result<RippleWaveform> {
     stage.validate()?;
     check("r_path_ohm", r_path_ohm, r_path_ohm >= 0.0)?;
-    let load = motor.line_line_load(omega_e_rad_s, r_path_ohm);
+    line_ripple(
+        stage,
+        &motor.line_line_load(omega_e_rad_s, r_path_ohm),
+        duty,
+        chop,
+    )
+}
+
+/// The chopped line current's steady state on a line-to-line equivalent `load`.
+fn line_ripple(
+    stage: &ThreePhaseStage<'_>,
+    load: &MotorLoad,
+    duty: f64,
+    chop: Chop,
+) -> Result<RippleWaveform> {
     Ok(ripple::steady_state(
-        &load,
+        load,
         six_step_drive(chop, stage.sw),
         stage.v_bus_v,
         duty,
@@ -64,13 +78,7 @@ pub fn six_step_ripple_largest(
         back_emf_v: motor.six_step_line_emf_min_v(omega_e_rad_s),
         ..motor.line_line_load(omega_e_rad_s, r_path_ohm)
     };
-    let edge = ripple::steady_state(
-        &lowest,
-        six_step_drive(chop, stage.sw),
-        stage.v_bus_v,
-        duty,
-        stage.f_sw_hz,
-    )?;
+    let edge = line_ripple(stage, &lowest, duty, chop)?;
     Ok(if edge.ripple_pp_a() > w.ripple_pp_a() {
         edge
     } else {
