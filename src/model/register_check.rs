@@ -640,13 +640,17 @@ fn fmt_g(x: f64) -> String {
 // **Tolerance.** The plan's averaged model makes up the dead time edge by edge
 // (`physics::three_phase::dead_time`: the current at each edge with its ripple, the float
 // after a current reaches zero, the 5th to 25th harmonics the dead time drives through the
-// motor). On 150 random designs (the register-verifier test) the phase-current peak agreed
-// within 0.03 % in the median and 0.82 % at worst (all 118 compared cases within 1 %, the
-// stiffest motors through the averaged bridge); the ripple, measured about the low-frequency
-// current (`LowFrequencyCurrent`), within 0.09 % in the median and 0.95 % at worst (all 98
-// compared cases within 1 %, 90 within 0.5 %; the worst at 18.5 PWM periods per electrical
-// period, where the fundamental turns by 19° in a period and the plan's small-ripple model
-// holds it still). Before the plan refined its largest ripple between its 72 angles and the
+// motor; the other legs' late edges that move each edge's current). On 150 random designs
+// (the register-verifier test, 102 compared cases of the chosen settings) the phase-current
+// peak agreed within 0.01 % in the median and 0.62 % at worst (the stiffest motors through the
+// averaged bridge); the ripple, measured about the low-frequency current
+// (`LowFrequencyCurrent`), within 0.04 % in the median and 1.01 % at worst (at 22 PWM periods
+// per electrical period, where the fundamental turns by 16° in a period and the plan's
+// small-ripple model holds it still). Before the edge currents took the other legs' late
+// edges into account, one design was 2.9–3.3 % off on the peak: a motor whose back-EMF takes
+// nearly all the voltage (the dead time's loss 3.5 times its impedance drop), with a ripple
+// half the current, where a shift of the zero-crossing dead band by 2° moves the current by
+// 3 %; it is now within 0.17 %. Before the plan refined its largest ripple between its 72 angles and the
 // check sampled at least 360 distinct angles (`MIN_SAMPLED_ANGLES`), a design with the dead
 // time at 12 % of the phase voltage was 1.14 % off: both sides sampled a narrow largest
 // swing at different angles. An alternative setting of one design was seen
@@ -683,7 +687,7 @@ fn check_three_phase_currents(
     out: &mut RegisterCheck,
 ) {
     out.not_checked.push(format!(
-        "three-phase phase currents are held here to {:.0} % (peak) and {:.0} % (ripple), not the 1 % of single-phase plans: the chosen settings of random designs agree within 1 % but for one of 52 random sinusoidal designs (3.3 % off on the peak with a dead time of 7 % of the phase voltage against a ripple half the current), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period",
+        "three-phase phase currents are held here to {:.0} % (peak) and {:.0} % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 1.01 % (22 PWM periods per electrical period), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period",
         100.0 * PEAK_REL,
         100.0 * RIPPLE_REL
     ));

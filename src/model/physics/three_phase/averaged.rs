@@ -11,7 +11,7 @@
 use std::f64::consts::PI;
 
 use super::dead_time::{
-    LegConditions, error_at_edges_v, error_slope_at_edges, excursion_to_falling_edge_a,
+    EdgeShifts, LegConditions, edge_shifts, error_at_edges_v, error_slope_at_edges,
     floating_level_v,
 };
 use super::inputs::ZeroSequence;
@@ -47,7 +47,8 @@ pub struct AveragedDrive {
 /// Leg A over the steps: what depends on the command only.
 struct LegTable {
     duty: Vec<f64>,
-    excursion_a: Vec<f64>,
+    /// Leg A's edge excursions and what late edges add to them.
+    edges: Vec<EdgeShifts>,
     float_v: Vec<f64>,
     /// Ideal phase-A voltage `hold·V·(d_a − Σd/3)` (the held fundamental and the duties'
     /// clamping at 0 and 1) less the back-EMF, V.
@@ -64,10 +65,7 @@ impl LegTable {
             .collect();
         LegTable {
             duty: d.iter().map(|d| d[0]).collect(),
-            excursion_a: d
-                .iter()
-                .map(|&d| excursion_to_falling_edge_a(d, 0, c))
-                .collect(),
+            edges: d.iter().map(|&d| edge_shifts(d, 0, c)).collect(),
             float_v: d
                 .iter()
                 .map(|&d| floating_level_v(d, 0, c.v_bus_v))
@@ -90,14 +88,17 @@ impl LegTable {
         (k + n - x * n / 3) % n
     }
 
-    fn error_v(&self, k: usize, x: usize, i_a: f64, c: &LegConditions) -> f64 {
+    /// Leg `x`'s error at step `k` with the phase currents `i_a`.
+    fn error_v(&self, k: usize, x: usize, i_a: [f64; 3], c: &LegConditions) -> f64 {
         let j = self.row(k, x);
-        error_at_edges_v(self.duty[j], self.excursion_a[j], self.float_v[j], i_a, c)
+        let edges = self.edges[j].for_currents(i_a, x, c);
+        error_at_edges_v(self.duty[j], edges, self.float_v[j], i_a[x], c)
     }
 
-    fn error_slope(&self, k: usize, x: usize, i_a: f64, c: &LegConditions) -> f64 {
+    fn error_slope(&self, k: usize, x: usize, i_a: [f64; 3], c: &LegConditions) -> f64 {
         let j = self.row(k, x);
-        error_slope_at_edges(self.duty[j], self.excursion_a[j], self.float_v[j], i_a, c)
+        let edges = self.edges[j].for_currents(i_a, x, c);
+        error_slope_at_edges(self.duty[j], edges, self.float_v[j], i_a[x], c)
     }
 }
 
@@ -128,8 +129,8 @@ impl Stepper<'_> {
     fn step(&self, k: usize, i: [f64; 3], last: [f64; 3]) -> [f64; 3] {
         let base = [0, 1, 2].map(|x| self.table.drive_v[self.table.row(k, x)]);
         let p = [0, 1, 2].map(|x| i[x] + 0.5 * last[x]);
-        let e0 = [0, 1, 2].map(|x| self.table.error_v(k, x, p[x], self.c));
-        let slope = [0, 1, 2].map(|x| self.table.error_slope(k, x, p[x], self.c));
+        let e0 = [0, 1, 2].map(|x| self.table.error_v(k, x, p, self.c));
+        let slope = [0, 1, 2].map(|x| self.table.error_slope(k, x, p, self.c));
         // error_x ≈ a_x + b_x·j_x with the mean (i + j)/2.
         let a = [0, 1, 2].map(|x| e0[x] - slope[x] * p[x] + 0.5 * slope[x] * i[x]);
         let b = slope.map(|s| 0.5 * s);
