@@ -109,6 +109,10 @@ pub struct EdgeShifts {
     /// `(rise, fall)` added per late edge, A: own rise, own fall, next leg's rise and fall,
     /// the one after's rise and fall.
     pub late_a: [(f64, f64); 6],
+    /// [`EdgeShifts::for_currents`] with both other legs' weights 0, and what a weight of 1
+    /// adds for the next leg and the one after (kept: it is asked for at every step).
+    own_late: EdgeExcursions,
+    per_weight_a: [(f64, f64); 2],
 }
 
 impl EdgeShifts {
@@ -133,19 +137,13 @@ impl EdgeShifts {
     /// state that agrees with itself at either sign's clamp (own derivation; the register
     /// check holds the result).
     pub fn for_currents(&self, i: [f64; 3], x: usize, c: &LegConditions) -> EdgeExcursions {
-        let (next, after) = (i[(x + 1) % 3], i[(x + 2) % 3]);
-        let (wn, wa) = (late_weight(next, c), late_weight(after, c));
-        let mut e = EdgeExcursions {
-            rise_a: self.reference_a,
-            fall_a: self.reference_a,
-        };
-        for (k, w) in [(2, wn), (3, 1.0 - wn), (4, wa), (5, 1.0 - wa)] {
-            e.rise_a += w * self.late_a[k].0;
-            e.fall_a += w * self.late_a[k].1;
+        let wn = late_weight(i[(x + 1) % 3], c);
+        let wa = late_weight(i[(x + 2) % 3], c);
+        let [(rn, f_n), (ra, fa)] = self.per_weight_a;
+        EdgeExcursions {
+            rise_a: self.own_late.rise_a + wn * rn + wa * ra,
+            fall_a: self.own_late.fall_a + wn * f_n + wa * fa,
         }
-        e.rise_a += self.late_a[0].0;
-        e.fall_a += self.late_a[1].1;
-        e
     }
 }
 
@@ -201,9 +199,21 @@ pub fn edge_shifts(d: [f64; 3], x: usize, c: &LegConditions) -> EdgeShifts {
         late_a[2 * y] = share(y, on, -1.0);
         late_a[2 * y + 1] = share(y, off, 1.0);
     }
+    let reference_a = excursion_to_falling_edge_a(d, x, c);
+    // Weight w on a leg's rising edge and 1 − w on its falling one.
+    let own_late = EdgeExcursions {
+        rise_a: reference_a + late_a[0].0 + late_a[3].0 + late_a[5].0,
+        fall_a: reference_a + late_a[1].1 + late_a[3].1 + late_a[5].1,
+    };
+    let per_weight_a = [1, 2].map(|y| {
+        let (rise, fall) = (late_a[2 * y], late_a[2 * y + 1]);
+        (rise.0 - fall.0, rise.1 - fall.1)
+    });
     EdgeShifts {
-        reference_a: excursion_to_falling_edge_a(d, x, c),
+        reference_a,
         late_a,
+        own_late,
+        per_weight_a,
     }
 }
 
