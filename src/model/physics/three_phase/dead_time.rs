@@ -131,11 +131,12 @@ impl EdgeShifts {
 
     /// Leg `x`'s excursions with phase currents `i` (out of the legs), as its own edges' dead
     /// times see them. Each other leg turns on late by the share [`late_weight`] of its current
-    /// and off late by the rest. The leg's own edge is taken late for its own current (the
-    /// rising edge's with the rising edge late, the falling edge's with the falling edge late):
-    /// where that current is near zero, which is where it matters, a late edge is the one
-    /// state that agrees with itself at either sign's clamp (own derivation; the register
-    /// check holds the result).
+    /// and off late by the rest. The leg's own edges are taken late for their own currents
+    /// (the rising edge's current with the rising edge late, the falling edge's with the
+    /// falling edge late). A late own edge moves its own edge current by about `V/3·t_d/L`
+    /// towards the sign that makes it late, so near zero current, which is where it matters,
+    /// both states agree with themselves; the late one is taken (our own choice, which the
+    /// register check holds on random designs: `tests/register_verifier.rs`).
     pub fn for_currents(&self, i: [f64; 3], x: usize, c: &LegConditions) -> EdgeExcursions {
         let wn = late_weight(i[(x + 1) % 3], c);
         let wa = late_weight(i[(x + 2) % 3], c);
