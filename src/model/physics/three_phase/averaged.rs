@@ -88,17 +88,16 @@ impl LegTable {
         (k + n - x * n / 3) % n
     }
 
-    /// Leg `x`'s error at step `k` with the phase currents `i_a`.
-    fn error_v(&self, k: usize, x: usize, i_a: [f64; 3], c: &LegConditions) -> f64 {
+    /// Leg `x`'s error at step `k` with the phase currents `i_a`, and its slope in its own
+    /// current (the edges' excursions found once for both).
+    fn error_and_slope(&self, k: usize, x: usize, i_a: [f64; 3], c: &LegConditions) -> (f64, f64) {
         let j = self.row(k, x);
         let edges = self.edges[j].for_currents(i_a, x, c);
-        error_at_edges_v(self.duty[j], edges, self.float_v[j], i_a[x], c)
-    }
-
-    fn error_slope(&self, k: usize, x: usize, i_a: [f64; 3], c: &LegConditions) -> f64 {
-        let j = self.row(k, x);
-        let edges = self.edges[j].for_currents(i_a, x, c);
-        error_slope_at_edges(self.duty[j], edges, self.float_v[j], i_a[x], c)
+        let (duty, v_float, i) = (self.duty[j], self.float_v[j], i_a[x]);
+        (
+            error_at_edges_v(duty, edges, v_float, i, c),
+            error_slope_at_edges(duty, edges, v_float, i, c),
+        )
     }
 }
 
@@ -129,8 +128,8 @@ impl Stepper<'_> {
     fn step(&self, k: usize, i: [f64; 3], last: [f64; 3]) -> [f64; 3] {
         let base = [0, 1, 2].map(|x| self.table.drive_v[self.table.row(k, x)]);
         let p = [0, 1, 2].map(|x| i[x] + 0.5 * last[x]);
-        let e0 = [0, 1, 2].map(|x| self.table.error_v(k, x, p, self.c));
-        let slope = [0, 1, 2].map(|x| self.table.error_slope(k, x, p, self.c));
+        let both = [0, 1, 2].map(|x| self.table.error_and_slope(k, x, p, self.c));
+        let (e0, slope) = (both.map(|b| b.0), both.map(|b| b.1));
         // error_x ≈ a_x + b_x·j_x with the mean (i + j)/2.
         let a = [0, 1, 2].map(|x| e0[x] - slope[x] * p[x] + 0.5 * slope[x] * i[x]);
         let b = slope.map(|s| 0.5 * s);
