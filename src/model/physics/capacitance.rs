@@ -364,7 +364,7 @@ fn gd_integrals(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
 /// cost the search an order of magnitude in time.
 pub fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
     thread_local! {
-        static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(Vec::new()) };
+        static MEMO: Memo<(f64, f64)> = const { std::cell::RefCell::new(MemoSlots::new()) };
     }
     remembered(&MEMO, sw, v_v.to_bits(), || {
         let law = law_memo(sw);
@@ -375,14 +375,36 @@ pub fn output_charge_memo(sw: &SwitchModel, v_v: f64) -> (f64, f64) {
 /// The switch's output-capacitance law, remembered per thread.
 pub fn law_memo(sw: &SwitchModel) -> OutputCapacitance {
     thread_local! {
-        static MEMO: Memo<OutputCapacitance> = const { std::cell::RefCell::new(Vec::new()) };
+        static MEMO: Memo<OutputCapacitance> = const { std::cell::RefCell::new(MemoSlots::new()) };
     }
     remembered(&MEMO, sw, 0, || OutputCapacitance::of_switch(sw))
 }
 
 /// A thread's recent results, each with the switch and the bits of the
-/// number it was computed for.
-pub type Memo<T> = std::cell::RefCell<Vec<(SwitchModel, u64, T)>>;
+/// number it was computed for, and the slot the next new result takes.
+pub type Memo<T> = std::cell::RefCell<MemoSlots<T>>;
+
+/// The slots of a [`Memo`]: filled in turn, then each new result replaces the
+/// oldest (a ring: nothing moves on a replacement).
+pub struct MemoSlots<T> {
+    slots: Vec<(SwitchModel, u64, T)>,
+    next: usize,
+}
+
+impl<T> MemoSlots<T> {
+    pub const fn new() -> Self {
+        MemoSlots {
+            slots: Vec::new(),
+            next: 0,
+        }
+    }
+}
+
+impl<T> Default for MemoSlots<T> {
+    fn default() -> Self {
+        Self::new()
+    }
+}
 
 /// `compute()` for (`sw`, `key`), or the value remembered for an equal pair
 /// (the switch compared field by field); the oldest of 64 entries makes way.
@@ -395,6 +417,7 @@ pub fn remembered<T: Copy>(
     const SIZE: usize = 64;
     let hit = memo.with(|m| {
         m.borrow()
+            .slots
             .iter()
             .find(|(k, b, _)| *b == key && k == sw)
             .map(|e| e.2)
@@ -405,10 +428,13 @@ pub fn remembered<T: Copy>(
     let x = compute();
     memo.with(|m| {
         let mut m = m.borrow_mut();
-        if m.len() >= SIZE {
-            m.remove(0);
+        let at = m.next;
+        m.next = (at + 1) % SIZE;
+        if m.slots.len() < SIZE {
+            m.slots.push((sw.clone(), key, x));
+        } else {
+            m.slots[at] = (sw.clone(), key, x);
         }
-        m.push((sw.clone(), key, x));
     });
     x
 }

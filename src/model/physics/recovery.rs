@@ -163,7 +163,7 @@ pub fn junction_charge_c(
 /// it at every loss evaluation.
 pub fn body_diode_transit_time_memo_s(sw: &SwitchModel) -> f64 {
     thread_local! {
-        static MEMO: Memo<f64> = const { std::cell::RefCell::new(Vec::new()) };
+        static MEMO: Memo<f64> = const { std::cell::RefCell::new(super::capacitance::MemoSlots::new()) };
     }
     remembered(&MEMO, sw, 0, || body_diode_transit_time_s(sw, sw.q_rr_c))
 }
