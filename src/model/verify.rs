@@ -2495,8 +2495,13 @@ fn three_phase_fixed_point(sim: &Sim3, scale: f64) -> Result<[f64; 3], VerifyErr
     let norm = |a: V2, b: V2| (a[0] - b[0]).abs().max((a[1] - b[1]).abs());
     let tol = 1e-11 * scale;
     let mut x = [0.0, 0.0];
+    // The map at `x` when the last step already ran it (a Newton step kept).
+    let mut known: Option<V2> = None;
     for _ in 0..MAX_FIXED_POINT_ITERATIONS {
-        let zx = map(x)?;
+        let zx = match known.take() {
+            Some(z) => z,
+            None => map(x)?,
+        };
         let r = norm(zx, x);
         if r <= tol {
             return Ok(phase_currents(x));
@@ -2511,8 +2516,15 @@ fn three_phase_fixed_point(sim: &Sim3, scale: f64) -> Result<[f64; 3], VerifyErr
         let i_minus_j = m2_inv(&[[1.0 - j[0][0], -j[0][1]], [-j[1][0], 1.0 - j[1][1]]]);
         let step = m2_mul_v(&i_minus_j, [zx[0] - x[0], zx[1] - x[1]]);
         let newton = [x[0] + step[0], x[1] + step[1]];
-        let better = newton.iter().all(|v| v.is_finite()) && norm(map(newton)?, newton) < r;
-        x = if better { newton } else { zx };
+        let z_newton = if newton.iter().all(|v| v.is_finite()) {
+            Some(map(newton)?)
+        } else {
+            None
+        };
+        match z_newton {
+            Some(z) if norm(z, newton) < r => (x, known) = (newton, Some(z)),
+            _ => x = zx,
+        }
     }
     Err(VerifyError::NoSteadyState)
 }
