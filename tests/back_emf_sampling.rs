@@ -27,8 +27,7 @@ use pwmplan::plan::{self, Plan};
 use pwmplan::register_check::{self, RegisterView};
 use pwmplan::solve;
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 /// The timer as the test reads it from a plan.

@@ -9,7 +9,7 @@
 //! foreign file unless `--force`; a bad `--templates` folder is exit 2 with a
 //! message naming the problem, and nothing is written.
 
-mod common;
+use crate::common;
 
 use std::collections::BTreeMap;
 use std::fs;

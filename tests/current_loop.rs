@@ -29,8 +29,7 @@ use pwmplan::plan::{self, Plan};
 use pwmplan::register_check;
 use pwmplan::solve;
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 /// The written plan's loop, as firmware runs it on the simulated stage.
@@ -468,7 +467,7 @@ fn random_case(
     };
     // The product's own check of the written registers (the trigger's window among them)
     // agrees with the plan.
-    let (check, _) = register_check::check_solution(&d, &ev, &sol);
+    let check = register_check::check(&register_check::RegisterView::of(&p));
     if !check.disagreements.is_empty() || check.sample_low_on_before_s.is_none() {
         return Err(format!(
             "the register check disagrees: {:?}\n{design}\n{board}",

@@ -28,8 +28,7 @@ use pwmplan::register_check;
 use pwmplan::solve;
 use pwmplan::verify::{self, Circuit, LegCompare, LegState, Stage, SwitchInterval};
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 /// A random sinusoidal three-phase design read through one DC-link shunt; `None` when it is
@@ -70,7 +69,7 @@ fn random_plan(r: &mut Rng, dir: &Path) -> Result<Option<Plan>, String> {
         return Ok(None);
     };
     // The product's own check of the written registers agrees with the plan.
-    let (check, _) = register_check::check_solution(&d, &ev, &sol);
+    let check = register_check::check(&register_check::RegisterView::of(&p));
     if !check.disagreements.is_empty() {
         return Err(format!(
             "the register check disagrees: {:?}\n{board}\n{design}",

@@ -15,8 +15,7 @@ use pwmplan::model::verify::{self, Circuit};
 use pwmplan::plan::{self, Plan};
 use pwmplan::solve;
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 fn random_plan(r: &mut Rng, dir: &Path, kind: usize) -> Option<Plan> {

@@ -29,7 +29,7 @@
 //! folder under the system temporary folder, so only the first run compiles
 //! `embedded-hal`.
 
-mod common;
+use crate::common;
 
 use std::fmt::Write as _;
 use std::fs;

@@ -14,7 +14,7 @@
 //!   trigger and its settle + sample window lie inside the low-side on-time
 //!   of every sampled leg over the whole electrical period.
 
-mod common;
+use crate::common;
 
 use std::collections::BTreeMap;
 use std::fs;

@@ -18,7 +18,7 @@
 //! Cases run in-process through `cli::run` (fast); every
 //! [`BINARY_EVERY`]-th case also runs the real binary, which must give the
 //! same status and standard error. `PWMPLAN_FUZZ_CASES=20000 cargo test
-//! --release --test fuzz -- --nocapture` runs longer; `PWMPLAN_FUZZ_SEED`
+//! --release --test suite fuzz:: -- --nocapture` runs longer; `PWMPLAN_FUZZ_SEED`
 //! picks another seed. The summary (cases, statuses, refusals with a named
 //! field, the slowest case) is printed.
 

@@ -9,11 +9,11 @@
 //! `emitted_code.rs`); afterwards they guard against unintended change.
 //!
 //! To accept an intended change, run
-//! `UPDATE_GOLDEN=1 cargo test --release --test golden`: it rewrites every
+//! `UPDATE_GOLDEN=1 cargo test --release --test suite golden::`: it rewrites every
 //! `expected/` folder and refreshes the copied inputs from `boards/`; review
 //! the change with `git diff tests/golden` before handing it in.
 
-mod common;
+use crate::common;
 
 use std::collections::BTreeMap;
 use std::fs;
@@ -226,14 +226,14 @@ fn check_case(name: &str) {
     let expected = read_tree(&expected_dir);
     assert!(
         !expected.is_empty(),
-        "{} is empty; create it with UPDATE_GOLDEN=1 cargo test --release --test golden",
+        "{} is empty; create it with UPDATE_GOLDEN=1 cargo test --release --test suite golden::",
         expected_dir.display()
     );
     let msg = compare(&expected, &generated);
     assert!(
         msg.is_empty(),
         "golden case {name}: generated files differ from {}\n{msg}\n\
-         If the change is intended: UPDATE_GOLDEN=1 cargo test --release --test golden, then review git diff tests/golden",
+         If the change is intended: UPDATE_GOLDEN=1 cargo test --release --test suite golden::, then review git diff tests/golden",
         expected_dir.display()
     );
 }
@@ -370,7 +370,7 @@ fn case_inputs_follow_the_bundled_files() {
     }
     assert!(
         stale.is_empty(),
-        "golden inputs differ from boards/ (refresh with UPDATE_GOLDEN=1 cargo test --release --test golden):\n{}",
+        "golden inputs differ from boards/ (refresh with UPDATE_GOLDEN=1 cargo test --release --test suite golden::):\n{}",
         stale.join("\n")
     );
 }

@@ -20,8 +20,7 @@
 //! The random designs are invented (`random_design`); `PWMPLAN_RANDOM_DESIGNS=N`
 //! scales how many run.
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 use std::path::Path;
@@ -679,7 +678,8 @@ fn three_phase_range_points_are_checked_on_the_registers() {
     let d = load_design(Origin::Disk(path)).unwrap_or_else(|e| panic!("{e}"));
     let ev = Evaluator::new(&d);
     let sol = solve::solve(&ev, objective_of(&d));
-    let (check, _) = pwmplan::register_check::check_solution(&d, &ev, &sol);
+    let plan = pwmplan::plan::build(&d, &ev, &sol, None).expect("a plan");
+    let check = pwmplan::register_check::check(&pwmplan::register_check::RegisterView::of(&plan));
     assert!(check.disagreements.is_empty(), "{:?}", check.disagreements);
     let case = check
         .cases

@@ -6,9 +6,8 @@
 //! Every figure here is checked against the register-level verifier (`pwmplan::verify`, an
 //! event-based simulation of the written values), never against the model itself.
 
-mod common;
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::common;
+use crate::random_design;
 
 use std::path::{Path, PathBuf};
 

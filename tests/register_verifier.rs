@@ -24,8 +24,7 @@ use pwmplan::plan::{self, Plan};
 use pwmplan::register_check::{self, RegisterView};
 use pwmplan::solve;
 
-#[path = "random_design/mod.rs"]
-mod random_design;
+use crate::random_design;
 use random_design::*;
 
 /// A plan as written, what is wrong with its withholding, and the labels of the
@@ -77,7 +76,7 @@ fn random_plan(
         return Ok(None);
     };
     // As the CLI does before writing: alternatives whose registers disagree are withheld.
-    let (check, withheld) = register_check::check_solution(&d, &ev, &sol);
+    let (check, withheld) = register_check::check_solution(&plan, &d, &ev, &sol);
     register_check::apply_to_plan(&mut plan, check, withheld.clone());
 
     // Each withheld alternative is out of the written plan and named, with what disagreed,
@@ -217,7 +216,17 @@ fn check_random_designs(seed: u64, kinds: std::ops::Range<usize>, n: usize) {
             }
         };
         *feasible.entry(kind).or_default() += 1;
-        let mut check = register_check::check(&RegisterView::of(&plan));
+        // The check of the written record (`RegisterView::of(&plan)`), as the CLI runs it
+        // before it writes anything; on the first designs of each kind, run again on the
+        // plan as it stands to show that it is that record's.
+        let mut check = plan.register_check.clone();
+        if i < 2 * TOPOLOGIES.len() {
+            assert_eq!(
+                check,
+                register_check::check(&RegisterView::of(&plan)),
+                "design {i}: the plan's register check is not its written record's"
+            );
+        }
         check.disagreements.extend(alternative_disagreements);
         withheld_total += withheld.len();
         if !withheld.is_empty() {

@@ -22,7 +22,6 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use pwmplan::load::{Origin, SourceFile};
-use pwmplan::spec::{BoardFile, DesignFile, SwitchFile};
 use serde_json::Value as Json;
 use serde_yaml::Value as Yaml;
 
@@ -70,9 +69,9 @@ impl Kind {
     fn parses(self, text: &str) -> Result<(), String> {
         let f = SourceFile::from_text(Origin::Disk("mutant.yaml".into()), text.to_string());
         let r = match self {
-            Kind::Switch => f.parse::<SwitchFile>().map(|_| ()),
-            Kind::Board => f.parse::<BoardFile>().map(|_| ()),
-            Kind::Design => f.parse::<DesignFile>().map(|_| ()),
+            Kind::Switch => f.parse_switch().map(|_| ()),
+            Kind::Board => f.parse_board().map(|_| ()),
+            Kind::Design => f.parse_design().map(|_| ()),
         };
         r.map_err(|e| e.to_string())
     }

@@ -3,8 +3,7 @@
 //! the measurement windows). The comparison tests always run; the rerun test
 //! proves the tables are current when ngspice is installed (with `CI=true` a
 //! missing ngspice is a failure).
-#[path = "spice/harness.rs"]
-mod harness;
+use crate::spice_harness as harness;
 #[path = "spice/leg.rs"]
 mod leg;
 

@@ -4,8 +4,7 @@
 //! comparisons always run (no ngspice needed); the rerun test proves the
 //! table is current when ngspice is installed (with `CI=true` a missing
 //! ngspice is a failure).
-#[path = "spice/harness.rs"]
-mod harness;
+use crate::spice_harness as harness;
 #[path = "spice/three_phase.rs"]
 mod three_phase;
 

@@ -107,7 +107,7 @@ pub fn solve_loaded(design: Design, at: Option<f64>, worst_case: bool) -> Result
     })?;
     let mut plan = plan;
     let (check, alternatives) =
-        crate::model::register_check::check_solution(&design, &ev, &solution);
+        crate::model::register_check::check_solution(&plan, &design, &ev, &solution);
     crate::model::register_check::apply_to_plan(&mut plan, check, alternatives);
     if !plan.register_check.disagreements.is_empty() {
         return Err(Failure::Internal(format!(

@@ -40,7 +40,7 @@ pub struct Design {
 /// Load and check a design and everything it references.
 pub fn load_design(origin: Origin) -> Result<Design, InputError> {
     let design_src = SourceFile::read(origin)?;
-    let file: DesignFile = design_src.parse()?;
+    let file: DesignFile = design_src.parse_design()?;
     let spec = file.design;
     let board_origin = design_src
         .origin
@@ -57,7 +57,7 @@ pub fn load_design(origin: Origin) -> Result<Design, InputError> {
     if let Some(m) = board_src.kind_mismatch::<BoardFile>() {
         return Err(design_src.error("design.board", m.describe(&board_src.origin.display())));
     }
-    let board_file: BoardFile = board_src.parse()?;
+    let board_file: BoardFile = board_src.parse_board()?;
     let board = board_file.board;
 
     let mut sources = vec![design_src, board_src];
@@ -128,7 +128,7 @@ fn load_switch_from(
     if let Some(m) = src.kind_mismatch::<SwitchFile>() {
         return Err(from.error(field, m.describe(&src.origin.display())));
     }
-    let file: SwitchFile = src.parse()?;
+    let file: SwitchFile = src.parse_switch()?;
     check_switch(&file.switch, &src, "switch")?;
     Ok((file.switch, src))
 }
@@ -136,7 +136,7 @@ fn load_switch_from(
 /// Load and check a switch file on its own (for comparing switches).
 pub fn load_switch(origin: Origin) -> Result<(SwitchSpec, SourceFile), InputError> {
     let src = SourceFile::read(origin)?;
-    let file: SwitchFile = src.parse()?;
+    let file: SwitchFile = src.parse_switch()?;
     check_switch(&file.switch, &src, "switch")?;
     Ok((file.switch, src))
 }

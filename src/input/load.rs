@@ -373,6 +373,22 @@ impl SourceFile {
         )
     }
 
+    /// [`Self::parse`] as a switch file (one copy of its deserialiser, built
+    /// here, for every caller).
+    pub fn parse_switch(&self) -> Result<crate::input::spec::SwitchFile, InputError> {
+        self.parse()
+    }
+
+    /// [`Self::parse`] as a board file.
+    pub fn parse_board(&self) -> Result<crate::input::spec::BoardFile, InputError> {
+        self.parse()
+    }
+
+    /// [`Self::parse`] as a design file.
+    pub fn parse_design(&self) -> Result<crate::input::spec::DesignFile, InputError> {
+        self.parse()
+    }
+
     /// Deserialise the whole file into `T`, mapping every failure to an
     /// [`InputError`] at the place it concerns. YAML syntax is checked first,
     /// so a syntax error is not hidden behind a field error from the part

@@ -88,10 +88,11 @@ impl<'a> RegisterView<'a> {
     }
 }
 
-/// The check of a solution's chosen setting, and the disagreements of each alternative
-/// whose registers contradict its own figures (label, what disagrees), from the same
-/// records the plan writes.
+/// The check of a solution's chosen setting on its plan as written (`plan`, built from
+/// `sol`), and the disagreements of each alternative whose registers contradict its own
+/// figures (label, what disagrees), from the same records a plan of it would write.
 pub fn check_solution(
+    plan: &Plan,
     d: &Design,
     ev: &Evaluator,
     sol: &Solution,
@@ -119,16 +120,16 @@ pub fn check_solution(
             sampling: sampling.as_ref(),
         })
     };
-    let Some(chosen) = &sol.chosen else {
+    if sol.chosen.is_none() {
         return (RegisterCheck::default(), Vec::new());
-    };
+    }
     let alternatives = sol
         .alternatives
         .iter()
         .map(|a| (a.label.to_string(), check_one(&a.candidate).disagreements))
         .filter(|(_, m)| !m.is_empty())
         .collect();
-    (check_one(chosen), alternatives)
+    (check(&RegisterView::of(plan)), alternatives)
 }
 
 /// Put a solution's register check into its plan: the chosen setting's check, and every

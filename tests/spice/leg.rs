@@ -13,7 +13,7 @@
 
 use std::fmt::Write as _;
 
-use crate::harness::{
+use super::harness::{
     R_DRV_SINK_OHM, R_DRV_SOURCE_OHM, Table, device, header, integrate, load_switch_model,
     run_ngspice,
 };
@@ -314,9 +314,9 @@ pub fn leg_md(cmp: &[LegComparison]) -> String {
          within a median {:.1} % and at worst {:.1} % of ngspice; booking the whole dead time at V_SD(I) \
          instead: median {:.1} %, worst {:.1} %.\n\n",
         cmp.len(),
-        100.0 * crate::harness::median_abs(&edge),
+        100.0 * super::harness::median_abs(&edge),
         100.0 * worst(&edge),
-        100.0 * crate::harness::median_abs(&whole),
+        100.0 * super::harness::median_abs(&whole),
         100.0 * worst(&whole),
     );
     s.push_str(

@@ -36,7 +36,7 @@
 use std::f64::consts::PI;
 use std::fmt::Write as _;
 
-use crate::harness::{
+use super::harness::{
     R_DRV_SINK_OHM, R_DRV_SOURCE_OHM, Table, device, header, load_switch_model, median_abs,
     run_ngspice_within,
 };
