@@ -190,3 +190,33 @@ fn unverified_alternative_is_withheld_not_fatal() {
     // Today the model misses the highest-frequency alternative's ripple by about 6 %.
     println!("withheld: {withheld:?}");
 }
+
+/// Few PWM periods per electrical period (`tests/fixtures/slow-pwm-bldc/`, a random design of
+/// the register verifier, invented parts: 22 at 4 kHz, ripple half the current, a 0.3 µs
+/// dead time). Within one period the fundamental turns 16°, so the current at a leg's edges,
+/// about a quarter period either side of the centre, is not the period's mean; which side
+/// of the dead time an edge falls on (the ripple's narrow active pulses shift by it) follows
+/// the current where it has turned to. Before the ripple model took that into account the
+/// plan was 1.01 % below the registers at 4 kHz and 0.57 % at 8 kHz; now within 0.07 % and 0.24 %
+/// (held to 0.4 %, our own bound).
+#[test]
+fn ripple_follows_the_fundamental_within_a_slow_period() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/slow-pwm-bldc");
+    for at in ["4 kHz", "8 kHz"] {
+        let p = plan_json(&dir, &["--at", at]);
+        assert!(p.register_check.disagreements.is_empty());
+        assert_eq!(p.register_check.cases.len(), 2, "{at}: both cases checked");
+        for c in &p.register_check.cases {
+            let case = p.cases.iter().find(|k| k.name == c.name).expect("case");
+            let rel = c.ripple_pp_a / case.ripple_peak_to_peak_a - 1.0;
+            assert!(
+                rel.abs() <= 0.004,
+                "{at} {}: the registers give {} A peak to peak, the plan {} A ({:+.2} %)",
+                c.name,
+                c.ripple_pp_a,
+                case.ripple_peak_to_peak_a,
+                100.0 * rel
+            );
+        }
+    }
+}

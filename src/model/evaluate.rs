@@ -1686,6 +1686,11 @@ impl Evaluator {
                     peak_a: point.i_peak_a,
                     lag_rad: command.voltage_lead_rad - gamma_rad,
                 }),
+                electrical_hz: 1.0
+                    / self
+                        .three_phase
+                        .as_ref()
+                        .map_or(f64::INFINITY, fundamental_period_s),
             },
             three_phase::DEFAULT_RIPPLE_ANGLES,
             self.acoustic_top_hz(),

@@ -645,9 +645,10 @@ fn fmt_g(x: f64) -> String {
 // (the register-verifier test, 102 compared cases of the chosen settings) the phase-current
 // peak agreed within 0.01 % in the median and 0.62 % at worst (the stiffest motors through the
 // averaged bridge); the ripple, measured about the low-frequency current
-// (`LowFrequencyCurrent`), within 0.04 % in the median and 1.01 % at worst (at 22 PWM periods
-// per electrical period, where the fundamental turns by 16° in a period and the plan's
-// small-ripple model holds it still). Before the edge currents took the other legs' late
+// (`LowFrequencyCurrent`), within 0.04 % in the median and 0.86 % at worst (a ripple 1.3
+// times the current). At 22 PWM periods per electrical period the fundamental turns by 16°
+// in a period: the ripple was 1.01 % off there until the plan took each edge's dead-time
+// side from the current where it has turned to by that edge (now 0.07 %). Before the edge currents took the other legs' late
 // edges into account, one design was 2.9–3.3 % off on the peak: a motor whose back-EMF takes
 // nearly all the voltage (the dead time's loss 3.5 times its impedance drop), with a ripple
 // half the current, where a shift of the zero-crossing dead band by 2° moves the current by
@@ -688,7 +689,7 @@ fn check_three_phase_currents(
     out: &mut RegisterCheck,
 ) {
     out.not_checked.push(format!(
-        "three-phase phase currents are held here to {:.0} % (peak) and {:.0} % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 1.01 % (22 PWM periods per electrical period), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period",
+        "three-phase phase currents are held here to {:.0} % (peak) and {:.0} % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 0.86 %, an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period",
         100.0 * PEAK_REL,
         100.0 * RIPPLE_REL
     ));

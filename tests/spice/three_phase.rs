@@ -1050,6 +1050,7 @@ pub fn predict_bridge(
                     peak_a: m.i_pk_a,
                     lag_rad: lag,
                 }),
+                electrical_hz: c.omega_e() / (2.0 * std::f64::consts::PI),
             };
             let rp = tp::sinusoidal_ripple_at(
                 &stage,

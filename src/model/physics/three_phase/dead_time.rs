@@ -607,16 +607,27 @@ fn error_impedance_over(
 /// from its start: the reference edges `(1 ∓ d)/2` with the turn-on of the incoming switch
 /// delayed by `t_d·f`, so the rising edge moves late when the current at it flows out of the
 /// leg and the falling edge moves late when it flows in (the diode in the current's direction
-/// holds the old level; Murai et al. 1987, from memory). Edge currents as in [`leg_error_v`].
-pub fn effective_edges(d: [f64; 3], x: usize, i_mean_a: f64, c: &LegConditions) -> (f64, f64) {
+/// holds the old level; Murai et al. 1987, from memory). Edge currents as in [`leg_error_v`],
+/// plus the low-frequency current's own move from the period's centre to the edge:
+/// `i_drift_a` is its change over one PWM period (the fundamental turns 2π·f_e/f in a
+/// period, so the edges d·T/2 either side of the centre see ∓`i_drift_a`·d/2; first order in
+/// f_e/f, our own account).
+pub fn effective_edges(
+    d: [f64; 3],
+    x: usize,
+    i_mean_a: f64,
+    i_drift_a: f64,
+    c: &LegConditions,
+) -> (f64, f64) {
     let (rise, fall) = (0.5 * (1.0 - d[x]), 0.5 * (1.0 + d[x]));
     if d[x] <= 0.0 || d[x] >= 1.0 {
         return (rise, fall);
     }
     let delta = excursion_to_falling_edge_a(d, x, c);
+    let drift = 0.5 * d[x] * i_drift_a;
     let shift = c.t_dead_s * c.f_sw_hz;
-    let rise_late = if i_mean_a - delta > 0.0 { shift } else { 0.0 };
-    let fall_late = if i_mean_a + delta < 0.0 { shift } else { 0.0 };
+    let rise_late = shift * late_weight(i_mean_a - drift - delta, c);
+    let fall_late = shift * (1.0 - late_weight(i_mean_a + drift + delta, c));
     (rise + rise_late, fall + fall_late)
 }
 

@@ -486,6 +486,7 @@ mod tests {
                 modulation_index: m,
                 zero_sequence: zs,
                 current: Some(PhaseCurrent { peak_a, lag_rad }),
+                electrical_hz: 0.0,
             };
             let at = |n| sinusoidal_ripple_at(&st, 1e-3, &command, n, 0.0, 0).unwrap();
             let (coarse, dense) = (at(DEFAULT_RIPPLE_ANGLES), at(7_200));

@@ -93,6 +93,7 @@ pub fn sinusoidal_ripple(
             modulation_index,
             zero_sequence,
             current: None,
+            electrical_hz: 0.0,
         },
         n_angles,
         max_hz,
@@ -109,6 +110,10 @@ pub struct RippleCommand {
     /// really leaves ([`effective_edges`]: an edge moves late by `t_d` where the current at
     /// it keeps the old level); without it, the commanded one.
     pub current: Option<PhaseCurrent>,
+    /// The electrical frequency, Hz: with `current`, the edges see the current's fundamental
+    /// where it has turned to by then within the period ([`effective_edges`]); 0 holds it
+    /// at the period's centre value.
+    pub electrical_hz: f64,
 }
 
 /// [`sinusoidal_ripple`] of a [`RippleCommand`].
@@ -124,6 +129,7 @@ pub fn sinusoidal_ripple_at(
         modulation_index,
         zero_sequence,
         current,
+        electrical_hz,
     } = *command;
     stage.validate()?;
     check("l_phase_h", l_phase_h, l_phase_h > 0.0)?;
@@ -148,7 +154,7 @@ pub fn sinusoidal_ripple_at(
         let d = leg_duties(modulation_index, zero_sequence, theta);
         match current {
             None => phase_voltage_pattern(d, stage.v_bus_v, t_s),
-            Some(c) => dead_time_pattern(stage, l_phase_h, d, c, theta),
+            Some(c) => dead_time_pattern(stage, l_phase_h, d, (c, electrical_hz), theta),
         }
     };
     for j in 0..n_angles {
@@ -191,7 +197,7 @@ fn dead_time_pattern(
     stage: &ThreePhaseStage<'_>,
     l_phase_h: f64,
     d: [f64; 3],
-    c: PhaseCurrent,
+    (c, electrical_hz): (PhaseCurrent, f64),
     theta: f64,
 ) -> Vec<(f64, f64, f64)> {
     let legs = LegConditions {
@@ -202,9 +208,11 @@ fn dead_time_pattern(
         v_sd_v: 0.0,
         l_phase_h,
     };
+    let turn_per_period_rad = 2.0 * PI * electrical_hz / stage.f_sw_hz;
     let edges = [0, 1, 2].map(|x| {
-        let i = c.peak_a * (theta - 2.0 * PI * x as f64 / 3.0 - c.lag_rad).sin();
-        effective_edges(d, x, i, &legs)
+        let (sin, cos) = (theta - 2.0 * PI * x as f64 / 3.0 - c.lag_rad).sin_cos();
+        let drift = c.peak_a * cos * turn_per_period_rad;
+        effective_edges(d, x, c.peak_a * sin, drift, &legs)
     });
     phase_voltage_between(
         edges.map(|e| e.0),

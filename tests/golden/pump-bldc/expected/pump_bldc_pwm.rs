@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:e194e8f5983285dee6600bfd19d96a34f9a2099c1b49d6a5a075ff9c4984e0aa)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:3281e1905ded545b66bc7527945729d20c062f3b3666c58ebe60fc0b300d7b5a)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -71,7 +71,7 @@
 //!   high-bus case  at compare duty 69.809 %: mean current 9.998 A (plan 10.00 A), ripple 805.9 mA peak to peak (plan 805.4 mA)
 //!   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 1.50 µs before and holds 2.43 µs after (settling and sampling need no more)
 //!   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
-//!   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 1.01 % (22 PWM periods per electrical period), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
+//!   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 0.86 %, an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +621 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:0b640fa1d0d492059a8eae180f855e9e1b1ce166b9f1dd85dce5079b4c80a58f)
+ * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:9ec442e7c7ca63cf6e5bcbdd51042c0a74f069803d2776c0a585fc3e65b6448f)
  *
  * Chosen setting
  *   design            pump-dc-link
@@ -72,7 +72,7 @@
  *   high-bus case  at compare duty 69.809 %: mean current 9.998 A (plan 10.00 A), ripple 805.9 mA peak to peak (plan 805.4 mA)
  *   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 1.50 µs before and holds 800 ns after (settling and sampling need no more)
  *   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
- *   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 1.01 % (22 PWM periods per electrical period), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
+ *   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 0.86 %, an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
  *
  * Alternatives
  *   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +621 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution

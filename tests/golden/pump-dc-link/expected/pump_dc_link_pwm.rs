@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:4af116db2fcb7370774249c4a5c3f470a9c90d2d100d007499309ae99cb3269b)
+//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:9fe99240e8133344764f07524f6b1475cb409f33a7e822aa612525864f87bd73)
 //!
 //! Chosen setting
 //!   design            pump-dc-link
@@ -71,7 +71,7 @@
 //!   high-bus case  at compare duty 69.809 %: mean current 9.998 A (plan 10.00 A), ripple 805.9 mA peak to peak (plan 805.4 mA)
 //!   sampling       at the written trigger, over the compares the plan allows, the sampled state has held 1.50 µs before and holds 800 ns after (settling and sampling need no more)
 //!   current limit  trip window 10.88 A to 12.67 A over the 32 tolerance corners; a stall chopped on the written threshold, blanking and filter peaks at 12.69 A (plan 12.77 A) with a mean of 12.55 A (plan's stall current 12.67 A)
-//!   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 1.01 % (22 PWM periods per electrical period), an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
+//!   not checked    three-phase phase currents are held here to 5 % (peak) and 5 % (ripple), not the 1 % of single-phase plans: on 150 random designs the chosen settings' peaks agree within 0.62 % and their ripples within 0.86 %, an alternative setting was seen 2 % off on the peak, and the averaged model holds the fundamental still within a PWM period, which loses accuracy below about 20 PWM periods per electrical period
 //!
 //! Alternatives
 //!   rounder-frequency  30.000 kHz (divider 1, 4000 ticks, centre): +621 mW total loss, +0.9 K junction, -268 mA ripple, -0.58 bits resolution
