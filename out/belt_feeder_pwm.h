@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:b0fc46014078a3c4f4cc3333300051039da9e02a41bac0f1c91e0a27d660998f)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:546d1e2179b0892fa573224911eb597b73c6cda12f28ccfd395c429f7909b18e)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -113,7 +113,8 @@
 #define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20004546ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define BELT_FEEDER_PWM_DUTY_STEPS 4399U
-/* Dead-time register code and the ticks it gives (147.7 ns). */
+/* Dead-time register code and the ticks it gives (147.7 ns;
+ * ticks of the counter's clock, 88.000 MHz). */
 #define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0DU
 #define BELT_FEEDER_PWM_DEAD_TIME_TICKS 13U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:a700dc2b0d4fb51785d8c53b82856c20b744e570dde6e1e42fd56effb60d9ed3)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:d950483b7827582ca70a48ac24ab8d105c8d5147d2ba659fffae82323a56bb4d)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -122,7 +122,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20004546;
 pub const DUTY_STEPS: u32 = 4399;
 /// Dead-time register code (147.7 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0D;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 88.000 MHz).
 pub const DEAD_TIME_TICKS: u32 = 13;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 40;

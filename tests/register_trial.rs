@@ -220,3 +220,28 @@ fn ripple_follows_the_fundamental_within_a_slow_period() {
         }
     }
 }
+
+/// DEAD_TIME_TICKS counts the dead-time generator's clock, which this board divides by two
+/// from the 120 MHz timer clock: 19 ticks of 60 MHz are the header's 316.7 ns (19/60 MHz, by
+/// hand), and both emitted files say which clock, so the ticks are not read as timer ticks.
+#[test]
+fn dead_time_ticks_name_their_clock() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/slow-pwm-bldc");
+    let out = tempfile::tempdir().expect("temporary folder");
+    let out_arg = out.path().to_string_lossy().to_string();
+    let o = run(&dir, &["plan", "design.yaml", "--out", &out_arg]);
+    assert_eq!(o.status.code(), Some(0), "{}", describe(&o));
+    let header = std::fs::read_to_string(out.path().join("slow_pwm_bldc_pwm.h")).expect("header");
+    let module = std::fs::read_to_string(out.path().join("slow_pwm_bldc_pwm.rs")).expect("module");
+    assert!(
+        header.contains("#define SLOW_PWM_BLDC_PWM_DEAD_TIME_TICKS 19U"),
+        "{header}"
+    );
+    assert!(header.contains("(316.7 ns;\n * ticks of the dead-time generator's clock, 60.000 MHz, not of the counter's 120.00 MHz)"), "{header}");
+    assert!(
+        module.contains(
+            "ticks of the dead-time generator's clock, 60.000 MHz, not of the counter's 120.00 MHz"
+        ),
+        "{module}"
+    );
+}

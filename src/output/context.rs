@@ -50,6 +50,8 @@ pub struct TimerLiterals {
     pub dead_time_code: String,
     pub dead_time_ticks: String,
     pub dead_time_ns: String,
+    /// What DEAD_TIME_TICKS counts (the dead-time generator's clock).
+    pub dead_time_tick_text: String,
     pub compare_min: String,
     pub compare_max: String,
     /// Compare counts that make up a leg's dead time (rounded; 0 without one).

@@ -71,6 +71,27 @@ fn q(v: f64, d: Dimension, sig: usize) -> String {
     format_quantity(v, d, sig)
 }
 
+/// What one dead-time tick is: the dead-time generator counts its own clock, which may be
+/// a division of the timer's, so a firmware engineer must not read the ticks as timer ticks.
+fn dead_time_tick_text(ticks: Option<u64>, dead_time_s: f64, counter_hz: f64) -> String {
+    let Some(n) = ticks.filter(|&n| n > 0 && dead_time_s > 0.0) else {
+        return "no dead time inserted".into();
+    };
+    let tick_hz = n as f64 / dead_time_s;
+    if (tick_hz / counter_hz - 1.0).abs() < 1e-6 {
+        format!(
+            "ticks of the counter's clock, {}",
+            q(tick_hz, Dimension::Frequency, 5)
+        )
+    } else {
+        format!(
+            "ticks of the dead-time generator's clock, {}, not of the counter's {}",
+            q(tick_hz, Dimension::Frequency, 5),
+            q(counter_hz, Dimension::Frequency, 5)
+        )
+    }
+}
+
 fn watts(w: f64) -> String {
     q(w, Dimension::Power, 3)
 }
@@ -254,6 +275,11 @@ fn timer_literals(plan: &Plan) -> TimerLiterals {
         dead_time_code: format!("0x{dt_code:02X}"),
         dead_time_ticks: t.dead_time_ticks.unwrap_or(0).to_string(),
         dead_time_ns: format!("{:.1}", t.dead_time_s * 1e9),
+        dead_time_tick_text: dead_time_tick_text(
+            t.dead_time_ticks,
+            t.dead_time_s,
+            t.clock_hz / t.divider as f64,
+        ),
         compare_min: plan.pwm.compare_min.to_string(),
         compare_max: plan.pwm.compare_max.to_string(),
         dead_time_comp: format!("{}", plan.pwm.dead_time_comp_counts.round() as u64),

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:90be7b2aa573ba31461db4b959b7de9bd0e2948e38fc70f3d757801fb088b201)
+ * pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:bbdbac5e448f708edbaeae4835b1e52da98a13fe08a8c6d97f497caa656946f2)
  *
  * Chosen setting
  *   design         belt-feeder
@@ -113,7 +113,8 @@
 #define BELT_FEEDER_PWM_FREQUENCY_MILLIHZ 20004546ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define BELT_FEEDER_PWM_DUTY_STEPS 4399U
-/* Dead-time register code and the ticks it gives (147.7 ns). */
+/* Dead-time register code and the ticks it gives (147.7 ns;
+ * ticks of the counter's clock, 88.000 MHz). */
 #define BELT_FEEDER_PWM_DEAD_TIME_CODE 0x0DU
 #define BELT_FEEDER_PWM_DEAD_TIME_TICKS 13U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:17864f821bff1f0960c3b72bde49a4a0108319e10d77b3f7c3db0b82916e66a0)
+//! pwmplan 0.1.0 plan for belt-feeder (pwmplan-hash:dddf18a43a0f8458df1347ea464fc251de50ac6be815a15f868b526485998ae7)
 //!
 //! Chosen setting
 //!   design         belt-feeder
@@ -122,7 +122,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20004546;
 pub const DUTY_STEPS: u32 = 4399;
 /// Dead-time register code (147.7 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0D;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 88.000 MHz).
 pub const DEAD_TIME_TICKS: u32 = 13;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 40;

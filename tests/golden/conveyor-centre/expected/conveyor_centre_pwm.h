@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:70e0ded21b964a4904ee3ff0af98e64fedc2fbf5aa6213c9d9750be46e89363d)
+ * pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:fecbbcf85de830a596998bd3d4159b2bc44fbfe8d92a66f0ba1d8a03be91e26e)
  *
  * Chosen setting
  *   design         conveyor-centre
@@ -145,7 +145,8 @@
 #define CONVEYOR_CENTRE_PWM_FREQUENCY_MILLIHZ 20009095ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define CONVEYOR_CENTRE_PWM_DUTY_STEPS 2199U
-/* Dead-time register code and the ticks it gives (147.7 ns). */
+/* Dead-time register code and the ticks it gives (147.7 ns;
+ * ticks of the counter's clock, 88.000 MHz). */
 #define CONVEYOR_CENTRE_PWM_DEAD_TIME_CODE 0x0DU
 #define CONVEYOR_CENTRE_PWM_DEAD_TIME_TICKS 13U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:427604d984fd51c5fc54e6870901e41034c06853f564a14f69175a917b70f803)
+//! pwmplan 0.1.0 plan for conveyor-centre (pwmplan-hash:af0cfd531e8a98f432769e607aab29a5cd2f1f5873657ce068afef6f862df3e2)
 //!
 //! Chosen setting
 //!   design         conveyor-centre
@@ -155,7 +155,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20009095;
 pub const DUTY_STEPS: u32 = 2199;
 /// Dead-time register code (147.7 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0D;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 88.000 MHz).
 pub const DEAD_TIME_TICKS: u32 = 13;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 20;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:663b761907441bbff1ac8f85785b75ee5271d8872a07ecb8909207de7c84fb86)
+ * pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:1d3ed9ad20974134289c61a0144935fa37188672b20e35bb49e55318bed5b943)
  *
  * Chosen setting
  *   design            pump-bldc
@@ -129,7 +129,8 @@
 #define PUMP_BLDC_PWM_FREQUENCY_MILLIHZ 20006669ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define PUMP_BLDC_PWM_DUTY_STEPS 2999U
-/* Dead-time register code and the ticks it gives (125.0 ns). */
+/* Dead-time register code and the ticks it gives (125.0 ns;
+ * ticks of the counter's clock, 120.00 MHz). */
 #define PUMP_BLDC_PWM_DEAD_TIME_CODE 0x0FU
 #define PUMP_BLDC_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:3281e1905ded545b66bc7527945729d20c062f3b3666c58ebe60fc0b300d7b5a)
+//! pwmplan 0.1.0 plan for pump-bldc (pwmplan-hash:3f3a746997e1315eefee6798a83528afdfb04c3538003bcabeb2332e47fccf1f)
 //!
 //! Chosen setting
 //!   design            pump-bldc
@@ -140,7 +140,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20006669;
 pub const DUTY_STEPS: u32 = 2999;
 /// Dead-time register code (125.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0F;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 120.00 MHz).
 pub const DEAD_TIME_TICKS: u32 = 15;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 20;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:9ec442e7c7ca63cf6e5bcbdd51042c0a74f069803d2776c0a585fc3e65b6448f)
+ * pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:8a8322259252be67829e9b61c7a0c1f5e6f5a59fa587d6e72eb6861871cc003c)
  *
  * Chosen setting
  *   design            pump-dc-link
@@ -129,7 +129,8 @@
 #define PUMP_DC_LINK_PWM_FREQUENCY_MILLIHZ 20006669ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define PUMP_DC_LINK_PWM_DUTY_STEPS 2999U
-/* Dead-time register code and the ticks it gives (125.0 ns). */
+/* Dead-time register code and the ticks it gives (125.0 ns;
+ * ticks of the counter's clock, 120.00 MHz). */
 #define PUMP_DC_LINK_PWM_DEAD_TIME_CODE 0x0FU
 #define PUMP_DC_LINK_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

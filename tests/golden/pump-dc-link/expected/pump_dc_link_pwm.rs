@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:9fe99240e8133344764f07524f6b1475cb409f33a7e822aa612525864f87bd73)
+//! pwmplan 0.1.0 plan for pump-dc-link (pwmplan-hash:b3491520e48579bd92e906d712731f82696a3104cdd89cd5ad06ff9602798ac2)
 //!
 //! Chosen setting
 //!   design            pump-dc-link
@@ -140,7 +140,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20006669;
 pub const DUTY_STEPS: u32 = 2999;
 /// Dead-time register code (125.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0F;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 120.00 MHz).
 pub const DEAD_TIME_TICKS: u32 = 15;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 20;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:10de3f58d0b29613424f13bafda87055f405f23312d88bc21eb7adba0a99178a)
+ * pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:41b8f04a973095e64934580d79700688021f0b396898d534f756df6b32a36359)
  *
  * Chosen setting
  *   design            pump-sensorless
@@ -131,7 +131,8 @@
 #define PUMP_SENSORLESS_PWM_FREQUENCY_MILLIHZ 20006669ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define PUMP_SENSORLESS_PWM_DUTY_STEPS 2999U
-/* Dead-time register code and the ticks it gives (125.0 ns). */
+/* Dead-time register code and the ticks it gives (125.0 ns;
+ * ticks of the counter's clock, 120.00 MHz). */
 #define PUMP_SENSORLESS_PWM_DEAD_TIME_CODE 0x0FU
 #define PUMP_SENSORLESS_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

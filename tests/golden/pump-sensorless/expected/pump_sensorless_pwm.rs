@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:f7ad29dac03b031bb1949a16667fc21f46285a954774cef4e4f4691e39ed2c35)
+//! pwmplan 0.1.0 plan for pump-sensorless (pwmplan-hash:9f11c68501337c4e77fec8e99c4853dcc095528d0037893207c9fa991043c0c8)
 //!
 //! Chosen setting
 //!   design            pump-sensorless
@@ -142,7 +142,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 20006669;
 pub const DUTY_STEPS: u32 = 2999;
 /// Dead-time register code (125.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0F;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 120.00 MHz).
 pub const DEAD_TIME_TICKS: u32 = 15;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 20;

@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:8c6bdcef7b66ef8beca9c01b931f29f0d42ebc9c93d3f6bc104c86f3f6d5a82d)
+ * pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:ce210b9f1f78d4ba6de34b553a8c839f68eea31a405c8a3eabd07202df6781f1)
  *
  * Chosen setting
  *   design         vent-fan
@@ -124,7 +124,8 @@
 #define VENT_FAN_PWM_FREQUENCY_MILLIHZ 13605442ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define VENT_FAN_PWM_DUTY_STEPS 3234U
-/* Dead-time register code and the ticks it gives (0.0 ns). */
+/* Dead-time register code and the ticks it gives (0.0 ns;
+ * no dead time inserted). */
 #define VENT_FAN_PWM_DEAD_TIME_CODE 0x00U
 #define VENT_FAN_PWM_DEAD_TIME_TICKS 0U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:5ee8321e53f587dc3c5daa73d7c5c424ba412b5cfb3e181d45ffb8806418c3fc)
+//! pwmplan 0.1.0 plan for vent-fan (pwmplan-hash:11b8116641940cc803e027f649a105ca95ea76c9b7d08fda652f2141ffcaef46)
 //!
 //! Chosen setting
 //!   design         vent-fan
@@ -132,7 +132,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 13605442;
 pub const DUTY_STEPS: u32 = 3234;
 /// Dead-time register code (0.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x00;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (no dead time inserted).
 pub const DEAD_TIME_TICKS: u32 = 0;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 9;

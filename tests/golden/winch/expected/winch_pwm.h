@@ -1,5 +1,5 @@
 /*
- * pwmplan 0.1.0 plan for winch (pwmplan-hash:9536dad3e8292f4dce6b70620978d0545e7e0e24a7c05ad9e1223e5790f54ef8)
+ * pwmplan 0.1.0 plan for winch (pwmplan-hash:1cba9e5912ce14980c257732c455c3d8856c358f7497ec16d59d22e01a2d938f)
  *
  * Chosen setting
  *   design         winch
@@ -159,7 +159,8 @@
 #define WINCH_PWM_FREQUENCY_MILLIHZ 11721039ULL
 /* Compare value for 100 % on; compare values run 0..DUTY_STEPS. */
 #define WINCH_PWM_DUTY_STEPS 5119U
-/* Dead-time register code and the ticks it gives (125.0 ns). */
+/* Dead-time register code and the ticks it gives (125.0 ns;
+ * ticks of the counter's clock, 120.00 MHz). */
 #define WINCH_PWM_DEAD_TIME_CODE 0x0FU
 #define WINCH_PWM_DEAD_TIME_TICKS 15U
 /* Allowed compare range (minimum pulses, dead time, bootstrap refresh). */

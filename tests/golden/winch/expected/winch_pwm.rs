@@ -1,4 +1,4 @@
-//! pwmplan 0.1.0 plan for winch (pwmplan-hash:680880b114b4347706858fc40760cfb90b5e5c5726d85d906b8fd7a22341bc54)
+//! pwmplan 0.1.0 plan for winch (pwmplan-hash:714359a07466fbd773cdd8a0e40fa96d542d1c930b49da34f7be2953ebb7e9bb)
 //!
 //! Chosen setting
 //!   design         winch
@@ -169,7 +169,7 @@ pub const FREQUENCY_MILLIHZ: u64 = 11721039;
 pub const DUTY_STEPS: u32 = 5119;
 /// Dead-time register code (125.0 ns).
 pub const DEAD_TIME_CODE: u32 = 0x0F;
-/// Dead-time ticks the code gives.
+/// Dead-time ticks the code gives (ticks of the counter's clock, 120.00 MHz).
 pub const DEAD_TIME_TICKS: u32 = 15;
 /// Smallest non-zero compare value allowed.
 pub const COMPARE_MIN: u32 = 32;
