@@ -224,6 +224,7 @@ fn ripple_follows_the_fundamental_within_a_slow_period() {
 /// DEAD_TIME_TICKS counts the dead-time generator's clock, which this board divides by two
 /// from the 120 MHz timer clock: 19 ticks of 60 MHz are the header's 316.7 ns (19/60 MHz, by
 /// hand), and both emitted files say which clock, so the ticks are not read as timer ticks.
+/// The board gives no minimum pulse, and the register check's row says so in words.
 #[test]
 fn dead_time_ticks_name_their_clock() {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/slow-pwm-bldc");
@@ -243,5 +244,11 @@ fn dead_time_ticks_name_their_clock() {
             "ticks of the dead-time generator's clock, 60.000 MHz, not of the counter's 120.00 MHz"
         ),
         "{module}"
+    );
+    assert!(
+        header.contains(
+            "at COMPARE_MAX (the board gives no minimum pulse, bootstrap refresh 970 ns)"
+        ),
+        "{header}"
     );
 }

@@ -564,11 +564,16 @@ fn register_check_rows(plan: &Plan) -> Vec<Row> {
     let r = &plan.register_check;
     let t = |s: f64| format_quantity(s, Dimension::Time, 3);
     let a = |i: f64| format_quantity(i, Dimension::Current, 4);
+    // A board without a minimum pulse says so in words, not as "0.00 s".
+    let min_pulse = if plan.pwm.min_pulse_s > 0.0 {
+        format!("minimum pulse {}", t(plan.pwm.min_pulse_s))
+    } else {
+        "the board gives no minimum pulse".into()
+    };
     let mut pulses = format!(
-        "shortest high-side pulse {} at COMPARE_MIN, shortest low-side on-time {} at COMPARE_MAX (minimum pulse {}",
+        "shortest high-side pulse {} at COMPARE_MIN, shortest low-side on-time {} at COMPARE_MAX ({min_pulse}",
         t(r.shortest_high_pulse_s),
         t(r.shortest_low_pulse_s),
-        t(plan.pwm.min_pulse_s)
     );
     if let Some(refresh) = plan.pwm.refresh_s {
         pulses.push_str(&format!(", bootstrap refresh {}", t(refresh)));
