@@ -1686,11 +1686,9 @@ impl Evaluator {
                     peak_a: point.i_peak_a,
                     lag_rad: command.voltage_lead_rad - gamma_rad,
                 }),
-                electrical_hz: 1.0
-                    / self
-                        .three_phase
-                        .as_ref()
-                        .map_or(f64::INFINITY, fundamental_period_s),
+                electrical_hz: self.three_phase.as_ref().map_or(0.0, |tp| {
+                    tp.omega_e_rad_s.max(0.0) / (2.0 * std::f64::consts::PI)
+                }),
             },
             three_phase::DEFAULT_RIPPLE_ANGLES,
             self.acoustic_top_hz(),

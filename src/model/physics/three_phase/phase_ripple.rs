@@ -154,7 +154,7 @@ pub fn sinusoidal_ripple_at(
         let d = leg_duties(modulation_index, zero_sequence, theta);
         match current {
             None => phase_voltage_pattern(d, stage.v_bus_v, t_s),
-            Some(c) => dead_time_pattern(stage, l_phase_h, d, (c, electrical_hz), theta),
+            Some(c) => dead_time_pattern(stage, l_phase_h, d, c, electrical_hz, theta),
         }
     };
     for j in 0..n_angles {
@@ -192,12 +192,14 @@ pub fn sinusoidal_ripple_at(
 }
 
 /// The phase voltage of one period at angle `theta` with each leg's pulse of the commanded
-/// duties `d` as the dead time leaves it for the phase currents of `c` ([`effective_edges`]).
+/// duties `d` as the dead time leaves it for the phase currents of `c`, turning at
+/// `electrical_hz` within the period ([`effective_edges`]).
 fn dead_time_pattern(
     stage: &ThreePhaseStage<'_>,
     l_phase_h: f64,
     d: [f64; 3],
-    (c, electrical_hz): (PhaseCurrent, f64),
+    c: PhaseCurrent,
+    electrical_hz: f64,
     theta: f64,
 ) -> Vec<(f64, f64, f64)> {
     let legs = LegConditions {
